@@ -1,0 +1,67 @@
+//! Command-line interface: argument definitions (clap derive) and the dispatch from a
+//! parsed command to the pipeline. Output text goes to the writer handed in; exit codes
+//! are returned, never decided by `std::process::exit` here.
+
+use std::io::Write;
+use std::path::PathBuf;
+
+use clap::{Parser, Subcommand};
+
+use crate::Error;
+use crate::model::Period;
+use crate::report::Format;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "tessera",
+    version,
+    about = "Group close: consolidates subsidiaries' trial balances into group statements"
+)]
+pub struct Cli {
+    /// The data folder holding entities/ and rates/.
+    #[arg(long, global = true, default_value = ".")]
+    pub data: PathBuf,
+    /// Log stage timings and details to stderr (e.g. -v, or RUST_LOG=tessera=debug).
+    #[arg(short, long, global = true, action = clap::ArgAction::Count)]
+    pub verbose: u8,
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Checks every delivery against every rule and lists all findings in one run.
+    Check {
+        /// Period to check (YYYY-MM); the latest period delivered by default.
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
+    /// Translates every entity into the presentation currency (IAS 21) and explains
+    /// each translation difference.
+    Translate {
+        /// Period to report (YYYY-MM); the latest period delivered by default.
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        /// Show one entity only.
+        #[arg(long)]
+        entity: Option<String>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
+}
+
+pub fn parse_period(s: &str) -> Result<Period, String> {
+    s.parse()
+}
+
+/// Runs a parsed command, writing its report to `out`; returns the exit code.
+pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
+    match cli.command {
+        Command::Check { period, format } => crate::commands::check(&cli.data, period, format, out),
+        Command::Translate { period, entity, format } => {
+            crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
+        }
+    }
+}

@@ -1,0 +1,200 @@
+//! Findings: problems in the user's data, collected across a whole run and reported
+//! together. Each finding is named after the rule it breaks, says where (file, line,
+//! entity, account, period), shows the arithmetic and says what to do. A broken internal
+//! invariant is not a finding but a bug, and panics instead.
+
+use std::fmt;
+
+use serde::Serialize;
+
+use crate::model::{EntityId, Period, Source};
+
+/// How a finding affects the run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Severity {
+    /// Worth knowing; the close can go on.
+    Warning,
+    /// The close cannot be trusted until this is fixed.
+    Blocking,
+    /// An input could not be read at all (exit code 2).
+    Unreadable,
+}
+
+/// The rules a delivery can break. The variant name is the finding's name in every
+/// output, so it is part of the interface: rename only with a changelog entry.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+pub enum Rule {
+    FileMissing,
+    FileUnreadable,
+    ColumnMissing,
+    ColumnUnknown,
+    ValueMissing,
+    ValueInvalid,
+    SettingInvalid,
+    AmountMalformed,
+    AmountSurplusDecimals,
+    AmountTooLarge,
+    RowDuplicated,
+    EntityUnknown,
+    EntityDuplicated,
+    EntityFolderUnknown,
+    CurrencyUnknown,
+    CountryUnknown,
+    AccountInvalid,
+    AccountDuplicated,
+    AccountUnknown,
+    AccountUnmapped,
+    AccountMappedTwice,
+    CounterpartyMissing,
+    CounterpartyUnknown,
+    CounterpartySelf,
+    TransactionCurrencyIncomplete,
+    PeriodOutsideYear,
+    DeliveryDuplicated,
+    DeliveryMissing,
+    OpeningMissing,
+    OpeningHistoricalAmountMissing,
+    TrialBalanceUnbalanced,
+    RateMissing,
+    RateNotPositive,
+    RateDuplicated,
+    HoldingInvalid,
+    EntityOverHeld,
+    StructureUnsolvable,
+    OverrideConflict,
+    LayoutInvalid,
+    LayoutAccountUncovered,
+    LayoutAccountTwice,
+}
+
+impl Rule {
+    /// The severity a finding of this rule has unless a stage says otherwise.
+    pub fn default_severity(self) -> Severity {
+        match self {
+            Rule::FileMissing | Rule::FileUnreadable | Rule::ColumnMissing => Severity::Unreadable,
+            Rule::ColumnUnknown | Rule::EntityFolderUnknown | Rule::DeliveryMissing => Severity::Warning,
+            _ => Severity::Blocking,
+        }
+    }
+}
+
+impl fmt::Display for Rule {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        fmt::Debug::fmt(self, f)
+    }
+}
+
+/// One problem found in the data.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct Finding {
+    pub rule: Rule,
+    pub severity: Severity,
+    pub file: Option<String>,
+    pub line: Option<u64>,
+    pub entity: Option<EntityId>,
+    pub account: Option<String>,
+    pub period: Option<Period>,
+    /// What is wrong, with the arithmetic where there is some.
+    pub message: String,
+    /// What the user should do about it.
+    pub action: String,
+}
+
+impl Finding {
+    pub fn new(rule: Rule, message: impl Into<String>, action: impl Into<String>) -> Self {
+        Self {
+            rule,
+            severity: rule.default_severity(),
+            file: None,
+            line: None,
+            entity: None,
+            account: None,
+            period: None,
+            message: message.into(),
+            action: action.into(),
+        }
+    }
+    pub fn at(mut self, source: &Source) -> Self {
+        self.file = Some(source.file.clone());
+        self.line = source.line;
+        self
+    }
+    pub fn in_file(mut self, file: impl Into<String>) -> Self {
+        self.file = Some(file.into());
+        self
+    }
+    pub fn line(mut self, line: u64) -> Self {
+        self.line = Some(line);
+        self
+    }
+    pub fn entity(mut self, entity: &EntityId) -> Self {
+        self.entity = Some(entity.clone());
+        self
+    }
+    pub fn account(mut self, account: impl Into<String>) -> Self {
+        self.account = Some(account.into());
+        self
+    }
+    pub fn period(mut self, period: Period) -> Self {
+        self.period = Some(period);
+        self
+    }
+    pub fn severity(mut self, severity: Severity) -> Self {
+        self.severity = severity;
+        self
+    }
+    /// Where, as one short string: `file:line`.
+    pub fn location(&self) -> String {
+        match (&self.file, self.line) {
+            (Some(f), Some(l)) => format!("{f}:{l}"),
+            (Some(f), None) => f.clone(),
+            _ => String::new(),
+        }
+    }
+}
+
+/// Every finding of a run, in a stable order for reproducible reports.
+#[derive(Debug, Default, Clone, Serialize)]
+pub struct Findings {
+    items: Vec<Finding>,
+}
+
+impl Findings {
+    pub fn push(&mut self, f: Finding) {
+        self.items.push(f);
+    }
+    pub fn extend(&mut self, fs: impl IntoIterator<Item = Finding>) {
+        self.items.extend(fs);
+    }
+    pub fn items(&self) -> &[Finding] {
+        &self.items
+    }
+    pub fn is_empty(&self) -> bool {
+        self.items.is_empty()
+    }
+    pub fn len(&self) -> usize {
+        self.items.len()
+    }
+    pub fn worst(&self) -> Option<Severity> {
+        self.items.iter().map(|f| f.severity).max()
+    }
+    pub fn has_blocking(&self) -> bool {
+        self.worst().is_some_and(|s| s >= Severity::Blocking)
+    }
+    pub fn has_unreadable(&self) -> bool {
+        self.worst() == Some(Severity::Unreadable)
+    }
+    pub fn count(&self, rule: Rule) -> usize {
+        self.items.iter().filter(|f| f.rule == rule).count()
+    }
+    /// Sorts by file, line, entity, period, account, rule: the order reports print in.
+    pub fn sort(&mut self) {
+        self.items.sort_by(|a, b| {
+            b.severity.cmp(&a.severity).then_with(|| {
+                (&a.file, a.line, &a.entity, a.period, &a.account, a.rule, &a.message)
+                    .cmp(&(&b.file, b.line, &b.entity, b.period, &b.account, b.rule, &b.message))
+            })
+        });
+    }
+}

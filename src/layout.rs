@@ -1,0 +1,234 @@
+//! Statement layouts: which group accounts each printed line collects and which lines
+//! it totals, as defined in `entities/layouts.csv`, never in code. This module resolves
+//! a layout against the chart and checks it covers every account exactly once; it does
+//! not format anything (that is `report`).
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use rust_decimal::Decimal;
+
+use crate::findings::{Finding, Rule};
+use crate::model::{AccountClass, AccountDef, GroupAccount, Source, Statement};
+
+/// How a statement shows signs: ledgers are debit positive; income, equity and
+/// liabilities are usually shown positive (credit positive).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Presentation {
+    DebitPositive,
+    CreditPositive,
+}
+
+impl Presentation {
+    /// The shown value of a debit-positive amount.
+    pub fn show(&self, debit_positive: Decimal) -> Decimal {
+        match self {
+            Presentation::DebitPositive => debit_positive,
+            Presentation::CreditPositive => -debit_positive,
+        }
+    }
+}
+
+/// One row of `layouts.csv`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LayoutLine {
+    pub statement: String,
+    pub line: String,
+    pub label: String,
+    pub accounts: Option<String>,
+    pub total_of: Option<String>,
+    pub presentation: Presentation,
+    pub source: Source,
+}
+
+/// The statements a layout may define.
+pub const STATEMENTS: &[&str] = &["profit_or_loss", "oci", "balance_sheet", "equity_changes"];
+
+/// A line resolved against the chart.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ResolvedLine {
+    pub line: String,
+    pub label: String,
+    pub presentation: Presentation,
+    pub body: LineBody,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum LineBody {
+    Accounts(Vec<GroupAccount>),
+    /// Line ids with their sign (+1 or -1).
+    Total(Vec<(String, i32)>),
+}
+
+/// A statement resolved against the chart: lines in print order.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ResolvedStatement {
+    pub statement: String,
+    pub lines: Vec<ResolvedLine>,
+}
+
+impl ResolvedStatement {
+    /// Values of every line (debit positive) from account amounts.
+    pub fn evaluate(&self, amounts: &BTreeMap<GroupAccount, Decimal>) -> Vec<(String, Decimal)> {
+        let mut values: BTreeMap<String, Decimal> = BTreeMap::new();
+        let mut out = Vec::new();
+        for l in &self.lines {
+            let v = match &l.body {
+                LineBody::Accounts(accts) => accts.iter().filter_map(|a| amounts.get(a)).copied().sum(),
+                LineBody::Total(parts) => parts
+                    .iter()
+                    .map(|(id, sign)| values.get(id).copied().unwrap_or_default() * Decimal::from(*sign))
+                    .sum(),
+            };
+            values.insert(l.line.clone(), v);
+            out.push((l.line.clone(), v));
+        }
+        out
+    }
+}
+
+/// Whether `account` falls in the token `spec`: an account id, or an inclusive range
+/// `from..to` compared as text among ids of the same length.
+fn matches(spec: &str, account: &str) -> bool {
+    match spec.split_once("..") {
+        Some((from, to)) => {
+            account.len() == from.len() && account.len() == to.len() && from <= account && account <= to
+        }
+        None => spec == account,
+    }
+}
+
+/// Which accounts a statement collects.
+fn in_statement(statement: &str, a: &AccountDef) -> bool {
+    match statement {
+        "profit_or_loss" => a.statement == Statement::ProfitOrLoss,
+        "oci" => a.statement == Statement::Oci,
+        "balance_sheet" => a.statement == Statement::BalanceSheet,
+        "equity_changes" => a.class == AccountClass::Equity,
+        _ => false,
+    }
+}
+
+/// Resolves every statement and reports uncovered, doubly covered and malformed lines.
+pub fn resolve(lines: &[LayoutLine], chart: &[AccountDef], findings: &mut Vec<Finding>) -> Vec<ResolvedStatement> {
+    let mut out = Vec::new();
+    for st in STATEMENTS {
+        let rows: Vec<&LayoutLine> = lines.iter().filter(|l| l.statement == *st).collect();
+        if rows.is_empty() {
+            findings.push(Finding::new(
+                Rule::LayoutInvalid,
+                format!("layouts.csv defines no line of statement {st}"),
+                format!("add the lines of {st} to entities/layouts.csv"),
+            ));
+            continue;
+        }
+        let mut seen_ids = BTreeSet::new();
+        let mut covered: BTreeMap<&str, &LayoutLine> = BTreeMap::new();
+        let mut resolved = Vec::new();
+        for l in rows {
+            if !seen_ids.insert(l.line.clone()) {
+                findings.push(
+                    Finding::new(
+                        Rule::LayoutInvalid,
+                        format!("line id {} appears twice in {st}", l.line),
+                        "give each line its own id",
+                    )
+                    .at(&l.source),
+                );
+                continue;
+            }
+            let body = match (&l.accounts, &l.total_of) {
+                (Some(specs), None) => {
+                    let specs: Vec<&str> = specs.split_whitespace().collect();
+                    let mut accts = Vec::new();
+                    for a in chart.iter().filter(|a| in_statement(st, a)) {
+                        if specs.iter().any(|s| matches(s, a.account.as_str())) {
+                            if let Some(prev) = covered.insert(a.account.as_str(), l) {
+                                findings.push(
+                                    Finding::new(
+                                        Rule::LayoutAccountTwice,
+                                        format!(
+                                            "account {} is collected by line {} and by line {} of {st}",
+                                            a.account, prev.line, l.line
+                                        ),
+                                        "collect each account on exactly one line of a statement",
+                                    )
+                                    .at(&l.source)
+                                    .account(a.account.as_str()),
+                                );
+                            }
+                            accts.push(a.account.clone());
+                        }
+                    }
+                    LineBody::Accounts(accts)
+                }
+                (None, Some(parts)) => {
+                    let mut v = Vec::new();
+                    for p in parts.split_whitespace() {
+                        let (id, sign) = match p.strip_prefix('-') {
+                            Some(id) => (id, -1),
+                            None => (p.strip_prefix('+').unwrap_or(p), 1),
+                        };
+                        if !seen_ids.contains(id) {
+                            findings.push(
+                                Finding::new(
+                                    Rule::LayoutInvalid,
+                                    format!("line {} totals {id}, which is not a line above it in {st}", l.line),
+                                    "a total may only add lines defined above it",
+                                )
+                                .at(&l.source),
+                            );
+                        }
+                        v.push((id.to_string(), sign));
+                    }
+                    LineBody::Total(v)
+                }
+                _ => {
+                    findings.push(
+                        Finding::new(
+                            Rule::LayoutInvalid,
+                            format!("line {} of {st} must have either `accounts` or `total_of`", l.line),
+                            "fill in exactly one of the two columns",
+                        )
+                        .at(&l.source),
+                    );
+                    continue;
+                }
+            };
+            resolved.push(ResolvedLine {
+                line: l.line.clone(),
+                label: l.label.clone(),
+                presentation: l.presentation,
+                body,
+            });
+        }
+        for a in chart.iter().filter(|a| in_statement(st, a)) {
+            if !covered.contains_key(a.account.as_str()) {
+                findings.push(
+                    Finding::new(
+                        Rule::LayoutAccountUncovered,
+                        format!("group account {} ({}) is on no line of {st}", a.account, a.name),
+                        format!("add it to a line of {st} in entities/layouts.csv"),
+                    )
+                    .at(&a.source)
+                    .account(a.account.as_str()),
+                );
+            }
+        }
+        out.push(ResolvedStatement { statement: st.to_string(), lines: resolved });
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn ranges_compare_ids_of_equal_length() {
+        assert!(matches("4000..4099", "4050"));
+        assert!(!matches("4000..4099", "40500"));
+        assert!(!matches("4000..4099", "4100"));
+        assert!(matches("1550", "1550"));
+    }
+}

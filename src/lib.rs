@@ -1,0 +1,31 @@
+//! Tessera: the group close from a folder of plain files. Trial balances of many entities
+//! in many currencies are checked, mapped to the group chart, translated (IAS 21),
+//! matched and eliminated, and rolled up into group, sub-group and segment statements
+//! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
+
+pub mod cli;
+pub mod commands;
+pub mod findings;
+pub mod layout;
+pub mod load;
+pub mod map_accounts;
+pub mod model;
+pub mod money;
+pub mod proof;
+pub mod report;
+pub mod translate;
+pub mod validate;
+
+/// Errors that stop a run. Problems in the user's data are not errors but findings.
+#[derive(Debug, thiserror::Error)]
+pub enum Error {
+    /// The command line or the data folder cannot be used as asked.
+    #[error("{0}")]
+    Usage(String),
+    #[error("cannot read or write a file: {0}")]
+    Io(#[from] std::io::Error),
+    #[error("table processing failed: {0}")]
+    Polars(#[from] polars::prelude::PolarsError),
+}
+
+pub use cli::{Cli, run};

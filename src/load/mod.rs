@@ -1,0 +1,929 @@
+//! Loading: the only module that reads input files. It turns a data folder into a
+//! `Dataset` (plain Rust values for the small tables, polars frames of exact decimals for
+//! everything that grows) and reports every problem it meets as a finding, so that one
+//! run shows everything wrong with a delivery. It knows nothing about accounting rules
+//! beyond the shape of each file; `validate` checks the rules.
+
+mod ledger;
+mod settings;
+pub mod table;
+
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::{Path, PathBuf};
+use std::str::FromStr;
+
+use chrono::NaiveDate;
+use polars::prelude::*;
+use rust_decimal::Decimal;
+use sha2::{Digest, Sha256};
+
+use crate::findings::{Finding, Findings, Rule, Severity};
+use crate::layout::{LayoutLine, Presentation};
+use crate::model::*;
+use table::{Spec, TextTable};
+
+pub use ledger::LEDGER_COLUMNS;
+
+/// Limits on what grows, and what happens at them: a data folder beyond a limit is
+/// refused with a finding rather than processed slowly or partly.
+pub const MAX_ENTITIES: usize = 100_000;
+pub const MAX_ACCOUNTS: usize = 100_000;
+
+/// How a rate is quoted against the presentation currency.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Quote {
+    /// Units of the currency for one unit of the presentation currency (1.10 USD per EUR).
+    UnitsPerPresentation,
+    /// Presentation-currency units for one unit of the currency (0.909 EUR per USD).
+    PresentationPerUnit,
+}
+
+impl Quote {
+    pub fn parse(s: &str) -> Option<Self> {
+        match s {
+            "units_per_presentation" => Some(Quote::UnitsPerPresentation),
+            "presentation_per_unit" => Some(Quote::PresentationPerUnit),
+            _ => None,
+        }
+    }
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Quote::UnitsPerPresentation => "units_per_presentation",
+            Quote::PresentationPerUnit => "presentation_per_unit",
+        }
+    }
+}
+
+/// A rate as written, with its direction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+pub struct Rate {
+    pub value: Decimal,
+    pub quote: Quote,
+}
+
+impl Rate {
+    /// Presentation-currency value of `amount`, unrounded (rust_decimal's 28 digits when
+    /// the quote divides). Used for explanations, never for the translated lines.
+    pub fn apply(&self, amount: Decimal) -> Decimal {
+        match self.quote {
+            Quote::PresentationPerUnit => amount * self.value,
+            Quote::UnitsPerPresentation => amount / self.value,
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct MonthlyRate {
+    pub period: Period,
+    pub currency: Currency,
+    pub closing: Rate,
+    pub average: Rate,
+    pub average_ytd: Option<Rate>,
+    pub source: Source,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct HistoricalRate {
+    pub entity: EntityId,
+    pub account: GroupAccount,
+    pub period: Period,
+    pub rate: Rate,
+    pub note: String,
+    pub source: Source,
+}
+
+/// One input file and its SHA-256, recorded in every proof.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct InputFile {
+    pub file: String,
+    pub sha256: String,
+}
+
+/// Everything read from a data folder.
+#[derive(Debug, Clone)]
+pub struct Dataset {
+    pub root: PathBuf,
+    pub settings: Settings,
+    pub entities: Vec<Entity>,
+    pub holdings: Vec<Holding>,
+    pub accounts: Vec<AccountDef>,
+    pub layouts: Vec<LayoutLine>,
+    /// entity, local_account, local_name, group_account, file, line.
+    pub mappings: DataFrame,
+    /// Trial balance rows: see `ledger::LEDGER_COLUMNS`.
+    pub ledger: DataFrame,
+    /// Opening balances: the ledger columns (period null, kind "opening") plus
+    /// amount_presentation.
+    pub opening: DataFrame,
+    pub rates: Vec<MonthlyRate>,
+    pub historical_rates: Vec<HistoricalRate>,
+    /// Entities with a folder (a delivery in progress or complete).
+    pub delivered_entities: BTreeSet<EntityId>,
+    pub inputs: Vec<InputFile>,
+}
+
+impl Dataset {
+    pub fn entity(&self, id: &EntityId) -> Option<&Entity> {
+        self.entities.iter().find(|e| &e.id == id)
+    }
+    pub fn account(&self, a: &GroupAccount) -> Option<&AccountDef> {
+        self.accounts.iter().find(|x| &x.account == a)
+    }
+    /// Periods present in the trial balances, sorted.
+    pub fn periods(&self) -> Vec<Period> {
+        let mut out = BTreeSet::new();
+        if let Ok(c) = self.ledger.column("period")
+            && let Ok(ca) = c.str()
+        {
+            for p in ca.iter().flatten() {
+                if let Ok(p) = Period::from_str(p) {
+                    out.insert(p);
+                }
+            }
+        }
+        out.into_iter().collect()
+    }
+}
+
+/// Relative display name of a path under the data folder.
+fn rel(root: &Path, p: &Path) -> String {
+    p.strip_prefix(root).unwrap_or(p).to_string_lossy().replace('\\', "/")
+}
+
+/// Reads the data folder. Returns the dataset when the settings, entities and chart
+/// could be read; every problem met on the way is in the findings either way.
+pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
+    let _span = tracing::info_span!("load", root = %root.display()).entered();
+    let mut f: Vec<Finding> = Vec::new();
+    let mut inputs: Vec<InputFile> = Vec::new();
+    let ent_dir = root.join("entities");
+    let rates_dir = root.join("rates");
+    for d in [&ent_dir, &rates_dir] {
+        if !d.is_dir() {
+            f.push(
+                Finding::new(
+                    Rule::FileMissing,
+                    format!("folder `{}` does not exist", rel(root, d)),
+                    "run tessera from the data folder or pass --data DIR (the folder holding entities/ and rates/)",
+                )
+                .in_file(rel(root, d)),
+            );
+        }
+    }
+    if !ent_dir.is_dir() {
+        return (None, into_findings(f));
+    }
+
+    let settings_path = ent_dir.join("group.toml");
+    let settings = match read_text(root, &settings_path, &mut f, &mut inputs) {
+        Some(text) => settings::parse(&text, &rel(root, &settings_path), &mut f),
+        None => None,
+    };
+
+    let entities = load_entities(root, &ent_dir.join("entities.csv"), &mut f, &mut inputs);
+    let holdings = load_holdings(root, &ent_dir.join("holdings.csv"), &mut f, &mut inputs);
+    let accounts = load_accounts(root, &ent_dir.join("accounts.csv"), &mut f, &mut inputs);
+    let layouts = load_layouts(root, &ent_dir.join("layouts.csv"), &mut f, &mut inputs);
+
+    // Entity folders: deliveries.
+    let known: BTreeMap<EntityId, Currency> = entities.iter().map(|e| (e.id.clone(), e.currency)).collect();
+    let mut delivered = BTreeSet::new();
+    let mut mapping_tables = Vec::new();
+    let mut ledger_tables = Vec::new();
+    let mut opening_tables = Vec::new();
+    let mut dirs: Vec<PathBuf> = std::fs::read_dir(&ent_dir)
+        .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_dir()).collect())
+        .unwrap_or_default();
+    dirs.sort();
+    for dir in dirs {
+        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+        let id = EntityId::new(&name);
+        if !known.contains_key(&id) {
+            f.push(
+                Finding::new(
+                    Rule::EntityFolderUnknown,
+                    format!("folder `{name}` is not an entity of entities.csv; its files are not read"),
+                    "add the entity to entities/entities.csv or move the folder out of entities/",
+                )
+                .in_file(rel(root, &dir)),
+            );
+            continue;
+        }
+        delivered.insert(id.clone());
+        let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
+            .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_file()).collect())
+            .unwrap_or_default();
+        files.sort();
+        let mut has_mapping = false;
+        for file in files {
+            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+            let display = rel(root, &file);
+            let kind = ledger::delivery_kind(&fname);
+            if fname == "mapping.csv" {
+                has_mapping = true;
+                hash_into(root, &file, &mut inputs);
+                if let Some(t) = table::read(&file, &display, &ledger::MAPPING_SPEC, &mut f) {
+                    mapping_tables.push((id.clone(), t));
+                }
+            } else if fname == "opening.csv" {
+                hash_into(root, &file, &mut inputs);
+                if let Some(t) = table::read(&file, &display, &ledger::OPENING_SPEC, &mut f) {
+                    opening_tables.push((id.clone(), t));
+                }
+            } else if let Some(kind) = kind {
+                hash_into(root, &file, &mut inputs);
+                if let Some(t) = table::read(&file, &display, &ledger::LEDGER_SPEC, &mut f) {
+                    ledger_tables.push((id.clone(), kind, t));
+                }
+            } else if !fname.starts_with('.') && fname != "documents.csv" {
+                f.push(
+                    Finding::new(
+                        Rule::ColumnUnknown,
+                        format!("file `{fname}` is not part of an entity delivery and is not read"),
+                        "name trial balances tb-<label>.movements.csv or tb-<label>.balances.csv (or .parquet)",
+                    )
+                    .in_file(&display)
+                    .severity(Severity::Warning),
+                );
+            }
+        }
+        if !has_mapping {
+            f.push(
+                Finding::new(
+                    Rule::FileMissing,
+                    format!("entity {id} has no mapping.csv, so none of its accounts can be mapped"),
+                    "deliver entities/<entity>/mapping.csv with the entity's local accounts",
+                )
+                .in_file(format!("entities/{name}/mapping.csv"))
+                .entity(&id)
+                .severity(Severity::Blocking),
+            );
+        }
+    }
+
+    let mappings = ledger::build_mappings(mapping_tables, &mut f);
+    let ledger_df = ledger::build_ledger(ledger_tables, &known, &mut f);
+    let opening = ledger::build_opening(opening_tables, &known, &mut f);
+
+    let pres = settings.as_ref().map(|s| s.presentation_currency);
+    let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
+    let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
+
+    inputs.sort_by(|a, b| a.file.cmp(&b.file));
+    let findings = into_findings(f);
+    let Some(settings) = settings else {
+        return (None, findings);
+    };
+    (
+        Some(Dataset {
+            root: root.to_path_buf(),
+            settings,
+            entities,
+            holdings,
+            accounts,
+            layouts,
+            mappings,
+            ledger: ledger_df,
+            opening,
+            rates,
+            historical_rates,
+            delivered_entities: delivered,
+            inputs,
+        }),
+        findings,
+    )
+}
+
+fn into_findings(f: Vec<Finding>) -> Findings {
+    let mut out = Findings::default();
+    out.extend(f);
+    out
+}
+
+fn hash_into(root: &Path, path: &Path, inputs: &mut Vec<InputFile>) {
+    if let Ok(bytes) = std::fs::read(path) {
+        inputs.push(InputFile { file: rel(root, path), sha256: sha256_hex(&bytes) });
+    }
+}
+
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    let digest = Sha256::digest(bytes);
+    digest.iter().map(|b| format!("{b:02x}")).collect()
+}
+
+fn read_text(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Option<String> {
+    match std::fs::read(path) {
+        Ok(bytes) => {
+            inputs.push(InputFile { file: rel(root, path), sha256: sha256_hex(&bytes) });
+            match String::from_utf8(bytes) {
+                Ok(s) => Some(s),
+                Err(_) => {
+                    f.push(
+                        Finding::new(Rule::FileUnreadable, "the file is not UTF-8 text", "save it as UTF-8")
+                            .in_file(rel(root, path)),
+                    );
+                    None
+                }
+            }
+        }
+        Err(e) => {
+            f.push(
+                Finding::new(
+                    Rule::FileMissing,
+                    format!("cannot read the file: {e}"),
+                    "create it; docs/formats.md has an example of every file",
+                )
+                .in_file(rel(root, path)),
+            );
+            None
+        }
+    }
+}
+
+/// Opens a required small table, recording its hash.
+fn open_table(
+    root: &Path,
+    path: &Path,
+    spec: &Spec<'_>,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Option<TextTable> {
+    if !path.is_file() {
+        f.push(
+            Finding::new(
+                Rule::FileMissing,
+                "the file does not exist",
+                "create it; docs/formats.md has an example of every file",
+            )
+            .in_file(rel(root, path)),
+        );
+        return None;
+    }
+    hash_into(root, path, inputs);
+    table::read(path, &rel(root, path), spec, f)
+}
+
+/// A required text cell, or a `ValueMissing` finding.
+fn required(t: &TextTable, col: &str, row: usize, f: &mut Vec<Finding>) -> Option<String> {
+    let v = t.get(col, row);
+    if v.is_none() {
+        f.push(
+            Finding::new(Rule::ValueMissing, format!("`{col}` is empty"), format!("fill in `{col}`"))
+                .in_file(&t.file)
+                .line(t.line(row)),
+        );
+    }
+    v
+}
+
+fn invalid(t: &TextTable, row: usize, col: &str, value: &str, expected: &str) -> Finding {
+    Finding::new(
+        Rule::ValueInvalid,
+        format!("`{col}` is {value:?}, not {expected}"),
+        format!("write `{col}` as {expected}"),
+    )
+    .in_file(&t.file)
+    .line(t.line(row))
+}
+
+fn parse_share(t: &TextTable, row: usize, col: &str, f: &mut Vec<Finding>) -> Option<Decimal> {
+    let v = required(t, col, row, f)?;
+    match Decimal::from_str(&v) {
+        Ok(d) if d >= Decimal::ZERO && d <= Decimal::ONE => Some(d),
+        _ => {
+            f.push(invalid(t, row, col, &v, "a share between 0 and 1 (0.60 for 60%)"));
+            None
+        }
+    }
+}
+
+fn parse_date(t: &TextTable, row: usize, col: &str, v: &str, f: &mut Vec<Finding>) -> Option<NaiveDate> {
+    match NaiveDate::parse_from_str(v, "%Y-%m-%d") {
+        Ok(d) => Some(d),
+        Err(_) => {
+            f.push(invalid(t, row, col, v, "a date YYYY-MM-DD"));
+            None
+        }
+    }
+}
+
+fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<Entity> {
+    let spec = Spec {
+        required: &["entity", "name", "country", "currency"],
+        optional: &["hyperinflationary_from"],
+        prefixes: &["segment_"],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    if t.height() > MAX_ENTITIES {
+        f.push(
+            Finding::new(
+                Rule::ValueInvalid,
+                format!("{} entities exceed the limit of {MAX_ENTITIES}", t.height()),
+                "split the group into sub-groups closed separately",
+            )
+            .in_file(&t.file),
+        );
+        return Vec::new();
+    }
+    let seg_cols = t.prefixed("segment_");
+    let mut seen: BTreeMap<String, u64> = BTreeMap::new();
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let line = t.line(row);
+        let (Some(id), Some(name), Some(country), Some(ccy)) = (
+            required(&t, "entity", row, f),
+            required(&t, "name", row, f),
+            required(&t, "country", row, f),
+            required(&t, "currency", row, f),
+        ) else {
+            continue;
+        };
+        if let Some(first) = seen.insert(id.clone(), line) {
+            f.push(
+                Finding::new(
+                    Rule::EntityDuplicated,
+                    format!("entity {id} is listed twice (first on line {first})"),
+                    "keep one row per entity",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(&EntityId::new(&id)),
+            );
+            continue;
+        }
+        let eid = EntityId::new(&id);
+        if isocountry::CountryCode::for_alpha2(&country).is_err() {
+            f.push(
+                Finding::new(
+                    Rule::CountryUnknown,
+                    format!("country {country:?} of entity {id} is not an ISO 3166-1 alpha-2 code"),
+                    "use a two-letter code such as NL, JP or BH",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(&eid),
+            );
+        }
+        let currency = match Currency::parse(&ccy) {
+            Some(c) if c.minor_unit_checked().is_some_and(|m| m <= 3) => c,
+            Some(c) => {
+                f.push(
+                    Finding::new(
+                        Rule::CurrencyUnknown,
+                        format!("currency {c} of entity {id} has no ISO 4217 minor unit of 0 to 3 decimals"),
+                        "a functional currency must be a national currency (ISO 4217)",
+                    )
+                    .in_file(&t.file)
+                    .line(line)
+                    .entity(&eid),
+                );
+                continue;
+            }
+            None => {
+                f.push(
+                    Finding::new(
+                        Rule::CurrencyUnknown,
+                        format!("currency {ccy:?} of entity {id} is not an ISO 4217 code"),
+                        "use a three-letter code such as EUR, JPY or BHD",
+                    )
+                    .in_file(&t.file)
+                    .line(line)
+                    .entity(&eid),
+                );
+                continue;
+            }
+        };
+        let hyper = match t.get("hyperinflationary_from", row) {
+            None => None,
+            Some(v) => match Period::from_str(&v) {
+                Ok(p) => Some(p),
+                Err(_) => {
+                    f.push(invalid(&t, row, "hyperinflationary_from", &v, "a period YYYY-MM"));
+                    None
+                }
+            },
+        };
+        let segments = seg_cols
+            .iter()
+            .filter_map(|c| t.get(c, row).map(|v| (c.trim_start_matches("segment_").to_string(), v)))
+            .collect();
+        out.push(Entity {
+            id: eid,
+            name,
+            country,
+            currency,
+            segments,
+            hyperinflationary_from: hyper,
+            source: Source::line(&t.file, line),
+        });
+    }
+    out
+}
+
+fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<Holding> {
+    let spec = Spec {
+        required: &["owner", "owned", "capital_share", "voting_share", "valid_from"],
+        optional: &["valid_to", "arrangement", "method_override", "override_reason"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let line = t.line(row);
+        let owner = required(&t, "owner", row, f);
+        let owned = required(&t, "owned", row, f);
+        let cap = parse_share(&t, row, "capital_share", f);
+        let votes = parse_share(&t, row, "voting_share", f);
+        let from = required(&t, "valid_from", row, f).and_then(|v| parse_date(&t, row, "valid_from", &v, f));
+        let to = t.get("valid_to", row).map(|v| parse_date(&t, row, "valid_to", &v, f));
+        let arrangement = match t.get("arrangement", row).as_deref() {
+            None => Some(None),
+            Some("joint_operation") => Some(Some(Arrangement::JointOperation)),
+            Some("joint_venture") => Some(Some(Arrangement::JointVenture)),
+            Some(v) => {
+                f.push(invalid(&t, row, "arrangement", v, "joint_operation, joint_venture or empty"));
+                None
+            }
+        };
+        let method_override = match (t.get("method_override", row), t.get("override_reason", row)) {
+            (None, None) => Some(None),
+            (None, Some(_)) => {
+                f.push(
+                    Finding::new(
+                        Rule::HoldingInvalid,
+                        "`override_reason` is given without a `method_override`",
+                        "name the method or drop the reason",
+                    )
+                    .in_file(&t.file)
+                    .line(line),
+                );
+                None
+            }
+            (Some(m), reason) => match (Method::parse(&m), reason) {
+                (Some(m), Some(r)) => Some(Some((m, r))),
+                (Some(_), None) => {
+                    f.push(
+                        Finding::new(
+                            Rule::HoldingInvalid,
+                            "a method override needs a reason",
+                            "fill in `override_reason`: overriding the method is a judgement that must be documented",
+                        )
+                        .in_file(&t.file)
+                        .line(line),
+                    );
+                    None
+                }
+                (None, _) => {
+                    f.push(invalid(&t, row, "method_override", &m, "full, proportionate, equity or none"));
+                    None
+                }
+            },
+        };
+        let (Some(owner), Some(owned), Some(cap), Some(votes), Some(from), Some(arrangement), Some(method_override)) =
+            (owner, owned, cap, votes, from, arrangement, method_override)
+        else {
+            continue;
+        };
+        let valid_to = match to {
+            None => None,
+            Some(Some(d)) => Some(d),
+            Some(None) => continue,
+        };
+        if owner == owned {
+            f.push(
+                Finding::new(
+                    Rule::HoldingInvalid,
+                    format!("{owner} is shown holding itself"),
+                    "remove the row; treasury shares are not holdings",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(&EntityId::new(&owner)),
+            );
+            continue;
+        }
+        if valid_to.is_some_and(|to| to < from) {
+            f.push(
+                Finding::new(Rule::HoldingInvalid, "`valid_to` is before `valid_from`", "correct the dates")
+                    .in_file(&t.file)
+                    .line(line),
+            );
+            continue;
+        }
+        out.push(Holding {
+            owner: EntityId::new(owner),
+            owned: EntityId::new(owned),
+            capital_share: cap,
+            voting_share: votes,
+            valid_from: from,
+            valid_to,
+            arrangement,
+            method_override,
+            source: Source::line(&t.file, line),
+        });
+    }
+    out
+}
+
+fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<AccountDef> {
+    let spec = Spec {
+        required: &["account", "name", "statement", "class", "basis"],
+        optional: &["ic_kind", "non_current"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut seen: BTreeMap<String, u64> = BTreeMap::new();
+    let mut out = Vec::new();
+    for row in 0..t.height().min(MAX_ACCOUNTS) {
+        let line = t.line(row);
+        let (Some(account), Some(name), Some(st), Some(cl), Some(ba)) = (
+            required(&t, "account", row, f),
+            required(&t, "name", row, f),
+            required(&t, "statement", row, f),
+            required(&t, "class", row, f),
+            required(&t, "basis", row, f),
+        ) else {
+            continue;
+        };
+        if let Some(first) = seen.insert(account.clone(), line) {
+            f.push(
+                Finding::new(
+                    Rule::AccountDuplicated,
+                    format!("group account {account} is defined twice (first on line {first})"),
+                    "keep one row per account",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .account(&account),
+            );
+            continue;
+        }
+        let statement = match st.as_str() {
+            "balance_sheet" => Statement::BalanceSheet,
+            "profit_or_loss" => Statement::ProfitOrLoss,
+            "oci" => Statement::Oci,
+            v => {
+                f.push(invalid(&t, row, "statement", v, "balance_sheet, profit_or_loss or oci"));
+                continue;
+            }
+        };
+        let class = match cl.as_str() {
+            "asset" => AccountClass::Asset,
+            "liability" => AccountClass::Liability,
+            "equity" => AccountClass::Equity,
+            "income" => AccountClass::Income,
+            "expense" => AccountClass::Expense,
+            v => {
+                f.push(invalid(&t, row, "class", v, "asset, liability, equity, income or expense"));
+                continue;
+            }
+        };
+        let basis = match ba.as_str() {
+            "closing" => Basis::Closing,
+            "average" => Basis::Average,
+            "historical" => Basis::Historical,
+            v => {
+                f.push(invalid(&t, row, "basis", v, "closing, average or historical"));
+                continue;
+            }
+        };
+        let coherent = matches!(
+            (statement, class, basis),
+            (Statement::BalanceSheet, AccountClass::Asset | AccountClass::Liability, Basis::Closing)
+                | (Statement::BalanceSheet, AccountClass::Equity, Basis::Historical)
+                | (
+                    Statement::ProfitOrLoss | Statement::Oci,
+                    AccountClass::Income | AccountClass::Expense,
+                    Basis::Average
+                )
+        );
+        if !coherent {
+            f.push(
+                Finding::new(
+                    Rule::AccountInvalid,
+                    format!("group account {account}: statement {st}, class {cl} and basis {ba} do not go together"),
+                    "assets and liabilities are balance_sheet/closing, equity balance_sheet/historical, income and expenses profit_or_loss or oci/average (IAS 21.39)",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .account(&account),
+            );
+            continue;
+        }
+        let non_current = match t.get("non_current", row).as_deref() {
+            None | Some("false") => false,
+            Some("true") => true,
+            Some(v) => {
+                f.push(invalid(&t, row, "non_current", v, "true, false or empty"));
+                false
+            }
+        };
+        out.push(AccountDef {
+            account: GroupAccount::new(account),
+            name,
+            statement,
+            class,
+            basis,
+            ic_kind: t.get("ic_kind", row),
+            non_current,
+            source: Source::line(&t.file, line),
+        });
+    }
+    out
+}
+
+fn load_layouts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<LayoutLine> {
+    let spec = Spec {
+        required: &["statement", "line", "label"],
+        optional: &["accounts", "total_of", "presentation"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let (Some(statement), Some(line_id), Some(label)) =
+            (required(&t, "statement", row, f), required(&t, "line", row, f), required(&t, "label", row, f))
+        else {
+            continue;
+        };
+        let presentation = match t.get("presentation", row).as_deref() {
+            None | Some("debit_positive") => Presentation::DebitPositive,
+            Some("credit_positive") => Presentation::CreditPositive,
+            Some(v) => {
+                f.push(invalid(&t, row, "presentation", v, "debit_positive or credit_positive"));
+                continue;
+            }
+        };
+        out.push(LayoutLine {
+            statement,
+            line: line_id,
+            label,
+            accounts: t.get("accounts", row),
+            total_of: t.get("total_of", row),
+            presentation,
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+fn parse_rate(t: &TextTable, row: usize, col: &str, quote: Quote, f: &mut Vec<Finding>) -> Option<Rate> {
+    let v = t.get(col, row)?;
+    match Decimal::from_str(&v) {
+        Ok(d) if d.scale() as usize <= crate::money::RATE_SCALE && d > Decimal::ZERO => Some(Rate { value: d, quote }),
+        Ok(d) if d <= Decimal::ZERO => {
+            f.push(
+                Finding::new(
+                    Rule::RateNotPositive,
+                    format!("`{col}` rate is {v}"),
+                    "a rate must be positive; correct it at the source",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            None
+        }
+        _ => {
+            f.push(invalid(t, row, col, &v, "a positive decimal with at most 10 decimals"));
+            None
+        }
+    }
+}
+
+fn load_rates(
+    root: &Path,
+    path: &Path,
+    presentation: Option<Currency>,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<MonthlyRate> {
+    let spec = Spec {
+        required: &["period", "currency", "closing", "average", "quote"],
+        optional: &["average_ytd", "source"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut seen: BTreeMap<(Period, Currency), u64> = BTreeMap::new();
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let line = t.line(row);
+        let (Some(p), Some(c), Some(q)) =
+            (required(&t, "period", row, f), required(&t, "currency", row, f), required(&t, "quote", row, f))
+        else {
+            continue;
+        };
+        let Ok(period) = Period::from_str(&p) else {
+            f.push(invalid(&t, row, "period", &p, "a period YYYY-MM"));
+            continue;
+        };
+        let Some(currency) = Currency::parse(&c) else {
+            f.push(
+                Finding::new(
+                    Rule::CurrencyUnknown,
+                    format!("currency {c:?} is not an ISO 4217 code"),
+                    "use a three-letter ISO 4217 code",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .period(period),
+            );
+            continue;
+        };
+        if Some(currency) == presentation {
+            f.push(
+                Finding::new(
+                    Rule::ValueInvalid,
+                    format!("a rate is given for the presentation currency {currency} itself"),
+                    "remove the row: the presentation currency translates at 1",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .period(period)
+                .severity(Severity::Warning),
+            );
+            continue;
+        }
+        let Some(quote) = Quote::parse(&q) else {
+            f.push(invalid(&t, row, "quote", &q, "units_per_presentation or presentation_per_unit"));
+            continue;
+        };
+        if t.get("closing", row).is_none() || t.get("average", row).is_none() {
+            f.push(
+                Finding::new(
+                    Rule::RateMissing,
+                    format!("{currency} {period}: closing or average rate is empty"),
+                    "fill in both rates",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .period(period),
+            );
+        }
+        let closing = parse_rate(&t, row, "closing", quote, f);
+        let average = parse_rate(&t, row, "average", quote, f);
+        let average_ytd = parse_rate(&t, row, "average_ytd", quote, f);
+        if let Some(first) = seen.insert((period, currency), line) {
+            f.push(
+                Finding::new(
+                    Rule::RateDuplicated,
+                    format!("{currency} {period} is given twice (first on line {first})"),
+                    "keep one row per currency and month",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .period(period),
+            );
+            continue;
+        }
+        let (Some(closing), Some(average)) = (closing, average) else { continue };
+        out.push(MonthlyRate { period, currency, closing, average, average_ytd, source: Source::line(&t.file, line) });
+    }
+    out
+}
+
+fn load_historical(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<HistoricalRate> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec { required: &["entity", "account", "period", "rate", "quote"], optional: &["note"], prefixes: &[] };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let (Some(e), Some(a), Some(p), Some(q)) = (
+            required(&t, "entity", row, f),
+            required(&t, "account", row, f),
+            required(&t, "period", row, f),
+            required(&t, "quote", row, f),
+        ) else {
+            continue;
+        };
+        let Ok(period) = Period::from_str(&p) else {
+            f.push(invalid(&t, row, "period", &p, "a period YYYY-MM"));
+            continue;
+        };
+        let Some(quote) = Quote::parse(&q) else {
+            f.push(invalid(&t, row, "quote", &q, "units_per_presentation or presentation_per_unit"));
+            continue;
+        };
+        let Some(rate) = parse_rate(&t, row, "rate", quote, f) else {
+            if t.get("rate", row).is_none() {
+                f.push(
+                    Finding::new(Rule::RateMissing, "`rate` is empty", "fill in the rate of the transaction's date")
+                        .in_file(&t.file)
+                        .line(t.line(row)),
+                );
+            }
+            continue;
+        };
+        out.push(HistoricalRate {
+            entity: EntityId::new(e),
+            account: GroupAccount::new(a),
+            period,
+            rate,
+            note: t.get("note", row).unwrap_or_default(),
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}

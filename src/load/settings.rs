@@ -1,0 +1,269 @@
+//! The group settings file `entities/group.toml`: read, then validated key by key so that
+//! every wrong setting is reported in the same run.
+
+use std::collections::BTreeMap;
+use std::str::FromStr;
+
+use rust_decimal::Decimal;
+use serde::Deserialize;
+
+use crate::findings::{Finding, Rule};
+use crate::model::*;
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawSettings {
+    name: Option<String>,
+    parent: Option<String>,
+    presentation_currency: Option<String>,
+    fiscal_year_start: Option<i64>,
+    #[serde(default)]
+    policies: BTreeMap<String, String>,
+    #[serde(default)]
+    accounts: BTreeMap<String, String>,
+    #[serde(default)]
+    intercompany: BTreeMap<String, toml::Value>,
+}
+
+const POLICY_KEYS: &[&str] = &["rounding", "income_translation", "ifric16", "significant_influence"];
+const ROLE_KEYS: &[&str] = &[
+    "retained_earnings",
+    "translation_reserve",
+    "translation_difference",
+    "non_controlling_interest",
+    "goodwill",
+    "equity_investments",
+    "equity_result",
+    "intercompany_difference",
+];
+const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
+
+/// Parses and validates the settings text. Returns `None` when any required setting is
+/// missing or wrong; every problem is in `findings`.
+pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Settings> {
+    let raw: RawSettings = match toml::from_str(text) {
+        Ok(r) => r,
+        Err(e) => {
+            findings.push(
+                Finding::new(
+                    Rule::SettingInvalid,
+                    format!("the settings file does not parse: {}", e.message()),
+                    "fix the TOML syntax or the key named; docs/formats.md shows a complete example",
+                )
+                .in_file(file),
+            );
+            return None;
+        }
+    };
+    let before = findings.len();
+    let mut bad = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
+    };
+    let name = raw.name.clone().unwrap_or_default();
+    if name.trim().is_empty() {
+        bad("name", "the group needs a name".into(), "set name = \"...\"");
+    }
+    let parent = match &raw.parent {
+        Some(p) if !p.trim().is_empty() => Some(EntityId::new(p.trim())),
+        _ => {
+            bad("parent", "the ultimate parent entity is not named".into(), "set parent = \"<entity id>\"");
+            None
+        }
+    };
+    let currency = match raw.presentation_currency.as_deref().map(str::trim) {
+        Some(c) => match Currency::parse(c) {
+            Some(c) => Some(c),
+            None => {
+                bad("presentation_currency", format!("{c:?} is not an ISO 4217 code"), "use a code such as EUR");
+                None
+            }
+        },
+        None => {
+            bad(
+                "presentation_currency",
+                "missing".into(),
+                "set presentation_currency = \"EUR\" (or another ISO 4217 code)",
+            );
+            None
+        }
+    };
+    let fys = match raw.fiscal_year_start {
+        Some(m) if (1..=12).contains(&m) => Some(m as u32),
+        Some(m) => {
+            bad("fiscal_year_start", format!("{m} is not a month 1..12"), "set the month the fiscal year starts in");
+            None
+        }
+        None => {
+            bad("fiscal_year_start", "missing".into(), "set fiscal_year_start = 1 for a calendar year");
+            None
+        }
+    };
+    for k in raw.policies.keys() {
+        if !POLICY_KEYS.contains(&k.as_str()) {
+            bad(
+                &format!("policies.{k}"),
+                "unknown policy".into(),
+                &format!("known policies: {}", POLICY_KEYS.join(", ")),
+            );
+        }
+    }
+    let pol = |k: &str| raw.policies.get(k).map(|s| s.trim().to_string());
+    let rounding = match pol("rounding").as_deref() {
+        Some("half_away_from_zero") => Some(RoundingMode::HalfAwayFromZero),
+        Some("half_even") => Some(RoundingMode::HalfEven),
+        other => {
+            bad(
+                "policies.rounding",
+                format!("{other:?} is not a rounding mode"),
+                "use \"half_away_from_zero\" or \"half_even\"",
+            );
+            None
+        }
+    };
+    let income = match pol("income_translation").as_deref() {
+        Some("periodic") => Some(IncomeTranslation::Periodic),
+        Some("year_to_date") => Some(IncomeTranslation::YearToDate),
+        other => {
+            bad(
+                "policies.income_translation",
+                format!("{other:?} is not a method"),
+                "use \"periodic\" or \"year_to_date\"",
+            );
+            None
+        }
+    };
+    let ifric16 = match pol("ifric16").as_deref() {
+        Some("direct") => Some(Ifric16Method::Direct),
+        Some("step_by_step") => Some(Ifric16Method::StepByStep),
+        other => {
+            bad("policies.ifric16", format!("{other:?} is not a method"), "use \"direct\" or \"step_by_step\"");
+            None
+        }
+    };
+    let significant_influence = match pol("significant_influence") {
+        None => Some(Decimal::new(20, 2)),
+        Some(s) => match Decimal::from_str(&s) {
+            Ok(d) if d > Decimal::ZERO && d <= Decimal::ONE => Some(d),
+            _ => {
+                bad(
+                    "policies.significant_influence",
+                    format!("{s:?} is not a share in (0, 1]"),
+                    "write a decimal such as \"0.20\"",
+                );
+                None
+            }
+        },
+    };
+    for k in raw.accounts.keys() {
+        if !ROLE_KEYS.contains(&k.as_str()) {
+            bad(
+                &format!("accounts.{k}"),
+                "unknown account role".into(),
+                &format!("known roles: {}", ROLE_KEYS.join(", ")),
+            );
+        }
+    }
+    let mut role = |k: &str| match raw.accounts.get(k).map(|s| s.trim()) {
+        Some(a) if !a.is_empty() => Some(GroupAccount::new(a)),
+        _ => {
+            bad(&format!("accounts.{k}"), "missing".into(), "name the group account that has this role");
+            None
+        }
+    };
+    let roles = (
+        role("retained_earnings"),
+        role("translation_reserve"),
+        role("translation_difference"),
+        role("non_controlling_interest"),
+        role("goodwill"),
+        role("equity_investments"),
+        role("equity_result"),
+        role("intercompany_difference"),
+    );
+    let mut bad2 = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
+    };
+    for k in raw.intercompany.keys() {
+        if !IC_KEYS.contains(&k.as_str()) {
+            bad2(
+                &format!("intercompany.{k}"),
+                "unknown setting".into(),
+                &format!("known settings: {}", IC_KEYS.join(", ")),
+            );
+        }
+    }
+    let mut dec = |k: &str| -> Option<Decimal> {
+        match raw.intercompany.get(k) {
+            None => Some(Decimal::ZERO),
+            Some(toml::Value::String(s)) => match Decimal::from_str(s.trim()) {
+                Ok(d) if d >= Decimal::ZERO => Some(d),
+                _ => {
+                    bad2(
+                        &format!("intercompany.{k}"),
+                        format!("{s:?} is not a non-negative decimal"),
+                        "write it as a quoted decimal, e.g. \"50.00\"",
+                    );
+                    None
+                }
+            },
+            Some(v) => {
+                bad2(
+                    &format!("intercompany.{k}"),
+                    format!("{v} is not a quoted decimal"),
+                    "quote decimals so they stay exact, e.g. \"50.00\"",
+                );
+                None
+            }
+        }
+    };
+    let tol_abs = dec("tolerance_absolute");
+    let tol_rel = dec("tolerance_relative");
+    let window = match raw.intercompany.get("timing_window_days") {
+        None => Some(5),
+        Some(toml::Value::Integer(n)) if (0..=366).contains(n) => Some(*n as u32),
+        Some(v) => {
+            bad2(
+                "intercompany.timing_window_days",
+                format!("{v} is not a number of days 0..366"),
+                "write a whole number",
+            );
+            None
+        }
+    };
+    if findings.len() > before {
+        return None;
+    }
+    let (Some(parent), Some(presentation_currency), Some(fiscal_year_start)) = (parent, currency, fys) else {
+        return None;
+    };
+    let (Some(rounding), Some(income_translation), Some(ifric16), Some(significant_influence)) =
+        (rounding, income, ifric16, significant_influence)
+    else {
+        return None;
+    };
+    let (Some(re), Some(tr), Some(td), Some(nci), Some(gw), Some(ei), Some(er), Some(icd)) = roles else {
+        return None;
+    };
+    Some(Settings {
+        name,
+        parent,
+        presentation_currency,
+        fiscal_year_start,
+        policies: Policies { rounding, income_translation, ifric16, significant_influence },
+        accounts: RoleAccounts {
+            retained_earnings: re,
+            translation_reserve: tr,
+            translation_difference: td,
+            non_controlling_interest: nci,
+            goodwill: gw,
+            equity_investments: ei,
+            equity_result: er,
+            intercompany_difference: icd,
+        },
+        intercompany: IntercompanySettings {
+            tolerance_absolute: tol_abs?,
+            tolerance_relative: tol_rel?,
+            timing_window_days: window?,
+        },
+    })
+}

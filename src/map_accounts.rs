@@ -1,0 +1,189 @@
+//! Mapping: puts every delivery on one footing. Local accounts become group accounts
+//! through each entity's mapping; balance deliveries (month-end balances) become
+//! movements by differencing consecutive months, with the opening balance as the month
+//! before the fiscal year. The result, the *movement frame*, has one row per entity,
+//! group account, counterparty, transaction currency and period; every later stage
+//! starts from it. Rows that cannot be mapped are returned beside it, never dropped.
+
+use polars::prelude::*;
+
+use crate::load::Dataset;
+use crate::model::{Basis, Period};
+
+/// Grain of the movement frame (besides `period_index`).
+pub const GRAIN: &[&str] = &["entity", "group_account", "counterparty", "txn_currency"];
+
+/// An integer for a period, so that months can be shifted with arithmetic:
+/// year * 12 + month - 1.
+pub fn period_index(p: Period) -> i32 {
+    p.year() * 12 + p.month() as i32 - 1
+}
+
+pub fn period_of_index(i: i32) -> Period {
+    Period::new(i.div_euclid(12), (i.rem_euclid(12) + 1) as u32).expect("index of a valid period")
+}
+
+/// Period text `YYYY-MM` as its index.
+pub fn period_index_expr(c: &str) -> Expr {
+    col(c).str().slice(lit(0), lit(4)).strict_cast(DataType::Int32) * lit(12)
+        + col(c).str().slice(lit(5), lit(2)).strict_cast(DataType::Int32)
+        - lit(1)
+}
+
+/// The ledger mapped to group accounts, with the chart's attributes per row.
+pub struct Mapped {
+    /// Ledger rows (opening included, `kind` = opening, `period_index` = the month
+    /// before the fiscal year) with group_account, basis, ic_kind, statement, class.
+    pub lines: DataFrame,
+    /// Ledger rows whose local account has no single mapping.
+    pub unmapped: DataFrame,
+    /// Mapping rows that map one local account to more than one group account.
+    pub mapped_twice: DataFrame,
+}
+
+/// The chart as a frame: group_account, basis, ic_kind, statement, class, known.
+pub fn chart_frame(ds: &Dataset) -> PolarsResult<DataFrame> {
+    let n = ds.accounts.len();
+    let acct: Vec<&str> = ds.accounts.iter().map(|a| a.account.as_str()).collect();
+    let basis: Vec<&str> = ds.accounts.iter().map(|a| a.basis.as_str()).collect();
+    let ic: Vec<Option<&str>> = ds.accounts.iter().map(|a| a.ic_kind.as_deref()).collect();
+    let statement: Vec<String> = ds
+        .accounts
+        .iter()
+        .map(|a| serde_json::to_value(a.statement).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default())
+        .collect();
+    let class: Vec<String> = ds
+        .accounts
+        .iter()
+        .map(|a| serde_json::to_value(a.class).ok().and_then(|v| v.as_str().map(String::from)).unwrap_or_default())
+        .collect();
+    DataFrame::new(
+        n,
+        vec![
+            Column::new("group_account".into(), acct),
+            Column::new("basis".into(), basis),
+            Column::new("ic_kind".into(), ic),
+            Column::new("statement".into(), statement),
+            Column::new("class".into(), class),
+        ],
+    )
+}
+
+/// Maps the ledger and the opening balances to group accounts.
+pub fn map_accounts(ds: &Dataset, fiscal_start: Period) -> PolarsResult<Mapped> {
+    let _span = tracing::info_span!("map_accounts").entered();
+    let maps = ds.mappings.clone().lazy();
+    let distinct = maps
+        .clone()
+        .group_by([col("entity"), col("local_account")])
+        .agg([col("group_account").n_unique().alias("targets"), col("group_account").first()]);
+    let single = distinct.clone().filter(col("targets").eq(lit(1u32))).select([
+        col("entity"),
+        col("local_account").alias("account"),
+        col("group_account"),
+    ]);
+    let twice_keys = distinct.filter(col("targets").gt(lit(1u32))).select([col("entity"), col("local_account")]);
+    let mapped_twice = maps
+        .join(
+            twice_keys,
+            [col("entity"), col("local_account")],
+            [col("entity"), col("local_account")],
+            JoinArgs::new(JoinType::Semi),
+        )
+        .sort(["entity", "local_account", "line"], SortMultipleOptions::default())
+        .collect()?;
+
+    let opening_index = period_index(fiscal_start.prev());
+    let ledger = ds.ledger.clone().lazy().with_column(period_index_expr("period").alias("period_index"));
+    let opening = ds
+        .opening
+        .clone()
+        .lazy()
+        .drop(Selector::ByName { names: ["amount_presentation".into()].into(), strict: true })
+        .with_column(lit(opening_index).alias("period_index"));
+    let all = concat([ledger, opening], UnionArgs::default())?;
+    let joined = all.join(
+        single,
+        [col("entity"), col("account")],
+        [col("entity"), col("account")],
+        JoinArgs::new(JoinType::Left),
+    );
+    let unmapped = joined.clone().filter(col("group_account").is_null()).collect()?;
+    let chart = chart_frame(ds)?.lazy();
+    let lines = joined
+        .filter(col("group_account").is_not_null())
+        .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Left))
+        .collect()?;
+    Ok(Mapped { lines, unmapped, mapped_twice })
+}
+
+/// The opening presentation-currency amounts of historical-basis accounts, per grain.
+pub fn opening_presentation(ds: &Dataset) -> PolarsResult<LazyFrame> {
+    let maps =
+        ds.mappings.clone().lazy().select([col("entity"), col("local_account").alias("account"), col("group_account")]);
+    Ok(ds
+        .opening
+        .clone()
+        .lazy()
+        .join(maps, [col("entity"), col("account")], [col("entity"), col("account")], JoinArgs::new(JoinType::Inner))
+        .group_by(GRAIN.iter().map(|c| col(*c)).collect::<Vec<_>>())
+        .agg([col("amount_presentation").sum()]))
+}
+
+/// Movements per grain and period from the mapped lines, for periods from the opening
+/// (the month before `fiscal_start`) through `last`. Balance deliveries are differenced
+/// against the previous month (the opening before the first month).
+pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
+    let first = period_index(fiscal_start.prev());
+    let last = period_index(last);
+    let grain: Vec<Expr> = GRAIN.iter().map(|c| col(*c)).collect();
+    let mut keys = grain.clone();
+    keys.push(col("period_index"));
+    let base =
+        mapped.clone().lazy().filter(col("period_index").gt_eq(lit(first)).and(col("period_index").lt_eq(lit(last))));
+    // Which entities deliver balances: their opening is a balance too, and every
+    // snapshot is subtracted from the next month.
+    let balance_entities = base
+        .clone()
+        .filter(col("kind").eq(lit("balances")))
+        .select([col("entity")])
+        .unique(None, UniqueKeepStrategy::Any);
+    let direct = base
+        .clone()
+        .join(balance_entities.clone(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Anti))
+        .group_by(keys.clone())
+        .agg([col("amount").sum(), col("txn_amount").sum()]);
+    let snapshots = base
+        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Semi))
+        .group_by(keys.clone())
+        .agg([col("amount").sum(), col("txn_amount").sum()]);
+    // Last snapshot per entity: the shifted copy of it lies beyond the data.
+    let last_snapshot =
+        snapshots.clone().group_by([col("entity")]).agg([col("period_index").max().alias("last_index")]);
+    let shifted = snapshots
+        .clone()
+        .with_columns([
+            (col("period_index") + lit(1)).alias("period_index"),
+            (lit(0).strict_cast(crate::money::amount_dtype()) - col("amount")).alias("amount"),
+            (lit(0).strict_cast(crate::money::amount_dtype()) - col("txn_amount")).alias("txn_amount"),
+        ])
+        .join(last_snapshot, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
+        .filter(col("period_index").lt_eq(col("last_index")))
+        .drop(Selector::ByName { names: ["last_index".into()].into(), strict: true });
+    let diffed = concat([snapshots, shifted], UnionArgs::default())?
+        .group_by(keys.clone())
+        .agg([col("amount").sum(), col("txn_amount").sum()]);
+    Ok(concat([direct, diffed], UnionArgs::default())?
+        .group_by(keys)
+        .agg([col("amount").sum(), col("txn_amount").sum()])
+        .sort(
+            ["entity", "group_account", "counterparty", "txn_currency", "period_index"],
+            SortMultipleOptions::default().with_nulls_last(true),
+        ))
+}
+
+/// Whether a basis is translated at the closing rate on balances (rather than on
+/// movements).
+pub fn on_balances(basis: Basis) -> bool {
+    basis == Basis::Closing
+}

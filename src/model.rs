@@ -1,0 +1,412 @@
+//! The plain data model every stage shares: identifiers as newtypes, periods, the group's
+//! settings, entities, holdings and the chart of accounts. Nothing here reads files or
+//! knows about polars; loading builds these values and the stages consume them.
+
+use std::fmt;
+use std::str::FromStr;
+
+use chrono::{Datelike, NaiveDate};
+use rust_decimal::Decimal;
+
+macro_rules! id_newtype {
+    ($(#[$doc:meta])* $name:ident) => {
+        $(#[$doc])*
+        #[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash)]
+        pub struct $name(pub String);
+
+        impl $name {
+            pub fn new(s: impl Into<String>) -> Self {
+                Self(s.into())
+            }
+            pub fn as_str(&self) -> &str {
+                &self.0
+            }
+        }
+
+        impl fmt::Display for $name {
+            fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                f.write_str(&self.0)
+            }
+        }
+
+        impl serde::Serialize for $name {
+            fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+                s.serialize_str(&self.0)
+            }
+        }
+
+        impl From<&str> for $name {
+            fn from(s: &str) -> Self {
+                Self(s.to_string())
+            }
+        }
+    };
+}
+
+id_newtype!(
+    /// An entity of the group (a legal entity or a reporting unit), e.g. `ALD-NL`.
+    EntityId
+);
+id_newtype!(
+    /// An account of the group chart, e.g. `1550`.
+    GroupAccount
+);
+id_newtype!(
+    /// An account of one entity's own chart, e.g. `140900`.
+    LocalAccount
+);
+
+/// An ISO 4217 currency, with its minor unit taken from the `iso_currency` crate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Currency(iso_currency::Currency);
+
+impl Currency {
+    /// Parses an alphabetic ISO 4217 code; `None` for an unknown code.
+    pub fn parse(code: &str) -> Option<Self> {
+        iso_currency::Currency::from_code(code).map(Self)
+    }
+
+    pub fn code(&self) -> &'static str {
+        self.0.code()
+    }
+
+    /// Digits after the decimal point (ISO 4217 "minor unit"). Currencies without a
+    /// defined minor unit (e.g. XAU) count as 0 decimals is not assumed: they are refused
+    /// by `minor_unit_checked`.
+    pub fn minor_unit(&self) -> u32 {
+        self.0.exponent().map(u32::from).unwrap_or(0)
+    }
+
+    /// The minor unit when ISO 4217 defines one.
+    pub fn minor_unit_checked(&self) -> Option<u32> {
+        self.0.exponent().map(u32::from)
+    }
+}
+
+impl serde::Serialize for Currency {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(self.code())
+    }
+}
+
+impl serde::Serialize for Period {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
+    }
+}
+
+impl fmt::Display for Currency {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.code())
+    }
+}
+
+/// A calendar month, the unit of every delivery and rate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Period {
+    year: i32,
+    month: u32,
+}
+
+impl Period {
+    pub fn new(year: i32, month: u32) -> Option<Self> {
+        ((1..=12).contains(&month) && (1000..=9999).contains(&year)).then_some(Self { year, month })
+    }
+    pub fn year(&self) -> i32 {
+        self.year
+    }
+    pub fn month(&self) -> u32 {
+        self.month
+    }
+    pub fn next(&self) -> Self {
+        if self.month == 12 {
+            Self { year: self.year + 1, month: 1 }
+        } else {
+            Self { year: self.year, month: self.month + 1 }
+        }
+    }
+    pub fn prev(&self) -> Self {
+        if self.month == 1 {
+            Self { year: self.year - 1, month: 12 }
+        } else {
+            Self { year: self.year, month: self.month - 1 }
+        }
+    }
+    pub fn first_day(&self) -> NaiveDate {
+        NaiveDate::from_ymd_opt(self.year, self.month, 1).expect("valid period")
+    }
+    pub fn last_day(&self) -> NaiveDate {
+        self.next().first_day().pred_opt().expect("valid period")
+    }
+    pub fn of_date(d: NaiveDate) -> Self {
+        Self { year: d.year(), month: d.month() }
+    }
+    /// First month of the fiscal year this period belongs to.
+    pub fn fiscal_year_start(&self, start_month: u32) -> Self {
+        let year = if self.month >= start_month { self.year } else { self.year - 1 };
+        Self { year, month: start_month }
+    }
+    /// First month of the fiscal quarter this period belongs to.
+    pub fn fiscal_quarter_start(&self, start_month: u32) -> Self {
+        let mut p = self.fiscal_year_start(start_month);
+        while p.months_until(self) >= 3 {
+            p = p.plus_months(3);
+        }
+        p
+    }
+    /// Months from `self` to `other` (negative when `other` is earlier).
+    pub fn months_until(&self, other: &Self) -> i32 {
+        (other.year - self.year) * 12 + other.month as i32 - self.month as i32
+    }
+    pub fn plus_months(&self, n: i32) -> Self {
+        let idx = self.year * 12 + self.month as i32 - 1 + n;
+        Self { year: idx.div_euclid(12), month: (idx.rem_euclid(12) + 1) as u32 }
+    }
+    /// Periods from `self` to `last`, both included.
+    pub fn through(&self, last: &Self) -> Vec<Self> {
+        let mut out = Vec::new();
+        let mut p = *self;
+        while p <= *last {
+            out.push(p);
+            p = p.next();
+        }
+        out
+    }
+}
+
+impl fmt::Display for Period {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{:04}-{:02}", self.year, self.month)
+    }
+}
+
+impl FromStr for Period {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        let bad = || format!("period {s:?} is not a month written YYYY-MM");
+        let (y, m) = s.split_once('-').ok_or_else(bad)?;
+        if y.len() != 4 || m.len() != 2 {
+            return Err(bad());
+        }
+        let year = y.parse().map_err(|_| bad())?;
+        let month = m.parse().map_err(|_| bad())?;
+        Period::new(year, month).ok_or_else(bad)
+    }
+}
+
+/// How a translated line is rounded to the presentation currency's minor unit.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RoundingMode {
+    HalfAwayFromZero,
+    HalfEven,
+}
+
+/// How income and expenses are translated (IAS 21.39b, 21.40).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum IncomeTranslation {
+    /// Each month's movement at that month's average rate; year to date is their sum.
+    Periodic,
+    /// The year-to-date amount at the year-to-date average rate.
+    YearToDate,
+}
+
+/// IFRIC 16 method for indirect foreign operations.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Ifric16Method {
+    Direct,
+    StepByStep,
+}
+
+/// Group accounts with a role in the close, named in the settings.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RoleAccounts {
+    pub retained_earnings: GroupAccount,
+    pub translation_reserve: GroupAccount,
+    /// OCI account receiving each period's translation difference (IAS 21.39c).
+    pub translation_difference: GroupAccount,
+    pub non_controlling_interest: GroupAccount,
+    pub goodwill: GroupAccount,
+    pub equity_investments: GroupAccount,
+    pub equity_result: GroupAccount,
+    pub intercompany_difference: GroupAccount,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Policies {
+    pub rounding: RoundingMode,
+    pub income_translation: IncomeTranslation,
+    pub ifric16: Ifric16Method,
+    /// Voting share from which an investee is presumed an associate (IAS 28.5).
+    pub significant_influence: Decimal,
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct IntercompanySettings {
+    pub tolerance_absolute: Decimal,
+    pub tolerance_relative: Decimal,
+    pub timing_window_days: u32,
+}
+
+/// The group settings file, validated.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Settings {
+    pub name: String,
+    pub parent: EntityId,
+    pub presentation_currency: Currency,
+    pub fiscal_year_start: u32,
+    pub policies: Policies,
+    pub accounts: RoleAccounts,
+    pub intercompany: IntercompanySettings,
+}
+
+/// Where a value came from: a file relative to the data folder and a line (header = 1).
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+pub struct Source {
+    pub file: String,
+    pub line: Option<u64>,
+}
+
+impl Source {
+    pub fn file(file: impl Into<String>) -> Self {
+        Self { file: file.into(), line: None }
+    }
+    pub fn line(file: impl Into<String>, line: u64) -> Self {
+        Self { file: file.into(), line: Some(line) }
+    }
+}
+
+impl fmt::Display for Source {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.line {
+            Some(l) => write!(f, "{}:{}", self.file, l),
+            None => f.write_str(&self.file),
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Entity {
+    pub id: EntityId,
+    pub name: String,
+    /// ISO 3166-1 alpha-2.
+    pub country: String,
+    pub currency: Currency,
+    /// Segment key -> segment, e.g. ("geography", "Europe").
+    pub segments: Vec<(String, String)>,
+    pub hyperinflationary_from: Option<Period>,
+    pub source: Source,
+}
+
+/// IFRS 11 joint arrangement type declared on a holding.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Arrangement {
+    JointOperation,
+    JointVenture,
+}
+
+/// Consolidation method of an entity in a period.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Method {
+    /// Controlled: 100% of every line, NCI for the outside share (IFRS 10).
+    Full,
+    /// Joint operation: the group's share of each line (IFRS 11.20).
+    Proportionate,
+    /// Joint venture or associate: one investment line (IAS 28).
+    Equity,
+    /// Not consolidated: an investment at cost or fair value.
+    None,
+}
+
+impl Method {
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Method::Full => "full",
+            Method::Proportionate => "proportionate",
+            Method::Equity => "equity",
+            Method::None => "none",
+        }
+    }
+    pub fn parse(s: &str) -> Option<Self> {
+        match s {
+            "full" => Some(Method::Full),
+            "proportionate" => Some(Method::Proportionate),
+            "equity" => Some(Method::Equity),
+            "none" => Some(Method::None),
+            _ => None,
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Holding {
+    pub owner: EntityId,
+    pub owned: EntityId,
+    pub capital_share: Decimal,
+    pub voting_share: Decimal,
+    pub valid_from: NaiveDate,
+    pub valid_to: Option<NaiveDate>,
+    pub arrangement: Option<Arrangement>,
+    pub method_override: Option<(Method, String)>,
+    pub source: Source,
+}
+
+impl Holding {
+    /// Whether the holding exists on `date` (both ends included).
+    pub fn is_valid_on(&self, date: NaiveDate) -> bool {
+        self.valid_from <= date && self.valid_to.is_none_or(|to| date <= to)
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Statement {
+    BalanceSheet,
+    ProfitOrLoss,
+    Oci,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum AccountClass {
+    Asset,
+    Liability,
+    Equity,
+    Income,
+    Expense,
+}
+
+/// Which rate translates an account (IAS 21.39).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Basis {
+    Closing,
+    Average,
+    Historical,
+}
+
+impl Basis {
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Basis::Closing => "closing",
+            Basis::Average => "average",
+            Basis::Historical => "historical",
+        }
+    }
+}
+
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct AccountDef {
+    pub account: GroupAccount,
+    pub name: String,
+    pub statement: Statement,
+    pub class: AccountClass,
+    pub basis: Basis,
+    pub ic_kind: Option<String>,
+    pub non_current: bool,
+    pub source: Source,
+}

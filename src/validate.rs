@@ -1,0 +1,696 @@
+//! Validation: every rule a month's deliveries must satisfy before a close, checked in
+//! one pass so that `tessera check` lists all of them together. Runs on the loaded
+//! dataset and on the mapped ledger (most rules are about group accounts). It never
+//! changes data; it only reports.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+
+use crate::findings::{Finding, Findings, Rule, Severity};
+use crate::load::Dataset;
+use crate::map_accounts::{Mapped, period_index, period_of_index};
+use crate::model::*;
+use crate::money::{column_decimals, format_amount};
+
+/// What a check is about: the period to close and its fiscal year.
+#[derive(Debug, Clone, Copy)]
+pub struct Scope {
+    pub period: Period,
+    pub fiscal_start: Period,
+}
+
+impl Scope {
+    pub fn new(period: Period, fiscal_year_start: u32) -> Self {
+        Self { period, fiscal_start: period.fiscal_year_start(fiscal_year_start) }
+    }
+    /// The months of the fiscal year up to and including the period.
+    pub fn months(&self) -> Vec<Period> {
+        self.fiscal_start.through(&self.period)
+    }
+}
+
+fn s(df: &DataFrame, c: &str, i: usize) -> Option<String> {
+    df.column(c).ok()?.str().ok()?.get(i).map(String::from)
+}
+fn u(df: &DataFrame, c: &str, i: usize) -> Option<u64> {
+    df.column(c).ok()?.u64().ok()?.get(i)
+}
+fn idx(df: &DataFrame, c: &str, i: usize) -> Option<i32> {
+    df.column(c).ok()?.i32().ok()?.get(i)
+}
+
+/// Runs every rule. `findings` already holds what loading found.
+pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Findings) -> PolarsResult<()> {
+    let _span = tracing::info_span!("validate", period = %scope.period).entered();
+    let mut f: Vec<Finding> = Vec::new();
+    check_reference_data(ds, &mut f);
+    check_holdings(ds, scope, &mut f);
+    check_mappings(ds, mapped, &mut f)?;
+    check_periods(ds, mapped, scope, &mut f)?;
+    check_balanced(mapped, scope, &mut f)?;
+    check_duplicates(mapped, &mut f)?;
+    check_counterparties(ds, mapped, &mut f)?;
+    check_opening(ds, mapped, &mut f)?;
+    check_rates(ds, mapped, scope, &mut f)?;
+    let mut layout_findings = Vec::new();
+    crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
+    f.extend(layout_findings);
+    findings.extend(f);
+    findings.sort();
+    Ok(())
+}
+
+fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
+    let st = &ds.settings;
+    if ds.entity(&st.parent).is_none() {
+        f.push(
+            Finding::new(
+                Rule::EntityUnknown,
+                format!("the parent {} named in group.toml is not in entities.csv", st.parent),
+                "add the parent to entities/entities.csv or correct `parent`",
+            )
+            .in_file("entities/group.toml"),
+        );
+    }
+    let roles = &st.accounts;
+    let want: [(&str, &GroupAccount, &[AccountClass], Option<Statement>); 8] = [
+        ("retained_earnings", &roles.retained_earnings, &[AccountClass::Equity], None),
+        ("translation_reserve", &roles.translation_reserve, &[AccountClass::Equity], None),
+        (
+            "translation_difference",
+            &roles.translation_difference,
+            &[AccountClass::Income, AccountClass::Expense],
+            Some(Statement::Oci),
+        ),
+        ("non_controlling_interest", &roles.non_controlling_interest, &[AccountClass::Equity], None),
+        ("goodwill", &roles.goodwill, &[AccountClass::Asset], None),
+        ("equity_investments", &roles.equity_investments, &[AccountClass::Asset], None),
+        (
+            "equity_result",
+            &roles.equity_result,
+            &[AccountClass::Income, AccountClass::Expense],
+            Some(Statement::ProfitOrLoss),
+        ),
+        (
+            "intercompany_difference",
+            &roles.intercompany_difference,
+            &[AccountClass::Income, AccountClass::Expense],
+            Some(Statement::ProfitOrLoss),
+        ),
+    ];
+    for (role, acct, classes, statement) in want {
+        match ds.account(acct) {
+            None => f.push(
+                Finding::new(
+                    Rule::AccountUnknown,
+                    format!("`accounts.{role}` names {acct}, which is not in accounts.csv"),
+                    "add the account to the group chart or name another one",
+                )
+                .in_file("entities/group.toml")
+                .account(acct.as_str()),
+            ),
+            Some(a) if !classes.contains(&a.class) || statement.is_some_and(|s| s != a.statement) => f.push(
+                Finding::new(
+                    Rule::AccountInvalid,
+                    format!("`accounts.{role}` names {acct}, whose class or statement does not fit the role"),
+                    "name an account of the right kind (docs/formats.md, group.toml)",
+                )
+                .in_file("entities/group.toml")
+                .account(acct.as_str()),
+            ),
+            _ => {}
+        }
+    }
+}
+
+fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
+    let known: BTreeSet<&EntityId> = ds.entities.iter().map(|e| &e.id).collect();
+    for h in &ds.holdings {
+        for e in [&h.owner, &h.owned] {
+            if !known.contains(e) {
+                f.push(
+                    Finding::new(
+                        Rule::EntityUnknown,
+                        format!("holding names {e}, which is not in entities.csv"),
+                        "add the entity or correct the holding",
+                    )
+                    .at(&h.source)
+                    .entity(e),
+                );
+            }
+        }
+    }
+    let end = scope.period.last_day();
+    let mut held: BTreeMap<&EntityId, Vec<&Holding>> = BTreeMap::new();
+    for h in ds.holdings.iter().filter(|h| h.is_valid_on(end)) {
+        held.entry(&h.owned).or_default().push(h);
+    }
+    for (owned, hs) in held {
+        for (what, get) in [
+            ("capital", (|h: &Holding| h.capital_share) as fn(&Holding) -> Decimal),
+            ("votes", |h: &Holding| h.voting_share),
+        ] {
+            let total: Decimal = hs.iter().map(|h| get(h)).sum();
+            if total > Decimal::ONE {
+                let terms: Vec<String> = hs.iter().map(|h| format!("{} {}", h.owner, get(h))).collect();
+                f.push(
+                    Finding::new(
+                        Rule::EntityOverHeld,
+                        format!("{owned} is held more than 100% of {what} on {end}: {} = {total}", terms.join(" + ")),
+                        "correct the shares or the validity dates in holdings.csv",
+                    )
+                    .at(&hs[0].source)
+                    .entity(owned),
+                );
+            }
+        }
+    }
+}
+
+fn check_mappings(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let known: BTreeSet<&str> = ds.accounts.iter().map(|a| a.account.as_str()).collect();
+    let m = &ds.mappings;
+    for i in 0..m.height() {
+        let ga = s(m, "group_account", i).unwrap_or_default();
+        if !known.contains(ga.as_str()) {
+            f.push(
+                Finding::new(
+                    Rule::AccountUnknown,
+                    format!(
+                        "local account {} maps to group account {ga}, which is not in accounts.csv",
+                        s(m, "local_account", i).unwrap_or_default()
+                    ),
+                    "map it to an account of the group chart, or add the account to entities/accounts.csv",
+                )
+                .in_file(s(m, "file", i).unwrap_or_default())
+                .line(u(m, "line", i).unwrap_or(0))
+                .entity(&EntityId::new(s(m, "entity", i).unwrap_or_default()))
+                .account(ga),
+            );
+        }
+    }
+    let t = &mapped.mapped_twice;
+    for i in 0..t.height() {
+        f.push(
+            Finding::new(
+                Rule::AccountMappedTwice,
+                format!(
+                    "local account {} is mapped more than once; this row maps it to {}",
+                    s(t, "local_account", i).unwrap_or_default(),
+                    s(t, "group_account", i).unwrap_or_default()
+                ),
+                "keep exactly one mapping row per local account",
+            )
+            .in_file(s(t, "file", i).unwrap_or_default())
+            .line(u(t, "line", i).unwrap_or(0))
+            .entity(&EntityId::new(s(t, "entity", i).unwrap_or_default()))
+            .account(s(t, "local_account", i).unwrap_or_default()),
+        );
+    }
+    // Unmapped: one finding per entity and local account, at its first line.
+    let twice: BTreeSet<(String, String)> = (0..t.height())
+        .map(|i| (s(t, "entity", i).unwrap_or_default(), s(t, "local_account", i).unwrap_or_default()))
+        .collect();
+    let un = mapped
+        .unmapped
+        .clone()
+        .lazy()
+        .group_by([col("entity"), col("account")])
+        .agg([col("file").first(), col("line").min(), col("line").count().alias("rows"), col("period").min()])
+        .sort(["entity", "account"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..un.height() {
+        let e = s(&un, "entity", i).unwrap_or_default();
+        let a = s(&un, "account", i).unwrap_or_default();
+        if twice.contains(&(e.clone(), a.clone())) {
+            continue;
+        }
+        let rows = un.column("rows")?.u32()?.get(i).unwrap_or(0);
+        let mut x = Finding::new(
+            Rule::AccountUnmapped,
+            format!("local account {a} is used on {rows} row(s) but is not in entities/{e}/mapping.csv"),
+            format!("add `{a},<name>,<group account>` to entities/{e}/mapping.csv"),
+        )
+        .in_file(s(&un, "file", i).unwrap_or_default())
+        .line(u(&un, "line", i).unwrap_or(0))
+        .entity(&EntityId::new(&e))
+        .account(a);
+        if let Some(p) = s(&un, "period", i).and_then(|p| p.parse().ok()) {
+            x = x.period(p);
+        }
+        f.push(x);
+    }
+    Ok(())
+}
+
+fn check_periods(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let start = period_index(scope.fiscal_start);
+    let end = period_index(scope.fiscal_start.plus_months(11));
+    let outside = ds
+        .ledger
+        .clone()
+        .lazy()
+        .with_column(crate::map_accounts::period_index_expr("period").alias("period_index"))
+        .filter(col("period_index").lt(lit(start)).or(col("period_index").gt(lit(end))))
+        .group_by([col("file"), col("period")])
+        .agg([col("line").min(), col("entity").first(), col("line").count().alias("rows")])
+        .sort(["file", "period"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..outside.height() {
+        let p = s(&outside, "period", i).unwrap_or_default();
+        f.push(
+            Finding::new(
+                Rule::PeriodOutsideYear,
+                format!(
+                    "period {p} is outside the fiscal year {} to {} being closed",
+                    scope.fiscal_start,
+                    scope.fiscal_start.plus_months(11)
+                ),
+                "keep one fiscal year per data folder, or pass --period for the year you mean",
+            )
+            .in_file(s(&outside, "file", i).unwrap_or_default())
+            .line(u(&outside, "line", i).unwrap_or(0))
+            .entity(&EntityId::new(s(&outside, "entity", i).unwrap_or_default())),
+        );
+    }
+    // Each entity and period comes from one file, and of one kind.
+    let deliveries = mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("kind").neq(lit("opening")))
+        .group_by([col("entity"), col("period_index")])
+        .agg([col("file").unique().sort(Default::default()).alias("files"), col("kind").n_unique().alias("kinds")])
+        .filter(col("files").list().len().gt(lit(1)))
+        .sort(["entity", "period_index"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..deliveries.height() {
+        let e = EntityId::new(s(&deliveries, "entity", i).unwrap_or_default());
+        let p = period_of_index(idx(&deliveries, "period_index", i).unwrap_or(0));
+        let files = deliveries.column("files")?.list()?.get_as_series(i).map(|s| {
+            s.str().map(|c| c.iter().flatten().map(String::from).collect::<Vec<_>>().join(", ")).unwrap_or_default()
+        });
+        f.push(
+            Finding::new(
+                Rule::DeliveryDuplicated,
+                format!("{e} {p} is delivered in more than one file: {}", files.unwrap_or_default()),
+                "deliver each entity and month once; remove or merge the extra file",
+            )
+            .entity(&e)
+            .period(p),
+        );
+    }
+    // Who has not delivered which month yet.
+    let have: BTreeSet<(String, i32)> = {
+        let d = mapped
+            .lines
+            .clone()
+            .lazy()
+            .filter(col("kind").neq(lit("opening")))
+            .select([col("entity"), col("period_index")])
+            .unique(None, UniqueKeepStrategy::Any)
+            .collect()?;
+        (0..d.height()).filter_map(|i| Some((s(&d, "entity", i)?, idx(&d, "period_index", i)?))).collect()
+    };
+    let ledger_entities: BTreeSet<String> = have.iter().map(|(e, _)| e.clone()).collect();
+    for e in &ds.entities {
+        if !ds.delivered_entities.contains(&e.id) {
+            f.push(
+                Finding::new(
+                    Rule::DeliveryMissing,
+                    format!("{} has not delivered: there is no folder entities/{}/", e.id, e.id),
+                    "wait for the delivery or chase the entity; the close needs every consolidated entity",
+                )
+                .entity(&e.id)
+                .period(scope.period),
+            );
+            continue;
+        }
+        for p in scope.months() {
+            if !have.contains(&(e.id.to_string(), period_index(p))) {
+                let (what, sev) = if ledger_entities.contains(e.id.as_str()) {
+                    ("no trial balance", Severity::Warning)
+                } else {
+                    ("no trial balance at all", Severity::Warning)
+                };
+                f.push(
+                    Finding::new(
+                        Rule::DeliveryMissing,
+                        format!("{} has {what} for {p}", e.id),
+                        format!("deliver entities/{}/tb-{p}.movements.csv (or .balances.csv)", e.id),
+                    )
+                    .entity(&e.id)
+                    .period(p)
+                    .severity(sev),
+                );
+            }
+        }
+    }
+    Ok(())
+}
+
+fn check_balanced(mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    // Balance is checked on the delivered amounts, mapped or not: unmapped rows still
+    // belong to the delivery.
+    let all = concat(
+        [
+            mapped.lines.clone().lazy().select([
+                col("entity"),
+                col("kind"),
+                col("period_index"),
+                col("file"),
+                col("amount"),
+            ]),
+            mapped.unmapped.clone().lazy().select([
+                col("entity"),
+                col("kind"),
+                col("period_index"),
+                col("file"),
+                col("amount"),
+            ]),
+        ],
+        UnionArgs::default(),
+    )?;
+    let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
+    let sums = all
+        .group_by([col("entity"), col("kind"), col("period_index"), col("file")])
+        .agg([
+            col("amount").filter(col("amount").gt(zero.clone())).sum().alias("debits"),
+            col("amount").filter(col("amount").lt(zero.clone())).sum().alias("credits"),
+            col("amount").sum().alias("total"),
+        ])
+        .filter(col("total").neq(zero))
+        .sort(["entity", "period_index", "file"], SortMultipleOptions::default())
+        .collect()?;
+    let debits = column_decimals(sums.column("debits")?)?;
+    let credits = column_decimals(sums.column("credits")?)?;
+    let totals = column_decimals(sums.column("total")?)?;
+    for i in 0..sums.height() {
+        let e = EntityId::new(s(&sums, "entity", i).unwrap_or_default());
+        let kind = s(&sums, "kind", i).unwrap_or_default();
+        let p = period_of_index(idx(&sums, "period_index", i).unwrap_or(0));
+        let (d, c, t) = (debits[i].unwrap_or_default(), credits[i].unwrap_or_default(), totals[i].unwrap_or_default());
+        let what = if kind == "opening" {
+            format!("the opening balance at {}", scope.fiscal_start.first_day())
+        } else {
+            format!("the {kind} of {p}")
+        };
+        let mut x = Finding::new(
+            Rule::TrialBalanceUnbalanced,
+            format!(
+                "{what} does not sum to zero: debits {} - credits {} = {}",
+                format_amount(d, 3),
+                format_amount(-c, 3),
+                format_amount(t, 3)
+            ),
+            "correct the delivery so that debits equal credits; tessera posts no balancing line",
+        )
+        .in_file(s(&sums, "file", i).unwrap_or_default())
+        .entity(&e);
+        if kind != "opening" {
+            x = x.period(p);
+        }
+        f.push(x);
+    }
+    Ok(())
+}
+
+fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let all = concat(
+        [
+            mapped.lines.clone().lazy().select([
+                col("entity"),
+                col("kind"),
+                col("period_index"),
+                col("account"),
+                col("counterparty"),
+                col("txn_currency"),
+                col("file"),
+                col("line"),
+            ]),
+            mapped.unmapped.clone().lazy().select([
+                col("entity"),
+                col("kind"),
+                col("period_index"),
+                col("account"),
+                col("counterparty"),
+                col("txn_currency"),
+                col("file"),
+                col("line"),
+            ]),
+        ],
+        UnionArgs::default(),
+    )?;
+    let dups = all
+        .group_by([
+            col("entity"),
+            col("kind"),
+            col("period_index"),
+            col("account"),
+            col("counterparty"),
+            col("txn_currency"),
+        ])
+        .agg([col("line").sort(Default::default()).alias("lines"), col("file").first(), col("line").count().alias("n")])
+        .filter(col("n").gt(lit(1u32)))
+        .sort(["entity", "period_index", "account"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..dups.height() {
+        let lines = dups.column("lines")?.list()?.get_as_series(i);
+        let lines: Vec<u64> =
+            lines.map(|s| s.u64().map(|c| c.iter().flatten().collect()).unwrap_or_default()).unwrap_or_default();
+        let e = EntityId::new(s(&dups, "entity", i).unwrap_or_default());
+        let a = s(&dups, "account", i).unwrap_or_default();
+        let cp = s(&dups, "counterparty", i).map(|c| format!(" with counterparty {c}")).unwrap_or_default();
+        let mut x = Finding::new(
+            Rule::RowDuplicated,
+            format!(
+                "account {a}{cp} appears on {} lines ({}) of one delivery",
+                lines.len(),
+                lines.iter().map(|l| l.to_string()).collect::<Vec<_>>().join(", ")
+            ),
+            "a trial balance has one row per account (and counterparty); merge or remove the repeated rows",
+        )
+        .in_file(s(&dups, "file", i).unwrap_or_default())
+        .line(lines.get(1).copied().unwrap_or(0))
+        .entity(&e)
+        .account(a);
+        if s(&dups, "kind", i).as_deref() != Some("opening") {
+            x = x.period(period_of_index(idx(&dups, "period_index", i).unwrap_or(0)));
+        }
+        f.push(x);
+    }
+    Ok(())
+}
+
+fn check_counterparties(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let known: BTreeSet<&str> = ds.entities.iter().map(|e| e.id.as_str()).collect();
+    let ic = mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("ic_kind").is_not_null().or(col("counterparty").is_not_null()))
+        .select([
+            col("entity"),
+            col("kind"),
+            col("period_index"),
+            col("account"),
+            col("group_account"),
+            col("ic_kind"),
+            col("counterparty"),
+            col("file"),
+            col("line"),
+        ])
+        .sort(["file", "line"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..ic.height() {
+        let e = EntityId::new(s(&ic, "entity", i).unwrap_or_default());
+        let a = s(&ic, "account", i).unwrap_or_default();
+        let ga = s(&ic, "group_account", i).unwrap_or_default();
+        let kind = s(&ic, "ic_kind", i);
+        let cp = s(&ic, "counterparty", i);
+        let mk = |rule: Rule, msg: String, action: &str| {
+            let mut x = Finding::new(rule, msg, action)
+                .in_file(s(&ic, "file", i).unwrap_or_default())
+                .line(u(&ic, "line", i).unwrap_or(0))
+                .entity(&e)
+                .account(&a);
+            if s(&ic, "kind", i).as_deref() != Some("opening") {
+                x = x.period(period_of_index(idx(&ic, "period_index", i).unwrap_or(0)));
+            }
+            x
+        };
+        match (&kind, &cp) {
+            (Some(k), None) => f.push(mk(
+                Rule::CounterpartyMissing,
+                format!("local account {a} maps to intercompany account {ga} ({k}) but the row names no counterparty"),
+                "fill in `counterparty` with the group entity on the other side",
+            )),
+            (_, Some(c)) if c == e.as_str() => f.push(mk(
+                Rule::CounterpartySelf,
+                format!("the counterparty of {e} on account {a} is {e} itself"),
+                "name the other group entity, or book it on a non-intercompany account",
+            )),
+            (_, Some(c)) if !known.contains(c.as_str()) => f.push(mk(
+                Rule::CounterpartyUnknown,
+                format!("counterparty {c} is not an entity of entities.csv"),
+                "correct the counterparty id, or add the entity to entities/entities.csv",
+            )),
+            _ => {}
+        }
+    }
+    Ok(())
+}
+
+fn check_opening(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let with_opening: BTreeSet<String> = {
+        let c = ds.opening.column("entity")?.str()?;
+        c.iter().flatten().map(String::from).collect()
+    };
+    for e in &ds.delivered_entities {
+        if !with_opening.contains(e.as_str()) {
+            f.push(
+                Finding::new(
+                    Rule::OpeningMissing,
+                    format!("{e} has no opening balance (entities/{e}/opening.csv)"),
+                    "deliver the balance sheet at the start of the fiscal year: the previous year's locked closing balances",
+                )
+                .in_file(format!("entities/{e}/opening.csv"))
+                .entity(e),
+            );
+        }
+    }
+    // Historical-basis rows need their brought-forward presentation amount, and the
+    // opening holds no income or expense (they were closed into retained earnings).
+    let maps =
+        ds.mappings.clone().lazy().select([col("entity"), col("local_account").alias("account"), col("group_account")]);
+    let chart = crate::map_accounts::chart_frame(ds)?.lazy();
+    let rows = ds
+        .opening
+        .clone()
+        .lazy()
+        .join(maps, [col("entity"), col("account")], [col("entity"), col("account")], JoinArgs::new(JoinType::Inner))
+        .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Inner))
+        .filter(
+            (col("basis").eq(lit("historical")).and(col("amount_presentation").is_null()))
+                .or(col("statement").neq(lit("balance_sheet"))),
+        )
+        .select([col("entity"), col("account"), col("group_account"), col("statement"), col("file"), col("line")])
+        .collect()?;
+    for i in 0..rows.height() {
+        let e = EntityId::new(s(&rows, "entity", i).unwrap_or_default());
+        let a = s(&rows, "account", i).unwrap_or_default();
+        let ga = s(&rows, "group_account", i).unwrap_or_default();
+        let x = if s(&rows, "statement", i).as_deref() != Some("balance_sheet") {
+            Finding::new(
+                Rule::ValueInvalid,
+                format!("the opening balance holds account {a} (group {ga}), which is not a balance-sheet account"),
+                "close last year's income and expenses into retained earnings before delivering the opening balance",
+            )
+        } else {
+            Finding::new(
+                Rule::OpeningHistoricalAmountMissing,
+                format!(
+                    "equity account {a} (group {ga}) is translated at historical rates but has no `amount_presentation`"
+                ),
+                "fill in the translated carrying amount brought forward from last year's close",
+            )
+        };
+        f.push(
+            x.in_file(s(&rows, "file", i).unwrap_or_default())
+                .line(u(&rows, "line", i).unwrap_or(0))
+                .entity(&e)
+                .account(a),
+        );
+    }
+    let _ = mapped;
+    Ok(())
+}
+
+fn check_rates(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let pres = ds.settings.presentation_currency;
+    let have: BTreeMap<(Period, Currency), &crate::load::MonthlyRate> =
+        ds.rates.iter().map(|r| ((r.period, r.currency), r)).collect();
+    let ytd = ds.settings.policies.income_translation == IncomeTranslation::YearToDate;
+    // Needed: every functional currency of a delivered entity, for the opening month
+    // and every month through the period.
+    let mut needed: BTreeMap<Currency, Vec<&EntityId>> = BTreeMap::new();
+    for e in ds.entities.iter().filter(|e| ds.delivered_entities.contains(&e.id) && e.currency != pres) {
+        needed.entry(e.currency).or_default().push(&e.id);
+    }
+    let mut months = vec![scope.fiscal_start.prev()];
+    months.extend(scope.months());
+    for (ccy, users) in &needed {
+        for p in &months {
+            let who = users.iter().map(|e| e.to_string()).collect::<Vec<_>>().join(", ");
+            match have.get(&(*p, *ccy)) {
+                None => f.push(
+                    Finding::new(
+                        Rule::RateMissing,
+                        format!("no closing and average rate for {ccy} in {p} (needed by {who})"),
+                        format!(
+                            "add a row `{p},{ccy},<closing>,<average>,units_per_presentation` to rates/monthly.csv"
+                        ),
+                    )
+                    .in_file("rates/monthly.csv")
+                    .period(*p),
+                ),
+                Some(r) if ytd && r.average_ytd.is_none() && *p != scope.fiscal_start.prev() => f.push(
+                    Finding::new(
+                        Rule::RateMissing,
+                        format!("{ccy} {p} has no `average_ytd`, which the year_to_date income policy needs"),
+                        "fill in average_ytd, or set policies.income_translation = \"periodic\"",
+                    )
+                    .at(&r.source)
+                    .period(*p),
+                ),
+                _ => {}
+            }
+        }
+    }
+    // Movements on historical-basis accounts need the rate of their date.
+    let hist: BTreeSet<(&str, &str, Period)> =
+        ds.historical_rates.iter().map(|h| (h.entity.as_str(), h.account.as_str(), h.period)).collect();
+    let currencies: BTreeMap<&str, Currency> = ds.entities.iter().map(|e| (e.id.as_str(), e.currency)).collect();
+    let movements = crate::map_accounts::movements(&mapped.lines, scope.fiscal_start, scope.period)?;
+    let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
+    let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
+    let moved = movements
+        .filter(col("period_index").gt_eq(lit(period_index(scope.fiscal_start))))
+        .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Inner))
+        .filter(col("basis").eq(lit("historical")))
+        .group_by([col("entity"), col("group_account"), col("period_index")])
+        .agg([col("amount").sum()])
+        .filter(col("amount").neq(zero))
+        .sort(["entity", "group_account", "period_index"], SortMultipleOptions::default())
+        .collect()?;
+    let amounts = column_decimals(moved.column("amount")?)?;
+    for (i, amount) in amounts.iter().enumerate() {
+        let e = s(&moved, "entity", i).unwrap_or_default();
+        let a = s(&moved, "group_account", i).unwrap_or_default();
+        let p = period_of_index(idx(&moved, "period_index", i).unwrap_or(0));
+        if currencies.get(e.as_str()) == Some(&pres) || hist.contains(&(e.as_str(), a.as_str(), p)) {
+            continue;
+        }
+        let hyper = ds.entity(&EntityId::new(&e)).and_then(|x| x.hyperinflationary_from).is_some_and(|h| h <= p);
+        if hyper {
+            continue;
+        }
+        f.push(
+            Finding::new(
+                Rule::RateMissing,
+                format!(
+                    "{e} moves equity account {a} by {} in {p}, which needs the rate of the transaction's date (basis historical)",
+                    format_amount(amount.unwrap_or_default(), 3)
+                ),
+                format!("add `{e},{a},{p},<rate>,units_per_presentation,<note>` to rates/historical.csv"),
+            )
+            .in_file("rates/historical.csv")
+            .entity(&EntityId::new(&e))
+            .account(a)
+            .period(p),
+        );
+    }
+    Ok(())
+}
