@@ -38,6 +38,14 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Shows the group structure: control, effective interest, NCI and method per entity.
+    Structure {
+        /// Period whose last day the structure is taken at; the latest delivered by default.
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
     /// Translates every entity into the presentation currency (IAS 21) and explains
     /// each translation difference.
     Translate {
@@ -60,6 +68,7 @@ pub fn parse_period(s: &str) -> Result<Period, String> {
 pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
     match cli.command {
         Command::Check { period, format } => crate::commands::check(&cli.data, period, format, out),
+        Command::Structure { period, format } => crate::commands::structure(&cli.data, period, format, out),
         Command::Translate { period, entity, format } => {
             crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
         }

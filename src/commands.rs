@@ -106,3 +106,51 @@ pub fn translate(
     out.write_all(text.as_bytes())?;
     Ok(if crate::proof::tied(&checks) { 0 } else { 1 })
 }
+
+/// The group structure at the end of a period, from the one module that decides it.
+pub fn group_structure(ds: &Dataset, period: Period) -> crate::structure::GroupStructure {
+    let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+    let _span = tracing::info_span!("structure", period = %period).entered();
+    crate::structure::build(
+        &ids,
+        &ds.holdings,
+        &ds.settings.parent,
+        period.last_day(),
+        ds.settings.policies.significant_influence,
+    )
+    .0
+}
+
+pub fn structure(data: &Path, period: Option<Period>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
+    let (loaded, findings) = load_checked(data, period)?;
+    let Some(c) = loaded else {
+        out.write_all(report::findings::render_check(&findings, None, Format::Table).as_bytes())?;
+        return Ok(exit_code(&findings));
+    };
+    // The structure needs only entities and holdings: findings about them block it,
+    // findings about ledgers do not.
+    let structural = [
+        crate::findings::Rule::EntityOverHeld,
+        crate::findings::Rule::StructureUnsolvable,
+        crate::findings::Rule::OverrideConflict,
+        crate::findings::Rule::OverrideOutsideGroup,
+        crate::findings::Rule::ArrangementConflict,
+        crate::findings::Rule::LimitExceeded,
+        crate::findings::Rule::HoldingInvalid,
+    ];
+    let blocking: Vec<_> = findings
+        .items()
+        .iter()
+        .filter(|f| structural.contains(&f.rule) && f.severity >= crate::findings::Severity::Blocking)
+        .cloned()
+        .collect();
+    if !blocking.is_empty() {
+        let mut only = Findings::default();
+        only.extend(blocking);
+        out.write_all(report::findings::render_check(&only, Some(c.scope.period), Format::Table).as_bytes())?;
+        return Ok(1);
+    }
+    let s = group_structure(&c.ds, c.scope.period);
+    out.write_all(report::structure::render(&s, &c.ds.entities, c.scope.period, format).as_bytes())?;
+    Ok(0)
+}

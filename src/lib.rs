@@ -13,6 +13,7 @@ pub mod model;
 pub mod money;
 pub mod proof;
 pub mod report;
+pub mod structure;
 pub mod translate;
 pub mod validate;
 

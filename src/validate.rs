@@ -142,31 +142,48 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
             }
         }
     }
-    let end = scope.period.last_day();
-    let mut held: BTreeMap<&EntityId, Vec<&Holding>> = BTreeMap::new();
-    for h in ds.holdings.iter().filter(|h| h.is_valid_on(end)) {
-        held.entry(&h.owned).or_default().push(h);
+    // Control, interests and methods: the structure module's own findings, less
+    // those loading and the checks above already report.
+    let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+    let (_, found) = crate::structure::build(
+        &ids,
+        &ds.holdings,
+        &ds.settings.parent,
+        scope.period.last_day(),
+        ds.settings.policies.significant_influence,
+    );
+    f.extend(found.into_iter().filter_map(structure_finding));
+}
+
+/// A structure finding as a finding of the run, or `None` where another check already
+/// reports the same problem.
+pub fn structure_finding(s: crate::structure::StructureFinding) -> Option<Finding> {
+    use crate::structure::StructureRule as S;
+    let rule = match s.rule {
+        S::EntityOverHeld => Rule::EntityOverHeld,
+        S::StructureUnsolvable => Rule::StructureUnsolvable,
+        S::OverrideConflict => Rule::OverrideConflict,
+        S::OverrideOutsideGroup => Rule::OverrideOutsideGroup,
+        S::ArrangementConflict => Rule::ArrangementConflict,
+        S::ParentHeld => Rule::ParentHeld,
+        S::LimitExceeded => Rule::LimitExceeded,
+        // Reported by loading (HoldingInvalid, EntityDuplicated) or by the reference
+        // data checks (EntityUnknown).
+        S::ParentUnknown
+        | S::EntityDuplicated
+        | S::HoldingUnknownEntity
+        | S::HoldingShareOutOfRange
+        | S::HoldingOfItself
+        | S::HoldingPeriodInverted => return None,
+    };
+    let mut x = Finding::new(rule, s.message, s.action);
+    if let Some(src) = &s.source {
+        x = x.at(src);
     }
-    for (owned, hs) in held {
-        for (what, get) in [
-            ("capital", (|h: &Holding| h.capital_share) as fn(&Holding) -> Decimal),
-            ("votes", |h: &Holding| h.voting_share),
-        ] {
-            let total: Decimal = hs.iter().map(|h| get(h)).sum();
-            if total > Decimal::ONE {
-                let terms: Vec<String> = hs.iter().map(|h| format!("{} {}", h.owner, get(h))).collect();
-                f.push(
-                    Finding::new(
-                        Rule::EntityOverHeld,
-                        format!("{owned} is held more than 100% of {what} on {end}: {} = {total}", terms.join(" + ")),
-                        "correct the shares or the validity dates in holdings.csv",
-                    )
-                    .at(&hs[0].source)
-                    .entity(owned),
-                );
-            }
-        }
+    if let Some(e) = &s.entity {
+        x = x.entity(e);
     }
+    Some(x)
 }
 
 fn check_mappings(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {

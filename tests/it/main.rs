@@ -4,9 +4,11 @@
 //! - `support`: building data folders and running commands in-process;
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
 //! - `currencies`: ISO 4217 minor units against the published table;
+//! - `structure`: `tessera structure` on the demo and over-held structures;
 //! - `translate`: IAS 21 translation against published examples and a property test.
 
 mod check;
 mod currencies;
+mod structure;
 mod support;
 mod translate;
