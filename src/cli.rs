@@ -46,6 +46,62 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Derives each month's closing and average rates from a central bank's daily
+    /// reference rates and writes the rates file the close reads.
+    Rates {
+        /// Daily series files (wide: Date,USD,JPY,...; or long: date,currency,rate).
+        #[arg(long, required = true, num_args = 1..)]
+        daily: Vec<PathBuf>,
+        /// The bank's own currency: the daily values are units per 1 unit of it.
+        #[arg(long, default_value = "EUR")]
+        base: String,
+        /// Months to derive, FIRST..LAST (e.g. 2025-12..2026-12); by default the opening
+        /// month through the latest period delivered.
+        #[arg(long)]
+        months: Option<String>,
+        /// Rates fixed by policy (period,currency,closing,average,quote,note); they win.
+        #[arg(long)]
+        overrides: Option<PathBuf>,
+        /// Currencies to derive (comma separated); by default the group's functional ones.
+        #[arg(long, value_delimiter = ',')]
+        currencies: Option<Vec<String>>,
+        /// Presentation currency; by default the group's.
+        #[arg(long)]
+        presentation: Option<String>,
+        /// Write the rates file here (e.g. rates/monthly.csv).
+        #[arg(long = "out")]
+        out_file: Option<PathBuf>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
+    /// Closes the period: group statements, elimination journal, NCI and proof.
+    Close {
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        #[arg(long, value_enum, default_value = "ytd")]
+        view: View,
+        /// Close the sub-group below this intermediate holding on its own.
+        #[arg(long)]
+        entity: Option<String>,
+        /// Folder for the output files (a sub-folder per period is written).
+        #[arg(long = "out", default_value = "out")]
+        out_dir: PathBuf,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
+    /// Shows how a group figure is made: each entity's translated contribution, the
+    /// ledger lines behind it and each elimination, summing to the figure.
+    Trace {
+        /// Group account to trace.
+        account: String,
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        /// Trace within the sub-group below this entity.
+        #[arg(long)]
+        entity: Option<String>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
     /// Translates every entity into the presentation currency (IAS 21) and explains
     /// each translation difference.
     Translate {
@@ -60,6 +116,24 @@ pub enum Command {
     },
 }
 
+/// Which months the income statement covers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum View {
+    Month,
+    Qtd,
+    Ytd,
+}
+
+impl View {
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            View::Month => "month",
+            View::Qtd => "qtd",
+            View::Ytd => "ytd",
+        }
+    }
+}
+
 pub fn parse_period(s: &str) -> Result<Period, String> {
     s.parse()
 }
@@ -69,6 +143,28 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
     match cli.command {
         Command::Check { period, format } => crate::commands::check(&cli.data, period, format, out),
         Command::Structure { period, format } => crate::commands::structure(&cli.data, period, format, out),
+        Command::Rates { daily, base, months, overrides, currencies, presentation, out_file, format } => {
+            let args =
+                crate::commands::RatesArgs { daily, base, months, overrides, currencies, presentation, out_file };
+            crate::commands::rates(&cli.data, args, format, out)
+        }
+        Command::Close { period, view, entity, out_dir, format } => crate::commands::close(
+            &cli.data,
+            period,
+            view,
+            entity.map(crate::model::EntityId::new),
+            &out_dir,
+            format,
+            out,
+        ),
+        Command::Trace { account, period, entity, format } => crate::commands::trace(
+            &cli.data,
+            &crate::model::GroupAccount::new(account),
+            period,
+            entity.map(crate::model::EntityId::new),
+            format,
+            out,
+        ),
         Command::Translate { period, entity, format } => {
             crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
         }

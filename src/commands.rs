@@ -65,10 +65,17 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
 }
 
 /// Refuses to go on past blocking findings: prints them and returns the exit code.
-fn stop_on_findings(findings: &Findings, out: &mut dyn Write, period: Option<Period>) -> Result<Option<i32>, Error> {
+fn stop_on_findings(
+    findings: &Findings,
+    out: &mut dyn Write,
+    period: Option<Period>,
+    format: Format,
+) -> Result<Option<i32>, Error> {
     if findings.has_blocking() {
-        out.write_all(report::findings::render_check(findings, period, Format::Table).as_bytes())?;
-        out.write_all(b"\nthe deliveries have blocking findings: fix them first (tessera check lists them)\n")?;
+        out.write_all(report::findings::render_check(findings, period, format).as_bytes())?;
+        if format == Format::Table {
+            out.write_all(b"\nthe deliveries have blocking findings: fix them first (tessera check lists them)\n")?;
+        }
         return Ok(Some(exit_code(findings)));
     }
     Ok(None)
@@ -83,7 +90,7 @@ pub fn translate(
 ) -> Result<i32, Error> {
     let (loaded, findings) = load_checked(data, period)?;
     let period = loaded.as_ref().map(|c| c.scope.period);
-    if let Some(code) = stop_on_findings(&findings, out, period)? {
+    if let Some(code) = stop_on_findings(&findings, out, period, format)? {
         return Ok(code);
     }
     let Some(Checked { ds, scope, mapped }) = loaded else { return Ok(exit_code(&findings)) };
@@ -152,5 +159,364 @@ pub fn structure(data: &Path, period: Option<Period>, format: Format, out: &mut 
     }
     let s = group_structure(&c.ds, c.scope.period);
     out.write_all(report::structure::render(&s, &c.ds.entities, c.scope.period, format).as_bytes())?;
+    Ok(0)
+}
+
+/// Arguments of `tessera rates`.
+pub struct RatesArgs {
+    pub daily: Vec<std::path::PathBuf>,
+    pub base: String,
+    pub months: Option<String>,
+    pub overrides: Option<std::path::PathBuf>,
+    pub currencies: Option<Vec<String>>,
+    pub presentation: Option<String>,
+    pub out_file: Option<std::path::PathBuf>,
+}
+
+fn currency_arg(code: &str, what: &str) -> Result<crate::model::Currency, Error> {
+    crate::model::Currency::parse(code.trim())
+        .ok_or_else(|| Error::Usage(format!("{what} {code:?} is not an ISO 4217 currency code")))
+}
+
+fn months_arg(s: &str) -> Result<Vec<Period>, Error> {
+    let bad = || Error::Usage(format!("--months {s:?} is not FIRST..LAST, e.g. 2025-12..2026-12"));
+    let (a, b) = s.split_once("..").ok_or_else(bad)?;
+    let (a, b): (Period, Period) = (a.parse().map_err(|_| bad())?, b.parse().map_err(|_| bad())?);
+    if b < a {
+        return Err(bad());
+    }
+    Ok(a.through(&b))
+}
+
+pub fn rates(data: &Path, args: RatesArgs, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
+    use crate::load::daily::{DailyOptions, parse_daily, parse_overrides};
+    use crate::rates::{DailyInput, RateRequest, derive_rates};
+    let _span = tracing::info_span!("rates").entered();
+    // The group's settings and entities give the defaults, when the data folder has them.
+    let (ds, _) = if data.join("entities").is_dir() { load::load(data) } else { (None, Findings::default()) };
+    let base = currency_arg(&args.base, "--base")?;
+    let presentation = match (&args.presentation, &ds) {
+        (Some(p), _) => currency_arg(p, "--presentation")?,
+        (None, Some(ds)) => ds.settings.presentation_currency,
+        (None, None) => return Err(Error::Usage("no group settings found: pass --presentation CCY".into())),
+    };
+    let currencies: Vec<crate::model::Currency> = match (&args.currencies, &ds) {
+        (Some(list), _) => list.iter().map(|c| currency_arg(c, "--currencies")).collect::<Result<_, _>>()?,
+        (None, Some(ds)) => {
+            let mut v: Vec<_> = ds.entities.iter().map(|e| e.currency).collect();
+            v.sort();
+            v.dedup();
+            v
+        }
+        (None, None) => return Err(Error::Usage("no entities found: pass --currencies USD,JPY,...".into())),
+    };
+    let fiscal_year_start = ds.as_ref().map(|d| d.settings.fiscal_year_start).unwrap_or(1);
+    let months = match (&args.months, &ds) {
+        (Some(m), _) => months_arg(m)?,
+        (None, Some(ds)) => match ds.periods().last() {
+            Some(last) => last.fiscal_year_start(fiscal_year_start).prev().through(last),
+            None => return Err(Error::Usage("no trial balance delivered yet: pass --months FIRST..LAST".into())),
+        },
+        (None, None) => return Err(Error::Usage("pass --months FIRST..LAST".into())),
+    };
+    let mut findings = Findings::default();
+    let mut series = Vec::new();
+    for path in &args.daily {
+        match load::read_rate_source(path) {
+            Ok((text, sha)) => {
+                let parsed = parse_daily(&text, &path.to_string_lossy(), &DailyOptions::default());
+                findings.extend(parsed.findings.into_iter().map(|f| f.into_finding()));
+                series.push((parsed.series, sha));
+            }
+            Err(f) => findings.push(*f),
+        }
+    }
+    let mut overrides = Vec::new();
+    if let Some(path) = &args.overrides {
+        match load::read_rate_source(path) {
+            Ok((text, _)) => {
+                let parsed = parse_overrides(&text, &path.to_string_lossy());
+                findings.extend(parsed.findings.into_iter().map(|f| f.into_finding()));
+                overrides = parsed.overrides;
+            }
+            Err(f) => findings.push(*f),
+        }
+    }
+    let inputs: Vec<DailyInput<'_>> = series.iter().map(|(s, sha)| DailyInput { series: s, sha256: sha }).collect();
+    let request = RateRequest { base, presentation, currencies: &currencies, months: &months, fiscal_year_start };
+    let derived = derive_rates(&inputs, &overrides, &request).map_err(|e| Error::Usage(e.to_string()))?;
+    findings.extend(derived.findings.into_iter().map(|f| f.into_finding()));
+    findings.sort();
+    if let Some(path) = &args.out_file
+        && !findings.has_blocking()
+    {
+        report::write_file(path, crate::rates::render_csv(&derived.records).as_bytes())?;
+    }
+    out.write_all(report::rates::render(&derived.records, &findings, args.out_file.as_deref(), format).as_bytes())?;
+    Ok(exit_code(&findings))
+}
+
+/// Everything a close computes, for the close and trace commands.
+pub struct ClosedPeriod {
+    pub checked: Checked,
+    pub translated: crate::translate::Translated,
+    pub structure: crate::structure::GroupStructure,
+    pub close: crate::close::Close,
+    /// The close at the end of the month before the view starts (for month and quarter
+    /// views), or `None` when the view starts with the fiscal year.
+    pub base: Option<crate::close::Close>,
+    /// The close at the opening (the month before the fiscal year).
+    pub opening: crate::close::Close,
+    pub checks: Vec<crate::proof::Check>,
+    pub root: crate::model::EntityId,
+}
+
+/// Runs the close chain: load -> map_accounts -> validate -> structure -> translate ->
+/// eliminate -> roll_up. Returns the findings instead when they block.
+pub fn run_close(
+    data: &Path,
+    period: Option<Period>,
+    view: crate::cli::View,
+    entity: Option<crate::model::EntityId>,
+) -> Result<Result<ClosedPeriod, Findings>, Error> {
+    let (loaded, findings) = load_checked(data, period)?;
+    if findings.has_blocking() {
+        return Ok(Err(findings));
+    }
+    let Some(checked) = loaded else { return Ok(Err(findings)) };
+    let ds = &checked.ds;
+    let scope = checked.scope;
+    let root = entity.unwrap_or_else(|| ds.settings.parent.clone());
+    if ds.entity(&root).is_none() {
+        return Err(Error::Usage(format!("entity {root} is not in entities.csv")));
+    }
+    let translated = crate::translate::translate(ds, &checked.mapped, scope.fiscal_start, scope.period)?;
+    let mut checks = crate::translate::prove(&translated)?;
+    let structure_at = |p: Period| {
+        let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+        crate::structure::build(&ids, &ds.holdings, &root, p.last_day(), ds.settings.policies.significant_influence).0
+    };
+    let structure = structure_at(scope.period);
+    let close = crate::close::close_at(ds, &translated, &structure, scope.period)?;
+    let base_period = match view {
+        crate::cli::View::Ytd => None,
+        crate::cli::View::Month => Some(scope.period.prev()),
+        crate::cli::View::Qtd => Some(scope.period.fiscal_quarter_start(ds.settings.fiscal_year_start).prev()),
+    }
+    .filter(|p| *p >= scope.fiscal_start);
+    let base = match base_period {
+        Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
+        None => None,
+    };
+    let opening_period = scope.fiscal_start.prev();
+    let opening = crate::close::close_at(ds, &translated, &structure_at(opening_period), opening_period)?;
+    checks.extend(crate::close::prove(&close)?);
+    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, opening, checks, root }))
+}
+
+pub fn close(
+    data: &Path,
+    period: Option<Period>,
+    view: crate::cli::View,
+    entity: Option<crate::model::EntityId>,
+    out_dir: &Path,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<i32, Error> {
+    use std::collections::BTreeMap;
+    let c = match run_close(data, period, view, entity)? {
+        Ok(c) => c,
+        Err(findings) => {
+            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
+            return Ok(code.max(1));
+        }
+    };
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let minor = c.translated.minor;
+    let mut layout_findings = Vec::new();
+    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
+    let is_pl = |a: &crate::model::GroupAccount| {
+        ds.account(a).is_some_and(|d| d.statement != crate::model::Statement::BalanceSheet)
+    };
+    // Income statement amounts for the view: year to date less the base close.
+    let mut view_amounts: BTreeMap<crate::model::GroupAccount, rust_decimal::Decimal> = BTreeMap::new();
+    for (a, v) in &c.close.group {
+        if is_pl(a) {
+            *view_amounts.entry(a.clone()).or_default() += *v;
+        }
+    }
+    if let Some(b) = &c.base {
+        for (a, v) in &b.group {
+            if is_pl(a) {
+                *view_amounts.entry(a.clone()).or_default() -= *v;
+            }
+        }
+    }
+    // In the balance sheet the year's profit is shown in retained earnings and its OCI
+    // in the translation reserve, where they will be closed at year end.
+    let mut bs_amounts = c.close.group.clone();
+    let pl_ytd: rust_decimal::Decimal = c
+        .close
+        .group
+        .iter()
+        .filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == crate::model::Statement::ProfitOrLoss))
+        .map(|(_, v)| *v)
+        .sum();
+    let oci_ytd: rust_decimal::Decimal = c
+        .close
+        .group
+        .iter()
+        .filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == crate::model::Statement::Oci))
+        .map(|(_, v)| *v)
+        .sum();
+    *bs_amounts.entry(ds.settings.accounts.retained_earnings.clone()).or_default() += pl_ytd;
+    *bs_amounts.entry(ds.settings.accounts.translation_reserve.clone()).or_default() += oci_ytd;
+    let mut out_statements = BTreeMap::new();
+    for st in &statements {
+        let amounts =
+            if st.statement == "profit_or_loss" || st.statement == "oci" { &view_amounts } else { &bs_amounts };
+        out_statements.insert(st.statement.clone(), report::close::lay_out(st, amounts));
+    }
+    let sum_st = |m: &BTreeMap<crate::model::GroupAccount, rust_decimal::Decimal>,
+                  st: crate::model::Statement|
+     -> rust_decimal::Decimal {
+        m.iter().filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
+    };
+    let profit = -sum_st(&view_amounts, crate::model::Statement::ProfitOrLoss);
+    let oci = -sum_st(&view_amounts, crate::model::Statement::Oci);
+    let nci_profit: rust_decimal::Decimal = c.close.nci.iter().map(|n| n.profit).sum::<rust_decimal::Decimal>()
+        - c.base.as_ref().map(|b| b.nci.iter().map(|n| n.profit).sum::<rust_decimal::Decimal>()).unwrap_or_default();
+    let nci_oci: rust_decimal::Decimal = c.close.nci.iter().map(|n| n.oci).sum::<rust_decimal::Decimal>()
+        - c.base.as_ref().map(|b| b.nci.iter().map(|n| n.oci).sum::<rust_decimal::Decimal>()).unwrap_or_default();
+    let result_in_equity = -(sum_st(&c.close.group, crate::model::Statement::ProfitOrLoss)
+        + sum_st(&c.close.group, crate::model::Statement::Oci));
+    let mut checks = c.checks.clone();
+    // The balance sheet balances once the result of the year is counted in equity.
+    let bs_total: rust_decimal::Decimal = sum_st(&c.close.group, crate::model::Statement::BalanceSheet);
+    checks.push(crate::proof::Check::new(
+        "balance_sheet_balances",
+        (bs_total - result_in_equity).is_zero(),
+        format!("assets - equity - liabilities = {bs_total}, profit and OCI of the year = {result_in_equity}"),
+    ));
+    let tied = crate::proof::tied(&checks)
+        && !c.close.findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
+    let names: BTreeMap<crate::model::GroupAccount, String> =
+        ds.accounts.iter().map(|a| (a.account.clone(), a.name.clone())).collect();
+    let policies = serde_json::json!({
+        "rounding": ds.settings.policies.rounding,
+        "income_translation": ds.settings.policies.income_translation,
+        "ifric16": ds.settings.policies.ifric16,
+        "significant_influence": ds.settings.policies.significant_influence.to_string(),
+    });
+    let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
+    let r = report::close::CloseReport {
+        period: scope.period.to_string(),
+        currency: ds.settings.presentation_currency.code().to_string(),
+        view: view.as_str(),
+        scope: scope_label,
+        proof: report::close::Proof {
+            tied,
+            checks: &checks,
+            inputs: &ds.inputs,
+            tessera_version: env!("CARGO_PKG_VERSION"),
+            policies,
+        },
+        group_trial_balance: report::close::tb_json(&c.close.group, &names),
+        statements: out_statements,
+        attribution: report::close::Attribution {
+            profit,
+            profit_owners: profit - nci_profit,
+            profit_nci: nci_profit,
+            oci,
+            oci_owners: oci - nci_oci,
+            oci_nci: nci_oci,
+            result_in_equity,
+        },
+        eliminations: &c.close.journal,
+        nci: &c.close.nci,
+        findings: &c.close.findings,
+        caution: report::CAUTION,
+    };
+    let dir = report::close::output_dir(out_dir, scope.period);
+    report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines)?;
+    out.write_all(report::close::render(&r, minor, format).as_bytes())?;
+    let _ = &c.opening;
+    Ok(if tied { 0 } else { 1 })
+}
+
+pub fn trace(
+    data: &Path,
+    account: &crate::model::GroupAccount,
+    period: Option<Period>,
+    entity: Option<crate::model::EntityId>,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<i32, Error> {
+    use polars::prelude::*;
+    let c = match run_close(data, period, crate::cli::View::Ytd, entity)? {
+        Ok(c) => c,
+        Err(findings) => {
+            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
+            return Ok(code.max(1));
+        }
+    };
+    let ds = &c.checked.ds;
+    if ds.account(account).is_none() {
+        return Err(Error::Usage(format!("group account {account} is not in accounts.csv")));
+    }
+    let p = crate::map_accounts::period_index(c.checked.scope.period);
+    let contributions =
+        c.close.contributions.clone().lazy().filter(col("group_account").eq(lit(account.as_str()))).collect()?;
+    let entities: Vec<String> = contributions
+        .column("entity")?
+        .str()?
+        .iter()
+        .flatten()
+        .map(String::from)
+        .collect::<std::collections::BTreeSet<_>>()
+        .into_iter()
+        .collect();
+    let ents = Series::new("e".into(), entities.clone());
+    // The ledger lines behind each contribution: the latest balance delivery, or the
+    // opening balance and every month's movements up to the period.
+    let balance_entities = c
+        .checked
+        .mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("kind").eq(lit("balances")))
+        .select([col("entity")])
+        .unique(None, UniqueKeepStrategy::Any)
+        .with_column(lit(true).alias("by_balance"));
+    let ledger = c
+        .checked
+        .mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents), false)))
+        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
+        .filter(
+            when(col("by_balance").fill_null(lit(false)))
+                .then(col("period_index").eq(lit(p)))
+                .otherwise(col("period_index").lt_eq(lit(p))),
+        )
+        .sort(["entity", "file", "line"], SortMultipleOptions::default())
+        .collect()?;
+    let minor = c.translated.minor;
+    let text = report::trace::render(
+        account,
+        ds,
+        &contributions,
+        &ledger,
+        &c.close.journal,
+        c.close.group.get(account).copied().unwrap_or_default(),
+        c.checked.scope.period,
+        minor,
+        format,
+    )?;
+    out.write_all(text.as_bytes())?;
     Ok(0)
 }

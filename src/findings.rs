@@ -23,8 +23,10 @@ pub enum Severity {
 
 /// The rules a delivery can break. The variant name is the finding's name in every
 /// output, so it is part of the interface: rename only with a changelog entry.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum Rule {
+    /// A rule of the daily reference rates (`tessera rates`), named by that module.
+    Rate(crate::rates::RateRule),
     FileMissing,
     FileUnreadable,
     ColumnMissing,
@@ -67,6 +69,8 @@ pub enum Rule {
     ArrangementConflict,
     ParentHeld,
     LimitExceeded,
+    AcquisitionMissing,
+    GoodwillNegative,
     LayoutInvalid,
     LayoutAccountUncovered,
     LayoutAccountTwice,
@@ -78,6 +82,7 @@ impl Rule {
         match self {
             Rule::FileMissing | Rule::FileUnreadable | Rule::ColumnMissing => Severity::Unreadable,
             Rule::ColumnUnknown | Rule::EntityFolderUnknown | Rule::DeliveryMissing => Severity::Warning,
+            Rule::Rate(r) => r.severity(),
             _ => Severity::Blocking,
         }
     }
@@ -85,7 +90,16 @@ impl Rule {
 
 impl fmt::Display for Rule {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        fmt::Debug::fmt(self, f)
+        match self {
+            Rule::Rate(r) => f.write_str(r.as_str()),
+            other => fmt::Debug::fmt(other, f),
+        }
+    }
+}
+
+impl Serialize for Rule {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(self)
     }
 }
 

@@ -4,6 +4,7 @@
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
 pub mod cli;
+pub mod close;
 pub mod commands;
 pub mod findings;
 pub mod layout;
@@ -12,6 +13,7 @@ pub mod map_accounts;
 pub mod model;
 pub mod money;
 pub mod proof;
+pub mod rates;
 pub mod report;
 pub mod structure;
 pub mod translate;

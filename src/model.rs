@@ -232,6 +232,10 @@ pub struct RoleAccounts {
     pub equity_investments: GroupAccount,
     pub equity_result: GroupAccount,
     pub intercompany_difference: GroupAccount,
+    /// Inventory and cost of sales, for the elimination of unrealised profit; needed
+    /// only when `inventory_profit.csv` has rows.
+    pub inventory: Option<GroupAccount>,
+    pub cost_of_sales: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -408,5 +412,52 @@ pub struct AccountDef {
     pub basis: Basis,
     pub ic_kind: Option<String>,
     pub non_current: bool,
+    pub source: Source,
+}
+
+/// How the non-controlling interest is measured at acquisition (IFRS 3.19).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum NciMeasurement {
+    /// At fair value: goodwill includes the NCI's share ("full goodwill").
+    FairValue,
+    /// At the NCI's share of the identifiable net assets ("partial goodwill").
+    ShareOfNetAssets,
+}
+
+/// An acquisition of a subsidiary or an associate, from `entities/acquisitions.csv`.
+/// Amounts are in the acquired entity's functional currency: goodwill of a foreign
+/// operation is its asset (IAS 21.47).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Acquisition {
+    pub owned: EntityId,
+    pub date: NaiveDate,
+    /// Consideration transferred plus the fair value of any previously held interest.
+    pub consideration: Decimal,
+    pub nci_measurement: NciMeasurement,
+    /// Fair value of the NCI, when measured at fair value.
+    pub nci_fair_value: Option<Decimal>,
+    /// Fair value of the identifiable net assets at the acquisition date.
+    pub net_assets: Decimal,
+    /// The same net assets as carried in the presentation currency (translated at the
+    /// acquisition date's rate): the equity the elimination removes.
+    pub net_assets_presentation: Decimal,
+    /// Goodwill impairment recognised to date, in the functional currency.
+    pub impairment: Decimal,
+    pub source: Source,
+}
+
+/// Goods bought inside the group still held by the buyer, from
+/// `entities/inventory_profit.csv`: the profit the seller made on them is unrealised.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct InventoryProfit {
+    pub seller: EntityId,
+    pub buyer: EntityId,
+    /// The count date's period.
+    pub period: Period,
+    /// The buyer's carrying amount, in the buyer's functional currency.
+    pub inventory_amount: Decimal,
+    /// The seller's margin as a share of the transfer price (a 25% mark-up is 0.20).
+    pub margin_rate: Decimal,
     pub source: Source,
 }

@@ -213,7 +213,8 @@ ROLE_ACCOUNTS = dict(retained_earnings="3200", translation_reserve="3300",
                      translation_difference="9000",
                      non_controlling_interest="3900", goodwill="1100",
                      equity_investments="1300", equity_result="4900",
-                     intercompany_difference="6950")
+                     intercompany_difference="6950", inventory="1500",
+                     cost_of_sales="5000")
 
 LAYOUTS = [
     # statement, line, label, accounts, total_of, presentation
@@ -1224,6 +1225,8 @@ goodwill = "{a['goodwill']}"
 equity_investments = "{a['equity_investments']}"
 equity_result = "{a['equity_result']}"
 intercompany_difference = "{a['intercompany_difference']}"
+inventory = "{a['inventory']}"
+cost_of_sales = "{a['cost_of_sales']}"
 
 [intercompany]
 tolerance_absolute = "50.00"          # presentation currency

@@ -4,6 +4,7 @@
 //! run shows everything wrong with a delivery. It knows nothing about accounting rules
 //! beyond the shape of each file; `validate` checks the rules.
 
+pub mod daily;
 mod ledger;
 mod settings;
 pub mod table;
@@ -118,6 +119,8 @@ pub struct Dataset {
     pub opening: DataFrame,
     pub rates: Vec<MonthlyRate>,
     pub historical_rates: Vec<HistoricalRate>,
+    pub acquisitions: Vec<Acquisition>,
+    pub inventory_profits: Vec<InventoryProfit>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     pub inputs: Vec<InputFile>,
@@ -269,6 +272,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let pres = settings.as_ref().map(|s| s.presentation_currency);
     let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
+    let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
+    let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -288,6 +293,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             opening,
             rates,
             historical_rates,
+            acquisitions,
+            inventory_profits,
             delivered_entities: delivered,
             inputs,
         }),
@@ -922,6 +929,168 @@ fn load_historical(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut 
             period,
             rate,
             note: t.get("note", row).unwrap_or_default(),
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+/// Reads one daily reference-rate file (or an override file) as text, with its hash.
+pub fn read_rate_source(path: &Path) -> Result<(String, String), Box<Finding>> {
+    let display = path.to_string_lossy().to_string();
+    let bytes = std::fs::read(path).map_err(|e| {
+        Finding::new(
+            Rule::FileMissing,
+            format!("cannot read the file: {e}"),
+            "check the path given on the command line",
+        )
+        .in_file(&display)
+    })?;
+    let sha = sha256_hex(&bytes);
+    let text = String::from_utf8(bytes).map_err(|_| {
+        Finding::new(Rule::FileUnreadable, "the file is not UTF-8 text", "save it as UTF-8").in_file(&display)
+    })?;
+    Ok((text, sha))
+}
+
+fn parse_amount_cell(t: &TextTable, row: usize, col: &str, f: &mut Vec<Finding>) -> Option<Decimal> {
+    let v = t.get(col, row)?;
+    match Decimal::from_str(&v) {
+        Ok(d)
+            if d.scale() <= 3 && d.abs() < Decimal::from(10i64.pow(crate::money::AMOUNT_MAX_INTEGER_DIGITS as u32)) =>
+        {
+            Some(d)
+        }
+        _ => {
+            f.push(
+                Finding::new(
+                    Rule::AmountMalformed,
+                    format!("`{col}` is {v:?}, not a plain decimal with at most 3 decimals below 10^15"),
+                    "write it as -1234.56",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            None
+        }
+    }
+}
+
+fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<Acquisition> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec {
+        required: &["owned", "date", "consideration", "nci_measurement", "net_assets", "net_assets_presentation"],
+        optional: &["nci_fair_value", "impairment", "note"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let owned = required(&t, "owned", row, f);
+        let date = required(&t, "date", row, f).and_then(|v| parse_date(&t, row, "date", &v, f));
+        let measurement = match required(&t, "nci_measurement", row, f).as_deref() {
+            Some("fair_value") => Some(NciMeasurement::FairValue),
+            Some("share_of_net_assets") => Some(NciMeasurement::ShareOfNetAssets),
+            Some(v) => {
+                f.push(invalid(&t, row, "nci_measurement", v, "fair_value or share_of_net_assets"));
+                None
+            }
+            None => None,
+        };
+        let consideration = required(&t, "consideration", row, f).and(parse_amount_cell(&t, row, "consideration", f));
+        let net_assets = required(&t, "net_assets", row, f).and(parse_amount_cell(&t, row, "net_assets", f));
+        let nap = required(&t, "net_assets_presentation", row, f).and(parse_amount_cell(
+            &t,
+            row,
+            "net_assets_presentation",
+            f,
+        ));
+        let nci_fv = parse_amount_cell(&t, row, "nci_fair_value", f);
+        let impairment = parse_amount_cell(&t, row, "impairment", f).unwrap_or_default();
+        let (Some(owned), Some(date), Some(m), Some(c), Some(na), Some(nap)) =
+            (owned, date, measurement, consideration, net_assets, nap)
+        else {
+            continue;
+        };
+        if m == NciMeasurement::FairValue && nci_fv.is_none() {
+            f.push(
+                Finding::new(
+                    Rule::ValueMissing,
+                    "NCI measured at fair value needs `nci_fair_value`",
+                    "fill in the NCI's fair value at the acquisition date (IFRS 3.19)",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            continue;
+        }
+        out.push(Acquisition {
+            owned: EntityId::new(owned),
+            date,
+            consideration: c,
+            nci_measurement: m,
+            nci_fair_value: nci_fv,
+            net_assets: na,
+            net_assets_presentation: nap,
+            impairment,
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+fn load_inventory_profits(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<InventoryProfit> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec {
+        required: &["seller", "buyer", "period", "inventory_amount", "margin_rate"],
+        optional: &["currency", "note"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let (Some(seller), Some(buyer), Some(p)) =
+            (required(&t, "seller", row, f), required(&t, "buyer", row, f), required(&t, "period", row, f))
+        else {
+            continue;
+        };
+        let Ok(period) = Period::from_str(&p) else {
+            f.push(invalid(&t, row, "period", &p, "a period YYYY-MM"));
+            continue;
+        };
+        let amount = required(&t, "inventory_amount", row, f).and(parse_amount_cell(&t, row, "inventory_amount", f));
+        let margin = match required(&t, "margin_rate", row, f) {
+            Some(v) => match Decimal::from_str(&v) {
+                Ok(d) if d >= Decimal::ZERO && d < Decimal::ONE => Some(d),
+                _ => {
+                    f.push(invalid(
+                        &t,
+                        row,
+                        "margin_rate",
+                        &v,
+                        "a share of the transfer price in [0, 1), e.g. 0.20 for a 25% mark-up",
+                    ));
+                    None
+                }
+            },
+            None => None,
+        };
+        let (Some(amount), Some(margin)) = (amount, margin) else { continue };
+        out.push(InventoryProfit {
+            seller: EntityId::new(seller),
+            buyer: EntityId::new(buyer),
+            period,
+            inventory_amount: amount,
+            margin_rate: margin,
             source: Source::line(&t.file, t.line(row)),
         });
     }

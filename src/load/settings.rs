@@ -35,6 +35,8 @@ const ROLE_KEYS: &[&str] = &[
     "equity_investments",
     "equity_result",
     "intercompany_difference",
+    "inventory",
+    "cost_of_sales",
 ];
 const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
 
@@ -259,6 +261,8 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             equity_investments: ei,
             equity_result: er,
             intercompany_difference: icd,
+            inventory: raw.accounts.get("inventory").map(|a| GroupAccount::new(a.trim())),
+            cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
         },
         intercompany: IntercompanySettings {
             tolerance_absolute: tol_abs?,

@@ -2,8 +2,11 @@
 //! Every command's result is rendered here as a table for the terminal, JSON (amounts
 //! as decimal strings) or CSV. Nothing here computes a figure.
 
+pub mod close;
 pub mod findings;
+pub mod rates;
 pub mod structure;
+pub mod trace;
 pub mod translation;
 
 use std::path::Path;

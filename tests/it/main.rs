@@ -3,12 +3,19 @@
 //!
 //! - `support`: building data folders and running commands in-process;
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
+//! - `close`: published consolidation cases as small groups, the demo closing tied, trace;
 //! - `currencies`: ISO 4217 minor units against the published table;
+//! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
+//!   PyPI extract) and an independent Python `decimal` oracle;
+//! - `rates_findings`: the rate derivation's findings, each from a small inline file;
 //! - `structure`: `tessera structure` on the demo and over-held structures;
 //! - `translate`: IAS 21 translation against published examples and a property test.
 
 mod check;
+mod close;
 mod currencies;
+mod rates_ecb;
+mod rates_findings;
 mod structure;
 mod support;
 mod translate;

@@ -125,6 +125,7 @@ pub const CHART: &str = "account,name,statement,class,basis,ic_kind,non_current
 1100,Goodwill,balance_sheet,asset,closing,,true
 1300,Investments in associates,balance_sheet,asset,closing,,true
 1400,Investments in subsidiaries,balance_sheet,asset,closing,investment,true
+1500,Inventory,balance_sheet,asset,closing,,
 1550,Receivables from group entities,balance_sheet,asset,closing,trade,
 2550,Payables to group entities,balance_sheet,liability,closing,trade,
 2600,Loans from group entities,balance_sheet,liability,closing,loan,
@@ -135,6 +136,7 @@ pub const CHART: &str = "account,name,statement,class,basis,ic_kind,non_current
 3900,Non-controlling interests,balance_sheet,equity,historical,,
 4000,Revenue,profit_or_loss,income,average,,
 4100,Revenue from group entities,profit_or_loss,income,average,sales,
+4200,Dividends from group entities,profit_or_loss,income,average,dividend,
 4900,Share of profit of associates,profit_or_loss,income,average,,
 5000,Expenses,profit_or_loss,expense,average,,
 5100,Purchases from group entities,profit_or_loss,expense,average,sales,
@@ -143,14 +145,14 @@ pub const CHART: &str = "account,name,statement,class,basis,ic_kind,non_current
 ";
 
 pub const LAYOUT: &str = "statement,line,label,accounts,total_of,presentation
-profit_or_loss,REV,Revenue,4000..4199,,credit_positive
+profit_or_loss,REV,Revenue,4000..4299,,credit_positive
 profit_or_loss,EXP,Expenses,5000..5199 6950,,credit_positive
 profit_or_loss,ASSOC,Share of profit of associates,4900,,credit_positive
 profit_or_loss,PROFIT,Profit for the period,,REV EXP ASSOC,credit_positive
 oci,FX,Exchange differences on translation,8100,,credit_positive
 oci,OCI,Other comprehensive income,,FX,credit_positive
 balance_sheet,NCA,Non-current assets,1100..1499,,
-balance_sheet,CA,Current assets,1000 1550 1600,,
+balance_sheet,CA,Current assets,1000 1500 1550 1600,,
 balance_sheet,TA,Total assets,,NCA CA,
 balance_sheet,EQ,Equity,3000..3999,,credit_positive
 balance_sheet,LIAB,Liabilities,2000..2999,,credit_positive
@@ -183,6 +185,8 @@ goodwill = \"1100\"
 equity_investments = \"1300\"
 equity_result = \"4900\"
 intercompany_difference = \"6950\"
+inventory = \"1500\"
+cost_of_sales = \"5000\"
 
 [intercompany]
 tolerance_absolute = \"1.00\"

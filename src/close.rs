@@ -1,0 +1,789 @@
+//! The close: from translated entity balances to the group trial balance, through the
+//! elimination journal (IFRS 10.B86) and the non-controlling interests.
+//!
+//! The chain is `aggregate -> eliminate -> roll_up`, all on year-to-date balances at the
+//! period end (balance-sheet accounts cumulative, income and expense since the start of
+//! the fiscal year); month and quarter views are differences of two such closes.
+//!
+//! - `aggregate`: each entity's translated balances, plus its translation difference
+//!   (OCI for the year, the reserve for what was brought forward), taken by method:
+//!   full 100%, proportionate at the group's share (IFRS 11.20), equity and none not at all.
+//! - `eliminate`: the elimination journal, every entry balanced and posted at the lowest
+//!   common parent of the entities it concerns: intercompany balances and transactions
+//!   (both sides reversed, the residual to the intercompany difference account);
+//!   intragroup dividends against the payer's retained earnings; results before the
+//!   acquisition date into pre-acquisition equity; the investment against the equity at
+//!   acquisition with goodwill (IFRS 3.32) held in the subsidiary's currency at the
+//!   closing rate (IAS 21.47); the equity method (IAS 28.10); and the NCI's share of
+//!   post-acquisition equity, multi-tier through effective interests.
+//! - `roll_up`: contributions plus eliminations, per group account.
+//!
+//! Close knows nothing about files.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+use serde::Serialize;
+
+use crate::load::Dataset;
+use crate::map_accounts::period_index;
+use crate::model::*;
+use crate::money::{self, column_decimals};
+use crate::proof::Check;
+use crate::structure::GroupStructure;
+use crate::translate::Translated;
+
+/// One line of an elimination entry.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct EntryLine {
+    pub account: GroupAccount,
+    /// The entity whose figure the line corrects.
+    pub entity: EntityId,
+    pub counterparty: Option<EntityId>,
+    /// Presentation currency, debit positive.
+    pub amount: Decimal,
+}
+
+/// An elimination entry: balanced, named after its rule, posted at the lowest common
+/// parent of the entities it concerns.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct Entry {
+    pub id: String,
+    pub rule: &'static str,
+    pub posted_at: EntityId,
+    pub entities: Vec<EntityId>,
+    pub description: String,
+    pub lines: Vec<EntryLine>,
+}
+
+impl Entry {
+    pub fn total(&self) -> Decimal {
+        self.lines.iter().map(|l| l.amount).sum()
+    }
+}
+
+/// The NCI of one subsidiary.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct NciRow {
+    pub entity: EntityId,
+    pub nci_share: Decimal,
+    /// Share of the subsidiary's profit of the year (credit positive).
+    pub profit: Decimal,
+    /// Share of its OCI of the year, translation difference included (IAS 21.41).
+    pub oci: Decimal,
+    /// NCI in equity at the period end (credit positive).
+    pub equity: Decimal,
+}
+
+/// A close on year-to-date balances at one period end.
+pub struct Close {
+    pub period: Period,
+    /// entity, group_account, counterparty, amount: each entity's contribution by method.
+    pub contributions: DataFrame,
+    pub journal: Vec<Entry>,
+    /// Group account -> amount (debit positive).
+    pub group: BTreeMap<GroupAccount, Decimal>,
+    pub nci: Vec<NciRow>,
+    pub findings: Vec<crate::findings::Finding>,
+}
+
+fn strs(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
+    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
+}
+
+/// Each entity's translated year-to-date balances at `period`, translation difference
+/// included, taken by its consolidation method.
+pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<DataFrame> {
+    let _span = tracing::info_span!("aggregate", period = %period).entered();
+    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let p = period_index(period);
+    let p0 = period_index(fiscal_start.prev());
+    let minor = t.minor as usize;
+    // Shares by method: full 1, proportionate the group's share, others excluded.
+    let mut ids = Vec::new();
+    let mut shares = Vec::new();
+    for e in s.entities() {
+        if matches!(e.method, Method::Full | Method::Proportionate) {
+            ids.push(e.id.to_string());
+            shares.push(s.share_for_proportionate(&e.id).to_string());
+        }
+    }
+    let share_df = DataFrame::new(
+        ids.len(),
+        vec![
+            Column::new("entity".into(), ids),
+            Column::new("share".into(), shares)
+                .strict_cast(&DataType::Decimal(38, crate::structure::INTEREST_DECIMALS as usize))?,
+        ],
+    )?;
+    let lines = t.lines.clone().lazy().filter(col("period_index").eq(lit(p))).select([
+        col("entity"),
+        col("group_account"),
+        col("counterparty"),
+        col("balance_presentation").alias("amount"),
+    ]);
+    let roles = &ds.settings.accounts;
+    // The translation difference of the year goes to OCI, what was brought forward to
+    // the reserve (IAS 21.39c, 21.41).
+    let td = t.differences.clone().lazy().filter(col("period_index").lt_eq(lit(p))).select([
+        col("entity"),
+        when(col("period_index").eq(lit(p0)))
+            .then(lit(roles.translation_reserve.as_str()))
+            .otherwise(lit(roles.translation_difference.as_str()))
+            .alias("group_account"),
+        lit(NULL).cast(DataType::String).alias("counterparty"),
+        col("translation_difference").alias("amount"),
+    ]);
+    let all = concat([lines, td], UnionArgs::default())?
+        .join(share_df.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Inner))
+        .with_column(
+            (col("amount").strict_cast(DataType::Decimal(38, minor + crate::structure::INTEREST_DECIMALS as usize))
+                * col("share"))
+            .round(minor as u32, money::polars_round_mode(ds.settings.policies.rounding))
+            .strict_cast(DataType::Decimal(38, minor))
+            .alias("amount"),
+        )
+        .group_by([col("entity"), col("group_account"), col("counterparty")])
+        .agg([col("amount").sum()])
+        .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
+        .collect()?;
+    Ok(all)
+}
+
+/// Builds a journal; ids are assigned in order.
+struct Journal {
+    entries: Vec<Entry>,
+}
+
+impl Journal {
+    fn post(
+        &mut self,
+        rule: &'static str,
+        posted_at: EntityId,
+        entities: Vec<EntityId>,
+        description: String,
+        lines: Vec<EntryLine>,
+    ) {
+        let lines: Vec<EntryLine> = lines.into_iter().filter(|l| !l.amount.is_zero()).collect();
+        if lines.is_empty() {
+            return;
+        }
+        let id = format!("E{:04}", self.entries.len() + 1);
+        let entry = Entry { id, rule, posted_at, entities, description, lines };
+        // A broken entry is a bug in this module, never a data problem.
+        assert!(
+            entry.total().is_zero(),
+            "elimination {} ({}) does not balance: {}",
+            entry.id,
+            entry.rule,
+            entry.total()
+        );
+        self.entries.push(entry);
+    }
+}
+
+fn line(account: &GroupAccount, entity: &EntityId, counterparty: Option<&EntityId>, amount: Decimal) -> EntryLine {
+    EntryLine { account: account.clone(), entity: entity.clone(), counterparty: counterparty.cloned(), amount }
+}
+
+/// Per entity: balances by group account and counterparty (the contribution frame).
+type Balances = BTreeMap<EntityId, BTreeMap<(GroupAccount, Option<EntityId>), Decimal>>;
+
+fn balances(contrib: &DataFrame) -> PolarsResult<Balances> {
+    let e = strs(contrib, "entity")?;
+    let a = strs(contrib, "group_account")?;
+    let c = strs(contrib, "counterparty")?;
+    let v = column_decimals(contrib.column("amount")?)?;
+    let mut out: Balances = BTreeMap::new();
+    for i in 0..contrib.height() {
+        let (Some(e), Some(a)) = (&e[i], &a[i]) else { continue };
+        *out.entry(EntityId::new(e))
+            .or_default()
+            .entry((GroupAccount::new(a), c[i].clone().map(EntityId::new)))
+            .or_default() += v[i].unwrap_or_default();
+    }
+    Ok(out)
+}
+
+/// The close at `period` on year-to-date balances.
+pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
+    let contributions = aggregate(ds, t, s, period)?;
+    let _span = tracing::info_span!("eliminate", period = %period).entered();
+    let bal = balances(&contributions)?;
+    let mut findings = Vec::new();
+    let roles = &ds.settings.accounts;
+    let minor = t.minor;
+    let mode = ds.settings.policies.rounding;
+    let chart: BTreeMap<&GroupAccount, &AccountDef> = ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let consolidated: BTreeSet<EntityId> = s
+        .entities()
+        .iter()
+        .filter(|e| matches!(e.method, Method::Full | Method::Proportionate))
+        .map(|e| e.id.clone())
+        .collect();
+    let lcp = |a: &EntityId, b: &EntityId| s.lowest_common_parent(a, b).unwrap_or_else(|| s.parent().clone());
+    let mut j = Journal { entries: Vec::new() };
+    let kind_of = |a: &GroupAccount| chart.get(a).and_then(|d| d.ic_kind.clone());
+    let is_pl = |a: &GroupAccount| chart.get(a).is_some_and(|d| d.statement != Statement::BalanceSheet);
+
+    // 1. Results before the acquisition date belong to the equity acquired (IFRS 10.B88):
+    //    they are moved from income and expense into pre-acquisition retained earnings.
+    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    for e in s.entities().iter().filter(|e| e.method == Method::Full) {
+        let Some(from) = e.controlled_from else { continue };
+        let control_month = Period::of_date(from);
+        if control_month <= fiscal_start || control_month > period {
+            continue;
+        }
+        // Income and expense (and translation difference) of the months before control.
+        let before = control_month.prev();
+        let pre = aggregate(ds, t, s, before).and_then(|c| balances(&c))?;
+        let mut lines = Vec::new();
+        let mut total = Decimal::ZERO;
+        if let Some(b) = pre.get(&e.id) {
+            for ((acct, cp), amount) in b {
+                if is_pl(acct) {
+                    lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
+                    total += *amount;
+                }
+            }
+        }
+        lines.push(line(&roles.retained_earnings, &e.id, None, total));
+        j.post(
+            "pre_acquisition_results",
+            e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
+            vec![e.id.clone()],
+            format!("results of {} before control on {from} moved into equity at acquisition", e.id),
+            lines,
+        );
+    }
+
+    // 2. Intercompany balances and transactions, pair by pair and kind by kind.
+    let mut pairs: BTreeMap<(EntityId, EntityId, String), Vec<EntryLine>> = BTreeMap::new();
+    let mut dividends: Vec<(EntityId, EntityId, GroupAccount, Decimal)> = Vec::new();
+    for (ent, accts) in &bal {
+        for ((acct, cp), amount) in accts {
+            let (Some(kind), Some(cp)) = (kind_of(acct), cp) else { continue };
+            if !consolidated.contains(cp) || kind == "investment" {
+                continue;
+            }
+            if kind == "dividend" && is_pl(acct) {
+                dividends.push((ent.clone(), cp.clone(), acct.clone(), *amount));
+                continue;
+            }
+            let (a, b) = if ent < cp { (ent.clone(), cp.clone()) } else { (cp.clone(), ent.clone()) };
+            pairs.entry((a, b, kind)).or_default().push(line(acct, ent, Some(cp), -*amount));
+        }
+    }
+    for ((a, b, kind), mut lines) in pairs {
+        let residual: Decimal = lines.iter().map(|l| l.amount).sum();
+        let at = lcp(&a, &b);
+        if !residual.is_zero() {
+            lines.push(line(&roles.intercompany_difference, &at, None, -residual));
+        }
+        j.post(
+            "intercompany",
+            at,
+            vec![a.clone(), b.clone()],
+            format!(
+                "{kind} between {a} and {b}; difference {} to {}",
+                money::format_amount(residual, minor),
+                roles.intercompany_difference
+            ),
+            lines,
+        );
+    }
+    // Dividends from group entities: income of the receiver against the payer's
+    // retained earnings, where the dividend was charged.
+    for (receiver, payer, acct, amount) in dividends {
+        let at = lcp(&receiver, &payer);
+        j.post(
+            "intragroup_dividend",
+            at,
+            vec![receiver.clone(), payer.clone()],
+            format!("dividend of {payer} to {receiver}"),
+            vec![line(&acct, &receiver, Some(&payer), -amount), line(&roles.retained_earnings, &payer, None, amount)],
+        );
+    }
+
+    let rate_of =
+        |c: Currency, p: Period| ds.rates.iter().find(|r| r.currency == c && r.period == p).map(|r| r.closing);
+    let pres = ds.settings.presentation_currency;
+    // 2b. Unrealised profit on goods still held inside the group: the latest count at
+    //     or before the period, in the buyer's currency at the closing rate. The
+    //     seller bears it (upstream it is shared with the seller's NCI, downstream
+    //     borne by the parent); what was eliminated at the opening is charged to
+    //     retained earnings, the change of the year to cost of sales, and the exchange
+    //     difference on the opening part to OCI.
+    let mut latest: BTreeMap<(EntityId, EntityId), (&InventoryProfit, Option<&InventoryProfit>)> = BTreeMap::new();
+    for ip in ds.inventory_profits.iter().filter(|x| x.period <= period) {
+        let key = (ip.seller.clone(), ip.buyer.clone());
+        let opening = ip.period < fiscal_start;
+        let slot = latest.entry(key).or_insert((ip, None));
+        if opening {
+            slot.1 = Some(match slot.1 {
+                Some(o) if o.period >= ip.period => o,
+                _ => ip,
+            });
+        }
+        if ip.period >= slot.0.period {
+            slot.0 = ip;
+        }
+    }
+    if let (Some(inventory), Some(cogs)) = (&roles.inventory, &roles.cost_of_sales) {
+        for ((seller, buyer), (now, open)) in &latest {
+            if !consolidated.contains(seller) || !consolidated.contains(buyer) {
+                continue;
+            }
+            let Some(bc) = ds.entity(buyer).map(|e| e.currency) else { continue };
+            let at_rate = |x: Decimal, p: Period| -> Option<Decimal> {
+                if bc == pres {
+                    Some(money::round(x, minor, mode))
+                } else {
+                    rate_of(bc, p).map(|r| money::round(r.apply(x), minor, mode))
+                }
+            };
+            let urp_now_fc = if now.period < fiscal_start && open.is_none() {
+                Decimal::ZERO
+            } else {
+                now.inventory_amount * now.margin_rate
+            };
+            let urp_open_fc = open.map(|o| o.inventory_amount * o.margin_rate).unwrap_or_default();
+            let (Some(urp_now), Some(urp_open_then), Some(urp_open_now)) =
+                (at_rate(urp_now_fc, period), at_rate(urp_open_fc, fiscal_start.prev()), at_rate(urp_open_fc, period))
+            else {
+                continue;
+            };
+            let change = urp_now - urp_open_now;
+            let fx = urp_open_now - urp_open_then;
+            j.post(
+                "unrealised_profit",
+                lcp(seller, buyer),
+                vec![seller.clone(), buyer.clone()],
+                format!(
+                    "profit of {seller} on goods held by {buyer}: {bc} {} x {} = {}",
+                    now.inventory_amount,
+                    now.margin_rate,
+                    money::format_amount(urp_now, minor)
+                ),
+                vec![
+                    line(inventory, buyer, Some(seller), -urp_now),
+                    line(&roles.retained_earnings, seller, Some(buyer), urp_open_then),
+                    line(cogs, seller, Some(buyer), change),
+                    line(&roles.translation_difference, seller, Some(buyer), fx),
+                ],
+            );
+        }
+    } else if !latest.is_empty() {
+        findings.push(crate::findings::Finding::new(
+            crate::findings::Rule::SettingInvalid,
+            "inventory_profit.csv has rows but group.toml names no `accounts.inventory` and `accounts.cost_of_sales`",
+            "name the group accounts for inventory and cost of sales",
+        ));
+    }
+
+    // 3. Investments against equity at acquisition, goodwill (IFRS 3.32), for every
+    //    subsidiary consolidated in full with an acquisition record.
+    let acq: BTreeMap<&EntityId, &Acquisition> = ds.acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    // Investment lines: holder -> (owned -> carrying amount).
+    let mut invest: BTreeMap<EntityId, Vec<(EntityId, GroupAccount, Decimal)>> = BTreeMap::new();
+    for (ent, accts) in &bal {
+        for ((acct, cp), amount) in accts {
+            if let (Some(k), Some(cp)) = (kind_of(acct), cp)
+                && k == "investment"
+            {
+                invest.entry(cp.clone()).or_default().push((ent.clone(), acct.clone(), *amount));
+            }
+        }
+    }
+    let mut pre_acquisition: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
+        let Some(a) = acq.get(&e.id) else {
+            if invest.contains_key(&e.id) {
+                findings.push(
+                    crate::findings::Finding::new(
+                        crate::findings::Rule::AcquisitionMissing,
+                        format!("{} is consolidated and held as an investment, but entities/acquisitions.csv has no row for it", e.id),
+                        "add its acquisition: date, consideration, NCI measurement and net assets at acquisition",
+                    )
+                    .entity(&e.id),
+                );
+            }
+            continue;
+        };
+        let Some(entity) = ds.entity(&e.id) else { continue };
+        let fc = entity.currency;
+        // NCI at acquisition: the direct outside share of net assets, or fair value.
+        let outside = Decimal::ONE - e.group_capital;
+        let nci_fc = match a.nci_measurement {
+            NciMeasurement::FairValue => a.nci_fair_value.unwrap_or_default(),
+            NciMeasurement::ShareOfNetAssets => a.net_assets * outside,
+        };
+        let goodwill_fc = a.consideration + nci_fc - a.net_assets - a.impairment;
+        let to_pres = |x: Decimal, p: Period| -> Decimal {
+            if fc == pres {
+                money::round(x, minor, mode)
+            } else {
+                rate_of(fc, p).map(|r| money::round(r.apply(x), minor, mode)).unwrap_or_default()
+            }
+        };
+        if goodwill_fc.is_sign_negative() {
+            findings.push(
+                crate::findings::Finding::new(
+                    crate::findings::Rule::GoodwillNegative,
+                    format!(
+                        "{}: consideration {} + NCI {} - net assets {} = {} {} is negative (a bargain purchase)",
+                        e.id, a.consideration, nci_fc.round_dp(fc.minor_unit()), a.net_assets, fc, goodwill_fc.round_dp(fc.minor_unit())
+                    ),
+                    "reassess the identification and measurement of the net assets (IFRS 3.36); a gain that remains is recognised in profit or loss (IFRS 3.34)",
+                )
+                .at(&a.source)
+                .entity(&e.id)
+                .severity(crate::findings::Severity::Warning),
+            );
+        }
+        let goodwill = to_pres(goodwill_fc, period);
+        let hist = if a.net_assets.is_zero() { Decimal::ONE } else { a.net_assets_presentation / a.net_assets };
+        let nci_pres = money::round(nci_fc * hist, minor, mode);
+        let impairment_pres = to_pres(a.impairment, period);
+        pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
+        let mut lines = Vec::new();
+        let mut investment_total = Decimal::ZERO;
+        for (holder, acct, amount) in invest.get(&e.id).into_iter().flatten() {
+            if consolidated.contains(holder) {
+                lines.push(line(acct, holder, Some(&e.id), -*amount));
+                investment_total += *amount;
+            }
+        }
+        // The equity acquired: the subsidiary's contributed capital (share capital,
+        // premium and other equity accounts that are not reserves of the group) in full,
+        // and the rest of the net assets acquired from its retained earnings.
+        let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
+        let mut capital = Decimal::ZERO;
+        for ((acct, cp), amount) in bal.get(&e.id).into_iter().flatten() {
+            let is_capital =
+                chart.get(acct).is_some_and(|d| d.class == AccountClass::Equity) && !reserves.contains(&acct);
+            if is_capital && !amount.is_zero() {
+                lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
+                capital += -*amount;
+            }
+        }
+        lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - capital));
+        lines.push(line(&roles.goodwill, &e.id, None, goodwill));
+        lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
+        // Goodwill impairment to date is an expense of the group when it arises; here it
+        // is carried in retained earnings of the group (posted with the goodwill).
+        let residual: Decimal = lines.iter().map(|l| l.amount).sum();
+        // The residual is exchange difference: goodwill at the closing rate against
+        // equity at historical rates (IAS 21.47). This year's part goes to OCI, the part
+        // brought forward to the reserve.
+        let opening_period =
+            if Period::of_date(a.date) > fiscal_start.prev() { None } else { Some(fiscal_start.prev()) };
+        let goodwill_fx_year = match opening_period {
+            Some(p0) => goodwill - to_pres(goodwill_fc, p0),
+            None => goodwill - money::round(goodwill_fc * hist, minor, mode),
+        };
+        lines.push(line(&roles.translation_difference, &e.id, None, goodwill_fx_year));
+        lines.push(line(&roles.translation_reserve, &e.id, None, -residual - goodwill_fx_year));
+        let holders: Vec<EntityId> = invest.get(&e.id).into_iter().flatten().map(|(h, _, _)| h.clone()).collect();
+        let mut involved = holders.clone();
+        involved.push(e.id.clone());
+        j.post(
+            "investment_and_goodwill",
+            e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
+            involved,
+            format!(
+                "investment in {} ({}) against equity at acquisition {}, goodwill {} {} (IFRS 3.32), NCI at acquisition {}{}",
+                e.id,
+                money::format_amount(investment_total, minor),
+                money::format_amount(a.net_assets_presentation, minor),
+                fc,
+                money::format_amount(goodwill_fc, fc.minor_unit()),
+                money::format_amount(nci_pres, minor),
+                if impairment_pres.is_zero() { String::new() } else { format!(", impairment to date {}", money::format_amount(impairment_pres, minor)) }
+            ),
+            lines,
+        );
+    }
+
+    // 4. Equity method (IAS 28.10): cost plus the share of post-acquisition results.
+    for e in s.entities().iter().filter(|e| e.method == Method::Equity) {
+        let Some(a) = acq.get(&e.id) else {
+            findings.push(
+                crate::findings::Finding::new(
+                    crate::findings::Rule::AcquisitionMissing,
+                    format!("{} is accounted for by the equity method but entities/acquisitions.csv has no row for it", e.id),
+                    "add its acquisition date and net assets at acquisition, so that the share of post-acquisition results can be computed",
+                )
+                .entity(&e.id),
+            );
+            continue;
+        };
+        let share = e.effective_interest;
+        // The associate's own translated balances (it is not aggregated).
+        let own = aggregate_one(ds, t, &e.id, period)?;
+        let opening = aggregate_one(ds, t, &e.id, fiscal_start.prev())?;
+        let sum_where = |m: &BTreeMap<GroupAccount, Decimal>, f: &dyn Fn(&AccountDef) -> bool| -> Decimal {
+            m.iter().filter(|(a, _)| chart.get(a).is_some_and(|d| f(d))).map(|(_, v)| *v).sum()
+        };
+        let profit = -sum_where(&own, &|d| d.statement == Statement::ProfitOrLoss);
+        let oci = -sum_where(&own, &|d| d.statement == Statement::Oci);
+        let equity_open = -sum_where(&opening, &|d| d.class == AccountClass::Equity);
+        let prior = equity_open - a.net_assets_presentation;
+        let r = |x: Decimal| money::round(x * share, minor, mode);
+        let (sp, so, spr) = (r(profit), r(oci), r(prior));
+        let holder = e.direct_holders.first().map(|h| h.owner.clone()).unwrap_or_else(|| s.parent().clone());
+        j.post(
+            "equity_method",
+            holder.clone(),
+            vec![holder.clone(), e.id.clone()],
+            format!(
+                "share {} of {}: profit {}, OCI {}, prior years {}",
+                share.normalize(),
+                e.id,
+                money::format_amount(sp, minor),
+                money::format_amount(so, minor),
+                money::format_amount(spr, minor)
+            ),
+            vec![
+                line(&roles.equity_investments, &holder, Some(&e.id), sp + so + spr),
+                line(&roles.equity_result, &holder, Some(&e.id), -sp),
+                line(&roles.translation_difference, &holder, Some(&e.id), -so),
+                line(&roles.retained_earnings, &holder, Some(&e.id), -spr),
+            ],
+        );
+    }
+
+    // 5. Non-controlling interests: the effective outside share of each subsidiary's
+    //    post-acquisition equity (profit, OCI and translation difference included, IAS
+    //    21.41), less the outside share of each holder in the investments it made.
+    let mut nci_rows = Vec::new();
+    let view_pl = |ent: &EntityId, st: Statement| -> Decimal {
+        bal.get(ent)
+            .map(|m| {
+                m.iter().filter(|((a, _), _)| chart.get(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
+            })
+            .unwrap_or_default()
+    };
+    let journal_so_far = j.entries.clone();
+    for e in s.entities().iter().filter(|e| e.method == Method::Full && !e.nci.is_zero()) {
+        // The subsidiary's own equity, results of the year and translation difference
+        // included, less the equity at acquisition that the investment entry removed.
+        let equity_total = -bal
+            .get(&e.id)
+            .map(|m| {
+                m.iter()
+                    .filter(|((a, _), _)| {
+                        chart
+                            .get(a)
+                            .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
+                    })
+                    .map(|(_, v)| *v)
+                    .sum::<Decimal>()
+            })
+            .unwrap_or_default();
+        // Unrealised profit the subsidiary made on sales inside the group reduces its
+        // post-acquisition equity, and so the NCI's share (upstream).
+        let unrealised: Decimal = journal_so_far
+            .iter()
+            .filter(|x| x.rule == "unrealised_profit")
+            .flat_map(|x| x.lines.iter())
+            .filter(|l| {
+                l.entity == e.id
+                    && chart
+                        .get(&l.account)
+                        .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
+            })
+            .map(|l| l.amount)
+            .sum();
+        let post = equity_total - unrealised - pre_acquisition.get(&e.id).copied().unwrap_or_default();
+        let nci_post = money::round(post * e.nci, minor, mode);
+        // Outside share of this entity's investments in its own subsidiaries (the
+        // indirect holding adjustment).
+        let mut indirect = Decimal::ZERO;
+        for (owned, list) in &invest {
+            for (holder, _, amount) in list {
+                if holder == &e.id && consolidated.contains(owned) {
+                    indirect += money::round(*amount * e.nci, minor, mode);
+                }
+            }
+        }
+        // Results before control are not the group's (nor the NCI's): the entry of step 1.
+        let pre_results = |st: Statement| -> Decimal {
+            journal_so_far
+                .iter()
+                .filter(|x| x.rule == "pre_acquisition_results" || x.rule == "unrealised_profit")
+                .flat_map(|x| x.lines.iter())
+                .filter(|l| l.entity == e.id && chart.get(&l.account).is_some_and(|d| d.statement == st))
+                .map(|l| l.amount)
+                .sum()
+        };
+        let profit = -(view_pl(&e.id, Statement::ProfitOrLoss) + pre_results(Statement::ProfitOrLoss));
+        let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci));
+        j.post(
+            "non_controlling_interest",
+            e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
+            vec![e.id.clone()],
+            format!(
+                "NCI {} of post-acquisition equity {} of {}, less {} of its investments in subsidiaries",
+                e.nci.normalize(),
+                money::format_amount(post, minor),
+                e.id,
+                money::format_amount(indirect, minor)
+            ),
+            vec![
+                line(&roles.non_controlling_interest, &e.id, None, -nci_post + indirect),
+                line(&roles.retained_earnings, &e.id, None, nci_post - indirect),
+            ],
+        );
+        let nci_acq: Decimal = j
+            .entries
+            .iter()
+            .filter(|x| x.rule == "investment_and_goodwill")
+            .flat_map(|x| x.lines.iter())
+            .filter(|l| l.entity == e.id && l.account == roles.non_controlling_interest)
+            .map(|l| -l.amount)
+            .sum();
+        nci_rows.push(NciRow {
+            entity: e.id.clone(),
+            nci_share: e.nci,
+            profit: money::round(profit * e.nci, minor, mode),
+            oci: money::round(oci * e.nci, minor, mode),
+            equity: nci_acq + nci_post - indirect,
+        });
+    }
+
+    // Roll-up: contributions plus eliminations, per account.
+    let _span = tracing::info_span!("roll_up", period = %period).entered();
+    let group = roll_up(&contributions, &j.entries)?;
+    Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, findings })
+}
+
+/// One entity's translated balances by group account at `period`, translation
+/// difference included, at 100%.
+fn aggregate_one(
+    ds: &Dataset,
+    t: &Translated,
+    entity: &EntityId,
+    period: Period,
+) -> PolarsResult<BTreeMap<GroupAccount, Decimal>> {
+    let p = period_index(period);
+    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let p0 = period_index(fiscal_start.prev());
+    let roles = &ds.settings.accounts;
+    let df = t
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("entity").eq(lit(entity.as_str())).and(col("period_index").eq(lit(p))))
+        .group_by([col("group_account")])
+        .agg([col("balance_presentation").sum().alias("amount")])
+        .collect()?;
+    let mut out: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    let a = strs(&df, "group_account")?;
+    let v = column_decimals(df.column("amount")?)?;
+    for i in 0..df.height() {
+        if let Some(a) = &a[i] {
+            *out.entry(GroupAccount::new(a)).or_default() += v[i].unwrap_or_default();
+        }
+    }
+    let td = t
+        .differences
+        .clone()
+        .lazy()
+        .filter(col("entity").eq(lit(entity.as_str())).and(col("period_index").lt_eq(lit(p))))
+        .collect()?;
+    let idx: Vec<Option<i32>> = td.column("period_index")?.i32()?.iter().collect();
+    let v = column_decimals(td.column("translation_difference")?)?;
+    for i in 0..td.height() {
+        let acct = if idx[i] == Some(p0) { &roles.translation_reserve } else { &roles.translation_difference };
+        *out.entry(acct.clone()).or_default() += v[i].unwrap_or_default();
+    }
+    Ok(out)
+}
+
+/// Contributions plus eliminations, per group account (columnar).
+pub fn roll_up(contributions: &DataFrame, journal: &[Entry]) -> PolarsResult<BTreeMap<GroupAccount, Decimal>> {
+    let scale = match contributions.column("amount")?.dtype() {
+        DataType::Decimal(_, s) => *s,
+        _ => 2,
+    };
+    let accounts: Vec<String> = journal.iter().flat_map(|e| e.lines.iter().map(|l| l.account.to_string())).collect();
+    let amounts: Vec<String> = journal.iter().flat_map(|e| e.lines.iter().map(|l| l.amount.to_string())).collect();
+    let elim = DataFrame::new(
+        accounts.len(),
+        vec![
+            Column::new("group_account".into(), accounts),
+            Column::new("amount".into(), amounts).strict_cast(&DataType::Decimal(38, scale))?,
+        ],
+    )?;
+    let df = concat(
+        [
+            contributions
+                .clone()
+                .lazy()
+                .select([col("group_account"), col("amount").strict_cast(DataType::Decimal(38, scale))]),
+            elim.lazy(),
+        ],
+        UnionArgs::default(),
+    )?
+    .group_by([col("group_account")])
+    .agg([col("amount").sum()])
+    .sort(["group_account"], SortMultipleOptions::default())
+    .collect()?;
+    let a = strs(&df, "group_account")?;
+    let v = column_decimals(df.column("amount")?)?;
+    Ok(a.into_iter().zip(v).filter_map(|(a, v)| Some((GroupAccount::new(a?), v.unwrap_or_default()))).collect())
+}
+
+/// The invariants of a close, each with its figures.
+pub fn prove(c: &Close) -> PolarsResult<Vec<Check>> {
+    let mut checks = Vec::new();
+    let unbalanced: Vec<String> =
+        c.journal.iter().filter(|e| !e.total().is_zero()).map(|e| format!("{} {}", e.id, e.total())).collect();
+    checks.push(Check::new(
+        "eliminations_balance",
+        unbalanced.is_empty(),
+        if unbalanced.is_empty() {
+            format!("{} entries, each summing to 0", c.journal.len())
+        } else {
+            unbalanced.join("; ")
+        },
+    ));
+    // Group = entities + eliminations, recomputed row by row, independently of roll_up.
+    let mut naive: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    let a = strs(&c.contributions, "group_account")?;
+    let v = column_decimals(c.contributions.column("amount")?)?;
+    for (a, v) in a.iter().zip(v.iter()) {
+        if let Some(a) = a {
+            *naive.entry(GroupAccount::new(a)).or_default() += v.unwrap_or_default();
+        }
+    }
+    for e in &c.journal {
+        for l in &e.lines {
+            *naive.entry(l.account.clone()).or_default() += l.amount;
+        }
+    }
+    naive.retain(|_, v| !v.is_zero());
+    let mut group = c.group.clone();
+    group.retain(|_, v| !v.is_zero());
+    checks.push(Check::new(
+        "group_equals_entities_plus_eliminations",
+        naive == group,
+        format!("{} group accounts recomputed line by line", group.len()),
+    ));
+    let total: Decimal = c.group.values().copied().sum();
+    checks.push(Check::new(
+        "group_trial_balance_sums_to_zero",
+        total.is_zero(),
+        format!("sum of the group trial balance = {total}"),
+    ));
+    let contrib_total: Decimal = v.iter().flatten().copied().sum();
+    checks.push(Check::new(
+        "contributions_sum_to_zero",
+        contrib_total.is_zero(),
+        format!("sum of the entities' translated contributions = {contrib_total}"),
+    ));
+    Ok(checks)
+}

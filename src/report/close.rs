@@ -1,0 +1,307 @@
+//! Rendering and writing of a close: the statements laid out from `layouts.csv` with
+//! subtotals, thousands separators and negatives in parentheses; the group trial
+//! balance, the elimination journal, the NCI schedule and the proof, as files (CSV and
+//! Parquet, byte-identical on rerun) and as JSON.
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+use serde::Serialize;
+
+use crate::close::{Entry, NciRow};
+use crate::layout::{LineBody, ResolvedStatement};
+use crate::load::InputFile;
+use crate::model::{GroupAccount, Period};
+use crate::money::format_amount;
+use crate::proof::Check;
+
+use super::{CAUTION, Format, csv_line, to_json, write_file};
+
+/// One printed line of a statement.
+#[derive(Debug, Clone, Serialize)]
+pub struct StatementLine {
+    pub line: String,
+    pub label: String,
+    /// As presented (income, equity and liabilities positive where the layout says so).
+    pub amount: Decimal,
+    pub total: bool,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct StatementOut {
+    pub statement: String,
+    pub lines: Vec<StatementLine>,
+}
+
+/// Lays a statement out from account amounts (debit positive).
+pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>) -> StatementOut {
+    let values = st.evaluate(amounts);
+    let lines = st
+        .lines
+        .iter()
+        .zip(values)
+        .map(|(l, (_, v))| StatementLine {
+            line: l.line.clone(),
+            label: l.label.clone(),
+            amount: l.presentation.show(v),
+            total: matches!(l.body, LineBody::Total(_)),
+        })
+        .collect();
+    StatementOut { statement: st.statement.clone(), lines }
+}
+
+#[derive(Serialize)]
+pub struct Attribution {
+    pub profit: Decimal,
+    pub profit_owners: Decimal,
+    pub profit_nci: Decimal,
+    pub oci: Decimal,
+    pub oci_owners: Decimal,
+    pub oci_nci: Decimal,
+    pub result_in_equity: Decimal,
+}
+
+#[derive(Serialize)]
+pub struct Proof<'a> {
+    pub tied: bool,
+    pub checks: &'a [Check],
+    pub inputs: &'a [InputFile],
+    pub tessera_version: &'static str,
+    pub policies: serde_json::Value,
+}
+
+#[derive(Serialize)]
+pub struct CloseReport<'a> {
+    pub period: String,
+    pub currency: String,
+    pub view: &'a str,
+    pub scope: String,
+    pub proof: Proof<'a>,
+    pub group_trial_balance: Vec<serde_json::Value>,
+    pub statements: BTreeMap<String, StatementOut>,
+    pub attribution: Attribution,
+    pub eliminations: &'a [Entry],
+    pub nci: &'a [NciRow],
+    /// Findings of the close itself (e.g. a bargain purchase to reassess).
+    pub findings: &'a [crate::findings::Finding],
+    pub caution: &'static str,
+}
+
+pub fn tb_json(
+    group: &BTreeMap<GroupAccount, Decimal>,
+    names: &BTreeMap<GroupAccount, String>,
+) -> Vec<serde_json::Value> {
+    group
+        .iter()
+        .filter(|(_, v)| !v.is_zero())
+        .map(|(a, v)| serde_json::json!({"account": a.as_str(), "name": names.get(a).cloned().unwrap_or_default(), "amount": v.to_string()}))
+        .collect()
+}
+
+pub fn render(r: &CloseReport<'_>, minor: u32, format: Format) -> String {
+    match format {
+        Format::Json => to_json(r),
+        Format::Csv => {
+            let mut out = csv_line(&["account", "name", "amount"].map(String::from));
+            for row in &r.group_trial_balance {
+                out.push_str(&csv_line(&[
+                    row["account"].as_str().unwrap_or_default().to_string(),
+                    row["name"].as_str().unwrap_or_default().to_string(),
+                    row["amount"].as_str().unwrap_or_default().to_string(),
+                ]));
+            }
+            out
+        }
+        Format::Table => table(r, minor),
+    }
+}
+
+fn table(r: &CloseReport<'_>, minor: u32) -> String {
+    let mut out = format!("{} statements for {} ({} view), in {}\n", r.scope, r.period, r.view, r.currency);
+    let titles = [
+        ("profit_or_loss", "Statement of profit or loss"),
+        ("oci", "Other comprehensive income"),
+        ("balance_sheet", "Statement of financial position"),
+        ("equity_changes", "Equity"),
+    ];
+    for (key, title) in titles {
+        let Some(st) = r.statements.get(key) else { continue };
+        out.push_str(&format!("\n{title}\n"));
+        let width = st.lines.iter().map(|l| l.label.chars().count()).max().unwrap_or(10).max(40);
+        for l in &st.lines {
+            let amount = format_amount(l.amount, minor);
+            if l.total {
+                out.push_str(&format!("  {:<width$}  {:>18}\n", l.label.to_uppercase(), amount));
+            } else {
+                out.push_str(&format!("    {:<w2$}  {:>18}\n", l.label, amount, w2 = width - 2));
+            }
+        }
+        let a = &r.attribution;
+        match key {
+            "profit_or_loss" => {
+                out.push_str(&format!(
+                    "    {:<w2$}  {:>18}\n",
+                    "attributable to owners of the parent",
+                    format_amount(a.profit_owners, minor),
+                    w2 = width - 2
+                ));
+                out.push_str(&format!(
+                    "    {:<w2$}  {:>18}\n",
+                    "attributable to non-controlling interests",
+                    format_amount(a.profit_nci, minor),
+                    w2 = width - 2
+                ));
+            }
+            "oci" => {
+                out.push_str(&format!(
+                    "    {:<w2$}  {:>18}\n",
+                    "attributable to owners of the parent",
+                    format_amount(a.oci_owners, minor),
+                    w2 = width - 2
+                ));
+                out.push_str(&format!(
+                    "    {:<w2$}  {:>18}\n",
+                    "attributable to non-controlling interests",
+                    format_amount(a.oci_nci, minor),
+                    w2 = width - 2
+                ));
+            }
+            "balance_sheet" | "equity_changes" => {
+                out.push_str(&format!(
+                    "    {:<w2$}  {:>18}\n",
+                    "of which profit and OCI of the year to date (in retained earnings and reserve)",
+                    format_amount(a.result_in_equity, minor),
+                    w2 = width - 2
+                ));
+            }
+            _ => {}
+        }
+    }
+    out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
+    let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
+    for e in r.eliminations {
+        *by_rule.entry(e.rule).or_default() += 1;
+    }
+    out.push_str(&format!(" ({})\n", by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")));
+    for f in r.findings {
+        out.push_str(&format!("\n{:?} {}: {}\n  what to do: {}\n", f.severity, f.rule, f.message, f.action));
+    }
+    out.push_str(&format!("\nproof: {}\n", if r.proof.tied { "tied" } else { "NOT TIED" }));
+    for c in r.proof.checks {
+        out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
+    }
+    out.push_str(&format!("\n{CAUTION}\n"));
+    out
+}
+
+fn frame_bytes(df: &mut DataFrame, parquet: bool) -> PolarsResult<Vec<u8>> {
+    let mut buf = Vec::new();
+    if parquet {
+        ParquetWriter::new(&mut buf).finish(df)?;
+    } else {
+        CsvWriter::new(&mut buf).include_header(true).finish(df)?;
+    }
+    Ok(buf)
+}
+
+fn write_frame(dir: &Path, name: &str, mut df: DataFrame) -> Result<(), crate::Error> {
+    write_file(&dir.join(format!("{name}.csv")), &frame_bytes(&mut df, false)?)?;
+    write_file(&dir.join(format!("{name}.parquet")), &frame_bytes(&mut df, true)?)?;
+    Ok(())
+}
+
+fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
+    let mut id = Vec::new();
+    let mut rule = Vec::new();
+    let mut at = Vec::new();
+    let mut acct = Vec::new();
+    let mut ent = Vec::new();
+    let mut cp = Vec::new();
+    let mut amount = Vec::new();
+    let mut desc = Vec::new();
+    for e in journal {
+        for l in &e.lines {
+            id.push(e.id.clone());
+            rule.push(e.rule);
+            at.push(e.posted_at.to_string());
+            acct.push(l.account.to_string());
+            ent.push(l.entity.to_string());
+            cp.push(l.counterparty.as_ref().map(|c| c.to_string()));
+            amount.push(l.amount.to_string());
+            desc.push(e.description.clone());
+        }
+    }
+    DataFrame::new(
+        id.len(),
+        vec![
+            Column::new("entry".into(), id),
+            Column::new("rule".into(), rule),
+            Column::new("posted_at".into(), at),
+            Column::new("account".into(), acct),
+            Column::new("entity".into(), ent),
+            Column::new("counterparty".into(), cp),
+            Column::new("amount".into(), amount),
+            Column::new("description".into(), desc),
+        ],
+    )
+}
+
+/// Writes every table of a close to `dir` (the only place a close touches the disk).
+pub fn write_outputs(
+    dir: &Path,
+    r: &CloseReport<'_>,
+    contributions: &DataFrame,
+    translated: &DataFrame,
+) -> Result<(), crate::Error> {
+    let tb = DataFrame::new(
+        r.group_trial_balance.len(),
+        vec![
+            Column::new(
+                "account".into(),
+                r.group_trial_balance
+                    .iter()
+                    .map(|x| x["account"].as_str().unwrap_or_default().to_string())
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "name".into(),
+                r.group_trial_balance
+                    .iter()
+                    .map(|x| x["name"].as_str().unwrap_or_default().to_string())
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new(
+                "amount".into(),
+                r.group_trial_balance
+                    .iter()
+                    .map(|x| x["amount"].as_str().unwrap_or_default().to_string())
+                    .collect::<Vec<_>>(),
+            ),
+        ],
+    )?;
+    write_frame(dir, "group_trial_balance", tb)?;
+    write_frame(dir, "eliminations", journal_frame(r.eliminations)?)?;
+    write_frame(dir, "contributions", contributions.clone())?;
+    write_frame(dir, "translated", translated.clone())?;
+    let nci = DataFrame::new(
+        r.nci.len(),
+        vec![
+            Column::new("entity".into(), r.nci.iter().map(|n| n.entity.to_string()).collect::<Vec<_>>()),
+            Column::new("nci_share".into(), r.nci.iter().map(|n| n.nci_share.to_string()).collect::<Vec<_>>()),
+            Column::new("profit".into(), r.nci.iter().map(|n| n.profit.to_string()).collect::<Vec<_>>()),
+            Column::new("oci".into(), r.nci.iter().map(|n| n.oci.to_string()).collect::<Vec<_>>()),
+            Column::new("equity".into(), r.nci.iter().map(|n| n.equity.to_string()).collect::<Vec<_>>()),
+        ],
+    )?;
+    write_frame(dir, "nci", nci)?;
+    write_file(&dir.join("proof.json"), to_json(&r.proof).as_bytes())?;
+    write_file(&dir.join("statements.json"), to_json(&r.statements).as_bytes())?;
+    Ok(())
+}
+
+/// The period folder of a close's outputs.
+pub fn output_dir(out: &Path, period: Period) -> std::path::PathBuf {
+    out.join(period.to_string())
+}
