@@ -86,3 +86,30 @@ fn basic_translation_example_of_ifrscommunity() {
     assert_eq!(dec(&m["total"]), "-298.95");
     assert_eq!(dec(&m["rounding"]), "0.00");
 }
+
+/// `tessera rates` turns the euro system's reference rates (fixture, see
+/// tests/fixtures/ecb/README.md) into the rates file that check and translate accept.
+#[test]
+fn rates_command_writes_a_file_the_close_reads() {
+    let f = build(&Case {
+        ccy: "USD",
+        opening: "account,amount,amount_presentation\n1000,2000.00,\n3000,-2000.00,-1818.18\n",
+        tb: "period,account,amount\n2026-01,1000,300.00\n2026-01,4000,-1000.00\n2026-01,5000,700.00\n",
+        rates: String::new(),
+        rounding: "half_away_from_zero",
+        income: "periodic",
+    });
+    let fixture = crate::support::repo().join("tests/fixtures/ecb/eurofxref-2025-12_2026-03.csv");
+    let target = f.path().join("rates/monthly.csv");
+    let (code, v) = run_json(
+        f.path(),
+        &["rates", "--daily", fixture.to_str().unwrap(), "--months", "2025-12..2026-01", "--out", target.to_str().unwrap()],
+    );
+    assert_eq!(code, 0, "{v:#}");
+    let text = f.read("rates/monthly.csv");
+    assert!(text.starts_with("period,currency,closing,average,average_ytd,quote,source\n"), "{text}");
+    assert!(text.contains("2026-01,USD,"), "{text}");
+    let (code, r) = run_json(f.path(), &["translate", "--period", "2026-01"]);
+    assert_eq!(code, 0, "{r:#}");
+    assert_eq!(r["proof"]["tied"], true);
+}
