@@ -472,8 +472,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - capital));
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
-        // Goodwill impairment to date is an expense of the group when it arises; here it
-        // is carried in retained earnings of the group (posted with the goodwill).
+        // Goodwill impairment to date (IAS 36.124: never reversed) is charged to the
+        // group's retained earnings at the rate goodwill is carried at.
+        if !impairment_pres.is_zero() {
+            lines.push(line(&roles.retained_earnings, &e.id, None, impairment_pres));
+        }
         let residual: Decimal = lines.iter().map(|l| l.amount).sum();
         // The residual is exchange difference: goodwill at the closing rate against
         // equity at historical rates (IAS 21.47). This year's part goes to OCI, the part

@@ -291,7 +291,8 @@ pub fn run_close(
         return Err(Error::Usage(format!("entity {root} is not in entities.csv")));
     }
     let translated = crate::translate::translate(ds, &checked.mapped, scope.fiscal_start, scope.period)?;
-    let mut checks = crate::translate::prove(&translated)?;
+    let mut checks = prove_inputs(ds, &checked.mapped)?;
+    checks.extend(crate::translate::prove(&translated)?);
     let structure_at = |p: Period| {
         let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
         crate::structure::build(&ids, &ds.holdings, &root, p.last_day(), ds.settings.policies.significant_influence).0
@@ -439,7 +440,7 @@ pub fn close(
         caution: report::CAUTION,
     };
     let dir = report::close::output_dir(out_dir, scope.period);
-    report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines)?;
+    report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     let _ = &c.opening;
     Ok(if tied { 0 } else { 1 })
@@ -519,4 +520,53 @@ pub fn trace(
     )?;
     out.write_all(text.as_bytes())?;
     Ok(0)
+}
+
+/// Input totals and mapping: every delivered trial balance sums to zero, and mapping
+/// keeps every amount (the mapped ledger holds exactly the delivered rows and totals).
+fn prove_inputs(ds: &Dataset, mapped: &Mapped) -> Result<Vec<crate::proof::Check>, Error> {
+    use polars::prelude::*;
+    use rust_decimal::Decimal;
+    let sums = |df: &DataFrame| -> PolarsResult<(usize, usize, Decimal)> {
+        let g = df
+            .clone()
+            .lazy()
+            .group_by([col("entity"), col("kind"), col("period")])
+            .agg([col("amount").sum()])
+            .collect()?;
+        let v = crate::money::column_decimals(g.column("amount")?)?;
+        let nonzero = v.iter().filter(|x| !x.unwrap_or_default().is_zero()).count();
+        Ok((g.height(), nonzero, v.iter().flatten().copied().sum()))
+    };
+    let (deliveries, unbalanced, _) = sums(&ds.ledger)?;
+    let (_, _, opening_total) = sums(&ds.opening)?;
+    let delivered_rows = ds.ledger.height() + ds.opening.height();
+    let mapped_rows = mapped.lines.height() + mapped.unmapped.height();
+    // Debits, so that the comparison is not trivially 0 = 0.
+    let debits = |df: &DataFrame| -> PolarsResult<Decimal> {
+        Ok(crate::money::column_decimals(df.column("amount")?)?
+            .iter()
+            .flatten()
+            .filter(|d| d.is_sign_positive())
+            .copied()
+            .sum())
+    };
+    let total_in = debits(&ds.ledger)? + debits(&ds.opening)? + opening_total;
+    let total_mapped = debits(&mapped.lines)?;
+    Ok(vec![
+        crate::proof::Check::new(
+            "input_trial_balances_sum_to_zero",
+            unbalanced == 0,
+            format!("{deliveries} entity-period deliveries, {unbalanced} not summing to zero"),
+        ),
+        crate::proof::Check::new(
+            "mapping_preserves_rows_and_totals",
+            delivered_rows == mapped_rows && mapped.unmapped.height() == 0 && total_in == total_mapped,
+            format!(
+                "{delivered_rows} rows delivered, {} mapped, {} unmapped; debits {total_in} delivered, {total_mapped} mapped",
+                mapped.lines.height(),
+                mapped.unmapped.height()
+            ),
+        ),
+    ])
 }

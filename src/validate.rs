@@ -435,29 +435,11 @@ fn check_balanced(mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> Polars
 }
 
 fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let cols = || {
+        ["entity", "kind", "period_index", "account", "counterparty", "txn_currency", "file", "line"].map(col).to_vec()
+    };
     let all = concat(
-        [
-            mapped.lines.clone().lazy().select([
-                col("entity"),
-                col("kind"),
-                col("period_index"),
-                col("account"),
-                col("counterparty"),
-                col("txn_currency"),
-                col("file"),
-                col("line"),
-            ]),
-            mapped.unmapped.clone().lazy().select([
-                col("entity"),
-                col("kind"),
-                col("period_index"),
-                col("account"),
-                col("counterparty"),
-                col("txn_currency"),
-                col("file"),
-                col("line"),
-            ]),
-        ],
+        [mapped.lines.clone().lazy().select(cols()), mapped.unmapped.clone().lazy().select(cols())],
         UnionArgs::default(),
     )?;
     let dups = all

@@ -188,10 +188,7 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
     for f in r.findings {
         out.push_str(&format!("\n{:?} {}: {}\n  what to do: {}\n", f.severity, f.rule, f.message, f.action));
     }
-    out.push_str(&format!("\nproof: {}\n", if r.proof.tied { "tied" } else { "NOT TIED" }));
-    for c in r.proof.checks {
-        out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
-    }
+    out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
     out.push_str(&format!("\n{CAUTION}\n"));
     out
 }
@@ -254,6 +251,7 @@ pub fn write_outputs(
     r: &CloseReport<'_>,
     contributions: &DataFrame,
     translated: &DataFrame,
+    explanations: &[crate::translate::Explanation],
 ) -> Result<(), crate::Error> {
     let tb = DataFrame::new(
         r.group_trial_balance.len(),
@@ -296,6 +294,25 @@ pub fn write_outputs(
         ],
     )?;
     write_frame(dir, "nci", nci)?;
+    let x = explanations;
+    let col = |name: &str, f: &dyn Fn(&crate::translate::Explanation) -> String| {
+        Column::new(name.into(), x.iter().map(f).collect::<Vec<_>>())
+    };
+    let td = DataFrame::new(
+        x.len(),
+        vec![
+            col("entity", &|e| e.entity.to_string()),
+            col("period", &|e| e.period.to_string()),
+            col("currency", &|e| e.currency.to_string()),
+            col("on_opening_net_assets", &|e| e.on_opening_net_assets.to_string()),
+            col("on_profit", &|e| e.on_profit.to_string()),
+            col("on_equity_movements", &|e| e.on_equity_movements.to_string()),
+            col("on_hyperinflation", &|e| e.on_hyperinflation.to_string()),
+            col("rounding", &|e| e.rounding.to_string()),
+            col("translation_difference", &|e| e.total.to_string()),
+        ],
+    )?;
+    write_frame(dir, "translation_differences", td)?;
     write_file(&dir.join("proof.json"), to_json(&r.proof).as_bytes())?;
     write_file(&dir.join("statements.json"), to_json(&r.statements).as_bytes())?;
     Ok(())

@@ -96,3 +96,12 @@ pub fn csv_line(fields: &[String]) -> String {
     l.push('\n');
     l
 }
+
+/// The proof as printed under every table report: the verdict, then each check.
+pub fn proof_lines(tied: bool, checks: &[crate::proof::Check]) -> String {
+    let mut out = format!("\nproof: {}\n", if tied { "tied" } else { "NOT TIED" });
+    for c in checks {
+        out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
+    }
+    out
+}

@@ -225,42 +225,22 @@ fn table(r: &Report<'_>, minor: u32) -> String {
         "rounding",
         "translation diff.",
     ];
-    let mut rows = Vec::new();
-    for e in &r.entities {
-        let Some(m) = e.month else { continue };
-        rows.push(vec![
-            e.entity.clone(),
-            e.currency.clone(),
-            format_amount(m.on_opening_net_assets, minor),
-            format_amount(m.on_profit, minor),
-            format_amount(m.on_equity_movements, minor),
-            format_amount(m.on_hyperinflation, minor),
-            format_amount(m.rounding, minor),
-            format_amount(m.total, minor),
-        ]);
-    }
+    let row = |e: &EntityReport<'_>, x: &Split| -> Vec<String> {
+        let mut v = vec![e.entity.clone(), e.currency.clone()];
+        v.extend(
+            [x.on_opening_net_assets, x.on_profit, x.on_equity_movements, x.on_hyperinflation, x.rounding, x.total]
+                .map(|d| format_amount(d, minor)),
+        );
+        v
+    };
+    let right = [false, false, true, true, true, true, true, true];
+    let month: Vec<Vec<String>> = r.entities.iter().filter_map(|e| e.month.map(|m| row(e, &Split::of(m)))).collect();
     out.push_str("translation difference of the month, explained (gains positive, IAS 21.41)\n");
-    out.push_str(&super::text_table(&head, &rows, &[false, false, true, true, true, true, true, true]));
-    let mut rows = Vec::new();
-    for e in &r.entities {
-        let y = &e.year_to_date;
-        rows.push(vec![
-            e.entity.clone(),
-            e.currency.clone(),
-            format_amount(y.on_opening_net_assets, minor),
-            format_amount(y.on_profit, minor),
-            format_amount(y.on_equity_movements, minor),
-            format_amount(y.on_hyperinflation, minor),
-            format_amount(y.rounding, minor),
-            format_amount(y.total, minor),
-        ]);
-    }
+    out.push_str(&super::text_table(&head, &month, &right));
+    let ytd: Vec<Vec<String>> = r.entities.iter().map(|e| row(e, &e.year_to_date)).collect();
     out.push_str("\nyear to date\n");
-    out.push_str(&super::text_table(&head, &rows, &[false, false, true, true, true, true, true, true]));
-    out.push_str(&format!("\nproof: {}\n", if r.proof.tied { "tied" } else { "NOT TIED" }));
-    for c in r.proof.checks {
-        out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
-    }
+    out.push_str(&super::text_table(&head, &ytd, &right));
+    out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
     out.push_str(&format!("\n{CAUTION}\n"));
     let _ = period_of_index;
     out

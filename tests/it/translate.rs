@@ -103,7 +103,15 @@ fn rates_command_writes_a_file_the_close_reads() {
     let target = f.path().join("rates/monthly.csv");
     let (code, v) = run_json(
         f.path(),
-        &["rates", "--daily", fixture.to_str().unwrap(), "--months", "2025-12..2026-01", "--out", target.to_str().unwrap()],
+        &[
+            "rates",
+            "--daily",
+            fixture.to_str().unwrap(),
+            "--months",
+            "2025-12..2026-01",
+            "--out",
+            target.to_str().unwrap(),
+        ],
     );
     assert_eq!(code, 0, "{v:#}");
     let text = f.read("rates/monthly.csv");
