@@ -487,8 +487,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             Some(p0) => goodwill - to_pres(goodwill_fc, p0),
             None => goodwill - money::round(goodwill_fc * hist, minor, mode),
         };
-        lines.push(line(&roles.translation_difference, &e.id, None, goodwill_fx_year));
-        lines.push(line(&roles.translation_reserve, &e.id, None, -residual - goodwill_fx_year));
+        // A fall in goodwill's value in the presentation currency is a loss (a debit).
+        lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
+        lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year));
         let holders: Vec<EntityId> = invest.get(&e.id).into_iter().flatten().map(|(h, _, _)| h.clone()).collect();
         let mut involved = holders.clone();
         involved.push(e.id.clone());

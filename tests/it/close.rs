@@ -218,3 +218,76 @@ fn sub_group_closes_on_its_own() {
     assert_eq!(code, 0, "{:#}", v["proof"]);
     assert_eq!(v["scope"], "sub-group ALD-US");
 }
+
+/// Downstream unrealised profit is borne by the parent alone (IFRS 10.B86(c); the
+/// upstream/downstream split is common practice in study texts): P sells goods to S
+/// (80%) at a 25% mark-up, S still holds 5,000 of them: unrealised profit 1,000 reduces
+/// inventory and group profit, and the NCI (20% of S's post-acquisition equity 0) is 0.
+#[test]
+fn downstream_unrealised_profit_is_borne_by_the_parent() {
+    let p = "1400,800,S,\n1000,200,,\n3000,-1000,,-1000\n";
+    let s = "1500,5000,,\n1000,-4000,,\n3000,-1000,,-1000\n";
+    let f = group(
+        &[("P", p), ("S", s)],
+        "P,S,0.8,0.8,2020-01-01\n",
+        "S,2020-01-01,800,share_of_net_assets,,1000,1000\n",
+        &[(
+            "entities/inventory_profit.csv",
+            "seller,buyer,period,inventory_amount,margin_rate\nP,S,2026-01,5000,0.20\n",
+        )],
+    );
+    let v = close(&f, "2026-01");
+    assert_eq!(tb(&v, "1500"), d("4000"));
+    assert_eq!(tb(&v, "5000"), d("1000"), "charged to the group's cost of sales");
+    // NCI = 20% x 1,000 at acquisition, nothing of the unrealised profit.
+    assert_eq!(tb(&v, "3900"), d("-200"));
+    let nci_profit: Decimal = v["attribution"]["profit_nci"].as_str().unwrap().parse().unwrap();
+    assert_eq!(nci_profit, d("0"));
+}
+
+/// Goodwill of a foreign operation is its asset, in its currency, at the closing rate
+/// (IAS 21.47); the exchange difference on it goes to OCI. P (EUR) bought 100% of S
+/// (USD) for USD 5,000 (EUR 5,000 at 1.00) when S's net assets were USD 4,000: goodwill
+/// USD 1,000. USD per EUR 1.00 at the opening, 1.25 at the close: goodwill EUR 800, an
+/// exchange loss of 200 on it; S's net assets lose 4,000 x (1/1.25 - 1) = 800. A
+/// study-text illustration of this kind, with figures of our own (the mechanism from
+/// memory of such texts, the numbers invented). With an impairment of USD 100 to date,
+/// goodwill is USD 900, EUR 720.
+#[test]
+fn foreign_goodwill_at_closing_rate_with_its_exchange_difference() {
+    for (impairment, goodwill) in [("0", "800"), ("100", "720")] {
+        let f = Folder::empty();
+        f.write("entities/group.toml", &settings("EUR", "P", "half_away_from_zero", "periodic"));
+        f.write("entities/entities.csv", "entity,name,country,currency\nP,Parent,NL,EUR\nS,Sub,US,USD\n");
+        f.write("entities/holdings.csv", "owner,owned,capital_share,voting_share,valid_from\nP,S,1,1,2020-01-01\n");
+        f.write(
+            "entities/acquisitions.csv",
+            &format!("owned,date,consideration,nci_measurement,net_assets,net_assets_presentation,impairment\nS,2020-01-01,5000,share_of_net_assets,4000,4000,{impairment}\n"),
+        );
+        f.write("entities/accounts.csv", CHART);
+        f.write("entities/layouts.csv", LAYOUT);
+        for e in ["P", "S"] {
+            f.write(&format!("entities/{e}/mapping.csv"), &identity_mapping());
+            f.write(&format!("entities/{e}/tb-2026-01.movements.csv"), "period,account,amount\n2026-01,1000,0\n");
+        }
+        f.write(
+            "entities/P/opening.csv",
+            "account,amount,counterparty,amount_presentation\n1400,5000,S,\n3000,-5000,,-5000\n",
+        );
+        f.write(
+            "entities/S/opening.csv",
+            "account,amount,counterparty,amount_presentation\n1000,4000,,\n3000,-4000,,-4000\n",
+        );
+        f.write(
+            "rates/monthly.csv",
+            "period,currency,closing,average,quote\n2025-12,USD,1.00,1.00,units_per_presentation\n2026-01,USD,1.25,1.10,units_per_presentation\n",
+        );
+        let v = close(&f, "2026-01");
+        assert_eq!(tb(&v, "1100"), d(goodwill), "impairment {impairment}");
+        if impairment == "0" {
+            // OCI: S's net assets 800 and goodwill 200, both losses (debits).
+            assert_eq!(tb(&v, "8100"), d("1000"));
+            assert_eq!(tb(&v, "3300"), d("0"));
+        }
+    }
+}
