@@ -3,6 +3,7 @@
 //! as decimal strings) or CSV. Nothing here computes a figure.
 
 pub mod findings;
+pub mod intercompany;
 pub mod translation;
 
 use std::path::Path;
