@@ -816,6 +816,9 @@ fn assign(left: &[usize], right: &[usize], edge: impl Fn(usize, usize) -> bool) 
     (out, greedy)
 }
 
+/// Documents grouped for one pairing step: the entity's and the counterparty's indices.
+type Groups<K> = BTreeMap<K, (Vec<usize>, Vec<usize>)>;
+
 struct DocumentPairing {
     unpaired_entity: Vec<usize>,
     unpaired_counterparty: Vec<usize>,
@@ -833,7 +836,7 @@ fn pair_documents(e: &[Doc], c: &[Doc], window: i64) -> DocumentPairing {
     let mut greedy = false;
     let offsets = |i: usize, j: usize| e[i].currency == c[j].currency && e[i].amount + c[j].amount == Decimal::ZERO;
     // 1. Same reference.
-    let mut by_ref: BTreeMap<&str, (Vec<usize>, Vec<usize>)> = BTreeMap::new();
+    let mut by_ref: Groups<&str> = BTreeMap::new();
     for (i, d) in e.iter().enumerate() {
         by_ref.entry(d.reference.as_str()).or_default().0.push(i);
     }
@@ -856,7 +859,7 @@ fn pair_documents(e: &[Doc], c: &[Doc], window: i64) -> DocumentPairing {
         }
     }
     // 2. Same currency and offsetting amount, dates within the window.
-    let mut by_amount: BTreeMap<(&str, Decimal), (Vec<usize>, Vec<usize>)> = BTreeMap::new();
+    let mut by_amount: Groups<(&str, Decimal)> = BTreeMap::new();
     for (i, d) in e.iter().enumerate().filter(|(i, _)| !used_e[*i]) {
         by_amount.entry((d.currency.as_str(), d.amount.abs().normalize())).or_default().0.push(i);
     }
@@ -899,25 +902,44 @@ fn document_measure(sided: &BTreeMap<(String, Measure), Sidedness>, kind: &str) 
     if sided.contains_key(&(kind.to_string(), Measure::Balance)) { Measure::Balance } else { Measure::YearToDate }
 }
 
-fn side_from_row(
-    cur: &[Option<String>],
-    n: &[Option<u32>],
-    amount_txn: &[Option<Decimal>],
-    movement_txn: &[Option<Decimal>],
-    amount: &[Option<Decimal>],
-    movement: &[Option<Decimal>],
-    lines: &[Option<u32>],
-    i: usize,
-) -> Side {
-    let currency = if n[i] == Some(1) { cur[i].as_deref().and_then(Currency::parse) } else { None };
-    Side {
-        currency,
-        amount_txn: dec(amount_txn, i),
-        movement_txn: dec(movement_txn, i),
-        amount: dec(amount, i),
-        movement: dec(movement, i),
-        lines: lines[i].unwrap_or(0),
-        derived: false,
+/// The columns of the side frame, read once.
+struct SideColumns {
+    currency: Vec<Option<String>>,
+    currencies: Vec<Option<u32>>,
+    amount_txn: Vec<Option<Decimal>>,
+    movement_txn: Vec<Option<Decimal>>,
+    amount: Vec<Option<Decimal>>,
+    movement: Vec<Option<Decimal>>,
+    lines: Vec<Option<u32>>,
+}
+
+impl SideColumns {
+    fn read(sides: &DataFrame) -> PolarsResult<Self> {
+        let count = |c: &str| -> PolarsResult<Vec<Option<u32>>> {
+            Ok(sides.column(c)?.cast(&DataType::UInt32)?.u32()?.iter().collect())
+        };
+        Ok(Self {
+            currency: strings(sides, "side_currency")?,
+            currencies: count("currencies")?,
+            amount_txn: column_decimals(sides.column("amount_txn")?)?,
+            movement_txn: column_decimals(sides.column("movement_txn")?)?,
+            amount: column_decimals(sides.column("amount")?)?,
+            movement: column_decimals(sides.column("movement")?)?,
+            lines: count("lines")?,
+        })
+    }
+
+    fn side(&self, i: usize) -> Side {
+        let one = self.currencies[i] == Some(1);
+        Side {
+            currency: if one { self.currency[i].as_deref().and_then(Currency::parse) } else { None },
+            amount_txn: dec(&self.amount_txn, i),
+            movement_txn: dec(&self.movement_txn, i),
+            amount: dec(&self.amount, i),
+            movement: dec(&self.movement, i),
+            lines: self.lines[i].unwrap_or(0),
+            derived: false,
+        }
     }
 }
 
@@ -955,13 +977,7 @@ pub fn match_intercompany(
     let cp = strings(&sides, "counterparty")?;
     let kind = strings(&sides, "ic_kind")?;
     let measure = strings(&sides, "measure")?;
-    let cur = strings(&sides, "side_currency")?;
-    let n: Vec<Option<u32>> = sides.column("currencies")?.cast(&DataType::UInt32)?.u32()?.iter().collect();
-    let lines: Vec<Option<u32>> = sides.column("lines")?.cast(&DataType::UInt32)?.u32()?.iter().collect();
-    let amount_txn = column_decimals(sides.column("amount_txn")?)?;
-    let movement_txn = column_decimals(sides.column("movement_txn")?)?;
-    let amount = column_decimals(sides.column("amount")?)?;
-    let movement = column_decimals(sides.column("movement")?)?;
+    let columns = SideColumns::read(&sides)?;
     let mut slots: BTreeMap<(String, String, String, Measure), Slot> = BTreeMap::new();
     let mut not_matched: BTreeMap<(String, Measure), NotMatched> = BTreeMap::new();
     for i in 0..sides.height() {
@@ -970,7 +986,7 @@ pub fn match_intercompany(
         else {
             continue;
         };
-        let side = side_from_row(&cur, &n, &amount_txn, &movement_txn, &amount, &movement, &lines, i);
+        let side = columns.side(i);
         match sided.get(&(k.clone(), m)).copied().unwrap_or(Sidedness::NotMatched) {
             Sidedness::NotMatched => {
                 let x = not_matched.entry((k.clone(), m)).or_insert(NotMatched {
