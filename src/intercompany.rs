@@ -616,10 +616,12 @@ fn declared_frame(
                 .and(col("statement").eq(lit("balance_sheet")))
                 .and(col("class").eq(lit(*class))),
         );
-        let part = |e: Expr| {
-            let keep = if *credits { e.clone().lt(zero.clone()) } else { e.clone().gt(zero.clone()) };
-            when(keep).then(e).otherwise(zero.clone())
-        };
+        // A month counts when the transaction amount is credited (debited): a
+        // revaluation moves the local amount only and is no declaration.
+        let txn_move =
+            when(foreign.clone()).then(col("txn_amount").fill_null(zero.clone())).otherwise(col("amount_local"));
+        let counts = if *credits { txn_move.clone().lt(zero.clone()) } else { txn_move.clone().gt(zero.clone()) };
+        let part = |e: Expr| when(counts.clone()).then(e).otherwise(zero.clone());
         frames.push(
             translated
                 .lines
@@ -636,12 +638,7 @@ fn declared_frame(
                 .with_columns([
                     when(foreign.clone()).then(col("txn_currency")).otherwise(col("currency")).alias("side_currency"),
                     part(col("amount_local")).alias("part_local"),
-                    part(
-                        when(foreign.clone())
-                            .then(col("txn_amount").fill_null(zero.clone()))
-                            .otherwise(col("amount_local")),
-                    )
-                    .alias("part_txn"),
+                    part(txn_move.clone()).alias("part_txn"),
                 ])
                 .group_by([
                     col("entity"),

@@ -53,9 +53,9 @@ struct PairOut {
     awaiting: Option<String>,
     /// The account the close posts the difference to (within tolerance, or FX).
     posted_to: Option<String>,
-    /// The counterparty's side is measured from its dividends declared (balance-sheet
-    /// credits), not from profit-or-loss lines.
-    counterparty_derived: bool,
+    /// The entity whose side is measured from its dividends declared (balance-sheet
+    /// credits of the kind) rather than from profit-or-loss lines.
+    derived_side: Option<String>,
     explanation: String,
     unpaired_documents: Vec<DocumentOut>,
 }
@@ -275,7 +275,13 @@ fn pair_out(p: &Pair, m: &Matching) -> PairOut {
         difference_txn: p.difference_txn.map(|d| at_minor(d, p.txn_currency)),
         awaiting,
         posted_to: posted.then(|| m.difference_account.to_string()),
-        counterparty_derived: p.counterparty_side.as_ref().is_some_and(|s| s.derived),
+        derived_side: if p.counterparty_side.as_ref().is_some_and(|s| s.derived) {
+            Some(p.counterparty.to_string())
+        } else if p.entity_side.as_ref().is_some_and(|s| s.derived) {
+            Some(p.entity.to_string())
+        } else {
+            None
+        },
         explanation: explanation(p, m),
         unpaired_documents: unpaired,
     }

@@ -174,7 +174,7 @@ fn demo_dividend_income_agrees_with_the_dividend_declared() {
             .unwrap_or_else(|| panic!("dividend flow from {payer}: {r:#}"));
         assert_eq!(p["entity"], "ALD-NL");
         classified(p, "matched", None);
-        assert_eq!(p["counterparty_derived"], true);
+        assert_eq!(p["derived_side"], payer);
         assert_eq!(dec(&p["amount_entity"]), -d(eur));
         assert_eq!(dec(&p["amount_counterparty"]), d(eur));
     }
