@@ -193,13 +193,13 @@ fn explanation(p: &Pair, m: &Matching) -> String {
             _ => "timing".to_string(),
         },
         _ => {
+            let chase = if p.status == Status::Open { ": to chase" } else { "" };
             let mut t = match p.difference_txn {
-                Some(d) => format!(
-                    "difference of {txn} {} not explained by FX or timing: to chase",
-                    format_amount(d, txn_minor)
-                ),
+                Some(d) => {
+                    format!("difference of {txn} {} not explained by FX or timing{chase}", format_amount(d, txn_minor))
+                }
                 None => format!(
-                    "the sides are in different transaction currencies; difference of {pres} {} not explained: to chase",
+                    "the sides are in different transaction currencies; difference of {pres} {} not explained{chase}",
                     format_amount(p.difference.unwrap_or_default(), minor)
                 ),
             };
