@@ -4,8 +4,10 @@
 
 use std::io::Write;
 use std::path::PathBuf;
+use std::str::FromStr;
 
 use clap::{Parser, Subcommand};
+use rust_decimal::Decimal;
 
 use crate::Error;
 use crate::model::Period;
@@ -114,6 +116,27 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Agrees intercompany positions pair by pair and kind by kind on whatever has been
+    /// delivered, and explains each difference (FX, timing) or marks it open.
+    Match {
+        /// Period to match (YYYY-MM); the latest period delivered by default.
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        /// Show the pairs of one entity only.
+        #[arg(long)]
+        entity: Option<String>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+        /// Absolute tolerance in the presentation currency (overrides group.toml).
+        #[arg(long, value_parser = parse_tolerance)]
+        tolerance_absolute: Option<Decimal>,
+        /// Relative tolerance, a share of the larger side (overrides group.toml).
+        #[arg(long, value_parser = parse_tolerance)]
+        tolerance_relative: Option<Decimal>,
+        /// Exit 1 when any pair is open (a gate before the close).
+        #[arg(long)]
+        fail_on_open: bool,
+    },
 }
 
 /// Which months the income statement covers.
@@ -136,6 +159,14 @@ impl View {
 
 pub fn parse_period(s: &str) -> Result<Period, String> {
     s.parse()
+}
+
+/// A non-negative decimal written plainly (a tolerance).
+pub fn parse_tolerance(s: &str) -> Result<Decimal, String> {
+    match Decimal::from_str(s.trim()) {
+        Ok(d) if d >= Decimal::ZERO => Ok(d),
+        _ => Err(format!("{s:?} is not a non-negative decimal such as 50.00 or 0.001")),
+    }
 }
 
 /// Runs a parsed command, writing its report to `out`; returns the exit code.
@@ -167,6 +198,16 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
         ),
         Command::Translate { period, entity, format } => {
             crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
+        }
+        Command::Match { period, entity, format, tolerance_absolute, tolerance_relative, fail_on_open } => {
+            let ask = crate::commands::MatchRequest {
+                period,
+                entity: entity.map(crate::model::EntityId::new),
+                tolerance_absolute,
+                tolerance_relative,
+                fail_on_open,
+            };
+            crate::commands::match_intercompany(&cli.data, &ask, format, out)
         }
     }
 }

@@ -570,3 +570,57 @@ fn prove_inputs(ds: &Dataset, mapped: &Mapped) -> Result<Vec<crate::proof::Check
         ),
     ])
 }
+
+/// What `tessera match` was asked for.
+#[derive(Debug, Clone, Default)]
+pub struct MatchRequest {
+    pub period: Option<Period>,
+    pub entity: Option<crate::model::EntityId>,
+    pub tolerance_absolute: Option<rust_decimal::Decimal>,
+    pub tolerance_relative: Option<rust_decimal::Decimal>,
+    pub fail_on_open: bool,
+}
+
+/// Runs on whatever has been delivered. Refuses only when the settings, the entity list
+/// or the chart are broken (`intercompany::blocks_matching`); a delivery that is missing,
+/// incomplete, has blocking findings or lacks a rate is set aside and its pairs await it.
+/// Exit 0, or 1 when the proof fails or `--fail-on-open` meets an open pair.
+pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
+    use crate::intercompany::{self, Deliveries, Options};
+    let (loaded, findings) = load_checked(data, ask.period)?;
+    let period = loaded.as_ref().map(|c| c.scope.period);
+    let Some(Checked { ds, scope, mapped }) = loaded else {
+        out.write_all(report::findings::render_check(&findings, period, Format::Table).as_bytes())?;
+        return Ok(exit_code(&findings));
+    };
+    let mut refusing = Findings::default();
+    refusing.extend(findings.items().iter().filter(|f| intercompany::blocks_matching(f)).cloned());
+    if !refusing.is_empty() {
+        out.write_all(report::findings::render_check(&refusing, period, Format::Table).as_bytes())?;
+        out.write_all(
+            b"\nthe settings, entities or chart have blocking findings, so no pair can be matched: fix them first\n",
+        )?;
+        return Ok(exit_code(&refusing));
+    }
+    if let Some(e) = &ask.entity
+        && ds.entity(e).is_none()
+    {
+        return Err(Error::Usage(format!("entity {e} is not in entities.csv")));
+    }
+    let deliveries = Deliveries::assess(&ds, &findings, scope)?;
+    let used = deliveries.restrict(&mapped)?;
+    let translated = crate::translate::translate(&ds, &used, scope.fiscal_start, scope.period)?;
+    let mut options = Options::from_settings(&ds.settings.intercompany);
+    if let Some(x) = ask.tolerance_absolute {
+        options.tolerance_absolute = x;
+    }
+    if let Some(x) = ask.tolerance_relative {
+        options.tolerance_relative = x;
+    }
+    options.only = ask.entity.clone();
+    let mut matching = intercompany::match_intercompany(&ds, &translated, scope, &deliveries, &options)?;
+    matching.proof.extend(crate::translate::prove(&translated)?);
+    out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;
+    let tied = crate::proof::tied(&matching.proof);
+    Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
+}

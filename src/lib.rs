@@ -7,6 +7,7 @@ pub mod cli;
 pub mod close;
 pub mod commands;
 pub mod findings;
+pub mod intercompany;
 pub mod layout;
 pub mod load;
 pub mod map_accounts;

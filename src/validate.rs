@@ -54,6 +54,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_counterparties(ds, mapped, &mut f)?;
     check_opening(ds, mapped, &mut f)?;
     check_rates(ds, mapped, scope, &mut f)?;
+    check_documents(ds, &mut f)?;
     let mut layout_findings = Vec::new();
     crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -689,6 +690,66 @@ fn check_rates(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>
             .entity(&EntityId::new(&e))
             .account(a)
             .period(p),
+        );
+    }
+    Ok(())
+}
+
+/// Document detail names a group entity other than its own and a kind of the chart.
+/// Findings here are warnings: the row only explains differences and is not used.
+fn check_documents(ds: &Dataset, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let d = &ds.documents;
+    if d.height() == 0 {
+        return Ok(());
+    }
+    let known = DataFrame::new(
+        ds.entities.len(),
+        vec![Column::new("counterparty".into(), ds.entities.iter().map(|e| e.id.to_string()).collect::<Vec<_>>())],
+    )?;
+    let kinds: BTreeSet<&str> = ds.accounts.iter().filter_map(|a| a.ic_kind.as_deref()).collect();
+    let kinds =
+        DataFrame::new(kinds.len(), vec![Column::new("ic_kind".into(), kinds.into_iter().collect::<Vec<_>>())])?;
+    let unknown_cp = d
+        .clone()
+        .lazy()
+        .join(known.lazy(), [col("counterparty")], [col("counterparty")], JoinArgs::new(JoinType::Anti))
+        .with_column(lit("counterparty").alias("what"));
+    let own = d.clone().lazy().filter(col("counterparty").eq(col("entity"))).with_column(lit("self").alias("what"));
+    let unknown_kind = d
+        .clone()
+        .lazy()
+        .join(kinds.lazy(), [col("ic_kind")], [col("ic_kind")], JoinArgs::new(JoinType::Anti))
+        .with_column(lit("kind").alias("what"));
+    let bad = concat([unknown_cp, own, unknown_kind], UnionArgs::default())?
+        .sort(["file", "line", "what"], SortMultipleOptions::default())
+        .collect()?;
+    let unused = "the row is not used to explain intercompany differences";
+    for i in 0..bad.height() {
+        let e = EntityId::new(s(&bad, "entity", i).unwrap_or_default());
+        let cp = s(&bad, "counterparty", i).unwrap_or_default();
+        let kind = s(&bad, "ic_kind", i).unwrap_or_default();
+        let x = match s(&bad, "what", i).as_deref() {
+            Some("counterparty") => Finding::new(
+                Rule::CounterpartyUnknown,
+                format!("document counterparty {cp} is not an entity of entities.csv; {unused}"),
+                "correct the counterparty id",
+            ),
+            Some("self") => Finding::new(
+                Rule::CounterpartySelf,
+                format!("the document's counterparty is {e} itself; {unused}"),
+                "name the other group entity",
+            ),
+            _ => Finding::new(
+                Rule::ValueInvalid,
+                format!("document kind {kind:?} is not an ic_kind of accounts.csv; {unused}"),
+                "use one of the chart's ic_kind words",
+            ),
+        };
+        f.push(
+            x.in_file(s(&bad, "file", i).unwrap_or_default())
+                .line(u(&bad, "line", i).unwrap_or(0))
+                .entity(&e)
+                .severity(Severity::Warning),
         );
     }
     Ok(())

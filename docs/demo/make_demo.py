@@ -1281,6 +1281,28 @@ def inventory_profit(snapshots):
     return rows
 
 
+# Document detail (entities/<ENTITY>/documents.csv, optional): BRW-US lists the two
+# invoices it issued in the last days of a month that the buyer had not booked by the
+# month end. One row per document and intercompany kind, debit positive from BRW-US's
+# point of view: the receivable (trade) and the revenue (sales).
+DOCUMENTS_ENTITY = "BRW-US"
+DOCUMENT_DATES = {"timing_jun": "2026-06-29", "timing_dec": "2026-12-30"}
+DOCUMENT_NOTES = {"timing_jun": "instruments invoiced 2026-06-29 and booked by BRW-MX on 2026-07-02",
+                  "timing_dec": "instruments in transit to ALD-UK at the year end"}
+
+
+def documents():
+    rows = []
+    for key, date in DOCUMENT_DATES.items():
+        d = DELIBERATE[key]
+        assert d["seller"] == DOCUMENTS_ENTITY and date[:7] == d["period"], key
+        reference = d["ref"].split()[0]
+        for kind, sign in (("trade", 1), ("sales", -1)):
+            rows.append([reference, date, d["buyer"], kind, fmt(sign * d["amount"], "USD"), "USD",
+                         DOCUMENT_NOTES[key]])
+    return rows
+
+
 LEDGERS: dict[str, Ledger] = {}
 
 
@@ -1335,6 +1357,9 @@ def main(argv=None):
                 rows = tb_rows(e, movements[e][period], period)
                 w.csv(f"entities/{e}/tb-{period}.movements.csv", header, rows)
 
+    w.csv(f"entities/{DOCUMENTS_ENTITY}/documents.csv",
+          ["reference", "date", "counterparty", "ic_kind", "amount", "currency", "description"],
+          documents())
     w.csv("entities/inventory_profit.csv",
           ["seller", "buyer", "period", "inventory_amount", "currency", "margin_rate", "note"],
           inventory_profit(snapshots))

@@ -13,6 +13,7 @@ Standard library only; amounts are decimal.Decimal.
 from __future__ import annotations
 
 import argparse
+import calendar
 import csv
 import os
 import re
@@ -387,6 +388,39 @@ def main(argv=None) -> int:
                     table.append((p, a, b, ic, side, "EUR*", ea, eb, ea + eb, ea, eb))
                 else:
                     worst_noise = max(worst_noise, abs(ea + eb))
+
+    # ---- document detail ----------------------------------------------------------------
+    # The timing differences are documented by the seller: documents dated within the
+    # timing window before the period end add up, per pair and kind, to the difference.
+    window = settings.get("intercompany", {}).get("timing_window_days", 5)
+    documented: dict = {}
+    for e in entities:
+        path = os.path.join(ent_dir, e, "documents.csv")
+        if not os.path.exists(path):
+            continue
+        for i, r in enumerate(read_csv(path), start=2):
+            where = f"{e}/documents.csv:{i}"
+            cp, kind, ccy, date = r["counterparty"], r["ic_kind"], r["currency"], r["date"]
+            if cp not in entities or cp == e:
+                fail(f"{where}: counterparty {cp!r}")
+            if kind not in {a["ic_kind"] for a in accounts.values() if a["ic_kind"]}:
+                fail(f"{where}: ic_kind {kind!r} is not in the chart")
+            if ccy not in MINOR or not re.match(r"^2026-(0[1-9]|1[0-2])-[0-3][0-9]$", date):
+                fail(f"{where}: currency or date")
+                continue
+            a = amount(r["amount"], ccy, where)
+            p = date[:7]
+            last_day = calendar.monthrange(int(p[:4]), int(p[5:7]))[1]
+            if last_day - int(date[8:10]) > window:
+                fail(f"{where}: dated outside the timing window of {p}")
+            # A document explains the balance-sheet pair of its kind when there is one.
+            bs_kind = any(x["ic_kind"] == kind and x["statement"] == "balance_sheet" for x in accounts.values())
+            side = "bs" if bs_kind else "pl"
+            key = (p, tuple(sorted((e, cp))), kind, side, ccy)
+            documented[key] = documented.get(key, D(0)) + a
+    for k, v in documented.items():
+        if found_txn.get(k) != abs(v):
+            fail(f"documents {k} add up to {v}, but the difference is {found_txn.get(k)}")
 
     for k, v in EXPECTED_TXN.items():
         if found_txn.get(k) != v:

@@ -48,10 +48,10 @@ pub fn delivery_kind(name: &str) -> Option<&'static str> {
     None
 }
 
-const NUMBER: &str = r"^-?[0-9]+(\.[0-9]+)?$";
+pub(super) const NUMBER: &str = r"^-?[0-9]+(\.[0-9]+)?$";
 const PERIOD: &str = r"^[0-9]{4}-(0[1-9]|1[0-2])$";
 
-fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> PolarsResult<DataFrame> {
+pub(super) fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> PolarsResult<DataFrame> {
     let mut lfs = Vec::with_capacity(tables.len());
     for (entity, kind, t) in tables {
         let first = t.first_line as i64;
@@ -74,7 +74,7 @@ fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> PolarsResul
 }
 
 /// A frame code -> minor unit for the codes in `codes` that ISO 4217 knows.
-fn minor_units(name: &str, codes: impl IntoIterator<Item = String>) -> DataFrame {
+pub(super) fn minor_units(name: &str, codes: impl IntoIterator<Item = String>) -> DataFrame {
     let mut c = Vec::new();
     let mut m = Vec::new();
     for code in codes {
@@ -91,7 +91,7 @@ fn minor_units(name: &str, codes: impl IntoIterator<Item = String>) -> DataFrame
 }
 
 /// Row-level flags for an amount column: malformed, too large, surplus decimals.
-fn amount_flags(c: &str, minor: &str) -> [Expr; 3] {
+pub(super) fn amount_flags(c: &str, minor: &str) -> [Expr; 3] {
     let text = col(c);
     let malformed = text.clone().is_not_null().and(text.clone().str().contains(lit(NUMBER), true).not());
     let int_digits = text.clone().str().extract(lit(r"^-?0*([0-9]+)"), 1).str().len_chars();

@@ -5,6 +5,7 @@
 //! beyond the shape of each file; `validate` checks the rules.
 
 pub mod daily;
+mod documents;
 mod ledger;
 mod settings;
 pub mod table;
@@ -23,6 +24,7 @@ use crate::layout::{LayoutLine, Presentation};
 use crate::model::*;
 use table::{Spec, TextTable};
 
+pub use documents::{DOCUMENT_COLUMNS, DOCUMENTS_FILE};
 pub use ledger::LEDGER_COLUMNS;
 
 /// Limits on what grows, and what happens at them: a data folder beyond a limit is
@@ -123,6 +125,11 @@ pub struct Dataset {
     pub inventory_profits: Vec<InventoryProfit>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
+    /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
+    pub documents: DataFrame,
+    /// Entities that delivered a documents.csv (possibly empty): only their side of a
+    /// pair has document detail.
+    pub documented_entities: BTreeSet<EntityId>,
     pub inputs: Vec<InputFile>,
 }
 
@@ -195,6 +202,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let mut mapping_tables = Vec::new();
     let mut ledger_tables = Vec::new();
     let mut opening_tables = Vec::new();
+    let mut document_tables = Vec::new();
+    let mut documented = BTreeSet::new();
     let mut dirs: Vec<PathBuf> = std::fs::read_dir(&ent_dir)
         .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_dir()).collect())
         .unwrap_or_default();
@@ -239,7 +248,20 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
                 if let Some(t) = table::read(&file, &display, &ledger::LEDGER_SPEC, &mut f) {
                     ledger_tables.push((id.clone(), kind, t));
                 }
-            } else if !fname.starts_with('.') && fname != "documents.csv" {
+            } else if fname == DOCUMENTS_FILE {
+                hash_into(root, &file, &mut inputs);
+                documented.insert(id.clone());
+                // Document detail is optional: a file that cannot be used is a warning,
+                // never a reason to set the entity's delivery aside.
+                let before = f.len();
+                let read = table::read(&file, &display, &documents::DOCUMENT_SPEC, &mut f);
+                for x in &mut f[before..] {
+                    x.severity = Severity::Warning;
+                }
+                if let Some(t) = read {
+                    document_tables.push((id.clone(), t));
+                }
+            } else if !fname.starts_with('.') {
                 f.push(
                     Finding::new(
                         Rule::ColumnUnknown,
@@ -268,6 +290,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let mappings = ledger::build_mappings(mapping_tables, &mut f);
     let ledger_df = ledger::build_ledger(ledger_tables, &known, &mut f);
     let opening = ledger::build_opening(opening_tables, &known, &mut f);
+    let documents = documents::build_documents(document_tables, &mut f);
 
     let pres = settings.as_ref().map(|s| s.presentation_currency);
     let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
@@ -296,6 +319,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             acquisitions,
             inventory_profits,
             delivered_entities: delivered,
+            documents,
+            documented_entities: documented,
             inputs,
         }),
         findings,

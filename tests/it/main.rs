@@ -9,11 +9,14 @@
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
 //! - `structure`: `tessera structure` on the demo and over-held structures;
+//! - `intercompany`: `tessera match` on the demo's deliberate differences, partial
+//!   deliveries, document detail, an IAS 21.45 loan and a property test;
 //! - `translate`: IAS 21 translation against published examples and a property test.
 
 mod check;
 mod close;
 mod currencies;
+mod intercompany;
 mod rates_ecb;
 mod rates_findings;
 mod structure;
