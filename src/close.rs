@@ -88,10 +88,6 @@ pub struct Close {
     pub findings: Vec<crate::findings::Finding>,
 }
 
-fn strs(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
-    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
-}
-
 /// Each entity's translated year-to-date balances at `period`, translation difference
 /// included, taken by its consolidation method.
 pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<DataFrame> {
@@ -191,9 +187,9 @@ fn line(account: &GroupAccount, entity: &EntityId, counterparty: Option<&EntityI
 type Balances = BTreeMap<EntityId, BTreeMap<(GroupAccount, Option<EntityId>), Decimal>>;
 
 fn balances(contrib: &DataFrame) -> PolarsResult<Balances> {
-    let e = strs(contrib, "entity")?;
-    let a = strs(contrib, "group_account")?;
-    let c = strs(contrib, "counterparty")?;
+    let e = crate::money::column_strings(contrib, "entity")?;
+    let a = crate::money::column_strings(contrib, "group_account")?;
+    let c = crate::money::column_strings(contrib, "counterparty")?;
     let v = column_decimals(contrib.column("amount")?)?;
     let mut out: Balances = BTreeMap::new();
     for i in 0..contrib.height() {
@@ -685,7 +681,7 @@ fn aggregate_one(
         .agg([col("balance_presentation").sum().alias("amount")])
         .collect()?;
     let mut out: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
-    let a = strs(&df, "group_account")?;
+    let a = crate::money::column_strings(&df, "group_account")?;
     let v = column_decimals(df.column("amount")?)?;
     for i in 0..df.height() {
         if let Some(a) = &a[i] {
@@ -736,7 +732,7 @@ pub fn roll_up(contributions: &DataFrame, journal: &[Entry]) -> PolarsResult<BTr
     .agg([col("amount").sum()])
     .sort(["group_account"], SortMultipleOptions::default())
     .collect()?;
-    let a = strs(&df, "group_account")?;
+    let a = crate::money::column_strings(&df, "group_account")?;
     let v = column_decimals(df.column("amount")?)?;
     Ok(a.into_iter().zip(v).filter_map(|(a, v)| Some((GroupAccount::new(a?), v.unwrap_or_default()))).collect())
 }
@@ -757,7 +753,7 @@ pub fn prove(c: &Close) -> PolarsResult<Vec<Check>> {
     ));
     // Group = entities + eliminations, recomputed row by row, independently of roll_up.
     let mut naive: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
-    let a = strs(&c.contributions, "group_account")?;
+    let a = crate::money::column_strings(&c.contributions, "group_account")?;
     let v = column_decimals(c.contributions.column("amount")?)?;
     for (a, v) in a.iter().zip(v.iter()) {
         if let Some(a) = a {

@@ -265,8 +265,6 @@ pub struct ClosedPeriod {
     /// The close at the end of the month before the view starts (for month and quarter
     /// views), or `None` when the view starts with the fiscal year.
     pub base: Option<crate::close::Close>,
-    /// The close at the opening (the month before the fiscal year).
-    pub opening: crate::close::Close,
     pub checks: Vec<crate::proof::Check>,
     pub root: crate::model::EntityId,
 }
@@ -309,10 +307,8 @@ pub fn run_close(
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
     };
-    let opening_period = scope.fiscal_start.prev();
-    let opening = crate::close::close_at(ds, &translated, &structure_at(opening_period), opening_period)?;
     checks.extend(crate::close::prove(&close)?);
-    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, opening, checks, root }))
+    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
 }
 
 pub fn close(
@@ -442,7 +438,6 @@ pub fn close(
     let dir = report::close::output_dir(out_dir, scope.period);
     report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
-    let _ = &c.opening;
     Ok(if tied { 0 } else { 1 })
 }
 

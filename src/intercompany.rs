@@ -528,10 +528,6 @@ fn sidedness(ds: &Dataset) -> BTreeMap<(String, Measure), Sidedness> {
     out
 }
 
-fn strings(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
-    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
-}
-
 fn dec(v: &[Option<Decimal>], i: usize) -> Decimal {
     v[i].unwrap_or_default()
 }
@@ -676,11 +672,11 @@ fn derived_sides(
     let pres = ds.settings.presentation_currency;
     let mode = ds.settings.policies.rounding;
     let re = &ds.settings.accounts.retained_earnings;
-    let ent = strings(declared, "entity")?;
-    let cp = strings(declared, "counterparty")?;
-    let kind = strings(declared, "ic_kind")?;
-    let ccy = strings(declared, "currency")?;
-    let side_ccy = strings(declared, "side_currency")?;
+    let ent = crate::money::column_strings(declared, "entity")?;
+    let cp = crate::money::column_strings(declared, "counterparty")?;
+    let kind = crate::money::column_strings(declared, "ic_kind")?;
+    let ccy = crate::money::column_strings(declared, "currency")?;
+    let side_ccy = crate::money::column_strings(declared, "side_currency")?;
     let per: Vec<Option<i32>> = declared.column("period_index")?.i32()?.iter().collect();
     let local = column_decimals(declared.column("part_local")?)?;
     let txn = column_decimals(declared.column("part_txn")?)?;
@@ -756,11 +752,11 @@ fn documents_until(ds: &Dataset, deliveries: &Deliveries, end: NaiveDate) -> Pol
         .filter(col("days").lt_eq(lit(end_days)))
         .sort(["entity", "counterparty", "ic_kind", "days", "reference"], SortMultipleOptions::default())
         .collect()?;
-    let ent = strings(&d, "entity")?;
-    let cp = strings(&d, "counterparty")?;
-    let kind = strings(&d, "ic_kind")?;
-    let refs = strings(&d, "reference")?;
-    let ccy = strings(&d, "currency")?;
+    let ent = crate::money::column_strings(&d, "entity")?;
+    let cp = crate::money::column_strings(&d, "counterparty")?;
+    let kind = crate::money::column_strings(&d, "ic_kind")?;
+    let refs = crate::money::column_strings(&d, "reference")?;
+    let ccy = crate::money::column_strings(&d, "currency")?;
     let days: Vec<Option<i32>> = d.column("days")?.i32()?.iter().collect();
     let amount = column_decimals(d.column("amount")?)?;
     let mut out: BTreeMap<DocKey, Vec<Doc>> = BTreeMap::new();
@@ -916,7 +912,7 @@ impl SideColumns {
             Ok(sides.column(c)?.cast(&DataType::UInt32)?.u32()?.iter().collect())
         };
         Ok(Self {
-            currency: strings(sides, "side_currency")?,
+            currency: crate::money::column_strings(sides, "side_currency")?,
             currencies: count("currencies")?,
             amount_txn: column_decimals(sides.column("amount_txn")?)?,
             movement_txn: column_decimals(sides.column("movement_txn")?)?,
@@ -970,10 +966,10 @@ pub fn match_intercompany(
     let derived = derived_sides(ds, &declared, scope.period, minor)?;
 
     // Pairs from the side aggregates (a Rust loop over aggregates, not lines).
-    let ent = strings(&sides, "entity")?;
-    let cp = strings(&sides, "counterparty")?;
-    let kind = strings(&sides, "ic_kind")?;
-    let measure = strings(&sides, "measure")?;
+    let ent = crate::money::column_strings(&sides, "entity")?;
+    let cp = crate::money::column_strings(&sides, "counterparty")?;
+    let kind = crate::money::column_strings(&sides, "ic_kind")?;
+    let measure = crate::money::column_strings(&sides, "measure")?;
     let columns = SideColumns::read(&sides)?;
     let mut slots: BTreeMap<(String, String, String, Measure), Slot> = BTreeMap::new();
     let mut not_matched: BTreeMap<(String, Measure), NotMatched> = BTreeMap::new();

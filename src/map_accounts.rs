@@ -8,7 +8,7 @@
 use polars::prelude::*;
 
 use crate::load::Dataset;
-use crate::model::{Basis, Period};
+use crate::model::Period;
 
 /// Grain of the movement frame (besides `period_index`).
 pub const GRAIN: &[&str] = &["entity", "group_account", "counterparty", "txn_currency"];
@@ -180,10 +180,4 @@ pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> Pola
             ["entity", "group_account", "counterparty", "txn_currency", "period_index"],
             SortMultipleOptions::default().with_nulls_last(true),
         ))
-}
-
-/// Whether a basis is translated at the closing rate on balances (rather than on
-/// movements).
-pub fn on_balances(basis: Basis) -> bool {
-    basis == Basis::Closing
 }

@@ -56,6 +56,11 @@ pub fn column_decimals(c: &Column) -> PolarsResult<Vec<Option<Decimal>>> {
     Ok(ca.physical().iter().map(|m| m.map(|m| Decimal::from_i128_with_scale(m, scale))).collect())
 }
 
+/// All values of a text column (nulls as `None`).
+pub fn column_strings(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
+    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
+}
+
 /// Rounds to `decimals` places with the group's rounding mode.
 pub fn round(d: Decimal, decimals: u32, mode: RoundingMode) -> Decimal {
     let strategy = match mode {

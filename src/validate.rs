@@ -52,7 +52,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_balanced(mapped, scope, &mut f)?;
     check_duplicates(mapped, &mut f)?;
     check_counterparties(ds, mapped, &mut f)?;
-    check_opening(ds, mapped, &mut f)?;
+    check_opening(ds, &mut f)?;
     check_rates(ds, mapped, scope, &mut f)?;
     check_documents(ds, &mut f)?;
     let mut layout_findings = Vec::new();
@@ -543,7 +543,7 @@ fn check_counterparties(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> 
     Ok(())
 }
 
-fn check_opening(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+fn check_opening(ds: &Dataset, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let with_opening: BTreeSet<String> = {
         let c = ds.opening.column("entity")?.str()?;
         c.iter().flatten().map(String::from).collect()
@@ -604,7 +604,6 @@ fn check_opening(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsR
                 .account(a),
         );
     }
-    let _ = mapped;
     Ok(())
 }
 

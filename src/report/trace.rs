@@ -63,10 +63,6 @@ struct Trace {
     eliminations: Vec<Elim>,
 }
 
-fn strs(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
-    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
-}
-
 #[allow(clippy::too_many_arguments)]
 pub fn render(
     account: &GroupAccount,
@@ -79,15 +75,15 @@ pub fn render(
     minor: u32,
     format: Format,
 ) -> PolarsResult<String> {
-    let ce = strs(contributions, "entity")?;
-    let cc = strs(contributions, "counterparty")?;
+    let ce = crate::money::column_strings(contributions, "entity")?;
+    let cc = crate::money::column_strings(contributions, "counterparty")?;
     let ca = column_decimals(contributions.column("amount")?)?;
-    let le = strs(ledger, "entity")?;
-    let lf = strs(ledger, "file")?;
+    let le = crate::money::column_strings(ledger, "entity")?;
+    let lf = crate::money::column_strings(ledger, "file")?;
     let ll: Vec<Option<u64>> = ledger.column("line")?.u64()?.iter().collect();
-    let lp = strs(ledger, "period")?;
-    let la = strs(ledger, "account")?;
-    let lc = strs(ledger, "counterparty")?;
+    let lp = crate::money::column_strings(ledger, "period")?;
+    let la = crate::money::column_strings(ledger, "account")?;
+    let lc = crate::money::column_strings(ledger, "counterparty")?;
     let lv = column_decimals(ledger.column("amount")?)?;
     let mut parts: Vec<EntityPart> = Vec::new();
     for i in 0..contributions.height() {

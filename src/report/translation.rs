@@ -7,7 +7,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 use serde::Serialize;
 
-use crate::map_accounts::{period_index, period_of_index};
+use crate::map_accounts::period_index;
 use crate::model::{EntityId, Period};
 use crate::money::{column_decimals, format_amount};
 use crate::proof::Check;
@@ -86,10 +86,6 @@ struct Report<'a> {
     caution: &'static str,
 }
 
-fn strings(df: &DataFrame, c: &str) -> PolarsResult<Vec<Option<String>>> {
-    Ok(df.column(c)?.str()?.iter().map(|s| s.map(String::from)).collect())
-}
-
 pub fn render(
     t: &Translated,
     period: Period,
@@ -110,14 +106,14 @@ pub fn render(
             SortMultipleOptions::default().with_nulls_last(false),
         )
         .collect()?;
-    let ent = strings(&df, "entity")?;
-    let acc = strings(&df, "group_account")?;
-    let cp = strings(&df, "counterparty")?;
-    let txc = strings(&df, "txn_currency")?;
-    let basis = strings(&df, "basis")?;
-    let quote = strings(&df, "quote")?;
-    let kind = strings(&df, "rate_kind")?;
-    let ccy = strings(&df, "currency")?;
+    let ent = crate::money::column_strings(&df, "entity")?;
+    let acc = crate::money::column_strings(&df, "group_account")?;
+    let cp = crate::money::column_strings(&df, "counterparty")?;
+    let txc = crate::money::column_strings(&df, "txn_currency")?;
+    let basis = crate::money::column_strings(&df, "basis")?;
+    let quote = crate::money::column_strings(&df, "quote")?;
+    let kind = crate::money::column_strings(&df, "rate_kind")?;
+    let ccy = crate::money::column_strings(&df, "currency")?;
     let al = column_decimals(df.column("amount_local")?)?;
     let bl = column_decimals(df.column("balance_local")?)?;
     let rate = column_decimals(df.column("rate")?)?;
@@ -242,6 +238,5 @@ fn table(r: &Report<'_>, minor: u32) -> String {
     out.push_str(&super::text_table(&head, &ytd, &right));
     out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
     out.push_str(&format!("\n{CAUTION}\n"));
-    let _ = period_of_index;
     out
 }
