@@ -396,17 +396,40 @@ pub struct DifferencePosting {
     pub reason: Option<Reason>,
 }
 
-/// Who must act: per entity, its pairs by status.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct EntitySummary {
-    pub entity: EntityId,
+/// Pairs counted by status, per entity or for the whole matching.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct Counts {
     pub pairs: usize,
     pub matched: usize,
     pub within_tolerance: usize,
     pub explained: usize,
     pub open: usize,
-    /// Sum of |difference| over its open pairs (presentation currency).
+    /// Sum of |difference| over the open pairs (presentation currency).
     pub open_difference: Decimal,
+}
+
+impl Counts {
+    /// Counts one pair; a pair awaiting figures counts in `pairs` and in no status.
+    fn add(&mut self, p: &Pair) {
+        self.pairs += 1;
+        match p.status {
+            Status::Matched => self.matched += 1,
+            Status::WithinTolerance => self.within_tolerance += 1,
+            Status::Explained => self.explained += 1,
+            Status::Open => {
+                self.open += 1;
+                self.open_difference += p.materiality;
+            }
+            Status::Awaiting => {}
+        }
+    }
+}
+
+/// Who must act: per entity, its pairs by status.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct EntitySummary {
+    pub entity: EntityId,
+    pub counts: Counts,
     /// Pairs that wait for this entity's figures.
     pub awaited: usize,
     /// Why its figures are not used, if they are not.
@@ -415,19 +438,14 @@ pub struct EntitySummary {
 
 impl EntitySummary {
     pub fn must_act(&self) -> bool {
-        self.open > 0 || self.awaited > 0
+        self.counts.open > 0 || self.awaited > 0
     }
 }
 
 #[derive(Debug, Clone, Default, PartialEq, Eq)]
 pub struct Totals {
-    pub pairs: usize,
-    pub matched: usize,
-    pub within_tolerance: usize,
-    pub explained: usize,
-    pub open: usize,
+    pub counts: Counts,
     pub awaiting: usize,
-    pub open_difference: Decimal,
     /// Sum of the differences the close posts to the intercompany difference account.
     pub to_difference_account: Decimal,
 }
@@ -1154,16 +1172,9 @@ fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, To
     let mut by: BTreeMap<EntityId, EntitySummary> = BTreeMap::new();
     let mut t = Totals::default();
     for p in pairs {
-        t.pairs += 1;
-        match p.status {
-            Status::Matched => t.matched += 1,
-            Status::WithinTolerance => t.within_tolerance += 1,
-            Status::Explained => t.explained += 1,
-            Status::Open => {
-                t.open += 1;
-                t.open_difference += p.materiality;
-            }
-            Status::Awaiting => t.awaiting += 1,
+        t.counts.add(p);
+        if p.status == Status::Awaiting {
+            t.awaiting += 1;
         }
         if posts_difference(p) {
             t.to_difference_account += p.difference.unwrap_or_default();
@@ -1171,29 +1182,14 @@ fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, To
         for e in [&p.entity, &p.counterparty] {
             let s = by.entry(e.clone()).or_insert_with(|| EntitySummary {
                 entity: e.clone(),
-                pairs: 0,
-                matched: 0,
-                within_tolerance: 0,
-                explained: 0,
-                open: 0,
-                open_difference: Decimal::ZERO,
+                counts: Counts::default(),
                 awaited: 0,
                 absence: deliveries.set_aside.get(e).cloned(),
             });
             if p.awaiting() == Some(e) {
                 s.awaited += 1;
-                continue;
-            }
-            s.pairs += 1;
-            match p.status {
-                Status::Matched => s.matched += 1,
-                Status::WithinTolerance => s.within_tolerance += 1,
-                Status::Explained => s.explained += 1,
-                Status::Open => {
-                    s.open += 1;
-                    s.open_difference += p.materiality;
-                }
-                Status::Awaiting => {}
+            } else {
+                s.counts.add(p);
             }
         }
     }
