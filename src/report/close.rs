@@ -129,7 +129,20 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
     for (key, title) in titles {
         let Some(st) = r.statements.get(key) else { continue };
         out.push_str(&format!("\n{title}\n"));
-        let width = st.lines.iter().map(|l| l.label.chars().count()).max().unwrap_or(10).max(40);
+        let a = &r.attribution;
+        let extra: Vec<(&str, Decimal)> = match key {
+            "profit_or_loss" => vec![
+                ("attributable to owners of the parent", a.profit_owners),
+                ("attributable to non-controlling interests", a.profit_nci),
+            ],
+            "oci" => vec![
+                ("attributable to owners of the parent", a.oci_owners),
+                ("attributable to non-controlling interests", a.oci_nci),
+            ],
+            _ => vec![("of which profit and OCI of the year to date", a.result_in_equity)],
+        };
+        let labels = st.lines.iter().map(|l| l.label.chars().count()).chain(extra.iter().map(|(l, _)| l.len() + 2));
+        let width = labels.max().unwrap_or(10).max(40);
         for l in &st.lines {
             let amount = format_amount(l.amount, minor);
             if l.total {
@@ -138,45 +151,8 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
                 out.push_str(&format!("    {:<w2$}  {:>18}\n", l.label, amount, w2 = width - 2));
             }
         }
-        let a = &r.attribution;
-        match key {
-            "profit_or_loss" => {
-                out.push_str(&format!(
-                    "    {:<w2$}  {:>18}\n",
-                    "attributable to owners of the parent",
-                    format_amount(a.profit_owners, minor),
-                    w2 = width - 2
-                ));
-                out.push_str(&format!(
-                    "    {:<w2$}  {:>18}\n",
-                    "attributable to non-controlling interests",
-                    format_amount(a.profit_nci, minor),
-                    w2 = width - 2
-                ));
-            }
-            "oci" => {
-                out.push_str(&format!(
-                    "    {:<w2$}  {:>18}\n",
-                    "attributable to owners of the parent",
-                    format_amount(a.oci_owners, minor),
-                    w2 = width - 2
-                ));
-                out.push_str(&format!(
-                    "    {:<w2$}  {:>18}\n",
-                    "attributable to non-controlling interests",
-                    format_amount(a.oci_nci, minor),
-                    w2 = width - 2
-                ));
-            }
-            "balance_sheet" | "equity_changes" => {
-                out.push_str(&format!(
-                    "    {:<w2$}  {:>18}\n",
-                    "of which profit and OCI of the year to date (in retained earnings and reserve)",
-                    format_amount(a.result_in_equity, minor),
-                    w2 = width - 2
-                ));
-            }
-            _ => {}
+        for (label, amount) in extra {
+            out.push_str(&format!("      {label:<w4$}  {:>18}\n", format_amount(amount, minor), w4 = width - 4));
         }
     }
     out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
