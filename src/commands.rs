@@ -483,7 +483,7 @@ pub fn segments(
     keys.dedup();
     if !keys.contains(&key.as_str()) {
         return Err(Error::Usage(format!(
-            "no entity has a segment under key {key:?}: entities.csv has segment keys {}",
+            "no entity has a segment under key {key:?} (a filled-in column segment_{key} of entities.csv); keys in use: {}",
             if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
         )));
     }
