@@ -111,7 +111,15 @@ impl Measure {
     /// The presented value of the measure on debit-positive amounts.
     pub fn value(&self, amounts: &Amounts) -> Decimal {
         let debit: Decimal = self.weights.iter().map(|(a, w)| amounts.get(a).copied().unwrap_or_default() * *w).sum();
-        self.kind.presentation().show(debit)
+        let v = self.kind.presentation().show(debit);
+        // No negative zero in any output.
+        if v.is_zero() {
+            let mut z = Decimal::ZERO;
+            z.rescale(v.scale());
+            z
+        } else {
+            v
+        }
     }
 }
 
@@ -686,7 +694,7 @@ pub fn report(
     let combined_revenue: Decimal = segments.iter().map(|s| get(s, "revenue")).sum();
     let combined_profit: Decimal = segments.iter().map(|s| get(s, "profit")).filter(|p| p.is_sign_positive()).sum();
     let combined_loss: Decimal =
-        -segments.iter().map(|s| get(s, "profit")).filter(|p| p.is_sign_negative()).sum::<Decimal>();
+        segments.iter().map(|s| get(s, "profit")).filter(|p| p.is_sign_negative()).map(|p| p.abs()).sum();
     let profit_base = combined_profit.max(combined_loss);
     let combined_assets: Option<Decimal> = has_assets.then(|| segments.iter().map(|s| get(s, "assets")).sum());
     let rows: Vec<ThresholdRow> = segments
