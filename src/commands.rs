@@ -527,17 +527,21 @@ pub fn segments(
     let blocking = findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
     let tied = crate::proof::tied(&checks);
     let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
-    let r = report::segments::SegmentsOut::new(
-        scope.period.to_string(),
-        ds.settings.presentation_currency.code().to_string(),
-        view.as_str(),
-        scope_label,
-        &rep,
-        &findings,
-        tied,
-        &checks,
-        &ds.inputs,
-    );
+    let r = report::segments::SegmentsOut {
+        period: scope.period.to_string(),
+        currency: ds.settings.presentation_currency.code().to_string(),
+        view: view.as_str(),
+        scope: scope_label,
+        report: &rep,
+        findings: &findings,
+        proof: report::segments::SegmentsProof {
+            tied,
+            checks: &checks,
+            inputs: &ds.inputs,
+            tessera_version: env!("CARGO_PKG_VERSION"),
+        },
+        caution: report::CAUTION,
+    };
     if let Some(dir) = out_dir {
         report::segments::write_outputs(&report::close::output_dir(dir, scope.period), &r)?;
     }

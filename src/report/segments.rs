@@ -36,31 +36,6 @@ pub struct SegmentsOut<'a> {
     pub caution: &'static str,
 }
 
-impl<'a> SegmentsOut<'a> {
-    pub fn new(
-        period: String,
-        currency: String,
-        view: &'a str,
-        scope: String,
-        report: &'a SegmentReport,
-        findings: &'a [Finding],
-        tied: bool,
-        checks: &'a [Check],
-        inputs: &'a [InputFile],
-    ) -> Self {
-        Self {
-            period,
-            currency,
-            view,
-            scope,
-            report,
-            findings,
-            proof: SegmentsProof { tied, checks, inputs, tessera_version: env!("CARGO_PKG_VERSION") },
-            caution: CAUTION,
-        }
-    }
-}
-
 /// One figure per row: section, line, column, amount (a plain decimal string).
 fn csv(r: &SegmentsOut<'_>) -> String {
     let mut out = csv_line(&["section".into(), "line".into(), "column".into(), "amount".into()]);
