@@ -474,3 +474,20 @@ fn demo_table_csv_and_files() {
     assert_eq!(code, 0);
     assert_eq!(again, csv, "the CSV printed equals the file written");
 }
+
+/// Without a `[segments]` table there is no profit measure: `SettingInvalid`, exit 1;
+/// a measure naming neither a layout line nor an account is `SettingInvalid` too.
+#[test]
+fn missing_or_wrong_segment_settings_are_findings() {
+    let ents = [ent("P", "Retail", 1000, 100)];
+    let f = group(&ents, &[], "");
+    let (code, v) = segments_json(&f, &["--period", "2026-01"]);
+    assert_eq!(code, 1);
+    assert!(v.to_string().contains("SettingInvalid") && v.to_string().contains("[segments]"), "{v:#}");
+    let f = group(&ents, &[], &segments_toml(&[], &[]).replace("profit = \"PROFIT\"", "profit = \"PROFT\""));
+    let (code, v) = segments_json(&f, &["--period", "2026-01"]);
+    assert_eq!(code, 1);
+    let bad = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "SettingInvalid").expect("finding");
+    assert!(bad["message"].as_str().unwrap().contains("PROFT"), "{bad:#}");
+    assert_eq!(bad["file"], "entities/group.toml");
+}
