@@ -91,6 +91,23 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Segment figures by geography, business line or any segment key (IFRS 8), with
+    /// the reconciliation to the group, the thresholds and the entity-wide view.
+    Segments {
+        #[arg(long, value_parser = parse_period)]
+        period: Option<Period>,
+        #[arg(long, value_enum, default_value = "ytd")]
+        view: View,
+        /// Segment key: a `segment_<key>` column of entities.csv; `segments.key` of
+        /// group.toml by default.
+        #[arg(long)]
+        by: Option<String>,
+        /// Also write segments-<key>.json and .csv into a sub-folder per period here.
+        #[arg(long = "out")]
+        out_dir: Option<PathBuf>,
+        #[arg(long, value_enum, default_value = "table")]
+        format: Format,
+    },
     /// Shows how a group figure is made: each entity's translated contribution, the
     /// ledger lines behind it and each elimination, summing to the figure.
     Trace {
@@ -188,6 +205,9 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
             format,
             out,
         ),
+        Command::Segments { period, view, by, out_dir, format } => {
+            crate::commands::segments(&cli.data, period, view, by, out_dir.as_deref(), format, out)
+        }
         Command::Trace { account, period, entity, format } => crate::commands::trace(
             &cli.data,
             &crate::model::GroupAccount::new(account),

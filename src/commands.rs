@@ -441,6 +441,114 @@ pub fn close(
     Ok(if tied { 0 } else { 1 })
 }
 
+/// `tessera segments`: the close's figures by segment, reconciled to the group. Built on
+/// `run_close` and its elimination journal; exit 1 when the proof fails or a finding
+/// blocks.
+pub fn segments(
+    data: &Path,
+    period: Option<Period>,
+    view: crate::cli::View,
+    by: Option<String>,
+    out_dir: Option<&Path>,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<i32, Error> {
+    use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
+    use std::collections::BTreeMap;
+    let c = match run_close(data, period, view, None)? {
+        Ok(c) => c,
+        Err(findings) => {
+            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
+            return Ok(code.max(1));
+        }
+    };
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let Some(settings) = &ds.settings.segments else {
+        let mut f = Findings::default();
+        f.push(
+            crate::findings::Finding::new(
+                crate::findings::Rule::SettingInvalid,
+                "group.toml has no [segments] table, so there is no segment profit measure to report",
+                "add a [segments] table naming at least `revenue` and `profit` (docs/formats.md shows one)",
+            )
+            .in_file("entities/group.toml"),
+        );
+        out.write_all(report::findings::render_check(&f, Some(scope.period), format).as_bytes())?;
+        return Ok(1);
+    };
+    let key = by.unwrap_or_else(|| settings.key.clone());
+    let mut keys: Vec<&str> = ds.entities.iter().flat_map(|e| e.segments.iter().map(|(k, _)| k.as_str())).collect();
+    keys.sort();
+    keys.dedup();
+    if !keys.contains(&key.as_str()) {
+        return Err(Error::Usage(format!(
+            "no entity has a segment under key {key:?} (a filled-in column segment_{key} of entities.csv); keys in use: {}",
+            if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
+        )));
+    }
+    let mut findings = Vec::new();
+    let mut layout_findings = Vec::new();
+    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
+    let measures = resolve_measures(settings, &statements, &ds.accounts, "entities/group.toml", &mut findings);
+    let m = Membership::build(&key, &ds.entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
+    let country: BTreeMap<crate::model::EntityId, String> =
+        ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
+    let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
+    let base = match &c.base {
+        Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
+        None => None,
+    };
+    let is_flow = |a: &crate::model::GroupAccount| {
+        ds.account(a).is_some_and(|d| d.statement != crate::model::Statement::BalanceSheet)
+    };
+    let attr = ytd.view(base.as_ref(), &is_flow);
+    let mut group = c.close.group.clone();
+    if let Some(b) = &c.base {
+        for (a, v) in b.group.iter().filter(|(a, _)| is_flow(a)) {
+            *group.entry(a.clone()).or_default() -= *v;
+        }
+    }
+    let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
+    let rep = crate::segments::report(
+        &measures,
+        &m,
+        &attr,
+        &group,
+        &ds.accounts,
+        &home,
+        settings.country_materiality,
+        scope.period,
+    );
+    let mut checks = c.checks.clone();
+    checks.extend(rep.checks.iter().cloned());
+    findings.extend(rep.findings.iter().cloned());
+    findings.extend(c.close.findings.iter().cloned());
+    let blocking = findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
+    let tied = crate::proof::tied(&checks);
+    let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
+    let r = report::segments::SegmentsOut {
+        period: scope.period.to_string(),
+        currency: ds.settings.presentation_currency.code().to_string(),
+        view: view.as_str(),
+        scope: scope_label,
+        report: &rep,
+        findings: &findings,
+        proof: report::segments::SegmentsProof {
+            tied,
+            checks: &checks,
+            inputs: &ds.inputs,
+            tessera_version: env!("CARGO_PKG_VERSION"),
+        },
+        caution: report::CAUTION,
+    };
+    if let Some(dir) = out_dir {
+        report::segments::write_outputs(&report::close::output_dir(dir, scope.period), &r)?;
+    }
+    out.write_all(report::segments::render(&r, c.translated.minor, format).as_bytes())?;
+    Ok(if tied && !blocking { 0 } else { 1 })
+}
+
 pub fn trace(
     data: &Path,
     account: &crate::model::GroupAccount,

@@ -74,6 +74,16 @@ pub enum Rule {
     LayoutInvalid,
     LayoutAccountUncovered,
     LayoutAccountTwice,
+    /// An entity has no segment under the key reported (its figures are unallocated).
+    SegmentMissing,
+    /// A row of segment_accounts.csv that cannot be applied.
+    SegmentAccountInvalid,
+    /// An operating segment reported separately meets none of the IFRS 8.13 thresholds.
+    SegmentBelowThresholds,
+    /// A segment reported among all other segments meets an IFRS 8.13 threshold.
+    SegmentReportable,
+    /// Reportable segments' external revenue is below 75% of the group's (IFRS 8.15).
+    SegmentsExternalRevenueShort,
 }
 
 impl Rule {
@@ -82,6 +92,10 @@ impl Rule {
         match self {
             Rule::FileMissing | Rule::FileUnreadable | Rule::ColumnMissing => Severity::Unreadable,
             Rule::ColumnUnknown | Rule::EntityFolderUnknown | Rule::DeliveryMissing => Severity::Warning,
+            Rule::SegmentMissing
+            | Rule::SegmentBelowThresholds
+            | Rule::SegmentReportable
+            | Rule::SegmentsExternalRevenueShort => Severity::Warning,
             Rule::Rate(r) => r.severity(),
             _ => Severity::Blocking,
         }

@@ -89,7 +89,7 @@ impl ResolvedStatement {
 
 /// Whether `account` falls in the token `spec`: an account id, or an inclusive range
 /// `from..to` compared as text among ids of the same length.
-fn matches(spec: &str, account: &str) -> bool {
+pub(crate) fn matches(spec: &str, account: &str) -> bool {
     match spec.split_once("..") {
         Some((from, to)) => {
             account.len() == from.len() && account.len() == to.len() && from <= account && account <= to

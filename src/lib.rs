@@ -16,6 +16,7 @@ pub mod money;
 pub mod proof;
 pub mod rates;
 pub mod report;
+pub mod segments;
 pub mod structure;
 pub mod translate;
 pub mod validate;

@@ -264,6 +264,49 @@ pub struct Settings {
     pub policies: Policies,
     pub accounts: RoleAccounts,
     pub intercompany: IntercompanySettings,
+    /// The `[segments]` table (IFRS 8), when the group reports segments.
+    pub segments: Option<SegmentSettings>,
+}
+
+/// What the segment report shows (IFRS 8.23) and how it groups segments, from the
+/// `[segments]` table of `group.toml`. Each measure is a list of tokens, each a layout
+/// line id (of `profit_or_loss` or `balance_sheet`) or a group account or range
+/// `from..to`; `segments` resolves them against the layout and the chart.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SegmentSettings {
+    /// The segment key shown when `--by` is not given (`geography`, `business`, ...).
+    pub key: String,
+    pub revenue: String,
+    /// The profit measure management reviews (IFRS 8.23), e.g. operating profit.
+    pub profit: String,
+    pub depreciation: Option<String>,
+    pub interest_income: Option<String>,
+    pub interest_expense: Option<String>,
+    pub tax: Option<String>,
+    pub equity_result: Option<String>,
+    pub assets: Option<String>,
+    pub liabilities: Option<String>,
+    /// Operating segments not reported separately: shown together as all other
+    /// segments, a reconciling item (IFRS 8.16).
+    pub other: Vec<String>,
+    /// Segment values that are not operating segments (a head office): unallocated
+    /// items of the reconciliation (IFRS 8.28).
+    pub unallocated: Vec<String>,
+    /// Share of the group's external revenue or non-current assets from which a foreign
+    /// country is shown on its own in the entity-wide view (IFRS 8.33).
+    pub country_materiality: Decimal,
+}
+
+/// One row of the optional `entities/segment_accounts.csv`: group accounts of an entity
+/// that belong to another segment than the entity's own, under one segment key.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SegmentAccount {
+    pub entity: EntityId,
+    pub key: String,
+    pub segment: String,
+    /// Group accounts and ranges `from..to`, space separated (as in layouts.csv).
+    pub accounts: String,
+    pub source: Source,
 }
 
 /// Where a value came from: a file relative to the data folder and a line (header = 1).

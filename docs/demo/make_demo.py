@@ -1232,6 +1232,20 @@ cost_of_sales = "{a['cost_of_sales']}"
 tolerance_absolute = "50.00"          # presentation currency
 tolerance_relative = "0.001"          # of the larger side
 timing_window_days = 5
+
+[segments]                            # the segment report (IFRS 8): tessera segments
+key = "business"                      # segment key shown without --by
+revenue = "REV"                       # layout line ids or group accounts
+profit = "OP"                         # the profit measure management reviews
+depreciation = "6100"
+interest_income = "7000"
+interest_expense = "7100 7200"
+tax = "TAX"
+equity_result = "ASSOC"
+assets = "TA"
+liabilities = "NCL CL"
+unallocated = ["Corporate"]           # segment values that are not operating segments
+country_materiality = "0.10"          # foreign countries shown on their own from 10%
 '''
 
 

@@ -123,6 +123,8 @@ pub struct Dataset {
     pub historical_rates: Vec<HistoricalRate>,
     pub acquisitions: Vec<Acquisition>,
     pub inventory_profits: Vec<InventoryProfit>,
+    /// Per-account segment refinements (optional `segment_accounts.csv`).
+    pub segment_accounts: Vec<SegmentAccount>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
@@ -297,6 +299,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
+    let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -318,6 +321,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             historical_rates,
             acquisitions,
             inventory_profits,
+            segment_accounts,
             delivered_entities: delivered,
             documents,
             documented_entities: documented,
@@ -1116,6 +1120,40 @@ fn load_inventory_profits(
             period,
             inventory_amount: amount,
             margin_rate: margin,
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+/// The optional per-account segment refinements. Only the shape is checked here; that
+/// the entity exists and that no account is claimed twice is checked by `segments`.
+fn load_segment_accounts(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<SegmentAccount> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec { required: &["entity", "key", "segment", "accounts"], optional: &["note"], prefixes: &[] };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let (Some(entity), Some(key), Some(segment), Some(accounts)) = (
+            required(&t, "entity", row, f),
+            required(&t, "key", row, f),
+            required(&t, "segment", row, f),
+            required(&t, "accounts", row, f),
+        ) else {
+            continue;
+        };
+        out.push(SegmentAccount {
+            entity: EntityId::new(entity),
+            key: key.trim_start_matches("segment_").to_string(),
+            segment,
+            accounts,
             source: Source::line(&t.file, t.line(row)),
         });
     }

@@ -23,6 +23,7 @@ struct RawSettings {
     accounts: BTreeMap<String, String>,
     #[serde(default)]
     intercompany: BTreeMap<String, toml::Value>,
+    segments: Option<BTreeMap<String, toml::Value>>,
 }
 
 const POLICY_KEYS: &[&str] = &["rounding", "income_translation", "ifric16", "significant_influence"];
@@ -39,6 +40,123 @@ const ROLE_KEYS: &[&str] = &[
     "cost_of_sales",
 ];
 const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
+const SEGMENT_KEYS: &[&str] = &[
+    "key",
+    "revenue",
+    "profit",
+    "depreciation",
+    "interest_income",
+    "interest_expense",
+    "tax",
+    "equity_result",
+    "assets",
+    "liabilities",
+    "other",
+    "unallocated",
+    "country_materiality",
+];
+
+/// The `[segments]` table: every key checked, every problem a finding.
+fn parse_segments(
+    raw: &BTreeMap<String, toml::Value>,
+    file: &str,
+    findings: &mut Vec<Finding>,
+) -> Option<SegmentSettings> {
+    let before = findings.len();
+    let mut bad = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`segments.{key}`: {msg}"), action).in_file(file));
+    };
+    for k in raw.keys() {
+        if !SEGMENT_KEYS.contains(&k.as_str()) {
+            bad(k, "unknown setting".into(), &format!("known settings: {}", SEGMENT_KEYS.join(", ")));
+        }
+    }
+    let mut text = |k: &str, required: bool| -> Option<String> {
+        match raw.get(k) {
+            Some(toml::Value::String(s)) if !s.trim().is_empty() => Some(s.trim().to_string()),
+            None if !required => None,
+            None => {
+                bad(k, "missing".into(), "name the layout lines or group accounts, e.g. \"REV\"");
+                None
+            }
+            Some(v) => {
+                bad(
+                    k,
+                    format!("{v} is not a text of layout line ids or accounts"),
+                    "write e.g. \"OP\" or \"6100 6150\"",
+                );
+                None
+            }
+        }
+    };
+    let key = text("key", false).unwrap_or_else(|| "geography".to_string());
+    let revenue = text("revenue", true);
+    let profit = text("profit", true);
+    let depreciation = text("depreciation", false);
+    let interest_income = text("interest_income", false);
+    let interest_expense = text("interest_expense", false);
+    let tax = text("tax", false);
+    let equity_result = text("equity_result", false);
+    let assets = text("assets", false);
+    let liabilities = text("liabilities", false);
+    let mut list = |k: &str| -> Vec<String> {
+        match raw.get(k) {
+            None => Vec::new(),
+            Some(toml::Value::Array(a)) if a.iter().all(|x| x.is_str()) => {
+                a.iter().filter_map(|x| x.as_str()).map(|x| x.trim().to_string()).collect()
+            }
+            Some(v) => {
+                findings.push(
+                    Finding::new(
+                        Rule::SettingInvalid,
+                        format!("`segments.{k}`: {v} is not a list of segment names"),
+                        "write a list such as [\"Corporate\"]",
+                    )
+                    .in_file(file),
+                );
+                Vec::new()
+            }
+        }
+    };
+    let other = list("other");
+    let unallocated = list("unallocated");
+    let country_materiality = match raw.get("country_materiality") {
+        None => Some(Decimal::new(10, 2)),
+        Some(toml::Value::String(s)) => match Decimal::from_str(s.trim()) {
+            Ok(d) if d > Decimal::ZERO && d <= Decimal::ONE => Some(d),
+            _ => None,
+        },
+        Some(_) => None,
+    };
+    if country_materiality.is_none() {
+        findings.push(
+            Finding::new(
+                Rule::SettingInvalid,
+                "`segments.country_materiality` is not a quoted share in (0, 1]",
+                "write a quoted decimal such as \"0.10\"",
+            )
+            .in_file(file),
+        );
+    }
+    if findings.len() > before {
+        return None;
+    }
+    Some(SegmentSettings {
+        key,
+        revenue: revenue?,
+        profit: profit?,
+        depreciation,
+        interest_income,
+        interest_expense,
+        tax,
+        equity_result,
+        assets,
+        liabilities,
+        other,
+        unallocated,
+        country_materiality: country_materiality?,
+    })
+}
 
 /// Parses and validates the settings text. Returns `None` when any required setting is
 /// missing or wrong; every problem is in `findings`.
@@ -232,6 +350,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             None
         }
     };
+    let segments = raw.segments.as_ref().map(|t| parse_segments(t, file, findings));
     if findings.len() > before {
         return None;
     }
@@ -269,5 +388,6 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             tolerance_relative: tol_rel?,
             timing_window_days: window?,
         },
+        segments: segments.flatten(),
     })
 }

@@ -6,6 +6,7 @@ pub mod close;
 pub mod findings;
 pub mod intercompany;
 pub mod rates;
+pub mod segments;
 pub mod structure;
 pub mod trace;
 pub mod translation;

@@ -8,6 +8,9 @@
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
+//! - `segments`: `tessera segments` (IFRS 8): a study-text thresholds problem, head office
+//!   and account refinements, the demo reconciled by business and geography with its
+//!   inter-segment revenue by hand, and a property test;
 //! - `structure`: `tessera structure` on the demo and over-held structures;
 //! - `intercompany`: `tessera match` on the demo's deliberate differences, partial
 //!   deliveries, document detail, an IAS 21.45 loan and a property test;
@@ -19,6 +22,7 @@ mod currencies;
 mod intercompany;
 mod rates_ecb;
 mod rates_findings;
+mod segments;
 mod structure;
 mod support;
 mod translate;
