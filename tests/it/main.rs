@@ -11,7 +11,8 @@
 //! - `structure`: `tessera structure` on the demo and over-held structures;
 //! - `intercompany`: `tessera match` on the demo's deliberate differences, partial
 //!   deliveries, document detail, an IAS 21.45 loan and a property test;
-//! - `translate`: IAS 21 translation against published examples and a property test.
+//! - `translate`: IAS 21 translation against published examples, policies end to end;
+//! - `translate_oracle`: the translation against a naive row-by-row oracle (property test).
 
 mod check;
 mod close;
@@ -22,3 +23,4 @@ mod rates_findings;
 mod structure;
 mod support;
 mod translate;
+mod translate_oracle;
