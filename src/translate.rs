@@ -16,6 +16,18 @@
 //! Each translated balance is rounded once, to the presentation currency's minor unit,
 //! with the group's rounding mode; the residue lands in the translation difference
 //! (21.39c), never dropped. Translate knows nothing about files.
+//!
+//! Indirect foreign operations (IFRIC 16.17): the translated lines are the same under
+//! both methods (the direct figures), so that assets, liabilities, profit and the total
+//! translation reserve agree exactly; `reserves_by_operation` then says which foreign
+//! operation each part of a translation difference belongs to. Under `direct` an
+//! entity's whole difference is its own. Under `step_by_step` the entity is first
+//! translated into its intermediate parent's functional currency: the difference that
+//! arises there is the entity's own (translated into the presentation currency at the
+//! intermediate currency's average rate of the month, as an OCI item of the
+//! intermediate parent), and the rest, the retranslation of those intermediate-currency
+//! figures into the presentation currency, belongs to the intermediate parent's
+//! operation. That split is what IAS 21.48 would recycle on a disposal.
 
 use std::collections::BTreeMap;
 
@@ -47,6 +59,7 @@ pub struct Translated {
     pub differences: DataFrame,
     pub explanations: Vec<Explanation>,
     pub minor: u32,
+    pub fiscal_start: Period,
 }
 
 /// Why an entity's translation difference of a month is what it is (IAS 21.41 split).
@@ -301,7 +314,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         .sort(["entity", "period_index"], SortMultipleOptions::default())
         .collect()?;
     let explanations = explain(ds, &lines, &differences, fiscal_start, last, minor as u32)?;
-    Ok(Translated { lines, differences, explanations, minor: minor as u32 })
+    Ok(Translated { lines, differences, explanations, minor: minor as u32, fiscal_start })
 }
 
 /// Splits each translation difference of a month into its causes (IAS 21.41):
@@ -447,8 +460,144 @@ fn profit_unrounded(
     }
 }
 
-/// Historical-basis movements per entity and period, by group account.
-/// Movements by group account, per (entity, period index).
+/// The part of an entity's translation difference of a month that belongs to one
+/// foreign operation (IFRIC 16.17). Gains positive, presentation currency; the parts of
+/// one entity and month add up exactly to its `Explanation::total`.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct OperationReserve {
+    /// The entity whose translated figures give rise to the difference.
+    pub entity: EntityId,
+    /// The foreign operation whose reserve it is: the entity itself, or under
+    /// step by step its intermediate parent.
+    pub operation: EntityId,
+    pub period: Period,
+    /// `direct` or `step_by_step`: the method applied to this entity and month (step by
+    /// step falls back to direct where there is no intermediate currency, see
+    /// `reserves_by_operation`).
+    pub method: &'static str,
+    pub amount: Decimal,
+    /// Under step by step, the entity's own difference in the intermediate parent's
+    /// currency, rounded to its minor unit, before it is translated.
+    pub intermediate_currency: Option<Currency>,
+    pub amount_intermediate: Option<Decimal>,
+}
+
+/// Splits every explained translation difference into the foreign operations it belongs
+/// to under the group's IFRIC 16 policy. `parents` gives each entity's immediate parent
+/// as `structure` decided it.
+///
+/// Step by step applies to an entity with a parent whose functional currency differs
+/// from the presentation currency and is not hyperinflationary; for the rest the method
+/// makes no difference and the whole difference stays with the entity. The entity's
+/// figures reach the intermediate currency through the presentation currency (an amount
+/// x its rate, then divided by the intermediate currency's rate of the same kind), so no
+/// cross rate is stored or rounded; the rates of the files are all quoted against the
+/// presentation currency and the cross rate they imply is used exactly (rust_decimal's 28
+/// digits). Income goes at the cross of the two averages; an equity movement at its
+/// historical rate into the presentation currency, then at the intermediate currency's
+/// average of the month (the files hold no intermediate rate of that date). The entity's
+/// own part is rounded twice, to the intermediate currency's minor unit and then to the
+/// presentation currency's; the intermediate parent's part is the remainder, so it
+/// carries that rounding and the parts add up to the difference exactly.
+pub fn reserves_by_operation(
+    ds: &Dataset,
+    t: &Translated,
+    parents: &BTreeMap<EntityId, EntityId>,
+) -> PolarsResult<Vec<OperationReserve>> {
+    let _span = tracing::info_span!("reserves_by_operation").entered();
+    let pres = ds.settings.presentation_currency;
+    let mode = ds.settings.policies.rounding;
+    let step = ds.settings.policies.ifric16 == Ifric16Method::StepByStep;
+    let ytd_policy = ds.settings.policies.income_translation == IncomeTranslation::YearToDate;
+    let rates: BTreeMap<(Currency, Period), &crate::load::MonthlyRate> =
+        ds.rates.iter().map(|r| ((r.currency, r.period), r)).collect();
+    let hist: BTreeMap<(&str, &str, Period), Rate> =
+        ds.historical_rates.iter().map(|h| ((h.entity.as_str(), h.account.as_str(), h.period), h.rate)).collect();
+    let hist_moves = if step { historical_moves(&t.lines)? } else { BTreeMap::new() };
+    let mut out = Vec::new();
+    // Year-to-date profit in local currency before each month, per entity.
+    let mut ytd_profit: BTreeMap<&EntityId, Decimal> = BTreeMap::new();
+    for x in &t.explanations {
+        let before = ytd_profit.get(&x.entity).copied().unwrap_or_default();
+        ytd_profit.insert(&x.entity, before + x.profit_local);
+        let direct = || OperationReserve {
+            entity: x.entity.clone(),
+            operation: x.entity.clone(),
+            period: x.period,
+            method: "direct",
+            amount: money::unsigned_zero(x.total),
+            intermediate_currency: None,
+            amount_intermediate: None,
+        };
+        let hyper = |e: &EntityId| ds.entity(e).and_then(|e| e.hyperinflationary_from).is_some_and(|h| h <= x.period);
+        let parent = parents.get(&x.entity).and_then(|p| ds.entity(p));
+        let Some(parent) = parent.filter(|p| step && p.currency != pres && x.currency != pres) else {
+            out.push(direct());
+            continue;
+        };
+        if hyper(&x.entity) || hyper(&parent.id) {
+            out.push(direct());
+            continue;
+        }
+        let (p, c_s) = (x.period, parent.currency);
+        let r = |c: Currency, p: Period| rates.get(&(c, p)).copied();
+        let (Some(t_now), Some(t_before), Some(s_now), Some(s_before)) =
+            (r(x.currency, p), r(x.currency, p.prev()), r(c_s, p), r(c_s, p.prev()))
+        else {
+            out.push(direct());
+            continue;
+        };
+        // From the entity's currency into the intermediate one, through the presentation
+        // currency: `amount` at the entity's rate, back at the intermediate rate.
+        let via = |amount: Decimal, rt: Rate, rs: Rate| rs.unapply(rt.apply(amount));
+        let na = x.opening_net_assets_local;
+        let on_na = via(na, t_now.closing, s_now.closing) - via(na, t_before.closing, s_before.closing);
+        let profit_translated = if ytd_policy {
+            let (Some(ta), Some(sa)) = (t_now.average_ytd, s_now.average_ytd) else {
+                out.push(direct());
+                continue;
+            };
+            let now = via(before + x.profit_local, ta, sa);
+            let was = match (p == t.fiscal_start, t_before.average_ytd, s_before.average_ytd) {
+                (true, _, _) => Decimal::ZERO,
+                (false, Some(tb), Some(sb)) => via(before, tb, sb),
+                _ => {
+                    out.push(direct());
+                    continue;
+                }
+            };
+            now - was
+        } else {
+            via(x.profit_local, t_now.average, s_now.average)
+        };
+        let on_profit = via(x.profit_local, t_now.closing, s_now.closing) - profit_translated;
+        let mut equity_translated = Decimal::ZERO;
+        for (acct, m) in hist_moves.get(&(x.entity.to_string(), period_index(p))).into_iter().flatten() {
+            if let Some(h) = hist.get(&(x.entity.as_str(), acct.as_str(), p)) {
+                equity_translated += s_now.average.unapply(h.apply(-*m));
+            }
+        }
+        let on_equity = via(x.equity_movements_local, t_now.closing, s_now.closing) - equity_translated;
+        let own_intermediate = money::round(on_na + on_profit + on_equity, c_s.minor_unit(), mode);
+        let own = money::round(s_now.average.apply(own_intermediate), t.minor, mode);
+        out.push(OperationReserve {
+            method: "step_by_step",
+            amount: own,
+            intermediate_currency: Some(c_s),
+            amount_intermediate: Some(own_intermediate),
+            ..direct()
+        });
+        out.push(OperationReserve {
+            operation: parent.id.clone(),
+            method: "step_by_step",
+            amount: x.total - own,
+            ..direct()
+        });
+    }
+    Ok(out)
+}
+
+/// Historical-basis movements by group account, per (entity, period index).
 type MovesByAccount = BTreeMap<(String, i32), Vec<(String, Decimal)>>;
 
 fn historical_moves(lines: &DataFrame) -> PolarsResult<MovesByAccount> {

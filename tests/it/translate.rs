@@ -271,3 +271,122 @@ fn hyperinflationary_entity_at_closing_rate_throughout() {
     assert_eq!(dec(&m["total"]), "-20.00");
     assert_eq!(dec(&m["on_profit"]), "0.00");
 }
+
+/// The three-tier group of IFRIC 16's reasoning (an ultimate parent, an intermediate
+/// parent in another currency, an indirect foreign operation below it); invented
+/// figures, worked by hand. P in EUR holds S in GBP, which holds T in USD (100% each,
+/// no investment lines). Rates in units per EUR: December closing GBP 0.80, USD 1.25;
+/// January closing GBP 1.00, USD 2.00, average GBP 0.80, USD 1.60.
+/// S: cash GBP 800 all month: 800 / 1.00 - 800 / 0.80 = 800.00 - 1,000.00 = -200.00.
+/// T: opening cash USD 1,000, January revenue USD 300 (cash 1,300).
+/// Direct (T straight into EUR): opening net assets 1,000 x (1/2.00 - 1/1.25) = -300.00,
+/// profit 300 / 2.00 - 300 / 1.60 = 150.00 - 187.50 = -37.50: T's reserve -337.50.
+/// Step by step (IFRIC 16.17): T into GBP through the EUR rates (USD per GBP 1.5625 in
+/// December, 2.00 at January's close, 2.00 on average): opening net assets
+/// 1,000 / 2.00 - 1,000 / 1.5625 = 500.00 - 640.00 = GBP -140.00, profit 300 / 2.00 -
+/// 300 / 2.00 = 0; GBP -140.00 as S's OCI at GBP's average is -140 / 0.80 = EUR -175.00,
+/// T's reserve. The rest of T's EUR difference, -337.50 + 175.00 = -162.50, arises on
+/// retranslating T's GBP figures into EUR and belongs to S: its GBP net assets 640 at
+/// 1.25 = 800.00 become 650 at 1.00 = 650.00, less its GBP profit 150 and difference -140
+/// at the 1.25 average (187.50 - 175.00): 650.00 - 800.00 - 12.50 = -162.50. S's reserve
+/// is -200.00 - 162.50 = -362.50. Totals agree: -337.50 - 200.00 = -175.00 - 362.50 =
+/// -537.50, and so do the group's assets, profit and reserve.
+fn three_tier(method: &str) -> Folder {
+    let f = Folder::empty();
+    f.write(
+        "entities/group.toml",
+        &settings("EUR", "P", "half_away_from_zero", "periodic")
+            .replace("ifric16 = \"direct\"", &format!("ifric16 = \"{method}\"")),
+    );
+    f.write(
+        "entities/entities.csv",
+        "entity,name,country,currency\nP,Parent,NL,EUR\nS,Intermediate,GB,GBP\nT,Grandchild,US,USD\n",
+    );
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from\nP,S,1,1,2020-01-01\nS,T,1,1,2020-01-01\n",
+    );
+    f.write("entities/accounts.csv", CHART);
+    f.write("entities/layouts.csv", LAYOUT);
+    for e in ["P", "S", "T"] {
+        f.write(&format!("entities/{e}/mapping.csv"), &identity_mapping());
+    }
+    f.write("entities/P/opening.csv", "account,amount,amount_presentation\n1000,100.00,\n3000,-100.00,-100.00\n");
+    f.write("entities/P/tb-2026-01.movements.csv", "period,account,amount\n2026-01,1000,0.00\n");
+    f.write("entities/S/opening.csv", "account,amount,amount_presentation\n1000,800.00,\n3000,-800.00,-1000.00\n");
+    f.write("entities/S/tb-2026-01.movements.csv", "period,account,amount\n2026-01,1000,0.00\n");
+    f.write("entities/T/opening.csv", "account,amount,amount_presentation\n1000,1000.00,\n3000,-1000.00,-800.00\n");
+    f.write(
+        "entities/T/tb-2026-01.movements.csv",
+        "period,account,amount\n2026-01,1000,300.00\n2026-01,4000,-300.00\n",
+    );
+    f.write(
+        "rates/monthly.csv",
+        "period,currency,closing,average,quote\n2025-12,GBP,0.80,0.80,units_per_presentation\n\
+         2025-12,USD,1.25,1.25,units_per_presentation\n2026-01,GBP,1.00,0.80,units_per_presentation\n\
+         2026-01,USD,2.00,1.60,units_per_presentation\n",
+    );
+    f
+}
+
+fn operation_reserves(r: &serde_json::Value, key: &str, field: &str) -> Vec<(String, String)> {
+    r[key]
+        .as_array()
+        .unwrap_or_else(|| panic!("{key} in {r:#}"))
+        .iter()
+        .map(|x| (x["operation"].as_str().expect("operation").to_string(), dec(&x[field])))
+        .collect()
+}
+
+#[test]
+fn ifric16_direct_and_step_by_step_agree_in_total_and_split_the_reserve() {
+    let want =
+        |t: &str, s: &str| vec![("P".to_string(), "0.00".to_string()), ("S".into(), s.into()), ("T".into(), t.into())];
+    let mut group_tbs = Vec::new();
+    for (method, t_reserve, s_reserve) in [("direct", "-337.50", "-200.00"), ("step_by_step", "-175.00", "-362.50")] {
+        let f = three_tier(method);
+        let (code, r) = run_json(f.path(), &["translate", "--period", "2026-01"]);
+        assert_eq!(code, 0, "{r:#}");
+        assert_eq!(r["proof"]["tied"], true);
+        // The translated lines are the same under both methods.
+        let t = entity(&r, "T");
+        assert_eq!(dec(&line(t, "1000")["balance_presentation"]), "650.00");
+        assert_eq!(dec(&line(t, "4000")["amount_presentation"]), "-187.50");
+        assert_eq!(dec(&t["month"]["total"]), "-337.50");
+        assert_eq!(operation_reserves(&r, "reserves_by_operation", "reserve"), want(t_reserve, s_reserve));
+        if method == "step_by_step" {
+            // T's own part in GBP before translation, and the part that is S's.
+            let parts = t["reserves"].as_array().expect("reserves");
+            let own = parts.iter().find(|p| p["operation"] == "T").expect("own part");
+            assert_eq!(own["intermediate_currency"], "GBP");
+            assert_eq!(dec(&own["month_intermediate"]), "-140.00");
+            let up = parts.iter().find(|p| p["operation"] == "S").expect("parent's part");
+            assert_eq!(dec(&up["month"]), "-162.50");
+        }
+
+        let out = tempfile::tempdir().expect("temp dir");
+        let (code, c) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.path().to_str().unwrap()]);
+        assert_eq!(code, 0, "{c:#}");
+        assert_eq!(c["proof"]["tied"], true);
+        assert_eq!(operation_reserves(&c, "translation_reserves", "reserve"), want(t_reserve, s_reserve));
+        let moved: Vec<&serde_json::Value> = c["eliminations"]
+            .as_array()
+            .expect("journal")
+            .iter()
+            .filter(|e| e["rule"] == "ifric16_step_by_step")
+            .collect();
+        if method == "direct" {
+            assert!(moved.is_empty(), "{moved:#?}");
+        } else {
+            assert_eq!(moved.len(), 1, "{moved:#?}");
+            assert_eq!(moved[0]["posted_at"], "S");
+        }
+        let written = std::fs::read_to_string(out.path().join("2026-01/translation_reserves.csv")).expect("written");
+        assert!(written.contains(&format!("T,{method},0.00,{t_reserve},{t_reserve}")), "{written}");
+        group_tbs.push(c["group_trial_balance"].clone());
+    }
+    // Same assets, profit and total translation difference in EUR under both methods.
+    assert_eq!(group_tbs[0], group_tbs[1]);
+    let oci = group_tbs[0].as_array().unwrap().iter().find(|l| l["account"] == "8100").expect("OCI line");
+    assert_eq!(dec(&oci["amount"]), "537.50");
+}
