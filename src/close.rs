@@ -14,8 +14,11 @@
 //!   intragroup dividends against the payer's retained earnings; results before the
 //!   acquisition date into pre-acquisition equity; the investment against the equity at
 //!   acquisition with goodwill (IFRS 3.32) held in the subsidiary's currency at the
-//!   closing rate (IAS 21.47); the equity method (IAS 28.10); and the NCI's share of
-//!   post-acquisition equity, multi-tier through effective interests.
+//!   closing rate (IAS 21.47); the equity method (IAS 28.10); the exchange difference on
+//!   a loan that is part of a net investment, from profit or loss to OCI (IAS 21.32); the
+//!   IFRIC 16 step-by-step attribution of translation differences between operations;
+//!   and the NCI's share of post-acquisition equity, multi-tier through effective
+//!   interests.
 //! - `roll_up`: contributions plus eliminations, per group account.
 //!
 //! Close knows nothing about files.
@@ -351,6 +354,49 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             ],
         );
     }
+    // 2a'. Monetary items that form part of the net investment in a foreign operation
+    //     (IAS 21.32): the exchange difference the entity booked in profit or loss on the
+    //     item stays there in its own accounts and survived the elimination of the item
+    //     (IAS 21.45); in the group it is recognised in OCI and accumulated in the
+    //     translation reserve. Only the part since the designation date is moved.
+    for n in &ds.net_investments {
+        if !consolidated.contains(&n.entity) || !consolidated.contains(&n.counterparty) {
+            continue;
+        }
+        let from = Period::of_date(n.from);
+        if from > period {
+            continue;
+        }
+        let key = (n.fx_account.clone(), Some(n.counterparty.clone()));
+        let ytd = bal.get(&n.entity).and_then(|m| m.get(&key)).copied().unwrap_or_default();
+        let before = if from > fiscal_start {
+            let b = aggregate(ds, t, s, from.prev()).and_then(|c| balances(&c))?;
+            b.get(&n.entity).and_then(|m| m.get(&key)).copied().unwrap_or_default()
+        } else {
+            Decimal::ZERO
+        };
+        let amount = ytd - before;
+        j.post(
+            "net_investment_fx",
+            lcp(&n.entity, &n.counterparty),
+            vec![n.entity.clone(), n.counterparty.clone()],
+            format!(
+                "exchange difference of {} on {} with {} (net investment since {}, {}): {} from {} to OCI (IAS 21.32)",
+                n.entity,
+                n.account,
+                n.counterparty,
+                n.from,
+                format!("{}:{}", n.source.file, n.source.line.unwrap_or(0)),
+                money::format_amount(-amount, minor),
+                n.fx_account
+            ),
+            vec![
+                line(&n.fx_account, &n.entity, Some(&n.counterparty), -amount),
+                line(&roles.translation_difference, &n.entity, Some(&n.counterparty), amount),
+            ],
+        );
+    }
+
     let p0_index = period_index(fiscal_start.prev());
     let mut brought_forward: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     {
@@ -697,7 +743,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let pre_results = |st: Statement| -> Decimal {
             journal_so_far
                 .iter()
-                .filter(|x| x.rule == "pre_acquisition_results" || x.rule == "unrealised_profit")
+                .filter(|x| matches!(x.rule, "pre_acquisition_results" | "unrealised_profit" | "net_investment_fx"))
                 .flat_map(|x| x.lines.iter())
                 .filter(|l| l.entity == e.id && chart.get(&l.account).is_some_and(|d| d.statement == st))
                 .map(|l| l.amount)

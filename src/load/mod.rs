@@ -133,6 +133,7 @@ pub struct Dataset {
     pub historical_rates: Vec<HistoricalRate>,
     pub acquisitions: Vec<Acquisition>,
     pub inventory_profits: Vec<InventoryProfit>,
+    pub net_investments: Vec<NetInvestment>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
@@ -307,6 +308,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
+    let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -328,6 +330,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             historical_rates,
             acquisitions,
             inventory_profits,
+            net_investments,
             delivered_entities: delivered,
             documents,
             documented_entities: documented,
@@ -1132,3 +1135,44 @@ fn load_inventory_profits(
     out
 }
 
+/// `entities/net_investment.csv` (optional): intragroup monetary items designated part of
+/// a net investment. Only the shape is checked here; `validate` checks the entities and
+/// accounts named.
+fn load_net_investments(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<NetInvestment> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec {
+        required: &["entity", "counterparty", "account", "fx_account", "from"],
+        optional: &["note"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let cells = (
+            required(&t, "entity", row, f),
+            required(&t, "counterparty", row, f),
+            required(&t, "account", row, f),
+            required(&t, "fx_account", row, f),
+            required(&t, "from", row, f),
+        );
+        let (Some(entity), Some(counterparty), Some(account), Some(fx_account), Some(from)) = cells else { continue };
+        let Some(from) = parse_date(&t, row, "from", &from, f) else { continue };
+        out.push(NetInvestment {
+            entity: EntityId::new(entity),
+            counterparty: EntityId::new(counterparty),
+            account: GroupAccount::new(account),
+            fx_account: GroupAccount::new(fx_account),
+            from,
+            note: t.get("note", row).unwrap_or_default(),
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
