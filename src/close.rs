@@ -381,12 +381,13 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             lcp(&n.entity, &n.counterparty),
             vec![n.entity.clone(), n.counterparty.clone()],
             format!(
-                "exchange difference of {} on {} with {} (net investment since {}, {}): {} from {} to OCI (IAS 21.32)",
+                "exchange difference of {} on {} with {} (net investment since {}, {}:{}): {} from {} to OCI (IAS 21.32)",
                 n.entity,
                 n.account,
                 n.counterparty,
                 n.from,
-                format!("{}:{}", n.source.file, n.source.line.unwrap_or(0)),
+                n.source.file,
+                n.source.line.unwrap_or(0),
                 money::format_amount(-amount, minor),
                 n.fx_account
             ),

@@ -547,9 +547,7 @@ pub fn reserves_by_operation(
             out.push(direct());
             continue;
         };
-        // From the entity's currency into the intermediate one, through the presentation
-        // currency: `amount` at the entity's rate, back at the intermediate rate.
-        let via = |amount: Decimal, rt: Rate, rs: Rate| rs.unapply(rt.apply(amount));
+        let via = through_presentation;
         let na = x.opening_net_assets_local;
         let on_na = via(na, t_now.closing, s_now.closing) - via(na, t_before.closing, s_before.closing);
         let profit_translated = if ytd_policy {
@@ -574,7 +572,7 @@ pub fn reserves_by_operation(
         let mut equity_translated = Decimal::ZERO;
         for (acct, m) in hist_moves.get(&(x.entity.to_string(), period_index(p))).into_iter().flatten() {
             if let Some(h) = hist.get(&(x.entity.as_str(), acct.as_str(), p)) {
-                equity_translated += s_now.average.unapply(h.apply(-*m));
+                equity_translated += through_presentation(-*m, *h, s_now.average);
             }
         }
         let on_equity = via(x.equity_movements_local, t_now.closing, s_now.closing) - equity_translated;
@@ -595,6 +593,29 @@ pub fn reserves_by_operation(
         });
     }
     Ok(out)
+}
+
+/// `amount` of one currency in another, through the presentation currency: at `from`
+/// (the first currency's rate), then back at `to` (the second's), both quoted against
+/// the presentation currency. The factors that multiply are applied first and the one
+/// division last, so no intermediate quotient is rounded: while the amount times the
+/// multiplying rates fits rust_decimal's 28 significant digits (amounts below 10^6 with
+/// rates of 4 decimals below 100, as the unit test below checks against exact
+/// rationals), the result rounds to the minor unit exactly as the true value does, ties
+/// included. Beyond that rust_decimal rounds the product at its 28th digit, which can
+/// only matter for a value within about 10^-16 of a tie; in the IFRIC 16 split it would
+/// move one minor unit between an entity's part and its parent's, never the total.
+pub fn through_presentation(amount: Decimal, from: Rate, to: Rate) -> Decimal {
+    let (mut num, mut den) = (amount, Decimal::ONE);
+    match from.quote {
+        Quote::PresentationPerUnit => num *= from.value,
+        Quote::UnitsPerPresentation => den *= from.value,
+    }
+    match to.quote {
+        Quote::PresentationPerUnit => den *= to.value,
+        Quote::UnitsPerPresentation => num *= to.value,
+    }
+    num / den
 }
 
 /// Historical-basis movements by group account, per (entity, period index).
@@ -699,4 +720,78 @@ pub fn prove(t: &Translated) -> PolarsResult<Vec<crate::proof::Check>> {
             },
         ),
     ])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use num_bigint::BigInt;
+    use num_rational::BigRational;
+    use proptest::prelude::*;
+
+    fn exact(d: Decimal) -> BigRational {
+        BigRational::new(BigInt::from(d.mantissa()), BigInt::from(10).pow(d.scale()))
+    }
+
+    /// Rounds a rational half away from zero to `dp` decimals (the oracle).
+    fn round_exact(x: &BigRational, dp: u32) -> BigRational {
+        let unit = BigRational::from_integer(BigInt::from(10).pow(dp));
+        let scaled = x * &unit;
+        let half = BigRational::new(BigInt::from(1), BigInt::from(2));
+        let r = if scaled >= BigRational::from_integer(BigInt::from(0)) {
+            (scaled + half).floor()
+        } else {
+            (scaled - half).ceil()
+        };
+        r / unit
+    }
+
+    fn rate(value: Decimal, per_unit: bool) -> Rate {
+        Rate { value, quote: if per_unit { Quote::PresentationPerUnit } else { Quote::UnitsPerPresentation } }
+    }
+
+    // The cross rate through the presentation currency, rounded once to the minor
+    // unit, equals the exact rational value rounded once (num-rational as the oracle),
+    // ties included: amounts of 3 decimals below 10^6, rates of 4 decimals below 100.
+    // Coarse rates (quarters) make exact ties frequent.
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+        #[test]
+        fn cross_through_presentation_rounds_like_the_exact_value(
+            amount in -1_000_000_000i64..1_000_000_000i64,
+            from in prop_oneof![1i64..=400i64, 1i64..=1_000_000i64],
+            to in prop_oneof![1i64..=400i64, 1i64..=1_000_000i64],
+            coarse in any::<(bool, bool)>(),
+            fq in any::<bool>(),
+            tq in any::<bool>(),
+            dp in 0u32..=3,
+        ) {
+            let amount = Decimal::new(amount, 3);
+            // Coarse: n/4 written with 2 decimals; fine: 4 decimals.
+            let fv = if coarse.0 { Decimal::new(from.min(400) * 25, 2) } else { Decimal::new(from, 4) };
+            let tv = if coarse.1 { Decimal::new(to.min(400) * 25, 2) } else { Decimal::new(to, 4) };
+            let (f, t) = (rate(fv, fq), rate(tv, tq));
+            let got = money::round(through_presentation(amount, f, t), dp, RoundingMode::HalfAwayFromZero);
+            let x = exact(amount);
+            let pres = if fq { x * exact(fv) } else { x / exact(fv) };
+            let other = if tq { pres / exact(tv) } else { pres * exact(tv) };
+            prop_assert_eq!(exact(got), round_exact(&other, dp));
+        }
+    }
+
+    #[test]
+    fn a_tie_through_a_non_terminating_quotient_stays_a_tie() {
+        // USD 0.07 at 2.1 USD per EUR is EUR 0.0333... (1/30); at 0.15 GBP per EUR that
+        // is GBP 0.005 exactly, a tie at the penny. A cross rate stored at the files' 10
+        // decimals, 0.15 / 2.1 = 0.0714285714, would give 0.004999999998 and round the
+        // tie down.
+        let got = through_presentation(
+            Decimal::new(7, 2),
+            rate(Decimal::new(21, 1), false),
+            rate(Decimal::new(15, 2), false),
+        );
+        assert_eq!(got, Decimal::new(5, 3));
+        assert_eq!(money::round(got, 2, RoundingMode::HalfAwayFromZero), Decimal::new(1, 2));
+        assert_eq!(money::round(got, 2, RoundingMode::HalfEven), Decimal::new(0, 2));
+    }
 }

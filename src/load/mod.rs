@@ -74,16 +74,6 @@ impl Rate {
             Quote::UnitsPerPresentation => amount / self.value,
         }
     }
-
-    /// Units of the currency for a presentation-currency `amount`, unrounded: the
-    /// inverse of `apply`. Going from one currency to another through the presentation
-    /// currency this way needs no cross rate of its own (IFRIC 16 step by step).
-    pub fn unapply(&self, amount: Decimal) -> Decimal {
-        match self.quote {
-            Quote::PresentationPerUnit => amount / self.value,
-            Quote::UnitsPerPresentation => amount * self.value,
-        }
-    }
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]

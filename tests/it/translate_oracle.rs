@@ -196,9 +196,9 @@ impl Sub {
         }
         f.write(&format!("entities/{id}/opening.csv"), &o);
         let mut tb = String::from("period,account,amount\n");
-        for m in 1..=3 {
+        for (m, month) in MONTHS.iter().enumerate().skip(1) {
             for (a, _) in ACCOUNTS {
-                tb.push_str(&format!("{},{a},{}\n", MONTHS[m], self.local(a, m)));
+                tb.push_str(&format!("{month},{a},{}\n", self.local(a, m)));
             }
         }
         f.write(&format!("entities/{id}/tb-2026-q1.movements.csv"), &tb);
@@ -248,10 +248,10 @@ fn build(c: &Case) -> Folder {
                 conv(&r.average_ytd)
             ));
         }
-        for m in 1..=3 {
+        for (m, month) in MONTHS.iter().enumerate().skip(1) {
             if !s.local("3200", m).is_zero() {
                 let r = s.dividend_rate[m - 1];
-                hist.push_str(&format!("{id},3200,{},{},{}\n", MONTHS[m], r.value, r.quote()));
+                hist.push_str(&format!("{id},3200,{month},{},{}\n", r.value, r.quote()));
             }
         }
         s.write(&f, id);
@@ -263,8 +263,8 @@ fn build(c: &Case) -> Folder {
     f.write("entities/P/mapping.csv", &identity_mapping());
     f.write("entities/P/opening.csv", "account,amount,amount_presentation\n1000,100.00,\n3000,-100.00,-100.00\n");
     let mut tb = String::from("period,account,amount\n");
-    for m in 1..=3 {
-        tb.push_str(&format!("{},1000,0.00\n", MONTHS[m]));
+    for month in &MONTHS[1..] {
+        tb.push_str(&format!("{month},1000,0.00\n"));
     }
     f.write("entities/P/tb-2026-q1.movements.csv", &tb);
     f.write("rates/monthly.csv", &rates);
