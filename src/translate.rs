@@ -488,7 +488,11 @@ pub struct OperationReserve {
 ///
 /// Step by step applies to an entity with a parent whose functional currency differs
 /// from the presentation currency and is not hyperinflationary; for the rest the method
-/// makes no difference and the whole difference stays with the entity. The entity's
+/// makes no difference and the whole difference stays with the entity. The intermediate
+/// parent's part goes to the highest parent of the chain that shares its currency (a
+/// sub-group in one currency is translated as one block); a chain of three or more
+/// different currencies is followed one tier: the part of the intermediate currency's
+/// retranslation is not split further between the upper tiers. The entity's
 /// figures reach the intermediate currency through the presentation currency (an amount
 /// x its rate, then divided by the intermediate currency's rate of the same kind), so no
 /// cross rate is stored or rounded; the rates of the files are all quoted against the
@@ -586,13 +590,30 @@ pub fn reserves_by_operation(
             ..direct()
         });
         out.push(OperationReserve {
-            operation: parent.id.clone(),
+            operation: top_of_currency(ds, parents, &parent.id),
             method: "step_by_step",
             amount: x.total - own,
             ..direct()
         });
     }
     Ok(out)
+}
+
+/// The operation that retranslates an intermediate parent's figures into another
+/// currency: the intermediate parent itself, or, where it sits inside a chain of parents
+/// with the same functional currency, the highest of them, whose own parent's currency
+/// differs (the sub-group translated as one block).
+fn top_of_currency(ds: &Dataset, parents: &BTreeMap<EntityId, EntityId>, from: &EntityId) -> EntityId {
+    let currency = |e: &EntityId| ds.entity(e).map(|x| x.currency);
+    let mut op = from.clone();
+    // The control tree has no cycles; the bound only guards against a broken map.
+    for _ in 0..parents.len() {
+        match parents.get(&op) {
+            Some(up) if currency(up) == currency(from) => op = up.clone(),
+            _ => break,
+        }
+    }
+    op
 }
 
 /// `amount` of one currency in another, through the presentation currency: at `from`

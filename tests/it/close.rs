@@ -368,3 +368,42 @@ fn net_investment_loan_exchange_difference_goes_to_oci_in_the_group() {
     assert_eq!(d(v["attribution"]["oci"].as_str().unwrap()), d("-250.00"));
     assert_eq!(plain["attribution"]["result_in_equity"], v["attribution"]["result_in_equity"]);
 }
+
+/// The demo under both IFRIC 16 methods (IFRIC 16.17: the method changes which foreign
+/// operation a part of the reserve belongs to, not the consolidated figures): the
+/// group trial balance is identical, the reserves per operation add up to the same
+/// total, and the split differs where an operation sits below a parent in another
+/// currency. BRW-US (USD) is held by ALD-US (USD): under step by step its USD figures
+/// are part of ALD-US's USD sub-group, so none of the year's difference is its own.
+#[test]
+fn demo_under_both_ifric16_methods_has_the_same_group_figures() {
+    let mut runs = Vec::new();
+    for method in ["direct", "step_by_step"] {
+        let f = Folder::demo();
+        f.replace("entities/group.toml", "ifric16 = \"direct\"", &format!("ifric16 = \"{method}\""));
+        let v = close(&f, "2026-12");
+        let reserves: Vec<(String, Decimal, Decimal)> = v["translation_reserves"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                (
+                    r["operation"].as_str().unwrap().to_string(),
+                    d(r["year"].as_str().unwrap()),
+                    d(r["reserve"].as_str().unwrap()),
+                )
+            })
+            .collect();
+        runs.push((v["group_trial_balance"].clone(), reserves, v["attribution"]["oci"].clone()));
+    }
+    assert_eq!(runs[0].0, runs[1].0, "group trial balances differ");
+    assert_eq!(runs[0].2, runs[1].2);
+    let total = |r: &[(String, Decimal, Decimal)]| r.iter().map(|x| x.2).sum::<Decimal>();
+    assert_eq!(total(&runs[0].1), total(&runs[1].1));
+    let year = |r: &[(String, Decimal, Decimal)], e: &str| r.iter().find(|x| x.0 == e).map(|x| x.1).unwrap();
+    assert!(!year(&runs[0].1, "BRW-US").is_zero());
+    assert_eq!(year(&runs[1].1, "BRW-US"), Decimal::ZERO);
+    assert_ne!(year(&runs[0].1, "ALD-US"), year(&runs[1].1, "ALD-US"));
+    // Entities without an intermediate parent in another currency keep their reserve.
+    assert_eq!(year(&runs[0].1, "NRD-SE"), year(&runs[1].1, "NRD-SE"));
+}
