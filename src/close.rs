@@ -83,7 +83,9 @@ pub struct NciRow {
 /// (IFRIC 16.17), gains (credits) positive, before the NCI's share: what was brought
 /// forward (as delivered in the opening balances), the year's differences that belong to
 /// the operation under the group's method, and their sum, the amount IAS 21.48 would
-/// reclassify to profit or loss on its disposal.
+/// reclassify to profit or loss on its disposal. It covers the operation's own
+/// translated figures; the exchange difference on its goodwill (IAS 21.47) is in its
+/// `investment_and_goodwill` entry.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct OperationReserveRow {
     pub operation: EntityId,

@@ -187,6 +187,29 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         *by_rule.entry(e.rule).or_default() += 1;
     }
     out.push_str(&format!(" ({})\n", by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")));
+    if let Some(first) = r.translation_reserves.first() {
+        let method = match first.method {
+            crate::model::Ifric16Method::Direct => "direct",
+            crate::model::Ifric16Method::StepByStep => "step by step",
+        };
+        out.push_str(&format!(
+            "\ntranslation reserve by foreign operation (IFRIC 16, {method} method; before the NCI's share, credits positive)\n"
+        ));
+        let rows: Vec<Vec<String>> = r
+            .translation_reserves
+            .iter()
+            .map(|x| {
+                let mut v = vec![x.operation.to_string()];
+                v.extend([x.brought_forward, x.year, x.reserve].map(|d| format_amount(d, minor)));
+                v
+            })
+            .collect();
+        out.push_str(&super::text_table(
+            &["operation", "brought forward", "year to date", "reserve"],
+            &rows,
+            &[false, true, true, true],
+        ));
+    }
     for f in r.findings {
         out.push_str(&format!("\n{:?} {}: {}\n  what to do: {}\n", f.severity, f.rule, f.message, f.action));
     }
