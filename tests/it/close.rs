@@ -407,3 +407,23 @@ fn demo_under_both_ifric16_methods_has_the_same_group_figures() {
     // Entities without an intermediate parent in another currency keep their reserve.
     assert_eq!(year(&runs[0].1, "NRD-SE"), year(&runs[1].1, "NRD-SE"));
 }
+
+/// Designated during the year (IAS 21.32 applies from the designation): the same loan
+/// designated from 2026-02-01. January's loss of 250.00 stays in profit or loss;
+/// February's, GBP 1,000 at 1.00 -> 1.25 GBP per EUR = 1,000.00 -> 800.00, a loss of
+/// 200.00, goes to OCI. Invented figures, by hand.
+#[test]
+fn net_investment_designated_during_the_year_moves_only_the_later_months() {
+    let f = net_investment_group(true);
+    f.replace("entities/net_investment.csv", "2025-01-01", "2026-02-01");
+    f.append("entities/P/tb-2026-01.movements.csv", "2026-02,1600,-200.00,S,GBP,0.00");
+    f.append("entities/P/tb-2026-01.movements.csv", "2026-02,7100,200.00,S,,");
+    f.append("entities/S/tb-2026-01.movements.csv", "2026-02,1000,0.00");
+    f.append("rates/monthly.csv", "2026-02,GBP,1.25,1.10,units_per_presentation");
+    let jan = close(&f, "2026-01");
+    assert_eq!(tb(&jan, "7100"), d("250.00"));
+    assert_eq!(tb(&jan, "8100"), d("0"));
+    let feb = close(&f, "2026-02");
+    assert_eq!(tb(&feb, "7100"), d("250.00"));
+    assert_eq!(tb(&feb, "8100"), d("200.00"));
+}
