@@ -14,8 +14,11 @@
 //!   intragroup dividends against the payer's retained earnings; results before the
 //!   acquisition date into pre-acquisition equity; the investment against the equity at
 //!   acquisition with goodwill (IFRS 3.32) held in the subsidiary's currency at the
-//!   closing rate (IAS 21.47); the equity method (IAS 28.10); and the NCI's share of
-//!   post-acquisition equity, multi-tier through effective interests.
+//!   closing rate (IAS 21.47); the equity method (IAS 28.10); the exchange difference on
+//!   a loan that is part of a net investment, from profit or loss to OCI (IAS 21.32); the
+//!   IFRIC 16 step-by-step attribution of translation differences between operations;
+//!   and the NCI's share of post-acquisition equity, multi-tier through effective
+//!   interests.
 //! - `roll_up`: contributions plus eliminations, per group account.
 //!
 //! Close knows nothing about files.
@@ -76,6 +79,22 @@ pub struct NciRow {
     pub equity: Decimal,
 }
 
+/// The translation reserve of one consolidated foreign operation at the period end
+/// (IFRIC 16.17), gains (credits) positive, before the NCI's share: what was brought
+/// forward (as delivered in the opening balances), the year's differences that belong to
+/// the operation under the group's method, and their sum, the amount IAS 21.48 would
+/// reclassify to profit or loss on its disposal. It covers the operation's own
+/// translated figures; the exchange difference on its goodwill (IAS 21.47) is in its
+/// `investment_and_goodwill` entry.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct OperationReserveRow {
+    pub operation: EntityId,
+    pub method: Ifric16Method,
+    pub brought_forward: Decimal,
+    pub year: Decimal,
+    pub reserve: Decimal,
+}
+
 /// A close on year-to-date balances at one period end.
 pub struct Close {
     pub period: Period,
@@ -85,6 +104,8 @@ pub struct Close {
     /// Group account -> amount (debit positive).
     pub group: BTreeMap<GroupAccount, Decimal>,
     pub nci: Vec<NciRow>,
+    /// The translation reserve per consolidated foreign operation.
+    pub reserves: Vec<OperationReserveRow>,
     pub findings: Vec<crate::findings::Finding>,
 }
 
@@ -302,6 +323,118 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             vec![line(&acct, &receiver, Some(&payer), -amount), line(&roles.retained_earnings, &payer, None, amount)],
         );
     }
+
+    // 2a. IFRIC 16 step by step: the part of an indirect operation's translation
+    //     difference that arises on retranslating its intermediate-currency figures
+    //     belongs to the intermediate parent's operation (IFRIC 16.17). The entry moves it
+    //     in OCI from the entity to its intermediate parent; group totals do not change.
+    let split = crate::translate::reserves_by_operation(ds, t, &s.immediate_parents())?;
+    let year_parts: Vec<&crate::translate::OperationReserve> =
+        split.iter().filter(|r| r.period >= fiscal_start && r.period <= period).collect();
+    let full: BTreeSet<&EntityId> = s.entities().iter().filter(|e| e.method == Method::Full).map(|e| &e.id).collect();
+    let mut moved: BTreeMap<(EntityId, EntityId), Decimal> = BTreeMap::new();
+    for r in year_parts.iter().filter(|r| r.operation != r.entity) {
+        *moved.entry((r.entity.clone(), r.operation.clone())).or_default() += r.amount;
+    }
+    for ((entity, operation), amount) in &moved {
+        if !full.contains(entity) || !full.contains(operation) {
+            continue;
+        }
+        // Gains are credits: the intermediate parent takes the credit off the entity.
+        j.post(
+            "ifric16_step_by_step",
+            lcp(entity, operation),
+            vec![entity.clone(), operation.clone()],
+            format!(
+                "translation difference of {entity} on retranslating its figures in {}'s currency belongs to {operation}'s operation: {}",
+                operation,
+                money::format_amount(*amount, minor)
+            ),
+            vec![
+                line(&roles.translation_difference, entity, None, *amount),
+                line(&roles.translation_difference, operation, None, -*amount),
+            ],
+        );
+    }
+    // 2a'. Monetary items that form part of the net investment in a foreign operation
+    //     (IAS 21.32): the exchange difference the entity booked in profit or loss on the
+    //     item stays there in its own accounts and survived the elimination of the item
+    //     (IAS 21.45); in the group it is recognised in OCI and accumulated in the
+    //     translation reserve. Only the part since the designation date is moved.
+    for n in &ds.net_investments {
+        if !consolidated.contains(&n.entity) || !consolidated.contains(&n.counterparty) {
+            continue;
+        }
+        let from = Period::of_date(n.from);
+        if from > period {
+            continue;
+        }
+        let key = (n.fx_account.clone(), Some(n.counterparty.clone()));
+        let ytd = bal.get(&n.entity).and_then(|m| m.get(&key)).copied().unwrap_or_default();
+        let before = if from > fiscal_start {
+            let b = aggregate(ds, t, s, from.prev()).and_then(|c| balances(&c))?;
+            b.get(&n.entity).and_then(|m| m.get(&key)).copied().unwrap_or_default()
+        } else {
+            Decimal::ZERO
+        };
+        let amount = ytd - before;
+        j.post(
+            "net_investment_fx",
+            lcp(&n.entity, &n.counterparty),
+            vec![n.entity.clone(), n.counterparty.clone()],
+            format!(
+                "exchange difference of {} on {} with {} (net investment since {}, {}:{}): {} from {} to OCI (IAS 21.32)",
+                n.entity,
+                n.account,
+                n.counterparty,
+                n.from,
+                n.source.file,
+                n.source.line.unwrap_or(0),
+                money::format_amount(-amount, minor),
+                n.fx_account
+            ),
+            vec![
+                line(&n.fx_account, &n.entity, Some(&n.counterparty), -amount),
+                line(&roles.translation_difference, &n.entity, Some(&n.counterparty), amount),
+            ],
+        );
+    }
+
+    let p0_index = period_index(fiscal_start.prev());
+    let mut brought_forward: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    {
+        let ent = crate::money::column_strings(&t.differences, "entity")?;
+        let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+        let td = column_decimals(t.differences.column("translation_difference")?)?;
+        for i in 0..t.differences.height() {
+            if let (Some(e), Some(p)) = (&ent[i], idx[i])
+                && p == p0_index
+            {
+                *brought_forward.entry(EntityId::new(e)).or_default() -= td[i].unwrap_or_default();
+            }
+        }
+    }
+    let mut reserves: BTreeMap<EntityId, (Decimal, Decimal)> = BTreeMap::new();
+    for e in &full {
+        reserves.insert((*e).clone(), (brought_forward.get(*e).copied().unwrap_or_default(), Decimal::ZERO));
+    }
+    for r in &year_parts {
+        // A part whose entity or operation is not consolidated in full stays where it arose.
+        let op = if full.contains(&r.entity) && full.contains(&r.operation) { &r.operation } else { &r.entity };
+        if let Some(slot) = reserves.get_mut(op) {
+            slot.1 += r.amount;
+        }
+    }
+    let reserves: Vec<OperationReserveRow> = reserves
+        .into_iter()
+        .map(|(operation, (bf, year))| OperationReserveRow {
+            operation,
+            method: ds.settings.policies.ifric16,
+            brought_forward: money::unsigned_zero(bf),
+            year: money::unsigned_zero(year),
+            reserve: money::unsigned_zero(bf + year),
+        })
+        .collect();
 
     let rate_of =
         |c: Currency, p: Period| ds.rates.iter().find(|r| r.currency == c && r.period == p).map(|r| r.closing);
@@ -613,7 +746,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let pre_results = |st: Statement| -> Decimal {
             journal_so_far
                 .iter()
-                .filter(|x| x.rule == "pre_acquisition_results" || x.rule == "unrealised_profit")
+                .filter(|x| matches!(x.rule, "pre_acquisition_results" | "unrealised_profit" | "net_investment_fx"))
                 .flat_map(|x| x.lines.iter())
                 .filter(|l| l.entity == e.id && chart.get(&l.account).is_some_and(|d| d.statement == st))
                 .map(|l| l.amount)
@@ -657,7 +790,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     // Roll-up: contributions plus eliminations, per account.
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, findings })
+    Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, reserves, findings })
 }
 
 /// One entity's translated balances by group account at `period`, translation

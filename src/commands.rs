@@ -101,8 +101,12 @@ pub fn translate(
     }
     let translated = crate::translate::translate(&ds, &mapped, scope.fiscal_start, scope.period)?;
     let checks = crate::translate::prove(&translated)?;
+    let parents = group_structure(&ds, scope.period).immediate_parents();
+    let reserves = crate::translate::reserves_by_operation(&ds, &translated, &parents)?;
     let text = report::translation::render(
         &translated,
+        &reserves,
+        ds.settings.policies.ifric16,
         scope.period,
         scope.fiscal_start,
         ds.settings.presentation_currency.code(),
@@ -432,6 +436,7 @@ pub fn close(
         },
         eliminations: &c.close.journal,
         nci: &c.close.nci,
+        translation_reserves: &c.close.reserves,
         findings: &c.close.findings,
         caution: report::CAUTION,
     };

@@ -504,3 +504,21 @@ pub struct InventoryProfit {
     pub margin_rate: Decimal,
     pub source: Source,
 }
+
+/// An intragroup monetary item designated part of the net investment in a foreign
+/// operation (IAS 21.15, 21.32), from `entities/net_investment.csv`: one side of it, in
+/// the books of `entity`, whose exchange difference is booked in profit or loss on
+/// `fx_account` (with the counterparty on the line) and belongs in OCI in the group.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct NetInvestment {
+    pub entity: EntityId,
+    pub counterparty: EntityId,
+    /// The group account of the item (a loan to or from the counterparty).
+    pub account: GroupAccount,
+    /// The profit or loss group account holding the item's exchange difference.
+    pub fx_account: GroupAccount,
+    /// The date from which settlement is neither planned nor likely.
+    pub from: NaiveDate,
+    pub note: String,
+    pub source: Source,
+}

@@ -72,6 +72,12 @@ pub fn round(d: Decimal, decimals: u32, mode: RoundingMode) -> Decimal {
     r
 }
 
+/// `d`, with a zero always unsigned: rust_decimal keeps the sign of a negated zero, which
+/// would print as "-0.00".
+pub fn unsigned_zero(d: Decimal) -> Decimal {
+    if d.is_zero() { d.abs() } else { d }
+}
+
 /// The polars rounding mode matching a group rounding mode.
 pub fn polars_round_mode(mode: RoundingMode) -> RoundMode {
     match mode {

@@ -259,6 +259,12 @@ impl GroupStructure {
         self.index.get(id).map(|&i| &self.entities[i])
     }
 
+    /// Each controlled entity's immediate parent: the intermediate parent through whose
+    /// currency IFRIC 16's step-by-step method translates it.
+    pub fn immediate_parents(&self) -> std::collections::BTreeMap<EntityId, EntityId> {
+        self.entities.iter().filter_map(|e| e.immediate_parent.clone().map(|p| (e.id.clone(), p))).collect()
+    }
+
     /// The lowest entity of the control tree that is an ancestor-or-self of both `a` and
     /// `b`: where an elimination between them is posted, so that every sub-group's
     /// statements are right on their own. `None` when either is outside the control tree

@@ -16,6 +16,18 @@
 //! Each translated balance is rounded once, to the presentation currency's minor unit,
 //! with the group's rounding mode; the residue lands in the translation difference
 //! (21.39c), never dropped. Translate knows nothing about files.
+//!
+//! Indirect foreign operations (IFRIC 16.17): the translated lines are the same under
+//! both methods (the direct figures), so that assets, liabilities, profit and the total
+//! translation reserve agree exactly; `reserves_by_operation` then says which foreign
+//! operation each part of a translation difference belongs to. Under `direct` an
+//! entity's whole difference is its own. Under `step_by_step` the entity is first
+//! translated into its intermediate parent's functional currency: the difference that
+//! arises there is the entity's own (translated into the presentation currency at the
+//! intermediate currency's average rate of the month, as an OCI item of the
+//! intermediate parent), and the rest, the retranslation of those intermediate-currency
+//! figures into the presentation currency, belongs to the intermediate parent's
+//! operation. That split is what IAS 21.48 would recycle on a disposal.
 
 use std::collections::BTreeMap;
 
@@ -47,6 +59,7 @@ pub struct Translated {
     pub differences: DataFrame,
     pub explanations: Vec<Explanation>,
     pub minor: u32,
+    pub fiscal_start: Period,
 }
 
 /// Why an entity's translation difference of a month is what it is (IAS 21.41 split).
@@ -301,7 +314,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         .sort(["entity", "period_index"], SortMultipleOptions::default())
         .collect()?;
     let explanations = explain(ds, &lines, &differences, fiscal_start, last, minor as u32)?;
-    Ok(Translated { lines, differences, explanations, minor: minor as u32 })
+    Ok(Translated { lines, differences, explanations, minor: minor as u32, fiscal_start })
 }
 
 /// Splits each translation difference of a month into its causes (IAS 21.41):
@@ -447,8 +460,186 @@ fn profit_unrounded(
     }
 }
 
-/// Historical-basis movements per entity and period, by group account.
-/// Movements by group account, per (entity, period index).
+/// The part of an entity's translation difference of a month that belongs to one
+/// foreign operation (IFRIC 16.17). Gains positive, presentation currency; the parts of
+/// one entity and month add up exactly to its `Explanation::total`.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct OperationReserve {
+    /// The entity whose translated figures give rise to the difference.
+    pub entity: EntityId,
+    /// The foreign operation whose reserve it is: the entity itself, or under
+    /// step by step its intermediate parent.
+    pub operation: EntityId,
+    pub period: Period,
+    /// `direct` or `step_by_step`: the method applied to this entity and month (step by
+    /// step falls back to direct where there is no intermediate currency, see
+    /// `reserves_by_operation`).
+    pub method: &'static str,
+    pub amount: Decimal,
+    /// Under step by step, the entity's own difference in the intermediate parent's
+    /// currency, rounded to its minor unit, before it is translated.
+    pub intermediate_currency: Option<Currency>,
+    pub amount_intermediate: Option<Decimal>,
+}
+
+/// Splits every explained translation difference into the foreign operations it belongs
+/// to under the group's IFRIC 16 policy. `parents` gives each entity's immediate parent
+/// as `structure` decided it.
+///
+/// Step by step applies to an entity with a parent whose functional currency differs
+/// from the presentation currency and is not hyperinflationary; for the rest the method
+/// makes no difference and the whole difference stays with the entity. The intermediate
+/// parent's part goes to the highest parent of the chain that shares its currency (a
+/// sub-group in one currency is translated as one block); a chain of three or more
+/// different currencies is followed one tier: the part of the intermediate currency's
+/// retranslation is not split further between the upper tiers. The entity's
+/// figures reach the intermediate currency through the presentation currency (an amount
+/// x its rate, then divided by the intermediate currency's rate of the same kind), so no
+/// cross rate is stored or rounded; the rates of the files are all quoted against the
+/// presentation currency and the cross rate they imply is used exactly (rust_decimal's 28
+/// digits). Income goes at the cross of the two averages; an equity movement at its
+/// historical rate into the presentation currency, then at the intermediate currency's
+/// average of the month (the files hold no intermediate rate of that date). The entity's
+/// own part is rounded twice, to the intermediate currency's minor unit and then to the
+/// presentation currency's; the intermediate parent's part is the remainder, so it
+/// carries that rounding and the parts add up to the difference exactly.
+pub fn reserves_by_operation(
+    ds: &Dataset,
+    t: &Translated,
+    parents: &BTreeMap<EntityId, EntityId>,
+) -> PolarsResult<Vec<OperationReserve>> {
+    let _span = tracing::info_span!("reserves_by_operation").entered();
+    let pres = ds.settings.presentation_currency;
+    let mode = ds.settings.policies.rounding;
+    let step = ds.settings.policies.ifric16 == Ifric16Method::StepByStep;
+    let ytd_policy = ds.settings.policies.income_translation == IncomeTranslation::YearToDate;
+    let rates: BTreeMap<(Currency, Period), &crate::load::MonthlyRate> =
+        ds.rates.iter().map(|r| ((r.currency, r.period), r)).collect();
+    let hist: BTreeMap<(&str, &str, Period), Rate> =
+        ds.historical_rates.iter().map(|h| ((h.entity.as_str(), h.account.as_str(), h.period), h.rate)).collect();
+    let hist_moves = if step { historical_moves(&t.lines)? } else { BTreeMap::new() };
+    let mut out = Vec::new();
+    // Year-to-date profit in local currency before each month, per entity.
+    let mut ytd_profit: BTreeMap<&EntityId, Decimal> = BTreeMap::new();
+    for x in &t.explanations {
+        let before = ytd_profit.get(&x.entity).copied().unwrap_or_default();
+        ytd_profit.insert(&x.entity, before + x.profit_local);
+        let direct = || OperationReserve {
+            entity: x.entity.clone(),
+            operation: x.entity.clone(),
+            period: x.period,
+            method: "direct",
+            amount: money::unsigned_zero(x.total),
+            intermediate_currency: None,
+            amount_intermediate: None,
+        };
+        let hyper = |e: &EntityId| ds.entity(e).and_then(|e| e.hyperinflationary_from).is_some_and(|h| h <= x.period);
+        let parent = parents.get(&x.entity).and_then(|p| ds.entity(p));
+        let Some(parent) = parent.filter(|p| step && p.currency != pres && x.currency != pres) else {
+            out.push(direct());
+            continue;
+        };
+        if hyper(&x.entity) || hyper(&parent.id) {
+            out.push(direct());
+            continue;
+        }
+        let (p, c_s) = (x.period, parent.currency);
+        let r = |c: Currency, p: Period| rates.get(&(c, p)).copied();
+        let (Some(t_now), Some(t_before), Some(s_now), Some(s_before)) =
+            (r(x.currency, p), r(x.currency, p.prev()), r(c_s, p), r(c_s, p.prev()))
+        else {
+            out.push(direct());
+            continue;
+        };
+        let via = through_presentation;
+        let na = x.opening_net_assets_local;
+        let on_na = via(na, t_now.closing, s_now.closing) - via(na, t_before.closing, s_before.closing);
+        let profit_translated = if ytd_policy {
+            let (Some(ta), Some(sa)) = (t_now.average_ytd, s_now.average_ytd) else {
+                out.push(direct());
+                continue;
+            };
+            let now = via(before + x.profit_local, ta, sa);
+            let was = match (p == t.fiscal_start, t_before.average_ytd, s_before.average_ytd) {
+                (true, _, _) => Decimal::ZERO,
+                (false, Some(tb), Some(sb)) => via(before, tb, sb),
+                _ => {
+                    out.push(direct());
+                    continue;
+                }
+            };
+            now - was
+        } else {
+            via(x.profit_local, t_now.average, s_now.average)
+        };
+        let on_profit = via(x.profit_local, t_now.closing, s_now.closing) - profit_translated;
+        let mut equity_translated = Decimal::ZERO;
+        for (acct, m) in hist_moves.get(&(x.entity.to_string(), period_index(p))).into_iter().flatten() {
+            if let Some(h) = hist.get(&(x.entity.as_str(), acct.as_str(), p)) {
+                equity_translated += through_presentation(-*m, *h, s_now.average);
+            }
+        }
+        let on_equity = via(x.equity_movements_local, t_now.closing, s_now.closing) - equity_translated;
+        let own_intermediate = money::round(on_na + on_profit + on_equity, c_s.minor_unit(), mode);
+        let own = money::round(s_now.average.apply(own_intermediate), t.minor, mode);
+        out.push(OperationReserve {
+            method: "step_by_step",
+            amount: own,
+            intermediate_currency: Some(c_s),
+            amount_intermediate: Some(own_intermediate),
+            ..direct()
+        });
+        out.push(OperationReserve {
+            operation: top_of_currency(ds, parents, &parent.id),
+            method: "step_by_step",
+            amount: x.total - own,
+            ..direct()
+        });
+    }
+    Ok(out)
+}
+
+/// The operation that retranslates an intermediate parent's figures into another
+/// currency: the intermediate parent itself, or, where it sits inside a chain of parents
+/// with the same functional currency, the highest of them, whose own parent's currency
+/// differs (the sub-group translated as one block).
+fn top_of_currency(ds: &Dataset, parents: &BTreeMap<EntityId, EntityId>, from: &EntityId) -> EntityId {
+    let currency = |e: &EntityId| ds.entity(e).map(|x| x.currency);
+    let mut op = from.clone();
+    // The control tree has no cycles; the bound only guards against a broken map.
+    for _ in 0..parents.len() {
+        match parents.get(&op) {
+            Some(up) if currency(up) == currency(from) => op = up.clone(),
+            _ => break,
+        }
+    }
+    op
+}
+
+/// `amount` of one currency in another, through the presentation currency: at `from`
+/// (the first currency's rate), then back at `to` (the second's), both quoted against
+/// the presentation currency. The factors that multiply are applied first and the one
+/// division last, so no intermediate quotient is rounded: while the amount times the
+/// multiplying rates fits rust_decimal's 28 significant digits (amounts below 10^6 with
+/// rates of 4 decimals below 100, as the unit test below checks against exact
+/// rationals), the result rounds to the minor unit exactly as the true value does, ties
+/// included. Beyond that rust_decimal rounds the product at its 28th digit, which can
+/// only matter for a value within about 10^-16 of a tie; in the IFRIC 16 split it would
+/// move one minor unit between an entity's part and its parent's, never the total.
+pub fn through_presentation(amount: Decimal, from: Rate, to: Rate) -> Decimal {
+    let (mut num, mut den) = (amount, Decimal::ONE);
+    match from.quote {
+        Quote::PresentationPerUnit => num *= from.value,
+        Quote::UnitsPerPresentation => den *= from.value,
+    }
+    match to.quote {
+        Quote::PresentationPerUnit => den *= to.value,
+        Quote::UnitsPerPresentation => num *= to.value,
+    }
+    num / den
+}
+
+/// Historical-basis movements by group account, per (entity, period index).
 type MovesByAccount = BTreeMap<(String, i32), Vec<(String, Decimal)>>;
 
 fn historical_moves(lines: &DataFrame) -> PolarsResult<MovesByAccount> {
@@ -550,4 +741,78 @@ pub fn prove(t: &Translated) -> PolarsResult<Vec<crate::proof::Check>> {
             },
         ),
     ])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use num_bigint::BigInt;
+    use num_rational::BigRational;
+    use proptest::prelude::*;
+
+    fn exact(d: Decimal) -> BigRational {
+        BigRational::new(BigInt::from(d.mantissa()), BigInt::from(10).pow(d.scale()))
+    }
+
+    /// Rounds a rational half away from zero to `dp` decimals (the oracle).
+    fn round_exact(x: &BigRational, dp: u32) -> BigRational {
+        let unit = BigRational::from_integer(BigInt::from(10).pow(dp));
+        let scaled = x * &unit;
+        let half = BigRational::new(BigInt::from(1), BigInt::from(2));
+        let r = if scaled >= BigRational::from_integer(BigInt::from(0)) {
+            (scaled + half).floor()
+        } else {
+            (scaled - half).ceil()
+        };
+        r / unit
+    }
+
+    fn rate(value: Decimal, per_unit: bool) -> Rate {
+        Rate { value, quote: if per_unit { Quote::PresentationPerUnit } else { Quote::UnitsPerPresentation } }
+    }
+
+    // The cross rate through the presentation currency, rounded once to the minor
+    // unit, equals the exact rational value rounded once (num-rational as the oracle),
+    // ties included: amounts of 3 decimals below 10^6, rates of 4 decimals below 100.
+    // Coarse rates (quarters) make exact ties frequent.
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(2000))]
+        #[test]
+        fn cross_through_presentation_rounds_like_the_exact_value(
+            amount in -1_000_000_000i64..1_000_000_000i64,
+            from in prop_oneof![1i64..=400i64, 1i64..=1_000_000i64],
+            to in prop_oneof![1i64..=400i64, 1i64..=1_000_000i64],
+            coarse in any::<(bool, bool)>(),
+            fq in any::<bool>(),
+            tq in any::<bool>(),
+            dp in 0u32..=3,
+        ) {
+            let amount = Decimal::new(amount, 3);
+            // Coarse: n/4 written with 2 decimals; fine: 4 decimals.
+            let fv = if coarse.0 { Decimal::new(from.min(400) * 25, 2) } else { Decimal::new(from, 4) };
+            let tv = if coarse.1 { Decimal::new(to.min(400) * 25, 2) } else { Decimal::new(to, 4) };
+            let (f, t) = (rate(fv, fq), rate(tv, tq));
+            let got = money::round(through_presentation(amount, f, t), dp, RoundingMode::HalfAwayFromZero);
+            let x = exact(amount);
+            let pres = if fq { x * exact(fv) } else { x / exact(fv) };
+            let other = if tq { pres / exact(tv) } else { pres * exact(tv) };
+            prop_assert_eq!(exact(got), round_exact(&other, dp));
+        }
+    }
+
+    #[test]
+    fn a_tie_through_a_non_terminating_quotient_stays_a_tie() {
+        // USD 0.07 at 2.1 USD per EUR is EUR 0.0333... (1/30); at 0.15 GBP per EUR that
+        // is GBP 0.005 exactly, a tie at the penny. A cross rate stored at the files' 10
+        // decimals, 0.15 / 2.1 = 0.0714285714, would give 0.004999999998 and round the
+        // tie down.
+        let got = through_presentation(
+            Decimal::new(7, 2),
+            rate(Decimal::new(21, 1), false),
+            rate(Decimal::new(15, 2), false),
+        );
+        assert_eq!(got, Decimal::new(5, 3));
+        assert_eq!(money::round(got, 2, RoundingMode::HalfAwayFromZero), Decimal::new(1, 2));
+        assert_eq!(money::round(got, 2, RoundingMode::HalfEven), Decimal::new(0, 2));
+    }
 }

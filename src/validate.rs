@@ -55,6 +55,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_opening(ds, &mut f)?;
     check_rates(ds, mapped, scope, &mut f)?;
     check_documents(ds, &mut f)?;
+    check_net_investments(ds, &mut f);
     let mut layout_findings = Vec::new();
     crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -752,4 +753,91 @@ fn check_documents(ds: &Dataset, f: &mut Vec<Finding>) -> PolarsResult<()> {
         );
     }
     Ok(())
+}
+
+/// The rows of `entities/net_investment.csv` (IAS 21.32): known, distinct entities; the
+/// item a balance-sheet account; its exchange difference a profit or loss account that
+/// is not itself eliminated as intercompany (IAS 21.45: the difference survives
+/// elimination); each item designated once.
+fn check_net_investments(ds: &Dataset, f: &mut Vec<Finding>) {
+    let mut seen: BTreeMap<(&EntityId, &EntityId, &GroupAccount), u64> = BTreeMap::new();
+    for n in &ds.net_investments {
+        let at =
+            |rule: Rule, msg: String, action: &str| Finding::new(rule, msg, action).at(&n.source).entity(&n.entity);
+        for e in [&n.entity, &n.counterparty] {
+            if ds.entity(e).is_none() {
+                f.push(at(
+                    Rule::EntityUnknown,
+                    format!("net investment item names {e}, which is not in entities.csv"),
+                    "correct the entity id, or add the entity to entities/entities.csv",
+                ));
+            }
+        }
+        if n.entity == n.counterparty {
+            f.push(at(
+                Rule::CounterpartySelf,
+                format!("the net investment item of {} names {} as its own counterparty", n.entity, n.entity),
+                "name the foreign operation on the other side of the loan",
+            ));
+        }
+        match ds.account(&n.account) {
+            None => f.push(
+                at(
+                    Rule::AccountUnknown,
+                    format!("net investment item account {} is not in accounts.csv", n.account),
+                    "name the group account of the loan",
+                )
+                .account(n.account.as_str()),
+            ),
+            Some(a)
+                if a.statement != Statement::BalanceSheet
+                    || !matches!(a.class, AccountClass::Asset | AccountClass::Liability) =>
+            {
+                f.push(
+                    at(
+                        Rule::AccountInvalid,
+                        format!(
+                            "net investment item account {} is not an asset or liability of the balance sheet",
+                            n.account
+                        ),
+                        "name the monetary item itself: the loan receivable or payable (IAS 21.15)",
+                    )
+                    .account(n.account.as_str()),
+                )
+            }
+            _ => {}
+        }
+        match ds.account(&n.fx_account) {
+            None => f.push(
+                at(
+                    Rule::AccountUnknown,
+                    format!("fx_account {} is not in accounts.csv", n.fx_account),
+                    "name the profit or loss group account of the item's exchange difference",
+                )
+                .account(n.fx_account.as_str()),
+            ),
+            Some(a) if a.statement != Statement::ProfitOrLoss || a.ic_kind.is_some() => f.push(
+                at(
+                    Rule::AccountInvalid,
+                    format!(
+                        "fx_account {} must be a profit or loss account without an intercompany kind, to hold the item's exchange difference",
+                        n.fx_account
+                    ),
+                    "name the account where the entity books the exchange difference on the loan, e.g. exchange differences",
+                )
+                .account(n.fx_account.as_str()),
+            ),
+            _ => {}
+        }
+        if let Some(first) = seen.insert((&n.entity, &n.counterparty, &n.account), n.source.line.unwrap_or(0)) {
+            f.push(at(
+                Rule::RowDuplicated,
+                format!(
+                    "{} -> {} on {} is designated twice (first on line {first})",
+                    n.entity, n.counterparty, n.account
+                ),
+                "keep one row per item",
+            ));
+        }
+    }
 }

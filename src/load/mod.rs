@@ -125,6 +125,7 @@ pub struct Dataset {
     pub inventory_profits: Vec<InventoryProfit>,
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
+    pub net_investments: Vec<NetInvestment>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
@@ -300,6 +301,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
+    let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -322,6 +324,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             acquisitions,
             inventory_profits,
             segment_accounts,
+            net_investments,
             delivered_entities: delivered,
             documents,
             documented_entities: documented,
@@ -1154,6 +1157,48 @@ fn load_segment_accounts(
             key: key.trim_start_matches("segment_").to_string(),
             segment,
             accounts,
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+/// `entities/net_investment.csv` (optional): intragroup monetary items designated part of
+/// a net investment. Only the shape is checked here; `validate` checks the entities and
+/// accounts named.
+fn load_net_investments(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<NetInvestment> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec {
+        required: &["entity", "counterparty", "account", "fx_account", "from"],
+        optional: &["note"],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let cells = (
+            required(&t, "entity", row, f),
+            required(&t, "counterparty", row, f),
+            required(&t, "account", row, f),
+            required(&t, "fx_account", row, f),
+            required(&t, "from", row, f),
+        );
+        let (Some(entity), Some(counterparty), Some(account), Some(fx_account), Some(from)) = cells else { continue };
+        let Some(from) = parse_date(&t, row, "from", &from, f) else { continue };
+        out.push(NetInvestment {
+            entity: EntityId::new(entity),
+            counterparty: EntityId::new(counterparty),
+            account: GroupAccount::new(account),
+            fx_account: GroupAccount::new(fx_account),
+            from,
+            note: t.get("note", row).unwrap_or_default(),
             source: Source::line(&t.file, t.line(row)),
         });
     }

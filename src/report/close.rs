@@ -10,7 +10,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 use serde::Serialize;
 
-use crate::close::{Entry, NciRow};
+use crate::close::{Entry, NciRow, OperationReserveRow};
 use crate::layout::{LineBody, ResolvedStatement};
 use crate::load::InputFile;
 use crate::model::{GroupAccount, Period};
@@ -84,6 +84,8 @@ pub struct CloseReport<'a> {
     pub attribution: Attribution,
     pub eliminations: &'a [Entry],
     pub nci: &'a [NciRow],
+    /// The translation reserve per consolidated foreign operation (IFRIC 16.17).
+    pub translation_reserves: &'a [OperationReserveRow],
     /// Findings of the close itself (e.g. a bargain purchase to reassess).
     pub findings: &'a [crate::findings::Finding],
     pub caution: &'static str,
@@ -161,6 +163,29 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         *by_rule.entry(e.rule).or_default() += 1;
     }
     out.push_str(&format!(" ({})\n", by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")));
+    if let Some(first) = r.translation_reserves.first() {
+        let method = match first.method {
+            crate::model::Ifric16Method::Direct => "direct",
+            crate::model::Ifric16Method::StepByStep => "step by step",
+        };
+        out.push_str(&format!(
+            "\ntranslation reserve by foreign operation (IFRIC 16, {method} method; before the NCI's share, credits positive)\n"
+        ));
+        let rows: Vec<Vec<String>> = r
+            .translation_reserves
+            .iter()
+            .map(|x| {
+                let mut v = vec![x.operation.to_string()];
+                v.extend([x.brought_forward, x.year, x.reserve].map(|d| format_amount(d, minor)));
+                v
+            })
+            .collect();
+        out.push_str(&super::text_table(
+            &["operation", "brought forward", "year to date", "reserve"],
+            &rows,
+            &[false, true, true, true],
+        ));
+    }
     for f in r.findings {
         out.push_str(&format!("\n{:?} {}: {}\n  what to do: {}\n", f.severity, f.rule, f.message, f.action));
     }
@@ -270,6 +295,26 @@ pub fn write_outputs(
         ],
     )?;
     write_frame(dir, "nci", nci)?;
+    let rs = r.translation_reserves;
+    let reserves = DataFrame::new(
+        rs.len(),
+        vec![
+            Column::new("operation".into(), rs.iter().map(|x| x.operation.to_string()).collect::<Vec<_>>()),
+            Column::new(
+                "method".into(),
+                rs.iter()
+                    .map(|x| match x.method {
+                        crate::model::Ifric16Method::Direct => "direct",
+                        crate::model::Ifric16Method::StepByStep => "step_by_step",
+                    })
+                    .collect::<Vec<_>>(),
+            ),
+            Column::new("brought_forward".into(), rs.iter().map(|x| x.brought_forward.to_string()).collect::<Vec<_>>()),
+            Column::new("year".into(), rs.iter().map(|x| x.year.to_string()).collect::<Vec<_>>()),
+            Column::new("reserve".into(), rs.iter().map(|x| x.reserve.to_string()).collect::<Vec<_>>()),
+        ],
+    )?;
+    write_frame(dir, "translation_reserves", reserves)?;
     let x = explanations;
     let col = |name: &str, f: &dyn Fn(&crate::translate::Explanation) -> String| {
         Column::new(name.into(), x.iter().map(f).collect::<Vec<_>>())

@@ -8,10 +8,11 @@ use rust_decimal::Decimal;
 use serde::Serialize;
 
 use crate::map_accounts::period_index;
+use crate::model::Ifric16Method;
 use crate::model::{EntityId, Period};
 use crate::money::{column_decimals, format_amount};
 use crate::proof::Check;
-use crate::translate::{Explanation, Translated};
+use crate::translate::{Explanation, OperationReserve, Translated};
 
 use super::{CAUTION, Format, csv_line, to_json};
 
@@ -67,7 +68,34 @@ struct EntityReport<'a> {
     currency: String,
     month: Option<&'a Explanation>,
     year_to_date: Split,
+    /// Which foreign operation each part of the difference belongs to.
+    reserves: Vec<ReserveLine>,
     lines: Vec<Line>,
+}
+
+/// One foreign operation's part of an entity's translation difference (IFRIC 16.17).
+#[derive(Serialize)]
+struct ReserveLine {
+    operation: String,
+    method: &'static str,
+    month: Decimal,
+    year_to_date: Decimal,
+    intermediate_currency: Option<String>,
+    /// The month's part in the intermediate currency (step by step only).
+    month_intermediate: Option<Decimal>,
+}
+
+/// The translation reserve of one foreign operation: what was brought forward (as
+/// delivered in the opening balances), the year's differences that belong to it and the
+/// reserve at the period end, gains (credits) positive. Under IAS 21.48 this reserve is
+/// what a disposal of the operation would reclassify to profit or loss.
+#[derive(Serialize)]
+struct OperationLine {
+    operation: String,
+    brought_forward: Decimal,
+    month: Decimal,
+    year_to_date: Decimal,
+    reserve: Decimal,
 }
 
 #[derive(Serialize)]
@@ -82,12 +110,17 @@ struct Report<'a> {
     currency: String,
     gains_positive: &'static str,
     proof: Proof<'a>,
+    ifric16: Ifric16Method,
     entities: Vec<EntityReport<'a>>,
+    reserves_by_operation: Vec<OperationLine>,
     caution: &'static str,
 }
 
+#[allow(clippy::too_many_arguments)]
 pub fn render(
     t: &Translated,
+    reserves: &[OperationReserve],
+    method: Ifric16Method,
     period: Period,
     fiscal_start: Period,
     currency: &str,
@@ -154,15 +187,43 @@ pub fn render(
         {
             ytd.add(&Split::of(x));
         }
-        entities.push(EntityReport { entity: e, currency: ccy, month, year_to_date: ytd, lines });
+        let mut parts: BTreeMap<String, ReserveLine> = BTreeMap::new();
+        for r in reserves.iter().filter(|r| r.entity.as_str() == e && r.period >= fiscal_start && r.period <= period) {
+            let part = parts.entry(r.operation.to_string()).or_insert_with(|| ReserveLine {
+                operation: r.operation.to_string(),
+                method: r.method,
+                month: Decimal::ZERO,
+                year_to_date: Decimal::ZERO,
+                intermediate_currency: None,
+                month_intermediate: None,
+            });
+            part.year_to_date += r.amount;
+            if r.period == period {
+                part.month += r.amount;
+                part.method = r.method;
+                part.intermediate_currency = r.intermediate_currency.map(|c| c.code().to_string());
+                part.month_intermediate = r.amount_intermediate;
+            }
+        }
+        entities.push(EntityReport {
+            entity: e,
+            currency: ccy,
+            month,
+            year_to_date: ytd,
+            reserves: parts.into_values().collect(),
+            lines,
+        });
     }
+    let reserves_by_operation = operation_lines(t, reserves, period, fiscal_start, only)?;
     let tied = crate::proof::tied(checks);
     let report = Report {
         period: period.to_string(),
         currency: currency.to_string(),
         gains_positive: "translation differences are shown gains positive (a credit to OCI)",
         proof: Proof { tied, checks },
+        ifric16: method,
         entities,
+        reserves_by_operation,
         caution: CAUTION,
     };
     Ok(match format {
@@ -209,6 +270,56 @@ pub fn render(
     })
 }
 
+/// Per foreign operation: the reserve brought forward (the entity's opening translation
+/// difference, as delivered), and the parts of every entity's differences that belong to
+/// it, for the month and the year.
+fn operation_lines(
+    t: &Translated,
+    reserves: &[OperationReserve],
+    period: Period,
+    fiscal_start: Period,
+    only: Option<&EntityId>,
+) -> PolarsResult<Vec<OperationLine>> {
+    let p0 = period_index(fiscal_start.prev());
+    let ent = crate::money::column_strings(&t.differences, "entity")?;
+    let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+    let td = column_decimals(t.differences.column("translation_difference")?)?;
+    let mut by: BTreeMap<String, OperationLine> = BTreeMap::new();
+    fn slot<'m>(by: &'m mut BTreeMap<String, OperationLine>, op: &str) -> &'m mut OperationLine {
+        by.entry(op.to_string()).or_insert_with(|| OperationLine {
+            operation: op.to_string(),
+            brought_forward: Decimal::ZERO,
+            month: Decimal::ZERO,
+            year_to_date: Decimal::ZERO,
+            reserve: Decimal::ZERO,
+        })
+    }
+    for i in 0..t.differences.height() {
+        if let (Some(e), Some(p0_here)) = (&ent[i], idx[i])
+            && p0_here == p0
+        {
+            // The difference is debit positive; the reserve is shown gains positive.
+            slot(&mut by, e).brought_forward -= td[i].unwrap_or_default();
+        }
+    }
+    for r in reserves.iter().filter(|r| r.period >= fiscal_start && r.period <= period) {
+        let line = slot(&mut by, r.operation.as_str());
+        line.year_to_date += r.amount;
+        if r.period == period {
+            line.month += r.amount;
+        }
+    }
+    let mut out: Vec<OperationLine> =
+        by.into_values().filter(|l| only.is_none_or(|e| e.as_str() == l.operation)).collect();
+    for l in &mut out {
+        l.reserve = l.brought_forward + l.year_to_date;
+        for d in [&mut l.brought_forward, &mut l.month, &mut l.year_to_date, &mut l.reserve] {
+            *d = crate::money::unsigned_zero(*d);
+        }
+    }
+    Ok(out)
+}
+
 fn table(r: &Report<'_>, minor: u32) -> String {
     let mut out = format!("translation into {} for {}\n\n", r.currency, r.period);
     let head = [
@@ -236,6 +347,25 @@ fn table(r: &Report<'_>, minor: u32) -> String {
     let ytd: Vec<Vec<String>> = r.entities.iter().map(|e| row(e, &e.year_to_date)).collect();
     out.push_str("\nyear to date\n");
     out.push_str(&super::text_table(&head, &ytd, &right));
+    let method = match r.ifric16 {
+        Ifric16Method::Direct => "direct",
+        Ifric16Method::StepByStep => "step by step",
+    };
+    out.push_str(&format!("\ntranslation reserve by foreign operation (IFRIC 16, {method} method; gains positive)\n"));
+    let ops: Vec<Vec<String>> = r
+        .reserves_by_operation
+        .iter()
+        .map(|l| {
+            let mut v = vec![l.operation.clone()];
+            v.extend([l.brought_forward, l.month, l.year_to_date, l.reserve].map(|d| format_amount(d, minor)));
+            v
+        })
+        .collect();
+    out.push_str(&super::text_table(
+        &["operation", "brought forward", "month", "year to date", "reserve"],
+        &ops,
+        &[false, true, true, true, true],
+    ));
     out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
     out.push_str(&format!("\n{CAUTION}\n"));
     out

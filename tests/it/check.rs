@@ -218,3 +218,30 @@ fn all_findings_come_in_one_run() {
         assert!(fs.iter().any(|x| x["rule"] == rule), "{rule} missing: {fs:#?}");
     }
 }
+
+/// `entities/net_investment.csv` rows are checked together: an unknown counterparty, an
+/// exchange-difference account that is not profit or loss, an item designated twice.
+#[test]
+fn net_investment_designations_are_checked() {
+    let f = Folder::demo();
+    let file = "entities/net_investment.csv";
+    f.write(
+        file,
+        "entity,counterparty,account,fx_account,from,note\n\
+         ALD-NL,ALD-UK,1400,7350,2026-01-01,\n\
+         ALD-NL,NOPE,1400,7350,2026-01-01,\n\
+         ALD-NL,ALD-US,1400,1800,2026-01-01,\n\
+         ALD-NL,ALD-UK,1400,7350,2026-01-01,again\n",
+    );
+    let (code, fs) = check(&f);
+    assert_eq!(code, 1);
+    let x = one(&fs, "EntityUnknown");
+    at(x, file, Some(3));
+    assert!(x["message"].as_str().unwrap().contains("NOPE"), "{x:#}");
+    let x = one(&fs, "AccountInvalid");
+    at(x, file, Some(4));
+    assert_eq!(x["account"], "1800");
+    let x = one(&fs, "RowDuplicated");
+    at(x, file, Some(5));
+    assert!(x["message"].as_str().unwrap().contains("first on line 2"), "{x:#}");
+}

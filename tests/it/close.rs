@@ -291,3 +291,139 @@ fn foreign_goodwill_at_closing_rate_with_its_exchange_difference() {
         }
     }
 }
+
+/// A loan that forms part of the net investment in a foreign operation (IAS 21.15,
+/// 21.32-33). A textbook-style case from memory, figures invented: a EUR parent lends its
+/// UK subsidiary GBP 1,000, settlement neither planned nor likely. GBP per EUR 0.80 at
+/// the opening, 1.00 at January's close. The parent remeasures the GBP receivable:
+/// 1,000 / 0.80 = 1,250.00 -> 1,000 / 1.00 = 1,000.00, a loss of 250.00 in its profit or
+/// loss (account 7100, counterparty S). The subsidiary's loan is in its own currency: no
+/// difference there. In the group the loan is eliminated (1,000.00 on both sides) but
+/// the 250.00 is not (IAS 21.45): without the designation it stays in the group's profit
+/// or loss; designated, the close moves it to OCI (IAS 21.32), where it accumulates in
+/// the translation reserve. Total comprehensive income is the same either way.
+fn net_investment_group(designated: bool) -> Folder {
+    let f = Folder::empty();
+    f.write("entities/group.toml", &settings("EUR", "P", "half_away_from_zero", "periodic"));
+    f.write("entities/entities.csv", "entity,name,country,currency\nP,Parent,NL,EUR\nS,Subsidiary,GB,GBP\n");
+    f.write("entities/holdings.csv", "owner,owned,capital_share,voting_share,valid_from\nP,S,1,1,2020-01-01\n");
+    let chart = format!("{CHART}7100,Exchange differences,profit_or_loss,expense,average,,\n");
+    f.write("entities/accounts.csv", &chart);
+    f.write("entities/layouts.csv", &LAYOUT.replace("5000..5199 6950", "5000..5199 6950 7100"));
+    let mut mapping = identity_mapping();
+    mapping.push_str("7100,,7100\n");
+    for e in ["P", "S"] {
+        f.write(&format!("entities/{e}/mapping.csv"), &mapping);
+    }
+    f.write(
+        "entities/P/opening.csv",
+        "account,amount,counterparty,txn_currency,txn_amount,amount_presentation\n\
+         1000,100.00,,,,\n1600,1250.00,S,GBP,1000.00,\n3000,-1350.00,,,,-1350.00\n",
+    );
+    f.write(
+        "entities/P/tb-2026-01.movements.csv",
+        "period,account,amount,counterparty,txn_currency,txn_amount\n\
+         2026-01,1600,-250.00,S,GBP,0.00\n2026-01,7100,250.00,S,,\n",
+    );
+    f.write(
+        "entities/S/opening.csv",
+        "account,amount,counterparty,txn_currency,txn_amount,amount_presentation\n\
+         1000,1000.00,,,,\n2600,-1000.00,P,GBP,-1000.00,\n",
+    );
+    f.write("entities/S/tb-2026-01.movements.csv", "period,account,amount\n2026-01,1000,0.00\n");
+    f.write(
+        "rates/monthly.csv",
+        "period,currency,closing,average,quote\n2025-12,GBP,0.80,0.80,units_per_presentation\n\
+         2026-01,GBP,1.00,0.90,units_per_presentation\n",
+    );
+    if designated {
+        f.write(
+            "entities/net_investment.csv",
+            "entity,counterparty,account,fx_account,from,note\nP,S,1600,7100,2025-01-01,no settlement planned\n",
+        );
+    }
+    f
+}
+
+#[test]
+fn net_investment_loan_exchange_difference_goes_to_oci_in_the_group() {
+    let plain = close(&net_investment_group(false), "2026-01");
+    // IAS 21.45: the loss survives the elimination of the loan and stays in profit or loss.
+    assert_eq!(tb(&plain, "1600"), d("0"));
+    assert_eq!(tb(&plain, "7100"), d("250.00"));
+    assert_eq!(tb(&plain, "8100"), d("0"));
+    let v = close(&net_investment_group(true), "2026-01");
+    assert_eq!(tb(&v, "7100"), d("0"));
+    assert_eq!(tb(&v, "8100"), d("250.00"));
+    let entries: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "net_investment_fx").collect();
+    assert_eq!(entries.len(), 1, "{entries:#?}");
+    assert_eq!(entries[0]["posted_at"], "P");
+    let lines = entries[0]["lines"].as_array().unwrap();
+    let sum: Decimal = lines.iter().map(|l| l["amount"].as_str().unwrap().parse::<Decimal>().unwrap()).sum();
+    assert_eq!(sum, Decimal::ZERO);
+    // Profit is 250.00 better, OCI 250.00 worse, the sum unchanged (-250.00 in all).
+    assert_eq!(d(plain["attribution"]["profit"].as_str().unwrap()), d("-250.00"));
+    assert_eq!(d(v["attribution"]["profit"].as_str().unwrap()), d("0"));
+    assert_eq!(d(v["attribution"]["oci"].as_str().unwrap()), d("-250.00"));
+    assert_eq!(plain["attribution"]["result_in_equity"], v["attribution"]["result_in_equity"]);
+}
+
+/// The demo under both IFRIC 16 methods (IFRIC 16.17: the method changes which foreign
+/// operation a part of the reserve belongs to, not the consolidated figures): the
+/// group trial balance is identical, the reserves per operation add up to the same
+/// total, and the split differs where an operation sits below a parent in another
+/// currency. BRW-US (USD) is held by ALD-US (USD): under step by step its USD figures
+/// are part of ALD-US's USD sub-group, so none of the year's difference is its own.
+#[test]
+fn demo_under_both_ifric16_methods_has_the_same_group_figures() {
+    let mut runs = Vec::new();
+    for method in ["direct", "step_by_step"] {
+        let f = Folder::demo();
+        f.replace("entities/group.toml", "ifric16 = \"direct\"", &format!("ifric16 = \"{method}\""));
+        let v = close(&f, "2026-12");
+        let reserves: Vec<(String, Decimal, Decimal)> = v["translation_reserves"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| {
+                (
+                    r["operation"].as_str().unwrap().to_string(),
+                    d(r["year"].as_str().unwrap()),
+                    d(r["reserve"].as_str().unwrap()),
+                )
+            })
+            .collect();
+        runs.push((v["group_trial_balance"].clone(), reserves, v["attribution"]["oci"].clone()));
+    }
+    assert_eq!(runs[0].0, runs[1].0, "group trial balances differ");
+    assert_eq!(runs[0].2, runs[1].2);
+    let total = |r: &[(String, Decimal, Decimal)]| r.iter().map(|x| x.2).sum::<Decimal>();
+    assert_eq!(total(&runs[0].1), total(&runs[1].1));
+    let year = |r: &[(String, Decimal, Decimal)], e: &str| r.iter().find(|x| x.0 == e).map(|x| x.1).unwrap();
+    assert!(!year(&runs[0].1, "BRW-US").is_zero());
+    assert_eq!(year(&runs[1].1, "BRW-US"), Decimal::ZERO);
+    assert_ne!(year(&runs[0].1, "ALD-US"), year(&runs[1].1, "ALD-US"));
+    // Entities without an intermediate parent in another currency keep their reserve.
+    assert_eq!(year(&runs[0].1, "NRD-SE"), year(&runs[1].1, "NRD-SE"));
+}
+
+/// Designated during the year (IAS 21.32 applies from the designation): the same loan
+/// designated from 2026-02-01. January's loss of 250.00 stays in profit or loss;
+/// February's, GBP 1,000 at 1.00 -> 1.25 GBP per EUR = 1,000.00 -> 800.00, a loss of
+/// 200.00, goes to OCI. Invented figures, by hand.
+#[test]
+fn net_investment_designated_during_the_year_moves_only_the_later_months() {
+    let f = net_investment_group(true);
+    f.replace("entities/net_investment.csv", "2025-01-01", "2026-02-01");
+    f.append("entities/P/tb-2026-01.movements.csv", "2026-02,1600,-200.00,S,GBP,0.00");
+    f.append("entities/P/tb-2026-01.movements.csv", "2026-02,7100,200.00,S,,");
+    f.append("entities/S/tb-2026-01.movements.csv", "2026-02,1000,0.00");
+    f.append("rates/monthly.csv", "2026-02,GBP,1.25,1.10,units_per_presentation");
+    let jan = close(&f, "2026-01");
+    assert_eq!(tb(&jan, "7100"), d("250.00"));
+    assert_eq!(tb(&jan, "8100"), d("0"));
+    let feb = close(&f, "2026-02");
+    assert_eq!(tb(&feb, "7100"), d("250.00"));
+    assert_eq!(tb(&feb, "8100"), d("200.00"));
+}

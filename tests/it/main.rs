@@ -3,7 +3,8 @@
 //!
 //! - `support`: building data folders and running commands in-process;
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
-//! - `close`: published consolidation cases as small groups, the demo closing tied, trace;
+//! - `close`: published consolidation cases as small groups, the demo closing tied (under
+//!   both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
@@ -14,7 +15,9 @@
 //! - `structure`: `tessera structure` on the demo and over-held structures;
 //! - `intercompany`: `tessera match` on the demo's deliberate differences, partial
 //!   deliveries, document detail, an IAS 21.45 loan and a property test;
-//! - `translate`: IAS 21 translation against published examples and a property test.
+//! - `translate`: IAS 21 translation against published examples, policies end to end,
+//!   IFRIC 16 on a three-tier group;
+//! - `translate_oracle`: the translation against a naive row-by-row oracle (property test).
 
 mod check;
 mod close;
@@ -26,3 +29,4 @@ mod segments;
 mod structure;
 mod support;
 mod translate;
+mod translate_oracle;
