@@ -483,12 +483,14 @@ pub fn segments(
         return Ok(1);
     };
     let key = by.unwrap_or_else(|| settings.key.clone());
-    let mut keys: Vec<&str> = ds.entities.iter().flat_map(|e| e.segments.iter().map(|(k, _)| k.as_str())).collect();
+    let derived = crate::segments::with_derived_key(&ds.entities, &key);
+    let entities = derived.as_deref().unwrap_or(&ds.entities);
+    let mut keys: Vec<&str> = entities.iter().flat_map(|e| e.segments.iter().map(|(k, _)| k.as_str())).collect();
     keys.sort();
     keys.dedup();
     if !keys.contains(&key.as_str()) {
         return Err(Error::Usage(format!(
-            "no entity has a segment under key {key:?} (a filled-in column segment_{key} of entities.csv); keys in use: {}",
+            "no entity has a segment under key {key:?} (a filled-in column segment_{key} of entities.csv, or region / subregion from the country); keys in use: {}",
             if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
         )));
     }
@@ -496,7 +498,7 @@ pub fn segments(
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     let measures = resolve_measures(settings, &statements, &ds.accounts, "entities/group.toml", &mut findings);
-    let m = Membership::build(&key, &ds.entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
+    let m = Membership::build(&key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
     let country: BTreeMap<crate::model::EntityId, String> =
         ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
     let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);

@@ -99,6 +99,50 @@ impl MeasureKind {
     }
 }
 
+/// Segment keys derived from each entity's country (ISO 3166-1 alpha-2) through the UN
+/// M49 classification of the United Nations Statistics Division, as packaged by the
+/// `keshvar` crate: `region` (Africa, Americas, Asia, Europe, Oceania) and `subregion`
+/// (e.g. Western Europe, Northern America). A `segment_region` or `segment_subregion`
+/// column of the entity file wins over the derived value.
+pub const DERIVED_KEYS: &[&str] = &["region", "subregion"];
+
+/// The UN M49 region or sub-region of a country, as a label ("Northern Europe"); `None`
+/// for a key that is not derived or a code the classification does not place.
+pub fn m49_segment(key: &str, country: &str) -> Option<String> {
+    let c = keshvar::Alpha2::try_from(country).ok()?.to_country();
+    let slug = match key {
+        "region" => c.maybe_region()?.to_string(),
+        "subregion" => c.maybe_subregion()?.to_string(),
+        _ => return None,
+    };
+    // The crate names areas by slug ("australia-and-new-zealand"); shown as words.
+    let words: Vec<String> = slug
+        .split('-')
+        .map(|w| match w {
+            "and" | "of" | "the" => w.to_string(),
+            _ => w[..1].to_uppercase() + &w[1..],
+        })
+        .collect();
+    Some(words.join(" "))
+}
+
+/// The entities with a derived key (see [`DERIVED_KEYS`]) filled in from their country
+/// wherever the entity file does not give it; `None` when `key` is not derived.
+pub fn with_derived_key(entities: &[Entity], key: &str) -> Option<Vec<Entity>> {
+    if !DERIVED_KEYS.contains(&key) {
+        return None;
+    }
+    let mut out = entities.to_vec();
+    for e in &mut out {
+        if e.segments.iter().all(|(k, _)| k != key)
+            && let Some(s) = m49_segment(key, &e.country)
+        {
+            e.segments.push((key.to_string(), s));
+        }
+    }
+    Some(out)
+}
+
 /// A measure resolved to a weight per group account (layout totals flattened).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Measure {
@@ -927,6 +971,52 @@ fn prove(rec: &[ReconciliationLine], attr: &Attribution, group: &Amounts, ew: &E
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Regions and sub-regions of the UN M49 classification (United Nations Statistics
+    /// Division, "Standard country or area codes for statistical use", series M no. 49;
+    /// the placements below are from memory), as the keshvar 0.7.0 crate packages them.
+    #[test]
+    fn m49_regions_of_countries() {
+        let cases = [
+            ("NL", "Europe", "Western Europe"),
+            ("CH", "Europe", "Western Europe"),
+            ("GB", "Europe", "Northern Europe"),
+            ("SE", "Europe", "Northern Europe"),
+            ("PL", "Europe", "Eastern Europe"),
+            ("US", "Americas", "Northern America"),
+            ("MX", "Americas", "Central America"),
+            ("BR", "Americas", "South America"),
+            ("JP", "Asia", "Eastern Asia"),
+            ("BH", "Asia", "Western Asia"),
+            ("IN", "Asia", "Southern Asia"),
+            ("ZA", "Africa", "Southern Africa"),
+            ("AU", "Oceania", "Australia and New Zealand"),
+        ];
+        for (country, region, subregion) in cases {
+            assert_eq!(m49_segment("region", country).as_deref(), Some(region), "{country}");
+            assert_eq!(m49_segment("subregion", country).as_deref(), Some(subregion), "{country}");
+        }
+        assert_eq!(m49_segment("region", "XX"), None, "not an ISO 3166-1 code");
+        assert_eq!(m49_segment("business", "NL"), None, "not a derived key");
+    }
+
+    #[test]
+    fn a_segment_column_wins_over_the_derived_region() {
+        let e = |id: &str, country: &str, segments: Vec<(String, String)>| Entity {
+            id: EntityId::new(id),
+            name: id.to_string(),
+            country: country.to_string(),
+            currency: Currency::parse("EUR").unwrap(),
+            segments,
+            hyperinflationary_from: None,
+            source: Source::line("entities/entities.csv", 2),
+        };
+        let entities = vec![e("A", "NL", vec![("region".into(), "Benelux".into())]), e("B", "JP", vec![])];
+        let out = with_derived_key(&entities, "region").expect("derived key");
+        assert_eq!(out[0].segments, vec![("region".to_string(), "Benelux".to_string())]);
+        assert_eq!(out[1].segments, vec![("region".to_string(), "Asia".to_string())]);
+        assert!(with_derived_key(&entities, "business").is_none());
+    }
     use crate::close::EntryLine;
 
     fn d(x: i64) -> Decimal {

@@ -491,3 +491,36 @@ fn missing_or_wrong_segment_settings_are_findings() {
     assert!(bad["message"].as_str().unwrap().contains("PROFT"), "{bad:#}");
     assert_eq!(bad["file"], "entities/group.toml");
 }
+
+/// `--by region` and `--by subregion` come from the entities' countries through the UN
+/// M49 classification (see `segments::m49_segment`). Each reconciles to the group, and
+/// each region's figures are the sum of its sub-regions'.
+#[test]
+fn demo_by_m49_region_and_subregion() {
+    let data = repo();
+    let mut external: BTreeMap<&str, BTreeMap<String, Decimal>> = BTreeMap::new();
+    for key in ["region", "subregion"] {
+        let (code, v) = run_json(&data, &["segments", "--period", "2026-12", "--by", key]);
+        assert_eq!(code, 0, "{key}: {:#}", v["findings"]);
+        assert_eq!(v["proof"]["tied"], true, "{key}: {:#}", v["proof"]);
+        assert_reconciles(&v);
+        for s in v["segments"].as_array().unwrap() {
+            let name = s["segment"].as_str().unwrap().to_string();
+            external.entry(key).or_default().insert(name, dec(&s["values"]["revenue_external"]));
+        }
+    }
+    let region = &external["region"];
+    let sub = &external["subregion"];
+    let regions: Vec<&str> = region.keys().map(String::as_str).collect();
+    assert_eq!(regions, ["Americas", "Asia", "Europe"]);
+    let parts = [
+        ("Americas", &["Northern America", "Central America"][..]),
+        ("Asia", &["Eastern Asia", "Western Asia"][..]),
+        ("Europe", &["Northern Europe", "Western Europe", "Eastern Europe"][..]),
+    ];
+    for (r, subs) in parts {
+        let sum: Decimal = subs.iter().map(|s| sub.get(*s).copied().unwrap_or_default()).sum();
+        assert_eq!(region[r], sum, "{r} = {subs:?}");
+    }
+    assert_eq!(sub.len(), 7, "{sub:?}");
+}
