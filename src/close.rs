@@ -394,6 +394,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
     }
     let mut pre_acquisition: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // The NCI's exchange difference of the year on its part of full goodwill.
+    let mut nci_goodwill_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(a) = acq.get(&e.id) else {
             if invest.contains_key(&e.id) {
@@ -479,13 +481,35 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         // brought forward to the reserve.
         let opening_period =
             if Period::of_date(a.date) > fiscal_start.prev() { None } else { Some(fiscal_start.prev()) };
+        // The exchange difference is that of the goodwill before impairment: the
+        // impairment is charged at the closing rate, so together they move the carrying
+        // amount from its rate at acquisition to the closing rate exactly.
+        let gross_fc = goodwill_fc + a.impairment;
         let goodwill_fx_year = match opening_period {
-            Some(p0) => goodwill - to_pres(goodwill_fc, p0),
-            None => goodwill - money::round(goodwill_fc * hist, minor, mode),
+            Some(p0) => to_pres(gross_fc, period) - to_pres(gross_fc, p0),
+            None => to_pres(gross_fc, period) - money::round(gross_fc * hist, minor, mode),
         };
         // A fall in goodwill's value in the presentation currency is a loss (a debit).
         lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
         lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year));
+        // Under full goodwill (IFRS 3.19) part of the goodwill is the NCI's: its fair
+        // value less its share of the net assets. The exchange difference on that part
+        // is the NCI's (IAS 21.41), and so is its share of the impairment, allocated on
+        // the same basis as profit (IAS 36.C6): both are moved from the owners' equity
+        // to the NCI.
+        if a.nci_measurement == NciMeasurement::FairValue {
+            let nci_goodwill_fc = nci_fc - outside * a.net_assets;
+            let nci_impairment = to_pres(outside * a.impairment, period);
+            let nci_goodwill_now = to_pres(nci_goodwill_fc, period);
+            let fx_to_date = nci_goodwill_now - money::round(nci_goodwill_fc * hist, minor, mode);
+            let fx_year = match opening_period {
+                Some(p0) => nci_goodwill_now - to_pres(nci_goodwill_fc, p0),
+                None => fx_to_date,
+            };
+            lines.push(line(&roles.non_controlling_interest, &e.id, None, nci_impairment - fx_to_date));
+            lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
+            nci_goodwill_oci.insert(e.id.clone(), fx_year);
+        }
         let holders: Vec<EntityId> = invest.get(&e.id).into_iter().flatten().map(|(h, _, _)| h.clone()).collect();
         let mut involved = holders.clone();
         involved.push(e.id.clone());
@@ -557,7 +581,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     // 5. Non-controlling interests: the effective outside share of each subsidiary's
     //    post-acquisition equity (profit, OCI and translation difference included, IAS
-    //    21.41), less the outside share of each holder in the investments it made.
+    //    21.41).
     let mut nci_rows = Vec::new();
     let view_pl = |ent: &EntityId, st: Statement| -> Decimal {
         bal.get(ent)
@@ -599,16 +623,12 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .sum();
         let post = equity_total - unrealised - pre_acquisition.get(&e.id).copied().unwrap_or_default();
         let nci_post = money::round(post * e.nci, minor, mode);
-        // Outside share of this entity's investments in its own subsidiaries (the
-        // indirect holding adjustment).
-        let mut indirect = Decimal::ZERO;
-        for (owned, list) in &invest {
-            for (holder, _, amount) in list {
-                if holder == &e.id && consolidated.contains(owned) {
-                    indirect += money::round(*amount * e.nci, minor, mode);
-                }
-            }
-        }
+        // No adjustment for the holder's investments in its own subsidiaries: each
+        // subsidiary's NCI at acquisition is its direct outside share (or fair value),
+        // and its post-acquisition equity is shared by the effective NCI, which already
+        // holds the holder's NCI's indirect part (P 80% of S, S 60% of T: 40% + 20% x
+        // 60% = 52%). Deducting the holder's NCI's share of the investment's cost as
+        // well would count that part twice.
         // Results before control are not the group's (nor the NCI's): the entry of step 1.
         let pre_results = |st: Statement| -> Decimal {
             journal_so_far
@@ -626,15 +646,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
             vec![e.id.clone()],
             format!(
-                "NCI {} of post-acquisition equity {} of {}, less {} of its investments in subsidiaries",
+                "NCI {} of post-acquisition equity {} of {}",
                 e.nci.normalize(),
                 money::format_amount(post, minor),
-                e.id,
-                money::format_amount(indirect, minor)
+                e.id
             ),
             vec![
-                line(&roles.non_controlling_interest, &e.id, None, -nci_post + indirect),
-                line(&roles.retained_earnings, &e.id, None, nci_post - indirect),
+                line(&roles.non_controlling_interest, &e.id, None, -nci_post),
+                line(&roles.retained_earnings, &e.id, None, nci_post),
             ],
         );
         let nci_acq: Decimal = j
@@ -649,8 +668,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             entity: e.id.clone(),
             nci_share: e.nci,
             profit: money::round(profit * e.nci, minor, mode),
-            oci: money::round(oci * e.nci, minor, mode),
-            equity: nci_acq + nci_post - indirect,
+            oci: money::round(oci * e.nci, minor, mode) + nci_goodwill_oci.get(&e.id).copied().unwrap_or_default(),
+            equity: nci_acq + nci_post,
         });
     }
 
