@@ -442,8 +442,17 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             );
         }
         let goodwill = to_pres(goodwill_fc, period);
-        let hist = if a.net_assets.is_zero() { Decimal::ONE } else { a.net_assets_presentation / a.net_assets };
-        let nci_pres = money::round(nci_fc * hist, minor, mode);
+        // At the acquisition date's rate, the ratio of the net assets in the two
+        // currencies. Multiplied before dividing, so that a share of the net assets is
+        // exact and rounds once (the ratio alone need not terminate in 28 digits).
+        let at_hist = |x: Decimal| -> Decimal {
+            if a.net_assets.is_zero() {
+                money::round(x, minor, mode)
+            } else {
+                money::round(x * a.net_assets_presentation / a.net_assets, minor, mode)
+            }
+        };
+        let nci_pres = at_hist(nci_fc);
         let impairment_pres = to_pres(a.impairment, period);
         pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
         let mut lines = Vec::new();
@@ -487,7 +496,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let gross_fc = goodwill_fc + a.impairment;
         let goodwill_fx_year = match opening_period {
             Some(p0) => to_pres(gross_fc, period) - to_pres(gross_fc, p0),
-            None => to_pres(gross_fc, period) - money::round(gross_fc * hist, minor, mode),
+            None => to_pres(gross_fc, period) - at_hist(gross_fc),
         };
         // A fall in goodwill's value in the presentation currency is a loss (a debit).
         lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
@@ -501,7 +510,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             let nci_goodwill_fc = nci_fc - outside * a.net_assets;
             let nci_impairment = to_pres(outside * a.impairment, period);
             let nci_goodwill_now = to_pres(nci_goodwill_fc, period);
-            let fx_to_date = nci_goodwill_now - money::round(nci_goodwill_fc * hist, minor, mode);
+            let fx_to_date = nci_goodwill_now - at_hist(nci_goodwill_fc);
             let fx_year = match opening_period {
                 Some(p0) => nci_goodwill_now - to_pres(nci_goodwill_fc, p0),
                 None => fx_to_date,
