@@ -396,6 +396,10 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let mut pre_acquisition: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     // The NCI's exchange difference of the year on its part of full goodwill.
     let mut nci_goodwill_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // Fair value adjustments at the closing rate and their exchange difference of the
+    // year, per subsidiary.
+    let mut fair_value_now: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    let mut fair_value_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(a) = acq.get(&e.id) else {
             if invest.contains_key(&e.id) {
@@ -455,6 +459,31 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let nci_pres = at_hist(nci_fc);
         let impairment_pres = to_pres(a.impairment, period);
         pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
+        // Fair value adjustments at acquisition (IFRS 3.18): part of the net assets
+        // acquired that the subsidiary's books do not hold. The group carries them in the
+        // subsidiary's currency at the closing rate (IAS 21.47).
+        let fva = match &a.fair_value_account {
+            Some(acct) if !a.fair_value_adjustment.is_zero() => {
+                if chart.get(acct).is_some_and(|d| d.statement == Statement::BalanceSheet) {
+                    Some((acct.clone(), at_hist(a.fair_value_adjustment), to_pres(a.fair_value_adjustment, period)))
+                } else {
+                    findings.push(
+                        crate::findings::Finding::new(
+                            crate::findings::Rule::AccountUnknown,
+                            format!(
+                                "{}: `fair_value_account` {acct} is not a balance-sheet account of entities/accounts.csv",
+                                e.id
+                            ),
+                            "name the group account of the asset or liability the fair value adjustment belongs to",
+                        )
+                        .at(&a.source)
+                        .entity(&e.id),
+                    );
+                    None
+                }
+            }
+            _ => None,
+        };
         let mut lines = Vec::new();
         let mut investment_total = Decimal::ZERO;
         for (holder, acct, amount) in invest.get(&e.id).into_iter().flatten() {
@@ -476,7 +505,15 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 capital += -*amount;
             }
         }
-        lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - capital));
+        // The books hold the net assets acquired less the fair value adjustment: only
+        // that part of the retained earnings is pre-acquisition in the books, and the
+        // adjustment itself is added to its account.
+        let fva_hist = fva.as_ref().map(|x| x.1).unwrap_or_default();
+        lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - fva_hist - capital));
+        if let Some((acct, _, now)) = &fva {
+            lines.push(line(acct, &e.id, None, *now));
+            fair_value_now.insert(e.id.clone(), *now);
+        }
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
         // Goodwill impairment to date (IAS 36.124: never reversed) is charged to the
@@ -498,6 +535,18 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             Some(p0) => to_pres(gross_fc, period) - to_pres(gross_fc, p0),
             None => to_pres(gross_fc, period) - at_hist(gross_fc),
         };
+        // The fair value adjustment's exchange difference, like goodwill's, is OCI of
+        // the year for the part since the opening; it is shared with the NCI as the
+        // subsidiary's other net assets are (step 5).
+        let fva_fx_year = match (&fva, opening_period) {
+            (None, _) => Decimal::ZERO,
+            (Some((_, _, now)), Some(p0)) => *now - to_pres(a.fair_value_adjustment, p0),
+            (Some((_, hist, now)), None) => *now - *hist,
+        };
+        if !fva_fx_year.is_zero() {
+            fair_value_oci.insert(e.id.clone(), fva_fx_year);
+        }
+        let goodwill_fx_year = goodwill_fx_year + fva_fx_year;
         // A fall in goodwill's value in the presentation currency is a loss (a debit).
         lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
         lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year));
@@ -630,7 +679,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             })
             .map(|l| l.amount)
             .sum();
-        let post = equity_total - unrealised - pre_acquisition.get(&e.id).copied().unwrap_or_default();
+        // The fair value adjustment at the closing rate is part of the subsidiary's net
+        // assets in the group, as it was part of the net assets acquired.
+        let post = equity_total + fair_value_now.get(&e.id).copied().unwrap_or_default()
+            - unrealised
+            - pre_acquisition.get(&e.id).copied().unwrap_or_default();
         let nci_post = money::round(post * e.nci, minor, mode);
         // No adjustment for the holder's investments in its own subsidiaries: each
         // subsidiary's NCI at acquisition is its direct outside share (or fair value),
@@ -649,7 +702,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 .sum()
         };
         let profit = -(view_pl(&e.id, Statement::ProfitOrLoss) + pre_results(Statement::ProfitOrLoss));
-        let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci));
+        let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci))
+            + fair_value_oci.get(&e.id).copied().unwrap_or_default();
         j.post(
             "non_controlling_interest",
             e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),

@@ -444,6 +444,12 @@ pub struct Acquisition {
     pub net_assets_presentation: Decimal,
     /// Goodwill impairment recognised to date, in the functional currency.
     pub impairment: Decimal,
+    /// Fair value less carrying amount of the identifiable net assets at acquisition
+    /// (IFRS 3.18), in the functional currency, not booked by the subsidiary: the group
+    /// adds it to `fair_value_account` and carries it at the closing rate (IAS 21.47).
+    /// Held constant (as for land: no depreciation of the uplift).
+    pub fair_value_adjustment: Decimal,
+    pub fair_value_account: Option<GroupAccount>,
     pub source: Source,
 }
 

@@ -188,3 +188,24 @@ fn sub_group_closes_on_its_own() {
     assert_eq!(code, 0, "{:#}", v["proof"]);
     assert_eq!(v["scope"], "sub-group ALD-US");
 }
+
+/// A fair value adjustment needs a balance-sheet account of the chart to sit in: an
+/// empty or unknown `fair_value_account` is a finding on the acquisition's line, and the
+/// close does not tie (IFRS 3.18 adjustments must not be dropped silently).
+#[test]
+fn a_fair_value_adjustment_without_its_account_is_a_finding() {
+    for (account, rule) in [("", "ValueMissing"), ("9999", "AccountUnknown")] {
+        let f = crate::support::Folder::empty();
+        let src = repo().join("tests/cases/foreign-subsidiary-fair-value-adjustment");
+        for sub in ["entities", "rates"] {
+            copy_tree(&src.join(sub), &f.path().join(sub));
+        }
+        f.replace("entities/acquisitions.csv", "0,1000,1200\n", &format!("0,1000,{account}\n"));
+        let out = f.path().join("out");
+        let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.to_str().unwrap()]);
+        assert_eq!(code, 1, "{account:?}: {v:#}");
+        let found = v["findings"].as_array().into_iter().flatten().find(|x| x["rule"] == rule);
+        let found = found.unwrap_or_else(|| panic!("{account:?}: no {rule}: {v:#}"));
+        assert_eq!(found["line"], 2, "{found:#}");
+    }
+}
