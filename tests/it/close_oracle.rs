@@ -2,9 +2,10 @@
 //! one or two tiers, random holdings (NCI included), trial balances in EUR or USD, and
 //! intercompany balances and sales that agree. The oracle below is written with plain
 //! rust_decimal loops from the rules (IAS 21.39 translation, IFRS 10.B86 eliminations,
-//! IFRS 3.32 goodwill, IAS 21.47 goodwill at the closing rate, NCI as the effective
-//! outside share of post-acquisition equity and profit); it shares no code with the
-//! engine. Group trial balance, NCI and profit attributable must agree to the cent.
+//! IFRS 3.32 goodwill on either NCI basis, IAS 21.47 goodwill at the closing rate with
+//! the NCI's part of full goodwill and of its exchange difference, NCI as the effective
+//! outside share of post-acquisition equity, profit and OCI); it shares no code with the
+//! engine. Group trial balance, NCI and the NCI's profit and OCI must agree to the cent.
 
 use std::collections::BTreeMap;
 
@@ -42,6 +43,9 @@ struct Ent {
     investment: i64,
     revenue: i64,
     expenses: i64,
+    /// NCI measured at fair value (full goodwill), at its share of the net assets plus
+    /// this premium in local cents; otherwise at its share of the net assets.
+    nci_fair_value: Option<i64>,
 }
 
 #[derive(Debug, Clone)]
@@ -57,23 +61,23 @@ fn ent() -> impl Strategy<Value = Ent> {
     (
         (0usize..4, 51u32..=100, any::<bool>(), 1_000i64..200_000, 8_000i64..16_000),
         (0i64..5_000_000, 0i64..5_000_000, 0i64..2_000_000, 100_000i64..20_000_000),
-        (0i64..10_000_000, 0i64..8_000_000),
+        (0i64..10_000_000, 0i64..8_000_000, prop::option::of(0i64..1_000_000)),
     )
-        .prop_map(
-            |((parent, share, usd, capital, hist), (retained, rp, goodwill, investment), (revenue, expenses))| Ent {
-                parent,
-                share,
-                usd,
-                capital,
-                hist,
-                retained,
-                retained_presentation: rp,
-                goodwill,
-                investment,
-                revenue,
-                expenses,
-            },
-        )
+        .prop_map(|(a, b, c)| Ent {
+            parent: a.0,
+            share: a.1,
+            usd: a.2,
+            capital: a.3,
+            hist: a.4,
+            retained: b.0,
+            retained_presentation: b.1,
+            goodwill: b.2,
+            investment: b.3,
+            revenue: c.0,
+            expenses: c.1,
+            // A fair value for an NCI that does not exist is not a case of interest.
+            nci_fair_value: c.2.filter(|_| a.1 < 100),
+        })
 }
 
 fn group() -> impl Strategy<Value = Group> {
@@ -185,8 +189,12 @@ fn write(g: &Group) -> Folder {
             holdings.push_str(&format!("{},{},{share},{share},2020-01-01\n", id(e.parent), id(i)));
             let capital = Decimal::from(e.capital);
             let capital_presentation = -open.iter().find(|r| r.0 == "3000").and_then(|r| r.3).unwrap();
+            let (basis, fair_value) = match e.nci_fair_value {
+                Some(premium) => ("fair_value", ((Decimal::ONE - share) * capital + cents(premium)).to_string()),
+                None => ("share_of_net_assets", String::new()),
+            };
             acquisitions.push_str(&format!(
-                "{},2020-01-01,{},share_of_net_assets,,{capital},{capital_presentation},0\n",
+                "{},2020-01-01,{},{basis},{fair_value},{capital},{capital_presentation},0\n",
                 id(i),
                 share * capital + cents(e.goodwill)
             ));
@@ -215,6 +223,7 @@ struct Expected {
     tb: BTreeMap<String, Decimal>,
     nci: Decimal,
     profit_nci: Decimal,
+    oci_nci: Decimal,
 }
 
 fn oracle(g: &Group) -> Expected {
@@ -235,6 +244,7 @@ fn oracle(g: &Group) -> Expected {
     let mut translated: Vec<BTreeMap<(String, Option<usize>), Decimal>> = Vec::new();
     let mut equity_post = vec![Decimal::ZERO; g.ents.len()];
     let mut profit = vec![Decimal::ZERO; g.ents.len()];
+    let mut oci = vec![Decimal::ZERO; g.ents.len()];
     for (i, ((open, moves), e)) in led.iter().zip(&g.ents).enumerate() {
         let at = |x: Decimal, rate: Decimal| if e.usd { round2(x / rate) } else { x };
         // Opening balance sheet at the 2025-12 closing rate: its difference is the
@@ -266,6 +276,7 @@ fn oracle(g: &Group) -> Expected {
         let td_year = -total - reserve;
         lines.insert(("3300".into(), None), reserve);
         lines.insert(("8100".into(), None), td_year);
+        oci[i] = -td_year;
         for ((a, _), x) in &lines {
             add(&mut tb, a, *x);
             if matches!(a.as_str(), "3000" | "3200" | "3300" | "4000" | "4100" | "5000" | "5100" | "8100") {
@@ -288,14 +299,31 @@ fn oracle(g: &Group) -> Expected {
     // closing rate, NCI at its share of the net assets at the historical rate.
     let mut nci = Decimal::ZERO;
     let mut profit_nci = Decimal::ZERO;
+    let mut oci_nci = Decimal::ZERO;
     for (c, e) in g.ents.iter().enumerate().skip(1) {
         let at = |x: Decimal, rate: Decimal| if e.usd { round2(x / rate) } else { x };
         let capital_presentation = -translated[c][&("3000".to_string(), None)];
+        let capital = Decimal::from(e.capital);
         let outside = Decimal::ONE - Decimal::new(e.share as i64, 2);
-        let nci_acquisition = round2(outside * capital_presentation);
+        // Under full goodwill the NCI's premium over its share of the net assets is its
+        // part of goodwill (IFRS 3.19); at the historical rate of the net assets.
+        let premium = e.nci_fair_value.map(cents).unwrap_or_default();
+        let at_acquisition = |x: Decimal| round2(x * capital_presentation / capital);
+        let nci_acquisition = if e.nci_fair_value.is_none() {
+            round2(outside * capital_presentation)
+        } else {
+            at_acquisition(outside * capital + premium)
+        };
         let investment = translated[e.parent][&("1400".to_string(), Some(c))];
-        let goodwill_now = at(cents(e.goodwill), r1);
-        let goodwill_fx_year = goodwill_now - at(cents(e.goodwill), r0);
+        let goodwill_local = cents(e.goodwill) + premium;
+        let goodwill_now = at(goodwill_local, r1);
+        let goodwill_fx_year = goodwill_now - at(goodwill_local, r0);
+        // The exchange difference on the NCI's part of goodwill is the NCI's (IAS 21.41).
+        let nci_goodwill_fx = at(premium, r1) - at_acquisition(premium);
+        let nci_goodwill_fx_year = at(premium, r1) - at(premium, r0);
+        add(&mut tb, "3900", -nci_goodwill_fx);
+        add(&mut tb, "3200", nci_goodwill_fx);
+        nci += nci_goodwill_fx;
         let mut entry = vec![
             ("1400", -investment),
             ("3000", capital_presentation),
@@ -316,10 +344,11 @@ fn oracle(g: &Group) -> Expected {
         nci += nci_acquisition + nci_post;
         if !share_nci.is_zero() {
             profit_nci += round2(profit[c] * share_nci);
+            oci_nci += round2(oci[c] * share_nci) + nci_goodwill_fx_year;
         }
     }
     tb.retain(|_, v| !v.is_zero());
-    Expected { tb, nci, profit_nci }
+    Expected { tb, nci, profit_nci, oci_nci }
 }
 
 proptest! {
@@ -347,5 +376,7 @@ proptest! {
         prop_assert_eq!(nci_rows, want.nci);
         let profit_nci: Decimal = v["attribution"]["profit_nci"].as_str().unwrap().parse().unwrap();
         prop_assert_eq!(profit_nci, want.profit_nci);
+        let oci_nci: Decimal = v["attribution"]["oci_nci"].as_str().unwrap().parse().unwrap();
+        prop_assert_eq!(oci_nci, want.oci_nci);
     }
 }
