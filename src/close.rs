@@ -399,6 +399,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     // Fair value adjustments at the closing rate and their exchange difference of the
     // year, per subsidiary.
     let mut fair_value_now: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // The NCI's share of this fiscal year's goodwill impairment, under full goodwill.
+    let mut nci_impairment_year: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     let mut fair_value_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(a) = acq.get(&e.id) else {
@@ -516,10 +518,34 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
-        // Goodwill impairment to date (IAS 36.124: never reversed) is charged to the
-        // group's retained earnings at the rate goodwill is carried at.
-        if !impairment_pres.is_zero() {
-            lines.push(line(&roles.retained_earnings, &e.id, None, impairment_pres));
+        // Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill
+        // is carried at: the part of this fiscal year is an expense of the year (IAS
+        // 36.60), the part of earlier years sits in retained earnings.
+        let impairment_year_pres = match (&roles.goodwill_impairment, a.impairment_year.is_zero()) {
+            (_, true) => Decimal::ZERO,
+            (Some(acct), false) => {
+                let x = to_pres(a.impairment_year, period);
+                lines.push(line(acct, &e.id, None, x));
+                x
+            }
+            (None, false) => {
+                findings.push(
+                    crate::findings::Finding::new(
+                        crate::findings::Rule::SettingInvalid,
+                        format!(
+                            "{}: `impairment_year` is {} but group.toml names no `accounts.goodwill_impairment`",
+                            e.id, a.impairment_year
+                        ),
+                        "name the expense account for goodwill impairment in [accounts]",
+                    )
+                    .at(&a.source)
+                    .entity(&e.id),
+                );
+                Decimal::ZERO
+            }
+        };
+        if !(impairment_pres - impairment_year_pres).is_zero() {
+            lines.push(line(&roles.retained_earnings, &e.id, None, impairment_pres - impairment_year_pres));
         }
         let residual: Decimal = lines.iter().map(|l| l.amount).sum();
         // The residual is exchange difference: goodwill at the closing rate against
@@ -558,6 +584,10 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         if a.nci_measurement == NciMeasurement::FairValue {
             let nci_goodwill_fc = nci_fc - outside * a.net_assets;
             let nci_impairment = to_pres(outside * a.impairment, period);
+            if !impairment_year_pres.is_zero() {
+                // The NCI's share of the year's impairment is part of its share of profit.
+                nci_impairment_year.insert(e.id.clone(), to_pres(outside * a.impairment_year, period));
+            }
             let nci_goodwill_now = to_pres(nci_goodwill_fc, period);
             let fx_to_date = nci_goodwill_now - at_hist(nci_goodwill_fc);
             let fx_year = match opening_period {
@@ -730,7 +760,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         nci_rows.push(NciRow {
             entity: e.id.clone(),
             nci_share: e.nci,
-            profit: money::round(profit * e.nci, minor, mode),
+            profit: money::round(profit * e.nci, minor, mode)
+                - nci_impairment_year.get(&e.id).copied().unwrap_or_default(),
             oci: money::round(oci * e.nci, minor, mode) + nci_goodwill_oci.get(&e.id).copied().unwrap_or_default(),
             equity: nci_acq + nci_post,
         });

@@ -209,3 +209,26 @@ fn a_fair_value_adjustment_without_its_account_is_a_finding() {
         assert_eq!(found["line"], 2, "{found:#}");
     }
 }
+
+/// The impairment of the year is an expense only with an account to charge it to, and
+/// cannot exceed the impairment to date: each is a finding on the acquisition's line.
+#[test]
+fn an_impairment_of_the_year_needs_its_account_and_its_total() {
+    let src = repo().join("tests/cases/foreign-subsidiary-full-goodwill-impairment");
+    for (file, from, to, rule) in [
+        ("entities/group.toml", "goodwill_impairment = \"5150\"\n", "", "SettingInvalid"),
+        ("entities/acquisitions.csv", ",400,400\n", ",400,500\n", "ValueInvalid"),
+    ] {
+        let f = crate::support::Folder::empty();
+        for sub in ["entities", "rates"] {
+            copy_tree(&src.join(sub), &f.path().join(sub));
+        }
+        f.replace(file, from, to);
+        let out = f.path().join("out");
+        let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.to_str().unwrap()]);
+        assert_eq!(code, 1, "{rule}: {v:#}");
+        let found = v["findings"].as_array().into_iter().flatten().find(|x| x["rule"] == rule);
+        let found = found.unwrap_or_else(|| panic!("no {rule}: {v:#}"));
+        assert_eq!(found["line"], 2, "{found:#}");
+    }
+}
