@@ -527,6 +527,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
     }
     let mut pre_acquisition: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // The NCI's exchange difference of the year on its part of full goodwill.
+    let mut nci_goodwill_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // Fair value adjustments at the closing rate and their exchange difference of the
+    // year, per subsidiary.
+    let mut fair_value_now: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // The NCI's share of this fiscal year's goodwill impairment, under full goodwill.
+    let mut nci_impairment_year: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    let mut fair_value_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(a) = acq.get(&e.id) else {
             if invest.contains_key(&e.id) {
@@ -573,10 +581,44 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             );
         }
         let goodwill = to_pres(goodwill_fc, period);
-        let hist = if a.net_assets.is_zero() { Decimal::ONE } else { a.net_assets_presentation / a.net_assets };
-        let nci_pres = money::round(nci_fc * hist, minor, mode);
+        // At the acquisition date's rate, the ratio of the net assets in the two
+        // currencies. Multiplied before dividing, so that a share of the net assets is
+        // exact and rounds once (the ratio alone need not terminate in 28 digits).
+        let at_hist = |x: Decimal| -> Decimal {
+            if a.net_assets.is_zero() {
+                money::round(x, minor, mode)
+            } else {
+                money::round(x * a.net_assets_presentation / a.net_assets, minor, mode)
+            }
+        };
+        let nci_pres = at_hist(nci_fc);
         let impairment_pres = to_pres(a.impairment, period);
         pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
+        // Fair value adjustments at acquisition (IFRS 3.18): part of the net assets
+        // acquired that the subsidiary's books do not hold. The group carries them in the
+        // subsidiary's currency at the closing rate (IAS 21.47).
+        let fva = match &a.fair_value_account {
+            Some(acct) if !a.fair_value_adjustment.is_zero() => {
+                if chart.get(acct).is_some_and(|d| d.statement == Statement::BalanceSheet) {
+                    Some((acct.clone(), at_hist(a.fair_value_adjustment), to_pres(a.fair_value_adjustment, period)))
+                } else {
+                    findings.push(
+                        crate::findings::Finding::new(
+                            crate::findings::Rule::AccountUnknown,
+                            format!(
+                                "{}: `fair_value_account` {acct} is not a balance-sheet account of entities/accounts.csv",
+                                e.id
+                            ),
+                            "name the group account of the asset or liability the fair value adjustment belongs to",
+                        )
+                        .at(&a.source)
+                        .entity(&e.id),
+                    );
+                    None
+                }
+            }
+            _ => None,
+        };
         let mut lines = Vec::new();
         let mut investment_total = Decimal::ZERO;
         for (holder, acct, amount) in invest.get(&e.id).into_iter().flatten() {
@@ -598,13 +640,45 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 capital += -*amount;
             }
         }
-        lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - capital));
+        // The books hold the net assets acquired less the fair value adjustment: only
+        // that part of the retained earnings is pre-acquisition in the books, and the
+        // adjustment itself is added to its account.
+        let fva_hist = fva.as_ref().map(|x| x.1).unwrap_or_default();
+        lines.push(line(&roles.retained_earnings, &e.id, None, a.net_assets_presentation - fva_hist - capital));
+        if let Some((acct, _, now)) = &fva {
+            lines.push(line(acct, &e.id, None, *now));
+            fair_value_now.insert(e.id.clone(), *now);
+        }
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
-        // Goodwill impairment to date (IAS 36.124: never reversed) is charged to the
-        // group's retained earnings at the rate goodwill is carried at.
-        if !impairment_pres.is_zero() {
-            lines.push(line(&roles.retained_earnings, &e.id, None, impairment_pres));
+        // Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill
+        // is carried at: the part of this fiscal year is an expense of the year (IAS
+        // 36.60), the part of earlier years sits in retained earnings.
+        let impairment_year_pres = match (&roles.goodwill_impairment, a.impairment_year.is_zero()) {
+            (_, true) => Decimal::ZERO,
+            (Some(acct), false) => {
+                let x = to_pres(a.impairment_year, period);
+                lines.push(line(acct, &e.id, None, x));
+                x
+            }
+            (None, false) => {
+                findings.push(
+                    crate::findings::Finding::new(
+                        crate::findings::Rule::SettingInvalid,
+                        format!(
+                            "{}: `impairment_year` is {} but group.toml names no `accounts.goodwill_impairment`",
+                            e.id, a.impairment_year
+                        ),
+                        "name the expense account for goodwill impairment in [accounts]",
+                    )
+                    .at(&a.source)
+                    .entity(&e.id),
+                );
+                Decimal::ZERO
+            }
+        };
+        if !(impairment_pres - impairment_year_pres).is_zero() {
+            lines.push(line(&roles.retained_earnings, &e.id, None, impairment_pres - impairment_year_pres));
         }
         let residual: Decimal = lines.iter().map(|l| l.amount).sum();
         // The residual is exchange difference: goodwill at the closing rate against
@@ -612,13 +686,51 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         // brought forward to the reserve.
         let opening_period =
             if Period::of_date(a.date) > fiscal_start.prev() { None } else { Some(fiscal_start.prev()) };
+        // The exchange difference is that of the goodwill before impairment: the
+        // impairment is charged at the closing rate, so together they move the carrying
+        // amount from its rate at acquisition to the closing rate exactly.
+        let gross_fc = goodwill_fc + a.impairment;
         let goodwill_fx_year = match opening_period {
-            Some(p0) => goodwill - to_pres(goodwill_fc, p0),
-            None => goodwill - money::round(goodwill_fc * hist, minor, mode),
+            Some(p0) => to_pres(gross_fc, period) - to_pres(gross_fc, p0),
+            None => to_pres(gross_fc, period) - at_hist(gross_fc),
         };
+        // The fair value adjustment's exchange difference, like goodwill's, is OCI of
+        // the year for the part since the opening; it is shared with the NCI as the
+        // subsidiary's other net assets are (step 5).
+        let fva_fx_year = match (&fva, opening_period) {
+            (None, _) => Decimal::ZERO,
+            (Some((_, _, now)), Some(p0)) => *now - to_pres(a.fair_value_adjustment, p0),
+            (Some((_, hist, now)), None) => *now - *hist,
+        };
+        if !fva_fx_year.is_zero() {
+            fair_value_oci.insert(e.id.clone(), fva_fx_year);
+        }
+        let goodwill_fx_year = goodwill_fx_year + fva_fx_year;
         // A fall in goodwill's value in the presentation currency is a loss (a debit).
         lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
         lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year));
+        // Under full goodwill (IFRS 3.19) part of the goodwill is the NCI's: its fair
+        // value less its share of the net assets. The exchange difference on that part
+        // is the NCI's (IAS 21.41), and so is its share of the impairment, allocated on
+        // the same basis as profit (IAS 36.C6): both are moved from the owners' equity
+        // to the NCI.
+        if a.nci_measurement == NciMeasurement::FairValue {
+            let nci_goodwill_fc = nci_fc - outside * a.net_assets;
+            let nci_impairment = to_pres(outside * a.impairment, period);
+            if !impairment_year_pres.is_zero() {
+                // The NCI's share of the year's impairment is part of its share of profit.
+                nci_impairment_year.insert(e.id.clone(), to_pres(outside * a.impairment_year, period));
+            }
+            let nci_goodwill_now = to_pres(nci_goodwill_fc, period);
+            let fx_to_date = nci_goodwill_now - at_hist(nci_goodwill_fc);
+            let fx_year = match opening_period {
+                Some(p0) => nci_goodwill_now - to_pres(nci_goodwill_fc, p0),
+                None => fx_to_date,
+            };
+            lines.push(line(&roles.non_controlling_interest, &e.id, None, nci_impairment - fx_to_date));
+            lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
+            nci_goodwill_oci.insert(e.id.clone(), fx_year);
+        }
         let holders: Vec<EntityId> = invest.get(&e.id).into_iter().flatten().map(|(h, _, _)| h.clone()).collect();
         let mut involved = holders.clone();
         involved.push(e.id.clone());
@@ -690,7 +802,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     // 5. Non-controlling interests: the effective outside share of each subsidiary's
     //    post-acquisition equity (profit, OCI and translation difference included, IAS
-    //    21.41), less the outside share of each holder in the investments it made.
+    //    21.41).
     let mut nci_rows = Vec::new();
     let view_pl = |ent: &EntityId, st: Statement| -> Decimal {
         bal.get(ent)
@@ -730,18 +842,18 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             })
             .map(|l| l.amount)
             .sum();
-        let post = equity_total - unrealised - pre_acquisition.get(&e.id).copied().unwrap_or_default();
+        // The fair value adjustment at the closing rate is part of the subsidiary's net
+        // assets in the group, as it was part of the net assets acquired.
+        let post = equity_total + fair_value_now.get(&e.id).copied().unwrap_or_default()
+            - unrealised
+            - pre_acquisition.get(&e.id).copied().unwrap_or_default();
         let nci_post = money::round(post * e.nci, minor, mode);
-        // Outside share of this entity's investments in its own subsidiaries (the
-        // indirect holding adjustment).
-        let mut indirect = Decimal::ZERO;
-        for (owned, list) in &invest {
-            for (holder, _, amount) in list {
-                if holder == &e.id && consolidated.contains(owned) {
-                    indirect += money::round(*amount * e.nci, minor, mode);
-                }
-            }
-        }
+        // No adjustment for the holder's investments in its own subsidiaries: each
+        // subsidiary's NCI at acquisition is its direct outside share (or fair value),
+        // and its post-acquisition equity is shared by the effective NCI, which already
+        // holds the holder's NCI's indirect part (P 80% of S, S 60% of T: 40% + 20% x
+        // 60% = 52%). Deducting the holder's NCI's share of the investment's cost as
+        // well would count that part twice.
         // Results before control are not the group's (nor the NCI's): the entry of step 1.
         let pre_results = |st: Statement| -> Decimal {
             journal_so_far
@@ -753,21 +865,21 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 .sum()
         };
         let profit = -(view_pl(&e.id, Statement::ProfitOrLoss) + pre_results(Statement::ProfitOrLoss));
-        let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci));
+        let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci))
+            + fair_value_oci.get(&e.id).copied().unwrap_or_default();
         j.post(
             "non_controlling_interest",
             e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
             vec![e.id.clone()],
             format!(
-                "NCI {} of post-acquisition equity {} of {}, less {} of its investments in subsidiaries",
+                "NCI {} of post-acquisition equity {} of {}",
                 e.nci.normalize(),
                 money::format_amount(post, minor),
-                e.id,
-                money::format_amount(indirect, minor)
+                e.id
             ),
             vec![
-                line(&roles.non_controlling_interest, &e.id, None, -nci_post + indirect),
-                line(&roles.retained_earnings, &e.id, None, nci_post - indirect),
+                line(&roles.non_controlling_interest, &e.id, None, -nci_post),
+                line(&roles.retained_earnings, &e.id, None, nci_post),
             ],
         );
         let nci_acq: Decimal = j
@@ -781,9 +893,10 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         nci_rows.push(NciRow {
             entity: e.id.clone(),
             nci_share: e.nci,
-            profit: money::round(profit * e.nci, minor, mode),
-            oci: money::round(oci * e.nci, minor, mode),
-            equity: nci_acq + nci_post - indirect,
+            profit: money::round(profit * e.nci, minor, mode)
+                - nci_impairment_year.get(&e.id).copied().unwrap_or_default(),
+            oci: money::round(oci * e.nci, minor, mode) + nci_goodwill_oci.get(&e.id).copied().unwrap_or_default(),
+            equity: nci_acq + nci_post,
         });
     }
 

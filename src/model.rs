@@ -236,6 +236,9 @@ pub struct RoleAccounts {
     /// only when `inventory_profit.csv` has rows.
     pub inventory: Option<GroupAccount>,
     pub cost_of_sales: Option<GroupAccount>,
+    /// Expense account for goodwill impairment of the fiscal year; needed only when an
+    /// acquisition has `impairment_year`.
+    pub goodwill_impairment: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -487,6 +490,15 @@ pub struct Acquisition {
     pub net_assets_presentation: Decimal,
     /// Goodwill impairment recognised to date, in the functional currency.
     pub impairment: Decimal,
+    /// The part of `impairment` recognised in the current fiscal year: an expense of the
+    /// year (IAS 36.60); the rest was charged in earlier years.
+    pub impairment_year: Decimal,
+    /// Fair value less carrying amount of the identifiable net assets at acquisition
+    /// (IFRS 3.18), in the functional currency, not booked by the subsidiary: the group
+    /// adds it to `fair_value_account` and carries it at the closing rate (IAS 21.47).
+    /// Held constant (as for land: no depreciation of the uplift).
+    pub fair_value_adjustment: Decimal,
+    pub fair_value_account: Option<GroupAccount>,
     pub source: Source,
 }
 

@@ -3,7 +3,8 @@ that the acquisition data agrees with the books (run after make_demo.py).
 
 For each subsidiary and the associate: the equity acquired is its share capital and
 share premium (acquisitions before 2026, invented: the retained earnings brought forward
-are post-acquisition), translated at the historical amounts of opening.csv; for GLF-BH,
+are post-acquisition), except WSL-PL, bought in 2021 with accumulated losses of PLN
+800,000 that reduce the net assets acquired (so its goodwill is positive), translated at the historical amounts of opening.csv; for GLF-BH,
 acquired 2026-04-01, it is all of its equity at that date (opening equity plus the
 results of January to March), translated at the 2026-03 closing rate. The consideration
 is the holders' investment cost, converted into the acquired entity's currency at the
@@ -93,6 +94,21 @@ for h in holdings:
         date = "2026-04-01"
         measurement, nci_fv = "fair_value", q(na * D("0.40") * D("1.05"), ccy)
         note = "acquired during the year: 60% for EUR 3.6m; NCI at fair value"
+    elif owned == "WSL-PL":
+        # Bought on 2021-09-01 (invented) when it had accumulated losses of PLN 800,000:
+        # net assets acquired PLN 11,200,000 (capital 12,000,000 less the losses), at
+        # that day's 4.5500 PLN/EUR. ALD-UK paid GBP 2,262,857.15, which is PLN
+        # 12,000,000.04 at that day's 0.8580 GBP/EUR: goodwill PLN 800,000.04.
+        eq = [r for r in op if m[r["account"]] in ("3000", "3100")]
+        na = -sum((D(r["amount"]) for r in eq), D(0)) - D("800000.00")
+        na_pres = q(na / D("4.5500"), "EUR")
+        cost_gbp = sum((D(r["amount"]) for r in rows(ENT / "ALD-UK" / "opening.csv")
+                        if r["counterparty"] == owned
+                        and accounts[mapping("ALD-UK")[r["account"]]]["ic_kind"] == "investment"), D(0))
+        consideration = q(cost_gbp / D("0.8580") * D("4.5500"), ccy)
+        date = min(x["valid_from"] for x in holdings if x["owned"] == owned)
+        measurement, nci_fv = "share_of_net_assets", ""
+        note = "bought with accumulated losses of PLN 800000 (invented)"
     else:
         eq = [r for r in op if m[r["account"]] in ("3000", "3100")]
         na = -sum((D(r["amount"]) for r in eq), D(0))

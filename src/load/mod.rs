@@ -1014,7 +1014,14 @@ fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mu
     }
     let spec = Spec {
         required: &["owned", "date", "consideration", "nci_measurement", "net_assets", "net_assets_presentation"],
-        optional: &["nci_fair_value", "impairment", "note"],
+        optional: &[
+            "nci_fair_value",
+            "impairment",
+            "impairment_year",
+            "fair_value_adjustment",
+            "fair_value_account",
+            "note",
+        ],
         prefixes: &[],
     };
     let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
@@ -1041,6 +1048,33 @@ fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mu
         ));
         let nci_fv = parse_amount_cell(&t, row, "nci_fair_value", f);
         let impairment = parse_amount_cell(&t, row, "impairment", f).unwrap_or_default();
+        let impairment_year = parse_amount_cell(&t, row, "impairment_year", f).unwrap_or_default();
+        if impairment_year.is_sign_negative() || impairment_year > impairment {
+            f.push(
+                Finding::new(
+                    Rule::ValueInvalid,
+                    format!("`impairment_year` {impairment_year} is not between 0 and `impairment` {impairment}"),
+                    "give the impairment to date in `impairment` and the part of it recognised this fiscal year in `impairment_year`",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            continue;
+        }
+        let fva = parse_amount_cell(&t, row, "fair_value_adjustment", f).unwrap_or_default();
+        let fva_account = t.get("fair_value_account", row).map(GroupAccount::new);
+        if !fva.is_zero() && fva_account.is_none() {
+            f.push(
+                Finding::new(
+                    Rule::ValueMissing,
+                    format!("`fair_value_adjustment` is {fva} but `fair_value_account` is empty"),
+                    "name the group account of the asset or liability whose fair value differs from its carrying amount (IFRS 3.18)",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            continue;
+        }
         let (Some(owned), Some(date), Some(m), Some(c), Some(na), Some(nap)) =
             (owned, date, measurement, consideration, net_assets, nap)
         else {
@@ -1067,6 +1101,9 @@ fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mu
             net_assets: na,
             net_assets_presentation: nap,
             impairment,
+            impairment_year,
+            fair_value_adjustment: fva,
+            fair_value_account: fva_account,
             source: Source::line(&t.file, t.line(row)),
         });
     }

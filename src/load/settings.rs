@@ -38,6 +38,7 @@ const ROLE_KEYS: &[&str] = &[
     "intercompany_difference",
     "inventory",
     "cost_of_sales",
+    "goodwill_impairment",
 ];
 const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
 const SEGMENT_KEYS: &[&str] = &[
@@ -382,6 +383,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             intercompany_difference: icd,
             inventory: raw.accounts.get("inventory").map(|a| GroupAccount::new(a.trim())),
             cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
+            goodwill_impairment: raw.accounts.get("goodwill_impairment").map(|a| GroupAccount::new(a.trim())),
         },
         intercompany: IntercompanySettings {
             tolerance_absolute: tol_abs?,

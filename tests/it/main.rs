@@ -3,8 +3,9 @@
 //!
 //! - `support`: building data folders and running commands in-process;
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
-//! - `close`: published consolidation cases as small groups, the demo closing tied (under
-//!   both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
+//! - `close`: published consolidation cases as folders under `tests/cases/`, the demo
+//!   closing tied (under both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
+//! - `close_oracle`: a property test of the close against a naive consolidation;
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
@@ -21,6 +22,7 @@
 
 mod check;
 mod close;
+mod close_oracle;
 mod currencies;
 mod intercompany;
 mod rates_ecb;
