@@ -273,6 +273,25 @@ pub struct ClosedPeriod {
     pub root: crate::model::EntityId,
 }
 
+/// [`run_close`] for a command: when findings stop the close they are written to `out`
+/// and the exit code (at least 1) comes back as `Err`.
+fn run_close_or_stop(
+    data: &Path,
+    period: Option<Period>,
+    view: crate::cli::View,
+    entity: Option<crate::model::EntityId>,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<Result<ClosedPeriod, i32>, Error> {
+    Ok(match run_close(data, period, view, entity)? {
+        Ok(c) => Ok(c),
+        Err(findings) => {
+            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
+            Err(code.max(1))
+        }
+    })
+}
+
 /// Runs the close chain: load -> map_accounts -> validate -> structure -> translate ->
 /// eliminate -> roll_up. Returns the findings instead when they block.
 pub fn run_close(
@@ -325,12 +344,9 @@ pub fn close(
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let c = match run_close(data, period, view, entity)? {
+    let c = match run_close_or_stop(data, period, view, entity, format, out)? {
         Ok(c) => c,
-        Err(findings) => {
-            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
-            return Ok(code.max(1));
-        }
+        Err(code) => return Ok(code),
     };
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
@@ -460,12 +476,9 @@ pub fn segments(
 ) -> Result<i32, Error> {
     use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
     use std::collections::BTreeMap;
-    let c = match run_close(data, period, view, None)? {
+    let c = match run_close_or_stop(data, period, view, None, format, out)? {
         Ok(c) => c,
-        Err(findings) => {
-            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
-            return Ok(code.max(1));
-        }
+        Err(code) => return Ok(code),
     };
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
@@ -565,12 +578,9 @@ pub fn trace(
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
     use polars::prelude::*;
-    let c = match run_close(data, period, crate::cli::View::Ytd, entity)? {
+    let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, format, out)? {
         Ok(c) => c,
-        Err(findings) => {
-            let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
-            return Ok(code.max(1));
-        }
+        Err(code) => return Ok(code),
     };
     let ds = &c.checked.ds;
     if ds.account(account).is_none() {
