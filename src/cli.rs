@@ -116,6 +116,32 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Writes a synthetic group (invented data in the input format) into a folder: a
+    /// multi-tier structure in many currencies with intercompany pairs on both sides.
+    Generate {
+        #[arg(long, default_value_t = 300)]
+        entities: usize,
+        /// Accounts in the group chart.
+        #[arg(long, default_value_t = 1500)]
+        accounts: usize,
+        /// Group accounts each entity uses.
+        #[arg(long, default_value_t = 400)]
+        used: usize,
+        /// Months of the fiscal year delivered (from January 2026).
+        #[arg(long, default_value_t = 1)]
+        months: u32,
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Intercompany document lines to aim for, over all entities and months.
+        #[arg(long, default_value_t = 0)]
+        documents: usize,
+        /// Write trial balances as Parquet instead of CSV.
+        #[arg(long)]
+        parquet: bool,
+        /// The data folder to create (it must not hold entities/ yet).
+        #[arg(long = "out")]
+        out_dir: PathBuf,
+    },
     /// Agrees intercompany positions pair by pair and kind by kind on whatever has been
     /// delivered, and explains each difference (FX, timing) or marks it open.
     Match {
@@ -198,6 +224,10 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
         ),
         Command::Translate { period, entity, format } => {
             crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
+        }
+        Command::Generate { entities, accounts, used, months, seed, documents, parquet, out_dir } => {
+            let options = crate::generate::Options { entities, accounts, used, months, seed, documents, parquet };
+            crate::commands::generate(options, &out_dir, out)
         }
         Command::Match { period, entity, format, tolerance_absolute, tolerance_relative, fail_on_open } => {
             let ask = crate::commands::MatchRequest {

@@ -619,3 +619,15 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     let tied = crate::proof::tied(&matching.proof);
     Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
 }
+
+/// Writes a synthetic group: the plan is drawn once, then each entity is drawn and
+/// written in turn.
+pub fn generate(options: crate::generate::Options, out_dir: &Path, out: &mut dyn Write) -> Result<i32, Error> {
+    let _span = tracing::info_span!("generate", entities = options.entities, months = options.months).entered();
+    let plan = crate::generate::Plan::new(options).map_err(Error::Usage)?;
+    let bar = crate::progress::bar(plan.entities.len() as u64, "generate");
+    let written = report::generate::write(&plan, out_dir, &|n| bar.set_position(n as u64))?;
+    bar.finish_and_clear();
+    out.write_all(report::generate::render(&written, out_dir).as_bytes())?;
+    Ok(0)
+}

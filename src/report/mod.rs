@@ -4,6 +4,7 @@
 
 pub mod close;
 pub mod findings;
+pub mod generate;
 pub mod intercompany;
 pub mod rates;
 pub mod structure;

@@ -4,6 +4,8 @@
 //! - `support`: building data folders and running commands in-process;
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
 //! - `close`: published consolidation cases as small groups, the demo closing tied, trace;
+//! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
+//!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
@@ -16,6 +18,7 @@
 mod check;
 mod close;
 mod currencies;
+mod generate;
 mod intercompany;
 mod rates_ecb;
 mod rates_findings;
