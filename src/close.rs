@@ -205,7 +205,7 @@ fn balances(contrib: &DataFrame) -> PolarsResult<Balances> {
 /// The close at `period` on year-to-date balances.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let contributions = aggregate(ds, t, s, period)?;
-    let _span = tracing::info_span!("eliminate", period = %period).entered();
+    let eliminate_span = tracing::info_span!("eliminate", period = %period).entered();
     let bal = balances(&contributions)?;
     let mut findings = Vec::new();
     let roles = &ds.settings.accounts;
@@ -655,6 +655,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     }
 
     // Roll-up: contributions plus eliminations, per account.
+    drop(eliminate_span);
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
     Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, findings })

@@ -289,9 +289,13 @@ pub fn run_close(
         return Err(Error::Usage(format!("entity {root} is not in entities.csv")));
     }
     let translated = crate::translate::translate(ds, &checked.mapped, scope.fiscal_start, scope.period)?;
-    let mut checks = prove_inputs(ds, &checked.mapped)?;
+    let mut checks = {
+        let _span = tracing::info_span!("prove_inputs").entered();
+        prove_inputs(ds, &checked.mapped)?
+    };
     checks.extend(crate::translate::prove(&translated)?);
     let structure_at = |p: Period| {
+        let _span = tracing::info_span!("structure", period = %p).entered();
         let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
         crate::structure::build(&ids, &ds.holdings, &root, p.last_day(), ds.settings.policies.significant_influence).0
     };
@@ -307,7 +311,10 @@ pub fn run_close(
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
     };
-    checks.extend(crate::close::prove(&close)?);
+    checks.extend({
+        let _span = tracing::info_span!("prove_close").entered();
+        crate::close::prove(&close)?
+    });
     Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
 }
 
@@ -435,6 +442,7 @@ pub fn close(
         findings: &c.close.findings,
         caution: report::CAUTION,
     };
+    let _span = tracing::info_span!("report").entered();
     let dir = report::close::output_dir(out_dir, scope.period);
     report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;

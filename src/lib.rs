@@ -3,6 +3,7 @@
 //! matched and eliminated, and rolled up into group, sub-group and segment statements
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
+pub mod bench;
 pub mod cli;
 pub mod close;
 pub mod commands;
@@ -18,6 +19,7 @@ pub mod progress;
 pub mod proof;
 pub mod rates;
 pub mod report;
+pub mod stages;
 pub mod structure;
 pub mod translate;
 pub mod validate;

@@ -7,6 +7,7 @@
 pub mod daily;
 mod documents;
 mod ledger;
+pub mod machine;
 mod settings;
 pub mod table;
 
@@ -1120,4 +1121,10 @@ fn load_inventory_profits(
         });
     }
     out
+}
+
+/// The stage figures a child run wrote with `--stages FILE` (for `tessera bench`).
+pub fn read_stages(path: &Path) -> std::io::Result<Vec<crate::stages::StageRecord>> {
+    let text = std::fs::read_to_string(path)?;
+    serde_json::from_str(&text).map_err(|e| std::io::Error::other(format!("{}: {e}", path.display())))
 }
