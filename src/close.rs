@@ -226,6 +226,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     // 1. Results before the acquisition date belong to the equity acquired (IFRS 10.B88):
     //    they are moved from income and expense into pre-acquisition retained earnings.
     let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let mut pre_control: BTreeMap<Period, Balances> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full) {
         let Some(from) = e.controlled_from else { continue };
         let control_month = Period::of_date(from);
@@ -234,10 +235,13 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
         // Income and expense (and translation difference) of the months before control.
         let before = control_month.prev();
-        let pre = aggregate(ds, t, s, before).and_then(|c| balances(&c))?;
+        // One aggregate per month, shared by every entity acquired in the month after it.
+        if !pre_control.contains_key(&before) {
+            pre_control.insert(before, aggregate(ds, t, s, before).and_then(|c| balances(&c))?);
+        }
         let mut lines = Vec::new();
         let mut total = Decimal::ZERO;
-        if let Some(b) = pre.get(&e.id) {
+        if let Some(b) = pre_control.get(&before).and_then(|pre| pre.get(&e.id)) {
             for ((acct, cp), amount) in b {
                 if is_pl(acct) {
                     lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
@@ -303,8 +307,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         );
     }
 
-    let rate_of =
-        |c: Currency, p: Period| ds.rates.iter().find(|r| r.currency == c && r.period == p).map(|r| r.closing);
+    let closing: BTreeMap<(Currency, Period), crate::load::Rate> =
+        ds.rates.iter().map(|r| ((r.currency, r.period), r.closing)).collect();
+    let rate_of = |c: Currency, p: Period| closing.get(&(c, p)).copied();
     let pres = ds.settings.presentation_currency;
     // 2b. Unrealised profit on goods still held inside the group: the latest count at
     //     or before the period, in the buyer's currency at the closing rate. The

@@ -486,11 +486,25 @@ fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
 
 fn check_counterparties(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let known: BTreeSet<&str> = ds.entities.iter().map(|e| e.id.as_str()).collect();
+    let known_frame = DataFrame::new(
+        known.len(),
+        vec![
+            Column::new("counterparty".into(), known.iter().copied().collect::<Vec<_>>()),
+            Column::new("counterparty_known".into(), vec![true; known.len()]),
+        ],
+    )?;
+    // Only the offending rows reach the Rust loop: a missing, own or unknown counterparty.
     let ic = mapped
         .lines
         .clone()
         .lazy()
         .filter(col("ic_kind").is_not_null().or(col("counterparty").is_not_null()))
+        .join(known_frame.lazy(), [col("counterparty")], [col("counterparty")], JoinArgs::new(JoinType::Left))
+        .filter(
+            (col("ic_kind").is_not_null().and(col("counterparty").is_null()))
+                .or(col("counterparty").eq(col("entity")))
+                .or(col("counterparty").is_not_null().and(col("counterparty_known").is_null())),
+        )
         .select([
             col("entity"),
             col("kind"),
