@@ -23,7 +23,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 
 use crate::load::{Dataset, Quote, Rate};
-use crate::map_accounts::{GRAIN, Mapped, movements, opening_presentation, period_index, period_of_index};
+use crate::map_accounts::{GRAIN, Mapped, opening_presentation, period_index, period_of_index};
 use crate::model::*;
 use crate::money::{self, AMOUNT_SCALE, RATE_SCALE, column_decimals, decimal_lit};
 
@@ -167,7 +167,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
     let mut keys = grain.clone();
     keys.push(col("period_index"));
 
-    let mov = movements(&mapped.lines, fiscal_start, last)?;
+    let mov = mapped.movements(fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
         vec![Column::new("period_index".into(), (p0..=pn).collect::<Vec<i32>>())],

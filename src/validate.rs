@@ -666,7 +666,7 @@ fn check_rates(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>
     let hist: BTreeSet<(&str, &str, Period)> =
         ds.historical_rates.iter().map(|h| (h.entity.as_str(), h.account.as_str(), h.period)).collect();
     let currencies: BTreeMap<&str, Currency> = ds.entities.iter().map(|e| (e.id.as_str(), e.currency)).collect();
-    let movements = crate::map_accounts::movements(&mapped.lines, scope.fiscal_start, scope.period)?;
+    let movements = mapped.movements(scope.fiscal_start, scope.period)?.lazy();
     let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let moved = movements
