@@ -572,7 +572,17 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .unwrap_or_default()
     };
     let journal_so_far = j.entries.clone();
+    // The lines of the journal so far by the entity they correct, with their rule: each
+    // subsidiary's NCI reads only its own.
+    let mut lines_of: BTreeMap<&EntityId, Vec<(&'static str, &EntryLine)>> = BTreeMap::new();
+    for x in &journal_so_far {
+        for l in &x.lines {
+            lines_of.entry(&l.entity).or_default().push((x.rule, l));
+        }
+    }
+    let no_lines = Vec::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && !e.nci.is_zero()) {
+        let own_lines = lines_of.get(&e.id).unwrap_or(&no_lines);
         // The subsidiary's own equity, results of the year and translation difference
         // included, less the equity at acquisition that the investment entry removed.
         let equity_total = -bal
@@ -590,15 +600,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .unwrap_or_default();
         // Unrealised profit the subsidiary made on sales inside the group reduces its
         // post-acquisition equity, and so the NCI's share (upstream).
-        let unrealised: Decimal = journal_so_far
+        let unrealised: Decimal = own_lines
             .iter()
-            .filter(|x| x.rule == "unrealised_profit")
-            .flat_map(|x| x.lines.iter())
+            .filter(|(rule, _)| *rule == "unrealised_profit")
+            .map(|(_, l)| *l)
             .filter(|l| {
-                l.entity == e.id
-                    && chart
-                        .get(&l.account)
-                        .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
+                chart
+                    .get(&l.account)
+                    .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
             })
             .map(|l| l.amount)
             .sum();
@@ -616,11 +625,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
         // Results before control are not the group's (nor the NCI's): the entry of step 1.
         let pre_results = |st: Statement| -> Decimal {
-            journal_so_far
+            own_lines
                 .iter()
-                .filter(|x| x.rule == "pre_acquisition_results" || x.rule == "unrealised_profit")
-                .flat_map(|x| x.lines.iter())
-                .filter(|l| l.entity == e.id && chart.get(&l.account).is_some_and(|d| d.statement == st))
+                .filter(|(rule, _)| *rule == "pre_acquisition_results" || *rule == "unrealised_profit")
+                .map(|(_, l)| *l)
+                .filter(|l| chart.get(&l.account).is_some_and(|d| d.statement == st))
                 .map(|l| l.amount)
                 .sum()
         };
@@ -642,12 +651,12 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 line(&roles.retained_earnings, &e.id, None, nci_post - indirect),
             ],
         );
-        let nci_acq: Decimal = j
-            .entries
+        // Posted before this loop, so in the journal so far.
+        let nci_acq: Decimal = own_lines
             .iter()
-            .filter(|x| x.rule == "investment_and_goodwill")
-            .flat_map(|x| x.lines.iter())
-            .filter(|l| l.entity == e.id && l.account == roles.non_controlling_interest)
+            .filter(|(rule, _)| *rule == "investment_and_goodwill")
+            .map(|(_, l)| *l)
+            .filter(|l| l.account == roles.non_controlling_interest)
             .map(|l| -l.amount)
             .sum();
         nci_rows.push(NciRow {
