@@ -236,8 +236,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         // Income and expense (and translation difference) of the months before control.
         let before = control_month.prev();
         // One aggregate per month, shared by every entity acquired in the month after it.
-        if !pre_control.contains_key(&before) {
-            pre_control.insert(before, aggregate(ds, t, s, before).and_then(|c| balances(&c))?);
+        if let std::collections::btree_map::Entry::Vacant(slot) = pre_control.entry(before) {
+            slot.insert(aggregate(ds, t, s, before).and_then(|c| balances(&c))?);
         }
         let mut lines = Vec::new();
         let mut total = Decimal::ZERO;

@@ -178,7 +178,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         .clone()
         .select(grain.clone())
         .unique(None, UniqueKeepStrategy::Any)
-        .sort(GRAIN.iter().copied().collect::<Vec<_>>(), SortMultipleOptions::default().with_nulls_last(true))
+        .sort(GRAIN.to_vec(), SortMultipleOptions::default().with_nulls_last(true))
         .with_row_index("gid", None);
     let grid = grains.cross_join(periods.lazy(), None);
     let by_gid = || ["gid", "period_index"];
