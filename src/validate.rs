@@ -443,15 +443,20 @@ fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
         [mapped.lines.clone().lazy().select(cols()), mapped.unmapped.clone().lazy().select(cols())],
         UnionArgs::default(),
     )?;
+    let keys = || ["entity", "kind", "period_index", "account", "counterparty", "txn_currency"].map(col).to_vec();
+    // Counting first keeps the lists of lines to the few repeated keys: building a list
+    // for every row's key costs more than the count.
+    let repeated = all
+        .clone()
+        .group_by(keys())
+        .agg([col("line").count().alias("n")])
+        .filter(col("n").gt(lit(1u32)))
+        .select(keys());
+    let mut semi = JoinArgs::new(JoinType::Semi);
+    semi.nulls_equal = true;
     let dups = all
-        .group_by([
-            col("entity"),
-            col("kind"),
-            col("period_index"),
-            col("account"),
-            col("counterparty"),
-            col("txn_currency"),
-        ])
+        .join(repeated, keys(), keys(), semi)
+        .group_by(keys())
         .agg([col("line").sort(Default::default()).alias("lines"), col("file").first(), col("line").count().alias("n")])
         .filter(col("n").gt(lit(1u32)))
         .sort(["entity", "period_index", "account"], SortMultipleOptions::default())
