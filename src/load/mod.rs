@@ -145,6 +145,7 @@ impl Dataset {
     pub fn periods(&self) -> Vec<Period> {
         let mut out = BTreeSet::new();
         if let Ok(c) = self.ledger.column("period")
+            && let Ok(c) = c.unique()
             && let Ok(ca) = c.str()
         {
             for p in ca.iter().flatten() {
