@@ -255,7 +255,8 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         when(nothing.clone()).then(one.clone()).otherwise(rate).alias("rate"),
         when(nothing).then(lit(Quote::PresentationPerUnit.as_str())).otherwise(quote_used).alias("quote_used"),
     ]);
-    let g = translate_rows(g, minor, mode)?;
+    // The plan so far feeds three branches (by quote direction): computed once.
+    let g = translate_rows(g.cache(), minor, mode)?;
     // The presentation currency, brought-forward amounts and balance-translated rows
     // give the balance directly; movement-translated rows cumulate.
     let pzero = decimal_lit(Decimal::ZERO, minor);
