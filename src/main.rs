@@ -19,11 +19,19 @@ fn main() {
         .with_filter(filter);
     // Stage figures are recorded only when asked for (`--stages FILE`).
     let recorder = cli.stages.as_ref().map(|_| tessera::stages::StageRecorder::new());
-    tracing_subscriber::registry().with(log).with(recorder.clone()).init();
+    // A spinner names the running stage on a terminal, unless the log already does.
+    // generate and bench draw bars of their own.
+    let own_bars = matches!(cli.command, tessera::cli::Command::Generate { .. } | tessera::cli::Command::Bench { .. });
+    let spinner = if cli.verbose == 0 && !own_bars { tessera::progress::StageSpinner::new() } else { None };
+    tracing_subscriber::registry().with(log).with(recorder.clone()).with(spinner.clone()).init();
     let stages = cli.stages.clone();
     let stdout = std::io::stdout();
     let mut out = stdout.lock();
-    let code = match tessera::run(cli, &mut out) {
+    let result = tessera::run(cli, &mut out);
+    if let Some(s) = &spinner {
+        s.finish();
+    }
+    let code = match result {
         Ok(code) => code,
         Err(e) => {
             eprintln!("tessera: {e}");

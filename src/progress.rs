@@ -28,3 +28,54 @@ pub fn bar(len: u64, what: &str) -> ProgressBar {
     });
     b
 }
+
+/// A spinner naming the stage being run, driven by the stages' root spans; `None` when
+/// stderr is not a terminal.
+#[derive(Clone)]
+pub struct StageSpinner {
+    bar: ProgressBar,
+}
+
+impl StageSpinner {
+    pub fn new() -> Option<Self> {
+        if !std::io::stderr().is_terminal() {
+            return None;
+        }
+        let bar = ProgressBar::with_draw_target(None, ProgressDrawTarget::hidden());
+        bar.set_style(
+            ProgressStyle::with_template("{spinner} [{elapsed_precise}] {msg}")
+                .unwrap_or_else(|_| ProgressStyle::default_spinner()),
+        );
+        bar.enable_steady_tick(Duration::from_millis(120));
+        let shown = bar.clone();
+        std::thread::spawn(move || {
+            std::thread::sleep(Duration::from_secs(1));
+            if !shown.is_finished() {
+                shown.set_draw_target(ProgressDrawTarget::stderr());
+            }
+        });
+        Some(Self { bar })
+    }
+
+    pub fn finish(&self) {
+        self.bar.finish_and_clear();
+    }
+}
+
+impl<S> tracing_subscriber::Layer<S> for StageSpinner
+where
+    S: tracing::Subscriber + for<'a> tracing_subscriber::registry::LookupSpan<'a>,
+{
+    fn on_new_span(
+        &self,
+        _attrs: &tracing::span::Attributes<'_>,
+        id: &tracing::span::Id,
+        ctx: tracing_subscriber::layer::Context<'_, S>,
+    ) {
+        if let Some(span) = ctx.span(id)
+            && span.parent().is_none()
+        {
+            self.bar.set_message(span.name().to_string());
+        }
+    }
+}
