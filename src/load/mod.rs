@@ -245,7 +245,10 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             jobs.push((file.clone(), rel(root, file), spec));
         }
     }
-    let mut fetched = prefetch(jobs);
+    let mut fetched = {
+        let _span = tracing::debug_span!("read_files", files = jobs.len()).entered();
+        prefetch(jobs)
+    };
     let mut take = |file: &PathBuf, inputs: &mut Vec<InputFile>, f: &mut Vec<Finding>| -> Option<TextTable> {
         let got = fetched.remove(file)?;
         if let Some(sha) = got.sha256 {
@@ -325,10 +328,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         }
     }
 
+    let parse_span = tracing::debug_span!("parse_tables").entered();
     let mappings = ledger::build_mappings(mapping_tables, &mut f);
     let ledger_df = ledger::build_ledger(ledger_tables, &known, &mut f);
     let opening = ledger::build_opening(opening_tables, &known, &mut f);
     let documents = documents::build_documents(document_tables, &mut f);
+    drop(parse_span);
 
     let pres = settings.as_ref().map(|s| s.presentation_currency);
     let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
