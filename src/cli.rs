@@ -26,6 +26,10 @@ pub struct Cli {
     /// Log stage timings and details to stderr (e.g. -v, or RUST_LOG=tessera=debug).
     #[arg(short, long, global = true, action = clap::ArgAction::Count)]
     pub verbose: u8,
+    /// Write each stage's wall time and peak memory to this JSON file when the run ends
+    /// (what `tessera bench` reads from each close it runs).
+    #[arg(long, global = true)]
+    pub stages: Option<PathBuf>,
     #[command(subcommand)]
     pub command: Command,
 }
@@ -133,6 +137,53 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
+    /// Generates synthetic groups of the sizes asked, closes each from CSV and from
+    /// Parquet in a child process, and writes wall time, rows per second and peak memory
+    /// per stage to a JSON file. Run it from a release build.
+    Bench {
+        /// Sizes to run: S (300 entities, 1 month), M (300 entities, 12 months), L (2,000
+        /// entities, 12 months, 1M document lines).
+        #[arg(long, value_delimiter = ',', default_value = "S,M")]
+        sizes: Vec<String>,
+        /// Input formats of the trial balances: csv, parquet.
+        #[arg(long, value_delimiter = ',', default_value = "csv,parquet")]
+        formats: Vec<String>,
+        /// The results file.
+        #[arg(long = "out", default_value = "docs/bench/results.json")]
+        out_file: PathBuf,
+        /// Folder for the generated groups; a group already there for the same options
+        /// is reused.
+        #[arg(long, default_value = "target/bench-data")]
+        work: PathBuf,
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+    },
+    /// Writes a synthetic group (invented data in the input format) into a folder: a
+    /// multi-tier structure in many currencies with intercompany pairs on both sides.
+    Generate {
+        #[arg(long, default_value_t = 300)]
+        entities: usize,
+        /// Accounts in the group chart.
+        #[arg(long, default_value_t = 1500)]
+        accounts: usize,
+        /// Group accounts each entity uses.
+        #[arg(long, default_value_t = 400)]
+        used: usize,
+        /// Months of the fiscal year delivered (from January 2026).
+        #[arg(long, default_value_t = 1)]
+        months: u32,
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Intercompany document lines to aim for, over all entities and months.
+        #[arg(long, default_value_t = 0)]
+        documents: usize,
+        /// Write trial balances as Parquet instead of CSV.
+        #[arg(long)]
+        parquet: bool,
+        /// The data folder to create (it must not hold entities/ yet).
+        #[arg(long = "out")]
+        out_dir: PathBuf,
+    },
     /// Agrees intercompany positions pair by pair and kind by kind on whatever has been
     /// delivered, and explains each difference (FX, timing) or marks it open.
     Match {
@@ -218,6 +269,13 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
         ),
         Command::Translate { period, entity, format } => {
             crate::commands::translate(&cli.data, period, entity.map(crate::model::EntityId::new), format, out)
+        }
+        Command::Bench { sizes, formats, out_file, work, seed } => {
+            crate::bench::run(&crate::bench::Request { sizes, formats, out_file, work, seed }, out)
+        }
+        Command::Generate { entities, accounts, used, months, seed, documents, parquet, out_dir } => {
+            let options = crate::generate::Options { entities, accounts, used, months, seed, documents, parquet };
+            crate::commands::generate(options, &out_dir, out)
         }
         Command::Match { period, entity, format, tolerance_absolute, tolerance_relative, fail_on_open } => {
             let ask = crate::commands::MatchRequest {

@@ -226,7 +226,7 @@ fn balances(contrib: &DataFrame) -> PolarsResult<Balances> {
 /// The close at `period` on year-to-date balances.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let contributions = aggregate(ds, t, s, period)?;
-    let _span = tracing::info_span!("eliminate", period = %period).entered();
+    let eliminate_span = tracing::info_span!("eliminate", period = %period).entered();
     let bal = balances(&contributions)?;
     let mut findings = Vec::new();
     let roles = &ds.settings.accounts;
@@ -247,6 +247,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     // 1. Results before the acquisition date belong to the equity acquired (IFRS 10.B88):
     //    they are moved from income and expense into pre-acquisition retained earnings.
     let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let mut pre_control: BTreeMap<Period, Balances> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full) {
         let Some(from) = e.controlled_from else { continue };
         let control_month = Period::of_date(from);
@@ -255,10 +256,13 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         }
         // Income and expense (and translation difference) of the months before control.
         let before = control_month.prev();
-        let pre = aggregate(ds, t, s, before).and_then(|c| balances(&c))?;
+        // One aggregate per month, shared by every entity acquired in the month after it.
+        if let std::collections::btree_map::Entry::Vacant(slot) = pre_control.entry(before) {
+            slot.insert(aggregate(ds, t, s, before).and_then(|c| balances(&c))?);
+        }
         let mut lines = Vec::new();
         let mut total = Decimal::ZERO;
-        if let Some(b) = pre.get(&e.id) {
+        if let Some(b) = pre_control.get(&before).and_then(|pre| pre.get(&e.id)) {
             for ((acct, cp), amount) in b {
                 if is_pl(acct) {
                     lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
@@ -436,8 +440,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         })
         .collect();
 
-    let rate_of =
-        |c: Currency, p: Period| ds.rates.iter().find(|r| r.currency == c && r.period == p).map(|r| r.closing);
+    let closing: BTreeMap<(Currency, Period), crate::load::Rate> =
+        ds.rates.iter().map(|r| ((r.currency, r.period), r.closing)).collect();
+    let rate_of = |c: Currency, p: Period| closing.get(&(c, p)).copied();
     let pres = ds.settings.presentation_currency;
     // 2b. Unrealised profit on goods still held inside the group: the latest count at
     //     or before the period, in the buyer's currency at the closing rate. The
@@ -812,7 +817,17 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .unwrap_or_default()
     };
     let journal_so_far = j.entries.clone();
+    // The lines of the journal so far by the entity they correct, with their rule: each
+    // subsidiary's NCI reads only its own.
+    let mut lines_of: BTreeMap<&EntityId, Vec<(&'static str, &EntryLine)>> = BTreeMap::new();
+    for x in &journal_so_far {
+        for l in &x.lines {
+            lines_of.entry(&l.entity).or_default().push((x.rule, l));
+        }
+    }
+    let no_lines = Vec::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && !e.nci.is_zero()) {
+        let own_lines = lines_of.get(&e.id).unwrap_or(&no_lines);
         // The subsidiary's own equity, results of the year and translation difference
         // included, less the equity at acquisition that the investment entry removed.
         let equity_total = -bal
@@ -830,15 +845,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .unwrap_or_default();
         // Unrealised profit the subsidiary made on sales inside the group reduces its
         // post-acquisition equity, and so the NCI's share (upstream).
-        let unrealised: Decimal = journal_so_far
+        let unrealised: Decimal = own_lines
             .iter()
-            .filter(|x| x.rule == "unrealised_profit")
-            .flat_map(|x| x.lines.iter())
+            .filter(|(rule, _)| *rule == "unrealised_profit")
+            .map(|(_, l)| *l)
             .filter(|l| {
-                l.entity == e.id
-                    && chart
-                        .get(&l.account)
-                        .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
+                chart
+                    .get(&l.account)
+                    .is_some_and(|d| d.class == AccountClass::Equity || d.statement != Statement::BalanceSheet)
             })
             .map(|l| l.amount)
             .sum();
@@ -856,11 +870,13 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         // well would count that part twice.
         // Results before control are not the group's (nor the NCI's): the entry of step 1.
         let pre_results = |st: Statement| -> Decimal {
-            journal_so_far
+            own_lines
                 .iter()
-                .filter(|x| matches!(x.rule, "pre_acquisition_results" | "unrealised_profit" | "net_investment_fx"))
-                .flat_map(|x| x.lines.iter())
-                .filter(|l| l.entity == e.id && chart.get(&l.account).is_some_and(|d| d.statement == st))
+                .filter(|(rule, _)| {
+                    matches!(*rule, "pre_acquisition_results" | "unrealised_profit" | "net_investment_fx")
+                })
+                .map(|(_, l)| *l)
+                .filter(|l| chart.get(&l.account).is_some_and(|d| d.statement == st))
                 .map(|l| l.amount)
                 .sum()
         };
@@ -882,12 +898,12 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 line(&roles.retained_earnings, &e.id, None, nci_post),
             ],
         );
-        let nci_acq: Decimal = j
-            .entries
+        // Posted before this loop, so in the journal so far.
+        let nci_acq: Decimal = own_lines
             .iter()
-            .filter(|x| x.rule == "investment_and_goodwill")
-            .flat_map(|x| x.lines.iter())
-            .filter(|l| l.entity == e.id && l.account == roles.non_controlling_interest)
+            .filter(|(rule, _)| *rule == "investment_and_goodwill")
+            .map(|(_, l)| *l)
+            .filter(|l| l.account == roles.non_controlling_interest)
             .map(|l| -l.amount)
             .sum();
         nci_rows.push(NciRow {
@@ -901,6 +917,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     }
 
     // Roll-up: contributions plus eliminations, per account.
+    drop(eliminate_span);
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
     Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, reserves, findings })

@@ -312,9 +312,13 @@ pub fn run_close(
         return Err(Error::Usage(format!("entity {root} is not in entities.csv")));
     }
     let translated = crate::translate::translate(ds, &checked.mapped, scope.fiscal_start, scope.period)?;
-    let mut checks = prove_inputs(ds, &checked.mapped)?;
+    let mut checks = {
+        let _span = tracing::info_span!("prove_inputs").entered();
+        prove_inputs(ds, &checked.mapped)?
+    };
     checks.extend(crate::translate::prove(&translated)?);
     let structure_at = |p: Period| {
+        let _span = tracing::info_span!("structure", period = %p).entered();
         let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
         crate::structure::build(&ids, &ds.holdings, &root, p.last_day(), ds.settings.policies.significant_influence).0
     };
@@ -330,7 +334,10 @@ pub fn run_close(
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
     };
-    checks.extend(crate::close::prove(&close)?);
+    checks.extend({
+        let _span = tracing::info_span!("prove_close").entered();
+        crate::close::prove(&close)?
+    });
     Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
 }
 
@@ -456,6 +463,7 @@ pub fn close(
         findings: &c.close.findings,
         caution: report::CAUTION,
     };
+    let _span = tracing::info_span!("report").entered();
     let dir = report::close::output_dir(out_dir, scope.period);
     report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
@@ -663,13 +671,12 @@ fn prove_inputs(ds: &Dataset, mapped: &Mapped) -> Result<Vec<crate::proof::Check
     let delivered_rows = ds.ledger.height() + ds.opening.height();
     let mapped_rows = mapped.lines.height() + mapped.unmapped.height();
     // Debits, so that the comparison is not trivially 0 = 0.
+    // Summed by polars: amounts are below 10^15 (load bounds them), so even 10^7 rows
+    // stay far inside the 38 digits of the sum.
     let debits = |df: &DataFrame| -> PolarsResult<Decimal> {
-        Ok(crate::money::column_decimals(df.column("amount")?)?
-            .iter()
-            .flatten()
-            .filter(|d| d.is_sign_positive())
-            .copied()
-            .sum())
+        let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
+        let total = df.clone().lazy().select([col("amount").filter(col("amount").gt(zero)).sum()]).collect()?;
+        Ok(crate::money::column_decimals(total.column("amount")?)?.first().copied().flatten().unwrap_or_default())
     };
     let total_in = debits(&ds.ledger)? + debits(&ds.opening)? + opening_total;
     let total_mapped = debits(&mapped.lines)?;
@@ -743,4 +750,16 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;
     let tied = crate::proof::tied(&matching.proof);
     Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
+}
+
+/// Writes a synthetic group: the plan is drawn once, then each entity is drawn and
+/// written in turn.
+pub fn generate(options: crate::generate::Options, out_dir: &Path, out: &mut dyn Write) -> Result<i32, Error> {
+    let _span = tracing::info_span!("generate", entities = options.entities, months = options.months).entered();
+    let plan = crate::generate::Plan::new(options).map_err(Error::Usage)?;
+    let bar = crate::progress::bar(plan.entities.len() as u64, "generate");
+    let written = report::generate::write(&plan, out_dir, &|n| bar.set_position(n as u64))?;
+    bar.finish_and_clear();
+    out.write_all(report::generate::render(&written, out_dir).as_bytes())?;
+    Ok(0)
 }

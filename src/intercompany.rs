@@ -278,7 +278,7 @@ impl Deliveries {
             .lazy()
             .join(used.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Semi))
             .collect()?;
-        Ok(Mapped { lines, unmapped: mapped.unmapped.clone(), mapped_twice: mapped.mapped_twice.clone() })
+        Ok(Mapped::new(lines, mapped.unmapped.clone(), mapped.mapped_twice.clone()))
     }
 }
 

@@ -3,20 +3,24 @@
 //! matched and eliminated, and rolled up into group, sub-group and segment statements
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
+pub mod bench;
 pub mod cli;
 pub mod close;
 pub mod commands;
 pub mod findings;
+pub mod generate;
 pub mod intercompany;
 pub mod layout;
 pub mod load;
 pub mod map_accounts;
 pub mod model;
 pub mod money;
+pub mod progress;
 pub mod proof;
 pub mod rates;
 pub mod report;
 pub mod segments;
+pub mod stages;
 pub mod structure;
 pub mod translate;
 pub mod validate;

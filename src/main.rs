@@ -3,6 +3,7 @@
 
 use clap::Parser;
 use tracing_subscriber::EnvFilter;
+use tracing_subscriber::prelude::*;
 
 fn main() {
     let cli = tessera::Cli::parse();
@@ -12,19 +13,35 @@ fn main() {
         _ => "tessera=debug",
     };
     let filter = EnvFilter::try_from_default_env().unwrap_or_else(|_| EnvFilter::new(level));
-    tracing_subscriber::fmt()
-        .with_env_filter(filter)
+    let log = tracing_subscriber::fmt::layer()
         .with_writer(std::io::stderr)
         .with_span_events(tracing_subscriber::fmt::format::FmtSpan::CLOSE)
-        .init();
+        .with_filter(filter);
+    // Stage figures are recorded only when asked for (`--stages FILE`).
+    let recorder = cli.stages.as_ref().map(|_| tessera::stages::StageRecorder::new());
+    // A spinner names the running stage on a terminal, unless the log already does.
+    // generate and bench draw bars of their own.
+    let own_bars = matches!(cli.command, tessera::cli::Command::Generate { .. } | tessera::cli::Command::Bench { .. });
+    let spinner = if cli.verbose == 0 && !own_bars { tessera::progress::StageSpinner::new() } else { None };
+    tracing_subscriber::registry().with(log).with(recorder.clone()).with(spinner.clone()).init();
+    let stages = cli.stages.clone();
     let stdout = std::io::stdout();
     let mut out = stdout.lock();
-    let code = match tessera::run(cli, &mut out) {
+    let result = tessera::run(cli, &mut out);
+    if let Some(s) = &spinner {
+        s.finish();
+    }
+    let code = match result {
         Ok(code) => code,
         Err(e) => {
             eprintln!("tessera: {e}");
             2
         }
     };
+    if let (Some(path), Some(r)) = (stages, recorder)
+        && let Err(e) = tessera::report::bench::write_stages(&path, &r.records())
+    {
+        eprintln!("tessera: cannot write the stage figures: {e}");
+    }
     std::process::exit(code);
 }

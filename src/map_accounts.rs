@@ -39,6 +39,27 @@ pub struct Mapped {
     pub unmapped: DataFrame,
     /// Mapping rows that map one local account to more than one group account.
     pub mapped_twice: DataFrame,
+    /// The movement frame, computed once for the first (fiscal start, last period) asked
+    /// for: validate and translate both start from it.
+    movement_cache: std::sync::OnceLock<(Period, Period, DataFrame)>,
+}
+
+impl Mapped {
+    pub fn new(lines: DataFrame, unmapped: DataFrame, mapped_twice: DataFrame) -> Self {
+        Self { lines, unmapped, mapped_twice, movement_cache: std::sync::OnceLock::new() }
+    }
+
+    /// `movements(&self.lines, fiscal_start, last)`, collected, computed once per run.
+    pub fn movements(&self, fiscal_start: Period, last: Period) -> PolarsResult<DataFrame> {
+        if let Some((f, l, df)) = self.movement_cache.get()
+            && (*f, *l) == (fiscal_start, last)
+        {
+            return Ok(df.clone());
+        }
+        let df = movements(&self.lines, fiscal_start, last)?.collect()?;
+        let _ = self.movement_cache.set((fiscal_start, last, df.clone()));
+        Ok(df)
+    }
 }
 
 /// The chart as a frame: group_account, basis, ic_kind, statement, class, known.
@@ -114,7 +135,7 @@ pub fn map_accounts(ds: &Dataset, fiscal_start: Period) -> PolarsResult<Mapped> 
         .filter(col("group_account").is_not_null())
         .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Left))
         .collect()?;
-    Ok(Mapped { lines, unmapped, mapped_twice })
+    Ok(Mapped::new(lines, unmapped, mapped_twice))
 }
 
 /// The opening presentation-currency amounts of historical-basis accounts, per grain.
@@ -173,11 +194,8 @@ pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> Pola
     let diffed = concat([snapshots, shifted], UnionArgs::default())?
         .group_by(keys.clone())
         .agg([col("amount").sum(), col("txn_amount").sum()]);
+    // In no particular order: every user joins or sorts it.
     Ok(concat([direct, diffed], UnionArgs::default())?
         .group_by(keys)
-        .agg([col("amount").sum(), col("txn_amount").sum()])
-        .sort(
-            ["entity", "group_account", "counterparty", "txn_currency", "period_index"],
-            SortMultipleOptions::default().with_nulls_last(true),
-        ))
+        .agg([col("amount").sum(), col("txn_amount").sum()]))
 }

@@ -35,7 +35,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 
 use crate::load::{Dataset, Quote, Rate};
-use crate::map_accounts::{GRAIN, Mapped, movements, opening_presentation, period_index, period_of_index};
+use crate::map_accounts::{GRAIN, Mapped, opening_presentation, period_index, period_of_index};
 use crate::model::*;
 use crate::money::{self, AMOUNT_SCALE, RATE_SCALE, column_decimals, decimal_lit};
 
@@ -180,12 +180,21 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
     let mut keys = grain.clone();
     keys.push(col("period_index"));
 
-    let mov = movements(&mapped.lines, fiscal_start, last)?;
+    let mov = mapped.movements(fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
         vec![Column::new("period_index".into(), (p0..=pn).collect::<Vec<i32>>())],
     )?;
-    let grid = mov.clone().select(grain.clone()).unique(None, UniqueKeepStrategy::Any).cross_join(periods.lazy(), None);
+    // Each grain gets an integer id in grain order, so that sorting and the running sums
+    // per grain work on one integer column instead of four text columns with nulls.
+    let grains = mov
+        .clone()
+        .select(grain.clone())
+        .unique(None, UniqueKeepStrategy::Any)
+        .sort(GRAIN.to_vec(), SortMultipleOptions::default().with_nulls_last(true))
+        .with_row_index("gid", None);
+    let grid = grains.cross_join(periods.lazy(), None);
+    let by_gid = || ["gid", "period_index"];
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
     let pres_code = pres.code();
@@ -209,11 +218,8 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
             JoinArgs::new(JoinType::Left),
         )
         .join(opening_presentation(ds)?, grain.clone(), grain.clone(), join_args(JoinType::Left))
-        .sort(
-            ["entity", "group_account", "counterparty", "txn_currency", "period_index"],
-            SortMultipleOptions::default().with_nulls_last(true),
-        )
-        .with_column(col("amount_local").cum_sum(false).over(grain.clone())?.alias("balance_local"));
+        .sort(by_gid(), SortMultipleOptions::default())
+        .with_column(col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"));
 
     // Which amount is translated at which rate, row by row.
     let is_pres = col("currency").eq(lit(pres_code));
@@ -262,7 +268,8 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         when(nothing.clone()).then(one.clone()).otherwise(rate).alias("rate"),
         when(nothing).then(lit(Quote::PresentationPerUnit.as_str())).otherwise(quote_used).alias("quote_used"),
     ]);
-    let g = translate_rows(g, minor, mode)?;
+    // The plan so far feeds three branches (by quote direction): computed once.
+    let g = translate_rows(g.cache(), minor, mode)?;
     // The presentation currency, brought-forward amounts and balance-translated rows
     // give the balance directly; movement-translated rows cumulate.
     let pzero = decimal_lit(Decimal::ZERO, minor);
@@ -270,12 +277,9 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         .then(pzero.clone())
         .otherwise(col("translated"))
         .cum_sum(false)
-        .over(grain.clone())?;
+        .over([col("gid")])?;
     let g = g
-        .sort(
-            ["entity", "group_account", "counterparty", "txn_currency", "period_index"],
-            SortMultipleOptions::default().with_nulls_last(true),
-        )
+        .sort(by_gid(), SortMultipleOptions::default())
         .with_column(
             when(col("by_balance").or(kind("unit")))
                 .then(col("translated"))
@@ -284,7 +288,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         )
         .with_column(
             (col("balance_presentation")
-                - col("balance_presentation").shift(lit(1)).over(grain.clone())?.fill_null(pzero.clone()))
+                - col("balance_presentation").shift(lit(1)).over([col("gid")])?.fill_null(pzero.clone()))
             .alias("amount_presentation"),
         );
     let lines = g
@@ -364,6 +368,7 @@ fn explain(
     let hist_moves = historical_moves(lines)?;
     let pres = ds.settings.presentation_currency;
     let mode = ds.settings.policies.rounding;
+    let entities: std::collections::HashMap<&str, &Entity> = ds.entities.iter().map(|x| (x.id.as_str(), x)).collect();
     let mut out = Vec::new();
     for i in 0..differences.height() {
         let (Some(e), Some(p)) = (&td_ent[i], td_per[i]) else { continue };
@@ -371,7 +376,7 @@ fn explain(
         if period < fiscal_start || period > last {
             continue;
         }
-        let Some(entity) = ds.entity(&EntityId::new(e)) else { continue };
+        let Some(entity) = entities.get(e.as_str()) else { continue };
         let total_debit = td[i].unwrap_or_default();
         let total = -total_debit;
         let empty = BTreeMap::new();
@@ -396,7 +401,8 @@ fn explain(
                 comps[0] = cn.apply(na_before) - cb.apply(na_before);
                 // Profit at closing minus profit as translated, the latter unrounded:
                 // periodic: movement x average; year-to-date: the change of ytd x ytd average.
-                let translated_unrounded = profit_unrounded(ds, now, before, entity.currency, period, fiscal_start);
+                let translated_unrounded =
+                    profit_unrounded(ds, &rates, now, before, entity.currency, period, fiscal_start);
                 comps[1] = cn.apply(profit) - translated_unrounded.unwrap_or(profit_pres);
                 let mut eq_translated = Decimal::ZERO;
                 for (acct, m) in hist_moves.get(&(e.clone(), p)).into_iter().flatten() {
@@ -433,13 +439,14 @@ fn explain(
 /// Profit of the month as translated, before rounding, under the income policy.
 fn profit_unrounded(
     ds: &Dataset,
+    rates: &BTreeMap<(Currency, Period), &crate::load::MonthlyRate>,
     now: &BTreeMap<(String, String), (Decimal, Decimal, Decimal)>,
     before: &BTreeMap<(String, String), (Decimal, Decimal, Decimal)>,
     currency: Currency,
     period: Period,
     fiscal_start: Period,
 ) -> Option<Decimal> {
-    let r_now = ds.rates.iter().find(|r| r.currency == currency && r.period == period)?;
+    let r_now = rates.get(&(currency, period))?;
     match ds.settings.policies.income_translation {
         IncomeTranslation::Periodic => {
             let m: Decimal = now.iter().filter(|((b, _), _)| b == "average").map(|(_, c)| c.0).sum();
@@ -452,7 +459,7 @@ fn profit_unrounded(
             let t_before = if period == fiscal_start {
                 Decimal::ZERO
             } else {
-                let r_before = ds.rates.iter().find(|r| r.currency == currency && r.period == period.prev())?;
+                let r_before = rates.get(&(currency, period.prev()))?;
                 r_before.average_ytd?.apply(-ytd_before)
             };
             Some(t_now - t_before)

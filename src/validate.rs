@@ -444,15 +444,20 @@ fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
         [mapped.lines.clone().lazy().select(cols()), mapped.unmapped.clone().lazy().select(cols())],
         UnionArgs::default(),
     )?;
+    let keys = || ["entity", "kind", "period_index", "account", "counterparty", "txn_currency"].map(col).to_vec();
+    // Counting first keeps the lists of lines to the few repeated keys: building a list
+    // for every row's key costs more than the count.
+    let repeated = all
+        .clone()
+        .group_by(keys())
+        .agg([col("line").count().alias("n")])
+        .filter(col("n").gt(lit(1u32)))
+        .select(keys());
+    let mut semi = JoinArgs::new(JoinType::Semi);
+    semi.nulls_equal = true;
     let dups = all
-        .group_by([
-            col("entity"),
-            col("kind"),
-            col("period_index"),
-            col("account"),
-            col("counterparty"),
-            col("txn_currency"),
-        ])
+        .join(repeated, keys(), keys(), semi)
+        .group_by(keys())
         .agg([col("line").sort(Default::default()).alias("lines"), col("file").first(), col("line").count().alias("n")])
         .filter(col("n").gt(lit(1u32)))
         .sort(["entity", "period_index", "account"], SortMultipleOptions::default())
@@ -487,11 +492,25 @@ fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
 
 fn check_counterparties(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let known: BTreeSet<&str> = ds.entities.iter().map(|e| e.id.as_str()).collect();
+    let known_frame = DataFrame::new(
+        known.len(),
+        vec![
+            Column::new("counterparty".into(), known.iter().copied().collect::<Vec<_>>()),
+            Column::new("counterparty_known".into(), vec![true; known.len()]),
+        ],
+    )?;
+    // Only the offending rows reach the Rust loop: a missing, own or unknown counterparty.
     let ic = mapped
         .lines
         .clone()
         .lazy()
         .filter(col("ic_kind").is_not_null().or(col("counterparty").is_not_null()))
+        .join(known_frame.lazy(), [col("counterparty")], [col("counterparty")], JoinArgs::new(JoinType::Left))
+        .filter(
+            (col("ic_kind").is_not_null().and(col("counterparty").is_null()))
+                .or(col("counterparty").eq(col("entity")))
+                .or(col("counterparty").is_not_null().and(col("counterparty_known").is_null())),
+        )
         .select([
             col("entity"),
             col("kind"),
@@ -653,7 +672,7 @@ fn check_rates(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>
     let hist: BTreeSet<(&str, &str, Period)> =
         ds.historical_rates.iter().map(|h| (h.entity.as_str(), h.account.as_str(), h.period)).collect();
     let currencies: BTreeMap<&str, Currency> = ds.entities.iter().map(|e| (e.id.as_str(), e.currency)).collect();
-    let movements = crate::map_accounts::movements(&mapped.lines, scope.fiscal_start, scope.period)?;
+    let movements = mapped.movements(scope.fiscal_start, scope.period)?.lazy();
     let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let moved = movements

@@ -52,25 +52,39 @@ pub(super) const NUMBER: &str = r"^-?[0-9]+(\.[0-9]+)?$";
 const PERIOD: &str = r"^[0-9]{4}-(0[1-9]|1[0-2])$";
 
 pub(super) fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> PolarsResult<DataFrame> {
-    let mut lfs = Vec::with_capacity(tables.len());
+    // Each table gets its entity, kind, file and line numbers as plain columns and is
+    // stacked eagerly: thousands of small lazy plans cost more to plan than to run.
+    let mut stacked: Option<DataFrame> = None;
     for (entity, kind, t) in tables {
-        let first = t.first_line as i64;
-        let mut exprs: Vec<Expr> = cols.iter().map(|c| col(*c)).collect();
-        exprs.push(lit(entity).alias("entity"));
-        exprs.push(lit(kind).alias("kind"));
-        exprs.push(lit(t.file.clone()).alias("file"));
-        exprs.push((col("row").cast(DataType::Int64) + lit(first)).cast(DataType::UInt64).alias("line"));
-        lfs.push(t.df.lazy().with_row_index("row", None).select(exprs));
+        let n = t.df.height();
+        let mut columns: Vec<Column> = Vec::with_capacity(cols.len() + 4);
+        for c in cols {
+            columns.push(t.df.column(c)?.clone());
+        }
+        columns.push(Column::new_scalar("entity".into(), Scalar::from(PlSmallStr::from(entity)), n));
+        columns.push(Column::new_scalar("kind".into(), Scalar::from(PlSmallStr::from(kind)), n));
+        columns.push(Column::new_scalar("file".into(), Scalar::from(PlSmallStr::from(t.file.as_str())), n));
+        columns.push(Column::new("line".into(), (t.first_line..t.first_line + n as u64).collect::<Vec<u64>>()));
+        let df = DataFrame::new(n, columns)?;
+        match &mut stacked {
+            None => stacked = Some(df),
+            Some(s) => {
+                s.vstack_mut(&df)?;
+            }
+        }
     }
-    if lfs.is_empty() {
+    if let Some(mut df) = stacked {
+        df.rechunk_mut_par();
+        return Ok(df);
+    }
+    {
         let mut schema = Schema::default();
         for c in cols.iter().chain(["entity", "kind", "file"].iter()) {
             schema.insert((*c).into(), DataType::String);
         }
         schema.insert("line".into(), DataType::UInt64);
-        return Ok(DataFrame::empty_with_schema(&schema));
+        Ok(DataFrame::empty_with_schema(&schema))
     }
-    concat(lfs, UnionArgs::default())?.collect()
 }
 
 /// A frame code -> minor unit for the codes in `codes` that ISO 4217 knows.
@@ -350,7 +364,12 @@ pub fn build_ledger(
 ) -> DataFrame {
     let tables = tables.into_iter().map(|(e, k, t)| (e.to_string(), k.to_string(), t)).collect();
     let cols = ["period", "account", "amount", "counterparty", "txn_currency", "txn_amount"];
-    let result = stack(tables, &cols).and_then(|raw| parse_rows(raw, true, &[], currencies, f));
+    let raw = {
+        let _span = tracing::debug_span!("stack_ledger").entered();
+        stack(tables, &cols)
+    };
+    let _span = tracing::debug_span!("parse_ledger").entered();
+    let result = raw.and_then(|raw| parse_rows(raw, true, &[], currencies, f));
     match result {
         Ok(df) => df,
         Err(e) => {

@@ -7,6 +7,7 @@
 pub mod daily;
 mod documents;
 mod ledger;
+pub mod machine;
 mod settings;
 pub mod table;
 
@@ -147,6 +148,7 @@ impl Dataset {
     pub fn periods(&self) -> Vec<Period> {
         let mut out = BTreeSet::new();
         if let Ok(c) = self.ledger.column("period")
+            && let Ok(c) = c.unique()
             && let Ok(ca) = c.str()
         {
             for p in ca.iter().flatten() {
@@ -211,7 +213,54 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_dir()).collect())
         .unwrap_or_default();
     dirs.sort();
-    for dir in dirs {
+    // The files of every entity folder are read (and hashed) in parallel up front; the
+    // loop below then takes them in folder and file order, so findings and inputs come
+    // out in the same order as a file-by-file read.
+    let listed: Vec<(PathBuf, Vec<PathBuf>)> = dirs
+        .into_iter()
+        .map(|dir| {
+            let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
+                .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_file()).collect())
+                .unwrap_or_default();
+            files.sort();
+            (dir, files)
+        })
+        .collect();
+    let mut jobs = Vec::new();
+    for (dir, files) in &listed {
+        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+        if !known.contains_key(&EntityId::new(&name)) {
+            continue;
+        }
+        for file in files {
+            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+            let spec = if fname == "mapping.csv" {
+                &ledger::MAPPING_SPEC
+            } else if fname == "opening.csv" {
+                &ledger::OPENING_SPEC
+            } else if ledger::delivery_kind(&fname).is_some() {
+                &ledger::LEDGER_SPEC
+            } else if fname == DOCUMENTS_FILE {
+                &documents::DOCUMENT_SPEC
+            } else {
+                continue;
+            };
+            jobs.push((file.clone(), rel(root, file), spec));
+        }
+    }
+    let mut fetched = {
+        let _span = tracing::debug_span!("read_files", files = jobs.len()).entered();
+        prefetch(jobs)
+    };
+    let mut take = |file: &PathBuf, inputs: &mut Vec<InputFile>, f: &mut Vec<Finding>| -> Option<TextTable> {
+        let got = fetched.remove(file)?;
+        if let Some(sha) = got.sha256 {
+            inputs.push(InputFile { file: rel(root, file), sha256: sha });
+        }
+        f.extend(got.findings);
+        got.table
+    };
+    for (dir, files) in listed {
         let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
         let id = EntityId::new(&name);
         if !known.contains_key(&id) {
@@ -226,10 +275,6 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             continue;
         }
         delivered.insert(id.clone());
-        let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
-            .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_file()).collect())
-            .unwrap_or_default();
-        files.sort();
         let mut has_mapping = false;
         for file in files {
             let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
@@ -237,27 +282,23 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             let kind = ledger::delivery_kind(&fname);
             if fname == "mapping.csv" {
                 has_mapping = true;
-                hash_into(root, &file, &mut inputs);
-                if let Some(t) = table::read(&file, &display, &ledger::MAPPING_SPEC, &mut f) {
+                if let Some(t) = take(&file, &mut inputs, &mut f) {
                     mapping_tables.push((id.clone(), t));
                 }
             } else if fname == "opening.csv" {
-                hash_into(root, &file, &mut inputs);
-                if let Some(t) = table::read(&file, &display, &ledger::OPENING_SPEC, &mut f) {
+                if let Some(t) = take(&file, &mut inputs, &mut f) {
                     opening_tables.push((id.clone(), t));
                 }
             } else if let Some(kind) = kind {
-                hash_into(root, &file, &mut inputs);
-                if let Some(t) = table::read(&file, &display, &ledger::LEDGER_SPEC, &mut f) {
+                if let Some(t) = take(&file, &mut inputs, &mut f) {
                     ledger_tables.push((id.clone(), kind, t));
                 }
             } else if fname == DOCUMENTS_FILE {
-                hash_into(root, &file, &mut inputs);
                 documented.insert(id.clone());
                 // Document detail is optional: a file that cannot be used is a warning,
                 // never a reason to set the entity's delivery aside.
                 let before = f.len();
-                let read = table::read(&file, &display, &documents::DOCUMENT_SPEC, &mut f);
+                let read = take(&file, &mut inputs, &mut f);
                 for x in &mut f[before..] {
                     x.severity = Severity::Warning;
                 }
@@ -290,10 +331,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         }
     }
 
+    let parse_span = tracing::debug_span!("parse_tables").entered();
     let mappings = ledger::build_mappings(mapping_tables, &mut f);
     let ledger_df = ledger::build_ledger(ledger_tables, &known, &mut f);
     let opening = ledger::build_opening(opening_tables, &known, &mut f);
     let documents = documents::build_documents(document_tables, &mut f);
+    drop(parse_span);
 
     let pres = settings.as_ref().map(|s| s.presentation_currency);
     let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
@@ -332,6 +375,44 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         }),
         findings,
     )
+}
+
+/// One entity file read ahead: its hash (when it could be read), table and findings.
+struct Fetched {
+    sha256: Option<String>,
+    table: Option<TextTable>,
+    findings: Vec<Finding>,
+}
+
+/// Reads and hashes `jobs` on as many threads as the machine has cores.
+fn prefetch(jobs: Vec<(PathBuf, String, &'static Spec<'static>)>) -> std::collections::HashMap<PathBuf, Fetched> {
+    let workers = std::thread::available_parallelism().map(|n| n.get()).unwrap_or(1).clamp(1, 8);
+    let next = std::sync::atomic::AtomicUsize::new(0);
+    let jobs = &jobs;
+    let mut out = std::collections::HashMap::with_capacity(jobs.len());
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..workers)
+            .map(|_| {
+                scope.spawn(|| {
+                    let mut done = Vec::new();
+                    loop {
+                        let k = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                        let Some((path, display, spec)) = jobs.get(k) else { break };
+                        let sha256 = std::fs::read(path).ok().map(|b| sha256_hex(&b));
+                        let mut findings = Vec::new();
+                        let table = table::read(path, display, spec, &mut findings);
+                        done.push((path.clone(), Fetched { sha256, table, findings }));
+                    }
+                    done
+                })
+            })
+            .collect();
+        for h in handles {
+            // A worker panics only on a bug; re-raise it here.
+            out.extend(h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)));
+        }
+    });
+    out
 }
 
 fn into_findings(f: Vec<Finding>) -> Findings {
@@ -1240,4 +1321,10 @@ fn load_net_investments(
         });
     }
     out
+}
+
+/// The stage figures a child run wrote with `--stages FILE` (for `tessera bench`).
+pub fn read_stages(path: &Path) -> std::io::Result<Vec<crate::stages::StageRecord>> {
+    let text = std::fs::read_to_string(path)?;
+    serde_json::from_str(&text).map_err(|e| std::io::Error::other(format!("{}: {e}", path.display())))
 }

@@ -2,8 +2,10 @@
 //! Every command's result is rendered here as a table for the terminal, JSON (amounts
 //! as decimal strings) or CSV. Nothing here computes a figure.
 
+pub mod bench;
 pub mod close;
 pub mod findings;
+pub mod generate;
 pub mod intercompany;
 pub mod rates;
 pub mod segments;

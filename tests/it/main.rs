@@ -6,6 +6,8 @@
 //! - `close`: published consolidation cases as folders under `tests/cases/`, the demo
 //!   closing tied (under both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
 //! - `close_oracle`: a property test of the close against a naive consolidation;
+//! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
+//!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
@@ -24,6 +26,7 @@ mod check;
 mod close;
 mod close_oracle;
 mod currencies;
+mod generate;
 mod intercompany;
 mod rates_ecb;
 mod rates_findings;

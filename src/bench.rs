@@ -1,0 +1,271 @@
+//! The close benchmark: generates synthetic groups of fixed sizes (`generate`), closes
+//! each from CSV and from Parquet in a child process of this same binary with
+//! `--stages FILE` (so every run's peak memory is its own), and collects wall time, rows
+//! per second and peak memory per stage, with the machine description and the targets,
+//! into one results file written by `report::bench`.
+//!
+//! Targets (on a 2-core machine): S under 1 s end to end; L under 20 s from Parquet and
+//! under 40 s from CSV; peak memory under 3x the input size; doubling the rows costs
+//! under 2.2x the time (checked between every two sizes run, as time ratio against
+//! rows ratio ^ log2(2.2)).
+
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use crate::Error;
+use crate::generate::{Options, Plan};
+use crate::stages::StageRecord;
+
+/// What `tessera bench` was asked for.
+#[derive(Debug, Clone)]
+pub struct Request {
+    pub sizes: Vec<String>,
+    pub formats: Vec<String>,
+    pub out_file: PathBuf,
+    pub work: PathBuf,
+    pub seed: u64,
+}
+
+/// The options of a named size.
+pub fn size(name: &str, seed: u64) -> Option<Options> {
+    let base = Options { entities: 300, accounts: 1500, used: 400, months: 1, seed, documents: 0, parquet: false };
+    match name {
+        "S" => Some(base),
+        "M" => Some(Options { months: 12, ..base }),
+        "L" => Some(Options { entities: 2000, used: 500, months: 12, documents: 1_000_000, ..base }),
+        // A small size for trying the command itself.
+        "XS" => Some(Options { entities: 40, accounts: 200, used: 80, months: 3, ..base }),
+        _ => None,
+    }
+}
+
+/// One close of one size from one format.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Run {
+    pub size: String,
+    pub format: String,
+    pub entities: usize,
+    pub accounts: usize,
+    pub used: usize,
+    pub months: u32,
+    pub trial_balance_rows: usize,
+    pub document_rows: usize,
+    pub input_bytes: u64,
+    /// Generation time; `None` when a group already generated was reused.
+    pub generate_seconds: Option<f64>,
+    pub close_exit_code: i32,
+    pub close_seconds: f64,
+    pub close_rows_per_second: f64,
+    pub peak_bytes: u64,
+    pub peak_over_input: f64,
+    pub stages: Vec<Stage>,
+}
+
+/// A stage's figures in one run (a stage run twice is summed, its peak the larger).
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Stage {
+    pub stage: String,
+    pub seconds: f64,
+    pub rows_per_second: f64,
+    pub peak_bytes: u64,
+}
+
+/// A target and whether the runs meet it.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Target {
+    pub target: String,
+    /// `None` when the runs needed were not made.
+    pub met: Option<bool>,
+    pub detail: String,
+}
+
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct Results {
+    pub tessera_version: &'static str,
+    /// `release` or `debug`: only release figures mean anything.
+    pub build: &'static str,
+    pub machine: crate::load::machine::Machine,
+    pub seed: u64,
+    pub runs: Vec<Run>,
+    pub targets: Vec<Target>,
+}
+
+fn stages_of(records: &[StageRecord], rows: usize) -> Vec<Stage> {
+    let mut out: Vec<Stage> = Vec::new();
+    for r in records {
+        match out.iter_mut().find(|s| s.stage == r.stage) {
+            Some(s) => {
+                s.seconds += r.seconds;
+                s.peak_bytes = s.peak_bytes.max(r.peak_bytes);
+            }
+            None => out.push(Stage {
+                stage: r.stage.clone(),
+                seconds: r.seconds,
+                rows_per_second: 0.0,
+                peak_bytes: r.peak_bytes,
+            }),
+        }
+    }
+    for s in &mut out {
+        s.rows_per_second = if s.seconds > 0.0 { rows as f64 / s.seconds } else { 0.0 };
+    }
+    out
+}
+
+/// The generated group for `o` under `work`, generated unless it is there already.
+fn group(o: &Options, name: &str, work: &Path) -> Result<(PathBuf, Option<f64>, usize, usize), Error> {
+    let dir = work.join(format!("{name}-{}-seed{}", if o.parquet { "parquet" } else { "csv" }, o.seed));
+    let stamp = dir.join("generated.json");
+    let wanted = format!("{o:?}");
+    if let Ok(text) = std::fs::read_to_string(&stamp)
+        && let Ok(v) = serde_json::from_str::<serde_json::Value>(&text)
+        && v["options"] == wanted.as_str()
+    {
+        let rows = v["trial_balance_rows"].as_u64().unwrap_or(0) as usize;
+        let docs = v["document_rows"].as_u64().unwrap_or(0) as usize;
+        return Ok((dir, None, rows, docs));
+    }
+    if dir.exists() {
+        std::fs::remove_dir_all(&dir)?;
+    }
+    let t0 = Instant::now();
+    let plan = Plan::new(o.clone()).map_err(Error::Usage)?;
+    let bar = crate::progress::bar(plan.entities.len() as u64, &format!("generate {name}"));
+    let written = crate::report::generate::write(&plan, &dir, &|n| bar.set_position(n as u64))?;
+    bar.finish_and_clear();
+    let seconds = t0.elapsed().as_secs_f64();
+    crate::report::bench::write_stamp(&stamp, &wanted, &written)?;
+    Ok((dir, Some(seconds), written.trial_balance_rows, written.document_rows))
+}
+
+/// Closes `data` in a child process; returns exit code, wall seconds and stage records.
+fn close_child(data: &Path) -> Result<(i32, f64, Vec<StageRecord>), Error> {
+    let exe = std::env::current_exe()?;
+    let stages = data.join("stages.json");
+    let out = data.join("out");
+    let t0 = Instant::now();
+    let status = std::process::Command::new(exe)
+        .arg("--stages")
+        .arg(&stages)
+        .arg("--data")
+        .arg(data)
+        .arg("close")
+        .arg("--out")
+        .arg(&out)
+        .arg("--format")
+        .arg("json")
+        .stdout(std::process::Stdio::null())
+        .status()?;
+    let seconds = t0.elapsed().as_secs_f64();
+    let records = crate::load::read_stages(&stages)?;
+    Ok((status.code().unwrap_or(-1), seconds, records))
+}
+
+pub fn run(req: &Request, out: &mut dyn Write) -> Result<i32, Error> {
+    let mut plan = Vec::new();
+    for s in &req.sizes {
+        let o = size(s, req.seed).ok_or_else(|| Error::Usage(format!("size {s:?} is not one of XS, S, M, L")))?;
+        for f in &req.formats {
+            let parquet = match f.as_str() {
+                "csv" => false,
+                "parquet" => true,
+                _ => return Err(Error::Usage(format!("format {f:?} is not csv or parquet"))),
+            };
+            plan.push((s.clone(), f.clone(), Options { parquet, ..o.clone() }));
+        }
+    }
+    let bar = crate::progress::bar(plan.len() as u64, "bench");
+    let mut runs = Vec::new();
+    for (k, (name, format, o)) in plan.iter().enumerate() {
+        bar.set_message(format!("{name} {format}"));
+        let (dir, generate_seconds, rows, docs) = group(o, name, &req.work)?;
+        let input_bytes = crate::load::machine::folder_bytes(&dir.join("entities"))
+            + crate::load::machine::folder_bytes(&dir.join("rates"));
+        let (code, seconds, records) = close_child(&dir)?;
+        let peak = records.iter().map(|r| r.peak_bytes).max().unwrap_or(0);
+        runs.push(Run {
+            size: name.clone(),
+            format: format.clone(),
+            entities: o.entities,
+            accounts: o.accounts,
+            used: o.used,
+            months: o.months,
+            trial_balance_rows: rows,
+            document_rows: docs,
+            input_bytes,
+            generate_seconds,
+            close_exit_code: code,
+            close_seconds: seconds,
+            close_rows_per_second: rows as f64 / seconds.max(1e-9),
+            peak_bytes: peak,
+            peak_over_input: peak as f64 / input_bytes.max(1) as f64,
+            stages: stages_of(&records, rows),
+        });
+        bar.set_position(k as u64 + 1);
+    }
+    bar.finish_and_clear();
+    let results = Results {
+        tessera_version: env!("CARGO_PKG_VERSION"),
+        build: if cfg!(debug_assertions) { "debug" } else { "release" },
+        machine: crate::load::machine::describe(),
+        seed: req.seed,
+        targets: targets(&runs),
+        runs,
+    };
+    crate::report::bench::write_results(&req.out_file, &results)?;
+    out.write_all(crate::report::bench::render(&results, &req.out_file).as_bytes())?;
+    Ok(if results.runs.iter().all(|r| r.close_exit_code == 0) { 0 } else { 1 })
+}
+
+/// The targets, judged on the runs made.
+pub fn targets(runs: &[Run]) -> Vec<Target> {
+    let find = |s: &str, f: &str| runs.iter().find(|r| r.size == s && r.format == f);
+    let mut out = Vec::new();
+    let within = |what: String, run: Option<&Run>, limit: f64| match run {
+        Some(r) => Target {
+            target: what,
+            met: Some(r.close_seconds < limit && r.close_exit_code == 0),
+            detail: format!("{:.2} s (limit {limit} s)", r.close_seconds),
+        },
+        None => Target { target: what, met: None, detail: "not run".into() },
+    };
+    let s = find("S", "csv").or_else(|| find("S", "parquet"));
+    out.push(within("S end to end under 1 s".into(), s, 1.0));
+    out.push(within("L from Parquet under 20 s".into(), find("L", "parquet"), 20.0));
+    out.push(within("L from CSV under 40 s".into(), find("L", "csv"), 40.0));
+    let over: Vec<String> = runs
+        .iter()
+        .filter(|r| r.peak_over_input >= 3.0)
+        .map(|r| format!("{} {} {:.1}x", r.size, r.format, r.peak_over_input))
+        .collect();
+    out.push(Target {
+        target: "peak memory under 3x the input size".into(),
+        met: (!runs.is_empty()).then_some(over.is_empty()),
+        detail: if over.is_empty() { "every run".into() } else { format!("over: {}", over.join(", ")) },
+    });
+    // Doubling the rows costs under 2.2x the time: time ratio <= rows ratio ^ log2(2.2).
+    let exponent = 2.2f64.log2();
+    let mut scaling = Vec::new();
+    let mut ok = true;
+    for f in ["csv", "parquet"] {
+        let mut by_rows: Vec<&Run> = runs.iter().filter(|r| r.format == f).collect();
+        by_rows.sort_by_key(|r| r.trial_balance_rows);
+        for w in by_rows.windows(2) {
+            let rows = w[1].trial_balance_rows as f64 / w[0].trial_balance_rows.max(1) as f64;
+            let time = w[1].close_seconds / w[0].close_seconds.max(1e-9);
+            let allowed = rows.powf(exponent);
+            ok &= time <= allowed;
+            scaling.push(format!(
+                "{f} {}->{}: rows x{rows:.1}, time x{time:.1} (allowed x{allowed:.1})",
+                w[0].size, w[1].size
+            ));
+        }
+    }
+    out.push(Target {
+        target: "doubling the rows costs under 2.2x the time".into(),
+        met: (!scaling.is_empty()).then_some(ok),
+        detail: if scaling.is_empty() { "needs two sizes".into() } else { scaling.join("; ") },
+    });
+    out
+}
