@@ -113,7 +113,7 @@ pub struct Close {
 /// included, taken by its consolidation method.
 pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<DataFrame> {
     let _span = tracing::info_span!("aggregate", period = %period).entered();
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     let p = period_index(period);
     let p0 = period_index(fiscal_start.prev());
     let minor = t.minor as usize;
@@ -166,6 +166,14 @@ pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Perio
         .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
         .collect()?;
     Ok(all)
+}
+
+/// The start of the fiscal year a close at `period` belongs to. A close at the month
+/// before the translated year (the opening, for the statement of changes in equity) is
+/// a close of the opening balances: its brought-forward translation difference is the
+/// reserve, not OCI, and nothing of the year has happened yet.
+fn year_start(ds: &Dataset, t: &Translated, period: Period) -> Period {
+    period.fiscal_year_start(ds.settings.fiscal_year_start).max(t.fiscal_start)
 }
 
 /// Builds a journal; ids are assigned in order.
@@ -246,7 +254,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     // 1. Results before the acquisition date belong to the equity acquired (IFRS 10.B88):
     //    they are moved from income and expense into pre-acquisition retained earnings.
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     for e in s.entities().iter().filter(|e| e.method == Method::Full) {
         let Some(from) = e.controlled_from else { continue };
         let control_month = Period::of_date(from);
@@ -548,6 +556,18 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 );
             }
             continue;
+        };
+        // At the opening, this year's impairment has not been recognised yet.
+        let at_opening;
+        let a: &Acquisition = if period < t.fiscal_start {
+            at_opening = Acquisition {
+                impairment: a.impairment - a.impairment_year,
+                impairment_year: Decimal::ZERO,
+                ..(*a).clone()
+            };
+            &at_opening
+        } else {
+            a
         };
         let Some(entity) = ds.entity(&e.id) else { continue };
         let fc = entity.currency;
@@ -915,7 +935,7 @@ fn aggregate_one(
     period: Period,
 ) -> PolarsResult<BTreeMap<GroupAccount, Decimal>> {
     let p = period_index(period);
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     let p0 = period_index(fiscal_start.prev());
     let roles = &ds.settings.accounts;
     let df = t

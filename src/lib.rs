@@ -6,6 +6,7 @@
 pub mod cli;
 pub mod close;
 pub mod commands;
+pub mod equity;
 pub mod findings;
 pub mod intercompany;
 pub mod layout;

@@ -78,6 +78,11 @@ pub fn unsigned_zero(d: Decimal) -> Decimal {
     if d.is_zero() { d.abs() } else { d }
 }
 
+/// An amount as machine text (JSON, CSV): plain digits, a zero never signed.
+pub fn plain(d: Decimal) -> String {
+    unsigned_zero(d).to_string()
+}
+
 /// The polars rounding mode matching a group rounding mode.
 pub fn polars_round_mode(mode: RoundingMode) -> RoundMode {
     match mode {

@@ -94,6 +94,20 @@ fn check_case(dir: &Path) -> (Vec<String>, usize) {
                         );
                     }
                 }
+                "changes_in_equity" => {
+                    let row = v["statements"]["changes_in_equity"]["rows"]
+                        .as_array()
+                        .unwrap()
+                        .iter()
+                        .find(|r| r["row"] == key.as_str());
+                    for (column, y) in x.as_table().expect("changes_in_equity table") {
+                        compare(
+                            format!("equity {key} {column}"),
+                            want(y, column),
+                            row.and_then(|r| text_decimal(&r["amounts"][column])),
+                        );
+                    }
+                }
                 other => panic!("{name}: unknown section [{other}] in expected.toml"),
             }
         }
@@ -149,9 +163,20 @@ fn copy_tree(from: &Path, to: &Path) {
     }
 }
 
+/// The row of the statement of changes in equity with id `row`, column `column`.
+fn equity_cell(v: &Value, row: &str, column: &str) -> Decimal {
+    let r = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap().iter().find(|r| r["row"] == row);
+    r.and_then(|r| text_decimal(&r["amounts"][column])).unwrap_or_else(|| panic!("no {row} {column}"))
+}
+
+/// Every month and view of the demo ties, the statement of changes in equity included:
+/// its closing total is the balance sheet's equity, and each month's opening is the
+/// previous month's closing (IAS 1.106: a reconciliation of carrying amounts, so what
+/// one period closes with the next one opens with).
 #[test]
 fn demo_closes_tied_for_every_month_and_view() {
     let out = tempfile::tempdir().unwrap();
+    let mut previous_close: Option<Value> = None;
     for month in 1..=12 {
         let period = format!("2026-{month:02}");
         for view in ["month", "qtd", "ytd"] {
@@ -161,6 +186,28 @@ fn demo_closes_tied_for_every_month_and_view() {
             );
             assert_eq!(code, 0, "{period} {view}: {:#}", v["proof"]);
             assert_eq!(v["proof"]["tied"], true, "{period} {view}: {:#}", v["proof"]);
+            let check =
+                v["proof"]["checks"].as_array().unwrap().iter().find(|c| c["name"] == "equity_changes_reconcile");
+            assert_eq!(check.map(|c| &c["ok"]), Some(&Value::Bool(true)), "{period} {view}");
+            assert_eq!(
+                equity_cell(&v, "closing", "total_equity"),
+                statement_line(&v, "balance_sheet", "EQ").unwrap(),
+                "{period} {view}"
+            );
+            if view == "month"
+                && let Some(p) = &previous_close
+            {
+                for column in ["RE", "TR", "NCI", "owners_of_the_parent", "total_equity"] {
+                    assert_eq!(
+                        equity_cell(&v, "opening", column),
+                        equity_cell(p, "closing", column),
+                        "{period} opening {column}"
+                    );
+                }
+            }
+            if view == "ytd" {
+                previous_close = Some(v);
+            }
         }
     }
 }
