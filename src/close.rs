@@ -585,21 +585,65 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 rate_of(fc, p).map(|r| money::round(r.apply(x), minor, mode)).unwrap_or_default()
             }
         };
+        // A bargain purchase (IFRS 3.34): the excess of the net assets over consideration
+        // and NCI is a gain of the acquirer at the acquisition date, not negative
+        // goodwill. It is measured once, at the acquisition date's rate, and belongs to
+        // the owners of the parent (the NCI is measured by its own basis, IFRS 3.19).
+        let gross_goodwill_fc = goodwill_fc + a.impairment;
+        let bargain_fc = if gross_goodwill_fc.is_sign_negative() { -gross_goodwill_fc } else { Decimal::ZERO };
+        let bargain_account = if bargain_fc.is_zero() {
+            None
+        } else if Period::of_date(a.date) >= fiscal_start {
+            // In the acquisition year the gain is profit of the year; later it is part of
+            // retained earnings.
+            match &roles.bargain_purchase_gain {
+                Some(acct) => Some(acct.clone()),
+                None => {
+                    findings.push(
+                        crate::findings::Finding::new(
+                            crate::findings::Rule::SettingInvalid,
+                            format!(
+                                "{}: the acquisition on {} is a bargain purchase but group.toml names no `accounts.bargain_purchase_gain`",
+                                e.id, a.date
+                            ),
+                            "name the profit or loss account for the gain on a bargain purchase as `bargain_purchase_gain` in [accounts] (IFRS 3.34)",
+                        )
+                        .at(&a.source)
+                        .entity(&e.id),
+                    );
+                    None
+                }
+            }
+        } else {
+            Some(roles.retained_earnings.clone())
+        };
+        let bargain_fc = if bargain_account.is_some() { bargain_fc } else { Decimal::ZERO };
         if goodwill_fc.is_sign_negative() {
             findings.push(
                 crate::findings::Finding::new(
                     crate::findings::Rule::GoodwillNegative,
                     format!(
-                        "{}: consideration {} + NCI {} - net assets {} = {} {} is negative (a bargain purchase)",
-                        e.id, a.consideration, nci_fc.round_dp(fc.minor_unit()), a.net_assets, fc, goodwill_fc.round_dp(fc.minor_unit())
+                        "{}: consideration {} + NCI {} - net assets {} = {} {} is negative: a bargain purchase{}",
+                        e.id,
+                        a.consideration,
+                        nci_fc.round_dp(fc.minor_unit()),
+                        a.net_assets,
+                        fc,
+                        goodwill_fc.round_dp(fc.minor_unit()),
+                        match &bargain_account {
+                            Some(acct) => format!(", recognised as a gain of {} {} on {acct} at {} (IFRS 3.34)", fc, bargain_fc.round_dp(fc.minor_unit()), a.date),
+                            None => String::new(),
+                        }
                     ),
-                    "reassess the identification and measurement of the net assets (IFRS 3.36); a gain that remains is recognised in profit or loss (IFRS 3.34)",
+                    "before keeping the gain, reassess whether every asset acquired and liability assumed is identified, and review the measurement of the net assets, the NCI and the consideration (IFRS 3.36)",
                 )
                 .at(&a.source)
                 .entity(&e.id)
                 .severity(crate::findings::Severity::Warning),
             );
         }
+        // With the gain recognised there is no goodwill.
+        let goodwill_fc = goodwill_fc + bargain_fc;
         let goodwill = to_pres(goodwill_fc, period);
         // At the acquisition date's rate, the ratio of the net assets in the two
         // currencies. Multiplied before dividing, so that a share of the net assets is
@@ -670,6 +714,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             fair_value_now.insert(e.id.clone(), *now);
         }
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
+        if let Some(acct) = &bargain_account {
+            lines.push(line(acct, &e.id, None, -at_hist(bargain_fc)));
+        }
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
         // Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill
         // is carried at: the part of this fiscal year is an expense of the year (IAS

@@ -428,3 +428,52 @@ fn net_investment_designated_during_the_year_moves_only_the_later_months() {
     assert_eq!(tb(&feb, "7100"), d("250.00"));
     assert_eq!(tb(&feb, "8100"), d("200.00"));
 }
+
+/// A copy of the IFRS 3 IE45-IE49 case folder (figures from memory, see its SOURCE.md).
+fn bargain_purchase_group() -> Folder {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/ifrs3-ie45-bargain-purchase");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f
+}
+
+/// IFRS 3.34: the gain on a bargain purchase is recognised at the acquisition date. A
+/// year later it is part of retained earnings, not profit of the year, and the finding
+/// that asks for the reassessment (IFRS 3.36) stays a warning on the acquisition's line.
+#[test]
+fn a_bargain_purchase_of_an_earlier_year_is_in_retained_earnings() {
+    let f = bargain_purchase_group();
+    f.replace("entities/holdings.csv", "2026-01-01", "2025-01-01");
+    f.replace("entities/acquisitions.csv", "TC,2026-01-01", "TC,2025-01-01");
+    f.write(
+        "entities/AC/opening.csv",
+        "account,amount,counterparty,amount_presentation\n1400,150,TC,\n3000,-150,,-150\n",
+    );
+    f.write("entities/AC/tb-2026-01.movements.csv", "period,account,amount,counterparty\n2026-01,1000,0,\n");
+    let v = close(&f, "2026-01");
+    assert_eq!(tb(&v, "4800"), d("0"));
+    assert_eq!(tb(&v, "3200"), d("-50"));
+    assert_eq!(tb(&v, "1100"), d("0"));
+    assert_eq!(tb(&v, "3900"), d("-50"));
+    let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "GoodwillNegative").unwrap();
+    assert_eq!(found["severity"], "warning", "{found:#}");
+    assert_eq!(found["line"], 2, "{found:#}");
+    assert!(found["action"].as_str().unwrap().contains("IFRS 3.36"), "{found:#}");
+}
+
+/// Without an account for the gain in the acquisition year the close cannot recognise it:
+/// a blocking finding on the acquisition's line that says which setting to add.
+#[test]
+fn a_bargain_purchase_needs_an_account_for_its_gain() {
+    let f = bargain_purchase_group();
+    f.replace("entities/group.toml", "bargain_purchase_gain = \"4800\"\n", "");
+    let out = f.path().join("out");
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.to_str().unwrap()]);
+    assert_eq!(code, 1, "{v:#}");
+    let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "SettingInvalid");
+    let found = found.unwrap_or_else(|| panic!("no SettingInvalid: {v:#}"));
+    assert_eq!(found["line"], 2, "{found:#}");
+    assert!(found["action"].as_str().unwrap().contains("bargain_purchase_gain"), "{found:#}");
+}
