@@ -573,7 +573,29 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let fc = entity.currency;
         // NCI at acquisition: the direct outside share of net assets, or fair value.
         let outside = Decimal::ONE - e.group_capital;
+        // A fair value for an NCI that does not exist would put an NCI in the trial
+        // balance that no NCI row explains: it blocks, and nothing is posted for it.
+        let fair_value_without_nci = outside.is_zero() && a.nci_fair_value.is_some_and(|x| !x.is_zero());
+        if fair_value_without_nci {
+            findings.push(
+                crate::findings::Finding::new(
+                    crate::findings::Rule::ValueInvalid,
+                    format!(
+                        "{}: `nci_fair_value` is {} {} but the parent and its subsidiaries hold a capital share of {} in {}: there is no non-controlling interest",
+                        e.id,
+                        fc,
+                        a.nci_fair_value.unwrap_or_default(),
+                        e.group_capital.normalize(),
+                        e.id
+                    ),
+                    "leave `nci_fair_value` empty and measure `share_of_net_assets` for a wholly owned subsidiary, or correct the holding in entities/holdings.csv if outside shareholders exist",
+                )
+                .at(&a.source)
+                .entity(&e.id),
+            );
+        }
         let nci_fc = match a.nci_measurement {
+            _ if outside.is_zero() => Decimal::ZERO,
             NciMeasurement::FairValue => a.nci_fair_value.unwrap_or_default(),
             NciMeasurement::ShareOfNetAssets => a.net_assets * outside,
         };

@@ -477,3 +477,29 @@ fn a_bargain_purchase_needs_an_account_for_its_gain() {
     assert_eq!(found["line"], 2, "{found:#}");
     assert!(found["action"].as_str().unwrap().contains("bargain_purchase_gain"), "{found:#}");
 }
+
+/// `nci_fair_value` for a subsidiary the group holds wholly: no NCI exists, so a fair
+/// value for one is a blocking finding on the acquisition's line, and no NCI reaches the
+/// trial balance (IFRS 10.22: NCI is the equity not attributable to the parent).
+#[test]
+fn an_nci_fair_value_for_a_wholly_owned_subsidiary_is_a_finding() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/goodwill-fair-value");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.replace("entities/holdings.csv", "P,S,0.8,0.8,", "P,S,1,1,");
+    let out = f.path().join("out");
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.to_str().unwrap()]);
+    assert_eq!(code, 1, "{v:#}");
+    assert_eq!(v["proof"]["tied"], false);
+    let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "ValueInvalid");
+    let found = found.unwrap_or_else(|| panic!("no ValueInvalid: {v:#}"));
+    assert_eq!(found["severity"], "blocking", "{found:#}");
+    assert_eq!(found["file"], "entities/acquisitions.csv", "{found:#}");
+    assert_eq!(found["line"], 2, "{found:#}");
+    assert_eq!(found["entity"], "S", "{found:#}");
+    assert!(found["action"].as_str().unwrap().contains("nci_fair_value"), "{found:#}");
+    assert_eq!(tb(&v, "3900"), d("0"));
+    assert!(v["nci"].as_array().unwrap().is_empty(), "{:#}", v["nci"]);
+}
