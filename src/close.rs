@@ -1112,13 +1112,13 @@ pub fn prove(c: &Close) -> PolarsResult<Vec<Check>> {
     checks.push(Check::new(
         "group_trial_balance_sums_to_zero",
         total.is_zero(),
-        format!("sum of the group trial balance = {total}"),
+        format!("sum of the group trial balance = {}", money::plain(total)),
     ));
     let contrib_total: Decimal = v.iter().flatten().copied().sum();
     checks.push(Check::new(
         "contributions_sum_to_zero",
         contrib_total.is_zero(),
-        format!("sum of the entities' translated contributions = {contrib_total}"),
+        format!("sum of the entities' translated contributions = {}", money::plain(contrib_total)),
     ));
     Ok(checks)
 }

@@ -419,7 +419,11 @@ pub fn close(
     checks.push(crate::proof::Check::new(
         "balance_sheet_balances",
         (bs_total - result_in_equity).is_zero(),
-        format!("assets - equity - liabilities = {bs_total}, profit and OCI of the year = {result_in_equity}"),
+        format!(
+            "assets - equity - liabilities = {}, profit and OCI of the year = {}",
+            crate::money::plain(bs_total),
+            crate::money::plain(result_in_equity)
+        ),
     ));
     // The statement of changes in equity (IAS 1.106): from the opening close of the
     // view to its closing one, with its own proof.

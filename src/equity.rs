@@ -305,7 +305,13 @@ pub fn changes_in_equity(
     let mut broken = Vec::new();
     for (i, k) in components.iter().enumerate() {
         if open[i] + movement[i] != close[i] {
-            broken.push(format!("{}: {} + {} != {}", k.id, open[i], movement[i], close[i]));
+            broken.push(format!(
+                "{}: {} + {} != {}",
+                k.id,
+                money::plain(open[i]),
+                money::plain(movement[i]),
+                money::plain(close[i])
+            ));
         }
     }
     let covered: BTreeSet<&GroupAccount> = components.iter().flat_map(|k| k.accounts.iter()).collect();
@@ -320,9 +326,9 @@ pub fn changes_in_equity(
         if broken.is_empty() {
             format!(
                 "{n} components: opening {} + movements {} = closing {}",
-                total(&open),
-                total(&movement),
-                total(&close)
+                money::plain(total(&open)),
+                money::plain(total(&movement)),
+                money::plain(total(&close))
             )
         } else {
             broken.join("; ")

@@ -143,7 +143,7 @@ pub fn tb_json(
     group
         .iter()
         .filter(|(_, v)| !v.is_zero())
-        .map(|(a, v)| serde_json::json!({"account": a.as_str(), "name": names.get(a).cloned().unwrap_or_default(), "amount": v.to_string()}))
+        .map(|(a, v)| serde_json::json!({"account": a.as_str(), "name": names.get(a).cloned().unwrap_or_default(), "amount": crate::money::plain(*v)}))
         .collect()
 }
 
@@ -292,7 +292,7 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
             acct.push(l.account.to_string());
             ent.push(l.entity.to_string());
             cp.push(l.counterparty.as_ref().map(|c| c.to_string()));
-            amount.push(l.amount.to_string());
+            amount.push(crate::money::plain(l.amount));
             desc.push(e.description.clone());
         }
     }
@@ -354,9 +354,9 @@ pub fn write_outputs(
         vec![
             Column::new("entity".into(), r.nci.iter().map(|n| n.entity.to_string()).collect::<Vec<_>>()),
             Column::new("nci_share".into(), r.nci.iter().map(|n| n.nci_share.to_string()).collect::<Vec<_>>()),
-            Column::new("profit".into(), r.nci.iter().map(|n| n.profit.to_string()).collect::<Vec<_>>()),
-            Column::new("oci".into(), r.nci.iter().map(|n| n.oci.to_string()).collect::<Vec<_>>()),
-            Column::new("equity".into(), r.nci.iter().map(|n| n.equity.to_string()).collect::<Vec<_>>()),
+            Column::new("profit".into(), r.nci.iter().map(|n| crate::money::plain(n.profit)).collect::<Vec<_>>()),
+            Column::new("oci".into(), r.nci.iter().map(|n| crate::money::plain(n.oci)).collect::<Vec<_>>()),
+            Column::new("equity".into(), r.nci.iter().map(|n| crate::money::plain(n.equity)).collect::<Vec<_>>()),
         ],
     )?;
     write_frame(dir, "nci", nci)?;
@@ -374,9 +374,12 @@ pub fn write_outputs(
                     })
                     .collect::<Vec<_>>(),
             ),
-            Column::new("brought_forward".into(), rs.iter().map(|x| x.brought_forward.to_string()).collect::<Vec<_>>()),
-            Column::new("year".into(), rs.iter().map(|x| x.year.to_string()).collect::<Vec<_>>()),
-            Column::new("reserve".into(), rs.iter().map(|x| x.reserve.to_string()).collect::<Vec<_>>()),
+            Column::new(
+                "brought_forward".into(),
+                rs.iter().map(|x| crate::money::plain(x.brought_forward)).collect::<Vec<_>>(),
+            ),
+            Column::new("year".into(), rs.iter().map(|x| crate::money::plain(x.year)).collect::<Vec<_>>()),
+            Column::new("reserve".into(), rs.iter().map(|x| crate::money::plain(x.reserve)).collect::<Vec<_>>()),
         ],
     )?;
     write_frame(dir, "translation_reserves", reserves)?;
@@ -390,12 +393,12 @@ pub fn write_outputs(
             col("entity", &|e| e.entity.to_string()),
             col("period", &|e| e.period.to_string()),
             col("currency", &|e| e.currency.to_string()),
-            col("on_opening_net_assets", &|e| e.on_opening_net_assets.to_string()),
-            col("on_profit", &|e| e.on_profit.to_string()),
-            col("on_equity_movements", &|e| e.on_equity_movements.to_string()),
-            col("on_hyperinflation", &|e| e.on_hyperinflation.to_string()),
-            col("rounding", &|e| e.rounding.to_string()),
-            col("translation_difference", &|e| e.total.to_string()),
+            col("on_opening_net_assets", &|e| crate::money::plain(e.on_opening_net_assets)),
+            col("on_profit", &|e| crate::money::plain(e.on_profit)),
+            col("on_equity_movements", &|e| crate::money::plain(e.on_equity_movements)),
+            col("on_hyperinflation", &|e| crate::money::plain(e.on_hyperinflation)),
+            col("rounding", &|e| crate::money::plain(e.rounding)),
+            col("translation_difference", &|e| crate::money::plain(e.total)),
         ],
     )?;
     write_frame(dir, "translation_differences", td)?;

@@ -503,3 +503,38 @@ fn an_nci_fair_value_for_a_wholly_owned_subsidiary_is_a_finding() {
     assert_eq!(tb(&v, "3900"), d("0"));
     assert!(v["nci"].as_array().unwrap().is_empty(), "{:#}", v["nci"]);
 }
+
+/// No signed zero in any output of a close: the JSON on stdout, the terminal table and
+/// every CSV and JSON file written. A case folder whose profit, OCI and several
+/// statement lines are zero, some of them negated zeros on the way (common practice:
+/// a group pack never shows "-0.00").
+#[test]
+fn no_output_shows_a_negative_zero() {
+    let dir = repo().join("tests/cases/goodwill-fair-value");
+    let out = tempfile::tempdir().unwrap();
+    let o = out.path().to_str().unwrap();
+    let signed_zero = |text: &str| -> Vec<String> {
+        text.split(|c: char| !(c.is_ascii_digit() || c == '-' || c == '.'))
+            .filter(|w| w.starts_with("-0") && w[1..].chars().all(|c| c == '0' || c == '.'))
+            .map(String::from)
+            .collect()
+    };
+    let d = dir.to_str().unwrap();
+    let (code, json) =
+        crate::support::run(&["close", "--period", "2026-01", "--out", o, "--data", d, "--format", "json"]);
+    assert_eq!(code, 0);
+    assert!(signed_zero(&json).is_empty(), "{:?}", signed_zero(&json));
+    let (code, table) = crate::support::run(&["close", "--period", "2026-01", "--out", o, "--data", d]);
+    assert_eq!(code, 0);
+    assert!(signed_zero(&table).is_empty() && !table.contains("(0.00)"), "{table}");
+    let mut files = 0;
+    for e in std::fs::read_dir(out.path().join("2026-01")).unwrap() {
+        let p = e.unwrap().path();
+        if matches!(p.extension().and_then(|x| x.to_str()), Some("csv" | "json")) {
+            let text = std::fs::read_to_string(&p).unwrap();
+            assert!(signed_zero(&text).is_empty(), "{}: {:?}", p.display(), signed_zero(&text));
+            files += 1;
+        }
+    }
+    assert!(files >= 8, "{files} files");
+}
