@@ -336,3 +336,51 @@ pub fn changes_in_equity(
     );
     Ok((EquityChanges { columns, rows }, check))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::layout::{LineBody, ResolvedLine, ResolvedStatement};
+
+    fn account(id: &str, name: &str, class: AccountClass) -> AccountDef {
+        AccountDef {
+            account: GroupAccount::new(id),
+            name: name.into(),
+            statement: if class == AccountClass::Equity { Statement::BalanceSheet } else { Statement::ProfitOrLoss },
+            class,
+            basis: Basis::Historical,
+            ic_kind: None,
+            non_current: false,
+            source: Source::file("entities/accounts.csv"),
+        }
+    }
+
+    /// The columns are the layout's account lines (its totals are recomputed, not
+    /// copied); without an `equity_changes` layout, one column per equity account.
+    #[test]
+    fn components_follow_the_layout_else_the_chart() {
+        let chart = vec![
+            account("3000", "Share capital", AccountClass::Equity),
+            account("3200", "Retained earnings", AccountClass::Equity),
+            account("3900", "Non-controlling interests", AccountClass::Equity),
+            account("4000", "Revenue", AccountClass::Income),
+        ];
+        let line = |id: &str, body: LineBody| ResolvedLine {
+            line: id.into(),
+            label: id.into(),
+            presentation: crate::layout::Presentation::CreditPositive,
+            body,
+        };
+        let layout = ResolvedStatement {
+            statement: "equity_changes".into(),
+            lines: vec![
+                line("OWN", LineBody::Accounts(vec![GroupAccount::new("3000"), GroupAccount::new("3200")])),
+                line("NCI", LineBody::Accounts(vec![GroupAccount::new("3900")])),
+                line("TOT", LineBody::Total(vec![("OWN".into(), 1), ("NCI".into(), 1)])),
+            ],
+        };
+        let ids = |c: &[Component]| c.iter().map(|k| k.id.clone()).collect::<Vec<_>>();
+        assert_eq!(ids(&components(&[layout], &chart)), ["OWN", "NCI"]);
+        assert_eq!(ids(&components(&[], &chart)), ["3000", "3200", "3900"]);
+    }
+}
