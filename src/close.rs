@@ -113,7 +113,7 @@ pub struct Close {
 /// included, taken by its consolidation method.
 pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<DataFrame> {
     let _span = tracing::info_span!("aggregate", period = %period).entered();
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     let p = period_index(period);
     let p0 = period_index(fiscal_start.prev());
     let minor = t.minor as usize;
@@ -166,6 +166,14 @@ pub fn aggregate(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Perio
         .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
         .collect()?;
     Ok(all)
+}
+
+/// The start of the fiscal year a close at `period` belongs to. A close at the month
+/// before the translated year (the opening, for the statement of changes in equity) is
+/// a close of the opening balances: its brought-forward translation difference is the
+/// reserve, not OCI, and nothing of the year has happened yet.
+fn year_start(ds: &Dataset, t: &Translated, period: Period) -> Period {
+    period.fiscal_year_start(ds.settings.fiscal_year_start).max(t.fiscal_start)
 }
 
 /// Builds a journal; ids are assigned in order.
@@ -246,7 +254,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     // 1. Results before the acquisition date belong to the equity acquired (IFRS 10.B88):
     //    they are moved from income and expense into pre-acquisition retained earnings.
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     let mut pre_control: BTreeMap<Period, Balances> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full) {
         let Some(from) = e.controlled_from else { continue };
@@ -554,11 +562,45 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             }
             continue;
         };
+        // At the opening, this year's impairment has not been recognised yet.
+        let at_opening;
+        let a: &Acquisition = if period < t.fiscal_start {
+            at_opening = Acquisition {
+                impairment: a.impairment - a.impairment_year,
+                impairment_year: Decimal::ZERO,
+                ..(*a).clone()
+            };
+            &at_opening
+        } else {
+            a
+        };
         let Some(entity) = ds.entity(&e.id) else { continue };
         let fc = entity.currency;
         // NCI at acquisition: the direct outside share of net assets, or fair value.
         let outside = Decimal::ONE - e.group_capital;
+        // A fair value for an NCI that does not exist would put an NCI in the trial
+        // balance that no NCI row explains: it blocks, and nothing is posted for it.
+        let fair_value_without_nci = outside.is_zero() && a.nci_fair_value.is_some_and(|x| !x.is_zero());
+        if fair_value_without_nci {
+            findings.push(
+                crate::findings::Finding::new(
+                    crate::findings::Rule::ValueInvalid,
+                    format!(
+                        "{}: `nci_fair_value` is {} {} but the parent and its subsidiaries hold a capital share of {} in {}: there is no non-controlling interest",
+                        e.id,
+                        fc,
+                        a.nci_fair_value.unwrap_or_default(),
+                        e.group_capital.normalize(),
+                        e.id
+                    ),
+                    "leave `nci_fair_value` empty and measure `share_of_net_assets` for a wholly owned subsidiary, or correct the holding in entities/holdings.csv if outside shareholders exist",
+                )
+                .at(&a.source)
+                .entity(&e.id),
+            );
+        }
         let nci_fc = match a.nci_measurement {
+            _ if outside.is_zero() => Decimal::ZERO,
             NciMeasurement::FairValue => a.nci_fair_value.unwrap_or_default(),
             NciMeasurement::ShareOfNetAssets => a.net_assets * outside,
         };
@@ -570,21 +612,65 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                 rate_of(fc, p).map(|r| money::round(r.apply(x), minor, mode)).unwrap_or_default()
             }
         };
+        // A bargain purchase (IFRS 3.34): the excess of the net assets over consideration
+        // and NCI is a gain of the acquirer at the acquisition date, not negative
+        // goodwill. It is measured once, at the acquisition date's rate, and belongs to
+        // the owners of the parent (the NCI is measured by its own basis, IFRS 3.19).
+        let gross_goodwill_fc = goodwill_fc + a.impairment;
+        let bargain_fc = if gross_goodwill_fc.is_sign_negative() { -gross_goodwill_fc } else { Decimal::ZERO };
+        let bargain_account = if bargain_fc.is_zero() {
+            None
+        } else if Period::of_date(a.date) >= fiscal_start {
+            // In the acquisition year the gain is profit of the year; later it is part of
+            // retained earnings.
+            match &roles.bargain_purchase_gain {
+                Some(acct) => Some(acct.clone()),
+                None => {
+                    findings.push(
+                        crate::findings::Finding::new(
+                            crate::findings::Rule::SettingInvalid,
+                            format!(
+                                "{}: the acquisition on {} is a bargain purchase but group.toml names no `accounts.bargain_purchase_gain`",
+                                e.id, a.date
+                            ),
+                            "name the profit or loss account for the gain on a bargain purchase as `bargain_purchase_gain` in [accounts] (IFRS 3.34)",
+                        )
+                        .at(&a.source)
+                        .entity(&e.id),
+                    );
+                    None
+                }
+            }
+        } else {
+            Some(roles.retained_earnings.clone())
+        };
+        let bargain_fc = if bargain_account.is_some() { bargain_fc } else { Decimal::ZERO };
         if goodwill_fc.is_sign_negative() {
             findings.push(
                 crate::findings::Finding::new(
                     crate::findings::Rule::GoodwillNegative,
                     format!(
-                        "{}: consideration {} + NCI {} - net assets {} = {} {} is negative (a bargain purchase)",
-                        e.id, a.consideration, nci_fc.round_dp(fc.minor_unit()), a.net_assets, fc, goodwill_fc.round_dp(fc.minor_unit())
+                        "{}: consideration {} + NCI {} - net assets {} = {} {} is negative: a bargain purchase{}",
+                        e.id,
+                        a.consideration,
+                        nci_fc.round_dp(fc.minor_unit()),
+                        a.net_assets,
+                        fc,
+                        goodwill_fc.round_dp(fc.minor_unit()),
+                        match &bargain_account {
+                            Some(acct) => format!(", recognised as a gain of {} {} on {acct} at {} (IFRS 3.34)", fc, bargain_fc.round_dp(fc.minor_unit()), a.date),
+                            None => String::new(),
+                        }
                     ),
-                    "reassess the identification and measurement of the net assets (IFRS 3.36); a gain that remains is recognised in profit or loss (IFRS 3.34)",
+                    "before keeping the gain, reassess whether every asset acquired and liability assumed is identified, and review the measurement of the net assets, the NCI and the consideration (IFRS 3.36)",
                 )
                 .at(&a.source)
                 .entity(&e.id)
                 .severity(crate::findings::Severity::Warning),
             );
         }
+        // With the gain recognised there is no goodwill.
+        let goodwill_fc = goodwill_fc + bargain_fc;
         let goodwill = to_pres(goodwill_fc, period);
         // At the acquisition date's rate, the ratio of the net assets in the two
         // currencies. Multiplied before dividing, so that a share of the net assets is
@@ -655,6 +741,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             fair_value_now.insert(e.id.clone(), *now);
         }
         lines.push(line(&roles.goodwill, &e.id, None, goodwill));
+        if let Some(acct) = &bargain_account {
+            lines.push(line(acct, &e.id, None, -at_hist(bargain_fc)));
+        }
         lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
         // Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill
         // is carried at: the part of this fiscal year is an expense of the year (IAS
@@ -932,7 +1021,7 @@ fn aggregate_one(
     period: Period,
 ) -> PolarsResult<BTreeMap<GroupAccount, Decimal>> {
     let p = period_index(period);
-    let fiscal_start = period.fiscal_year_start(ds.settings.fiscal_year_start);
+    let fiscal_start = year_start(ds, t, period);
     let p0 = period_index(fiscal_start.prev());
     let roles = &ds.settings.accounts;
     let df = t
@@ -1040,13 +1129,13 @@ pub fn prove(c: &Close) -> PolarsResult<Vec<Check>> {
     checks.push(Check::new(
         "group_trial_balance_sums_to_zero",
         total.is_zero(),
-        format!("sum of the group trial balance = {total}"),
+        format!("sum of the group trial balance = {}", money::plain(total)),
     ));
     let contrib_total: Decimal = v.iter().flatten().copied().sum();
     checks.push(Check::new(
         "contributions_sum_to_zero",
         contrib_total.is_zero(),
-        format!("sum of the entities' translated contributions = {contrib_total}"),
+        format!("sum of the entities' translated contributions = {}", money::plain(contrib_total)),
     ));
     Ok(checks)
 }

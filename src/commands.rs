@@ -269,6 +269,9 @@ pub struct ClosedPeriod {
     /// The close at the end of the month before the view starts (for month and quarter
     /// views), or `None` when the view starts with the fiscal year.
     pub base: Option<crate::close::Close>,
+    /// The close of the opening balances (the month before the fiscal year), when the
+    /// view starts with the fiscal year.
+    pub start: Option<crate::close::Close>,
     pub checks: Vec<crate::proof::Check>,
     pub root: crate::model::EntityId,
 }
@@ -290,6 +293,17 @@ fn run_close_or_stop(
             Err(code.max(1))
         }
     })
+}
+
+impl ClosedPeriod {
+    /// The close at the start of the view's period.
+    pub fn opening(&self) -> &crate::close::Close {
+        match (&self.base, &self.start) {
+            (Some(b), _) => b,
+            (None, Some(s)) => s,
+            (None, None) => unreachable!("run_close sets base or start"),
+        }
+    }
 }
 
 /// Runs the close chain: load -> map_accounts -> validate -> structure -> translate ->
@@ -334,11 +348,18 @@ pub fn run_close(
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
     };
+    let start = match base {
+        Some(_) => None,
+        None => {
+            let p0 = scope.fiscal_start.prev();
+            Some(crate::close::close_at(ds, &translated, &structure_at(p0), p0)?)
+        }
+    };
     checks.extend({
         let _span = tracing::info_span!("prove_close").entered();
         crate::close::prove(&close)?
     });
-    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
+    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, start, checks, root }))
 }
 
 pub fn close(
@@ -421,8 +442,25 @@ pub fn close(
     checks.push(crate::proof::Check::new(
         "balance_sheet_balances",
         (bs_total - result_in_equity).is_zero(),
-        format!("assets - equity - liabilities = {bs_total}, profit and OCI of the year = {result_in_equity}"),
+        format!(
+            "assets - equity - liabilities = {}, profit and OCI of the year = {}",
+            crate::money::plain(bs_total),
+            crate::money::plain(result_in_equity)
+        ),
     ));
+    // The statement of changes in equity (IAS 1.106): from the opening close of the
+    // view to its closing one, with its own proof.
+    let view_start = c.base.as_ref().map(|b| b.period.next()).unwrap_or(scope.fiscal_start);
+    let (equity_changes, equity_check) = crate::equity::changes_in_equity(
+        ds,
+        &crate::equity::components(&statements, &ds.accounts),
+        c.opening(),
+        &c.close,
+        crate::equity::ViewResult { profit, profit_nci: nci_profit, oci, oci_nci: nci_oci },
+        minor,
+        (format!("Balance at {}", view_start.first_day()), format!("Balance at {}", scope.period.last_day())),
+    )?;
+    checks.push(equity_check);
     let tied = crate::proof::tied(&checks)
         && !c.close.findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
     let names: BTreeMap<crate::model::GroupAccount, String> =
@@ -447,7 +485,10 @@ pub fn close(
             policies,
         },
         group_trial_balance: report::close::tb_json(&c.close.group, &names),
-        statements: out_statements,
+        statements: report::close::Statements {
+            laid_out: out_statements,
+            changes_in_equity: report::close::equity_changes_out(&equity_changes),
+        },
         attribution: report::close::Attribution {
             profit,
             profit_owners: profit - nci_profit,

@@ -7,6 +7,7 @@ pub mod bench;
 pub mod cli;
 pub mod close;
 pub mod commands;
+pub mod equity;
 pub mod findings;
 pub mod generate;
 pub mod intercompany;

@@ -239,6 +239,9 @@ pub struct RoleAccounts {
     /// Expense account for goodwill impairment of the fiscal year; needed only when an
     /// acquisition has `impairment_year`.
     pub goodwill_impairment: Option<GroupAccount>,
+    /// Income account for the gain on a bargain purchase (IFRS 3.34); needed only when
+    /// an acquisition's goodwill would be negative.
+    pub bargain_purchase_gain: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]

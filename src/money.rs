@@ -78,6 +78,27 @@ pub fn unsigned_zero(d: Decimal) -> Decimal {
     if d.is_zero() { d.abs() } else { d }
 }
 
+/// An amount as machine text (JSON, CSV): plain digits, a zero never signed.
+pub fn plain(d: Decimal) -> String {
+    unsigned_zero(d).to_string()
+}
+
+/// `text` without its sign when it is a decimal zero written with one ("-0", "-0.00"),
+/// else unchanged.
+pub fn unsigned_zero_text(text: &str) -> &str {
+    match text.strip_prefix('-') {
+        Some(rest)
+            if rest.starts_with('0')
+                && rest.chars().all(|c| c == '0' || c == '.')
+                && rest.matches('.').count() <= 1
+                && !rest.ends_with('.') =>
+        {
+            rest
+        }
+        _ => text,
+    }
+}
+
 /// The polars rounding mode matching a group rounding mode.
 pub fn polars_round_mode(mode: RoundingMode) -> RoundMode {
     match mode {
@@ -144,6 +165,26 @@ mod tests {
         assert_eq!(format_amount(d("-0.001"), 2), "0.00");
         assert_eq!(format_amount(d("999"), 0), "999");
         assert_eq!(format_amount(d("-1000"), 0), "(1,000)");
+    }
+
+    /// No signed zero reaches machine text: a negated zero decimal, in JSON (through the
+    /// one JSON writer) and as CSV text.
+    #[test]
+    fn a_negative_zero_is_written_unsigned() {
+        let minus_zero = -d("0.00");
+        assert!(minus_zero.is_sign_negative() && minus_zero.to_string() == "-0.00", "the trap exists");
+        assert_eq!(plain(minus_zero), "0.00");
+        assert_eq!(plain(-d("0")), "0");
+        assert_eq!(plain(d("-0.50")), "-0.50");
+        for (text, want) in [("-0", "0"), ("-0.00", "0.00"), ("-0.001", "-0.001"), ("-10", "-10"), ("-0.", "-0.")] {
+            assert_eq!(unsigned_zero_text(text), want, "{text}");
+        }
+        let json = crate::report::to_json(
+            &serde_json::json!({"a": minus_zero, "b": [d("-0.0"), d("-1.20")], "c": "-0 \"x\""}),
+        );
+        assert!(!json.contains("\"-0\"") && !json.contains("\"-0.0"), "{json}");
+        assert!(json.contains("\"a\": \"0.00\"") && json.contains("\"-1.20\"") && json.contains("\"0.0\""), "{json}");
+        assert!(json.contains("\"-0 \\\"x\\\"\""), "text that is not an amount is kept: {json}");
     }
 
     // Oracle: Python 3.11 `decimal` module, quantize with ROUND_HALF_UP (which rounds

@@ -77,7 +77,7 @@ fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
         );
     }
     let roles = &st.accounts;
-    let want: [(&str, &GroupAccount, &[AccountClass], Option<Statement>); 8] = [
+    let mut want: Vec<(&str, &GroupAccount, &[AccountClass], Option<Statement>)> = vec![
         ("retained_earnings", &roles.retained_earnings, &[AccountClass::Equity], None),
         ("translation_reserve", &roles.translation_reserve, &[AccountClass::Equity], None),
         (
@@ -102,6 +102,10 @@ fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
             Some(Statement::ProfitOrLoss),
         ),
     ];
+    // Optional roles, checked when named.
+    if let Some(acct) = &roles.bargain_purchase_gain {
+        want.push(("bargain_purchase_gain", acct, &[AccountClass::Income], Some(Statement::ProfitOrLoss)));
+    }
     for (role, acct, classes, statement) in want {
         match ds.account(acct) {
             None => f.push(

@@ -39,6 +39,7 @@ const ROLE_KEYS: &[&str] = &[
     "inventory",
     "cost_of_sales",
     "goodwill_impairment",
+    "bargain_purchase_gain",
 ];
 const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
 const SEGMENT_KEYS: &[&str] = &[
@@ -384,6 +385,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             inventory: raw.accounts.get("inventory").map(|a| GroupAccount::new(a.trim())),
             cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
             goodwill_impairment: raw.accounts.get("goodwill_impairment").map(|a| GroupAccount::new(a.trim())),
+            bargain_purchase_gain: raw.accounts.get("bargain_purchase_gain").map(|a| GroupAccount::new(a.trim())),
         },
         intercompany: IntercompanySettings {
             tolerance_absolute: tol_abs?,

@@ -52,6 +52,51 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
     StatementOut { statement: st.statement.clone(), lines }
 }
 
+/// The statement of changes in equity as output: columns by component, rows by
+/// movement, amounts by column id (credit positive, decimal strings in JSON).
+#[derive(Debug, Clone, Serialize)]
+pub struct EquityChangesOut {
+    pub columns: Vec<EquityColumnOut>,
+    pub rows: Vec<EquityRowOut>,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct EquityColumnOut {
+    pub column: String,
+    pub label: String,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct EquityRowOut {
+    pub row: &'static str,
+    pub label: String,
+    pub amounts: BTreeMap<String, Decimal>,
+}
+
+pub fn equity_changes_out(x: &crate::equity::EquityChanges) -> EquityChangesOut {
+    EquityChangesOut {
+        columns: x.columns.iter().map(|c| EquityColumnOut { column: c.id.clone(), label: c.label.clone() }).collect(),
+        rows: x
+            .rows
+            .iter()
+            .map(|r| EquityRowOut {
+                row: r.id,
+                label: r.label.clone(),
+                amounts: x.columns.iter().map(|c| c.id.clone()).zip(r.amounts.iter().copied()).collect(),
+            })
+            .collect(),
+    }
+}
+
+/// The statements of a close: those laid out from `layouts.csv` by statement, and the
+/// statement of changes in equity under `changes_in_equity`.
+#[derive(Serialize)]
+pub struct Statements {
+    #[serde(flatten)]
+    pub laid_out: BTreeMap<String, StatementOut>,
+    pub changes_in_equity: EquityChangesOut,
+}
+
 #[derive(Serialize)]
 pub struct Attribution {
     pub profit: Decimal,
@@ -80,7 +125,7 @@ pub struct CloseReport<'a> {
     pub scope: String,
     pub proof: Proof<'a>,
     pub group_trial_balance: Vec<serde_json::Value>,
-    pub statements: BTreeMap<String, StatementOut>,
+    pub statements: Statements,
     pub attribution: Attribution,
     pub eliminations: &'a [Entry],
     pub nci: &'a [NciRow],
@@ -98,7 +143,7 @@ pub fn tb_json(
     group
         .iter()
         .filter(|(_, v)| !v.is_zero())
-        .map(|(a, v)| serde_json::json!({"account": a.as_str(), "name": names.get(a).cloned().unwrap_or_default(), "amount": v.to_string()}))
+        .map(|(a, v)| serde_json::json!({"account": a.as_str(), "name": names.get(a).cloned().unwrap_or_default(), "amount": crate::money::plain(*v)}))
         .collect()
 }
 
@@ -126,10 +171,9 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         ("profit_or_loss", "Statement of profit or loss"),
         ("oci", "Other comprehensive income"),
         ("balance_sheet", "Statement of financial position"),
-        ("equity_changes", "Equity"),
     ];
     for (key, title) in titles {
-        let Some(st) = r.statements.get(key) else { continue };
+        let Some(st) = r.statements.laid_out.get(key) else { continue };
         out.push_str(&format!("\n{title}\n"));
         let a = &r.attribution;
         let extra: Vec<(&str, Decimal)> = match key {
@@ -157,6 +201,7 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
             out.push_str(&format!("      {label:<w4$}  {:>18}\n", format_amount(amount, minor), w4 = width - 4));
         }
     }
+    out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
     out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
@@ -194,6 +239,26 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
     out
 }
 
+/// The statement of changes in equity as a table: one column per component.
+fn equity_table(x: &EquityChangesOut, minor: u32) -> String {
+    let mut header: Vec<&str> = vec![""];
+    header.extend(x.columns.iter().map(|c| c.label.as_str()));
+    let rows: Vec<Vec<String>> = x
+        .rows
+        .iter()
+        .map(|r| {
+            let mut v = vec![r.label.clone()];
+            v.extend(
+                x.columns.iter().map(|c| format_amount(r.amounts.get(&c.column).copied().unwrap_or_default(), minor)),
+            );
+            v
+        })
+        .collect();
+    let mut right = vec![false];
+    right.extend(x.columns.iter().map(|_| true));
+    format!("\nStatement of changes in equity\n{}", super::text_table(&header, &rows, &right))
+}
+
 fn frame_bytes(df: &mut DataFrame, parquet: bool) -> PolarsResult<Vec<u8>> {
     let mut buf = Vec::new();
     if parquet {
@@ -227,7 +292,7 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
             acct.push(l.account.to_string());
             ent.push(l.entity.to_string());
             cp.push(l.counterparty.as_ref().map(|c| c.to_string()));
-            amount.push(l.amount.to_string());
+            amount.push(crate::money::plain(l.amount));
             desc.push(e.description.clone());
         }
     }
@@ -289,9 +354,9 @@ pub fn write_outputs(
         vec![
             Column::new("entity".into(), r.nci.iter().map(|n| n.entity.to_string()).collect::<Vec<_>>()),
             Column::new("nci_share".into(), r.nci.iter().map(|n| n.nci_share.to_string()).collect::<Vec<_>>()),
-            Column::new("profit".into(), r.nci.iter().map(|n| n.profit.to_string()).collect::<Vec<_>>()),
-            Column::new("oci".into(), r.nci.iter().map(|n| n.oci.to_string()).collect::<Vec<_>>()),
-            Column::new("equity".into(), r.nci.iter().map(|n| n.equity.to_string()).collect::<Vec<_>>()),
+            Column::new("profit".into(), r.nci.iter().map(|n| crate::money::plain(n.profit)).collect::<Vec<_>>()),
+            Column::new("oci".into(), r.nci.iter().map(|n| crate::money::plain(n.oci)).collect::<Vec<_>>()),
+            Column::new("equity".into(), r.nci.iter().map(|n| crate::money::plain(n.equity)).collect::<Vec<_>>()),
         ],
     )?;
     write_frame(dir, "nci", nci)?;
@@ -309,9 +374,12 @@ pub fn write_outputs(
                     })
                     .collect::<Vec<_>>(),
             ),
-            Column::new("brought_forward".into(), rs.iter().map(|x| x.brought_forward.to_string()).collect::<Vec<_>>()),
-            Column::new("year".into(), rs.iter().map(|x| x.year.to_string()).collect::<Vec<_>>()),
-            Column::new("reserve".into(), rs.iter().map(|x| x.reserve.to_string()).collect::<Vec<_>>()),
+            Column::new(
+                "brought_forward".into(),
+                rs.iter().map(|x| crate::money::plain(x.brought_forward)).collect::<Vec<_>>(),
+            ),
+            Column::new("year".into(), rs.iter().map(|x| crate::money::plain(x.year)).collect::<Vec<_>>()),
+            Column::new("reserve".into(), rs.iter().map(|x| crate::money::plain(x.reserve)).collect::<Vec<_>>()),
         ],
     )?;
     write_frame(dir, "translation_reserves", reserves)?;
@@ -325,15 +393,34 @@ pub fn write_outputs(
             col("entity", &|e| e.entity.to_string()),
             col("period", &|e| e.period.to_string()),
             col("currency", &|e| e.currency.to_string()),
-            col("on_opening_net_assets", &|e| e.on_opening_net_assets.to_string()),
-            col("on_profit", &|e| e.on_profit.to_string()),
-            col("on_equity_movements", &|e| e.on_equity_movements.to_string()),
-            col("on_hyperinflation", &|e| e.on_hyperinflation.to_string()),
-            col("rounding", &|e| e.rounding.to_string()),
-            col("translation_difference", &|e| e.total.to_string()),
+            col("on_opening_net_assets", &|e| crate::money::plain(e.on_opening_net_assets)),
+            col("on_profit", &|e| crate::money::plain(e.on_profit)),
+            col("on_equity_movements", &|e| crate::money::plain(e.on_equity_movements)),
+            col("on_hyperinflation", &|e| crate::money::plain(e.on_hyperinflation)),
+            col("rounding", &|e| crate::money::plain(e.rounding)),
+            col("translation_difference", &|e| crate::money::plain(e.total)),
         ],
     )?;
     write_frame(dir, "translation_differences", td)?;
+    let eq = &r.statements.changes_in_equity;
+    let cells: Vec<(&EquityRowOut, &EquityColumnOut)> =
+        eq.rows.iter().flat_map(|row| eq.columns.iter().map(move |c| (row, c))).collect();
+    let equity = DataFrame::new(
+        cells.len(),
+        vec![
+            Column::new("row".into(), cells.iter().map(|(r, _)| r.row).collect::<Vec<_>>()),
+            Column::new("label".into(), cells.iter().map(|(r, _)| r.label.clone()).collect::<Vec<_>>()),
+            Column::new("column".into(), cells.iter().map(|(_, c)| c.column.clone()).collect::<Vec<_>>()),
+            Column::new(
+                "amount".into(),
+                cells
+                    .iter()
+                    .map(|(r, c)| crate::money::plain(r.amounts.get(&c.column).copied().unwrap_or_default()))
+                    .collect::<Vec<_>>(),
+            ),
+        ],
+    )?;
+    write_frame(dir, "equity_changes", equity)?;
     write_file(&dir.join("proof.json"), to_json(&r.proof).as_bytes())?;
     write_file(&dir.join("statements.json"), to_json(&r.statements).as_bytes())?;
     Ok(())

@@ -358,7 +358,7 @@ pub fn render(m: &Matching, findings: &Findings, format: Format) -> String {
 }
 
 fn opt(d: Option<Decimal>) -> String {
-    d.map(|d| d.to_string()).unwrap_or_default()
+    d.map(crate::money::plain).unwrap_or_default()
 }
 
 fn csv(r: &Report<'_>) -> String {

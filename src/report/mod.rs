@@ -30,11 +30,84 @@ pub const CAUTION: &str = "This output supports, and does not replace, a qualifi
 the audit. Policy choices (control, functional currency, net investment, hyperinflation) are judgements the \
 user makes; local law and local GAAP may require other treatments.";
 
-/// Pretty JSON with a trailing newline, stable key order as declared.
+/// Pretty JSON with a trailing newline, stable key order as declared. This is the one
+/// place JSON is written: amounts are decimal strings, and a zero never carries a sign
+/// (rust_decimal keeps the sign of a negated zero and prints "-0.00").
 pub fn to_json<T: Serialize>(value: &T) -> String {
-    let mut s = serde_json::to_string_pretty(value).expect("report values serialise");
+    let mut buf = Vec::new();
+    let formatter = AmountFormatter { pretty: serde_json::ser::PrettyFormatter::new(), string: None };
+    let mut ser = serde_json::Serializer::with_formatter(&mut buf, formatter);
+    value.serialize(&mut ser).expect("report values serialise");
+    let mut s = String::from_utf8(buf).expect("serde_json writes UTF-8");
     s.push('\n');
     s
+}
+
+/// serde_json's pretty layout, with every string value that is a signed zero amount
+/// ("-0", "-0.00") written unsigned. A string is held back until it ends; one that
+/// needs an escape is not an amount and is written as it comes.
+struct AmountFormatter<'a> {
+    pretty: serde_json::ser::PrettyFormatter<'a>,
+    string: Option<String>,
+}
+
+impl serde_json::ser::Formatter for AmountFormatter<'_> {
+    fn begin_array<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.begin_array(w)
+    }
+    fn end_array<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.end_array(w)
+    }
+    fn begin_array_value<W: ?Sized + std::io::Write>(&mut self, w: &mut W, first: bool) -> std::io::Result<()> {
+        self.pretty.begin_array_value(w, first)
+    }
+    fn end_array_value<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.end_array_value(w)
+    }
+    fn begin_object<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.begin_object(w)
+    }
+    fn end_object<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.end_object(w)
+    }
+    fn begin_object_key<W: ?Sized + std::io::Write>(&mut self, w: &mut W, first: bool) -> std::io::Result<()> {
+        self.pretty.begin_object_key(w, first)
+    }
+    fn begin_object_value<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.begin_object_value(w)
+    }
+    fn end_object_value<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.pretty.end_object_value(w)
+    }
+    fn begin_string<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        self.string = Some(String::new());
+        w.write_all(b"\"")
+    }
+    fn write_string_fragment<W: ?Sized + std::io::Write>(&mut self, w: &mut W, fragment: &str) -> std::io::Result<()> {
+        match &mut self.string {
+            Some(held) => {
+                held.push_str(fragment);
+                Ok(())
+            }
+            None => w.write_all(fragment.as_bytes()),
+        }
+    }
+    fn write_char_escape<W: ?Sized + std::io::Write>(
+        &mut self,
+        w: &mut W,
+        escape: serde_json::ser::CharEscape,
+    ) -> std::io::Result<()> {
+        if let Some(held) = self.string.take() {
+            w.write_all(held.as_bytes())?;
+        }
+        self.pretty.write_char_escape(w, escape)
+    }
+    fn end_string<W: ?Sized + std::io::Write>(&mut self, w: &mut W) -> std::io::Result<()> {
+        if let Some(held) = self.string.take() {
+            w.write_all(crate::money::unsigned_zero_text(&held).as_bytes())?;
+        }
+        w.write_all(b"\"")
+    }
 }
 
 /// Writes `bytes` to `path`, creating folders, and reads them back to prove the write.

@@ -51,25 +51,35 @@ fn csv(r: &SegmentsOut<'_>) -> String {
             "reconciliation".into(),
             l.line.clone(),
             "reportable_segments".into(),
-            l.reportable_segments.to_string(),
+            crate::money::plain(l.reportable_segments),
         ]));
         for i in &l.items {
-            out.push_str(&csv_line(&["reconciliation".into(), l.line.clone(), i.item.clone(), i.amount.to_string()]));
+            out.push_str(&csv_line(&[
+                "reconciliation".into(),
+                l.line.clone(),
+                i.item.clone(),
+                crate::money::plain(i.amount),
+            ]));
         }
-        out.push_str(&csv_line(&["reconciliation".into(), l.line.clone(), "group".into(), l.group.to_string()]));
+        out.push_str(&csv_line(&[
+            "reconciliation".into(),
+            l.line.clone(),
+            "group".into(),
+            crate::money::plain(l.group),
+        ]));
     }
     for c in &rep.entity_wide.rows {
         out.push_str(&csv_line(&[
             "entity_wide".into(),
             "revenue_external".into(),
             c.country.clone(),
-            c.revenue_external.to_string(),
+            crate::money::plain(c.revenue_external),
         ]));
         out.push_str(&csv_line(&[
             "entity_wide".into(),
             "non_current_assets".into(),
             c.country.clone(),
-            c.non_current_assets.to_string(),
+            crate::money::plain(c.non_current_assets),
         ]));
     }
     out

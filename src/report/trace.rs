@@ -160,7 +160,7 @@ pub fn render(
                         p.entity.clone(),
                         String::new(),
                         c.counterparty.clone().unwrap_or_default(),
-                        c.amount.to_string(),
+                        crate::money::plain(c.amount),
                     ]));
                 }
             }
@@ -170,7 +170,7 @@ pub fn render(
                     e.entity.clone(),
                     e.entry.clone(),
                     e.counterparty.clone().unwrap_or_default(),
-                    e.amount.to_string(),
+                    crate::money::plain(e.amount),
                 ]));
             }
             out

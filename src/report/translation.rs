@@ -254,13 +254,13 @@ pub fn render(
                         l.counterparty.clone().unwrap_or_default(),
                         l.txn_currency.clone().unwrap_or_default(),
                         l.basis.clone(),
-                        l.amount_local.to_string(),
-                        l.balance_local.to_string(),
+                        crate::money::plain(l.amount_local),
+                        crate::money::plain(l.balance_local),
                         l.rate.to_string(),
                         l.quote.clone(),
                         l.rate_kind.clone(),
-                        l.amount_presentation.to_string(),
-                        l.balance_presentation.to_string(),
+                        crate::money::plain(l.amount_presentation),
+                        crate::money::plain(l.balance_presentation),
                     ]));
                 }
             }

@@ -1,0 +1,386 @@
+//! The statement of changes in equity (IAS 1.106-110): per component of equity, the
+//! balance at the start of the view's period, each movement, and the balance at its end.
+//!
+//! The balances come from the balance sheet of two closes (the opening and the closing
+//! one), with the result of the year counted in retained earnings and OCI in the
+//! translation reserve, as the balance sheet shows them. The movements are computed on a
+//! second path, from the entities' contributions and the elimination journal of the two
+//! closes, and split into rows by their source:
+//!
+//! - profit and OCI of the view, the NCI's share of each moved to the NCI column (the
+//!   close takes the NCI's share of every post-acquisition movement through retained
+//!   earnings, so the NCI's share of OCI leaves the retained earnings column);
+//! - dividends: the direct movements of retained earnings in the books of the entities
+//!   consolidated at both dates, less the intragroup dividends eliminated against them
+//!   (IFRS 10.B86), the NCI's share of a subsidiary's dividend in the NCI column;
+//! - changes from acquisitions: the NCI recognised at acquisition of a subsidiary first
+//!   consolidated in the period (IFRS 3.19);
+//! - other movements: what remains of each column's movement.
+//!
+//! The proof `equity_changes_reconcile` checks that opening + movements = closing for
+//! every column exactly, the closing balances being those of the balance sheet (roll-up)
+//! and the movements those of the contributions and journal (row by row), and that the
+//! components cover every equity account of the chart. Equity knows nothing about files
+//! and formats no number.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+
+use crate::close::Close;
+use crate::model::*;
+use crate::money::{self, column_decimals, column_strings};
+use crate::proof::Check;
+
+/// One component (column) of equity: its id, label and group accounts.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Component {
+    pub id: String,
+    pub label: String,
+    pub accounts: Vec<GroupAccount>,
+}
+
+/// A column of the statement: a component, or one of the two totals.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct EquityColumn {
+    pub id: String,
+    pub label: String,
+}
+
+/// A row of the statement: its id, label and one amount per column (credit positive).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Row {
+    pub id: &'static str,
+    pub label: String,
+    pub amounts: Vec<Decimal>,
+}
+
+/// The statement of changes in equity of one view.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct EquityChanges {
+    pub columns: Vec<EquityColumn>,
+    pub rows: Vec<Row>,
+}
+
+/// Profit and OCI of the view and the NCI's shares of them (credit positive), as the
+/// statements show them.
+#[derive(Debug, Clone, Copy)]
+pub struct ViewResult {
+    pub profit: Decimal,
+    pub profit_nci: Decimal,
+    pub oci: Decimal,
+    pub oci_nci: Decimal,
+}
+
+/// Id of the owners' total and of the total equity column.
+pub const OWNERS: &str = "owners_of_the_parent";
+pub const TOTAL: &str = "total_equity";
+
+/// The components of equity: the account lines of the `equity_changes` layout, else one
+/// per equity account of the chart.
+pub fn components(statements: &[crate::layout::ResolvedStatement], chart: &[AccountDef]) -> Vec<Component> {
+    if let Some(st) = statements.iter().find(|s| s.statement == "equity_changes") {
+        let out: Vec<Component> = st
+            .lines
+            .iter()
+            .filter_map(|l| match &l.body {
+                crate::layout::LineBody::Accounts(a) => {
+                    Some(Component { id: l.line.clone(), label: l.label.clone(), accounts: a.clone() })
+                }
+                crate::layout::LineBody::Total(_) => None,
+            })
+            .collect();
+        if !out.is_empty() {
+            return out;
+        }
+    }
+    chart
+        .iter()
+        .filter(|a| a.class == AccountClass::Equity)
+        .map(|a| Component { id: a.account.to_string(), label: a.name.clone(), accounts: vec![a.account.clone()] })
+        .collect()
+}
+
+/// Equity accounts as the balance sheet shows them (debit positive): the group trial
+/// balance with profit or loss in retained earnings and OCI in the translation reserve.
+fn balance_sheet_equity(
+    c: &Close,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    roles: &RoleAccounts,
+) -> BTreeMap<GroupAccount, Decimal> {
+    let mut out = BTreeMap::new();
+    for (a, v) in &c.group {
+        let Some(d) = chart.get(a) else { continue };
+        let target = match d.statement {
+            Statement::ProfitOrLoss => &roles.retained_earnings,
+            Statement::Oci => &roles.translation_reserve,
+            Statement::BalanceSheet if d.class == AccountClass::Equity => a,
+            Statement::BalanceSheet => continue,
+        };
+        *out.entry(target.clone()).or_default() += *v;
+    }
+    out
+}
+
+/// Per entity and group account, the contributions on the accounts in `accounts`
+/// (columnar: the contribution frame is summed by polars).
+fn contributions_on(
+    c: &Close,
+    accounts: &BTreeSet<GroupAccount>,
+) -> PolarsResult<BTreeMap<(EntityId, GroupAccount), Decimal>> {
+    let list: Vec<String> = accounts.iter().map(|a| a.to_string()).collect();
+    let df = c
+        .contributions
+        .clone()
+        .lazy()
+        .filter(col("group_account").is_in(lit(Series::new("accounts".into(), list)).implode(false), false))
+        .group_by([col("entity"), col("group_account")])
+        .agg([col("amount").sum()])
+        .collect()?;
+    let e = column_strings(&df, "entity")?;
+    let a = column_strings(&df, "group_account")?;
+    let v = column_decimals(df.column("amount")?)?;
+    let mut out = BTreeMap::new();
+    for i in 0..df.height() {
+        if let (Some(e), Some(a)) = (&e[i], &a[i]) {
+            *out.entry((EntityId::new(e), GroupAccount::new(a))).or_default() += v[i].unwrap_or_default();
+        }
+    }
+    Ok(out)
+}
+
+/// Entities with a contribution in a close.
+fn contributing(c: &Close) -> PolarsResult<BTreeSet<EntityId>> {
+    Ok(column_strings(&c.contributions, "entity")?.into_iter().flatten().map(EntityId::new).collect())
+}
+
+/// Sum of the journal lines of a close on `account`, optionally of one rule and entity.
+fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<&str>, entity: Option<&EntityId>) -> Decimal {
+    c.journal
+        .iter()
+        .filter(|e| rule.is_none_or(|r| e.rule == r))
+        .flat_map(|e| e.lines.iter())
+        .filter(|l| &l.account == account && entity.is_none_or(|x| &l.entity == x))
+        .map(|l| l.amount)
+        .sum()
+}
+
+/// The statement of changes in equity between the `opening` close (the start of the
+/// view's period) and the `closing` one, with its proof.
+pub fn changes_in_equity(
+    ds: &crate::load::Dataset,
+    components: &[Component],
+    opening: &Close,
+    closing: &Close,
+    view: ViewResult,
+    minor: u32,
+    labels: (String, String),
+) -> PolarsResult<(EquityChanges, Check)> {
+    let _span = tracing::info_span!("changes_in_equity", period = %closing.period).entered();
+    let roles = &ds.settings.accounts;
+    let mode = ds.settings.policies.rounding;
+    let chart: BTreeMap<&GroupAccount, &AccountDef> = ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let equity_accounts: BTreeSet<GroupAccount> =
+        ds.accounts.iter().filter(|a| a.class == AccountClass::Equity).map(|a| a.account.clone()).collect();
+    let n = components.len();
+    let find = |acct: &GroupAccount| components.iter().position(|c| c.accounts.contains(acct));
+    let (re, tr, nci) =
+        (find(&roles.retained_earnings), find(&roles.translation_reserve), find(&roles.non_controlling_interest));
+    // Balances as the balance sheet shows them, presented credit positive.
+    let presented = |c: &Close| -> Vec<Decimal> {
+        let bs = balance_sheet_equity(c, &chart, roles);
+        components.iter().map(|k| -k.accounts.iter().filter_map(|a| bs.get(a)).copied().sum::<Decimal>()).collect()
+    };
+    let open = presented(opening);
+    let close = presented(closing);
+
+    // The movement of each equity account on the second path: contributions and
+    // journal lines of the two closes, and the result of the view.
+    let c_open = contributions_on(opening, &equity_accounts)?;
+    let c_close = contributions_on(closing, &equity_accounts)?;
+    let mut moved: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    for ((_, a), v) in &c_close {
+        *moved.entry(a.clone()).or_default() += *v;
+    }
+    for ((_, a), v) in &c_open {
+        *moved.entry(a.clone()).or_default() -= *v;
+    }
+    for a in &equity_accounts {
+        *moved.entry(a.clone()).or_default() +=
+            journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
+    }
+    let result_of = |c: &Close, st: Statement| -> Decimal {
+        c.group.iter().filter(|(a, _)| chart.get(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
+    };
+    *moved.entry(roles.retained_earnings.clone()).or_default() +=
+        result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
+    *moved.entry(roles.translation_reserve.clone()).or_default() +=
+        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
+    let movement: Vec<Decimal> =
+        components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect();
+
+    let mut profit = vec![Decimal::ZERO; n];
+    let mut oci = vec![Decimal::ZERO; n];
+    let mut dividends = vec![Decimal::ZERO; n];
+    let mut acquisitions = vec![Decimal::ZERO; n];
+    let add = |row: &mut Vec<Decimal>, at: Option<usize>, x: Decimal| {
+        if let Some(i) = at {
+            row[i] += x;
+        }
+    };
+    add(&mut profit, re, view.profit - view.profit_nci);
+    add(&mut profit, nci, view.profit_nci);
+    add(&mut oci, tr, view.oci);
+    add(&mut oci, re, -view.oci_nci);
+    add(&mut oci, nci, view.oci_nci);
+
+    // Dividends: direct movements of retained earnings in the books of entities
+    // consolidated at both dates; intragroup ones are eliminated against them.
+    let before = contributing(opening)?;
+    let after = contributing(closing)?;
+    let nci_share: BTreeMap<&EntityId, Decimal> = closing.nci.iter().map(|r| (&r.entity, r.nci_share)).collect();
+    for e in before.intersection(&after) {
+        let key = (e.clone(), roles.retained_earnings.clone());
+        let own = -(c_close.get(&key).copied().unwrap_or_default() - c_open.get(&key).copied().unwrap_or_default());
+        add(&mut dividends, re, own);
+        // The NCI bears its share of a subsidiary's dividend.
+        if let Some(share) = nci_share.get(e) {
+            let part = money::round(own * *share, minor, mode);
+            add(&mut dividends, re, -part);
+            add(&mut dividends, nci, part);
+        }
+    }
+    add(
+        &mut dividends,
+        re,
+        -(journal_sum(closing, &roles.retained_earnings, Some("intragroup_dividend"), None)
+            - journal_sum(opening, &roles.retained_earnings, Some("intragroup_dividend"), None)),
+    );
+    // Acquisitions: the NCI at acquisition of each subsidiary first consolidated.
+    for e in after.difference(&before) {
+        let x = -journal_sum(closing, &roles.non_controlling_interest, Some("investment_and_goodwill"), Some(e));
+        add(&mut acquisitions, nci, x);
+    }
+    let other: Vec<Decimal> =
+        (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i]).collect();
+
+    // Columns: the components, the owners' total before the NCI, the total.
+    let mut columns: Vec<EquityColumn> = Vec::new();
+    let owners_at = nci.unwrap_or(n);
+    let widen = |v: &[Decimal]| -> Vec<Decimal> {
+        let owners: Decimal = v.iter().enumerate().filter(|(i, _)| Some(*i) != nci).map(|(_, x)| *x).sum();
+        let mut out: Vec<Decimal> = v.iter().take(owners_at).copied().collect();
+        out.push(owners);
+        out.extend(v.iter().skip(owners_at).copied());
+        out.push(v.iter().copied().sum());
+        out.into_iter().map(money::unsigned_zero).collect()
+    };
+    for (i, k) in components.iter().enumerate() {
+        if i == owners_at {
+            columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+        }
+        columns.push(EquityColumn { id: k.id.clone(), label: k.label.clone() });
+    }
+    if owners_at == n {
+        columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+    }
+    columns.push(EquityColumn { id: TOTAL.into(), label: "Total equity".into() });
+    let rows = vec![
+        Row { id: "opening", label: labels.0, amounts: widen(&open) },
+        Row { id: "profit", label: "Profit for the period".into(), amounts: widen(&profit) },
+        Row { id: "oci", label: "Other comprehensive income".into(), amounts: widen(&oci) },
+        Row { id: "dividends", label: "Dividends".into(), amounts: widen(&dividends) },
+        Row {
+            id: "acquisitions",
+            label: "Non-controlling interests on acquisition".into(),
+            amounts: widen(&acquisitions),
+        },
+        Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
+        Row { id: "closing", label: labels.1, amounts: widen(&close) },
+    ];
+
+    // The proof: every column's opening + movements = closing, exactly; every equity
+    // account of the chart in one component.
+    let mut broken = Vec::new();
+    for (i, k) in components.iter().enumerate() {
+        if open[i] + movement[i] != close[i] {
+            broken.push(format!(
+                "{}: {} + {} != {}",
+                k.id,
+                money::plain(open[i]),
+                money::plain(movement[i]),
+                money::plain(close[i])
+            ));
+        }
+    }
+    let covered: BTreeSet<&GroupAccount> = components.iter().flat_map(|k| k.accounts.iter()).collect();
+    let missing: Vec<String> = equity_accounts.iter().filter(|a| !covered.contains(a)).map(|a| a.to_string()).collect();
+    if !missing.is_empty() {
+        broken.push(format!("equity accounts in no component: {}", missing.join(" ")));
+    }
+    let total = |v: &[Decimal]| v.iter().copied().sum::<Decimal>();
+    let check = Check::new(
+        "equity_changes_reconcile",
+        broken.is_empty(),
+        if broken.is_empty() {
+            format!(
+                "{n} components: opening {} + movements {} = closing {}",
+                money::plain(total(&open)),
+                money::plain(total(&movement)),
+                money::plain(total(&close))
+            )
+        } else {
+            broken.join("; ")
+        },
+    );
+    Ok((EquityChanges { columns, rows }, check))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::layout::{LineBody, ResolvedLine, ResolvedStatement};
+
+    fn account(id: &str, name: &str, class: AccountClass) -> AccountDef {
+        AccountDef {
+            account: GroupAccount::new(id),
+            name: name.into(),
+            statement: if class == AccountClass::Equity { Statement::BalanceSheet } else { Statement::ProfitOrLoss },
+            class,
+            basis: Basis::Historical,
+            ic_kind: None,
+            non_current: false,
+            source: Source::file("entities/accounts.csv"),
+        }
+    }
+
+    /// The columns are the layout's account lines (its totals are recomputed, not
+    /// copied); without an `equity_changes` layout, one column per equity account.
+    #[test]
+    fn components_follow_the_layout_else_the_chart() {
+        let chart = vec![
+            account("3000", "Share capital", AccountClass::Equity),
+            account("3200", "Retained earnings", AccountClass::Equity),
+            account("3900", "Non-controlling interests", AccountClass::Equity),
+            account("4000", "Revenue", AccountClass::Income),
+        ];
+        let line = |id: &str, body: LineBody| ResolvedLine {
+            line: id.into(),
+            label: id.into(),
+            presentation: crate::layout::Presentation::CreditPositive,
+            body,
+        };
+        let layout = ResolvedStatement {
+            statement: "equity_changes".into(),
+            lines: vec![
+                line("OWN", LineBody::Accounts(vec![GroupAccount::new("3000"), GroupAccount::new("3200")])),
+                line("NCI", LineBody::Accounts(vec![GroupAccount::new("3900")])),
+                line("TOT", LineBody::Total(vec![("OWN".into(), 1), ("NCI".into(), 1)])),
+            ],
+        };
+        let ids = |c: &[Component]| c.iter().map(|k| k.id.clone()).collect::<Vec<_>>();
+        assert_eq!(ids(&components(&[layout], &chart)), ["OWN", "NCI"]);
+        assert_eq!(ids(&components(&[], &chart)), ["3000", "3200", "3900"]);
+    }
+}
