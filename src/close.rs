@@ -721,7 +721,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             if consolidated.contains(holder) {
                 lines.push(line(acct, holder, Some(&e.id), -*amount));
                 investment_total += *amount;
-                let fx = investment_fx_year(ds, t, holder, acct, &e.id, period)?;
+                let acquired_this_year =
+                    Period::of_date(a.date) >= fiscal_start && ds.entity(holder).is_some_and(|h| h.currency == fc);
+                let acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)> =
+                    if acquired_this_year { Some((Period::of_date(a.date), &at_hist)) } else { None };
+                let fx = investment_fx_year(ds, t, holder, acct, &e.id, period, acquired)?;
                 if !fx.is_zero() {
                     holders_fx_year.push((holder.clone(), fx));
                 }
@@ -1044,9 +1048,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 /// one subsidiary (account `account`, counterparty `owned`): month by month, the change
 /// in the translated balance less the month's local movement at the month's rate
 /// (the translated balance over the local balance, the closing rate of a closing-basis
-/// account). An investment acquired in a month enters at that month's rate and has no
-/// exchange difference in it; one held at the opening starts from its translation at
-/// the opening. In the presentation currency the difference is 0. A month that takes the
+/// account). One held at the opening starts from its translation at the opening. One
+/// acquired this year enters at its translation at acquisition: `acquired` names the
+/// month and translates at the acquisition date's rate, given where the holder's
+/// currency is the subsidiary's; otherwise it enters at the month's closing rate. In
+/// the presentation currency the difference is 0. A month that takes the
 /// balance to zero (a disposal) adds no difference; the rest is the holder's own.
 /// The holder's translation difference of the year holds exactly this amount for the
 /// investment, which the subsidiary's own translation difference replaces in the group.
@@ -1057,6 +1063,7 @@ fn investment_fx_year(
     account: &GroupAccount,
     owned: &EntityId,
     period: Period,
+    acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)>,
 ) -> PolarsResult<Decimal> {
     let p = period_index(period);
     let p0 = period_index(year_start(ds, t, period).prev());
@@ -1091,7 +1098,10 @@ fn investment_fx_year(
     for m in (p0 + 1)..=p {
         let (amount_local, balance_local, balance_pres) = by_month.get(&m).copied().unwrap_or_default();
         if !balance_local.is_zero() {
-            let movement = money::round(amount_local * balance_pres / balance_local, t.minor, mode);
+            let movement = match acquired {
+                Some((month, at_acquisition)) if period_index(month) == m => at_acquisition(amount_local),
+                _ => money::round(amount_local * balance_pres / balance_local, t.minor, mode),
+            };
             fx += balance_pres - before - movement;
         }
         before = balance_pres;
