@@ -548,6 +548,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     // The NCI's share of this fiscal year's goodwill impairment, under full goodwill.
     let mut nci_impairment_year: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     let mut fair_value_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    // This fiscal year's exchange difference on each holder's eliminated investments in
+    // subsidiaries, per holder (step 5 takes it out of the holder's NCI).
+    let mut investment_fx: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(a) = acq.get(&e.id) else {
             if invest.contains_key(&e.id) {
@@ -712,10 +715,20 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         };
         let mut lines = Vec::new();
         let mut investment_total = Decimal::ZERO;
+        // This year's exchange difference on each eliminated investment, per holder.
+        let mut holders_fx_year: Vec<(EntityId, Decimal)> = Vec::new();
         for (holder, acct, amount) in invest.get(&e.id).into_iter().flatten() {
             if consolidated.contains(holder) {
                 lines.push(line(acct, holder, Some(&e.id), -*amount));
                 investment_total += *amount;
+                let acquired_this_year =
+                    Period::of_date(a.date) >= fiscal_start && ds.entity(holder).is_some_and(|h| h.currency == fc);
+                let acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)> =
+                    if acquired_this_year { Some((Period::of_date(a.date), &at_hist)) } else { None };
+                let fx = investment_fx_year(ds, t, holder, acct, &e.id, period, acquired)?;
+                if !fx.is_zero() {
+                    holders_fx_year.push((holder.clone(), fx));
+                }
             }
         }
         // The equity acquired: the subsidiary's contributed capital (share capital,
@@ -802,7 +815,20 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         let goodwill_fx_year = goodwill_fx_year + fva_fx_year;
         // A fall in goodwill's value in the presentation currency is a loss (a debit).
         lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
-        lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year));
+        // The holder's translation difference of the year includes the exchange
+        // difference on its investment, retranslated at the closing rate; in the group the
+        // investment is replaced by the subsidiary's net assets, whose exchange difference
+        // is the subsidiary's own translation difference (IAS 21.39c). The investment's
+        // part of the year is reversed against the holder's OCI of the year (a gain on
+        // the investment was a credit: the reversal is a debit); only the part brought
+        // forward goes to the reserve.
+        let mut investment_fx_total = Decimal::ZERO;
+        for (holder, fx) in &holders_fx_year {
+            lines.push(line(&roles.translation_difference, holder, Some(&e.id), *fx));
+            *investment_fx.entry(holder.clone()).or_default() += *fx;
+            investment_fx_total += *fx;
+        }
+        lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year - investment_fx_total));
         // Under full goodwill (IFRS 3.19) part of the goodwill is the NCI's: its fair
         // value less its share of the net assets. The exchange difference on that part
         // is the NCI's (IAS 21.41), and so is its share of the impairment, allocated on
@@ -947,9 +973,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             .sum();
         // The fair value adjustment at the closing rate is part of the subsidiary's net
         // assets in the group, as it was part of the net assets acquired.
+        // A holder's exchange difference of the year on its investments in subsidiaries
+        // is eliminated (step 3): its NCI's share of that exchange exposure is already in
+        // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
+        let holder_fx = investment_fx.get(&e.id).copied().unwrap_or_default();
         let post = equity_total + fair_value_now.get(&e.id).copied().unwrap_or_default()
             - unrealised
-            - pre_acquisition.get(&e.id).copied().unwrap_or_default();
+            - pre_acquisition.get(&e.id).copied().unwrap_or_default()
+            - holder_fx;
         let nci_post = money::round(post * e.nci, minor, mode);
         // No adjustment for the holder's investments in its own subsidiaries: each
         // subsidiary's NCI at acquisition is its direct outside share (or fair value),
@@ -971,7 +1002,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         };
         let profit = -(view_pl(&e.id, Statement::ProfitOrLoss) + pre_results(Statement::ProfitOrLoss));
         let oci = -(view_pl(&e.id, Statement::Oci) + pre_results(Statement::Oci))
-            + fair_value_oci.get(&e.id).copied().unwrap_or_default();
+            + fair_value_oci.get(&e.id).copied().unwrap_or_default()
+            - holder_fx;
         j.post(
             "non_controlling_interest",
             e.immediate_parent.clone().unwrap_or_else(|| s.parent().clone()),
@@ -1010,6 +1042,71 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
     Ok(Close { period, contributions, journal: j.entries, group, nci: nci_rows, reserves, findings })
+}
+
+/// This fiscal year's exchange difference on one holder's translated investment in
+/// one subsidiary (account `account`, counterparty `owned`): month by month, the change
+/// in the translated balance less the month's local movement at the month's rate
+/// (the translated balance over the local balance, the closing rate of a closing-basis
+/// account). One held at the opening starts from its translation at the opening. One
+/// acquired this year enters at its translation at acquisition: `acquired` names the
+/// month and translates at the acquisition date's rate, given where the holder's
+/// currency is the subsidiary's; otherwise it enters at the month's closing rate. In
+/// the presentation currency the difference is 0. A month that takes the
+/// balance to zero (a disposal) adds no difference; the rest is the holder's own.
+/// The holder's translation difference of the year holds exactly this amount for the
+/// investment, which the subsidiary's own translation difference replaces in the group.
+fn investment_fx_year(
+    ds: &Dataset,
+    t: &Translated,
+    holder: &EntityId,
+    account: &GroupAccount,
+    owned: &EntityId,
+    period: Period,
+    acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)>,
+) -> PolarsResult<Decimal> {
+    let p = period_index(period);
+    let p0 = period_index(year_start(ds, t, period).prev());
+    let df = t
+        .lines
+        .clone()
+        .lazy()
+        .filter(
+            col("entity")
+                .eq(lit(holder.as_str()))
+                .and(col("group_account").eq(lit(account.as_str())))
+                .and(col("counterparty").eq(lit(owned.as_str())))
+                .and(col("period_index").gt_eq(lit(p0)))
+                .and(col("period_index").lt_eq(lit(p))),
+        )
+        .group_by([col("period_index")])
+        .agg([col("amount_local").sum(), col("balance_local").sum(), col("balance_presentation").sum()])
+        .sort(["period_index"], SortMultipleOptions::default())
+        .collect()?;
+    let idx: Vec<Option<i32>> = df.column("period_index")?.i32()?.iter().collect();
+    let al = column_decimals(df.column("amount_local")?)?;
+    let bl = column_decimals(df.column("balance_local")?)?;
+    let bp = column_decimals(df.column("balance_presentation")?)?;
+    let by_month: BTreeMap<i32, (Decimal, Decimal, Decimal)> = (0..df.height())
+        .filter_map(|i| {
+            idx[i].map(|m| (m, (al[i].unwrap_or_default(), bl[i].unwrap_or_default(), bp[i].unwrap_or_default())))
+        })
+        .collect();
+    let mode = ds.settings.policies.rounding;
+    let mut fx = Decimal::ZERO;
+    let mut before = by_month.get(&p0).map(|x| x.2).unwrap_or_default();
+    for m in (p0 + 1)..=p {
+        let (amount_local, balance_local, balance_pres) = by_month.get(&m).copied().unwrap_or_default();
+        if !balance_local.is_zero() {
+            let movement = match acquired {
+                Some((month, at_acquisition)) if period_index(month) == m => at_acquisition(amount_local),
+                _ => money::round(amount_local * balance_pres / balance_local, t.minor, mode),
+            };
+            fx += balance_pres - before - movement;
+        }
+        before = balance_pres;
+    }
+    Ok(fx)
 }
 
 /// One entity's translated balances by group account at `period`, translation

@@ -4,8 +4,10 @@
 //! rust_decimal loops from the rules (IAS 21.39 translation, IFRS 10.B86 eliminations,
 //! IFRS 3.32 goodwill on either NCI basis, IAS 21.47 goodwill at the closing rate with
 //! the NCI's part of full goodwill and of its exchange difference, NCI as the effective
-//! outside share of post-acquisition equity, profit and OCI); it shares no code with the
-//! engine. Group trial balance, NCI and the NCI's profit and OCI must agree to the cent.
+//! outside share of post-acquisition equity, profit and OCI; the exchange difference of
+//! the year on a USD holder's investment reversed from OCI, not from the reserve); it
+//! shares no code with the engine. Group trial balance, NCI and the NCI's profit and OCI
+//! must agree to the cent.
 
 use std::collections::BTreeMap;
 
@@ -295,6 +297,21 @@ fn oracle(g: &Group) -> Expected {
             add(&mut tb, acct, -x);
         }
     }
+    // A holder in USD carries its investment at the closing rate, so its translation
+    // difference of the year holds the investment's exchange difference: the investment
+    // (in the opening balances, acquired in 2020) at the 2026-01 closing rate less at the
+    // 2025-12 one. In the group the subsidiary's net assets replace the investment and
+    // their exchange difference is the subsidiary's own: the investment's is not OCI of
+    // the group, nor part of the holder's equity or OCI its NCI shares in.
+    let mut investment_fx = vec![Decimal::ZERO; g.ents.len()];
+    for (c, e) in g.ents.iter().enumerate().skip(1) {
+        let holder = &g.ents[e.parent];
+        let local = cents(e.investment);
+        let fx = if holder.usd { round2(local / r1) - round2(local / r0) } else { Decimal::ZERO };
+        investment_fx[c] = fx;
+        equity_post[e.parent] -= fx;
+        oci[e.parent] -= fx;
+    }
     // Investments against the equity at acquisition (share capital), goodwill at the
     // closing rate, NCI at its share of the net assets at the historical rate.
     let mut nci = Decimal::ZERO;
@@ -330,6 +347,8 @@ fn oracle(g: &Group) -> Expected {
             ("1100", goodwill_now),
             ("3900", -nci_acquisition),
             ("8100", -goodwill_fx_year),
+            // The holder's gain on the investment (a credit in its OCI) reversed.
+            ("8100", investment_fx[c]),
         ];
         let rest: Decimal = entry.iter().map(|x| x.1).sum();
         entry.push(("3300", -rest));
