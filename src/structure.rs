@@ -910,8 +910,11 @@ fn solve_interests(
     for _ in 0..n {
         graph.add_node(());
     }
+    // A holding of no capital adds nothing to x = d + A x; left out of the graph, it cannot
+    // join entities into a cycle that no capital runs through (a singular block that the
+    // parent's capital would seem to reach).
     for &l in valid {
-        if links[l].owned != p {
+        if links[l].owned != p && !links[l].holding.capital_share.is_zero() {
             graph.add_edge(NodeIndex::new(links[l].owner), NodeIndex::new(links[l].owned), l);
         }
     }
