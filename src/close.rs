@@ -539,6 +539,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             }
         }
     }
+    let investment_accounts: BTreeSet<&GroupAccount> = invest.values().flatten().map(|(_, a, _)| a).collect();
+    let investment_lines = investment_months(ds, t, &investment_accounts, period)?;
     let mut pre_acquisition: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     // The NCI's exchange difference of the year on its part of full goodwill.
     let mut nci_goodwill_oci: BTreeMap<EntityId, Decimal> = BTreeMap::new();
@@ -725,7 +727,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
                     Period::of_date(a.date) >= fiscal_start && ds.entity(holder).is_some_and(|h| h.currency == fc);
                 let acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)> =
                     if acquired_this_year { Some((Period::of_date(a.date), &at_hist)) } else { None };
-                let fx = investment_fx_year(ds, t, holder, acct, &e.id, period, acquired)?;
+                let months = investment_lines.get(&(holder.clone(), acct.clone(), e.id.clone()));
+                let fx = investment_fx_year(ds, t, months, period, acquired);
                 if !fx.is_zero() {
                     holders_fx_year.push((holder.clone(), fx));
                 }
@@ -1056,15 +1059,23 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 /// balance to zero (a disposal) adds no difference; the rest is the holder's own.
 /// The holder's translation difference of the year holds exactly this amount for the
 /// investment, which the subsidiary's own translation difference replaces in the group.
-fn investment_fx_year(
+/// Per month: (movement, balance) in the local currency and balance in the presentation
+/// currency of one investment line.
+type LineMonths = BTreeMap<i32, (Decimal, Decimal, Decimal)>;
+
+/// The translated investment lines (holder, account, owned) of the fiscal year to
+/// `period`, by month, read in one pass over the translated lines.
+fn investment_months(
     ds: &Dataset,
     t: &Translated,
-    holder: &EntityId,
-    account: &GroupAccount,
-    owned: &EntityId,
+    accounts: &BTreeSet<&GroupAccount>,
     period: Period,
-    acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)>,
-) -> PolarsResult<Decimal> {
+) -> PolarsResult<BTreeMap<(EntityId, GroupAccount, EntityId), LineMonths>> {
+    let mut out: BTreeMap<(EntityId, GroupAccount, EntityId), LineMonths> = BTreeMap::new();
+    let Some(is_investment) = accounts.iter().map(|a| col("group_account").eq(lit(a.as_str()))).reduce(|x, y| x.or(y))
+    else {
+        return Ok(out);
+    };
     let p = period_index(period);
     let p0 = period_index(year_start(ds, t, period).prev());
     let df = t
@@ -1072,26 +1083,41 @@ fn investment_fx_year(
         .clone()
         .lazy()
         .filter(
-            col("entity")
-                .eq(lit(holder.as_str()))
-                .and(col("group_account").eq(lit(account.as_str())))
-                .and(col("counterparty").eq(lit(owned.as_str())))
+            is_investment
+                .and(col("counterparty").is_not_null())
                 .and(col("period_index").gt_eq(lit(p0)))
                 .and(col("period_index").lt_eq(lit(p))),
         )
-        .group_by([col("period_index")])
+        .group_by([col("entity"), col("group_account"), col("counterparty"), col("period_index")])
         .agg([col("amount_local").sum(), col("balance_local").sum(), col("balance_presentation").sum()])
-        .sort(["period_index"], SortMultipleOptions::default())
         .collect()?;
+    let ent = money::column_strings(&df, "entity")?;
+    let acct = money::column_strings(&df, "group_account")?;
+    let cp = money::column_strings(&df, "counterparty")?;
     let idx: Vec<Option<i32>> = df.column("period_index")?.i32()?.iter().collect();
     let al = column_decimals(df.column("amount_local")?)?;
     let bl = column_decimals(df.column("balance_local")?)?;
     let bp = column_decimals(df.column("balance_presentation")?)?;
-    let by_month: BTreeMap<i32, (Decimal, Decimal, Decimal)> = (0..df.height())
-        .filter_map(|i| {
-            idx[i].map(|m| (m, (al[i].unwrap_or_default(), bl[i].unwrap_or_default(), bp[i].unwrap_or_default())))
-        })
-        .collect();
+    for i in 0..df.height() {
+        let (Some(e), Some(a), Some(c), Some(m)) = (&ent[i], &acct[i], &cp[i], idx[i]) else { continue };
+        out.entry((EntityId::new(e), GroupAccount::new(a), EntityId::new(c)))
+            .or_default()
+            .insert(m, (al[i].unwrap_or_default(), bl[i].unwrap_or_default(), bp[i].unwrap_or_default()));
+    }
+    Ok(out)
+}
+
+fn investment_fx_year(
+    ds: &Dataset,
+    t: &Translated,
+    by_month: Option<&LineMonths>,
+    period: Period,
+    acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)>,
+) -> Decimal {
+    let p = period_index(period);
+    let p0 = period_index(year_start(ds, t, period).prev());
+    let empty = LineMonths::new();
+    let by_month = by_month.unwrap_or(&empty);
     let mode = ds.settings.policies.rounding;
     let mut fx = Decimal::ZERO;
     let mut before = by_month.get(&p0).map(|x| x.2).unwrap_or_default();
@@ -1106,7 +1132,7 @@ fn investment_fx_year(
         }
         before = balance_pres;
     }
-    Ok(fx)
+    fx
 }
 
 /// One entity's translated balances by group account at `period`, translation
