@@ -269,9 +269,6 @@ pub struct ClosedPeriod {
     /// The close at the end of the month before the view starts (for month and quarter
     /// views), or `None` when the view starts with the fiscal year.
     pub base: Option<crate::close::Close>,
-    /// The close of the opening balances (the month before the fiscal year), when the
-    /// view starts with the fiscal year.
-    pub start: Option<crate::close::Close>,
     pub checks: Vec<crate::proof::Check>,
     pub root: crate::model::EntityId,
 }
@@ -296,14 +293,25 @@ fn run_close_or_stop(
 }
 
 impl ClosedPeriod {
-    /// The close at the start of the view's period.
-    pub fn opening(&self) -> &crate::close::Close {
-        match (&self.base, &self.start) {
-            (Some(b), _) => b,
-            (None, Some(s)) => s,
-            (None, None) => unreachable!("run_close sets base or start"),
-        }
+    /// The close of the opening balances (the month before the fiscal year), for a view
+    /// from the fiscal year's start; computed on demand because only the statement of
+    /// changes in equity needs it.
+    pub fn opening_balances(&self) -> Result<crate::close::Close, Error> {
+        let ds = &self.checked.ds;
+        let p0 = self.checked.scope.fiscal_start.prev();
+        Ok(crate::close::close_at(ds, &self.translated, &structure_at(ds, &self.root, p0), p0)?)
     }
+}
+
+/// The group structure below `root` at the end of period `p`.
+fn structure_at(
+    ds: &crate::load::Dataset,
+    root: &crate::model::EntityId,
+    p: Period,
+) -> crate::structure::GroupStructure {
+    let _span = tracing::info_span!("structure", period = %p).entered();
+    let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+    crate::structure::build(&ids, &ds.holdings, root, p.last_day(), ds.settings.policies.significant_influence).0
 }
 
 /// Runs the close chain: load -> map_accounts -> validate -> structure -> translate ->
@@ -331,11 +339,7 @@ pub fn run_close(
         prove_inputs(ds, &checked.mapped)?
     };
     checks.extend(crate::translate::prove(&translated)?);
-    let structure_at = |p: Period| {
-        let _span = tracing::info_span!("structure", period = %p).entered();
-        let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-        crate::structure::build(&ids, &ds.holdings, &root, p.last_day(), ds.settings.policies.significant_influence).0
-    };
+    let structure_at = |p: Period| structure_at(ds, &root, p);
     let structure = structure_at(scope.period);
     let close = crate::close::close_at(ds, &translated, &structure, scope.period)?;
     let base_period = match view {
@@ -348,18 +352,11 @@ pub fn run_close(
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
     };
-    let start = match base {
-        Some(_) => None,
-        None => {
-            let p0 = scope.fiscal_start.prev();
-            Some(crate::close::close_at(ds, &translated, &structure_at(p0), p0)?)
-        }
-    };
     checks.extend({
         let _span = tracing::info_span!("prove_close").entered();
         crate::close::prove(&close)?
     });
-    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, start, checks, root }))
+    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
 }
 
 pub fn close(
@@ -451,10 +448,18 @@ pub fn close(
     // The statement of changes in equity (IAS 1.106): from the opening close of the
     // view to its closing one, with its own proof.
     let view_start = c.base.as_ref().map(|b| b.period.next()).unwrap_or(scope.fiscal_start);
+    let computed;
+    let opening = match &c.base {
+        Some(b) => b,
+        None => {
+            computed = c.opening_balances()?;
+            &computed
+        }
+    };
     let (equity_changes, equity_check) = crate::equity::changes_in_equity(
         ds,
         &crate::equity::components(&statements, &ds.accounts),
-        c.opening(),
+        opening,
         &c.close,
         crate::equity::ViewResult { profit, profit_nci: nci_profit, oci, oci_nci: nci_oci },
         minor,
@@ -666,7 +671,9 @@ pub fn trace(
         .lines
         .clone()
         .lazy()
-        .filter(col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents), false)))
+        .filter(
+            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents), false)),
+        )
         .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
         .filter(
             when(col("by_balance").fill_null(lit(false)))
