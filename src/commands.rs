@@ -672,7 +672,7 @@ pub fn trace(
         .clone()
         .lazy()
         .filter(
-            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents), false)),
+            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents).implode(false), false)),
         )
         .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
         .filter(
