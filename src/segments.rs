@@ -155,15 +155,8 @@ impl Measure {
     /// The presented value of the measure on debit-positive amounts.
     pub fn value(&self, amounts: &Amounts) -> Decimal {
         let debit: Decimal = self.weights.iter().map(|(a, w)| amounts.get(a).copied().unwrap_or_default() * *w).sum();
-        let v = self.kind.presentation().show(debit);
         // No negative zero in any output.
-        if v.is_zero() {
-            let mut z = Decimal::ZERO;
-            z.rescale(v.scale());
-            z
-        } else {
-            v
-        }
+        crate::money::unsigned_zero(self.kind.presentation().show(debit))
     }
 }
 
