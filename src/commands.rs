@@ -466,6 +466,16 @@ pub fn close(
         (format!("Balance at {}", view_start.first_day()), format!("Balance at {}", scope.period.last_day())),
     )?;
     checks.push(equity_check);
+    // The statement of cash flows (IAS 7) over the same two closes, with its proof.
+    let cash_flows = match &ds.cash_flow_lines {
+        Some(lines) => {
+            let (cf, cf_checks) =
+                crate::cash_flows::cash_flows(ds, lines, &c.structure, &c.translated, opening, &c.close)?;
+            checks.extend(cf_checks);
+            Some(cf)
+        }
+        None => None,
+    };
     let tied = crate::proof::tied(&checks)
         && !c.close.findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
     let names: BTreeMap<crate::model::GroupAccount, String> =
@@ -493,6 +503,7 @@ pub fn close(
         statements: report::close::Statements {
             laid_out: out_statements,
             changes_in_equity: report::close::equity_changes_out(&equity_changes),
+            cash_flows,
         },
         attribution: report::close::Attribution {
             profit,

@@ -84,6 +84,8 @@ pub enum Rule {
     SegmentReportable,
     /// Reportable segments' external revenue is below 75% of the group's (IFRS 8.15).
     SegmentsExternalRevenueShort,
+    /// An account that moves has no line in cash_flow_lines.csv (IAS 7).
+    CashFlowLineMissing,
 }
 
 impl Rule {

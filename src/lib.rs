@@ -4,6 +4,7 @@
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
 pub mod bench;
+pub mod cash_flows;
 pub mod cli;
 pub mod close;
 pub mod commands;

@@ -56,6 +56,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_rates(ds, mapped, scope, &mut f)?;
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
+    check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     let mut layout_findings = Vec::new();
     crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -863,4 +864,148 @@ fn check_net_investments(ds: &Dataset, f: &mut Vec<Finding>) {
             ));
         }
     }
+}
+
+/// The rows of `entities/cash_flow_lines.csv` (IAS 7), when the file exists: accounts of
+/// the chart, once each, each line id with one section and label, `against` only on
+/// profit or loss and naming a line of the file; and every account that moves in the
+/// fiscal year, in the deliveries or through the close's role accounts, has a line.
+fn check_cash_flow_lines(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    use crate::cash_flows::Section;
+    let Some(lines) = &ds.cash_flow_lines else { return Ok(()) };
+    let file = "entities/cash_flow_lines.csv";
+    let mut seen: BTreeMap<&GroupAccount, &Source> = BTreeMap::new();
+    let mut first_of: BTreeMap<&str, &crate::cash_flows::LineDef> = BTreeMap::new();
+    let ids: BTreeSet<&str> = lines.iter().map(|l| l.line.as_str()).collect();
+    for l in lines {
+        let at = |rule: Rule, msg: String, action: &str| {
+            Finding::new(rule, msg, action).at(&l.source).account(l.account.as_str())
+        };
+        let def = ds.account(&l.account);
+        if def.is_none() {
+            f.push(at(
+                Rule::AccountUnknown,
+                format!("cash flow line {} names account {}, which is not in accounts.csv", l.line, l.account),
+                "correct the account, or remove the row",
+            ));
+        }
+        if let Some(earlier) = seen.insert(&l.account, &l.source) {
+            f.push(at(
+                Rule::RowDuplicated,
+                format!("account {} has a cash flow line already at line {}", l.account, earlier.line.unwrap_or(0)),
+                "keep one row per account",
+            ));
+        }
+        match first_of.get(l.line.as_str()) {
+            Some(x) if x.section != l.section || x.label != l.label => f.push(at(
+                Rule::ValueInvalid,
+                format!(
+                    "line {} is {} {:?} at line {} but {} {:?} here",
+                    l.line,
+                    x.section.as_str(),
+                    x.label,
+                    x.source.line.unwrap_or(0),
+                    l.section.as_str(),
+                    l.label
+                ),
+                "give every row of one line the same section and label",
+            )),
+            Some(_) => {}
+            None => {
+                first_of.insert(&l.line, l);
+            }
+        }
+        let pl = def.is_some_and(|d| d.statement == Statement::ProfitOrLoss);
+        if let Some(against) = &l.against {
+            if !pl {
+                f.push(at(
+                    Rule::ValueInvalid,
+                    format!("`against` is {against} on {}, which is not a profit or loss account", l.account),
+                    "use `against` only for a non-cash item of profit or loss (depreciation, say)",
+                ));
+            } else if !ids.contains(against.as_str()) {
+                f.push(at(
+                    Rule::ValueInvalid,
+                    format!("`against` names line {against}, which no row of the file defines"),
+                    "name the line of the balance-sheet account that holds the item's other side",
+                ));
+            }
+        }
+        if l.section == Section::Cash
+            && def.is_some_and(|d| d.statement != Statement::BalanceSheet || d.class != AccountClass::Asset)
+        {
+            f.push(at(
+                Rule::AccountInvalid,
+                format!("account {} is in section cash but is not a balance-sheet asset", l.account),
+                "put only cash and cash equivalents in section cash",
+            ));
+        }
+    }
+    if !lines.iter().any(|l| l.section == Section::Cash) {
+        f.push(
+            Finding::new(
+                Rule::CashFlowLineMissing,
+                "no account is in section cash, so there is no change in cash to explain",
+                "put the cash and cash equivalents accounts in section cash",
+            )
+            .in_file(file),
+        );
+    }
+    // Accounts that move: in the deliveries of the fiscal year, and the role accounts
+    // the close posts to.
+    let mov = mapped
+        .movements(scope.fiscal_start, scope.period)?
+        .lazy()
+        .group_by([col("group_account")])
+        .agg([col("amount").abs().sum().alias("moved")])
+        .collect()?;
+    let acct = crate::money::column_strings(&mov, "group_account")?;
+    let moved = column_decimals(mov.column("moved")?)?;
+    let mut moving: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    for (a, m) in acct.into_iter().zip(moved) {
+        if let (Some(a), Some(m)) = (a, m)
+            && !m.is_zero()
+        {
+            moving.insert(GroupAccount::new(a), m);
+        }
+    }
+    let r = &ds.settings.accounts;
+    let roles = [
+        Some(&r.retained_earnings),
+        Some(&r.translation_reserve),
+        Some(&r.translation_difference),
+        Some(&r.non_controlling_interest),
+        Some(&r.goodwill),
+        Some(&r.equity_investments),
+        Some(&r.equity_result),
+        Some(&r.intercompany_difference),
+        r.inventory.as_ref(),
+        r.cost_of_sales.as_ref(),
+        r.goodwill_impairment.as_ref(),
+        r.bargain_purchase_gain.as_ref(),
+    ];
+    let posted: BTreeSet<&GroupAccount> = roles.into_iter().flatten().collect();
+    let mut missing: BTreeSet<&GroupAccount> = moving.keys().collect();
+    missing.extend(posted.iter().copied().filter(|a| ds.account(a).is_some()));
+    for a in missing.into_iter().filter(|a| !seen.contains_key(a)) {
+        let how = match moving.get(a) {
+            Some(m) => format!(
+                "moves in the deliveries of {}..{} (absolute movements {})",
+                scope.fiscal_start,
+                scope.period,
+                format_amount(*m, 3)
+            ),
+            None => "is posted by the close (a role account of group.toml)".to_string(),
+        };
+        f.push(
+            Finding::new(
+                Rule::CashFlowLineMissing,
+                format!("account {a} {how} but has no line in the statement of cash flows"),
+                "add a row for it to entities/cash_flow_lines.csv: its section and line (docs/formats.md)",
+            )
+            .in_file(file)
+            .account(a.as_str()),
+        );
+    }
+    Ok(())
 }

@@ -4,6 +4,7 @@
 //! run shows everything wrong with a delivery. It knows nothing about accounting rules
 //! beyond the shape of each file; `validate` checks the rules.
 
+mod cash_flow_lines;
 pub mod daily;
 mod documents;
 mod ledger;
@@ -127,6 +128,9 @@ pub struct Dataset {
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// The statement of cash flows' line per group account (optional
+    /// `cash_flow_lines.csv`; `None` when the file does not exist).
+    pub cash_flow_lines: Option<Vec<crate::cash_flows::LineDef>>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
@@ -345,6 +349,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let cash_flow_lines =
+        cash_flow_lines::load_cash_flow_lines(root, &ent_dir.join("cash_flow_lines.csv"), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -368,6 +374,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             inventory_profits,
             segment_accounts,
             net_investments,
+            cash_flow_lines,
             delivered_entities: delivered,
             documents,
             documented_entities: documented,

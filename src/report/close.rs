@@ -95,6 +95,9 @@ pub struct Statements {
     #[serde(flatten)]
     pub laid_out: BTreeMap<String, StatementOut>,
     pub changes_in_equity: EquityChangesOut,
+    /// The statement of cash flows (IAS 7), when the group classifies its accounts.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cash_flows: Option<crate::cash_flows::CashFlows>,
 }
 
 #[derive(Serialize)]
@@ -202,6 +205,9 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         }
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
+    if let Some(cf) = &r.statements.cash_flows {
+        out.push_str(&super::cash_flows::table(cf, minor));
+    }
     out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
@@ -421,6 +427,9 @@ pub fn write_outputs(
         ],
     )?;
     write_frame(dir, "equity_changes", equity)?;
+    if let Some(cf) = &r.statements.cash_flows {
+        super::cash_flows::write(dir, cf)?;
+    }
     write_file(&dir.join("proof.json"), to_json(&r.proof).as_bytes())?;
     write_file(&dir.join("statements.json"), to_json(&r.statements).as_bytes())?;
     Ok(())

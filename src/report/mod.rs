@@ -3,6 +3,7 @@
 //! as decimal strings) or CSV. Nothing here computes a figure.
 
 pub mod bench;
+pub mod cash_flows;
 pub mod close;
 pub mod findings;
 pub mod generate;

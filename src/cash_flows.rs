@@ -1,0 +1,691 @@
+//! The consolidated statement of cash flows (IAS 7) of one view, by the indirect method,
+//! from what the close already computed: the opening and the closing close of the view
+//! and the translated lines.
+//!
+//! Every group account's movement between the two closes is split into parts, and each
+//! part goes to exactly one line of the statement:
+//!
+//! - the *flow*: each consolidated entity's local movement of a month translated at that
+//!   month's average rate (IAS 7.25-27: the rate of the flows, the average as the usual
+//!   approximation; for a hyperinflationary entity the closing rate, IAS 21.42). Income,
+//!   expenses and equity movements are flows as translated (average or the rate of their
+//!   date). A flow goes to the line its account has in `entities/cash_flow_lines.csv`;
+//! - the *exchange difference*: the translated movement less the flow. It is never a cash
+//!   flow: on cash it is the effect of exchange rate changes on cash held (IAS 7.28), on
+//!   every other account it is offset by the entities' translation differences, and the
+//!   statement's exchange line is what is left of them: the effect on cash plus the
+//!   translation residue (rounding of the translated lines, equity movements at the rate
+//!   of their date rather than the average);
+//! - for a subsidiary first consolidated in the view, its balances at the end of the
+//!   month before control, the investment its holders paid for it and the close's
+//!   acquisition entries (`investment_and_goodwill`, `pre_acquisition_results`): one
+//!   investing line, the consideration paid in cash net of the cash acquired (IAS
+//!   7.39-42), so that its assets and liabilities are not working-capital movements;
+//! - the elimination journal's movement: line by line by account (intragroup flows are
+//!   eliminated because both sides and the elimination land on the same lines), except
+//!   the entries that restate a non-cash item: goodwill (`investment_and_goodwill`: its
+//!   profit or loss part, an impairment, is added back) and the equity method (the share
+//!   of the result is reversed), each on a line of its own.
+//!
+//! Equity movements in the books of a subsidiary (its dividends, after the intragroup part
+//! is eliminated, and the close's NCI entries against them) belong to the line of the NCI
+//! account: what a subsidiary pays outside the group goes to its non-controlling
+//! shareholders (IAS 7.31, 7.34: dividends paid to NCI in financing).
+//!
+//! Not supported: disposals of subsidiaries (an entity consolidated at the opening but not
+//! at the closing fails the proof, never a guess), changes in ownership without loss of
+//! control (IAS 7.42A), and the direct method.
+//!
+//! The proof `cash_flows_reconcile` checks that opening cash plus the statement's net
+//! change plus the exchange line equals closing cash, to the cent, with the cash
+//! balances taken from the two closes' roll-ups and the lines built from contributions,
+//! translated lines and journal; `cash_flow_lines_cover_movements` that every moving
+//! account has a line and that each entity's translated movement is exactly its flow,
+//! exchange difference and balance acquired. Cash flows knows nothing about files and
+//! formats no number.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+
+use crate::close::Close;
+use crate::load::{Dataset, Quote};
+use crate::map_accounts::period_index;
+use crate::model::*;
+use crate::money::{self, RATE_SCALE, column_decimals, column_strings, decimal_lit};
+use crate::proof::Check;
+use crate::structure::GroupStructure;
+use crate::translate::Translated;
+
+/// The section of the statement an account's movement belongs to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Section {
+    Operating,
+    Investing,
+    Financing,
+    /// Cash and cash equivalents: the accounts whose change the statement explains.
+    Cash,
+    /// Movements that are translation, never cash: the translation difference and
+    /// reserve, goodwill. They are part of the exchange line.
+    Exchange,
+}
+
+impl Section {
+    pub fn parse(s: &str) -> Option<Section> {
+        Some(match s {
+            "operating" => Section::Operating,
+            "investing" => Section::Investing,
+            "financing" => Section::Financing,
+            "cash" => Section::Cash,
+            "exchange" => Section::Exchange,
+            _ => return None,
+        })
+    }
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Section::Operating => "operating",
+            Section::Investing => "investing",
+            Section::Financing => "financing",
+            Section::Cash => "cash",
+            Section::Exchange => "exchange",
+        }
+    }
+    fn label(self) -> &'static str {
+        match self {
+            Section::Operating => "Cash flows from operating activities",
+            Section::Investing => "Cash flows from investing activities",
+            Section::Financing => "Cash flows from financing activities",
+            Section::Cash => "Cash and cash equivalents",
+            Section::Exchange => "Effect of exchange rate changes",
+        }
+    }
+}
+
+/// One row of `entities/cash_flow_lines.csv`: the line a group account's movement
+/// belongs to. `against` is for a non-cash item of profit or loss (depreciation, say):
+/// its amount stays in profit before tax, is added back on `line` and taken from
+/// `against`, the line of the balance-sheet account that holds its other side.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LineDef {
+    pub account: GroupAccount,
+    pub section: Section,
+    pub line: String,
+    pub label: String,
+    pub against: Option<String>,
+    pub source: Source,
+}
+
+/// The line every profit or loss account of the indirect method starts from.
+pub const PROFIT_BEFORE_TAX: &str = "profit_before_tax";
+/// The fixed lines this module adds.
+pub const ACQUISITIONS: &str = "acquisition_of_subsidiaries";
+pub const GOODWILL_IMPAIRMENT: &str = "goodwill_impairment";
+pub const SHARE_OF_ASSOCIATES: &str = "share_of_associates";
+pub const UNCLASSIFIED: &str = "unclassified";
+const ACQUISITIONS_LABEL: &str = "Acquisition of subsidiaries net of cash acquired";
+
+/// One line of the statement, cash in positive.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Line {
+    pub line: String,
+    pub label: String,
+    pub amount: Decimal,
+}
+
+/// One section: its lines and their total.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct SectionFlows {
+    pub section: Section,
+    pub label: &'static str,
+    pub lines: Vec<Line>,
+    pub total: Decimal,
+}
+
+/// The exchange line (IAS 7.28), explained: the exchange difference on the cash held
+/// (opening cash and the flows, from their rates to the closing rate) and the residue of
+/// the translation (rounding, equity movements at the rate of their date).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct ExchangeEffect {
+    pub total: Decimal,
+    pub on_cash: Decimal,
+    pub residue: Decimal,
+}
+
+/// A subsidiary first consolidated in the view (IAS 7.40).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct Acquisition {
+    pub entity: EntityId,
+    pub period: Period,
+    /// What its holders paid, as their flows on investment accounts (cash out positive).
+    pub consideration: Decimal,
+    pub cash_acquired: Decimal,
+}
+
+/// The statement of cash flows of one view.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct CashFlows {
+    /// The period whose end is the opening, and the period closed.
+    pub opening_period: Period,
+    pub period: Period,
+    pub sections: Vec<SectionFlows>,
+    /// Operating + investing + financing.
+    pub net_change: Decimal,
+    pub exchange: ExchangeEffect,
+    pub cash_opening: Decimal,
+    pub cash_closing: Decimal,
+    pub acquisitions: Vec<Acquisition>,
+}
+
+/// Parts of one (entity, account, counterparty) movement in the view.
+#[derive(Debug, Clone, Copy, Default)]
+struct Parts {
+    /// Translated movement of the view's months (translation difference rows included).
+    translated: Decimal,
+    /// The flows at the rates of the flows.
+    flow: Decimal,
+    /// Balance at the end of the month before control, for a subsidiary acquired in the view.
+    acquired: Decimal,
+}
+
+type Key = (EntityId, GroupAccount, Option<EntityId>);
+
+/// How an elimination entry's movement is presented.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+enum Treatment {
+    ByAccount,
+    Acquisition,
+    Goodwill,
+    EquityMethod,
+}
+
+/// The statement of cash flows between `opening` (the close at the end of the month
+/// before the view) and `closing`, for the group or sub-group below `root` as `s`
+/// structures it, with its proof.
+pub fn cash_flows(
+    ds: &Dataset,
+    lines: &[LineDef],
+    s: &GroupStructure,
+    t: &Translated,
+    opening: &Close,
+    closing: &Close,
+) -> PolarsResult<(CashFlows, Vec<Check>)> {
+    let _span = tracing::info_span!("cash_flows", period = %closing.period).entered();
+    let root = s.parent();
+    let roles = &ds.settings.accounts;
+    let minor = t.minor;
+    let mode = ds.settings.policies.rounding;
+    let chart: BTreeMap<&GroupAccount, &AccountDef> = ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let class: BTreeMap<&GroupAccount, &LineDef> = lines.iter().map(|l| (&l.account, l)).collect();
+    let first = opening.period.next();
+    let mut problems: Vec<String> = Vec::new();
+
+    // Who is consolidated at each end, and from which month each entity's flows count.
+    let before = contributing(opening)?;
+    let after = contributing(closing)?;
+    for e in before.difference(&after) {
+        problems.push(format!(
+            "{e} is consolidated at {} but not at {}: disposals of subsidiaries are not supported by the statement of cash flows (IAS 7.39-42)",
+            opening.period, closing.period
+        ));
+    }
+    let mut start: BTreeMap<EntityId, Period> = BTreeMap::new();
+    let mut share: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    let mut acquired: BTreeSet<EntityId> = BTreeSet::new();
+    for e in &after {
+        let info = s.entity(e);
+        let from = if before.contains(e) {
+            first
+        } else {
+            acquired.insert(e.clone());
+            info.and_then(|x| x.controlled_from).map(Period::of_date).filter(|p| *p > first).unwrap_or(first)
+        };
+        start.insert(e.clone(), from);
+        let proportionate = info.is_some_and(|x| x.method == Method::Proportionate);
+        share.insert(e.clone(), if proportionate { s.share_for_proportionate(e) } else { Decimal::ONE });
+    }
+
+    // The translated movement, flow and balance acquired per (entity, account, counterparty).
+    let mut parts = translated_parts(ds, t, &start, &acquired, closing.period)?;
+    let p0 = period_index(t.fiscal_start.prev());
+    {
+        let ent = column_strings(&t.differences, "entity")?;
+        let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+        let td = column_decimals(t.differences.column("translation_difference")?)?;
+        for i in 0..t.differences.height() {
+            let (Some(e), Some(m)) = (&ent[i], idx[i]) else { continue };
+            let e = EntityId::new(e);
+            let Some(from) = start.get(&e) else { continue };
+            let (from, m_p) = (period_index(*from), m);
+            if m_p > period_index(closing.period) {
+                continue;
+            }
+            let account = if m == p0 { &roles.translation_reserve } else { &roles.translation_difference };
+            let slot = parts.entry((e.clone(), account.clone(), None)).or_default();
+            let x = td[i].unwrap_or_default();
+            if m_p >= from {
+                slot.translated += x;
+            } else if acquired.contains(&e) {
+                slot.acquired += x;
+            }
+        }
+    }
+
+    // The consolidated movement of each contribution, and its split.
+    let delta = contribution_movements(opening, closing)?;
+    let keys: BTreeSet<&Key> = delta.keys().chain(parts.keys()).collect();
+    // Component -> line: every amount below is a movement (debit positive); a line shows
+    // minus the sum of its components (a debit to an asset is cash spent).
+    let mut on_line: BTreeMap<String, Decimal> = BTreeMap::new();
+    let mut add = |line: &str, x: Decimal| *on_line.entry(line.to_string()).or_default() += x;
+    let mut fx_cash = Decimal::ZERO;
+    let mut acq_by: BTreeMap<EntityId, (Decimal, Decimal)> = BTreeMap::new();
+    let mut unclassified: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    let investment_kind = |a: &GroupAccount| chart.get(a).and_then(|d| d.ic_kind.as_deref()) == Some("investment");
+    let nci_line = class.get(&roles.non_controlling_interest).map(|d| d.line.clone());
+    for key in keys {
+        let (e, a, cp) = key;
+        let d = delta.get(key).copied().unwrap_or_default();
+        let p = parts.get(key).copied().unwrap_or_default();
+        let k = share.get(e).copied().unwrap_or(Decimal::ONE);
+        let (fx, acq) = if k == Decimal::ONE {
+            // A full contribution is the entity's translated balance: its movement must be
+            // exactly the parts, or this module has missed something.
+            if d != p.translated + p.acquired {
+                problems.push(format!(
+                    "{e} {a}: contribution moved {} but translated movement {} + balance acquired {} = {}",
+                    money::plain(d),
+                    money::plain(p.translated),
+                    money::plain(p.acquired),
+                    money::plain(p.translated + p.acquired)
+                ));
+            }
+            (p.translated - p.flow, p.acquired)
+        } else {
+            // Proportionate (IFRS 11.20): the share of each part, the flow taking the
+            // rounding so that the parts still add up to the contribution's movement.
+            (money::round((p.translated - p.flow) * k, minor, mode), money::round(p.acquired * k, minor, mode))
+        };
+        let flow = d - fx - acq;
+        let def = class.get(a);
+        let section = def.map(|x| x.section);
+        let is_cash = section == Some(Section::Cash);
+        if acquired.contains(e) {
+            // The cash acquired is part of the change in cash; the other balances
+            // acquired are the acquisition line (IAS 7.40-42).
+            let slot = acq_by.entry(e.clone()).or_default();
+            if is_cash {
+                slot.1 += acq;
+            } else {
+                add(ACQUISITIONS, acq);
+            }
+        }
+        if is_cash {
+            fx_cash += fx;
+            continue;
+        }
+        add(Section::Exchange.as_str(), fx);
+        if let Some(c) = cp
+            && acquired.contains(c)
+            && investment_kind(a)
+        {
+            // The consideration a holder paid for a subsidiary acquired in the view.
+            acq_by.entry(c.clone()).or_default().0 += flow;
+            add(ACQUISITIONS, flow);
+            continue;
+        }
+        route(&chart, &class, nci_line.as_deref(), root, e, a, flow, &mut add, &mut unclassified);
+    }
+
+    // The elimination journal's movement between the two closes.
+    let journal = journal_movements(opening, closing, &acquired);
+    for ((treatment, e, a), x) in journal {
+        let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
+        match treatment {
+            Treatment::Acquisition => add(ACQUISITIONS, x),
+            Treatment::Goodwill | Treatment::EquityMethod => {
+                // The profit or loss part stays in profit before tax; the rest of the entry,
+                // which is its non-cash other side, is added back on a line of its own.
+                let own = if treatment == Treatment::Goodwill { GOODWILL_IMPAIRMENT } else { SHARE_OF_ASSOCIATES };
+                add(if pl { PROFIT_BEFORE_TAX } else { own }, x);
+            }
+            Treatment::ByAccount => {
+                if class.get(&a).is_some_and(|d| d.section == Section::Cash) {
+                    problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
+                }
+                route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified);
+            }
+        }
+    }
+    for (a, x) in &unclassified {
+        if !x.is_zero() {
+            problems.push(format!("{a} moved {} but has no line in cash_flow_lines.csv", money::plain(*x)));
+        }
+    }
+
+    // The statement: the lines of the classification in file order, the fixed ones
+    // where they belong.
+    let mut order: Vec<(Section, String, String)> = Vec::new();
+    let mut seen: BTreeSet<String> = BTreeSet::new();
+    let mut push = |section: Section, line: &str, label: &str, order: &mut Vec<(Section, String, String)>| {
+        if seen.insert(line.to_string()) {
+            order.push((section, line.to_string(), label.to_string()));
+        }
+    };
+    let classified: BTreeSet<&str> = lines.iter().map(|l| l.line.as_str()).collect();
+    for l in lines.iter().filter(|l| l.section != Section::Cash && l.section != Section::Exchange) {
+        // The fixed acquisition line opens the investing section unless a row names it.
+        if l.section == Section::Investing && !classified.contains(ACQUISITIONS) {
+            push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
+        }
+        push(l.section, &l.line, &l.label, &mut order);
+        // The fixed adjustments follow profit before tax.
+        if l.line == PROFIT_BEFORE_TAX {
+            push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+            push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
+        }
+    }
+    push(Section::Operating, PROFIT_BEFORE_TAX, "Profit before tax", &mut order);
+    push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+    push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
+    push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
+    push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
+    let fixed = [GOODWILL_IMPAIRMENT, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
+    let exchange_total = -exchange_components(&on_line, lines);
+    let mut sections = Vec::new();
+    for section in [Section::Operating, Section::Investing, Section::Financing] {
+        let mut out = Vec::new();
+        for (_, line, label) in order.iter().filter(|(s, _, _)| *s == section) {
+            let amount = shown(minor, -on_line.get(line).copied().unwrap_or_default());
+            // A fixed line is shown only when something is on it.
+            if fixed.contains(&line.as_str()) && amount.is_zero() {
+                continue;
+            }
+            out.push(Line { line: line.clone(), label: label.clone(), amount });
+        }
+        let total = shown(minor, out.iter().map(|l| l.amount).sum());
+        sections.push(SectionFlows { section, label: section.label(), lines: out, total });
+    }
+    let net_change: Decimal = sections.iter().map(|s| s.total).sum();
+
+    // The cash balances from the two roll-ups, the second path of the proof.
+    let cash_of = |c: &Close| -> Decimal {
+        c.group.iter().filter(|(a, _)| class.get(a).is_some_and(|d| d.section == Section::Cash)).map(|(_, v)| *v).sum()
+    };
+    let (cash_opening, cash_closing) = (cash_of(opening), cash_of(closing));
+    let exchange = ExchangeEffect {
+        total: shown(minor, exchange_total),
+        on_cash: shown(minor, fx_cash),
+        residue: shown(minor, exchange_total - fx_cash),
+    };
+    let acquisitions = acq_by
+        .into_iter()
+        .map(|(entity, (paid, cash))| Acquisition {
+            period: start.get(&entity).copied().unwrap_or(first),
+            entity,
+            consideration: shown(minor, paid),
+            cash_acquired: shown(minor, cash),
+        })
+        .collect();
+    let ties = cash_opening + net_change + exchange_total == cash_closing;
+    let reconcile = Check::new(
+        "cash_flows_reconcile",
+        ties,
+        format!(
+            "cash at {} {} + net change {} + exchange {} {} cash at {} {}",
+            opening.period,
+            money::plain(cash_opening),
+            money::plain(net_change),
+            money::plain(exchange_total),
+            if ties { "=" } else { "!=" },
+            closing.period,
+            money::plain(cash_closing)
+        ),
+    );
+    let covered = Check::new(
+        "cash_flow_lines_cover_movements",
+        problems.is_empty(),
+        if problems.is_empty() {
+            format!(
+                "{} accounts classified; every movement split into flow, exchange difference and balance acquired",
+                lines.len()
+            )
+        } else {
+            problems.join("; ")
+        },
+    );
+    let cf = CashFlows {
+        opening_period: opening.period,
+        period: closing.period,
+        sections,
+        net_change: shown(minor, net_change),
+        exchange,
+        cash_opening: shown(minor, cash_opening),
+        cash_closing: shown(minor, cash_closing),
+        acquisitions,
+    };
+    Ok((cf, vec![reconcile, covered]))
+}
+
+/// An amount as the statement shows it: at the presentation currency's minor unit,
+/// without a signed zero.
+fn shown(minor: u32, x: Decimal) -> Decimal {
+    let mut y = money::unsigned_zero(x);
+    y.rescale(minor);
+    y
+}
+
+/// The sum of the components on lines of the exchange section (and the exchange
+/// differences themselves).
+fn exchange_components(on_line: &BTreeMap<String, Decimal>, lines: &[LineDef]) -> Decimal {
+    let mut ids: BTreeSet<&str> =
+        lines.iter().filter(|l| l.section == Section::Exchange).map(|l| l.line.as_str()).collect();
+    ids.insert(Section::Exchange.as_str());
+    ids.iter().filter_map(|l| on_line.get(*l)).copied().sum()
+}
+
+/// Puts a flow on the line of its account.
+#[allow(clippy::too_many_arguments)]
+fn route(
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    class: &BTreeMap<&GroupAccount, &LineDef>,
+    nci_line: Option<&str>,
+    root: &EntityId,
+    e: &EntityId,
+    a: &GroupAccount,
+    x: Decimal,
+    add: &mut impl FnMut(&str, Decimal),
+    unclassified: &mut BTreeMap<GroupAccount, Decimal>,
+) {
+    if x.is_zero() {
+        return;
+    }
+    let Some(def) = class.get(a) else {
+        *unclassified.entry(a.clone()).or_default() += x;
+        add(UNCLASSIFIED, x);
+        return;
+    };
+    let acct = chart.get(a);
+    let pl = acct.is_some_and(|d| d.statement == Statement::ProfitOrLoss);
+    let equity = acct.is_some_and(|d| d.class == AccountClass::Equity);
+    match (&def.against, def.section) {
+        (Some(against), _) if pl => {
+            // A non-cash item: in profit before tax, added back, taken from its other side.
+            add(PROFIT_BEFORE_TAX, x);
+            add(&def.line, -x);
+            add(against, x);
+        }
+        (_, Section::Exchange) => add(Section::Exchange.as_str(), x),
+        _ if equity && e != root && nci_line.is_some() => add(nci_line.unwrap_or(&def.line), x),
+        _ => add(&def.line, x),
+    }
+}
+
+/// Entities with a contribution in a close.
+fn contributing(c: &Close) -> PolarsResult<BTreeSet<EntityId>> {
+    Ok(column_strings(&c.contributions, "entity")?.into_iter().flatten().map(EntityId::new).collect())
+}
+
+/// Closing minus opening contribution per (entity, account, counterparty).
+fn contribution_movements(opening: &Close, closing: &Close) -> PolarsResult<BTreeMap<Key, Decimal>> {
+    let mut out: BTreeMap<Key, Decimal> = BTreeMap::new();
+    for (c, sign) in [(closing, Decimal::ONE), (opening, Decimal::NEGATIVE_ONE)] {
+        let e = column_strings(&c.contributions, "entity")?;
+        let a = column_strings(&c.contributions, "group_account")?;
+        let cp = column_strings(&c.contributions, "counterparty")?;
+        let v = column_decimals(c.contributions.column("amount")?)?;
+        for i in 0..c.contributions.height() {
+            let (Some(e), Some(a)) = (&e[i], &a[i]) else { continue };
+            *out.entry((EntityId::new(e), GroupAccount::new(a), cp[i].clone().map(EntityId::new))).or_default() +=
+                sign * v[i].unwrap_or_default();
+        }
+    }
+    Ok(out)
+}
+
+/// The journal's movement between the closes by treatment, entity and account.
+fn journal_movements(
+    opening: &Close,
+    closing: &Close,
+    acquired: &BTreeSet<EntityId>,
+) -> BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> {
+    let mut out: BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> = BTreeMap::new();
+    for (c, sign) in [(closing, Decimal::ONE), (opening, Decimal::NEGATIVE_ONE)] {
+        for entry in &c.journal {
+            let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
+            let treatment = match entry.rule {
+                "investment_and_goodwill" | "pre_acquisition_results" if new_subsidiary => Treatment::Acquisition,
+                "investment_and_goodwill" => Treatment::Goodwill,
+                "equity_method" => Treatment::EquityMethod,
+                _ => Treatment::ByAccount,
+            };
+            for l in &entry.lines {
+                *out.entry((treatment, l.entity.clone(), l.account.clone())).or_default() += sign * l.amount;
+            }
+        }
+    }
+    out.retain(|_, v| !v.is_zero());
+    out
+}
+
+/// Per (entity, account, counterparty) of the entities consolidated at the closing: the
+/// translated movement and the flows of the months from `start` to `last`, and, for the
+/// entities in `acquired`, the translated balance at the end of the month before `start`.
+fn translated_parts(
+    ds: &Dataset,
+    t: &Translated,
+    start: &BTreeMap<EntityId, Period>,
+    acquired: &BTreeSet<EntityId>,
+    last: Period,
+) -> PolarsResult<BTreeMap<Key, Parts>> {
+    let minor = t.minor as usize;
+    let mode = ds.settings.policies.rounding;
+    let members = DataFrame::new(
+        start.len(),
+        vec![
+            Column::new("entity".into(), start.keys().map(|e| e.to_string()).collect::<Vec<_>>()),
+            Column::new("start_index".into(), start.values().map(|p| period_index(*p)).collect::<Vec<_>>()),
+            Column::new("acquired".into(), start.keys().map(|e| acquired.contains(e)).collect::<Vec<_>>()),
+            Column::new(
+                "hyper_index".into(),
+                start
+                    .keys()
+                    .map(|e| ds.entity(e).and_then(|x| x.hyperinflationary_from).map(period_index))
+                    .collect::<Vec<_>>(),
+            ),
+        ],
+    )?;
+    let rates = {
+        let r = &ds.rates;
+        DataFrame::new(
+            r.len(),
+            vec![
+                Column::new("currency".into(), r.iter().map(|x| x.currency.code().to_string()).collect::<Vec<_>>()),
+                Column::new("period_index".into(), r.iter().map(|x| period_index(x.period)).collect::<Vec<_>>()),
+                Column::new("rate_average".into(), r.iter().map(|x| x.average.value.to_string()).collect::<Vec<_>>())
+                    .strict_cast(&DataType::Decimal(38, RATE_SCALE))?,
+                Column::new("quote_average".into(), r.iter().map(|x| x.average.quote.as_str()).collect::<Vec<_>>()),
+            ],
+        )?
+    };
+    let zero = decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
+    let p_last = period_index(last);
+    let base = t
+        .lines
+        .clone()
+        .lazy()
+        .join(members.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Inner))
+        .filter(col("period_index").lt_eq(lit(p_last)));
+    // The view's months: the flow of a closing-basis row is its local movement at the
+    // month's average (IAS 7.25-27), of a hyperinflationary entity's row at the closing
+    // rate (IAS 21.42); every other row is a flow as translated.
+    let hyper = col("hyper_index").is_not_null().and(col("period_index").gt_eq(col("hyper_index")));
+    let view = base
+        .clone()
+        .filter(col("period_index").gt_eq(col("start_index")))
+        .join(
+            rates.lazy(),
+            [col("currency"), col("period_index")],
+            [col("currency"), col("period_index")],
+            JoinArgs::new(JoinType::Left),
+        )
+        .with_columns([
+            when(hyper.clone()).then(col("rate")).otherwise(col("rate_average")).alias("rate_flow"),
+            when(hyper).then(col("quote")).otherwise(col("quote_average")).alias("quote_flow"),
+            col("rate_kind").eq(lit("closing")).and(col("amount_local").neq(zero)).alias("at_flow_rate"),
+        ]);
+    let multiply = view
+        .clone()
+        .filter(col("at_flow_rate").and(col("quote_flow").eq(lit(Quote::PresentationPerUnit.as_str()))))
+        .with_column(money::translate_multiply(col("amount_local"), col("rate_flow"), minor, mode).alias("flow"));
+    let divide = view
+        .clone()
+        .filter(col("at_flow_rate").and(col("quote_flow").eq(lit(Quote::UnitsPerPresentation.as_str()))))
+        .with_column(money::translate_divide(col("amount_local"), col("rate_flow"), minor, mode).alias("flow"));
+    let as_translated = view.filter(col("at_flow_rate").not().or(col("quote_flow").is_null())).with_column(
+        // A closing-rate row without a local movement has no flow: its whole
+        // translated movement is exchange difference.
+        when(col("rate_kind").eq(lit("closing")))
+            .then(decimal_lit(Decimal::ZERO, minor))
+            .otherwise(col("amount_presentation"))
+            .strict_cast(DataType::Decimal(38, minor))
+            .alias("flow"),
+    );
+    let key = [col("entity"), col("group_account"), col("counterparty")];
+    let view = concat([multiply, divide, as_translated], UnionArgs::default())?
+        .group_by(key.clone())
+        .agg([col("amount_presentation").sum(), col("flow").sum()])
+        .collect()?;
+    let before = base
+        .filter(col("acquired").and(col("period_index").eq(col("start_index") - lit(1))))
+        .group_by(key)
+        .agg([col("balance_presentation").sum()])
+        .collect()?;
+    let mut out: BTreeMap<Key, Parts> = BTreeMap::new();
+    let keys = |df: &DataFrame| -> PolarsResult<Vec<Option<Key>>> {
+        let e = column_strings(df, "entity")?;
+        let a = column_strings(df, "group_account")?;
+        let c = column_strings(df, "counterparty")?;
+        Ok((0..df.height())
+            .map(|i| match (&e[i], &a[i]) {
+                (Some(e), Some(a)) => Some((EntityId::new(e), GroupAccount::new(a), c[i].clone().map(EntityId::new))),
+                _ => None,
+            })
+            .collect())
+    };
+    let tp = column_decimals(view.column("amount_presentation")?)?;
+    let fl = column_decimals(view.column("flow")?)?;
+    for (i, k) in keys(&view)?.into_iter().enumerate() {
+        let Some(k) = k else { continue };
+        let slot = out.entry(k).or_default();
+        slot.translated += tp[i].unwrap_or_default();
+        slot.flow += fl[i].unwrap_or_default();
+    }
+    let bp = column_decimals(before.column("balance_presentation")?)?;
+    for (i, k) in keys(&before)?.into_iter().enumerate() {
+        let Some(k) = k else { continue };
+        out.entry(k).or_default().acquired += bp[i].unwrap_or_default();
+    }
+    Ok(out)
+}
