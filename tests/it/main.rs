@@ -5,6 +5,9 @@
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
 //! - `close`: published consolidation cases as folders under `tests/cases/`, the demo
 //!   closing tied (under both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
+//! - `cash_flows`: the statement of cash flows (IAS 7): an acquisition net of cash acquired
+//!   (IAS 7 illustrative example A), a foreign subsidiary's exchange effect, the demo tied
+//!   in every month and view, the findings of cash_flow_lines.csv, a property test;
 //! - `close_oracle`: a property test of the close against a naive consolidation;
 //! - `golden`: every output of the demo's main commands against the committed copies under
 //!   `tests/golden/` (regenerate with `TESSERA_GOLDEN=write`);
@@ -24,6 +27,7 @@
 //!   IFRIC 16 on a three-tier group;
 //! - `translate_oracle`: the translation against a naive row-by-row oracle (property test).
 
+mod cash_flows;
 mod check;
 mod close;
 mod close_oracle;
