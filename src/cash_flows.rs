@@ -689,3 +689,92 @@ fn translated_parts(
     }
     Ok(out)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn account(id: &str, statement: Statement, class: AccountClass) -> AccountDef {
+        AccountDef {
+            account: GroupAccount::new(id),
+            name: id.into(),
+            statement,
+            class,
+            basis: Basis::Closing,
+            ic_kind: None,
+            non_current: false,
+            source: Source::file("entities/accounts.csv"),
+        }
+    }
+
+    fn def(id: &str, section: Section, line: &str, against: Option<&str>) -> LineDef {
+        LineDef {
+            account: GroupAccount::new(id),
+            section,
+            line: line.into(),
+            label: line.into(),
+            against: against.map(String::from),
+            source: Source::file("entities/cash_flow_lines.csv"),
+        }
+    }
+
+    /// Where `route` puts a movement of 10 (debit) by `entity` on `account`.
+    fn routed(entity: &str, moved: &str) -> (BTreeMap<String, Decimal>, BTreeMap<GroupAccount, Decimal>) {
+        let chart_defs = [
+            account("1000", Statement::BalanceSheet, AccountClass::Asset),
+            account("3200", Statement::BalanceSheet, AccountClass::Equity),
+            account("3900", Statement::BalanceSheet, AccountClass::Equity),
+            account("6100", Statement::ProfitOrLoss, AccountClass::Expense),
+            account("9000", Statement::Oci, AccountClass::Income),
+            account("4000", Statement::ProfitOrLoss, AccountClass::Income),
+        ];
+        let lines = [
+            def("1000", Section::Investing, "ppe", None),
+            def("3200", Section::Financing, "dividends", None),
+            def("3900", Section::Financing, "dividends_nci", None),
+            def("6100", Section::Operating, "depreciation", Some("ppe")),
+            def("9000", Section::Exchange, "translation", None),
+        ];
+        let chart: BTreeMap<&GroupAccount, &AccountDef> = chart_defs.iter().map(|a| (&a.account, a)).collect();
+        let class: BTreeMap<&GroupAccount, &LineDef> = lines.iter().map(|l| (&l.account, l)).collect();
+        let mut on_line: BTreeMap<String, Decimal> = BTreeMap::new();
+        let mut unclassified = BTreeMap::new();
+        route(
+            &chart,
+            &class,
+            Some("dividends_nci"),
+            &EntityId::new("P"),
+            &EntityId::new(entity),
+            &GroupAccount::new(moved),
+            Decimal::TEN,
+            &mut |l: &str, x: Decimal| *on_line.entry(l.to_string()).or_default() += x,
+            &mut unclassified,
+        );
+        on_line.retain(|_, v| !v.is_zero());
+        (on_line, unclassified)
+    }
+
+    fn m(pairs: &[(&str, i64)]) -> BTreeMap<String, Decimal> {
+        pairs.iter().map(|(k, v)| (k.to_string(), Decimal::from(*v))).collect()
+    }
+
+    /// A non-cash expense stays in profit before tax, is added back on its line and taken
+    /// from the line of its other side: the three components sum to the movement.
+    #[test]
+    fn a_non_cash_item_is_added_back_and_taken_from_its_other_side() {
+        let (on_line, _) = routed("P", "6100");
+        assert_eq!(on_line, m(&[(PROFIT_BEFORE_TAX, 10), ("depreciation", -10), ("ppe", 10)]));
+    }
+
+    /// Equity of a subsidiary goes to the NCI line, of the parent to its own line; the
+    /// translation difference to the exchange line; an account without a row is reported.
+    #[test]
+    fn equity_of_subsidiaries_to_the_nci_line_translation_to_exchange() {
+        assert_eq!(routed("S", "3200").0, m(&[("dividends_nci", 10)]));
+        assert_eq!(routed("P", "3200").0, m(&[("dividends", 10)]));
+        assert_eq!(routed("S", "9000").0, m(&[("exchange", 10)]));
+        let (on_line, unclassified) = routed("P", "4000");
+        assert_eq!(on_line, m(&[(UNCLASSIFIED, 10)]));
+        assert_eq!(unclassified.get(&GroupAccount::new("4000")), Some(&Decimal::TEN));
+    }
+}

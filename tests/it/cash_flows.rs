@@ -496,3 +496,21 @@ proptest! {
         }
     }
 }
+
+/// Under the other policies (year-to-date income translation, IFRIC 16 step by step,
+/// half-even rounding) and with BRW-MX hyperinflationary from June (IAS 21.42: its flows
+/// at the closing rate), the demo still ties in every view around the change.
+#[test]
+fn demo_ties_under_other_policies_and_hyperinflation() {
+    let f = Folder::demo();
+    let toml = "entities/group.toml";
+    f.replace(toml, "income_translation = \"periodic\"", "income_translation = \"year_to_date\"");
+    f.replace(toml, "ifric16 = \"direct\"", "ifric16 = \"step_by_step\"");
+    f.replace(toml, "rounding = \"half_away_from_zero\"", "rounding = \"half_even\"");
+    f.replace("entities/entities.csv", "MX,MXN,Americas,Instruments,", "MX,MXN,Americas,Instruments,2026-06");
+    for p in ["2026-05", "2026-06", "2026-09", "2026-12"] {
+        for view in ["month", "qtd", "ytd"] {
+            close(f.path(), p, view, &[]);
+        }
+    }
+}
