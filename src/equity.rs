@@ -28,7 +28,8 @@ use std::collections::{BTreeMap, BTreeSet};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
-use crate::close::Close;
+use crate::close::view::{Attribution, Chart, balance_sheet_amounts};
+use crate::close::{Close, EliminationRule};
 use crate::model::*;
 use crate::money::{self, column_decimals, column_strings};
 use crate::proof::Check;
@@ -63,16 +64,6 @@ pub struct EquityChanges {
     pub rows: Vec<Row>,
 }
 
-/// Profit and OCI of the view and the NCI's shares of them (credit positive), as the
-/// statements show them.
-#[derive(Debug, Clone, Copy)]
-pub struct ViewResult {
-    pub profit: Decimal,
-    pub profit_nci: Decimal,
-    pub oci: Decimal,
-    pub oci_nci: Decimal,
-}
-
 /// Id of the owners' total and of the total equity column.
 pub const OWNERS: &str = "owners_of_the_parent";
 pub const TOTAL: &str = "total_equity";
@@ -103,23 +94,16 @@ pub fn components(statements: &[crate::layout::ResolvedStatement], chart: &[Acco
 }
 
 /// Equity accounts as the balance sheet shows them (debit positive): the group trial
-/// balance with profit or loss in retained earnings and OCI in the translation reserve.
+/// balance with profit or loss in retained earnings and OCI in the translation reserve
+/// (`close::view::balance_sheet_amounts`).
 fn balance_sheet_equity(
     c: &Close,
-    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    chart: &Chart,
+    equity: &BTreeSet<GroupAccount>,
     roles: &RoleAccounts,
 ) -> BTreeMap<GroupAccount, Decimal> {
-    let mut out = BTreeMap::new();
-    for (a, v) in &c.group {
-        let Some(d) = chart.get(a) else { continue };
-        let target = match d.statement {
-            Statement::ProfitOrLoss => &roles.retained_earnings,
-            Statement::Oci => &roles.translation_reserve,
-            Statement::BalanceSheet if d.class == AccountClass::Equity => a,
-            Statement::BalanceSheet => continue,
-        };
-        *out.entry(target.clone()).or_default() += *v;
-    }
+    let mut out = balance_sheet_amounts(&c.group, chart, roles);
+    out.retain(|a, _| equity.contains(a));
     out
 }
 
@@ -156,7 +140,7 @@ fn contributing(c: &Close) -> PolarsResult<BTreeSet<EntityId>> {
 }
 
 /// Sum of the journal lines of a close on `account`, optionally of one rule and entity.
-fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<&str>, entity: Option<&EntityId>) -> Decimal {
+fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<EliminationRule>, entity: Option<&EntityId>) -> Decimal {
     c.journal
         .iter()
         .filter(|e| rule.is_none_or(|r| e.rule == r))
@@ -173,14 +157,20 @@ pub fn changes_in_equity(
     components: &[Component],
     opening: &Close,
     closing: &Close,
-    view: ViewResult,
+    view: &Attribution,
     minor: u32,
     labels: (String, String),
 ) -> PolarsResult<(EquityChanges, Check)> {
     let _span = tracing::info_span!("changes_in_equity", period = %closing.period).entered();
     let roles = &ds.settings.accounts;
     let mode = ds.settings.policies.rounding;
-    let chart: BTreeMap<&GroupAccount, &AccountDef> = ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let chart = Chart::new(&ds.accounts);
+    let balance_sheet_equity_accounts: BTreeSet<GroupAccount> = ds
+        .accounts
+        .iter()
+        .filter(|a| a.class == AccountClass::Equity && a.statement == Statement::BalanceSheet)
+        .map(|a| a.account.clone())
+        .collect();
     let equity_accounts: BTreeSet<GroupAccount> =
         ds.accounts.iter().filter(|a| a.class == AccountClass::Equity).map(|a| a.account.clone()).collect();
     let n = components.len();
@@ -189,7 +179,7 @@ pub fn changes_in_equity(
         (find(&roles.retained_earnings), find(&roles.translation_reserve), find(&roles.non_controlling_interest));
     // Balances as the balance sheet shows them, presented credit positive.
     let presented = |c: &Close| -> Vec<Decimal> {
-        let bs = balance_sheet_equity(c, &chart, roles);
+        let bs = balance_sheet_equity(c, &chart, &balance_sheet_equity_accounts, roles);
         components.iter().map(|k| -k.accounts.iter().filter_map(|a| bs.get(a)).copied().sum::<Decimal>()).collect()
     };
     let open = presented(opening);
@@ -210,9 +200,7 @@ pub fn changes_in_equity(
         *moved.entry(a.clone()).or_default() +=
             journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
     }
-    let result_of = |c: &Close, st: Statement| -> Decimal {
-        c.group.iter().filter(|(a, _)| chart.get(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
-    };
+    let result_of = |c: &Close, st: Statement| -> Decimal { chart.sum(&c.group, st) };
     *moved.entry(roles.retained_earnings.clone()).or_default() +=
         result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
     *moved.entry(roles.translation_reserve.clone()).or_default() +=
@@ -254,12 +242,17 @@ pub fn changes_in_equity(
     add(
         &mut dividends,
         re,
-        -(journal_sum(closing, &roles.retained_earnings, Some("intragroup_dividend"), None)
-            - journal_sum(opening, &roles.retained_earnings, Some("intragroup_dividend"), None)),
+        -(journal_sum(closing, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)
+            - journal_sum(opening, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)),
     );
     // Acquisitions: the NCI at acquisition of each subsidiary first consolidated.
     for e in after.difference(&before) {
-        let x = -journal_sum(closing, &roles.non_controlling_interest, Some("investment_and_goodwill"), Some(e));
+        let x = -journal_sum(
+            closing,
+            &roles.non_controlling_interest,
+            Some(EliminationRule::InvestmentAndGoodwill),
+            Some(e),
+        );
         add(&mut acquisitions, nci, x);
     }
     let other: Vec<Decimal> =

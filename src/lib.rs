@@ -23,6 +23,7 @@ pub mod report;
 pub mod segments;
 pub mod stages;
 pub mod structure;
+pub mod trace;
 pub mod translate;
 pub mod validate;
 

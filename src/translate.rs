@@ -606,6 +606,82 @@ pub fn reserves_by_operation(
     Ok(out)
 }
 
+/// Each entity's translation reserve brought forward into the fiscal year that starts at
+/// `fiscal_start`, gains (credits) positive: minus its translation difference of the
+/// opening month, as delivered in the opening balances. The close and the translation
+/// report both read it from here.
+pub fn brought_forward(t: &Translated, fiscal_start: Period) -> PolarsResult<BTreeMap<EntityId, Decimal>> {
+    let p0 = period_index(fiscal_start.prev());
+    let ent = money::column_strings(&t.differences, "entity")?;
+    let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+    let td = column_decimals(t.differences.column("translation_difference")?)?;
+    let mut out: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    for i in 0..t.differences.height() {
+        if let (Some(e), Some(p)) = (&ent[i], idx[i])
+            && p == p0
+        {
+            // The difference is debit positive; the reserve is gains positive.
+            *out.entry(EntityId::new(e)).or_default() -= td[i].unwrap_or_default();
+        }
+    }
+    Ok(out)
+}
+
+/// The translation reserve of one foreign operation as translation sees it (before any
+/// consolidation method): brought forward, the parts of every entity's differences that
+/// belong to it for the month and the year, and the reserve at the period end, gains
+/// positive.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct OperationYear {
+    pub operation: EntityId,
+    pub brought_forward: Decimal,
+    pub month: Decimal,
+    pub year_to_date: Decimal,
+    pub reserve: Decimal,
+}
+
+/// Per foreign operation, the reserve of [`OperationYear`] at `period`, from the split
+/// of [`reserves_by_operation`]. The close's reserves (`close::reserves`) differ only
+/// where an entity or its operation is not consolidated in full: there the part stays
+/// with the entity.
+pub fn operations_year(
+    t: &Translated,
+    parts: &[OperationReserve],
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<OperationYear>> {
+    let mut by: BTreeMap<EntityId, OperationYear> = BTreeMap::new();
+    fn slot<'m>(by: &'m mut BTreeMap<EntityId, OperationYear>, op: &EntityId) -> &'m mut OperationYear {
+        by.entry(op.clone()).or_insert_with(|| OperationYear {
+            operation: op.clone(),
+            brought_forward: Decimal::ZERO,
+            month: Decimal::ZERO,
+            year_to_date: Decimal::ZERO,
+            reserve: Decimal::ZERO,
+        })
+    }
+    for (e, bf) in brought_forward(t, fiscal_start)? {
+        slot(&mut by, &e).brought_forward += bf;
+    }
+    for r in parts.iter().filter(|r| r.period >= fiscal_start && r.period <= period) {
+        let l = slot(&mut by, &r.operation);
+        l.year_to_date += r.amount;
+        if r.period == period {
+            l.month += r.amount;
+        }
+    }
+    Ok(by
+        .into_values()
+        .map(|mut l| {
+            l.reserve = l.brought_forward + l.year_to_date;
+            for d in [&mut l.brought_forward, &mut l.month, &mut l.year_to_date, &mut l.reserve] {
+                *d = money::unsigned_zero(*d);
+            }
+            l
+        })
+        .collect())
+}
+
 /// The operation that retranslates an intermediate parent's figures into another
 /// currency: the intermediate parent itself, or, where it sits inside a chain of parents
 /// with the same functional currency, the highest of them, whose own parent's currency

@@ -41,12 +41,19 @@ fn idx(df: &DataFrame, c: &str, i: usize) -> Option<i32> {
     df.column(c).ok()?.i32().ok()?.get(i)
 }
 
+/// What validation builds on its way, handed on so that no later stage builds it again:
+/// the group structure at the period end and the resolved statement layouts.
+pub struct Validated {
+    pub structure: crate::structure::GroupStructure,
+    pub statements: Vec<crate::layout::ResolvedStatement>,
+}
+
 /// Runs every rule. `findings` already holds what loading found.
-pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Findings) -> PolarsResult<()> {
+pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Findings) -> PolarsResult<Validated> {
     let _span = tracing::info_span!("validate", period = %scope.period).entered();
     let mut f: Vec<Finding> = Vec::new();
     check_reference_data(ds, &mut f);
-    check_holdings(ds, scope, &mut f);
+    let structure = check_holdings(ds, scope, &mut f);
     check_mappings(ds, mapped, &mut f)?;
     check_periods(ds, mapped, scope, &mut f)?;
     check_balanced(mapped, scope, &mut f)?;
@@ -57,11 +64,11 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
     let mut layout_findings = Vec::new();
-    crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
+    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
     findings.extend(f);
     findings.sort();
-    Ok(())
+    Ok(Validated { structure, statements })
 }
 
 fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
@@ -131,7 +138,7 @@ fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
     }
 }
 
-fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
+fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> crate::structure::GroupStructure {
     let known: BTreeSet<&EntityId> = ds.entities.iter().map(|e| &e.id).collect();
     for h in &ds.holdings {
         for e in [&h.owner, &h.owned] {
@@ -151,7 +158,8 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
     // Control, interests and methods: the structure module's own findings, less
     // those loading and the checks above already report.
     let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let (_, found) = crate::structure::build(
+    let _span = tracing::info_span!("structure", period = %scope.period).entered();
+    let (structure, found) = crate::structure::build(
         &ids,
         &ds.holdings,
         &ds.settings.parent,
@@ -159,6 +167,7 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
         ds.settings.policies.significant_influence,
     );
     f.extend(found.into_iter().filter_map(structure_finding));
+    structure
 }
 
 /// A structure finding as a finding of the run, or `None` where another check already
