@@ -94,3 +94,54 @@ pub fn post(
         );
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+
+    /// P holds 30% of associate A since 2020 (IAS 28.5: significant influence). Net
+    /// assets at acquisition EUR 400. At the opening A's equity was 300 capital + 200
+    /// retained earnings = 500: 100 earned since acquisition, 30 of it P's (prior
+    /// years). This year A made a profit of 100 (revenue 100) and an OCI gain of 20:
+    /// P's shares 30 and 6. The investment goes up by 30 + 6 + 30 = 66 (IAS 28.10).
+    #[test]
+    fn cost_plus_the_share_of_post_acquisition_results() {
+        let w = World::new(&["P", "A"], &[holding("P", "A", "0.3", "2020-01-01")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let a = Acquisition {
+            owned: id("A"),
+            date: chrono::NaiveDate::from_ymd_opt(2020, 1, 1).unwrap_or_default(),
+            consideration: d("120"),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d("400"),
+            net_assets_presentation: d("400"),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::file("entities/acquisitions.csv"),
+        };
+        let own = BTreeMap::from([(acct("4000"), d("-100")), (acct("9000"), d("-20"))]);
+        let opening = BTreeMap::from([(acct("3000"), d("-300")), (acct("3200"), d("-200"))]);
+        let investees = Investees::from([(id("A"), (own, opening))]);
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        post(&mut j, &cx, std::slice::from_ref(&a), &investees, &mut found);
+        assert!(found.is_empty());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "66".into()),
+                ("4900".into(), "P".into(), "-30".into()),
+                ("9000".into(), "P".into(), "-6".into()),
+                ("3200".into(), "P".into(), "-30".into())
+            ]
+        );
+        let mut j = Journal::default();
+        post(&mut j, &cx, &[], &investees, &mut found);
+        assert!(j.entries.is_empty());
+        assert_eq!(found.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::AcquisitionMissing]);
+    }
+}

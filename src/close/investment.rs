@@ -619,3 +619,95 @@ fn full_goodwill_lines(sub: &Acquired, impairment_year_pres: Decimal, lines: &mu
     lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
     nci.nci_goodwill_oci.insert(e.id.clone(), fx_year);
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+    use crate::load::{Quote, Rate};
+
+    fn acquisition(consideration: &str, net_assets: &str, net_assets_presentation: &str) -> Acquisition {
+        Acquisition {
+            owned: id("S"),
+            date: chrono::NaiveDate::from_ymd_opt(2020, 1, 1).unwrap_or_default(),
+            consideration: d(consideration),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d(net_assets),
+            net_assets_presentation: d(net_assets_presentation),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::file("entities/acquisitions.csv"),
+        }
+    }
+
+    /// P (EUR) bought 80% of S (USD) in 2020 for USD 1,000, net assets USD 1,000 (EUR
+    /// 500 at 2 USD per EUR then). NCI at its share of net assets: 20% x 1,000 = USD
+    /// 200, EUR 100 at the acquisition rate. Goodwill 1,000 + 200 - 1,000 = USD 200
+    /// (IFRS 3.32). P carries the investment at EUR 500; S's capital is EUR 600 as
+    /// booked, so the rest of the equity acquired, 500 - 600 = -100, comes from its
+    /// retained earnings. The dollar falls from 2 (opening) to 2.5 per EUR (June):
+    /// goodwill is USD 200 / 2.5 = EUR 80 (IAS 21.47), a loss of 100 - 80 = 20 in
+    /// this year's OCI; nothing goes to the reserve brought forward.
+    /// Lines: 1200 P -500, 3000 S +600, 3200 S -100, 1100 S +80, 3900 S -100,
+    /// 9000 S +20; -500 + 600 - 100 + 80 - 100 + 20 = 0.
+    #[test]
+    fn investment_against_equity_at_acquisition_with_goodwill_at_the_closing_rate() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let invest = investments(&cx);
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[acquisition("1000", "1000", "500")], &invest, &Default::default(), &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(j.entries.len(), 1);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1200".into(), "P".into(), "-500".into()),
+                ("3000".into(), "S".into(), "600".into()),
+                ("3200".into(), "S".into(), "-100".into()),
+                ("1100".into(), "S".into(), "80".into()),
+                ("3900".into(), "S".into(), "-100".into()),
+                ("9000".into(), "S".into(), "20".into())
+            ]
+        );
+        assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+    }
+
+    /// Consideration 700 + NCI 200 - net assets 1,000 = -100: a bargain purchase
+    /// (IFRS 3.34). In the acquisition year its gain needs an account: without one a
+    /// blocking finding, and the warning that the goodwill is negative (IFRS 3.36).
+    /// With one, the gain is recognised and goodwill is 0.
+    #[test]
+    fn a_bargain_purchase_is_a_gain_with_its_account_and_a_finding_without() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2026-02-01")], p("2026-06"));
+        let e = &w.structure.entities()[1];
+        assert_eq!(e.id.as_str(), "S");
+        let mut a = acquisition("700", "1000", "500");
+        a.date = chrono::NaiveDate::from_ymd_opt(2026, 2, 1).unwrap_or_default();
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        let statement = |_: &GroupAccount| Some(Statement::BalanceSheet);
+        let rules = |roles: &RoleAccounts| -> Vec<Rule> {
+            findings(e, Some(&a), true, usd, p("2026-01"), roles, &statement).iter().map(|f| f.rule).collect()
+        };
+        let mut roles = roles();
+        assert_eq!(rules(&roles), [Rule::SettingInvalid, Rule::GoodwillNegative]);
+        assert_eq!(measure(e, &a, p("2026-01"), &roles).bargain_fc, Decimal::ZERO);
+        roles.bargain_purchase_gain = Some(acct("4000"));
+        assert_eq!(rules(&roles), [Rule::GoodwillNegative]);
+        let m = measure(e, &a, p("2026-01"), &roles);
+        assert_eq!((m.goodwill_fc, m.bargain_fc, m.goodwill_fc + m.bargain_fc), (d("-100"), d("100"), d("0")));
+        assert_eq!(
+            findings(e, None, true, usd, p("2026-01"), &roles, &statement).iter().map(|f| f.rule).collect::<Vec<_>>(),
+            [Rule::AcquisitionMissing]
+        );
+        assert!(findings(e, None, false, usd, p("2026-01"), &roles, &statement).is_empty());
+    }
+}

@@ -115,3 +115,51 @@ fn post_one(
         equity: nci_acq + nci_post,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+
+    /// P holds 80% of S: NCI 20%. S's books: capital 600, retained earnings 100,
+    /// revenue 300, cost of sales 200 (profit 100), OCI gain 50: equity 850 in all,
+    /// credits. The equity at acquisition was 500, so post-acquisition equity is 350.
+    /// S sold goods to P with 25 of profit still unrealised (upstream): 325 is left,
+    /// and the NCI's share is 20% x 325 = 65 (3900 -65, 3200 +65). NCI row: profit
+    /// 20% x (100 - 25) = 15, OCI 20% x 50 = 10, equity 100 at acquisition + 65 = 165.
+    #[test]
+    fn the_effective_outside_share_of_post_acquisition_equity() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let (s, pp) = (id("S"), id("P"));
+        j.post(
+            EliminationRule::InvestmentAndGoodwill,
+            pp.clone(),
+            vec![s.clone()],
+            "at acquisition".into(),
+            vec![line(&acct("3900"), &s, None, d("-100")), line(&acct("3200"), &s, None, d("100"))],
+        );
+        j.post(
+            EliminationRule::UnrealisedProfit,
+            pp.clone(),
+            vec![s.clone(), pp.clone()],
+            "upstream".into(),
+            vec![line(&acct("1500"), &pp, Some(&s), d("-25")), line(&acct("5000"), &s, Some(&pp), d("25"))],
+        );
+        let measured = ForNci { pre_acquisition: BTreeMap::from([(s.clone(), d("500"))]), ..ForNci::default() };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(entry.rule, EliminationRule::NonControllingInterest);
+        assert_eq!(lines(entry), [("3900".into(), "S".into(), "-65".into()), ("3200".into(), "S".into(), "65".into())]);
+        let r = &rows[0];
+        assert_eq!((r.nci_share, r.profit, r.oci, r.equity), (d("0.2"), d("15"), d("10"), d("165")));
+    }
+}
