@@ -61,7 +61,20 @@ pub fn load_checked(data: &Path, period: Option<Period>) -> Result<(Option<Check
 }
 
 pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
-    let (loaded, findings) = load_checked(data, period)?;
+    let (loaded, mut findings) = load_checked(data, period)?;
+    // What the close's rules would find in the data, listed here too. Not part of
+    // `validate`, so that a close still runs past them and shows them with its figures.
+    if let Some(c) = &loaded {
+        let scope = c.scope;
+        findings.extend(crate::close::check::data_findings(
+            &c.ds,
+            &c.structure,
+            &c.mapped,
+            scope.period,
+            scope.fiscal_start,
+        )?);
+        findings.sort();
+    }
     let period = loaded.as_ref().map(|c| c.scope.period);
     out.write_all(report::findings::render_check(&findings, period, format).as_bytes())?;
     Ok(exit_code(&findings))

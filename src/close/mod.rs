@@ -23,6 +23,7 @@
 //! (entry descriptions quote amounts as text).
 
 pub mod aggregate;
+pub mod check;
 pub mod context;
 pub mod dividends;
 pub mod equity_method;
