@@ -171,27 +171,23 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> crate::st
 }
 
 /// A structure finding as a finding of the run, or `None` where another check already
-/// reports the same problem.
+/// reports the same problem in the data.
 pub fn structure_finding(s: crate::structure::StructureFinding) -> Option<Finding> {
-    use crate::structure::StructureRule as S;
-    let rule = match s.rule {
-        S::EntityOverHeld => Rule::EntityOverHeld,
-        S::StructureUnsolvable => Rule::StructureUnsolvable,
-        S::OverrideConflict => Rule::OverrideConflict,
-        S::OverrideOutsideGroup => Rule::OverrideOutsideGroup,
-        S::ArrangementConflict => Rule::ArrangementConflict,
-        S::ParentHeld => Rule::ParentHeld,
-        S::LimitExceeded => Rule::LimitExceeded,
-        // Reported by loading (HoldingInvalid, EntityDuplicated) or by the reference
-        // data checks (EntityUnknown).
-        S::ParentUnknown
-        | S::EntityDuplicated
-        | S::HoldingUnknownEntity
-        | S::HoldingShareOutOfRange
-        | S::HoldingOfItself
-        | S::HoldingPeriodInverted => return None,
-    };
-    let mut x = Finding::new(rule, s.message, s.action);
+    // Reported by loading (HoldingInvalid, EntityDuplicated) or by the reference data
+    // checks (EntityUnknown).
+    let reported_elsewhere = matches!(
+        s.rule,
+        Rule::ParentUnknown
+            | Rule::EntityDuplicated
+            | Rule::HoldingUnknownEntity
+            | Rule::HoldingShareOutOfRange
+            | Rule::HoldingOfItself
+            | Rule::HoldingPeriodInverted
+    );
+    if reported_elsewhere {
+        return None;
+    }
+    let mut x = Finding::new(s.rule, s.message, s.action);
     if let Some(src) = &s.source {
         x = x.at(src);
     }
