@@ -107,12 +107,12 @@ fn balance_sheet_equity(
     out
 }
 
+/// Contributions by entity and group account.
+type Contributions = BTreeMap<(EntityId, GroupAccount), Decimal>;
+
 /// Per entity and group account, the contributions on the accounts in `accounts`
 /// (columnar: the contribution frame is summed by polars).
-fn contributions_on(
-    c: &Close,
-    accounts: &BTreeSet<GroupAccount>,
-) -> PolarsResult<BTreeMap<(EntityId, GroupAccount), Decimal>> {
+fn contributions_on(c: &Close, accounts: &BTreeSet<GroupAccount>) -> PolarsResult<Contributions> {
     let list: Vec<String> = accounts.iter().map(|a| a.to_string()).collect();
     let df = c
         .contributions
@@ -185,28 +185,10 @@ pub fn changes_in_equity(
     let open = presented(opening);
     let close = presented(closing);
 
-    // The movement of each equity account on the second path: contributions and
-    // journal lines of the two closes, and the result of the view.
+    // The movement of each equity account on the second path.
     let c_open = contributions_on(opening, &equity_accounts)?;
     let c_close = contributions_on(closing, &equity_accounts)?;
-    let mut moved: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
-    for ((_, a), v) in &c_close {
-        *moved.entry(a.clone()).or_default() += *v;
-    }
-    for ((_, a), v) in &c_open {
-        *moved.entry(a.clone()).or_default() -= *v;
-    }
-    for a in &equity_accounts {
-        *moved.entry(a.clone()).or_default() +=
-            journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
-    }
-    let result_of = |c: &Close, st: Statement| -> Decimal { chart.sum(&c.group, st) };
-    *moved.entry(roles.retained_earnings.clone()).or_default() +=
-        result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
-    *moved.entry(roles.translation_reserve.clone()).or_default() +=
-        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
-    let movement: Vec<Decimal> =
-        components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect();
+    let movement = movements(components, &equity_accounts, (opening, closing), (&c_open, &c_close), &chart, roles);
 
     let mut profit = vec![Decimal::ZERO; n];
     let mut oci = vec![Decimal::ZERO; n];
@@ -258,27 +240,8 @@ pub fn changes_in_equity(
     let other: Vec<Decimal> =
         (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i]).collect();
 
-    // Columns: the components, the owners' total before the NCI, the total.
-    let mut columns: Vec<EquityColumn> = Vec::new();
-    let owners_at = nci.unwrap_or(n);
-    let widen = |v: &[Decimal]| -> Vec<Decimal> {
-        let owners: Decimal = v.iter().enumerate().filter(|(i, _)| Some(*i) != nci).map(|(_, x)| *x).sum();
-        let mut out: Vec<Decimal> = v.iter().take(owners_at).copied().collect();
-        out.push(owners);
-        out.extend(v.iter().skip(owners_at).copied());
-        out.push(v.iter().copied().sum());
-        out.into_iter().map(money::unsigned_zero).collect()
-    };
-    for (i, k) in components.iter().enumerate() {
-        if i == owners_at {
-            columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
-        }
-        columns.push(EquityColumn { id: k.id.clone(), label: k.label.clone() });
-    }
-    if owners_at == n {
-        columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
-    }
-    columns.push(EquityColumn { id: TOTAL.into(), label: "Total equity".into() });
+    let columns = columns(components, nci);
+    let widen = |v: &[Decimal]| widen(v, nci);
     let rows = vec![
         Row { id: "opening", label: labels.0, amounts: widen(&open) },
         Row { id: "profit", label: "Profit for the period".into(), amounts: widen(&profit) },
@@ -292,9 +255,81 @@ pub fn changes_in_equity(
         Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
         Row { id: "closing", label: labels.1, amounts: widen(&close) },
     ];
+    let check = prove(components, &equity_accounts, &open, &movement, &close);
+    Ok((EquityChanges { columns, rows }, check))
+}
 
-    // The proof: every column's opening + movements = closing, exactly; every equity
-    // account of the chart in one component.
+/// The movement of each component on the second path, credit positive: contributions
+/// and journal lines of the two closes, and the result of the view counted in retained
+/// earnings and the translation reserve.
+fn movements(
+    components: &[Component],
+    equity_accounts: &BTreeSet<GroupAccount>,
+    (opening, closing): (&Close, &Close),
+    (c_open, c_close): (&Contributions, &Contributions),
+    chart: &Chart,
+    roles: &RoleAccounts,
+) -> Vec<Decimal> {
+    let mut moved: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    for ((_, a), v) in c_close {
+        *moved.entry(a.clone()).or_default() += *v;
+    }
+    for ((_, a), v) in c_open {
+        *moved.entry(a.clone()).or_default() -= *v;
+    }
+    for a in equity_accounts {
+        *moved.entry(a.clone()).or_default() +=
+            journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
+    }
+    let result_of = |c: &Close, st: Statement| -> Decimal { chart.sum(&c.group, st) };
+    *moved.entry(roles.retained_earnings.clone()).or_default() +=
+        result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
+    *moved.entry(roles.translation_reserve.clone()).or_default() +=
+        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
+    components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect()
+}
+
+/// Columns: the components, the owners' total before the NCI (`nci`: its component),
+/// the total.
+fn columns(components: &[Component], nci: Option<usize>) -> Vec<EquityColumn> {
+    let n = components.len();
+    let owners_at = nci.unwrap_or(n);
+    let mut columns: Vec<EquityColumn> = Vec::new();
+    for (i, k) in components.iter().enumerate() {
+        if i == owners_at {
+            columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+        }
+        columns.push(EquityColumn { id: k.id.clone(), label: k.label.clone() });
+    }
+    if owners_at == n {
+        columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+    }
+    columns.push(EquityColumn { id: TOTAL.into(), label: "Total equity".into() });
+    columns
+}
+
+/// One row per component widened to the [`columns`]: the owners' total inserted before
+/// the NCI's component, the total at the end.
+fn widen(v: &[Decimal], nci: Option<usize>) -> Vec<Decimal> {
+    let owners_at = nci.unwrap_or(v.len());
+    let owners: Decimal = v.iter().enumerate().filter(|(i, _)| Some(*i) != nci).map(|(_, x)| *x).sum();
+    let mut out: Vec<Decimal> = v.iter().take(owners_at).copied().collect();
+    out.push(owners);
+    out.extend(v.iter().skip(owners_at).copied());
+    out.push(v.iter().copied().sum());
+    out.into_iter().map(money::unsigned_zero).collect()
+}
+
+/// The proof `equity_changes_reconcile`: every column's opening + movements = closing,
+/// exactly; every equity account of the chart in one component.
+fn prove(
+    components: &[Component],
+    equity_accounts: &BTreeSet<GroupAccount>,
+    open: &[Decimal],
+    movement: &[Decimal],
+    close: &[Decimal],
+) -> Check {
+    let n = components.len();
     let mut broken = Vec::new();
     for (i, k) in components.iter().enumerate() {
         if open[i] + movement[i] != close[i] {
@@ -313,21 +348,20 @@ pub fn changes_in_equity(
         broken.push(format!("equity accounts in no component: {}", missing.join(" ")));
     }
     let total = |v: &[Decimal]| v.iter().copied().sum::<Decimal>();
-    let check = Check::new(
+    Check::new(
         "equity_changes_reconcile",
         broken.is_empty(),
         if broken.is_empty() {
             format!(
                 "{n} components: opening {} + movements {} = closing {}",
-                money::plain(total(&open)),
-                money::plain(total(&movement)),
-                money::plain(total(&close))
+                money::plain(total(open)),
+                money::plain(total(movement)),
+                money::plain(total(close))
             )
         } else {
             broken.join("; ")
         },
-    );
-    Ok((EquityChanges { columns, rows }, check))
+    )
 }
 
 #[cfg(test)]

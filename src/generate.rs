@@ -436,6 +436,7 @@ fn draw_cents(r: &mut ChaCha8Rng, lo: u32, hi: u32) -> i64 {
 }
 
 impl Plan {
+    #[allow(clippy::too_many_lines)] // not split yet (issue 13): the plan's draw is one seeded sequence; a split must keep its order
     pub fn new(options: Options) -> Result<Plan, String> {
         options.check()?;
         let mut r = stream(options.seed, GROUP_STREAM);
@@ -689,6 +690,7 @@ impl Plan {
     }
 
     /// Draws one entity's delivery.
+    #[allow(clippy::too_many_lines)] // not split yet (issue 13): one entity's draw is one seeded sequence; a split must keep its order
     pub fn entity(&self, i: usize) -> EntityDelivery {
         let e = &self.entities[i];
         let mut r = stream(self.options.seed, ENTITY_STREAM + i as u64);

@@ -3,6 +3,8 @@
 //! matched and eliminated, and rolled up into group, sub-group and segment statements
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
+#![warn(clippy::too_many_lines)]
+
 pub mod bench;
 pub mod cli;
 pub mod close;

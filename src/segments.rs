@@ -664,6 +664,24 @@ pub fn report(
     period: Period,
 ) -> SegmentReport {
     let _span = tracing::info_span!("segments", key = %m.key, period = %period).entered();
+    let (lines, segments, reconciliation, group_f) = reconcile(measures, m, attr, group);
+    let thresholds = thresholds(measures, &segments, &group_f);
+    let mut findings = threshold_findings(&thresholds, &m.key, period);
+    let entity_wide = entity_wide(measures, attr, group, chart, home, materiality);
+    let checks = prove(&reconciliation, attr, group, &entity_wide, &m.key);
+    findings.sort_by(|a, b| a.message.cmp(&b.message));
+    SegmentReport { key: m.key.clone(), lines, segments, reconciliation, thresholds, entity_wide, checks, findings }
+}
+
+/// The reconciliation lines (IFRS 8.28): per measure, the reportable segments' total,
+/// each reconciling item and the group's amount; also the segments' own figures and the
+/// group's figures per line.
+fn reconcile(
+    measures: &[Measure],
+    m: &Membership,
+    attr: &Attribution,
+    group: &Amounts,
+) -> (Vec<LineDef>, Vec<SegmentFigures>, Vec<ReconciliationLine>, BTreeMap<String, Decimal>) {
     let mut lines = Vec::new();
     for me in measures {
         if me.kind == MeasureKind::Revenue {
@@ -719,8 +737,11 @@ pub fn report(
             group: group_f.get(&l.line).copied().unwrap_or_default(),
         })
         .collect();
+    (lines, segments, reconciliation, group_f)
+}
 
-    // IFRS 8.13 and 8.15 over every operating segment, reported separately or not.
+/// IFRS 8.13 and 8.15 over every operating segment, reported separately or not.
+fn thresholds(measures: &[Measure], segments: &[SegmentFigures], group_f: &BTreeMap<String, Decimal>) -> Thresholds {
     let get = |s: &SegmentFigures, k: &str| s.values.get(k).copied().unwrap_or_default();
     let has_assets = measures.iter().any(|x| x.kind == MeasureKind::Assets);
     let combined_revenue: Decimal = segments.iter().map(|s| get(s, "revenue")).sum();
@@ -754,7 +775,7 @@ pub fn report(
     let external_revenue_group = group_f.get(EXTERNAL).copied().unwrap_or_default();
     let external_test = external_revenue_group <= Decimal::ZERO
         || external_revenue_reported * Decimal::from(4) >= external_revenue_group * Decimal::from(3);
-    let thresholds = Thresholds {
+    Thresholds {
         combined_revenue,
         revenue_threshold: share_threshold(combined_revenue),
         combined_profit,
@@ -766,10 +787,19 @@ pub fn report(
         external_revenue_reported,
         external_revenue_group,
         external_test,
-    };
-    let mut findings = threshold_findings(&thresholds, &m.key, period);
+    }
+}
 
-    // IFRS 8.33: external revenue and non-current assets by the entities' countries.
+/// IFRS 8.33: external revenue and non-current assets by the entities' countries, the
+/// home country first, each material country on its own, the rest together.
+fn entity_wide(
+    measures: &[Measure],
+    attr: &Attribution,
+    group: &Amounts,
+    chart: &[AccountDef],
+    home: &str,
+    materiality: Decimal,
+) -> EntityWide {
     let revenue = measures.iter().find(|x| x.kind == MeasureKind::Revenue);
     let non_current: BTreeSet<&GroupAccount> =
         chart.iter().filter(|a| a.non_current && a.statement == Statement::BalanceSheet).map(|a| &a.account).collect();
@@ -823,16 +853,13 @@ pub fn report(
     if !rest.countries.is_empty() {
         rows.push(rest);
     }
-    let entity_wide = EntityWide {
+    EntityWide {
         home_country: home.to_string(),
         materiality,
         revenue_external: total_rev,
         non_current_assets: total_nca,
         rows,
-    };
-    let checks = prove(&reconciliation, attr, group, &entity_wide, &m.key);
-    findings.sort_by(|a, b| a.message.cmp(&b.message));
-    SegmentReport { key: m.key.clone(), lines, segments, reconciliation, thresholds, entity_wide, checks, findings }
+    }
 }
 
 fn threshold_findings(t: &Thresholds, key: &str, period: Period) -> Vec<Finding> {

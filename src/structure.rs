@@ -868,7 +868,7 @@ fn solve_interests(
     // (members, rule, message, action) for each block that could not be solved or owns
     // itself; turned into findings at the end, when the entities held through them are
     // known.
-    let mut failed: Vec<(Vec<usize>, Rule, String, String)> = Vec::new();
+    let mut failed: Vec<Failure> = Vec::new();
 
     // kosaraju_scc lists components in reverse topological order: owners come last.
     for component in kosaraju_scc(&graph).iter().rev() {
@@ -877,7 +877,6 @@ fn solve_interests(
         for (i, &j) in members.iter().enumerate() {
             pos[j] = i;
         }
-        let m = members.len();
         let outcome = solve_block(&graph, &members, &pos, p, &capital, &x, &done, ids);
         for &j in &members {
             pos[j] = usize::MAX;
@@ -909,22 +908,6 @@ fn solve_interests(
                 }
             }
             BlockOutcome::Blocked => {}
-            BlockOutcome::TooLarge => {
-                let names: Vec<&str> = members.iter().take(10).map(|&j| ids[j].as_str()).collect();
-                failed.push((
-                    members,
-                    Rule::LimitExceeded,
-                    format!(
-                        "a cycle of cross holdings joins {m} entities ({}{}), above the limit \
-                         of {MAX_CYCLE_ENTITIES} solved exactly",
-                        names.join(", "),
-                        if m > 10 { ", ..." } else { "" }
-                    ),
-                    "check the holdings between these entities; if the cycle is real, raise \
-                     MAX_CYCLE_ENTITIES in structure.rs after checking the run time"
-                        .to_string(),
-                ));
-            }
             BlockOutcome::ClosedUnreached(within) => {
                 for &j in &members {
                     x[j] = Some(BigRational::zero());
@@ -944,31 +927,63 @@ fn solve_interests(
                         .to_string(),
                 ));
             }
-            BlockOutcome::Singular(within) => {
-                failed.push((
-                    members,
-                    Rule::StructureUnsolvable,
-                    format!(
-                        "the effective interests of a cycle of cross holdings have no unique \
-                         solution (x = d + A x is singular): the capital of each is held \
-                         within the cycle ({})",
-                        within.join(", ")
-                    ),
-                    "correct the capital shares between these entities: a cycle cannot own \
-                     all of its own capital, some must be held from outside it"
-                        .to_string(),
-                ));
-            }
+            BlockOutcome::TooLarge => failed.push(too_large(members, ids)),
+            BlockOutcome::Singular(within) => failed.push(singular(members, &within)),
         }
     }
 
+    findings.extend(failures_as_findings(&graph, failed, ids, &x, links));
+    x
+}
+
+/// A cycle of cross holdings above the limit solved exactly.
+fn too_large(members: Vec<usize>, ids: &[EntityId]) -> Failure {
+    let m = members.len();
+    let names: Vec<&str> = members.iter().take(10).map(|&j| ids[j].as_str()).collect();
+    let message = format!(
+        "a cycle of cross holdings joins {m} entities ({}{}), above the limit \
+         of {MAX_CYCLE_ENTITIES} solved exactly",
+        names.join(", "),
+        if m > 10 { ", ..." } else { "" }
+    );
+    let action = "check the holdings between these entities; if the cycle is real, raise \
+                  MAX_CYCLE_ENTITIES in structure.rs after checking the run time";
+    (members, Rule::LimitExceeded, message, action.to_string())
+}
+
+/// A cycle of cross holdings whose interests have no unique solution.
+fn singular(members: Vec<usize>, within: &[String]) -> Failure {
+    let message = format!(
+        "the effective interests of a cycle of cross holdings have no unique \
+         solution (x = d + A x is singular): the capital of each is held \
+         within the cycle ({})",
+        within.join(", ")
+    );
+    let action = "correct the capital shares between these entities: a cycle cannot own \
+                  all of its own capital, some must be held from outside it";
+    (members, Rule::StructureUnsolvable, message, action.to_string())
+}
+
+/// A block that could not be solved: its members, the rule, message and action.
+type Failure = (Vec<usize>, Rule, String, String);
+
+/// The findings of the blocks that could not be solved, each naming the entities held
+/// through the block, whose effective interest is unknown too.
+fn failures_as_findings(
+    graph: &DiGraph<(), usize>,
+    failed: Vec<Failure>,
+    ids: &[EntityId],
+    x: &[Option<BigRational>],
+    links: &[Link],
+) -> Vec<StructureFinding> {
+    let mut findings = Vec::new();
     for (members, rule, message, action) in failed {
-        let mut dfs = Dfs::new(&graph, NodeIndex::new(members[0]));
+        let mut dfs = Dfs::new(graph, NodeIndex::new(members[0]));
         for &j in &members[1..] {
             dfs.stack.push(NodeIndex::new(j));
         }
         let mut held_through = Vec::new();
-        while let Some(v) = dfs.next(&graph) {
+        while let Some(v) = dfs.next(graph) {
             let j = v.index();
             if members.binary_search(&j).is_err() && x[j].is_none() {
                 held_through.push(ids[j].as_str());
@@ -994,7 +1009,7 @@ fn solve_interests(
                 .map(|e| links[*e.weight()].holding.source.clone()),
         });
     }
-    x
+    findings
 }
 
 enum BlockOutcome {

@@ -85,6 +85,7 @@ fn csv(r: &SegmentsOut<'_>) -> String {
     out
 }
 
+#[allow(clippy::too_many_lines)] // not split yet (issue 13): report is being edited on another branch
 fn table(r: &SegmentsOut<'_>, minor: u32) -> String {
     let rep = r.report;
     let amt = |d: rust_decimal::Decimal| format_amount(d, minor);
