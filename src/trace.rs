@@ -72,7 +72,6 @@ pub fn trace(
     period: Period,
 ) -> PolarsResult<Trace> {
     let _span = tracing::info_span!("trace", account = %account).entered();
-    let p = crate::map_accounts::period_index(period);
     let contributions =
         close.contributions.clone().lazy().filter(col("group_account").eq(lit(account.as_str()))).collect()?;
     let entities: Vec<String> = contributions
@@ -84,32 +83,7 @@ pub fn trace(
         .collect::<std::collections::BTreeSet<_>>()
         .into_iter()
         .collect();
-    let ents = Series::new("e".into(), entities.clone());
-    // The ledger lines behind each contribution: the latest balance delivery, or the
-    // opening balance and every month's movements up to the period.
-    let balance_entities = mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(col("kind").eq(lit("balances")))
-        .select([col("entity")])
-        .unique(None, UniqueKeepStrategy::Any)
-        .with_column(lit(true).alias("by_balance"));
-    let ledger = mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(
-            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents).implode(false), false)),
-        )
-        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
-        .filter(
-            when(col("by_balance").fill_null(lit(false)))
-                .then(col("period_index").eq(lit(p)))
-                .otherwise(col("period_index").lt_eq(lit(p))),
-        )
-        .sort(["entity", "file", "line"], SortMultipleOptions::default())
-        .collect()?;
+    let ledger = ledger_lines(account, mapped, &entities, period)?;
     let group_amount = close.group.get(account).copied().unwrap_or_default();
     let journal = &close.journal;
     let ce = crate::money::column_strings(&contributions, "entity")?;
@@ -187,4 +161,40 @@ pub fn trace(
         eliminations: elims,
     };
     Ok(t)
+}
+
+/// The ledger lines of `entities` behind their contributions on `account`: the latest
+/// balance delivery, or the opening balance and every month's movements up to the
+/// period.
+fn ledger_lines(
+    account: &GroupAccount,
+    mapped: &Mapped,
+    entities: &[String],
+    period: Period,
+) -> PolarsResult<DataFrame> {
+    let p = crate::map_accounts::period_index(period);
+    let ents = Series::new("e".into(), entities.to_vec());
+    let balance_entities = mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("kind").eq(lit("balances")))
+        .select([col("entity")])
+        .unique(None, UniqueKeepStrategy::Any)
+        .with_column(lit(true).alias("by_balance"));
+    mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(
+            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents).implode(false), false)),
+        )
+        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
+        .filter(
+            when(col("by_balance").fill_null(lit(false)))
+                .then(col("period_index").eq(lit(p)))
+                .otherwise(col("period_index").lt_eq(lit(p))),
+        )
+        .sort(["entity", "file", "line"], SortMultipleOptions::default())
+        .collect()
 }
