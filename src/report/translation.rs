@@ -116,19 +116,13 @@ struct Report<'a> {
     caution: &'static str,
 }
 
-#[allow(clippy::too_many_arguments)]
-#[allow(clippy::too_many_lines)] // not split yet (issue 13): report is being edited on another branch
-pub fn render(
+/// The translated lines of the period with something to show, by entity (with its
+/// currency), for `only` entity when one is asked for.
+fn lines_by_entity(
     t: &Translated,
-    reserves: &[OperationReserve],
-    method: Ifric16Method,
     period: Period,
-    fiscal_start: Period,
-    currency: &str,
     only: Option<&EntityId>,
-    checks: &[Check],
-    format: Format,
-) -> PolarsResult<String> {
+) -> PolarsResult<BTreeMap<String, (String, Vec<Line>)>> {
     let p = period_index(period);
     let mut lf = t.lines.clone().lazy().filter(col("period_index").eq(lit(p)));
     if let Some(e) = only {
@@ -179,6 +173,22 @@ pub fn render(
             balance_presentation: bp[i].unwrap_or_default(),
         });
     }
+    Ok(by)
+}
+
+#[allow(clippy::too_many_arguments)]
+pub fn render(
+    t: &Translated,
+    reserves: &[OperationReserve],
+    method: Ifric16Method,
+    period: Period,
+    fiscal_start: Period,
+    currency: &str,
+    only: Option<&EntityId>,
+    checks: &[Check],
+    format: Format,
+) -> PolarsResult<String> {
+    let by = lines_by_entity(t, period, only)?;
     let mut entities = Vec::new();
     for (e, (ccy, lines)) in by {
         let month = t.explanations.iter().find(|x| x.entity.as_str() == e && x.period == period);
