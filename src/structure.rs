@@ -391,23 +391,7 @@ pub fn build(
     let controlled_from = control_dates(n, p, &links, &round, &dates);
 
     check_parent_held(&ids, p, &links, &into[p], &round, &mut findings);
-    for &l in &into[p] {
-        if let Some((method, _)) = &links[l].holding.method_override {
-            findings.push(StructureFinding {
-                rule: Rule::OverrideConflict,
-                entity: Some(ids[p].clone()),
-                message: format!(
-                    "the holding of the parent {} by {} sets method {}, but the parent is \
-                     always consolidated in full",
-                    ids[p],
-                    ids[links[l].owner],
-                    method.as_str()
-                ),
-                action: "remove the override; it is not applied".to_string(),
-                source: Some(links[l].holding.source.clone()),
-            });
-        }
-    }
+    check_parent_overrides(&ids, p, &links, &into[p], &mut findings);
 
     let exact = solve_interests(&ids, p, &links, &valid, &mut findings);
 
@@ -428,22 +412,7 @@ pub fn build(
         } else {
             Decimal::ZERO
         };
-        let mut direct_holders: Vec<DirectHolder> = into[j]
-            .iter()
-            .map(|&l| {
-                let h = links[l].holding;
-                DirectHolder {
-                    owner: ids[links[l].owner].clone(),
-                    capital_share: h.capital_share,
-                    voting_share: h.voting_share,
-                    arrangement: h.arrangement,
-                    valid_from: h.valid_from,
-                    valid_to: h.valid_to,
-                    source: h.source.clone(),
-                }
-            })
-            .collect();
-        direct_holders.sort_by(|a, b| (&a.owner, a.valid_from, &a.source).cmp(&(&b.owner, b.valid_from, &b.source)));
+        let direct_holders = direct_holders(&ids, &links, &into[j]);
         rows.push(EntityStructure {
             id: ids[j].clone(),
             direct_holders,
@@ -462,6 +431,56 @@ pub fn build(
     }
 
     (arrange(parent, as_of, p, rows, &parent_of), findings)
+}
+
+/// An override on a holding of the parent is never applied: the parent is always
+/// consolidated in full.
+fn check_parent_overrides(
+    ids: &[EntityId],
+    p: usize,
+    links: &[Link],
+    into_parent: &[usize],
+    findings: &mut Vec<StructureFinding>,
+) {
+    for &l in into_parent {
+        if let Some((method, _)) = &links[l].holding.method_override {
+            findings.push(StructureFinding {
+                rule: Rule::OverrideConflict,
+                entity: Some(ids[p].clone()),
+                message: format!(
+                    "the holding of the parent {} by {} sets method {}, but the parent is \
+                     always consolidated in full",
+                    ids[p],
+                    ids[links[l].owner],
+                    method.as_str()
+                ),
+                action: "remove the override; it is not applied".to_string(),
+                source: Some(links[l].holding.source.clone()),
+            });
+        }
+    }
+}
+
+/// Every holding in entity `j` valid on the date (`into_j`), ordered by owner, then
+/// start date, then source.
+fn direct_holders(ids: &[EntityId], links: &[Link], into_j: &[usize]) -> Vec<DirectHolder> {
+    let mut direct_holders: Vec<DirectHolder> = into_j
+        .iter()
+        .map(|&l| {
+            let h = links[l].holding;
+            DirectHolder {
+                owner: ids[links[l].owner].clone(),
+                capital_share: h.capital_share,
+                voting_share: h.voting_share,
+                arrangement: h.arrangement,
+                valid_from: h.valid_from,
+                valid_to: h.valid_to,
+                source: h.source.clone(),
+            }
+        })
+        .collect();
+    direct_holders.sort_by(|a, b| (&a.owner, a.valid_from, &a.source).cmp(&(&b.owner, b.valid_from, &b.source)));
+    direct_holders
 }
 
 /// Positions for the entities, the parent's included (added when missing, so that every
