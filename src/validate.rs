@@ -158,7 +158,6 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> crate::st
     // Control, interests and methods: the structure module's own findings, less
     // those loading and the checks above already report.
     let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let _span = tracing::info_span!("structure", period = %scope.period).entered();
     let (structure, found) = crate::structure::build(
         &ids,
         &ds.holdings,
