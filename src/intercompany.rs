@@ -961,11 +961,14 @@ struct Slot {
 }
 
 /// Slots of pairs by (entity, counterparty, kind, measure) and the kinds that are not
-/// matched, from the side aggregates (a Rust loop over aggregates, not lines).
+/// matched, from the side aggregates (a Rust loop over aggregates, not lines); a
+/// derived side (`derived`, by payer, receiver and kind) is the receiver's counterparty
+/// side of the year to date.
 #[allow(clippy::type_complexity)]
 fn slots_of(
     sides: &DataFrame,
     sided: &BTreeMap<(String, Measure), Sidedness>,
+    derived: BTreeMap<(String, String, String), Side>,
 ) -> PolarsResult<(BTreeMap<(String, String, String, Measure), Slot>, BTreeMap<(String, Measure), NotMatched>)> {
     let ent = crate::money::column_strings(sides, "entity")?;
     let cp = crate::money::column_strings(sides, "counterparty")?;
@@ -1005,6 +1008,9 @@ fn slots_of(
                 }
             }
         }
+    }
+    for ((payer, receiver, k), side) in derived {
+        slots.entry((receiver, payer, k, Measure::YearToDate)).or_default().counterparty_side = Some(side);
     }
     Ok((slots, not_matched))
 }
@@ -1107,10 +1113,7 @@ pub fn match_intercompany(
     let declared = declared_frame(ds, translated, scope, &derived_kinds)?;
     let derived = derived_sides(ds, &declared, scope.period, minor)?;
 
-    let (mut slots, not_matched) = slots_of(&sides, &sided)?;
-    for ((payer, receiver, k), side) in derived {
-        slots.entry((receiver, payer, k, Measure::YearToDate)).or_default().counterparty_side = Some(side);
-    }
+    let (slots, not_matched) = slots_of(&sides, &sided, derived)?;
 
     let end = scope.period.last_day();
     let window = i64::from(options.timing_window_days);
@@ -1187,11 +1190,7 @@ pub fn match_intercompany(
             materiality: difference.abs(),
         });
     }
-    pairs.sort_by(|x, y| {
-        y.materiality.cmp(&x.materiality).then_with(|| {
-            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
-        })
-    });
+    sort_by_materiality(&mut pairs);
     let not_matched: Vec<NotMatched> = not_matched.into_values().collect();
     let proof = prove(ds, translated, scope, &pairs, &not_matched)?;
     if let Some(only) = &options.only {
@@ -1210,6 +1209,15 @@ pub fn match_intercompany(
         not_matched,
         proof,
     })
+}
+
+/// The largest differences first, then by entity, counterparty, kind and measure.
+fn sort_by_materiality(pairs: &mut [Pair]) {
+    pairs.sort_by(|x, y| {
+        y.materiality.cmp(&x.materiality).then_with(|| {
+            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
+        })
+    });
 }
 
 fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, Totals) {
