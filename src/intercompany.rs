@@ -1044,6 +1044,15 @@ fn documented_reason(
     (evidence, reason)
 }
 
+/// The largest differences first, then by entity, counterparty, kind and measure.
+fn sort_by_materiality(pairs: &mut [Pair]) {
+    pairs.sort_by(|x, y| {
+        y.materiality.cmp(&x.materiality).then_with(|| {
+            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
+        })
+    });
+}
+
 /// A pair whose counterparty's figures are not used this period: it awaits them.
 fn awaiting(eid: EntityId, cid: EntityId, k: String, m: Measure, se: Option<Side>, deliveries: &Deliveries) -> Pair {
     let absence = deliveries.set_aside.get(&cid).cloned().unwrap_or(Absence::NoFolder);
@@ -1209,15 +1218,6 @@ pub fn match_intercompany(
         not_matched,
         proof,
     })
-}
-
-/// The largest differences first, then by entity, counterparty, kind and measure.
-fn sort_by_materiality(pairs: &mut [Pair]) {
-    pairs.sort_by(|x, y| {
-        y.materiality.cmp(&x.materiality).then_with(|| {
-            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
-        })
-    });
 }
 
 fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, Totals) {
