@@ -49,7 +49,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
-use crate::close::Close;
+use crate::close::{Close, EliminationRule};
 use crate::load::{Dataset, Quote};
 use crate::map_accounts::period_index;
 use crate::model::*;
@@ -222,55 +222,12 @@ pub fn cash_flows(
     let mut problems: Vec<String> = Vec::new();
 
     // Who is consolidated at each end, and from which month each entity's flows count.
-    let before = contributing(opening)?;
-    let after = contributing(closing)?;
-    for e in before.difference(&after) {
-        problems.push(format!(
-            "{e} is consolidated at {} but not at {}: disposals of subsidiaries are not supported by the statement of cash flows (IAS 7.39-42)",
-            opening.period, closing.period
-        ));
-    }
-    let mut start: BTreeMap<EntityId, Period> = BTreeMap::new();
-    let mut share: BTreeMap<EntityId, Decimal> = BTreeMap::new();
-    let mut acquired: BTreeSet<EntityId> = BTreeSet::new();
-    for e in &after {
-        let info = s.entity(e);
-        let from = if before.contains(e) {
-            first
-        } else {
-            acquired.insert(e.clone());
-            info.and_then(|x| x.controlled_from).map(Period::of_date).filter(|p| *p > first).unwrap_or(first)
-        };
-        start.insert(e.clone(), from);
-        let proportionate = info.is_some_and(|x| x.method == Method::Proportionate);
-        share.insert(e.clone(), if proportionate { s.share_for_proportionate(e) } else { Decimal::ONE });
-    }
+    let members_of = members(s, opening, closing, &mut problems)?;
+    let Members { start, share, acquired } = &members_of;
 
     // The translated movement, flow and balance acquired per (entity, account, counterparty).
-    let mut parts = translated_parts(ds, t, &start, &acquired, closing.period)?;
-    let p0 = period_index(t.fiscal_start.prev());
-    {
-        let ent = column_strings(&t.differences, "entity")?;
-        let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
-        let td = column_decimals(t.differences.column("translation_difference")?)?;
-        for i in 0..t.differences.height() {
-            let (Some(e), Some(m)) = (&ent[i], idx[i]) else { continue };
-            let e = EntityId::new(e);
-            let Some(from) = start.get(&e) else { continue };
-            let (from, m_p) = (period_index(*from), m);
-            if m_p > period_index(closing.period) {
-                continue;
-            }
-            let account = if m == p0 { &roles.translation_reserve } else { &roles.translation_difference };
-            let slot = parts.entry((e.clone(), account.clone(), None)).or_default();
-            let x = td[i].unwrap_or_default();
-            if m_p >= from {
-                slot.translated += x;
-            } else if acquired.contains(&e) {
-                slot.acquired += x;
-            }
-        }
-    }
+    let mut parts = translated_parts(ds, t, start, acquired, closing.period)?;
+    add_translation_differences(ds, t, &members_of, closing.period, &mut parts)?;
 
     // The consolidated movement of each contribution, and its split.
     let delta = contribution_movements(opening, closing)?;
@@ -339,24 +296,25 @@ pub fn cash_flows(
     }
 
     // The elimination journal's movement between the two closes.
-    let journal = journal_movements(opening, closing, &acquired);
-    for ((treatment, e, a), x) in journal {
+    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired) {
         let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
-        match treatment {
-            Treatment::Acquisition => add(ACQUISITIONS, x),
-            Treatment::Goodwill | Treatment::EquityMethod => {
-                // The profit or loss part stays in profit before tax; the rest of the entry,
-                // which is its non-cash other side, is added back on a line of its own.
-                let own = if treatment == Treatment::Goodwill { GOODWILL_IMPAIRMENT } else { SHARE_OF_ASSOCIATES };
-                add(if pl { PROFIT_BEFORE_TAX } else { own }, x);
-            }
-            Treatment::ByAccount => {
-                if class.get(&a).is_some_and(|d| d.section == Section::Cash) {
-                    problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
-                }
-                route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified);
-            }
+        let own = match treatment {
+            Treatment::Acquisition => Some(ACQUISITIONS),
+            // The profit or loss part stays in profit before tax; the rest of the entry,
+            // which is its non-cash other side, is added back on a line of its own.
+            Treatment::Goodwill | Treatment::EquityMethod if pl => Some(PROFIT_BEFORE_TAX),
+            Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
+            Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
+            Treatment::ByAccount => None,
+        };
+        if let Some(line) = own {
+            add(line, x);
+            continue;
         }
+        if class.get(&a).is_some_and(|d| d.section == Section::Cash) {
+            problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
+        }
+        route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified);
     }
     for (a, x) in &unclassified {
         if !x.is_zero() {
@@ -366,6 +324,110 @@ pub fn cash_flows(
 
     // The statement: the lines of the classification in file order, the fixed ones
     // where they belong.
+    let exchange_total = -exchange_components(&on_line, lines);
+    let sections = sections(lines, &on_line, minor);
+    let net_change: Decimal = sections.iter().map(|s| s.total).sum();
+
+    // The cash balances from the two roll-ups, the second path of the proof.
+    let cash_of = |c: &Close| -> Decimal {
+        c.group.iter().filter(|(a, _)| class.get(a).is_some_and(|d| d.section == Section::Cash)).map(|(_, v)| *v).sum()
+    };
+    let (cash_opening, cash_closing) = (cash_of(opening), cash_of(closing));
+    // The exchange line explained: on cash held, and the translation residue.
+    let (on_cash, residue) = (shown(minor, fx_cash), shown(minor, exchange_total - fx_cash));
+    let exchange = ExchangeEffect { total: shown(minor, exchange_total), on_cash, residue };
+    let acquisitions = acquisitions(acq_by, start, first, minor);
+    let checks = prove(
+        opening.period,
+        closing.period,
+        [cash_opening, net_change, exchange_total, cash_closing],
+        lines.len(),
+        &problems,
+    );
+    let cf = CashFlows {
+        opening_period: opening.period,
+        period: closing.period,
+        sections,
+        net_change: shown(minor, net_change),
+        exchange,
+        cash_opening: shown(minor, cash_opening),
+        cash_closing: shown(minor, cash_closing),
+        acquisitions,
+    };
+    Ok((cf, checks))
+}
+
+/// The entities consolidated at the closing: the first month their flows count from,
+/// their share (proportionate consolidation), and which are first consolidated in the
+/// view. An entity consolidated only at the opening is a disposal: not supported.
+struct Members {
+    start: BTreeMap<EntityId, Period>,
+    share: BTreeMap<EntityId, Decimal>,
+    acquired: BTreeSet<EntityId>,
+}
+
+fn members(s: &GroupStructure, opening: &Close, closing: &Close, problems: &mut Vec<String>) -> PolarsResult<Members> {
+    let first = opening.period.next();
+    let before = contributing(opening)?;
+    let after = contributing(closing)?;
+    for e in before.difference(&after) {
+        problems.push(format!(
+            "{e} is consolidated at {} but not at {}: disposals of subsidiaries are not supported by the statement of cash flows (IAS 7.39-42)",
+            opening.period, closing.period
+        ));
+    }
+    let mut m = Members { start: BTreeMap::new(), share: BTreeMap::new(), acquired: BTreeSet::new() };
+    for e in &after {
+        let info = s.entity(e);
+        let from = if before.contains(e) {
+            first
+        } else {
+            m.acquired.insert(e.clone());
+            info.and_then(|x| x.controlled_from).map(Period::of_date).filter(|p| *p > first).unwrap_or(first)
+        };
+        m.start.insert(e.clone(), from);
+        let proportionate = info.is_some_and(|x| x.method == Method::Proportionate);
+        m.share.insert(e.clone(), if proportionate { s.share_for_proportionate(e) } else { Decimal::ONE });
+    }
+    Ok(m)
+}
+
+/// Adds each entity's translation differences (OCI of the view, reserve brought forward
+/// for the opening month) to the parts: of the view's months as translated movement,
+/// of the months before control of an acquired entity as balance acquired.
+fn add_translation_differences(
+    ds: &Dataset,
+    t: &Translated,
+    m: &Members,
+    last: Period,
+    parts: &mut BTreeMap<Key, Parts>,
+) -> PolarsResult<()> {
+    let roles = &ds.settings.accounts;
+    let p0 = period_index(t.fiscal_start.prev());
+    let ent = column_strings(&t.differences, "entity")?;
+    let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+    let td = column_decimals(t.differences.column("translation_difference")?)?;
+    for i in 0..t.differences.height() {
+        let (Some(e), Some(month)) = (&ent[i], idx[i]) else { continue };
+        let e = EntityId::new(e);
+        let Some(from) = m.start.get(&e) else { continue };
+        if month > period_index(last) {
+            continue;
+        }
+        let account = if month == p0 { &roles.translation_reserve } else { &roles.translation_difference };
+        let slot = parts.entry((e.clone(), account.clone(), None)).or_default();
+        let x = td[i].unwrap_or_default();
+        if month >= period_index(*from) {
+            slot.translated += x;
+        } else if m.acquired.contains(&e) {
+            slot.acquired += x;
+        }
+    }
+    Ok(())
+}
+/// The lines of the statement in order: the classification's in file order, the fixed
+/// adjustments after profit before tax, the acquisition line opening investing.
+fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
     let mut order: Vec<(Section, String, String)> = Vec::new();
     let mut seen: BTreeSet<String> = BTreeSet::new();
     let mut push = |section: Section, line: &str, label: &str, order: &mut Vec<(Section, String, String)>| {
@@ -391,8 +453,14 @@ pub fn cash_flows(
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
     push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
+    order
+}
+
+/// The operating, investing and financing sections with their lines (minus the sum of
+/// each line's components) and totals.
+fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) -> Vec<SectionFlows> {
+    let order = line_order(lines);
     let fixed = [GOODWILL_IMPAIRMENT, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
-    let exchange_total = -exchange_components(&on_line, lines);
     let mut sections = Vec::new();
     for section in [Section::Operating, Section::Investing, Section::Financing] {
         let mut out = Vec::new();
@@ -407,39 +475,29 @@ pub fn cash_flows(
         let total = shown(minor, out.iter().map(|l| l.amount).sum());
         sections.push(SectionFlows { section, label: section.label(), lines: out, total });
     }
-    let net_change: Decimal = sections.iter().map(|s| s.total).sum();
+    sections
+}
 
-    // The cash balances from the two roll-ups, the second path of the proof.
-    let cash_of = |c: &Close| -> Decimal {
-        c.group.iter().filter(|(a, _)| class.get(a).is_some_and(|d| d.section == Section::Cash)).map(|(_, v)| *v).sum()
-    };
-    let (cash_opening, cash_closing) = (cash_of(opening), cash_of(closing));
-    let exchange = ExchangeEffect {
-        total: shown(minor, exchange_total),
-        on_cash: shown(minor, fx_cash),
-        residue: shown(minor, exchange_total - fx_cash),
-    };
-    let acquisitions = acq_by
-        .into_iter()
-        .map(|(entity, (paid, cash))| Acquisition {
-            period: start.get(&entity).copied().unwrap_or(first),
-            entity,
-            consideration: shown(minor, paid),
-            cash_acquired: shown(minor, cash),
-        })
-        .collect();
+/// The two checks of the statement: opening cash, net change, exchange line and closing
+/// cash (`figures` in that order) tie exactly; no problem was found on the way.
+fn prove(
+    opening: Period,
+    closing: Period,
+    figures: [Decimal; 4],
+    classified: usize,
+    problems: &[String],
+) -> Vec<Check> {
+    let [cash_opening, net_change, exchange_total, cash_closing] = figures;
     let ties = cash_opening + net_change + exchange_total == cash_closing;
     let reconcile = Check::new(
         "cash_flows_reconcile",
         ties,
         format!(
-            "cash at {} {} + net change {} + exchange {} {} cash at {} {}",
-            opening.period,
+            "cash at {opening} {} + net change {} + exchange {} {} cash at {closing} {}",
             money::plain(cash_opening),
             money::plain(net_change),
             money::plain(exchange_total),
             if ties { "=" } else { "!=" },
-            closing.period,
             money::plain(cash_closing)
         ),
     );
@@ -448,24 +506,30 @@ pub fn cash_flows(
         problems.is_empty(),
         if problems.is_empty() {
             format!(
-                "{} accounts classified; every movement split into flow, exchange difference and balance acquired",
-                lines.len()
+                "{classified} accounts classified; every movement split into flow, exchange difference and balance acquired"
             )
         } else {
             problems.join("; ")
         },
     );
-    let cf = CashFlows {
-        opening_period: opening.period,
-        period: closing.period,
-        sections,
-        net_change: shown(minor, net_change),
-        exchange,
-        cash_opening: shown(minor, cash_opening),
-        cash_closing: shown(minor, cash_closing),
-        acquisitions,
-    };
-    Ok((cf, vec![reconcile, covered]))
+    vec![reconcile, covered]
+}
+
+/// The subsidiaries acquired in the view: (consideration paid, cash acquired) each.
+fn acquisitions(
+    by: BTreeMap<EntityId, (Decimal, Decimal)>,
+    start: &BTreeMap<EntityId, Period>,
+    first: Period,
+    minor: u32,
+) -> Vec<Acquisition> {
+    by.into_iter()
+        .map(|(entity, (paid, cash))| Acquisition {
+            period: start.get(&entity).copied().unwrap_or(first),
+            entity,
+            consideration: shown(minor, paid),
+            cash_acquired: shown(minor, cash),
+        })
+        .collect()
 }
 
 /// An amount as the statement shows it: at the presentation currency's minor unit,
@@ -555,9 +619,11 @@ fn journal_movements(
         for entry in &c.journal {
             let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
             let treatment = match entry.rule {
-                "investment_and_goodwill" | "pre_acquisition_results" if new_subsidiary => Treatment::Acquisition,
-                "investment_and_goodwill" => Treatment::Goodwill,
-                "equity_method" => Treatment::EquityMethod,
+                EliminationRule::InvestmentAndGoodwill | EliminationRule::PreAcquisitionResults if new_subsidiary => {
+                    Treatment::Acquisition
+                }
+                EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,
+                EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };
             for l in &entry.lines {

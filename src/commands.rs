@@ -36,11 +36,14 @@ fn pick_period(ds: &Dataset, asked: Option<Period>) -> Result<Period, Error> {
     }
 }
 
-/// A loaded, mapped and validated data folder.
+/// A loaded, mapped and validated data folder, with what validation built on its way:
+/// the group structure at the period end and the resolved layouts.
 pub struct Checked {
     pub ds: Dataset,
     pub scope: Scope,
     pub mapped: Mapped,
+    pub structure: crate::structure::GroupStructure,
+    pub statements: Vec<crate::layout::ResolvedStatement>,
 }
 
 /// Loads, maps and validates: the common front of every command.
@@ -53,12 +56,25 @@ pub fn load_checked(data: &Path, period: Option<Period>) -> Result<(Option<Check
     let period = pick_period(&ds, period)?;
     let scope = Scope::new(period, ds.settings.fiscal_year_start);
     let mapped = map_accounts(&ds, scope.fiscal_start)?;
-    validate(&ds, &mapped, scope, &mut findings)?;
-    Ok((Some(Checked { ds, scope, mapped }), findings))
+    let crate::validate::Validated { structure, statements } = validate(&ds, &mapped, scope, &mut findings)?;
+    Ok((Some(Checked { ds, scope, mapped, structure, statements }), findings))
 }
 
 pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
-    let (loaded, findings) = load_checked(data, period)?;
+    let (loaded, mut findings) = load_checked(data, period)?;
+    // What the close's rules would find in the data, listed here too. Not part of
+    // `validate`, so that a close still runs past them and shows them with its figures.
+    if let Some(c) = &loaded {
+        let scope = c.scope;
+        findings.extend(crate::close::check::data_findings(
+            &c.ds,
+            &c.structure,
+            &c.mapped,
+            scope.period,
+            scope.fiscal_start,
+        )?);
+        findings.sort();
+    }
     let period = loaded.as_ref().map(|c| c.scope.period);
     out.write_all(report::findings::render_check(&findings, period, format).as_bytes())?;
     Ok(exit_code(&findings))
@@ -93,7 +109,7 @@ pub fn translate(
     if let Some(code) = stop_on_findings(&findings, out, period, format)? {
         return Ok(code);
     }
-    let Some(Checked { ds, scope, mapped }) = loaded else { return Ok(exit_code(&findings)) };
+    let Some(Checked { ds, scope, mapped, structure, .. }) = loaded else { return Ok(exit_code(&findings)) };
     if let Some(e) = &entity
         && ds.entity(e).is_none()
     {
@@ -101,8 +117,7 @@ pub fn translate(
     }
     let translated = crate::translate::translate(&ds, &mapped, scope.fiscal_start, scope.period)?;
     let checks = crate::translate::prove(&translated)?;
-    let parents = group_structure(&ds, scope.period).immediate_parents();
-    let reserves = crate::translate::reserves_by_operation(&ds, &translated, &parents)?;
+    let reserves = crate::translate::reserves_by_operation(&ds, &translated, &structure.immediate_parents())?;
     let text = report::translation::render(
         &translated,
         &reserves,
@@ -116,20 +131,6 @@ pub fn translate(
     )?;
     out.write_all(text.as_bytes())?;
     Ok(if crate::proof::tied(&checks) { 0 } else { 1 })
-}
-
-/// The group structure at the end of a period, from the one module that decides it.
-pub fn group_structure(ds: &Dataset, period: Period) -> crate::structure::GroupStructure {
-    let ids: Vec<crate::model::EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let _span = tracing::info_span!("structure", period = %period).entered();
-    crate::structure::build(
-        &ids,
-        &ds.holdings,
-        &ds.settings.parent,
-        period.last_day(),
-        ds.settings.policies.significant_influence,
-    )
-    .0
 }
 
 pub fn structure(data: &Path, period: Option<Period>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
@@ -161,8 +162,7 @@ pub fn structure(data: &Path, period: Option<Period>, format: Format, out: &mut 
         out.write_all(report::findings::render_check(&only, Some(c.scope.period), Format::Table).as_bytes())?;
         return Ok(1);
     }
-    let s = group_structure(&c.ds, c.scope.period);
-    out.write_all(report::structure::render(&s, &c.ds.entities, c.scope.period, format).as_bytes())?;
+    out.write_all(report::structure::render(&c.structure, &c.ds.entities, c.scope.period, format).as_bytes())?;
     Ok(0)
 }
 
@@ -264,7 +264,9 @@ pub fn rates(data: &Path, args: RatesArgs, format: Format, out: &mut dyn Write) 
 pub struct ClosedPeriod {
     pub checked: Checked,
     pub translated: crate::translate::Translated,
-    pub structure: crate::structure::GroupStructure,
+    /// The sub-group's structure at the period end; `None` for the group, whose
+    /// structure validation built (`checked.structure`).
+    pub sub_group: Option<crate::structure::GroupStructure>,
     pub close: crate::close::Close,
     /// The close at the end of the month before the view starts (for month and quarter
     /// views), or `None` when the view starts with the fiscal year.
@@ -293,6 +295,11 @@ fn run_close_or_stop(
 }
 
 impl ClosedPeriod {
+    /// The structure of the scope at the period end.
+    pub fn structure(&self) -> &crate::structure::GroupStructure {
+        self.sub_group.as_ref().unwrap_or(&self.checked.structure)
+    }
+
     /// The close of the opening balances (the month before the fiscal year), for a view
     /// from the fiscal year's start; computed on demand because only the statement of
     /// changes in equity needs it.
@@ -340,14 +347,12 @@ pub fn run_close(
     };
     checks.extend(crate::translate::prove(&translated)?);
     let structure_at = |p: Period| structure_at(ds, &root, p);
-    let structure = structure_at(scope.period);
-    let close = crate::close::close_at(ds, &translated, &structure, scope.period)?;
-    let base_period = match view {
-        crate::cli::View::Ytd => None,
-        crate::cli::View::Month => Some(scope.period.prev()),
-        crate::cli::View::Qtd => Some(scope.period.fiscal_quarter_start(ds.settings.fiscal_year_start).prev()),
-    }
-    .filter(|p| *p >= scope.fiscal_start);
+    // The group's structure at the period is validation's; a sub-group has its own.
+    let sub_group = (root != ds.settings.parent).then(|| structure_at(scope.period));
+    let structure = sub_group.as_ref().unwrap_or(&checked.structure);
+    let close = crate::close::close_at(ds, &translated, structure, scope.period)?;
+    let base_period =
+        crate::close::view::base_period(view, scope.period, ds.settings.fiscal_year_start, scope.fiscal_start);
     let base = match base_period {
         Some(p) => Some(crate::close::close_at(ds, &translated, &structure_at(p), p)?),
         None => None,
@@ -356,7 +361,7 @@ pub fn run_close(
         let _span = tracing::info_span!("prove_close").entered();
         crate::close::prove(&close)?
     });
-    Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
+    Ok(Ok(ClosedPeriod { checked, translated, sub_group, close, base, checks, root }))
 }
 
 pub fn close(
@@ -376,75 +381,17 @@ pub fn close(
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
     let minor = c.translated.minor;
-    let mut layout_findings = Vec::new();
-    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
-    let is_pl = |a: &crate::model::GroupAccount| {
-        ds.account(a).is_some_and(|d| d.statement != crate::model::Statement::BalanceSheet)
-    };
-    // Income statement amounts for the view: year to date less the base close.
-    let mut view_amounts: BTreeMap<crate::model::GroupAccount, rust_decimal::Decimal> = BTreeMap::new();
-    for (a, v) in &c.close.group {
-        if is_pl(a) {
-            *view_amounts.entry(a.clone()).or_default() += *v;
-        }
-    }
-    if let Some(b) = &c.base {
-        for (a, v) in &b.group {
-            if is_pl(a) {
-                *view_amounts.entry(a.clone()).or_default() -= *v;
-            }
-        }
-    }
-    // In the balance sheet the year's profit is shown in retained earnings and its OCI
-    // in the translation reserve, where they will be closed at year end.
-    let mut bs_amounts = c.close.group.clone();
-    let pl_ytd: rust_decimal::Decimal = c
-        .close
-        .group
-        .iter()
-        .filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == crate::model::Statement::ProfitOrLoss))
-        .map(|(_, v)| *v)
-        .sum();
-    let oci_ytd: rust_decimal::Decimal = c
-        .close
-        .group
-        .iter()
-        .filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == crate::model::Statement::Oci))
-        .map(|(_, v)| *v)
-        .sum();
-    *bs_amounts.entry(ds.settings.accounts.retained_earnings.clone()).or_default() += pl_ytd;
-    *bs_amounts.entry(ds.settings.accounts.translation_reserve.clone()).or_default() += oci_ytd;
+    let statements = &c.checked.statements;
+    let chart = crate::close::view::Chart::new(&ds.accounts);
+    let figures = crate::close::view::view_figures(&c.close, c.base.as_ref(), &chart, &ds.settings.accounts);
     let mut out_statements = BTreeMap::new();
-    for st in &statements {
-        let amounts =
-            if st.statement == "profit_or_loss" || st.statement == "oci" { &view_amounts } else { &bs_amounts };
+    for st in statements {
+        let flows = st.statement == "profit_or_loss" || st.statement == "oci";
+        let amounts = if flows { &figures.flows } else { &figures.balance_sheet };
         out_statements.insert(st.statement.clone(), report::close::lay_out(st, amounts));
     }
-    let sum_st = |m: &BTreeMap<crate::model::GroupAccount, rust_decimal::Decimal>,
-                  st: crate::model::Statement|
-     -> rust_decimal::Decimal {
-        m.iter().filter(|(a, _)| ds.account(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
-    };
-    let profit = -sum_st(&view_amounts, crate::model::Statement::ProfitOrLoss);
-    let oci = -sum_st(&view_amounts, crate::model::Statement::Oci);
-    let nci_profit: rust_decimal::Decimal = c.close.nci.iter().map(|n| n.profit).sum::<rust_decimal::Decimal>()
-        - c.base.as_ref().map(|b| b.nci.iter().map(|n| n.profit).sum::<rust_decimal::Decimal>()).unwrap_or_default();
-    let nci_oci: rust_decimal::Decimal = c.close.nci.iter().map(|n| n.oci).sum::<rust_decimal::Decimal>()
-        - c.base.as_ref().map(|b| b.nci.iter().map(|n| n.oci).sum::<rust_decimal::Decimal>()).unwrap_or_default();
-    let result_in_equity = -(sum_st(&c.close.group, crate::model::Statement::ProfitOrLoss)
-        + sum_st(&c.close.group, crate::model::Statement::Oci));
     let mut checks = c.checks.clone();
-    // The balance sheet balances once the result of the year is counted in equity.
-    let bs_total: rust_decimal::Decimal = sum_st(&c.close.group, crate::model::Statement::BalanceSheet);
-    checks.push(crate::proof::Check::new(
-        "balance_sheet_balances",
-        (bs_total - result_in_equity).is_zero(),
-        format!(
-            "assets - equity - liabilities = {}, profit and OCI of the year = {}",
-            crate::money::plain(bs_total),
-            crate::money::plain(result_in_equity)
-        ),
-    ));
+    checks.push(figures.check.clone());
     // The statement of changes in equity (IAS 1.106): from the opening close of the
     // view to its closing one, with its own proof.
     let view_start = c.base.as_ref().map(|b| b.period.next()).unwrap_or(scope.fiscal_start);
@@ -458,10 +405,10 @@ pub fn close(
     };
     let (equity_changes, equity_check) = crate::equity::changes_in_equity(
         ds,
-        &crate::equity::components(&statements, &ds.accounts),
+        &crate::equity::components(statements, &ds.accounts),
         opening,
         &c.close,
-        crate::equity::ViewResult { profit, profit_nci: nci_profit, oci, oci_nci: nci_oci },
+        &figures.attribution,
         minor,
         (format!("Balance at {}", view_start.first_day()), format!("Balance at {}", scope.period.last_day())),
     )?;
@@ -470,7 +417,7 @@ pub fn close(
     let cash_flows = match &ds.cash_flow_lines {
         Some(lines) => {
             let (cf, cf_checks) =
-                crate::cash_flows::cash_flows(ds, lines, &c.structure, &c.translated, opening, &c.close)?;
+                crate::cash_flows::cash_flows(ds, lines, c.structure(), &c.translated, opening, &c.close)?;
             checks.extend(cf_checks);
             Some(cf)
         }
@@ -506,13 +453,13 @@ pub fn close(
             cash_flows,
         },
         attribution: report::close::Attribution {
-            profit,
-            profit_owners: profit - nci_profit,
-            profit_nci: nci_profit,
-            oci,
-            oci_owners: oci - nci_oci,
-            oci_nci: nci_oci,
-            result_in_equity,
+            profit: figures.attribution.profit,
+            profit_owners: figures.attribution.profit_owners(),
+            profit_nci: figures.attribution.profit_nci,
+            oci: figures.attribution.oci,
+            oci_owners: figures.attribution.oci_owners(),
+            oci_nci: figures.attribution.oci_nci,
+            result_in_equity: figures.attribution.result_in_equity,
         },
         eliminations: &c.close.journal,
         nci: &c.close.nci,
@@ -573,9 +520,8 @@ pub fn segments(
         )));
     }
     let mut findings = Vec::new();
-    let mut layout_findings = Vec::new();
-    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
-    let measures = resolve_measures(settings, &statements, &ds.accounts, "entities/group.toml", &mut findings);
+    let measures =
+        resolve_measures(settings, &c.checked.statements, &ds.accounts, "entities/group.toml", &mut findings);
     let m = Membership::build(&key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
     let country: BTreeMap<crate::model::EntityId, String> =
         ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
@@ -584,16 +530,10 @@ pub fn segments(
         Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
         None => None,
     };
-    let is_flow = |a: &crate::model::GroupAccount| {
-        ds.account(a).is_some_and(|d| d.statement != crate::model::Statement::BalanceSheet)
-    };
+    let chart = crate::close::view::Chart::new(&ds.accounts);
+    let is_flow = |a: &crate::model::GroupAccount| chart.is_flow(a);
     let attr = ytd.view(base.as_ref(), &is_flow);
-    let mut group = c.close.group.clone();
-    if let Some(b) = &c.base {
-        for (a, v) in b.group.iter().filter(|(a, _)| is_flow(a)) {
-            *group.entry(a.clone()).or_default() -= *v;
-        }
-    }
+    let group = crate::close::view::flows_of_view(&c.close.group, c.base.as_ref().map(|b| &b.group), &is_flow);
     let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
     let rep = crate::segments::report(
         &measures,
@@ -642,7 +582,6 @@ pub fn trace(
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
-    use polars::prelude::*;
     let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -651,60 +590,8 @@ pub fn trace(
     if ds.account(account).is_none() {
         return Err(Error::Usage(format!("group account {account} is not in accounts.csv")));
     }
-    let p = crate::map_accounts::period_index(c.checked.scope.period);
-    let contributions =
-        c.close.contributions.clone().lazy().filter(col("group_account").eq(lit(account.as_str()))).collect()?;
-    let entities: Vec<String> = contributions
-        .column("entity")?
-        .str()?
-        .iter()
-        .flatten()
-        .map(String::from)
-        .collect::<std::collections::BTreeSet<_>>()
-        .into_iter()
-        .collect();
-    let ents = Series::new("e".into(), entities.clone());
-    // The ledger lines behind each contribution: the latest balance delivery, or the
-    // opening balance and every month's movements up to the period.
-    let balance_entities = c
-        .checked
-        .mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(col("kind").eq(lit("balances")))
-        .select([col("entity")])
-        .unique(None, UniqueKeepStrategy::Any)
-        .with_column(lit(true).alias("by_balance"));
-    let ledger = c
-        .checked
-        .mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(
-            col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents).implode(false), false)),
-        )
-        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
-        .filter(
-            when(col("by_balance").fill_null(lit(false)))
-                .then(col("period_index").eq(lit(p)))
-                .otherwise(col("period_index").lt_eq(lit(p))),
-        )
-        .sort(["entity", "file", "line"], SortMultipleOptions::default())
-        .collect()?;
-    let minor = c.translated.minor;
-    let text = report::trace::render(
-        account,
-        ds,
-        &contributions,
-        &ledger,
-        &c.close.journal,
-        c.close.group.get(account).copied().unwrap_or_default(),
-        c.checked.scope.period,
-        minor,
-        format,
-    )?;
+    let t = crate::trace::trace(account, ds, &c.close, &c.checked.mapped, c.checked.scope.period)?;
+    let text = report::trace::render(&t, c.translated.minor, format);
     out.write_all(text.as_bytes())?;
     Ok(0)
 }
@@ -775,7 +662,7 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     use crate::intercompany::{self, Deliveries, Options};
     let (loaded, findings) = load_checked(data, ask.period)?;
     let period = loaded.as_ref().map(|c| c.scope.period);
-    let Some(Checked { ds, scope, mapped }) = loaded else {
+    let Some(Checked { ds, scope, mapped, .. }) = loaded else {
         out.write_all(report::findings::render_check(&findings, period, Format::Table).as_bytes())?;
         return Ok(exit_code(&findings));
     };

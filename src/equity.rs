@@ -28,7 +28,8 @@ use std::collections::{BTreeMap, BTreeSet};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
-use crate::close::Close;
+use crate::close::view::{Attribution, Chart, balance_sheet_amounts};
+use crate::close::{Close, EliminationRule};
 use crate::model::*;
 use crate::money::{self, column_decimals, column_strings};
 use crate::proof::Check;
@@ -63,16 +64,6 @@ pub struct EquityChanges {
     pub rows: Vec<Row>,
 }
 
-/// Profit and OCI of the view and the NCI's shares of them (credit positive), as the
-/// statements show them.
-#[derive(Debug, Clone, Copy)]
-pub struct ViewResult {
-    pub profit: Decimal,
-    pub profit_nci: Decimal,
-    pub oci: Decimal,
-    pub oci_nci: Decimal,
-}
-
 /// Id of the owners' total and of the total equity column.
 pub const OWNERS: &str = "owners_of_the_parent";
 pub const TOTAL: &str = "total_equity";
@@ -103,32 +94,25 @@ pub fn components(statements: &[crate::layout::ResolvedStatement], chart: &[Acco
 }
 
 /// Equity accounts as the balance sheet shows them (debit positive): the group trial
-/// balance with profit or loss in retained earnings and OCI in the translation reserve.
+/// balance with profit or loss in retained earnings and OCI in the translation reserve
+/// (`close::view::balance_sheet_amounts`).
 fn balance_sheet_equity(
     c: &Close,
-    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    chart: &Chart,
+    equity: &BTreeSet<GroupAccount>,
     roles: &RoleAccounts,
 ) -> BTreeMap<GroupAccount, Decimal> {
-    let mut out = BTreeMap::new();
-    for (a, v) in &c.group {
-        let Some(d) = chart.get(a) else { continue };
-        let target = match d.statement {
-            Statement::ProfitOrLoss => &roles.retained_earnings,
-            Statement::Oci => &roles.translation_reserve,
-            Statement::BalanceSheet if d.class == AccountClass::Equity => a,
-            Statement::BalanceSheet => continue,
-        };
-        *out.entry(target.clone()).or_default() += *v;
-    }
+    let mut out = balance_sheet_amounts(&c.group, chart, roles);
+    out.retain(|a, _| equity.contains(a));
     out
 }
 
+/// Contributions by entity and group account.
+type Contributions = BTreeMap<(EntityId, GroupAccount), Decimal>;
+
 /// Per entity and group account, the contributions on the accounts in `accounts`
 /// (columnar: the contribution frame is summed by polars).
-fn contributions_on(
-    c: &Close,
-    accounts: &BTreeSet<GroupAccount>,
-) -> PolarsResult<BTreeMap<(EntityId, GroupAccount), Decimal>> {
+fn contributions_on(c: &Close, accounts: &BTreeSet<GroupAccount>) -> PolarsResult<Contributions> {
     let list: Vec<String> = accounts.iter().map(|a| a.to_string()).collect();
     let df = c
         .contributions
@@ -156,7 +140,7 @@ fn contributing(c: &Close) -> PolarsResult<BTreeSet<EntityId>> {
 }
 
 /// Sum of the journal lines of a close on `account`, optionally of one rule and entity.
-fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<&str>, entity: Option<&EntityId>) -> Decimal {
+fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<EliminationRule>, entity: Option<&EntityId>) -> Decimal {
     c.journal
         .iter()
         .filter(|e| rule.is_none_or(|r| e.rule == r))
@@ -173,14 +157,20 @@ pub fn changes_in_equity(
     components: &[Component],
     opening: &Close,
     closing: &Close,
-    view: ViewResult,
+    view: &Attribution,
     minor: u32,
     labels: (String, String),
 ) -> PolarsResult<(EquityChanges, Check)> {
     let _span = tracing::info_span!("changes_in_equity", period = %closing.period).entered();
     let roles = &ds.settings.accounts;
     let mode = ds.settings.policies.rounding;
-    let chart: BTreeMap<&GroupAccount, &AccountDef> = ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let chart = Chart::new(&ds.accounts);
+    let balance_sheet_equity_accounts: BTreeSet<GroupAccount> = ds
+        .accounts
+        .iter()
+        .filter(|a| a.class == AccountClass::Equity && a.statement == Statement::BalanceSheet)
+        .map(|a| a.account.clone())
+        .collect();
     let equity_accounts: BTreeSet<GroupAccount> =
         ds.accounts.iter().filter(|a| a.class == AccountClass::Equity).map(|a| a.account.clone()).collect();
     let n = components.len();
@@ -189,36 +179,16 @@ pub fn changes_in_equity(
         (find(&roles.retained_earnings), find(&roles.translation_reserve), find(&roles.non_controlling_interest));
     // Balances as the balance sheet shows them, presented credit positive.
     let presented = |c: &Close| -> Vec<Decimal> {
-        let bs = balance_sheet_equity(c, &chart, roles);
+        let bs = balance_sheet_equity(c, &chart, &balance_sheet_equity_accounts, roles);
         components.iter().map(|k| -k.accounts.iter().filter_map(|a| bs.get(a)).copied().sum::<Decimal>()).collect()
     };
     let open = presented(opening);
     let close = presented(closing);
 
-    // The movement of each equity account on the second path: contributions and
-    // journal lines of the two closes, and the result of the view.
+    // The movement of each equity account on the second path.
     let c_open = contributions_on(opening, &equity_accounts)?;
     let c_close = contributions_on(closing, &equity_accounts)?;
-    let mut moved: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
-    for ((_, a), v) in &c_close {
-        *moved.entry(a.clone()).or_default() += *v;
-    }
-    for ((_, a), v) in &c_open {
-        *moved.entry(a.clone()).or_default() -= *v;
-    }
-    for a in &equity_accounts {
-        *moved.entry(a.clone()).or_default() +=
-            journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
-    }
-    let result_of = |c: &Close, st: Statement| -> Decimal {
-        c.group.iter().filter(|(a, _)| chart.get(a).is_some_and(|d| d.statement == st)).map(|(_, v)| *v).sum()
-    };
-    *moved.entry(roles.retained_earnings.clone()).or_default() +=
-        result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
-    *moved.entry(roles.translation_reserve.clone()).or_default() +=
-        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
-    let movement: Vec<Decimal> =
-        components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect();
+    let movement = movements(components, &equity_accounts, (opening, closing), (&c_open, &c_close), &chart, roles);
 
     let mut profit = vec![Decimal::ZERO; n];
     let mut oci = vec![Decimal::ZERO; n];
@@ -254,38 +224,24 @@ pub fn changes_in_equity(
     add(
         &mut dividends,
         re,
-        -(journal_sum(closing, &roles.retained_earnings, Some("intragroup_dividend"), None)
-            - journal_sum(opening, &roles.retained_earnings, Some("intragroup_dividend"), None)),
+        -(journal_sum(closing, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)
+            - journal_sum(opening, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)),
     );
     // Acquisitions: the NCI at acquisition of each subsidiary first consolidated.
     for e in after.difference(&before) {
-        let x = -journal_sum(closing, &roles.non_controlling_interest, Some("investment_and_goodwill"), Some(e));
+        let x = -journal_sum(
+            closing,
+            &roles.non_controlling_interest,
+            Some(EliminationRule::InvestmentAndGoodwill),
+            Some(e),
+        );
         add(&mut acquisitions, nci, x);
     }
     let other: Vec<Decimal> =
         (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i]).collect();
 
-    // Columns: the components, the owners' total before the NCI, the total.
-    let mut columns: Vec<EquityColumn> = Vec::new();
-    let owners_at = nci.unwrap_or(n);
-    let widen = |v: &[Decimal]| -> Vec<Decimal> {
-        let owners: Decimal = v.iter().enumerate().filter(|(i, _)| Some(*i) != nci).map(|(_, x)| *x).sum();
-        let mut out: Vec<Decimal> = v.iter().take(owners_at).copied().collect();
-        out.push(owners);
-        out.extend(v.iter().skip(owners_at).copied());
-        out.push(v.iter().copied().sum());
-        out.into_iter().map(money::unsigned_zero).collect()
-    };
-    for (i, k) in components.iter().enumerate() {
-        if i == owners_at {
-            columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
-        }
-        columns.push(EquityColumn { id: k.id.clone(), label: k.label.clone() });
-    }
-    if owners_at == n {
-        columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
-    }
-    columns.push(EquityColumn { id: TOTAL.into(), label: "Total equity".into() });
+    let columns = columns(components, nci);
+    let widen = |v: &[Decimal]| widen(v, nci);
     let rows = vec![
         Row { id: "opening", label: labels.0, amounts: widen(&open) },
         Row { id: "profit", label: "Profit for the period".into(), amounts: widen(&profit) },
@@ -299,9 +255,81 @@ pub fn changes_in_equity(
         Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
         Row { id: "closing", label: labels.1, amounts: widen(&close) },
     ];
+    let check = prove(components, &equity_accounts, &open, &movement, &close);
+    Ok((EquityChanges { columns, rows }, check))
+}
 
-    // The proof: every column's opening + movements = closing, exactly; every equity
-    // account of the chart in one component.
+/// The movement of each component on the second path, credit positive: contributions
+/// and journal lines of the two closes, and the result of the view counted in retained
+/// earnings and the translation reserve.
+fn movements(
+    components: &[Component],
+    equity_accounts: &BTreeSet<GroupAccount>,
+    (opening, closing): (&Close, &Close),
+    (c_open, c_close): (&Contributions, &Contributions),
+    chart: &Chart,
+    roles: &RoleAccounts,
+) -> Vec<Decimal> {
+    let mut moved: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
+    for ((_, a), v) in c_close {
+        *moved.entry(a.clone()).or_default() += *v;
+    }
+    for ((_, a), v) in c_open {
+        *moved.entry(a.clone()).or_default() -= *v;
+    }
+    for a in equity_accounts {
+        *moved.entry(a.clone()).or_default() +=
+            journal_sum(closing, a, None, None) - journal_sum(opening, a, None, None);
+    }
+    let result_of = |c: &Close, st: Statement| -> Decimal { chart.sum(&c.group, st) };
+    *moved.entry(roles.retained_earnings.clone()).or_default() +=
+        result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
+    *moved.entry(roles.translation_reserve.clone()).or_default() +=
+        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
+    components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect()
+}
+
+/// Columns: the components, the owners' total before the NCI (`nci`: its component),
+/// the total.
+fn columns(components: &[Component], nci: Option<usize>) -> Vec<EquityColumn> {
+    let n = components.len();
+    let owners_at = nci.unwrap_or(n);
+    let mut columns: Vec<EquityColumn> = Vec::new();
+    for (i, k) in components.iter().enumerate() {
+        if i == owners_at {
+            columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+        }
+        columns.push(EquityColumn { id: k.id.clone(), label: k.label.clone() });
+    }
+    if owners_at == n {
+        columns.push(EquityColumn { id: OWNERS.into(), label: "Total owners of the parent".into() });
+    }
+    columns.push(EquityColumn { id: TOTAL.into(), label: "Total equity".into() });
+    columns
+}
+
+/// One row per component widened to the [`columns`]: the owners' total inserted before
+/// the NCI's component, the total at the end.
+fn widen(v: &[Decimal], nci: Option<usize>) -> Vec<Decimal> {
+    let owners_at = nci.unwrap_or(v.len());
+    let owners: Decimal = v.iter().enumerate().filter(|(i, _)| Some(*i) != nci).map(|(_, x)| *x).sum();
+    let mut out: Vec<Decimal> = v.iter().take(owners_at).copied().collect();
+    out.push(owners);
+    out.extend(v.iter().skip(owners_at).copied());
+    out.push(v.iter().copied().sum());
+    out.into_iter().map(money::unsigned_zero).collect()
+}
+
+/// The proof `equity_changes_reconcile`: every column's opening + movements = closing,
+/// exactly; every equity account of the chart in one component.
+fn prove(
+    components: &[Component],
+    equity_accounts: &BTreeSet<GroupAccount>,
+    open: &[Decimal],
+    movement: &[Decimal],
+    close: &[Decimal],
+) -> Check {
+    let n = components.len();
     let mut broken = Vec::new();
     for (i, k) in components.iter().enumerate() {
         if open[i] + movement[i] != close[i] {
@@ -320,21 +348,20 @@ pub fn changes_in_equity(
         broken.push(format!("equity accounts in no component: {}", missing.join(" ")));
     }
     let total = |v: &[Decimal]| v.iter().copied().sum::<Decimal>();
-    let check = Check::new(
+    Check::new(
         "equity_changes_reconcile",
         broken.is_empty(),
         if broken.is_empty() {
             format!(
                 "{n} components: opening {} + movements {} = closing {}",
-                money::plain(total(&open)),
-                money::plain(total(&movement)),
-                money::plain(total(&close))
+                money::plain(total(open)),
+                money::plain(total(movement)),
+                money::plain(total(close))
             )
         } else {
             broken.join("; ")
         },
-    );
-    Ok((EquityChanges { columns, rows }, check))
+    )
 }
 
 #[cfg(test)]

@@ -62,12 +62,26 @@ pub enum Rule {
     RateNotPositive,
     RateDuplicated,
     HoldingInvalid,
+    /// The parent named in the settings is not among the entities.
+    ParentUnknown,
+    /// A holding names an owner or an owned entity that is not among the entities.
+    HoldingUnknownEntity,
+    /// A capital or voting share is outside 0 to 1.
+    HoldingShareOutOfRange,
+    /// A holding's owner and owned entity are the same (its own treasury shares).
+    HoldingOfItself,
+    /// A holding ends before it starts, so it is never valid.
+    HoldingPeriodInverted,
+    /// The capital (or voting) shares held in one entity add up to more than 1.
     EntityOverHeld,
     StructureUnsolvable,
     OverrideConflict,
     OverrideOutsideGroup,
     ArrangementConflict,
+    /// Shares of the parent are held by an entity of the structure (treasury shares,
+    /// IAS 32.33). This states the policy applied; it is not an error in itself.
     ParentHeld,
+    /// A limit is exceeded (see the `MAX_*` constants of the module that raises it).
     LimitExceeded,
     AcquisitionMissing,
     GoodwillNegative,

@@ -435,6 +435,146 @@ fn draw_cents(r: &mut ChaCha8Rng, lo: u32, hi: u32) -> i64 {
     r.random_range(10i64.pow(e)..10i64.pow(e + 1))
 }
 
+/// The entities of the plan, drawn in order from the group stream: currency, country,
+/// business, role, holder and share, dates, capital.
+fn draw_entities(r: &mut ChaCha8Rng, n: usize, months: u32, fiscal_start: Period) -> Vec<EntityPlan> {
+    let mut entities: Vec<EntityPlan> = Vec::with_capacity(n);
+    let leaves_from = if n > 1 { (n - 1) / FAN_OUT + 1 } else { 1 };
+    for i in 0..n {
+        let (code, rate, countries, region) = if i == 0 {
+            CURRENCIES[0]
+        } else {
+            let pick = r.random_range(0..100u32);
+            if pick < 30 {
+                CURRENCIES[0]
+            } else if pick < 45 {
+                CURRENCIES[1]
+            } else {
+                CURRENCIES[r.random_range(2..CURRENCIES.len())]
+            }
+        };
+        let currency = Currency::parse(code).expect("an ISO 4217 code");
+        let country = countries[r.random_range(0..countries.len())];
+        let business = BUSINESSES[r.random_range(0..BUSINESSES.len())];
+        let leaf = i >= leaves_from;
+        let role = if i == 0 {
+            Role::Parent
+        } else if leaf && (i - leaves_from) % 40 == 3 {
+            Role::Associate
+        } else if leaf && months >= 3 && (i - leaves_from) % 60 == 1 {
+            Role::AcquiredInYear(fiscal_start.plus_months(r.random_range(1..months as i32 - 1)))
+        } else {
+            Role::Subsidiary
+        };
+        let (owner, share) = match role {
+            Role::Parent => (None, Decimal::ONE),
+            Role::Associate => (Some(0), dec("0.30")),
+            _ => {
+                let shares = ["1.00", "1.00", "1.00", "0.80", "0.75", "0.60", "0.90"];
+                (Some((i - 1) / FAN_OUT), dec(shares[r.random_range(0..shares.len())]))
+            }
+        };
+        let valid_from = match role {
+            Role::AcquiredInYear(p) => p.first_day(),
+            _ => NaiveDate::from_ymd_opt(r.random_range(2008..2024), r.random_range(1..13), 1).expect("a valid date"),
+        };
+        let minor = currency.minor_unit();
+        let base = dec(rate);
+        // The rate at acquisition: within 15% of today's magnitude.
+        let drift = Decimal::new(r.random_range(85_000i64..115_000), 5);
+        let rate_historical = at_scale(base * drift, 6);
+        let capital = at_scale(Decimal::new(draw_cents(r, 8, 10), 2) * base, minor);
+        let premium = at_scale(Decimal::new(draw_cents(r, 7, 9), 2) * base, minor);
+        entities.push(EntityPlan {
+            id: format!("S{i:05}"),
+            currency,
+            country,
+            region,
+            business,
+            role,
+            owner,
+            share,
+            valid_from,
+            chart_style: r.random_range(0..3u8),
+            capital,
+            premium,
+            rate_historical,
+        });
+    }
+    entities
+}
+
+/// Rates: a random walk per currency from its invented magnitude.
+fn draw_rates(r: &mut ChaCha8Rng, months: u32, fiscal_start: Period) -> BTreeMap<Currency, Vec<MonthRate>> {
+    let mut rates = BTreeMap::new();
+    for (code, base, _, _) in CURRENCIES.iter().skip(1) {
+        let c = Currency::parse(code).expect("an ISO 4217 code");
+        let mut closing = dec(base);
+        let mut list = Vec::new();
+        for m in 0..=months {
+            let period = fiscal_start.plus_months(m as i32 - 1);
+            let before = closing;
+            let step = Decimal::new(r.random_range(-200i64..=200), 4);
+            closing = at_scale(before * (Decimal::ONE + step), 6);
+            let average = at_scale((before + closing) / Decimal::TWO, 6);
+            list.push(MonthRate { period, closing, average });
+        }
+        rates.insert(c, list);
+    }
+    rates
+}
+
+/// Intercompany pairs: each consolidated entity sells to its holder, and most to one
+/// other entity, preferably one sharing its currency.
+fn draw_pairs(r: &mut ChaCha8Rng, entities: &[EntityPlan]) -> Vec<PairPlan> {
+    let n = entities.len();
+    let trades = |e: &EntityPlan| matches!(e.role, Role::Parent | Role::Subsidiary);
+    let mut by_currency: BTreeMap<Currency, Vec<usize>> = BTreeMap::new();
+    let mut pairs = Vec::new();
+    for i in 0..n {
+        let e = &entities[i];
+        if !trades(e) {
+            continue;
+        }
+        let mut partners = Vec::new();
+        if let Some(o) = e.owner {
+            partners.push(o);
+        }
+        if i > 1 && r.random_range(0..100) < 85 {
+            let same = by_currency.get(&e.currency).filter(|v| !v.is_empty());
+            let j = match same {
+                Some(v) if r.random_range(0..100) < 80 => v[r.random_range(0..v.len())],
+                _ => r.random_range(0..i),
+            };
+            if trades(&entities[j]) && !partners.contains(&j) {
+                partners.push(j);
+            }
+        }
+        for j in partners {
+            let difference = if entities[j].currency != e.currency {
+                PairDifference::Fx
+            } else {
+                let mut pick = r.random_range(0..100u32);
+                let mut d = PairDifference::Matched;
+                for (kind, share) in SAME_CURRENCY_SHARES {
+                    if pick < share {
+                        d = kind;
+                        break;
+                    }
+                    pick -= share;
+                }
+                d
+            };
+            let loan = Some(j) == e.owner && i % 3 == 0;
+            // The holder lends: the seller of a loan pair is the holder.
+            let (seller, buyer) = if loan { (j, i) } else { (i, j) };
+            pairs.push(PairPlan { seller, buyer, difference, loan });
+        }
+        by_currency.entry(e.currency).or_default().push(i);
+    }
+    pairs
+}
+
 impl Plan {
     pub fn new(options: Options) -> Result<Plan, String> {
         options.check()?;
@@ -454,133 +594,9 @@ impl Plan {
         let n = options.entities;
         let months = options.months;
         let fiscal_start = Period::new(YEAR, 1).expect("a valid month");
-        let mut entities: Vec<EntityPlan> = Vec::with_capacity(n);
-        let leaves_from = if n > 1 { (n - 1) / FAN_OUT + 1 } else { 1 };
-        for i in 0..n {
-            let (code, rate, countries, region) = if i == 0 {
-                CURRENCIES[0]
-            } else {
-                let pick = r.random_range(0..100u32);
-                if pick < 30 {
-                    CURRENCIES[0]
-                } else if pick < 45 {
-                    CURRENCIES[1]
-                } else {
-                    CURRENCIES[r.random_range(2..CURRENCIES.len())]
-                }
-            };
-            let currency = Currency::parse(code).expect("an ISO 4217 code");
-            let country = countries[r.random_range(0..countries.len())];
-            let business = BUSINESSES[r.random_range(0..BUSINESSES.len())];
-            let leaf = i >= leaves_from;
-            let role = if i == 0 {
-                Role::Parent
-            } else if leaf && (i - leaves_from) % 40 == 3 {
-                Role::Associate
-            } else if leaf && months >= 3 && (i - leaves_from) % 60 == 1 {
-                Role::AcquiredInYear(fiscal_start.plus_months(r.random_range(1..months as i32 - 1)))
-            } else {
-                Role::Subsidiary
-            };
-            let (owner, share) = match role {
-                Role::Parent => (None, Decimal::ONE),
-                Role::Associate => (Some(0), dec("0.30")),
-                _ => {
-                    let shares = ["1.00", "1.00", "1.00", "0.80", "0.75", "0.60", "0.90"];
-                    (Some((i - 1) / FAN_OUT), dec(shares[r.random_range(0..shares.len())]))
-                }
-            };
-            let valid_from = match role {
-                Role::AcquiredInYear(p) => p.first_day(),
-                _ => {
-                    NaiveDate::from_ymd_opt(r.random_range(2008..2024), r.random_range(1..13), 1).expect("a valid date")
-                }
-            };
-            let minor = currency.minor_unit();
-            let base = dec(rate);
-            // The rate at acquisition: within 15% of today's magnitude.
-            let drift = Decimal::new(r.random_range(85_000i64..115_000), 5);
-            let rate_historical = at_scale(base * drift, 6);
-            let capital = at_scale(Decimal::new(draw_cents(&mut r, 8, 10), 2) * base, minor);
-            let premium = at_scale(Decimal::new(draw_cents(&mut r, 7, 9), 2) * base, minor);
-            entities.push(EntityPlan {
-                id: format!("S{i:05}"),
-                currency,
-                country,
-                region,
-                business,
-                role,
-                owner,
-                share,
-                valid_from,
-                chart_style: r.random_range(0..3u8),
-                capital,
-                premium,
-                rate_historical,
-            });
-        }
-        // Rates: a random walk per currency from its invented magnitude.
-        let mut rates = BTreeMap::new();
-        for (code, base, _, _) in CURRENCIES.iter().skip(1) {
-            let c = Currency::parse(code).expect("an ISO 4217 code");
-            let mut closing = dec(base);
-            let mut list = Vec::new();
-            for m in 0..=months {
-                let period = fiscal_start.plus_months(m as i32 - 1);
-                let before = closing;
-                let step = Decimal::new(r.random_range(-200i64..=200), 4);
-                closing = at_scale(before * (Decimal::ONE + step), 6);
-                let average = at_scale((before + closing) / Decimal::TWO, 6);
-                list.push(MonthRate { period, closing, average });
-            }
-            rates.insert(c, list);
-        }
-        // Intercompany pairs: each consolidated entity sells to its holder, and most to
-        // one other entity, preferably one sharing its currency.
-        let trades = |e: &EntityPlan| matches!(e.role, Role::Parent | Role::Subsidiary);
-        let mut by_currency: BTreeMap<Currency, Vec<usize>> = BTreeMap::new();
-        let mut pairs = Vec::new();
-        for i in 0..n {
-            let e = &entities[i];
-            if !trades(e) {
-                continue;
-            }
-            let mut partners = Vec::new();
-            if let Some(o) = e.owner {
-                partners.push(o);
-            }
-            if i > 1 && r.random_range(0..100) < 85 {
-                let same = by_currency.get(&e.currency).filter(|v| !v.is_empty());
-                let j = match same {
-                    Some(v) if r.random_range(0..100) < 80 => v[r.random_range(0..v.len())],
-                    _ => r.random_range(0..i),
-                };
-                if trades(&entities[j]) && !partners.contains(&j) {
-                    partners.push(j);
-                }
-            }
-            for j in partners {
-                let difference = if entities[j].currency != e.currency {
-                    PairDifference::Fx
-                } else {
-                    let mut pick = r.random_range(0..100u32);
-                    let mut d = PairDifference::Matched;
-                    for (kind, share) in SAME_CURRENCY_SHARES {
-                        if pick < share {
-                            d = kind;
-                            break;
-                        }
-                        pick -= share;
-                    }
-                    d
-                };
-                let loan = Some(j) == e.owner && i % 3 == 0;
-                // The holder lends: the seller of a loan pair is the holder.
-                let (seller, buyer) = if loan { (j, i) } else { (i, j) };
-                pairs.push(PairPlan { seller, buyer, difference, loan });
-            }
-            by_currency.entry(e.currency).or_default().push(i);
-        }
+        let entities = draw_entities(&mut r, n, months, fiscal_start);
+        let rates = draw_rates(&mut r, months, fiscal_start);
+        let pairs = draw_pairs(&mut r, &entities);
         let mut pairs_of = vec![Vec::new(); n];
         for (k, p) in pairs.iter().enumerate() {
             pairs_of[p.seller].push(k);
@@ -688,15 +704,21 @@ impl Plan {
         PairMonth { invoices, settled, loan, small, open_share }
     }
 
-    /// Draws one entity's delivery.
-    pub fn entity(&self, i: usize) -> EntityDelivery {
-        let e = &self.entities[i];
-        let mut r = stream(self.options.seed, ENTITY_STREAM + i as u64);
-        let c = e.currency;
-        let minor = c.minor_unit();
-        let periods = self.periods();
-        let opening_period = self.fiscal_start().prev();
-        // Accounts: the roles it needs, then generic ones from each pool by weight.
+    /// The subsidiaries and the associates entity `i` holds.
+    fn held_by(&self, i: usize) -> (Vec<usize>, Vec<usize>) {
+        let of = |associate: bool| -> Vec<usize> {
+            self.children_of[i]
+                .iter()
+                .copied()
+                .filter(|j| (self.entities[*j].role == Role::Associate) == associate)
+                .collect()
+        };
+        (of(false), of(true))
+    }
+
+    /// Entity `i`'s group accounts: the roles it needs (its pairs', its investments'),
+    /// then generic ones from each pool by weight, drawn from its stream.
+    fn draw_accounts(&self, i: usize, r: &mut ChaCha8Rng) -> (Vec<u32>, Vec<u32>) {
         let mut own: Vec<u32> = vec![CASH, SHARE_CAPITAL, SHARE_PREMIUM, RETAINED_EARNINGS];
         let pairs = &self.pairs_of[i];
         let mut ic_accounts = Vec::new();
@@ -716,10 +738,7 @@ impl Plan {
                 });
             }
         }
-        let children: Vec<usize> =
-            self.children_of[i].iter().copied().filter(|j| self.entities[*j].role != Role::Associate).collect();
-        let associates: Vec<usize> =
-            self.children_of[i].iter().copied().filter(|j| self.entities[*j].role == Role::Associate).collect();
+        let (children, associates) = self.held_by(i);
         if !children.is_empty() {
             ic_accounts.push(INVESTMENTS);
         }
@@ -745,6 +764,20 @@ impl Plan {
         }
         generic.sort_unstable();
         generic.dedup();
+        (own, generic)
+    }
+
+    /// Draws one entity's delivery.
+    pub fn entity(&self, i: usize) -> EntityDelivery {
+        let e = &self.entities[i];
+        let mut r = stream(self.options.seed, ENTITY_STREAM + i as u64);
+        let c = e.currency;
+        let minor = c.minor_unit();
+        let periods = self.periods();
+        let opening_period = self.fiscal_start().prev();
+        let pairs = &self.pairs_of[i];
+        let (children, associates) = self.held_by(i);
+        let (own, generic) = self.draw_accounts(i, &mut r);
         // The local chart: one local account per group account, two for cash.
         let local_of = |g: u32, variant: u32| local_account(e.chart_style, g, variant);
         let mut mapping = Vec::new();

@@ -960,35 +960,21 @@ struct Slot {
     counterparty_side: Option<Side>,
 }
 
-/// Matches the intercompany positions of `scope.period` between the entities whose
-/// figures `deliveries` uses.
-pub fn match_intercompany(
-    ds: &Dataset,
-    translated: &Translated,
-    scope: Scope,
-    deliveries: &Deliveries,
-    options: &Options,
-) -> PolarsResult<Matching> {
-    let _span = tracing::info_span!("match_intercompany", period = %scope.period).entered();
-    let minor = translated.minor;
-    let sided = sidedness(ds);
-    let sides = side_frame(ds, translated, scope)?;
-    let derived_kinds: Vec<(String, &'static str, bool)> = sided
-        .iter()
-        .filter_map(|((k, _), s)| match s {
-            Sidedness::Derived { class, credits } => Some((k.clone(), *class, *credits)),
-            _ => None,
-        })
-        .collect();
-    let declared = declared_frame(ds, translated, scope, &derived_kinds)?;
-    let derived = derived_sides(ds, &declared, scope.period, minor)?;
-
-    // Pairs from the side aggregates (a Rust loop over aggregates, not lines).
-    let ent = crate::money::column_strings(&sides, "entity")?;
-    let cp = crate::money::column_strings(&sides, "counterparty")?;
-    let kind = crate::money::column_strings(&sides, "ic_kind")?;
-    let measure = crate::money::column_strings(&sides, "measure")?;
-    let columns = SideColumns::read(&sides)?;
+/// Slots of pairs by (entity, counterparty, kind, measure) and the kinds that are not
+/// matched, from the side aggregates (a Rust loop over aggregates, not lines); a
+/// derived side (`derived`, by payer, receiver and kind) is the receiver's counterparty
+/// side of the year to date.
+#[allow(clippy::type_complexity)]
+fn slots_of(
+    sides: &DataFrame,
+    sided: &BTreeMap<(String, Measure), Sidedness>,
+    derived: BTreeMap<(String, String, String), Side>,
+) -> PolarsResult<(BTreeMap<(String, String, String, Measure), Slot>, BTreeMap<(String, Measure), NotMatched>)> {
+    let ent = crate::money::column_strings(sides, "entity")?;
+    let cp = crate::money::column_strings(sides, "counterparty")?;
+    let kind = crate::money::column_strings(sides, "ic_kind")?;
+    let measure = crate::money::column_strings(sides, "measure")?;
+    let columns = SideColumns::read(sides)?;
     let mut slots: BTreeMap<(String, String, String, Measure), Slot> = BTreeMap::new();
     let mut not_matched: BTreeMap<(String, Measure), NotMatched> = BTreeMap::new();
     for i in 0..sides.height() {
@@ -1026,11 +1012,121 @@ pub fn match_intercompany(
     for ((payer, receiver, k), side) in derived {
         slots.entry((receiver, payer, k, Measure::YearToDate)).or_default().counterparty_side = Some(side);
     }
+    Ok((slots, not_matched))
+}
+
+/// The reason of a documented pair's difference: timing when the unpaired documents
+/// inside the window, in the currency compared (`cmp`), make up the difference `diff`
+/// exactly; with the documents as evidence.
+fn documented_reason(
+    docs: &BTreeMap<DocKey, Vec<Doc>>,
+    (e, c, k): (&str, &str, &str),
+    end: NaiveDate,
+    window: i64,
+    cmp: Currency,
+    diff: Decimal,
+) -> (Evidence, Reason) {
+    let no_docs: Vec<Doc> = Vec::new();
+    let de = docs.get(&(e.to_string(), c.to_string(), k.to_string())).unwrap_or(&no_docs);
+    let dc = docs.get(&(c.to_string(), e.to_string(), k.to_string())).unwrap_or(&no_docs);
+    let dp = pair_documents(de, dc, window);
+    let mut unpaired: Vec<DocumentRef> = dp.unpaired_entity.iter().map(|i| doc_ref(e, &de[*i], end, window)).collect();
+    unpaired.extend(dp.unpaired_counterparty.iter().map(|j| doc_ref(c, &dc[*j], end, window)));
+    let in_window: Decimal =
+        unpaired.iter().filter(|d| d.in_window && d.currency == cmp.code()).map(|d| d.amount).sum();
+    let differing = dp
+        .differing
+        .iter()
+        .map(|(i, j)| (doc_ref(e, &de[*i], end, window), doc_ref(c, &dc[*j], end, window)))
+        .collect();
+    let evidence = Evidence::Documents { unpaired, differing, greedy: dp.greedy };
+    let reason = if !in_window.is_zero() && in_window == diff { Reason::Timing } else { Reason::Unexplained };
+    (evidence, reason)
+}
+
+/// The largest differences first, then by entity, counterparty, kind and measure.
+fn sort_by_materiality(pairs: &mut [Pair]) {
+    pairs.sort_by(|x, y| {
+        y.materiality.cmp(&x.materiality).then_with(|| {
+            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
+        })
+    });
+}
+
+/// A pair whose counterparty's figures are not used this period: it awaits them.
+fn awaiting(eid: EntityId, cid: EntityId, k: String, m: Measure, se: Option<Side>, deliveries: &Deliveries) -> Pair {
+    let absence = deliveries.set_aside.get(&cid).cloned().unwrap_or(Absence::NoFolder);
+    let materiality = se.as_ref().map(|s| s.amount.abs()).unwrap_or_default();
+    Pair {
+        entity: eid,
+        counterparty: cid.clone(),
+        kind: k,
+        measure: m,
+        entity_side: se,
+        counterparty_side: None,
+        txn_currency: None,
+        difference_txn: None,
+        difference: None,
+        status: Status::Awaiting,
+        reason: Some(Reason::NotDelivered),
+        evidence: Evidence::Awaiting { entity: cid, absence },
+        materiality,
+    }
+}
+
+/// The transaction currency a pair is compared in: the one both sides share, or the
+/// only side's.
+fn shared_currency(se: Option<&Side>, sc: Option<&Side>) -> Option<Currency> {
+    match (se.map(|s| s.currency), sc.map(|s| s.currency)) {
+        (Some(Some(x)), Some(Some(y))) if x == y => Some(x),
+        (Some(Some(x)), None) | (None, Some(Some(x))) => Some(x),
+        _ => None,
+    }
+}
+
+impl Side {
+    /// A side with nothing on it, for a pair where one side has no line.
+    fn zero() -> Side {
+        Side {
+            currency: None,
+            amount_txn: Decimal::ZERO,
+            movement_txn: Decimal::ZERO,
+            amount: Decimal::ZERO,
+            movement: Decimal::ZERO,
+            lines: 0,
+            derived: false,
+        }
+    }
+}
+
+/// Matches the intercompany positions of `scope.period` between the entities whose
+/// figures `deliveries` uses.
+pub fn match_intercompany(
+    ds: &Dataset,
+    translated: &Translated,
+    scope: Scope,
+    deliveries: &Deliveries,
+    options: &Options,
+) -> PolarsResult<Matching> {
+    let _span = tracing::info_span!("match_intercompany", period = %scope.period).entered();
+    let minor = translated.minor;
+    let sided = sidedness(ds);
+    let sides = side_frame(ds, translated, scope)?;
+    let derived_kinds: Vec<(String, &'static str, bool)> = sided
+        .iter()
+        .filter_map(|((k, _), s)| match s {
+            Sidedness::Derived { class, credits } => Some((k.clone(), *class, *credits)),
+            _ => None,
+        })
+        .collect();
+    let declared = declared_frame(ds, translated, scope, &derived_kinds)?;
+    let derived = derived_sides(ds, &declared, scope.period, minor)?;
+
+    let (slots, not_matched) = slots_of(&sides, &sided, derived)?;
 
     let end = scope.period.last_day();
     let window = i64::from(options.timing_window_days);
     let docs = documents_until(ds, deliveries, end)?;
-    let no_docs: Vec<Doc> = Vec::new();
     let mut pairs = Vec::new();
     for ((a, b, k, m), slot) in slots {
         let (mut e, mut c, mut se, mut sc) = (a, b, slot.entity_side, slot.counterparty_side);
@@ -1042,39 +1138,11 @@ pub fn match_intercompany(
         let eid = EntityId::new(&e);
         let cid = EntityId::new(&c);
         if !deliveries.is_used(&c) {
-            let absence = deliveries.set_aside.get(&cid).cloned().unwrap_or(Absence::NoFolder);
-            let materiality = se.as_ref().map(|s| s.amount.abs()).unwrap_or_default();
-            pairs.push(Pair {
-                entity: eid,
-                counterparty: cid.clone(),
-                kind: k,
-                measure: m,
-                entity_side: se,
-                counterparty_side: None,
-                txn_currency: None,
-                difference_txn: None,
-                difference: None,
-                status: Status::Awaiting,
-                reason: Some(Reason::NotDelivered),
-                evidence: Evidence::Awaiting { entity: cid, absence },
-                materiality,
-            });
+            pairs.push(awaiting(eid, cid, k, m, se, deliveries));
             continue;
         }
-        let txn_currency = match (se.as_ref().map(|s| s.currency), sc.as_ref().map(|s| s.currency)) {
-            (Some(Some(x)), Some(Some(y))) if x == y => Some(x),
-            (Some(Some(x)), None) | (None, Some(Some(x))) => Some(x),
-            _ => None,
-        };
-        let zero = Side {
-            currency: None,
-            amount_txn: Decimal::ZERO,
-            movement_txn: Decimal::ZERO,
-            amount: Decimal::ZERO,
-            movement: Decimal::ZERO,
-            lines: 0,
-            derived: false,
-        };
+        let txn_currency = shared_currency(se.as_ref(), sc.as_ref());
+        let zero = Side::zero();
         let (ve, vc) = (se.as_ref().unwrap_or(&zero), sc.as_ref().unwrap_or(&zero));
         let difference = ve.amount + vc.amount;
         let difference_txn = txn_currency.map(|_| ve.amount_txn + vc.amount_txn);
@@ -1096,21 +1164,9 @@ pub fn match_intercompany(
                 let documented = document_measure(&sided, &k) == m
                     && (ds.documented_entities.contains(&eid) || ds.documented_entities.contains(&cid));
                 if documented {
-                    let de = docs.get(&(e.clone(), c.clone(), k.clone())).unwrap_or(&no_docs);
-                    let dc = docs.get(&(c.clone(), e.clone(), k.clone())).unwrap_or(&no_docs);
-                    let dp = pair_documents(de, dc, window);
-                    let mut unpaired: Vec<DocumentRef> =
-                        dp.unpaired_entity.iter().map(|i| doc_ref(&e, &de[*i], end, window)).collect();
-                    unpaired.extend(dp.unpaired_counterparty.iter().map(|j| doc_ref(&c, &dc[*j], end, window)));
-                    let in_window: Decimal =
-                        unpaired.iter().filter(|d| d.in_window && d.currency == cmp.code()).map(|d| d.amount).sum();
-                    let differing = dp
-                        .differing
-                        .iter()
-                        .map(|(i, j)| (doc_ref(&e, &de[*i], end, window), doc_ref(&c, &dc[*j], end, window)))
-                        .collect();
-                    evidence = Evidence::Documents { unpaired, differing, greedy: dp.greedy };
-                    if !in_window.is_zero() && in_window == diff { Reason::Timing } else { Reason::Unexplained }
+                    let (found, reason) = documented_reason(&docs, (&e, &c, &k), end, window, cmp, diff);
+                    evidence = found;
+                    reason
                 } else if !diff.is_zero() && ((me == diff && mc.is_zero()) || (mc == diff && me.is_zero())) {
                     evidence = Evidence::Movement { entity: if me == diff { eid.clone() } else { cid.clone() } };
                     Reason::Timing
@@ -1143,11 +1199,7 @@ pub fn match_intercompany(
             materiality: difference.abs(),
         });
     }
-    pairs.sort_by(|x, y| {
-        y.materiality.cmp(&x.materiality).then_with(|| {
-            (&x.entity, &x.counterparty, &x.kind, x.measure).cmp(&(&y.entity, &y.counterparty, &y.kind, y.measure))
-        })
-    });
+    sort_by_materiality(&mut pairs);
     let not_matched: Vec<NotMatched> = not_matched.into_values().collect();
     let proof = prove(ds, translated, scope, &pairs, &not_matched)?;
     if let Some(only) = &options.only {

@@ -3,6 +3,8 @@
 //! matched and eliminated, and rolled up into group, sub-group and segment statements
 //! that prove their own tie-out. `docs/architecture.md` is the map of this crate.
 
+#![warn(clippy::too_many_lines)]
+
 pub mod bench;
 pub mod cash_flows;
 pub mod cli;
@@ -24,6 +26,7 @@ pub mod report;
 pub mod segments;
 pub mod stages;
 pub mod structure;
+pub mod trace;
 pub mod translate;
 pub mod validate;
 

@@ -23,7 +23,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 use serde::Serialize;
 
-use crate::close::{Close, Entry};
+use crate::close::{Close, EliminationRule, Entry};
 use crate::findings::{Finding, Rule, Severity};
 use crate::layout::{LineBody, Presentation, ResolvedStatement, matches};
 use crate::model::*;
@@ -398,10 +398,10 @@ fn add(m: &mut BTreeMap<Column, Amounts>, c: Column, a: &GroupAccount, v: Decima
 
 /// Entries of these rules belong to no segment: the investment and goodwill entry and
 /// the NCI entry are the group's, not any segment's (IFRS 8.28 unallocated items).
-fn unallocated_rule(rule: &str) -> Option<&'static str> {
+fn unallocated_rule(rule: EliminationRule) -> Option<&'static str> {
     match rule {
-        "investment_and_goodwill" => Some("consolidation:investment_and_goodwill"),
-        "non_controlling_interest" => Some("consolidation:non_controlling_interest"),
+        EliminationRule::InvestmentAndGoodwill => Some("consolidation:investment_and_goodwill"),
+        EliminationRule::NonControllingInterest => Some("consolidation:non_controlling_interest"),
         _ => None,
     }
 }
@@ -411,7 +411,7 @@ fn entry_column(e: &Entry, m: &Membership) -> Option<Column> {
     if let Some(id) = unallocated_rule(e.rule) {
         return Some(Column::Unallocated(id.into()));
     }
-    if e.rule == "equity_method" {
+    if e.rule == EliminationRule::EquityMethod {
         // The share of an investee's result is the segment's where the investee has a
         // segment, else the holder's (IFRS 8.23(g)).
         let holder = e.entities.first();
@@ -459,28 +459,23 @@ impl Attribution {
     /// balances as at the period end.
     pub fn view(&self, base: Option<&Attribution>, is_flow: &dyn Fn(&GroupAccount) -> bool) -> Attribution {
         let Some(base) = base else { return self.clone() };
-        let sub = |a: &BTreeMap<Column, Amounts>, b: &BTreeMap<Column, Amounts>| {
+        // The subtraction of `close::view`, column by column.
+        fn sub<K: Ord + Clone>(
+            a: &BTreeMap<K, Amounts>,
+            b: &BTreeMap<K, Amounts>,
+            is_flow: &dyn Fn(&GroupAccount) -> bool,
+        ) -> BTreeMap<K, Amounts> {
             let mut out = a.clone();
             for (c, m) in b {
-                for (acct, v) in m.iter().filter(|(acct, _)| is_flow(acct)) {
-                    *out.entry(c.clone()).or_default().entry(acct.clone()).or_default() -= *v;
-                }
+                let slot = out.entry(c.clone()).or_default();
+                *slot = crate::close::view::flows_of_view(slot, Some(m), is_flow);
             }
             out
-        };
-        let subc = |a: &BTreeMap<String, Amounts>, b: &BTreeMap<String, Amounts>| {
-            let mut out = a.clone();
-            for (c, m) in b {
-                for (acct, v) in m.iter().filter(|(acct, _)| is_flow(acct)) {
-                    *out.entry(c.clone()).or_default().entry(acct.clone()).or_default() -= *v;
-                }
-            }
-            out
-        };
+        }
         Attribution {
-            columns: sub(&self.columns, &base.columns),
-            inter_segment: sub(&self.inter_segment, &base.inter_segment),
-            countries: subc(&self.countries, &base.countries),
+            columns: sub(&self.columns, &base.columns, is_flow),
+            inter_segment: sub(&self.inter_segment, &base.inter_segment, is_flow),
+            countries: sub(&self.countries, &base.countries, is_flow),
         }
     }
 }
@@ -669,6 +664,24 @@ pub fn report(
     period: Period,
 ) -> SegmentReport {
     let _span = tracing::info_span!("segments", key = %m.key, period = %period).entered();
+    let (lines, segments, reconciliation, group_f) = reconcile(measures, m, attr, group);
+    let thresholds = thresholds(measures, &segments, &group_f);
+    let mut findings = threshold_findings(&thresholds, &m.key, period);
+    let entity_wide = entity_wide(measures, attr, group, chart, home, materiality);
+    let checks = prove(&reconciliation, attr, group, &entity_wide, &m.key);
+    findings.sort_by(|a, b| a.message.cmp(&b.message));
+    SegmentReport { key: m.key.clone(), lines, segments, reconciliation, thresholds, entity_wide, checks, findings }
+}
+
+/// The reconciliation lines (IFRS 8.28): per measure, the reportable segments' total,
+/// each reconciling item and the group's amount; also the segments' own figures and the
+/// group's figures per line.
+fn reconcile(
+    measures: &[Measure],
+    m: &Membership,
+    attr: &Attribution,
+    group: &Amounts,
+) -> (Vec<LineDef>, Vec<SegmentFigures>, Vec<ReconciliationLine>, BTreeMap<String, Decimal>) {
     let mut lines = Vec::new();
     for me in measures {
         if me.kind == MeasureKind::Revenue {
@@ -724,8 +737,11 @@ pub fn report(
             group: group_f.get(&l.line).copied().unwrap_or_default(),
         })
         .collect();
+    (lines, segments, reconciliation, group_f)
+}
 
-    // IFRS 8.13 and 8.15 over every operating segment, reported separately or not.
+/// IFRS 8.13 and 8.15 over every operating segment, reported separately or not.
+fn thresholds(measures: &[Measure], segments: &[SegmentFigures], group_f: &BTreeMap<String, Decimal>) -> Thresholds {
     let get = |s: &SegmentFigures, k: &str| s.values.get(k).copied().unwrap_or_default();
     let has_assets = measures.iter().any(|x| x.kind == MeasureKind::Assets);
     let combined_revenue: Decimal = segments.iter().map(|s| get(s, "revenue")).sum();
@@ -759,7 +775,7 @@ pub fn report(
     let external_revenue_group = group_f.get(EXTERNAL).copied().unwrap_or_default();
     let external_test = external_revenue_group <= Decimal::ZERO
         || external_revenue_reported * Decimal::from(4) >= external_revenue_group * Decimal::from(3);
-    let thresholds = Thresholds {
+    Thresholds {
         combined_revenue,
         revenue_threshold: share_threshold(combined_revenue),
         combined_profit,
@@ -771,10 +787,19 @@ pub fn report(
         external_revenue_reported,
         external_revenue_group,
         external_test,
-    };
-    let mut findings = threshold_findings(&thresholds, &m.key, period);
+    }
+}
 
-    // IFRS 8.33: external revenue and non-current assets by the entities' countries.
+/// IFRS 8.33: external revenue and non-current assets by the entities' countries, the
+/// home country first, each material country on its own, the rest together.
+fn entity_wide(
+    measures: &[Measure],
+    attr: &Attribution,
+    group: &Amounts,
+    chart: &[AccountDef],
+    home: &str,
+    materiality: Decimal,
+) -> EntityWide {
     let revenue = measures.iter().find(|x| x.kind == MeasureKind::Revenue);
     let non_current: BTreeSet<&GroupAccount> =
         chart.iter().filter(|a| a.non_current && a.statement == Statement::BalanceSheet).map(|a| &a.account).collect();
@@ -828,16 +853,13 @@ pub fn report(
     if !rest.countries.is_empty() {
         rows.push(rest);
     }
-    let entity_wide = EntityWide {
+    EntityWide {
         home_country: home.to_string(),
         materiality,
         revenue_external: total_rev,
         non_current_assets: total_nca,
         rows,
-    };
-    let checks = prove(&reconciliation, attr, group, &entity_wide, &m.key);
-    findings.sort_by(|a, b| a.message.cmp(&b.message));
-    SegmentReport { key: m.key.clone(), lines, segments, reconciliation, thresholds, entity_wide, checks, findings }
+    }
 }
 
 fn threshold_findings(t: &Thresholds, key: &str, period: Period) -> Vec<Finding> {
@@ -1075,7 +1097,7 @@ mod tests {
         }
     }
 
-    fn entry(rule: &'static str, entities: &[&str], lines: Vec<EntryLine>) -> Entry {
+    fn entry(rule: EliminationRule, entities: &[&str], lines: Vec<EntryLine>) -> Entry {
         Entry {
             id: "E1".into(),
             rule,
@@ -1179,7 +1201,7 @@ mod tests {
         let journal = vec![
             // Software sold 3,000 to electronics, electronics 1,500 to software.
             entry(
-                "intercompany",
+                EliminationRule::Intercompany,
                 &["EL", "SW"],
                 vec![
                     line("4100", "SW", "EL", 3000),
@@ -1189,12 +1211,16 @@ mod tests {
                 ],
             ),
             entry(
-                "unrealised_profit",
+                EliminationRule::UnrealisedProfit,
                 &["SW", "EL"],
                 vec![line("5000", "SW", "EL", 500), line("2000", "EL", "SW", -500)],
             ),
             // Finance's receivable from the head office.
-            entry("intercompany", &["FI", "HQ"], vec![line("1650", "FI", "HQ", -1000), line("2450", "HQ", "FI", 1000)]),
+            entry(
+                EliminationRule::Intercompany,
+                &["FI", "HQ"],
+                vec![line("1650", "FI", "HQ", -1000), line("2450", "HQ", "FI", 1000)],
+            ),
         ];
         let country = ents.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
         let attr = attribute(&contributions, &journal, &m, &country);
@@ -1262,7 +1288,7 @@ mod tests {
         let m = Membership::build("business", &ents, &[], &chart(), None, &mut f);
         let sale = |seller: &str, buyer: &str| {
             entry(
-                "intercompany",
+                EliminationRule::Intercompany,
                 &[seller, buyer],
                 vec![line("4100", seller, buyer, 100), line("5100", buyer, seller, -100)],
             )

@@ -48,6 +48,7 @@ use petgraph::graph::{DiGraph, NodeIndex};
 use petgraph::visit::{Dfs, EdgeRef};
 use rust_decimal::Decimal;
 
+use crate::findings::Rule;
 use crate::model::*;
 
 /// Most entities one structure is built for. Past it `build` computes nothing and returns
@@ -76,70 +77,11 @@ pub const MAX_CYCLE_ENTITIES: usize = 100;
 /// the decimal; an interest with at most this many places (e.g. 0.63) is not rounded.
 pub const INTEREST_DECIMALS: u32 = 10;
 
-/// The rule a structure finding breaks. Each finding names one.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
-pub enum StructureRule {
-    /// The parent named in the settings is not among the entities.
-    ParentUnknown,
-    /// An entity is listed more than once.
-    EntityDuplicated,
-    /// A holding names an owner or an owned entity that is not among the entities.
-    HoldingUnknownEntity,
-    /// A capital or voting share is outside 0 to 1.
-    HoldingShareOutOfRange,
-    /// A holding's owner and owned entity are the same (its own treasury shares).
-    HoldingOfItself,
-    /// A holding ends before it starts, so it is never valid.
-    HoldingPeriodInverted,
-    /// The capital (or voting) shares held in one entity add up to more than 1.
-    EntityOverHeld,
-    /// Shares of the parent are held by an entity of the structure (treasury shares,
-    /// IAS 32.33). This states the policy applied; it is not an error in itself.
-    ParentHeld,
-    /// The effective interests have no unique solution in [0, 1].
-    StructureUnsolvable,
-    /// Overrides on the same entity disagree, or an override targets the parent.
-    OverrideConflict,
-    /// An override to `full` comes only from holdings by entities outside the group.
-    OverrideOutsideGroup,
-    /// Holdings declare both a joint operation and a joint venture in one entity, or a
-    /// joint arrangement in an entity the group controls.
-    ArrangementConflict,
-    /// A limit of this module is exceeded (see the `MAX_*` constants).
-    LimitExceeded,
-}
-
-impl StructureRule {
-    pub fn as_str(&self) -> &'static str {
-        match self {
-            StructureRule::ParentUnknown => "ParentUnknown",
-            StructureRule::EntityDuplicated => "EntityDuplicated",
-            StructureRule::HoldingUnknownEntity => "HoldingUnknownEntity",
-            StructureRule::HoldingShareOutOfRange => "HoldingShareOutOfRange",
-            StructureRule::HoldingOfItself => "HoldingOfItself",
-            StructureRule::HoldingPeriodInverted => "HoldingPeriodInverted",
-            StructureRule::EntityOverHeld => "EntityOverHeld",
-            StructureRule::ParentHeld => "ParentHeld",
-            StructureRule::StructureUnsolvable => "StructureUnsolvable",
-            StructureRule::OverrideConflict => "OverrideConflict",
-            StructureRule::OverrideOutsideGroup => "OverrideOutsideGroup",
-            StructureRule::ArrangementConflict => "ArrangementConflict",
-            StructureRule::LimitExceeded => "LimitExceeded",
-        }
-    }
-}
-
-impl fmt::Display for StructureRule {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.as_str())
-    }
-}
-
 /// A problem in the structure data (or a policy the module applied), with the arithmetic
 /// behind it and what to do about it.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct StructureFinding {
-    pub rule: StructureRule,
+    pub rule: Rule,
     pub entity: Option<EntityId>,
     pub message: String,
     pub action: String,
@@ -449,23 +391,7 @@ pub fn build(
     let controlled_from = control_dates(n, p, &links, &round, &dates);
 
     check_parent_held(&ids, p, &links, &into[p], &round, &mut findings);
-    for &l in &into[p] {
-        if let Some((method, _)) = &links[l].holding.method_override {
-            findings.push(StructureFinding {
-                rule: StructureRule::OverrideConflict,
-                entity: Some(ids[p].clone()),
-                message: format!(
-                    "the holding of the parent {} by {} sets method {}, but the parent is \
-                     always consolidated in full",
-                    ids[p],
-                    ids[links[l].owner],
-                    method.as_str()
-                ),
-                action: "remove the override; it is not applied".to_string(),
-                source: Some(links[l].holding.source.clone()),
-            });
-        }
-    }
+    check_parent_overrides(&ids, p, &links, &into[p], &mut findings);
 
     let exact = solve_interests(&ids, p, &links, &valid, &mut findings);
 
@@ -486,22 +412,7 @@ pub fn build(
         } else {
             Decimal::ZERO
         };
-        let mut direct_holders: Vec<DirectHolder> = into[j]
-            .iter()
-            .map(|&l| {
-                let h = links[l].holding;
-                DirectHolder {
-                    owner: ids[links[l].owner].clone(),
-                    capital_share: h.capital_share,
-                    voting_share: h.voting_share,
-                    arrangement: h.arrangement,
-                    valid_from: h.valid_from,
-                    valid_to: h.valid_to,
-                    source: h.source.clone(),
-                }
-            })
-            .collect();
-        direct_holders.sort_by(|a, b| (&a.owner, a.valid_from, &a.source).cmp(&(&b.owner, b.valid_from, &b.source)));
+        let direct_holders = direct_holders(&ids, &links, &into[j]);
         rows.push(EntityStructure {
             id: ids[j].clone(),
             direct_holders,
@@ -520,6 +431,56 @@ pub fn build(
     }
 
     (arrange(parent, as_of, p, rows, &parent_of), findings)
+}
+
+/// An override on a holding of the parent is never applied: the parent is always
+/// consolidated in full.
+fn check_parent_overrides(
+    ids: &[EntityId],
+    p: usize,
+    links: &[Link],
+    into_parent: &[usize],
+    findings: &mut Vec<StructureFinding>,
+) {
+    for &l in into_parent {
+        if let Some((method, _)) = &links[l].holding.method_override {
+            findings.push(StructureFinding {
+                rule: Rule::OverrideConflict,
+                entity: Some(ids[p].clone()),
+                message: format!(
+                    "the holding of the parent {} by {} sets method {}, but the parent is \
+                     always consolidated in full",
+                    ids[p],
+                    ids[links[l].owner],
+                    method.as_str()
+                ),
+                action: "remove the override; it is not applied".to_string(),
+                source: Some(links[l].holding.source.clone()),
+            });
+        }
+    }
+}
+
+/// Every holding in entity `j` valid on the date (`into_j`), ordered by owner, then
+/// start date, then source.
+fn direct_holders(ids: &[EntityId], links: &[Link], into_j: &[usize]) -> Vec<DirectHolder> {
+    let mut direct_holders: Vec<DirectHolder> = into_j
+        .iter()
+        .map(|&l| {
+            let h = links[l].holding;
+            DirectHolder {
+                owner: ids[links[l].owner].clone(),
+                capital_share: h.capital_share,
+                voting_share: h.voting_share,
+                arrangement: h.arrangement,
+                valid_from: h.valid_from,
+                valid_to: h.valid_to,
+                source: h.source.clone(),
+            }
+        })
+        .collect();
+    direct_holders.sort_by(|a, b| (&a.owner, a.valid_from, &a.source).cmp(&(&b.owner, b.valid_from, &b.source)));
+    direct_holders
 }
 
 /// Positions for the entities, the parent's included (added when missing, so that every
@@ -542,7 +503,7 @@ fn index_entities(
     }
     for (e, times) in repeats {
         findings.push(StructureFinding {
-            rule: StructureRule::EntityDuplicated,
+            rule: Rule::EntityDuplicated,
             entity: Some(e.clone()),
             message: format!("{e} is listed {times} times among the entities"),
             action: "list each entity once; the repeats are ignored".to_string(),
@@ -553,7 +514,7 @@ fn index_entities(
         Some(&p) => p,
         None => {
             findings.push(StructureFinding {
-                rule: StructureRule::ParentUnknown,
+                rule: Rule::ParentUnknown,
                 entity: Some(parent.clone()),
                 message: format!("the parent {parent} is not among the entities"),
                 action: format!(
@@ -596,7 +557,7 @@ fn check_holdings<'a>(
                     .map(|(_, id)| id.as_str())
                     .collect();
                 findings.push(found(
-                    StructureRule::HoldingUnknownEntity,
+                    Rule::HoldingUnknownEntity,
                     format!(
                         "holding of {} in {} names {}, not among the entities",
                         h.owner,
@@ -612,7 +573,7 @@ fn check_holdings<'a>(
         };
         if owner == owned {
             findings.push(found(
-                StructureRule::HoldingOfItself,
+                Rule::HoldingOfItself,
                 format!(
                     "{} holds {} of its own capital: these are its treasury shares (IAS 32.33), \
                      not a holding",
@@ -627,7 +588,7 @@ fn check_holdings<'a>(
         let unit = Decimal::ZERO..=Decimal::ONE;
         if !unit.contains(&h.capital_share) || !unit.contains(&h.voting_share) {
             findings.push(found(
-                StructureRule::HoldingShareOutOfRange,
+                Rule::HoldingShareOutOfRange,
                 format!(
                     "holding of {} in {} has capital share {} and voting share {}; both must \
                      be between 0 and 1",
@@ -641,7 +602,7 @@ fn check_holdings<'a>(
             && to < h.valid_from
         {
             findings.push(found(
-                StructureRule::HoldingPeriodInverted,
+                Rule::HoldingPeriodInverted,
                 format!(
                     "holding of {} in {} is valid from {} to {}, which is never",
                     h.owner, h.owned, h.valid_from, to
@@ -695,7 +656,7 @@ fn check_over_held(
                 let terms: Vec<String> =
                     ls.iter().map(|&l| format!("{} ({})", share(links[l].holding), ids[links[l].owner])).collect();
                 findings.push(StructureFinding {
-                    rule: StructureRule::EntityOverHeld,
+                    rule: Rule::EntityOverHeld,
                     entity: Some(ids[j].clone()),
                     message: format!(
                         "holders' {what} shares of {} on {as_of} sum to {} = {total}, above 1",
@@ -751,7 +712,7 @@ fn check_parent_held(
             )
         };
         findings.push(StructureFinding {
-            rule: StructureRule::ParentHeld,
+            rule: Rule::ParentHeld,
             entity: Some(ids[p].clone()),
             message,
             action,
@@ -926,7 +887,7 @@ fn solve_interests(
     // (members, rule, message, action) for each block that could not be solved or owns
     // itself; turned into findings at the end, when the entities held through them are
     // known.
-    let mut failed: Vec<(Vec<usize>, StructureRule, String, String)> = Vec::new();
+    let mut failed: Vec<Failure> = Vec::new();
 
     // kosaraju_scc lists components in reverse topological order: owners come last.
     for component in kosaraju_scc(&graph).iter().rev() {
@@ -935,7 +896,6 @@ fn solve_interests(
         for (i, &j) in members.iter().enumerate() {
             pos[j] = i;
         }
-        let m = members.len();
         let outcome = solve_block(&graph, &members, &pos, p, &capital, &x, &done, ids);
         for &j in &members {
             pos[j] = usize::MAX;
@@ -956,7 +916,7 @@ fn solve_interests(
                 } else {
                     failed.push((
                         members,
-                        StructureRule::StructureUnsolvable,
+                        Rule::StructureUnsolvable,
                         format!(
                             "effective interest of {}, outside 0 to 1: the paths from the \
                              parent add up to more than the whole capital",
@@ -967,29 +927,13 @@ fn solve_interests(
                 }
             }
             BlockOutcome::Blocked => {}
-            BlockOutcome::TooLarge => {
-                let names: Vec<&str> = members.iter().take(10).map(|&j| ids[j].as_str()).collect();
-                failed.push((
-                    members,
-                    StructureRule::LimitExceeded,
-                    format!(
-                        "a cycle of cross holdings joins {m} entities ({}{}), above the limit \
-                         of {MAX_CYCLE_ENTITIES} solved exactly",
-                        names.join(", "),
-                        if m > 10 { ", ..." } else { "" }
-                    ),
-                    "check the holdings between these entities; if the cycle is real, raise \
-                     MAX_CYCLE_ENTITIES in structure.rs after checking the run time"
-                        .to_string(),
-                ));
-            }
             BlockOutcome::ClosedUnreached(within) => {
                 for &j in &members {
                     x[j] = Some(BigRational::zero());
                 }
                 failed.push((
                     members,
-                    StructureRule::StructureUnsolvable,
+                    Rule::StructureUnsolvable,
                     format!(
                         "a cycle of cross holdings owns all of its own capital ({}), so x = d + \
                          A x is singular over it; no capital from the parent's side reaches it, \
@@ -1002,31 +946,63 @@ fn solve_interests(
                         .to_string(),
                 ));
             }
-            BlockOutcome::Singular(within) => {
-                failed.push((
-                    members,
-                    StructureRule::StructureUnsolvable,
-                    format!(
-                        "the effective interests of a cycle of cross holdings have no unique \
-                         solution (x = d + A x is singular): the capital of each is held \
-                         within the cycle ({})",
-                        within.join(", ")
-                    ),
-                    "correct the capital shares between these entities: a cycle cannot own \
-                     all of its own capital, some must be held from outside it"
-                        .to_string(),
-                ));
-            }
+            BlockOutcome::TooLarge => failed.push(too_large(members, ids)),
+            BlockOutcome::Singular(within) => failed.push(singular(members, &within)),
         }
     }
 
+    findings.extend(failures_as_findings(&graph, failed, ids, &x, links));
+    x
+}
+
+/// A cycle of cross holdings above the limit solved exactly.
+fn too_large(members: Vec<usize>, ids: &[EntityId]) -> Failure {
+    let m = members.len();
+    let names: Vec<&str> = members.iter().take(10).map(|&j| ids[j].as_str()).collect();
+    let message = format!(
+        "a cycle of cross holdings joins {m} entities ({}{}), above the limit \
+         of {MAX_CYCLE_ENTITIES} solved exactly",
+        names.join(", "),
+        if m > 10 { ", ..." } else { "" }
+    );
+    let action = "check the holdings between these entities; if the cycle is real, raise \
+                  MAX_CYCLE_ENTITIES in structure.rs after checking the run time";
+    (members, Rule::LimitExceeded, message, action.to_string())
+}
+
+/// A cycle of cross holdings whose interests have no unique solution.
+fn singular(members: Vec<usize>, within: &[String]) -> Failure {
+    let message = format!(
+        "the effective interests of a cycle of cross holdings have no unique \
+         solution (x = d + A x is singular): the capital of each is held \
+         within the cycle ({})",
+        within.join(", ")
+    );
+    let action = "correct the capital shares between these entities: a cycle cannot own \
+                  all of its own capital, some must be held from outside it";
+    (members, Rule::StructureUnsolvable, message, action.to_string())
+}
+
+/// A block that could not be solved: its members, the rule, message and action.
+type Failure = (Vec<usize>, Rule, String, String);
+
+/// The findings of the blocks that could not be solved, each naming the entities held
+/// through the block, whose effective interest is unknown too.
+fn failures_as_findings(
+    graph: &DiGraph<(), usize>,
+    failed: Vec<Failure>,
+    ids: &[EntityId],
+    x: &[Option<BigRational>],
+    links: &[Link],
+) -> Vec<StructureFinding> {
+    let mut findings = Vec::new();
     for (members, rule, message, action) in failed {
-        let mut dfs = Dfs::new(&graph, NodeIndex::new(members[0]));
+        let mut dfs = Dfs::new(graph, NodeIndex::new(members[0]));
         for &j in &members[1..] {
             dfs.stack.push(NodeIndex::new(j));
         }
         let mut held_through = Vec::new();
-        while let Some(v) = dfs.next(&graph) {
+        while let Some(v) = dfs.next(graph) {
             let j = v.index();
             if members.binary_search(&j).is_err() && x[j].is_none() {
                 held_through.push(ids[j].as_str());
@@ -1052,7 +1028,7 @@ fn solve_interests(
                 .map(|e| links[*e.weight()].holding.source.clone()),
         });
     }
-    x
+    findings
 }
 
 enum BlockOutcome {
@@ -1304,7 +1280,7 @@ fn choose_method(
             )
             .collect();
         findings.push(StructureFinding {
-            rule: StructureRule::ArrangementConflict,
+            rule: Rule::ArrangementConflict,
             entity: Some(id.clone()),
             message: format!(
                 "{id} is controlled by the group ({} of votes) but {}: a joint \
@@ -1322,7 +1298,7 @@ fn choose_method(
         let jo: Vec<String> = facts.joint_operation.iter().map(|(k, _)| ids[*k].to_string()).collect();
         let jv: Vec<String> = facts.joint_venture.iter().map(|(k, _)| ids[*k].to_string()).collect();
         findings.push(StructureFinding {
-            rule: StructureRule::ArrangementConflict,
+            rule: Rule::ArrangementConflict,
             entity: Some(id.clone()),
             message: format!(
                 "holdings of {id} by the group declare both a joint operation ({}) and a joint \
@@ -1351,7 +1327,7 @@ fn choose_method(
                 })
                 .collect();
             findings.push(StructureFinding {
-                rule: StructureRule::OverrideConflict,
+                rule: Rule::OverrideConflict,
                 entity: Some(id.clone()),
                 message: format!("holdings of {id} set different methods: {}", said.join("; ")),
                 action: format!(
@@ -1371,7 +1347,7 @@ fn choose_method(
             if *method == Method::Full && !facts.controlled {
                 let owners: Vec<String> = ls.iter().map(|&l| ids[links[l].owner].to_string()).collect();
                 findings.push(StructureFinding {
-                    rule: StructureRule::OverrideOutsideGroup,
+                    rule: Rule::OverrideOutsideGroup,
                     entity: Some(id.clone()),
                     message: format!(
                         "override to full on {id} comes from the holding by {}, which the group \
@@ -1525,13 +1501,7 @@ fn arrange(
 }
 
 fn limit_finding(message: String, action: &str) -> StructureFinding {
-    StructureFinding {
-        rule: StructureRule::LimitExceeded,
-        entity: None,
-        message,
-        action: action.to_string(),
-        source: None,
-    }
+    StructureFinding { rule: Rule::LimitExceeded, entity: None, message, action: action.to_string(), source: None }
 }
 
 /// A decimal share as an exact rational.
@@ -1623,7 +1593,7 @@ mod tests {
         gs.entity(&id(name)).unwrap()
     }
 
-    fn rules(findings: &[StructureFinding]) -> Vec<StructureRule> {
+    fn rules(findings: &[StructureFinding]) -> Vec<Rule> {
         findings.iter().map(|f| f.rule).collect()
     }
 
@@ -1772,7 +1742,7 @@ mod tests {
         // IAS 32.33: shares of the parent held by other members of the consolidated group
         // are treasury shares; they neither give control nor change the group's interest.
         let (gs, findings) = run(&["P", "S"], &[hold("P", "S", "0.80"), hold("S", "P", "0.10")]);
-        assert_eq!(rules(&findings), vec![StructureRule::ParentHeld]);
+        assert_eq!(rules(&findings), vec![Rule::ParentHeld]);
         assert!(findings[0].message.contains("treasury shares"), "{}", findings[0].message);
         let p = get(&gs, "P");
         assert_eq!(p.effective_interest, Decimal::ONE);
@@ -1788,8 +1758,7 @@ mod tests {
     fn over_held_entity_is_reported_with_the_arithmetic() {
         let (gs, findings) =
             run(&["P", "A", "S"], &[hold("P", "A", "1.00"), hold("P", "S", "0.60"), hold("A", "S", "0.50")]);
-        let over: Vec<&StructureFinding> =
-            findings.iter().filter(|f| f.rule == StructureRule::EntityOverHeld).collect();
+        let over: Vec<&StructureFinding> = findings.iter().filter(|f| f.rule == Rule::EntityOverHeld).collect();
         assert_eq!(over.len(), 2, "{findings:?}");
         assert_eq!(
             over[0].message,
@@ -1798,7 +1767,7 @@ mod tests {
         assert!(over[1].message.starts_with("holders' voting shares"));
         // The paths from the parent then add up to 0.60 + 1.00 x 0.50 = 1.10 > 1.
         let unsolvable: Vec<&StructureFinding> =
-            findings.iter().filter(|f| f.rule == StructureRule::StructureUnsolvable).collect();
+            findings.iter().filter(|f| f.rule == Rule::StructureUnsolvable).collect();
         assert_eq!(unsolvable.len(), 1, "{findings:?}");
         assert!(unsolvable[0].message.contains("S solves to 1.1"), "{}", unsolvable[0].message);
         let s = get(&gs, "S");
@@ -1816,7 +1785,7 @@ mod tests {
             &["P", "S1", "S2", "S3"],
             &[hold("S1", "S2", "1.00"), hold("S2", "S1", "1.00"), hold("S2", "S3", "0.50"), hold("P", "S3", "0.50")],
         );
-        assert_eq!(rules(&findings), vec![StructureRule::StructureUnsolvable]);
+        assert_eq!(rules(&findings), vec![Rule::StructureUnsolvable]);
         let f = &findings[0];
         assert!(f.message.contains("singular"), "{}", f.message);
         assert!(f.message.contains("S1: 1 (S2) = 1, S2: 1 (S1) = 1"), "{}", f.message);
@@ -1834,10 +1803,7 @@ mod tests {
             &["P", "S1", "S2", "S3"],
             &[hold("P", "S1", "0.50"), hold("S1", "S2", "1.00"), hold("S2", "S1", "1.00"), hold("S2", "S3", "0.50")],
         );
-        assert_eq!(
-            rules(&findings),
-            vec![StructureRule::EntityOverHeld, StructureRule::EntityOverHeld, StructureRule::StructureUnsolvable]
-        );
+        assert_eq!(rules(&findings), vec![Rule::EntityOverHeld, Rule::EntityOverHeld, Rule::StructureUnsolvable]);
         let f = &findings[2];
         assert!(f.message.contains("no unique solution"), "{}", f.message);
         assert!(f.message.contains("unknown too: S3"), "{}", f.message);
@@ -1858,7 +1824,7 @@ mod tests {
         let mut all: Vec<&str> = vec!["P"];
         all.extend(names.iter().map(String::as_str));
         let (gs, findings) = run(&all, &holdings);
-        assert_eq!(rules(&findings), vec![StructureRule::LimitExceeded]);
+        assert_eq!(rules(&findings), vec![Rule::LimitExceeded]);
         assert!(findings[0].message.contains("joins 101 entities"), "{}", findings[0].message);
         assert_eq!(get(&gs, "E000").effective_interest_exact, None);
         assert_eq!(get(&gs, "P").effective_interest, Decimal::ONE);
@@ -1868,7 +1834,7 @@ mod tests {
     fn too_many_entities_builds_nothing() {
         let names: Vec<EntityId> = (0..=MAX_ENTITIES).map(|i| id(&format!("E{i}"))).collect();
         let (gs, findings) = build(&names, &[], &id("E0"), date(AS_OF), d("0.20"));
-        assert_eq!(rules(&findings), vec![StructureRule::LimitExceeded]);
+        assert_eq!(rules(&findings), vec![Rule::LimitExceeded]);
         assert!(gs.entities().is_empty());
     }
 
@@ -2063,12 +2029,7 @@ mod tests {
         got.sort();
         assert_eq!(
             got,
-            vec![
-                StructureRule::ParentHeld,
-                StructureRule::OverrideConflict,
-                StructureRule::OverrideConflict,
-                StructureRule::OverrideOutsideGroup,
-            ]
+            vec![Rule::OverrideConflict, Rule::OverrideConflict, Rule::OverrideOutsideGroup, Rule::ParentHeld]
         );
         let c = get(&gs, "C");
         assert!(!c.overridden);
@@ -2084,7 +2045,7 @@ mod tests {
         let mut jv = hold("Q", "S", "0.20");
         jv.arrangement = Some(Arrangement::JointVenture);
         let (gs, findings) = run(&["P", "Q", "S"], &[hold("P", "Q", "1.00"), hold("P", "S", "0.60"), jv]);
-        assert_eq!(rules(&findings), vec![StructureRule::ArrangementConflict]);
+        assert_eq!(rules(&findings), vec![Rule::ArrangementConflict]);
         assert!(findings[0].message.contains("IFRS 11.7"));
         assert_eq!(get(&gs, "S").method, Method::Full);
         // The joint venture's votes do not count for control, its capital does for interest.
@@ -2108,11 +2069,11 @@ mod tests {
         assert_eq!(
             rules(&findings),
             vec![
-                StructureRule::EntityDuplicated,
-                StructureRule::HoldingUnknownEntity,
-                StructureRule::HoldingOfItself,
-                StructureRule::HoldingShareOutOfRange,
-                StructureRule::HoldingPeriodInverted,
+                Rule::EntityDuplicated,
+                Rule::HoldingUnknownEntity,
+                Rule::HoldingOfItself,
+                Rule::HoldingShareOutOfRange,
+                Rule::HoldingPeriodInverted,
             ]
         );
         assert!(findings[1].message.contains("GHOST"));
@@ -2120,7 +2081,7 @@ mod tests {
         assert_eq!(gs.entities().len(), 2);
 
         let (gs, findings) = run(&["S"], &[hold("P", "S", "0.60")]);
-        assert_eq!(rules(&findings), vec![StructureRule::ParentUnknown]);
+        assert_eq!(rules(&findings), vec![Rule::ParentUnknown]);
         assert_eq!(get(&gs, "S").effective_interest, d("0.60"));
     }
 
@@ -2322,7 +2283,7 @@ mod tests {
             let (gs, findings) = run(&refs, &holdings);
             for f in &findings {
                 prop_assert!(
-                    matches!(f.rule, StructureRule::StructureUnsolvable | StructureRule::ParentHeld),
+                    matches!(f.rule, Rule::StructureUnsolvable | Rule::ParentHeld),
                     "{}", f
                 );
             }
@@ -2338,7 +2299,7 @@ mod tests {
                     }
                 }
             }
-            for f in findings.iter().filter(|f| f.rule == StructureRule::StructureUnsolvable) {
+            for f in findings.iter().filter(|f| f.rule == Rule::StructureUnsolvable) {
                 let at = f.entity.as_ref().map(|e| e.as_str().to_string()).unwrap_or_default();
                 let j = names.iter().position(|nm| *nm == at).unwrap();
                 prop_assert!(!reached[j], "{}", f);

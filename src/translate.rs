@@ -167,19 +167,38 @@ fn translate_rows(lf: LazyFrame, minor: usize, mode: RoundingMode) -> PolarsResu
     concat([mul, div, none], UnionArgs::default())
 }
 
-/// Translates every entity for the fiscal year through `scope_period`.
+/// Translates every entity for the fiscal year through `scope_period`: the grid of
+/// every grain and month with its rates, the rate each row is translated at, the
+/// translation (rounded once), the balances in the presentation currency, and the
+/// translation difference of each entity and month with its explanation.
 pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<Translated> {
     let _span = tracing::info_span!("translate", period = %last).entered();
-    let pres = ds.settings.presentation_currency;
-    let minor = pres.minor_unit() as usize;
-    let mode = ds.settings.policies.rounding;
-    let ytd_policy = ds.settings.policies.income_translation == IncomeTranslation::YearToDate;
+    let minor = ds.settings.presentation_currency.minor_unit() as usize;
+    let g = grid(ds, mapped, fiscal_start, last)?;
+    let g = choose_rates(ds, g, period_index(fiscal_start.prev()));
+    // The plan so far feeds three branches (by quote direction): computed once.
+    let g = translate_rows(g.cache(), minor, ds.settings.policies.rounding)?;
+    let lines = presentation_balances(g, minor)?.collect()?;
+    let pzero = decimal_lit(Decimal::ZERO, minor);
+    let differences = lines
+        .clone()
+        .lazy()
+        .group_by([col("entity"), col("period_index")])
+        .agg([(pzero.clone() - col("amount_presentation").sum()).alias("translation_difference")])
+        .sort(["entity", "period_index"], SortMultipleOptions::default())
+        .collect()?;
+    let explanations = explain(ds, &lines, &differences, fiscal_start, last, minor as u32)?;
+    Ok(Translated { lines, differences, explanations, minor: minor as u32, fiscal_start })
+}
+
+/// Every grain (entity, account, counterparty, transaction currency) by every month of
+/// the year, with its movement, local balance, basis, entity, rates and opening amount.
+fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
     let p0 = period_index(fiscal_start.prev());
     let pn = period_index(last);
     let grain: Vec<Expr> = GRAIN.iter().map(|c| col(*c)).collect();
     let mut keys = grain.clone();
     keys.push(col("period_index"));
-
     let mov = mapped.movements(fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
@@ -197,10 +216,8 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
     let by_gid = || ["gid", "period_index"];
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
-    let pres_code = pres.code();
-    let one = decimal_lit(Decimal::ONE, RATE_SCALE);
 
-    let g = grid
+    Ok(grid
         .join(mov, keys.clone(), keys.clone(), join_args(JoinType::Left))
         .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
         .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Left))
@@ -219,9 +236,17 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
         )
         .join(opening_presentation(ds)?, grain.clone(), grain.clone(), join_args(JoinType::Left))
         .sort(by_gid(), SortMultipleOptions::default())
-        .with_column(col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"));
+        .with_column(col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local")))
+}
 
-    // Which amount is translated at which rate, row by row.
+/// Which amount of each row is translated at which rate: the rate kind (unit,
+/// brought forward, closing, average, average year to date, historical), the rate and
+/// its quote, and `x`, the amount to translate.
+fn choose_rates(ds: &Dataset, g: LazyFrame, p0: i32) -> LazyFrame {
+    let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
+    let one = decimal_lit(Decimal::ONE, RATE_SCALE);
+    let pres_code = ds.settings.presentation_currency.code();
+    let ytd_policy = ds.settings.policies.income_translation == IncomeTranslation::YearToDate;
     let is_pres = col("currency").eq(lit(pres_code));
     let hyper = col("hyper_index").is_not_null().and(col("period_index").gt_eq(col("hyper_index")));
     let is_open = col("period_index").eq(lit(p0));
@@ -264,14 +289,18 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
     // Nothing to translate needs no rate (a month without an equity movement, the
     // opening month's income accounts).
     let nothing = col("x").eq(zero.clone());
-    let g = g.with_columns([
+    g.with_columns([
         when(nothing.clone()).then(one.clone()).otherwise(rate).alias("rate"),
         when(nothing).then(lit(Quote::PresentationPerUnit.as_str())).otherwise(quote_used).alias("quote_used"),
-    ]);
-    // The plan so far feeds three branches (by quote direction): computed once.
-    let g = translate_rows(g.cache(), minor, mode)?;
-    // The presentation currency, brought-forward amounts and balance-translated rows
-    // give the balance directly; movement-translated rows cumulate.
+    ])
+}
+
+/// Balances and amounts in the presentation currency: the presentation currency,
+/// brought-forward amounts and balance-translated rows give the balance directly;
+/// movement-translated rows cumulate. The columns of `Translated::lines`.
+fn presentation_balances(g: LazyFrame, minor: usize) -> PolarsResult<LazyFrame> {
+    let kind = |k: &str| col("rate_kind").eq(lit(k));
+    let by_gid = || ["gid", "period_index"];
     let pzero = decimal_lit(Decimal::ZERO, minor);
     let cumulated = when(col("by_balance").or(kind("unit")))
         .then(pzero.clone())
@@ -291,34 +320,23 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
                 - col("balance_presentation").shift(lit(1)).over([col("gid")])?.fill_null(pzero.clone()))
             .alias("amount_presentation"),
         );
-    let lines = g
-        .select([
-            col("entity"),
-            col("group_account"),
-            col("counterparty"),
-            col("txn_currency"),
-            col("period_index"),
-            col("basis"),
-            col("currency"),
-            col("amount_local"),
-            col("balance_local"),
-            col("txn_amount"),
-            col("rate"),
-            col("quote_used").alias("quote"),
-            col("rate_kind"),
-            col("balance_presentation").strict_cast(DataType::Decimal(38, minor)),
-            col("amount_presentation").strict_cast(DataType::Decimal(38, minor)),
-        ])
-        .collect()?;
-    let differences = lines
-        .clone()
-        .lazy()
-        .group_by([col("entity"), col("period_index")])
-        .agg([(pzero.clone() - col("amount_presentation").sum()).alias("translation_difference")])
-        .sort(["entity", "period_index"], SortMultipleOptions::default())
-        .collect()?;
-    let explanations = explain(ds, &lines, &differences, fiscal_start, last, minor as u32)?;
-    Ok(Translated { lines, differences, explanations, minor: minor as u32, fiscal_start })
+    Ok(g.select([
+        col("entity"),
+        col("group_account"),
+        col("counterparty"),
+        col("txn_currency"),
+        col("period_index"),
+        col("basis"),
+        col("currency"),
+        col("amount_local"),
+        col("balance_local"),
+        col("txn_amount"),
+        col("rate"),
+        col("quote_used").alias("quote"),
+        col("rate_kind"),
+        col("balance_presentation").strict_cast(DataType::Decimal(38, minor)),
+        col("amount_presentation").strict_cast(DataType::Decimal(38, minor)),
+    ]))
 }
 
 /// Splits each translation difference of a month into its causes (IAS 21.41):
@@ -604,6 +622,82 @@ pub fn reserves_by_operation(
         });
     }
     Ok(out)
+}
+
+/// Each entity's translation reserve brought forward into the fiscal year that starts at
+/// `fiscal_start`, gains (credits) positive: minus its translation difference of the
+/// opening month, as delivered in the opening balances. The close and the translation
+/// report both read it from here.
+pub fn brought_forward(t: &Translated, fiscal_start: Period) -> PolarsResult<BTreeMap<EntityId, Decimal>> {
+    let p0 = period_index(fiscal_start.prev());
+    let ent = money::column_strings(&t.differences, "entity")?;
+    let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
+    let td = column_decimals(t.differences.column("translation_difference")?)?;
+    let mut out: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    for i in 0..t.differences.height() {
+        if let (Some(e), Some(p)) = (&ent[i], idx[i])
+            && p == p0
+        {
+            // The difference is debit positive; the reserve is gains positive.
+            *out.entry(EntityId::new(e)).or_default() -= td[i].unwrap_or_default();
+        }
+    }
+    Ok(out)
+}
+
+/// The translation reserve of one foreign operation as translation sees it (before any
+/// consolidation method): brought forward, the parts of every entity's differences that
+/// belong to it for the month and the year, and the reserve at the period end, gains
+/// positive.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct OperationYear {
+    pub operation: EntityId,
+    pub brought_forward: Decimal,
+    pub month: Decimal,
+    pub year_to_date: Decimal,
+    pub reserve: Decimal,
+}
+
+/// Per foreign operation, the reserve of [`OperationYear`] at `period`, from the split
+/// of [`reserves_by_operation`]. The close's reserves (`close::reserves`) differ only
+/// where an entity or its operation is not consolidated in full: there the part stays
+/// with the entity.
+pub fn operations_year(
+    t: &Translated,
+    parts: &[OperationReserve],
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<OperationYear>> {
+    let mut by: BTreeMap<EntityId, OperationYear> = BTreeMap::new();
+    fn slot<'m>(by: &'m mut BTreeMap<EntityId, OperationYear>, op: &EntityId) -> &'m mut OperationYear {
+        by.entry(op.clone()).or_insert_with(|| OperationYear {
+            operation: op.clone(),
+            brought_forward: Decimal::ZERO,
+            month: Decimal::ZERO,
+            year_to_date: Decimal::ZERO,
+            reserve: Decimal::ZERO,
+        })
+    }
+    for (e, bf) in brought_forward(t, fiscal_start)? {
+        slot(&mut by, &e).brought_forward += bf;
+    }
+    for r in parts.iter().filter(|r| r.period >= fiscal_start && r.period <= period) {
+        let l = slot(&mut by, &r.operation);
+        l.year_to_date += r.amount;
+        if r.period == period {
+            l.month += r.amount;
+        }
+    }
+    Ok(by
+        .into_values()
+        .map(|mut l| {
+            l.reserve = l.brought_forward + l.year_to_date;
+            for d in [&mut l.brought_forward, &mut l.month, &mut l.year_to_date, &mut l.reserve] {
+                *d = money::unsigned_zero(*d);
+            }
+            l
+        })
+        .collect())
 }
 
 /// The operation that retranslates an intermediate parent's figures into another

@@ -41,12 +41,19 @@ fn idx(df: &DataFrame, c: &str, i: usize) -> Option<i32> {
     df.column(c).ok()?.i32().ok()?.get(i)
 }
 
+/// What validation builds on its way, handed on so that no later stage builds it again:
+/// the group structure at the period end and the resolved statement layouts.
+pub struct Validated {
+    pub structure: crate::structure::GroupStructure,
+    pub statements: Vec<crate::layout::ResolvedStatement>,
+}
+
 /// Runs every rule. `findings` already holds what loading found.
-pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Findings) -> PolarsResult<()> {
+pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Findings) -> PolarsResult<Validated> {
     let _span = tracing::info_span!("validate", period = %scope.period).entered();
     let mut f: Vec<Finding> = Vec::new();
     check_reference_data(ds, &mut f);
-    check_holdings(ds, scope, &mut f);
+    let structure = check_holdings(ds, scope, &mut f);
     check_mappings(ds, mapped, &mut f)?;
     check_periods(ds, mapped, scope, &mut f)?;
     check_balanced(mapped, scope, &mut f)?;
@@ -58,11 +65,11 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_net_investments(ds, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     let mut layout_findings = Vec::new();
-    crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
+    let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
     findings.extend(f);
     findings.sort();
-    Ok(())
+    Ok(Validated { structure, statements })
 }
 
 fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
@@ -132,7 +139,7 @@ fn check_reference_data(ds: &Dataset, f: &mut Vec<Finding>) {
     }
 }
 
-fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
+fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> crate::structure::GroupStructure {
     let known: BTreeSet<&EntityId> = ds.entities.iter().map(|e| &e.id).collect();
     for h in &ds.holdings {
         for e in [&h.owner, &h.owned] {
@@ -152,7 +159,7 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
     // Control, interests and methods: the structure module's own findings, less
     // those loading and the checks above already report.
     let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let (_, found) = crate::structure::build(
+    let (structure, found) = crate::structure::build(
         &ids,
         &ds.holdings,
         &ds.settings.parent,
@@ -160,30 +167,27 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
         ds.settings.policies.significant_influence,
     );
     f.extend(found.into_iter().filter_map(structure_finding));
+    structure
 }
 
 /// A structure finding as a finding of the run, or `None` where another check already
-/// reports the same problem.
+/// reports the same problem in the data.
 pub fn structure_finding(s: crate::structure::StructureFinding) -> Option<Finding> {
-    use crate::structure::StructureRule as S;
-    let rule = match s.rule {
-        S::EntityOverHeld => Rule::EntityOverHeld,
-        S::StructureUnsolvable => Rule::StructureUnsolvable,
-        S::OverrideConflict => Rule::OverrideConflict,
-        S::OverrideOutsideGroup => Rule::OverrideOutsideGroup,
-        S::ArrangementConflict => Rule::ArrangementConflict,
-        S::ParentHeld => Rule::ParentHeld,
-        S::LimitExceeded => Rule::LimitExceeded,
-        // Reported by loading (HoldingInvalid, EntityDuplicated) or by the reference
-        // data checks (EntityUnknown).
-        S::ParentUnknown
-        | S::EntityDuplicated
-        | S::HoldingUnknownEntity
-        | S::HoldingShareOutOfRange
-        | S::HoldingOfItself
-        | S::HoldingPeriodInverted => return None,
-    };
-    let mut x = Finding::new(rule, s.message, s.action);
+    // Reported by loading (HoldingInvalid, EntityDuplicated) or by the reference data
+    // checks (EntityUnknown).
+    let reported_elsewhere = matches!(
+        s.rule,
+        Rule::ParentUnknown
+            | Rule::EntityDuplicated
+            | Rule::HoldingUnknownEntity
+            | Rule::HoldingShareOutOfRange
+            | Rule::HoldingOfItself
+            | Rule::HoldingPeriodInverted
+    );
+    if reported_elsewhere {
+        return None;
+    }
+    let mut x = Finding::new(s.rule, s.message, s.action);
     if let Some(src) = &s.source {
         x = x.at(src);
     }
@@ -951,6 +955,19 @@ fn check_cash_flow_lines(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Ve
             .in_file(file),
         );
     }
+    check_cash_flow_coverage(ds, mapped, scope, &seen, f)
+}
+
+/// Every account that moves in the deliveries of the fiscal year, and every role account
+/// the close posts to, has a row of `cash_flow_lines.csv` (`seen`).
+fn check_cash_flow_coverage(
+    ds: &Dataset,
+    mapped: &Mapped,
+    scope: Scope,
+    seen: &BTreeMap<&GroupAccount, &Source>,
+    f: &mut Vec<Finding>,
+) -> PolarsResult<()> {
+    let file = "entities/cash_flow_lines.csv";
     // Accounts that move: in the deliveries of the fiscal year, and the role accounts
     // the close posts to.
     let mov = mapped

@@ -740,43 +740,9 @@ pub fn parse_overrides(text: &str, file: &str) -> OverrideParse {
     let Some((header_line, header)) = rows.next(&mut findings) else {
         return OverrideParse { overrides, findings: findings.finish() };
     };
-    let find = |name: &str| header.iter().position(|h| h.eq_ignore_ascii_case(name));
-    for (i, name) in header.iter().enumerate() {
-        if !name.is_empty() && !OVERRIDE_COLUMNS.iter().any(|c| c.eq_ignore_ascii_case(name)) {
-            findings.push(
-                RateFinding::new(
-                    RateRule::RateColumnUnknown,
-                    file,
-                    format!("column {} ({name}) is not one of {}; it is ignored", i + 1, OVERRIDE_COLUMNS.join(", ")),
-                    "remove the column, or leave it: it is not read",
-                )
-                .at_line(header_line),
-            );
-        }
-    }
-    let mut at = BTreeMap::new();
-    let mut missing = Vec::new();
-    for name in OVERRIDE_COLUMNS {
-        match find(name) {
-            Some(i) => {
-                at.insert(name, i);
-            }
-            None if name == "average_ytd" => {}
-            None => missing.push(name),
-        }
-    }
-    if !missing.is_empty() {
-        findings.push(
-            RateFinding::new(
-                RateRule::RateColumnMissing,
-                file,
-                format!("the override file lacks the column(s) {}; no override is read", missing.join(", ")),
-                "add the columns period, currency, closing, average, quote, note",
-            )
-            .at_line(header_line),
-        );
+    let Some(at) = override_columns(header_line, &header, file, &mut findings) else {
         return OverrideParse { overrides, findings: findings.finish() };
-    }
+    };
     let mut seen: BTreeMap<(Period, Currency), u64> = BTreeMap::new();
     while let Some((line, record)) = rows.next(&mut findings) {
         if rows.count > MAX_ROWS {
@@ -880,6 +846,54 @@ pub fn parse_overrides(text: &str, file: &str) -> OverrideParse {
         });
     }
     OverrideParse { overrides, findings: findings.finish() }
+}
+
+/// The position of each column of the override file by name; `None` (with a finding)
+/// when a required column is missing. Unknown columns are warnings.
+fn override_columns(
+    header_line: u64,
+    header: &[String],
+    file: &str,
+    findings: &mut Findings,
+) -> Option<BTreeMap<&'static str, usize>> {
+    let find = |name: &str| header.iter().position(|h| h.eq_ignore_ascii_case(name));
+    for (i, name) in header.iter().enumerate() {
+        if !name.is_empty() && !OVERRIDE_COLUMNS.iter().any(|c| c.eq_ignore_ascii_case(name)) {
+            findings.push(
+                RateFinding::new(
+                    RateRule::RateColumnUnknown,
+                    file,
+                    format!("column {} ({name}) is not one of {}; it is ignored", i + 1, OVERRIDE_COLUMNS.join(", ")),
+                    "remove the column, or leave it: it is not read",
+                )
+                .at_line(header_line),
+            );
+        }
+    }
+    let mut at = BTreeMap::new();
+    let mut missing = Vec::new();
+    for name in OVERRIDE_COLUMNS {
+        match find(name) {
+            Some(i) => {
+                at.insert(name, i);
+            }
+            None if name == "average_ytd" => {}
+            None => missing.push(name),
+        }
+    }
+    if !missing.is_empty() {
+        findings.push(
+            RateFinding::new(
+                RateRule::RateColumnMissing,
+                file,
+                format!("the override file lacks the column(s) {}; no override is read", missing.join(", ")),
+                "add the columns period, currency, closing, average, quote, note",
+            )
+            .at_line(header_line),
+        );
+        return None;
+    }
+    Some(at)
 }
 
 fn override_rate(

@@ -135,6 +135,46 @@ fn u32_at(df: &DataFrame, c: &str, i: usize) -> Option<u32> {
     df.column(c).ok()?.u32().ok()?.get(i)
 }
 
+/// Each entity's minor unit and currency code, to join to its rows.
+fn entity_minor_units(currencies: &BTreeMap<EntityId, Currency>) -> PolarsResult<DataFrame> {
+    let ids: Vec<String> = currencies.keys().map(|e| e.to_string()).collect();
+    let minors: Vec<u32> = currencies.values().map(|c| c.minor_unit()).collect();
+    let codes: Vec<String> = currencies.values().map(|c| c.code().to_string()).collect();
+    DataFrame::new(
+        ids.len(),
+        vec![
+            Column::new("entity".into(), ids),
+            Column::new("amount_minor".into(), minors),
+            Column::new("currency".into(), codes),
+        ],
+    )
+}
+
+/// The names of the flag columns `parse_rows` sets, extra amounts' included.
+fn flag_names(extra_amounts: &[&str]) -> Vec<String> {
+    let mut v = vec![
+        "amount_malformed",
+        "amount_too_large",
+        "amount_surplus",
+        "txn_amount_malformed",
+        "txn_amount_too_large",
+        "txn_amount_surplus",
+        "amount_missing",
+        "account_missing",
+        "period_bad",
+        "txn_incomplete",
+        "txn_unknown",
+    ]
+    .into_iter()
+    .map(String::from)
+    .collect::<Vec<_>>();
+    for e in extra_amounts {
+        v.push(format!("{e}_malformed"));
+        v.push(format!("{e}_too_large"));
+    }
+    v
+}
+
 /// Parses stacked ledger-like rows: returns the sound rows with exact decimals.
 fn parse_rows(
     raw: DataFrame,
@@ -143,19 +183,7 @@ fn parse_rows(
     currencies: &BTreeMap<EntityId, Currency>,
     f: &mut Vec<Finding>,
 ) -> PolarsResult<DataFrame> {
-    let ent_minor = {
-        let ids: Vec<String> = currencies.keys().map(|e| e.to_string()).collect();
-        let minors: Vec<u32> = currencies.values().map(|c| c.minor_unit()).collect();
-        let codes: Vec<String> = currencies.values().map(|c| c.code().to_string()).collect();
-        DataFrame::new(
-            ids.len(),
-            vec![
-                Column::new("entity".into(), ids),
-                Column::new("amount_minor".into(), minors),
-                Column::new("currency".into(), codes),
-            ],
-        )?
-    };
+    let ent_minor = entity_minor_units(currencies)?;
     let unique_codes = raw.column("txn_currency")?.str()?.unique()?;
     let txn_codes: Vec<String> = unique_codes.iter().flatten().map(|s| s.trim().to_string()).collect();
     let txn_minor = minor_units("txn_currency", txn_codes);
@@ -194,29 +222,7 @@ fn parse_rows(
     flags.push(col("txn_currency").is_null().neq(col("txn_amount").is_null()).alias("txn_incomplete"));
     flags.push(col("txn_currency").is_not_null().and(col("txn_currency_minor").is_null()).alias("txn_unknown"));
     lf = lf.with_columns(flags);
-    let flag_names: Vec<String> = {
-        let mut v = vec![
-            "amount_malformed",
-            "amount_too_large",
-            "amount_surplus",
-            "txn_amount_malformed",
-            "txn_amount_too_large",
-            "txn_amount_surplus",
-            "amount_missing",
-            "account_missing",
-            "period_bad",
-            "txn_incomplete",
-            "txn_unknown",
-        ]
-        .into_iter()
-        .map(String::from)
-        .collect::<Vec<_>>();
-        for e in extra_amounts {
-            v.push(format!("{e}_malformed"));
-            v.push(format!("{e}_too_large"));
-        }
-        v
-    };
+    let flag_names = flag_names(extra_amounts);
     let any_flag = flag_names.iter().fold(lit(false), |acc, n| acc.or(col(n.as_str())));
     let df = lf.with_column(any_flag.alias("flagged")).collect()?;
     let bad = df.clone().lazy().filter(col("flagged")).collect()?;

@@ -211,7 +211,7 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
     out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
-        *by_rule.entry(e.rule).or_default() += 1;
+        *by_rule.entry(e.rule.as_str()).or_default() += 1;
     }
     out.push_str(&format!(" ({})\n", by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")));
     if let Some(first) = r.translation_reserves.first() {
@@ -293,7 +293,7 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
     for e in journal {
         for l in &e.lines {
             id.push(e.id.clone());
-            rule.push(e.rule);
+            rule.push(e.rule.as_str());
             at.push(e.posted_at.to_string());
             acct.push(l.account.to_string());
             ent.push(l.entity.to_string());

@@ -85,6 +85,35 @@ fn csv(r: &SegmentsOut<'_>) -> String {
     out
 }
 
+/// The entity-wide table by country (IFRS 8.33).
+fn entity_wide_table(ew: &crate::segments::EntityWide, amt: &dyn Fn(rust_decimal::Decimal) -> String) -> String {
+    let mut out = format!(
+        "\nEntity-wide by country (IFRS 8.33; home {}, foreign countries from {} of the group shown on their own)\n",
+        ew.home_country, ew.materiality
+    );
+    let mut rows: Vec<Vec<String>> = ew
+        .rows
+        .iter()
+        .map(|c| {
+            let name = if c.home {
+                format!("{} (home)", c.country)
+            } else if c.country == "other" {
+                format!("other countries ({})", c.countries.join(", "))
+            } else {
+                c.country.clone()
+            };
+            vec![name, amt(c.revenue_external), amt(c.non_current_assets)]
+        })
+        .collect();
+    rows.push(vec!["group".into(), amt(ew.revenue_external), amt(ew.non_current_assets)]);
+    out.push_str(&text_table(
+        &["country", "revenue from external customers", "non-current assets"],
+        &rows,
+        &[false, true, true],
+    ));
+    out
+}
+
 fn table(r: &SegmentsOut<'_>, minor: u32) -> String {
     let rep = r.report;
     let amt = |d: rust_decimal::Decimal| format_amount(d, minor);
@@ -174,32 +203,7 @@ fn table(r: &SegmentsOut<'_>, minor: u32) -> String {
         "IFRS 8.15 asks for at least 75%",
         if t.external_test { "met" } else { "NOT met" }
     ));
-    // Entity-wide (IFRS 8.33).
-    let ew = &rep.entity_wide;
-    out.push_str(&format!(
-        "\nEntity-wide by country (IFRS 8.33; home {}, foreign countries from {} of the group shown on their own)\n",
-        ew.home_country, ew.materiality
-    ));
-    let mut rows: Vec<Vec<String>> = ew
-        .rows
-        .iter()
-        .map(|c| {
-            let name = if c.home {
-                format!("{} (home)", c.country)
-            } else if c.country == "other" {
-                format!("other countries ({})", c.countries.join(", "))
-            } else {
-                c.country.clone()
-            };
-            vec![name, amt(c.revenue_external), amt(c.non_current_assets)]
-        })
-        .collect();
-    rows.push(vec!["group".into(), amt(ew.revenue_external), amt(ew.non_current_assets)]);
-    out.push_str(&text_table(
-        &["country", "revenue from external customers", "non-current assets"],
-        &rows,
-        &[false, true, true],
-    ));
+    out.push_str(&entity_wide_table(&rep.entity_wide, &amt));
     if !r.findings.is_empty() {
         out.push_str("\nfindings:\n");
         for f in r.findings {

@@ -116,18 +116,13 @@ struct Report<'a> {
     caution: &'static str,
 }
 
-#[allow(clippy::too_many_arguments)]
-pub fn render(
+/// The translated lines of the period with something to show, by entity (with its
+/// currency), for `only` entity when one is asked for.
+fn lines_by_entity(
     t: &Translated,
-    reserves: &[OperationReserve],
-    method: Ifric16Method,
     period: Period,
-    fiscal_start: Period,
-    currency: &str,
     only: Option<&EntityId>,
-    checks: &[Check],
-    format: Format,
-) -> PolarsResult<String> {
+) -> PolarsResult<BTreeMap<String, (String, Vec<Line>)>> {
     let p = period_index(period);
     let mut lf = t.lines.clone().lazy().filter(col("period_index").eq(lit(p)));
     if let Some(e) = only {
@@ -178,6 +173,22 @@ pub fn render(
             balance_presentation: bp[i].unwrap_or_default(),
         });
     }
+    Ok(by)
+}
+
+#[allow(clippy::too_many_arguments)]
+pub fn render(
+    t: &Translated,
+    reserves: &[OperationReserve],
+    method: Ifric16Method,
+    period: Period,
+    fiscal_start: Period,
+    currency: &str,
+    only: Option<&EntityId>,
+    checks: &[Check],
+    format: Format,
+) -> PolarsResult<String> {
+    let by = lines_by_entity(t, period, only)?;
     let mut entities = Vec::new();
     for (e, (ccy, lines)) in by {
         let month = t.explanations.iter().find(|x| x.entity.as_str() == e && x.period == period);
@@ -214,7 +225,8 @@ pub fn render(
             lines,
         });
     }
-    let reserves_by_operation = operation_lines(t, reserves, period, fiscal_start, only)?;
+    let reserves_by_operation =
+        operation_lines(crate::translate::operations_year(t, reserves, period, fiscal_start)?, only);
     let tied = crate::proof::tied(checks);
     let report = Report {
         period: period.to_string(),
@@ -270,54 +282,20 @@ pub fn render(
     })
 }
 
-/// Per foreign operation: the reserve brought forward (the entity's opening translation
-/// difference, as delivered), and the parts of every entity's differences that belong to
-/// it, for the month and the year.
-fn operation_lines(
-    t: &Translated,
-    reserves: &[OperationReserve],
-    period: Period,
-    fiscal_start: Period,
-    only: Option<&EntityId>,
-) -> PolarsResult<Vec<OperationLine>> {
-    let p0 = period_index(fiscal_start.prev());
-    let ent = crate::money::column_strings(&t.differences, "entity")?;
-    let idx: Vec<Option<i32>> = t.differences.column("period_index")?.i32()?.iter().collect();
-    let td = column_decimals(t.differences.column("translation_difference")?)?;
-    let mut by: BTreeMap<String, OperationLine> = BTreeMap::new();
-    fn slot<'m>(by: &'m mut BTreeMap<String, OperationLine>, op: &str) -> &'m mut OperationLine {
-        by.entry(op.to_string()).or_insert_with(|| OperationLine {
-            operation: op.to_string(),
-            brought_forward: Decimal::ZERO,
-            month: Decimal::ZERO,
-            year_to_date: Decimal::ZERO,
-            reserve: Decimal::ZERO,
+/// The operations' reserves as computed by `translate::operations_year`, for `only`
+/// operation when one is asked for.
+fn operation_lines(operations: Vec<crate::translate::OperationYear>, only: Option<&EntityId>) -> Vec<OperationLine> {
+    operations
+        .into_iter()
+        .filter(|l| only.is_none_or(|e| *e == l.operation))
+        .map(|l| OperationLine {
+            operation: l.operation.to_string(),
+            brought_forward: l.brought_forward,
+            month: l.month,
+            year_to_date: l.year_to_date,
+            reserve: l.reserve,
         })
-    }
-    for i in 0..t.differences.height() {
-        if let (Some(e), Some(p0_here)) = (&ent[i], idx[i])
-            && p0_here == p0
-        {
-            // The difference is debit positive; the reserve is shown gains positive.
-            slot(&mut by, e).brought_forward -= td[i].unwrap_or_default();
-        }
-    }
-    for r in reserves.iter().filter(|r| r.period >= fiscal_start && r.period <= period) {
-        let line = slot(&mut by, r.operation.as_str());
-        line.year_to_date += r.amount;
-        if r.period == period {
-            line.month += r.amount;
-        }
-    }
-    let mut out: Vec<OperationLine> =
-        by.into_values().filter(|l| only.is_none_or(|e| e.as_str() == l.operation)).collect();
-    for l in &mut out {
-        l.reserve = l.brought_forward + l.year_to_date;
-        for d in [&mut l.brought_forward, &mut l.month, &mut l.year_to_date, &mut l.reserve] {
-            *d = crate::money::unsigned_zero(*d);
-        }
-    }
-    Ok(out)
+        .collect()
 }
 
 fn table(r: &Report<'_>, minor: u32) -> String {

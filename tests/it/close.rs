@@ -549,3 +549,69 @@ fn no_output_shows_a_negative_zero() {
     }
     assert!(files >= 8, "{files} files");
 }
+
+/// Every finding the close raises about the data, `check` lists as well (same rule,
+/// line and message), so that a close never finds a problem `check` passed. One broken
+/// copy of a case folder per finding the close's rules raise.
+#[test]
+fn every_finding_of_the_close_is_listed_by_check() {
+    let broken: [(&str, &str, &str, &str, &str); 7] = [
+        (
+            "foreign-subsidiary-fair-value-adjustment",
+            "entities/acquisitions.csv",
+            "0,1000,1200\n",
+            "0,1000,9999\n",
+            "AccountUnknown",
+        ),
+        (
+            "foreign-subsidiary-full-goodwill-impairment",
+            "entities/group.toml",
+            "goodwill_impairment = \"5150\"\n",
+            "",
+            "SettingInvalid",
+        ),
+        (
+            "ifrs3-ie45-bargain-purchase",
+            "entities/group.toml",
+            "bargain_purchase_gain = \"4800\"\n",
+            "",
+            "SettingInvalid",
+        ),
+        ("ifrs3-ie45-bargain-purchase", "entities/group.toml", "", "", "GoodwillNegative"),
+        ("goodwill-fair-value", "entities/holdings.csv", "P,S,0.8,0.8,", "P,S,1,1,", "ValueInvalid"),
+        (
+            "goodwill-fair-value",
+            "entities/acquisitions.csv",
+            "S,2020-01-01,500,fair_value,100,400,400,0\n",
+            "",
+            "AcquisitionMissing",
+        ),
+        (
+            "upstream-unrealised-profit-fair-value-nci",
+            "entities/group.toml",
+            "inventory = \"1500\"\n",
+            "",
+            "SettingInvalid",
+        ),
+    ];
+    for (case, file, from, to, rule) in broken {
+        let f = Folder::empty();
+        let src = repo().join("tests/cases").join(case);
+        for sub in ["entities", "rates"] {
+            copy_tree(&src.join(sub), &f.path().join(sub));
+        }
+        if !from.is_empty() {
+            f.replace(file, from, to);
+        }
+        let out = f.path().join("out");
+        let (_, closed) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.to_str().unwrap()]);
+        let (_, checked) = run_json(f.path(), &["check", "--period", "2026-01"]);
+        let key = |x: &Value| (x["rule"].to_string(), x["line"].to_string(), x["message"].to_string());
+        let listed: Vec<_> = checked["findings"].as_array().into_iter().flatten().map(key).collect();
+        let found: Vec<_> = closed["findings"].as_array().into_iter().flatten().map(key).collect();
+        assert!(found.iter().any(|k| k.0 == format!("{rule:?}")), "{case}: the close raises no {rule}: {closed:#}");
+        for k in &found {
+            assert!(listed.contains(k), "{case}: check does not list {k:?}; it lists {listed:?}");
+        }
+    }
+}

@@ -1,0 +1,713 @@
+//! Rule `investment_and_goodwill`: for every subsidiary consolidated in full with an
+//! acquisition record, the holders' investment is eliminated against the equity at
+//! acquisition, and goodwill recognised (IFRS 3.32), held in the subsidiary's currency
+//! at the closing rate (IAS 21.47), with its impairment to date (IAS 36.124), a bargain
+//! purchase gain (IFRS 3.34), the fair value adjustments (IFRS 3.18) and the NCI at
+//! acquisition (IFRS 3.19) in the same entry. The exchange differences (on goodwill, on
+//! the fair value adjustment, on the holders' translated investments) close the entry:
+//! this year's part to OCI, the part brought forward to the reserve.
+//!
+//! The entry is built in named steps: [`measure`] (goodwill and bargain in the
+//! subsidiary's currency), [`findings`] (what the acquisition record lacks, raised by
+//! `check` too), then the lines: investments, equity acquired, goodwill and NCI,
+//! impairment, exchange differences, and the NCI's part of full goodwill.
+
+use std::collections::{BTreeMap, BTreeSet};
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+
+use super::context::Context;
+use super::journal::{EliminationRule, EntryLine, Journal, line};
+use crate::findings::{Finding, Rule, Severity};
+use crate::map_accounts::period_index;
+use crate::model::*;
+use crate::money::{self, column_decimals};
+use crate::structure::EntityStructure;
+use crate::translate::Translated;
+
+/// Investment lines in the balances: owned subsidiary -> (holder, account, carrying
+/// amount).
+pub type Investments = BTreeMap<EntityId, Vec<(EntityId, GroupAccount, Decimal)>>;
+
+/// Per month: (movement, balance) in the local currency and balance in the presentation
+/// currency of one investment line.
+pub type LineMonths = BTreeMap<i32, (Decimal, Decimal, Decimal)>;
+
+/// The translated investment lines (holder, account, owned) of the fiscal year, by month.
+pub type InvestmentMonths = BTreeMap<(EntityId, GroupAccount, EntityId), LineMonths>;
+
+/// What the NCI rule (`nci.rs`) reads of this one, per subsidiary (or per holder).
+#[derive(Debug, Default)]
+pub struct ForNci {
+    /// The equity at acquisition the entry removed, in the presentation currency.
+    pub pre_acquisition: BTreeMap<EntityId, Decimal>,
+    /// The NCI's exchange difference of the year on its part of full goodwill.
+    pub nci_goodwill_oci: BTreeMap<EntityId, Decimal>,
+    /// Fair value adjustments at the closing rate.
+    pub fair_value_now: BTreeMap<EntityId, Decimal>,
+    /// Their exchange difference of the year.
+    pub fair_value_oci: BTreeMap<EntityId, Decimal>,
+    /// The NCI's share of this fiscal year's goodwill impairment, under full goodwill.
+    pub nci_impairment_year: BTreeMap<EntityId, Decimal>,
+    /// This fiscal year's exchange difference on each holder's eliminated investments in
+    /// subsidiaries, per holder.
+    pub investment_fx: BTreeMap<EntityId, Decimal>,
+}
+
+/// The investment lines of the balances: accounts of kind `investment` naming the
+/// subsidiary as counterparty.
+pub fn investments(cx: &Context) -> Investments {
+    let mut invest = Investments::new();
+    for (ent, accts) in &cx.balances {
+        for ((acct, cp), amount) in accts {
+            if let Some(cp) = cp
+                && cx.kind_of(acct) == Some("investment")
+            {
+                invest.entry(cp.clone()).or_default().push((ent.clone(), acct.clone(), *amount));
+            }
+        }
+    }
+    invest
+}
+
+/// The translated investment lines of the fiscal year to the period, by month, read in
+/// one pass over the translated lines.
+pub fn investment_months(t: &Translated, cx: &Context, invest: &Investments) -> PolarsResult<InvestmentMonths> {
+    let accounts: BTreeSet<&GroupAccount> = invest.values().flatten().map(|(_, a, _)| a).collect();
+    let mut out = InvestmentMonths::new();
+    let Some(is_investment) = accounts.iter().map(|a| col("group_account").eq(lit(a.as_str()))).reduce(|x, y| x.or(y))
+    else {
+        return Ok(out);
+    };
+    let p = period_index(cx.period);
+    let p0 = period_index(cx.fiscal_start.prev());
+    let df = t
+        .lines
+        .clone()
+        .lazy()
+        .filter(
+            is_investment
+                .and(col("counterparty").is_not_null())
+                .and(col("period_index").gt_eq(lit(p0)))
+                .and(col("period_index").lt_eq(lit(p))),
+        )
+        .group_by([col("entity"), col("group_account"), col("counterparty"), col("period_index")])
+        .agg([col("amount_local").sum(), col("balance_local").sum(), col("balance_presentation").sum()])
+        .collect()?;
+    let ent = money::column_strings(&df, "entity")?;
+    let acct = money::column_strings(&df, "group_account")?;
+    let cp = money::column_strings(&df, "counterparty")?;
+    let idx: Vec<Option<i32>> = df.column("period_index")?.i32()?.iter().collect();
+    let al = column_decimals(df.column("amount_local")?)?;
+    let bl = column_decimals(df.column("balance_local")?)?;
+    let bp = column_decimals(df.column("balance_presentation")?)?;
+    for i in 0..df.height() {
+        let (Some(e), Some(a), Some(c), Some(m)) = (&ent[i], &acct[i], &cp[i], idx[i]) else { continue };
+        out.entry((EntityId::new(e), GroupAccount::new(a), EntityId::new(c)))
+            .or_default()
+            .insert(m, (al[i].unwrap_or_default(), bl[i].unwrap_or_default(), bp[i].unwrap_or_default()));
+    }
+    Ok(out)
+}
+
+/// This fiscal year's exchange difference on one holder's translated investment in one
+/// subsidiary: month by month, the change in the translated balance less the month's
+/// local movement at the month's rate (the translated balance over the local balance,
+/// the closing rate of a closing-basis account). One held at the opening starts from its
+/// translation at the opening. One acquired this year enters at its translation at
+/// acquisition: `acquired` names the month and translates at the acquisition date's
+/// rate, given where the holder's currency is the subsidiary's; otherwise it enters at
+/// the month's closing rate. In the presentation currency the difference is 0. A month
+/// that takes the balance to zero (a disposal) adds no difference; the rest is the
+/// holder's own. The holder's translation difference of the year holds exactly this
+/// amount for the investment, which the subsidiary's own translation difference
+/// replaces in the group.
+pub fn investment_fx_year(
+    cx: &Context,
+    by_month: Option<&LineMonths>,
+    acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)>,
+) -> Decimal {
+    let p = period_index(cx.period);
+    let p0 = period_index(cx.fiscal_start.prev());
+    let empty = LineMonths::new();
+    let by_month = by_month.unwrap_or(&empty);
+    let mut fx = Decimal::ZERO;
+    let mut before = by_month.get(&p0).map(|x| x.2).unwrap_or_default();
+    for m in (p0 + 1)..=p {
+        let (amount_local, balance_local, balance_pres) = by_month.get(&m).copied().unwrap_or_default();
+        if !balance_local.is_zero() {
+            let movement = match acquired {
+                Some((month, at_acquisition)) if period_index(month) == m => at_acquisition(amount_local),
+                _ => money::round(amount_local * balance_pres / balance_local, cx.minor, cx.mode),
+            };
+            fx += balance_pres - before - movement;
+        }
+        before = balance_pres;
+    }
+    fx
+}
+
+/// Goodwill and the NCI at acquisition in the subsidiary's currency.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Measured {
+    /// The direct outside share of the capital.
+    pub outside: Decimal,
+    pub nci_fc: Decimal,
+    /// Consideration + NCI - net assets - impairment, before a bargain purchase gain.
+    pub goodwill_fc: Decimal,
+    /// The bargain purchase gain recognised (0 when there is none, or no account to
+    /// recognise it on).
+    pub bargain_fc: Decimal,
+    pub bargain_account: Option<GroupAccount>,
+    /// A bargain purchase in the acquisition year with no account for the gain.
+    pub bargain_account_missing: bool,
+    /// An NCI fair value given for a subsidiary without outside shareholders.
+    pub fair_value_without_nci: bool,
+}
+
+/// Goodwill (IFRS 3.32), the NCI at acquisition (IFRS 3.19) and a bargain purchase
+/// (IFRS 3.34) of one acquisition, in the subsidiary's currency.
+pub fn measure(e: &EntityStructure, a: &Acquisition, fiscal_start: Period, roles: &RoleAccounts) -> Measured {
+    // NCI at acquisition: the direct outside share of net assets, or fair value.
+    let outside = Decimal::ONE - e.group_capital;
+    // A fair value for an NCI that does not exist would put an NCI in the trial
+    // balance that no NCI row explains: it blocks, and nothing is posted for it.
+    let fair_value_without_nci = outside.is_zero() && a.nci_fair_value.is_some_and(|x| !x.is_zero());
+    let nci_fc = match a.nci_measurement {
+        _ if outside.is_zero() => Decimal::ZERO,
+        NciMeasurement::FairValue => a.nci_fair_value.unwrap_or_default(),
+        NciMeasurement::ShareOfNetAssets => a.net_assets * outside,
+    };
+    let goodwill_fc = a.consideration + nci_fc - a.net_assets - a.impairment;
+    // A bargain purchase (IFRS 3.34): the excess of the net assets over consideration
+    // and NCI is a gain of the acquirer at the acquisition date, not negative goodwill.
+    // It is measured once, at the acquisition date's rate, and belongs to the owners of
+    // the parent (the NCI is measured by its own basis, IFRS 3.19).
+    let gross_goodwill_fc = goodwill_fc + a.impairment;
+    let bargain_fc = if gross_goodwill_fc.is_sign_negative() { -gross_goodwill_fc } else { Decimal::ZERO };
+    let in_acquisition_year = Period::of_date(a.date) >= fiscal_start;
+    let (bargain_account, bargain_account_missing) = if bargain_fc.is_zero() {
+        (None, false)
+    } else if in_acquisition_year {
+        // In the acquisition year the gain is profit of the year; later it is part of
+        // retained earnings.
+        (roles.bargain_purchase_gain.clone(), roles.bargain_purchase_gain.is_none())
+    } else {
+        (Some(roles.retained_earnings.clone()), false)
+    };
+    let bargain_fc = if bargain_account.is_some() { bargain_fc } else { Decimal::ZERO };
+    Measured {
+        outside,
+        nci_fc,
+        goodwill_fc,
+        bargain_fc,
+        bargain_account,
+        bargain_account_missing,
+        fair_value_without_nci,
+    }
+}
+
+/// What one subsidiary's acquisition record lacks or says that needs a look, in the
+/// order the close has always listed them. `held`: some entity carries an investment in
+/// it. `check` raises the same findings.
+pub fn findings(
+    e: &EntityStructure,
+    a: Option<&Acquisition>,
+    held: bool,
+    currency: Currency,
+    fiscal_start: Period,
+    roles: &RoleAccounts,
+    chart: &dyn Fn(&GroupAccount) -> Option<Statement>,
+) -> Vec<Finding> {
+    let Some(a) = a else {
+        return if held { vec![acquisition_missing(&e.id)] } else { Vec::new() };
+    };
+    let m = measure(e, a, fiscal_start, roles);
+    let fc = currency;
+    let mut out = Vec::new();
+    if m.fair_value_without_nci {
+        out.push(
+            Finding::new(
+                Rule::ValueInvalid,
+                format!(
+                    "{}: `nci_fair_value` is {} {} but the parent and its subsidiaries hold a capital share of {} in {}: there is no non-controlling interest",
+                    e.id,
+                    fc,
+                    a.nci_fair_value.unwrap_or_default(),
+                    e.group_capital.normalize(),
+                    e.id
+                ),
+                "leave `nci_fair_value` empty and measure `share_of_net_assets` for a wholly owned subsidiary, or correct the holding in entities/holdings.csv if outside shareholders exist",
+            )
+            .at(&a.source)
+            .entity(&e.id),
+        );
+    }
+    if m.bargain_account_missing {
+        out.push(
+            Finding::new(
+                Rule::SettingInvalid,
+                format!(
+                    "{}: the acquisition on {} is a bargain purchase but group.toml names no `accounts.bargain_purchase_gain`",
+                    e.id, a.date
+                ),
+                "name the profit or loss account for the gain on a bargain purchase as `bargain_purchase_gain` in [accounts] (IFRS 3.34)",
+            )
+            .at(&a.source)
+            .entity(&e.id),
+        );
+    }
+    if m.goodwill_fc.is_sign_negative() {
+        out.push(goodwill_negative(e, a, &m, fc));
+    }
+    if let Some(acct) = &a.fair_value_account
+        && !a.fair_value_adjustment.is_zero()
+        && chart(acct) != Some(Statement::BalanceSheet)
+    {
+        out.push(
+            Finding::new(
+                Rule::AccountUnknown,
+                format!(
+                    "{}: `fair_value_account` {acct} is not a balance-sheet account of entities/accounts.csv",
+                    e.id
+                ),
+                "name the group account of the asset or liability the fair value adjustment belongs to",
+            )
+            .at(&a.source)
+            .entity(&e.id),
+        );
+    }
+    if roles.goodwill_impairment.is_none() && !a.impairment_year.is_zero() {
+        out.push(
+            Finding::new(
+                Rule::SettingInvalid,
+                format!(
+                    "{}: `impairment_year` is {} but group.toml names no `accounts.goodwill_impairment`",
+                    e.id, a.impairment_year
+                ),
+                "name the expense account for goodwill impairment in [accounts]",
+            )
+            .at(&a.source)
+            .entity(&e.id),
+        );
+    }
+    out
+}
+
+fn acquisition_missing(e: &EntityId) -> Finding {
+    Finding::new(
+        Rule::AcquisitionMissing,
+        format!("{e} is consolidated and held as an investment, but entities/acquisitions.csv has no row for it"),
+        "add its acquisition: date, consideration, NCI measurement and net assets at acquisition",
+    )
+    .entity(e)
+}
+
+fn goodwill_negative(e: &EntityStructure, a: &Acquisition, m: &Measured, fc: Currency) -> Finding {
+    Finding::new(
+        Rule::GoodwillNegative,
+        format!(
+            "{}: consideration {} + NCI {} - net assets {} = {} {} is negative: a bargain purchase{}",
+            e.id,
+            a.consideration,
+            m.nci_fc.round_dp(fc.minor_unit()),
+            a.net_assets,
+            fc,
+            m.goodwill_fc.round_dp(fc.minor_unit()),
+            match &m.bargain_account {
+                Some(acct) => format!(
+                    ", recognised as a gain of {} {} on {acct} at {} (IFRS 3.34)",
+                    fc,
+                    m.bargain_fc.round_dp(fc.minor_unit()),
+                    a.date
+                ),
+                None => String::new(),
+            }
+        ),
+        "before keeping the gain, reassess whether every asset acquired and liability assumed is identified, and review the measurement of the net assets, the NCI and the consideration (IFRS 3.36)",
+    )
+    .at(&a.source)
+    .entity(&e.id)
+    .severity(Severity::Warning)
+}
+
+/// One subsidiary's acquisition as the entry is built: the record (at the opening,
+/// without this year's impairment), its currency and measurement.
+struct Acquired<'c, 'a> {
+    cx: &'c Context<'a>,
+    e: &'c EntityStructure,
+    a: Acquisition,
+    fc: Currency,
+    m: Measured,
+}
+
+impl Acquired<'_, '_> {
+    /// In the presentation currency at the closing rate of `p` (0 without a rate: the
+    /// rate check of `validate` has already blocked such a close).
+    fn to_pres(&self, x: Decimal, p: Period) -> Decimal {
+        self.cx.at_closing(self.fc, x, p).unwrap_or_default()
+    }
+
+    /// At the acquisition date's rate, the ratio of the net assets in the two
+    /// currencies. Multiplied before dividing, so that a share of the net assets is
+    /// exact and rounds once (the ratio alone need not terminate in 28 digits).
+    fn at_hist(&self, x: Decimal) -> Decimal {
+        if self.a.net_assets.is_zero() {
+            self.cx.round(x)
+        } else {
+            self.cx.round(x * self.a.net_assets_presentation / self.a.net_assets)
+        }
+    }
+
+    /// Goodwill after a bargain purchase gain: with the gain recognised there is none.
+    fn goodwill_fc(&self) -> Decimal {
+        self.m.goodwill_fc + self.m.bargain_fc
+    }
+
+    /// The fair value adjustment as (account, at the acquisition rate, at the closing
+    /// rate), when it is on a balance-sheet account.
+    fn fair_value(&self) -> Option<(GroupAccount, Decimal, Decimal)> {
+        let acct = self.a.fair_value_account.as_ref()?;
+        let adjustment = self.a.fair_value_adjustment;
+        (!adjustment.is_zero() && self.cx.in_statement(acct, Statement::BalanceSheet))
+            .then(|| (acct.clone(), self.at_hist(adjustment), self.to_pres(adjustment, self.cx.period)))
+    }
+
+    /// The month before the fiscal year, when the subsidiary was held then.
+    fn opening_period(&self) -> Option<Period> {
+        let p0 = self.cx.fiscal_start.prev();
+        if Period::of_date(self.a.date) > p0 { None } else { Some(p0) }
+    }
+}
+
+/// Posts one entry per subsidiary consolidated in full with an acquisition record;
+/// raises the findings of [`findings`].
+pub fn post(
+    j: &mut Journal,
+    cx: &Context,
+    acquisitions: &[Acquisition],
+    invest: &Investments,
+    months: &InvestmentMonths,
+    found: &mut Vec<Finding>,
+) -> ForNci {
+    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let mut nci = ForNci::default();
+    let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
+    for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {
+        let held = invest.contains_key(&e.id);
+        let Some(record) = acq.get(&e.id).copied() else {
+            if held {
+                found.push(acquisition_missing(&e.id));
+            }
+            continue;
+        };
+        // At the opening, this year's impairment has not been recognised yet.
+        let a = if cx.period < cx.translated_from {
+            Acquisition {
+                impairment: record.impairment - record.impairment_year,
+                impairment_year: Decimal::ZERO,
+                ..record.clone()
+            }
+        } else {
+            record.clone()
+        };
+        let Some(fc) = cx.currencies.get(&e.id).copied() else { continue };
+        found.extend(findings(e, Some(&a), held, fc, cx.fiscal_start, cx.roles, &statement_of));
+        let m = measure(e, &a, cx.fiscal_start, cx.roles);
+        let sub = Acquired { cx, e, a, fc, m };
+        post_one(j, &sub, invest, months, &mut nci);
+    }
+    nci
+}
+
+/// The entry of one subsidiary.
+fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &InvestmentMonths, nci: &mut ForNci) {
+    let (cx, e, a) = (sub.cx, sub.e, &sub.a);
+    let roles = cx.roles;
+    let goodwill_fc = sub.goodwill_fc();
+    let nci_pres = sub.at_hist(sub.m.nci_fc);
+    let impairment_pres = sub.to_pres(a.impairment, cx.period);
+    nci.pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
+    let fva = sub.fair_value();
+    let mut lines = Vec::new();
+    let (investment_total, holders_fx_year) = investment_lines(sub, invest, months, &mut lines);
+    equity_acquired_lines(sub, fva.as_ref(), &mut lines);
+    if let Some((_, _, now)) = &fva {
+        nci.fair_value_now.insert(e.id.clone(), *now);
+    }
+    lines.push(line(&roles.goodwill, &e.id, None, sub.to_pres(goodwill_fc, cx.period)));
+    if let Some(acct) = &sub.m.bargain_account {
+        lines.push(line(acct, &e.id, None, -sub.at_hist(sub.m.bargain_fc)));
+    }
+    lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
+    let impairment_year_pres = impairment_lines(sub, impairment_pres, &mut lines);
+    exchange_difference_lines(sub, fva.as_ref(), &holders_fx_year, &mut lines, nci);
+    if a.nci_measurement == NciMeasurement::FairValue {
+        full_goodwill_lines(sub, impairment_year_pres, &mut lines, nci);
+    }
+    let mut involved: Vec<EntityId> = invest.get(&e.id).into_iter().flatten().map(|(h, _, _)| h.clone()).collect();
+    involved.push(e.id.clone());
+    j.post(
+        EliminationRule::InvestmentAndGoodwill,
+        cx.parent_of(e),
+        involved,
+        format!(
+            "investment in {} ({}) against equity at acquisition {}, goodwill {} {} (IFRS 3.32), NCI at acquisition {}{}",
+            e.id,
+            money::format_amount(investment_total, cx.minor),
+            money::format_amount(a.net_assets_presentation, cx.minor),
+            sub.fc,
+            money::format_amount(goodwill_fc, sub.fc.minor_unit()),
+            money::format_amount(nci_pres, cx.minor),
+            if impairment_pres.is_zero() {
+                String::new()
+            } else {
+                format!(", impairment to date {}", money::format_amount(impairment_pres, cx.minor))
+            }
+        ),
+        lines,
+    );
+}
+
+/// The consolidated holders' investment lines, reversed; returns their total and this
+/// year's exchange difference on each.
+fn investment_lines(
+    sub: &Acquired,
+    invest: &Investments,
+    months: &InvestmentMonths,
+    lines: &mut Vec<EntryLine>,
+) -> (Decimal, Vec<(EntityId, Decimal)>) {
+    let (cx, e, a) = (sub.cx, sub.e, &sub.a);
+    let mut total = Decimal::ZERO;
+    let mut holders_fx_year = Vec::new();
+    let at_hist = |x: Decimal| sub.at_hist(x);
+    for (holder, acct, amount) in invest.get(&e.id).into_iter().flatten() {
+        if !cx.consolidated.contains(holder) {
+            continue;
+        }
+        lines.push(line(acct, holder, Some(&e.id), -*amount));
+        total += *amount;
+        let acquired_this_year =
+            Period::of_date(a.date) >= cx.fiscal_start && cx.currencies.get(holder).is_some_and(|c| *c == sub.fc);
+        let acquired: Option<(Period, &dyn Fn(Decimal) -> Decimal)> =
+            if acquired_this_year { Some((Period::of_date(a.date), &at_hist)) } else { None };
+        let fx = investment_fx_year(cx, months.get(&(holder.clone(), acct.clone(), e.id.clone())), acquired);
+        if !fx.is_zero() {
+            holders_fx_year.push((holder.clone(), fx));
+        }
+    }
+    (total, holders_fx_year)
+}
+
+/// The equity acquired: the subsidiary's contributed capital (share capital, premium
+/// and other equity accounts that are not reserves of the group) in full, and the rest
+/// of the net assets acquired from its retained earnings. The books hold the net assets
+/// acquired less the fair value adjustment: only that part of the retained earnings is
+/// pre-acquisition in the books, and the adjustment itself is added to its account.
+fn equity_acquired_lines(sub: &Acquired, fva: Option<&(GroupAccount, Decimal, Decimal)>, lines: &mut Vec<EntryLine>) {
+    let (cx, e) = (sub.cx, sub.e);
+    let roles = cx.roles;
+    let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
+    let mut capital = Decimal::ZERO;
+    for ((acct, cp), amount) in cx.balances_of(&e.id) {
+        if cx.is_equity(acct) && !reserves.contains(&acct) && !amount.is_zero() {
+            lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
+            capital += -*amount;
+        }
+    }
+    let fva_hist = fva.map(|x| x.1).unwrap_or_default();
+    lines.push(line(&roles.retained_earnings, &e.id, None, sub.a.net_assets_presentation - fva_hist - capital));
+    if let Some((acct, _, now)) = fva {
+        lines.push(line(acct, &e.id, None, *now));
+    }
+}
+
+/// Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill is
+/// carried at: the part of this fiscal year is an expense of the year (IAS 36.60), the
+/// part of earlier years sits in retained earnings. Returns the year's part.
+fn impairment_lines(sub: &Acquired, impairment_pres: Decimal, lines: &mut Vec<EntryLine>) -> Decimal {
+    let (cx, e, a) = (sub.cx, sub.e, &sub.a);
+    let impairment_year_pres = match (&cx.roles.goodwill_impairment, a.impairment_year.is_zero()) {
+        (Some(acct), false) => {
+            let x = sub.to_pres(a.impairment_year, cx.period);
+            lines.push(line(acct, &e.id, None, x));
+            x
+        }
+        // Without the account the finding blocks the close.
+        _ => Decimal::ZERO,
+    };
+    if !(impairment_pres - impairment_year_pres).is_zero() {
+        lines.push(line(&cx.roles.retained_earnings, &e.id, None, impairment_pres - impairment_year_pres));
+    }
+    impairment_year_pres
+}
+
+/// The residual of the entry so far is exchange difference: goodwill at the closing
+/// rate against equity at historical rates (IAS 21.47). This year's part goes to OCI,
+/// the part brought forward to the reserve.
+fn exchange_difference_lines(
+    sub: &Acquired,
+    fva: Option<&(GroupAccount, Decimal, Decimal)>,
+    holders_fx_year: &[(EntityId, Decimal)],
+    lines: &mut Vec<EntryLine>,
+    nci: &mut ForNci,
+) {
+    let (cx, e, a) = (sub.cx, sub.e, &sub.a);
+    let roles = cx.roles;
+    let residual: Decimal = lines.iter().map(|l| l.amount).sum();
+    let opening_period = sub.opening_period();
+    // The exchange difference is that of the goodwill before impairment: the
+    // impairment is charged at the closing rate, so together they move the carrying
+    // amount from its rate at acquisition to the closing rate exactly.
+    let gross_fc = sub.goodwill_fc() + a.impairment;
+    let goodwill_fx_year = match opening_period {
+        Some(p0) => sub.to_pres(gross_fc, cx.period) - sub.to_pres(gross_fc, p0),
+        None => sub.to_pres(gross_fc, cx.period) - sub.at_hist(gross_fc),
+    };
+    // The fair value adjustment's exchange difference, like goodwill's, is OCI of the
+    // year for the part since the opening; it is shared with the NCI as the
+    // subsidiary's other net assets are (`nci.rs`).
+    let fva_fx_year = match (fva, opening_period) {
+        (None, _) => Decimal::ZERO,
+        (Some((_, _, now)), Some(p0)) => *now - sub.to_pres(a.fair_value_adjustment, p0),
+        (Some((_, hist, now)), None) => *now - *hist,
+    };
+    if !fva_fx_year.is_zero() {
+        nci.fair_value_oci.insert(e.id.clone(), fva_fx_year);
+    }
+    let goodwill_fx_year = goodwill_fx_year + fva_fx_year;
+    // A fall in goodwill's value in the presentation currency is a loss (a debit).
+    lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
+    // The holder's translation difference of the year includes the exchange difference
+    // on its investment, retranslated at the closing rate; in the group the investment
+    // is replaced by the subsidiary's net assets, whose exchange difference is the
+    // subsidiary's own translation difference (IAS 21.39c). The investment's part of
+    // the year is reversed against the holder's OCI of the year (a gain on the
+    // investment was a credit: the reversal is a debit); only the part brought forward
+    // goes to the reserve.
+    let mut investment_fx_total = Decimal::ZERO;
+    for (holder, fx) in holders_fx_year {
+        lines.push(line(&roles.translation_difference, holder, Some(&e.id), *fx));
+        *nci.investment_fx.entry(holder.clone()).or_default() += *fx;
+        investment_fx_total += *fx;
+    }
+    lines.push(line(&roles.translation_reserve, &e.id, None, -residual + goodwill_fx_year - investment_fx_total));
+}
+
+/// Under full goodwill (IFRS 3.19) part of the goodwill is the NCI's: its fair value
+/// less its share of the net assets. The exchange difference on that part is the NCI's
+/// (IAS 21.41), and so is its share of the impairment, allocated on the same basis as
+/// profit (IAS 36.C6): both are moved from the owners' equity to the NCI.
+fn full_goodwill_lines(sub: &Acquired, impairment_year_pres: Decimal, lines: &mut Vec<EntryLine>, nci: &mut ForNci) {
+    let (cx, e, a) = (sub.cx, sub.e, &sub.a);
+    let roles = cx.roles;
+    let outside = sub.m.outside;
+    let nci_goodwill_fc = sub.m.nci_fc - outside * a.net_assets;
+    let nci_impairment = sub.to_pres(outside * a.impairment, cx.period);
+    if !impairment_year_pres.is_zero() {
+        // The NCI's share of the year's impairment is part of its share of profit.
+        nci.nci_impairment_year.insert(e.id.clone(), sub.to_pres(outside * a.impairment_year, cx.period));
+    }
+    let nci_goodwill_now = sub.to_pres(nci_goodwill_fc, cx.period);
+    let fx_to_date = nci_goodwill_now - sub.at_hist(nci_goodwill_fc);
+    let fx_year = match sub.opening_period() {
+        Some(p0) => nci_goodwill_now - sub.to_pres(nci_goodwill_fc, p0),
+        None => fx_to_date,
+    };
+    lines.push(line(&roles.non_controlling_interest, &e.id, None, nci_impairment - fx_to_date));
+    lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
+    nci.nci_goodwill_oci.insert(e.id.clone(), fx_year);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+    use crate::load::{Quote, Rate};
+
+    fn acquisition(consideration: &str, net_assets: &str, net_assets_presentation: &str) -> Acquisition {
+        Acquisition {
+            owned: id("S"),
+            date: chrono::NaiveDate::from_ymd_opt(2020, 1, 1).unwrap_or_default(),
+            consideration: d(consideration),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d(net_assets),
+            net_assets_presentation: d(net_assets_presentation),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::file("entities/acquisitions.csv"),
+        }
+    }
+
+    /// P (EUR) bought 80% of S (USD) in 2020 for USD 1,000, net assets USD 1,000 (EUR
+    /// 500 at 2 USD per EUR then). NCI at its share of net assets: 20% x 1,000 = USD
+    /// 200, EUR 100 at the acquisition rate. Goodwill 1,000 + 200 - 1,000 = USD 200
+    /// (IFRS 3.32). P carries the investment at EUR 500; S's capital is EUR 600 as
+    /// booked, so the rest of the equity acquired, 500 - 600 = -100, comes from its
+    /// retained earnings. The dollar falls from 2 (opening) to 2.5 per EUR (June):
+    /// goodwill is USD 200 / 2.5 = EUR 80 (IAS 21.47), a loss of 100 - 80 = 20 in
+    /// this year's OCI; nothing goes to the reserve brought forward.
+    /// Lines: 1200 P -500, 3000 S +600, 3200 S -100, 1100 S +80, 3900 S -100,
+    /// 9000 S +20; -500 + 600 - 100 + 80 - 100 + 20 = 0.
+    #[test]
+    fn investment_against_equity_at_acquisition_with_goodwill_at_the_closing_rate() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let invest = investments(&cx);
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[acquisition("1000", "1000", "500")], &invest, &Default::default(), &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(j.entries.len(), 1);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1200".into(), "P".into(), "-500".into()),
+                ("3000".into(), "S".into(), "600".into()),
+                ("3200".into(), "S".into(), "-100".into()),
+                ("1100".into(), "S".into(), "80".into()),
+                ("3900".into(), "S".into(), "-100".into()),
+                ("9000".into(), "S".into(), "20".into())
+            ]
+        );
+        assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+    }
+
+    /// Consideration 700 + NCI 200 - net assets 1,000 = -100: a bargain purchase
+    /// (IFRS 3.34). In the acquisition year its gain needs an account: without one a
+    /// blocking finding, and the warning that the goodwill is negative (IFRS 3.36).
+    /// With one, the gain is recognised and goodwill is 0.
+    #[test]
+    fn a_bargain_purchase_is_a_gain_with_its_account_and_a_finding_without() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2026-02-01")], p("2026-06"));
+        let e = &w.structure.entities()[1];
+        assert_eq!(e.id.as_str(), "S");
+        let mut a = acquisition("700", "1000", "500");
+        a.date = chrono::NaiveDate::from_ymd_opt(2026, 2, 1).unwrap_or_default();
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        let statement = |_: &GroupAccount| Some(Statement::BalanceSheet);
+        let rules = |roles: &RoleAccounts| -> Vec<Rule> {
+            findings(e, Some(&a), true, usd, p("2026-01"), roles, &statement).iter().map(|f| f.rule).collect()
+        };
+        let mut roles = roles();
+        assert_eq!(rules(&roles), [Rule::SettingInvalid, Rule::GoodwillNegative]);
+        assert_eq!(measure(e, &a, p("2026-01"), &roles).bargain_fc, Decimal::ZERO);
+        roles.bargain_purchase_gain = Some(acct("4000"));
+        assert_eq!(rules(&roles), [Rule::GoodwillNegative]);
+        let m = measure(e, &a, p("2026-01"), &roles);
+        assert_eq!((m.goodwill_fc, m.bargain_fc, m.goodwill_fc + m.bargain_fc), (d("-100"), d("100"), d("0")));
+        assert_eq!(
+            findings(e, None, true, usd, p("2026-01"), &roles, &statement).iter().map(|f| f.rule).collect::<Vec<_>>(),
+            [Rule::AcquisitionMissing]
+        );
+        assert!(findings(e, None, false, usd, p("2026-01"), &roles, &statement).is_empty());
+    }
+}

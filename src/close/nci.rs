@@ -1,0 +1,165 @@
+//! Rule `non_controlling_interest`: the effective outside share of each subsidiary's
+//! post-acquisition equity (IFRS 10.22, B94), profit, OCI and translation difference
+//! included (IAS 21.41), multi-tier through effective interests. Also the NCI rows: the
+//! NCI's share of the subsidiary's profit and OCI of the year and its NCI in equity.
+//!
+//! It reads the journal posted so far: each subsidiary's own lines of the earlier rules
+//! (the unrealised profit it made, its results before control, the exchange difference
+//! moved from its profit or loss, the NCI at acquisition), and what the investment rule
+//! measured ([`ForNci`]).
+
+use std::collections::BTreeMap;
+
+use rust_decimal::Decimal;
+
+use super::NciRow;
+use super::context::Context;
+use super::investment::ForNci;
+use super::journal::{EliminationRule, EntryLine, Journal, line};
+use crate::model::*;
+use crate::money;
+use crate::structure::EntityStructure;
+
+/// The journal's lines by the entity they correct, with their rule.
+type LinesOf<'j> = BTreeMap<&'j EntityId, Vec<(EliminationRule, &'j EntryLine)>>;
+
+/// Posts one entry per subsidiary with an NCI and returns its NCI row.
+pub fn post(j: &mut Journal, cx: &Context, measured: &ForNci) -> Vec<NciRow> {
+    let journal_so_far = j.entries.clone();
+    // Each subsidiary's NCI reads only its own lines.
+    let mut lines_of: LinesOf = BTreeMap::new();
+    for x in &journal_so_far {
+        for l in &x.lines {
+            lines_of.entry(&l.entity).or_default().push((x.rule, l));
+        }
+    }
+    let no_lines = Vec::new();
+    let mut rows = Vec::new();
+    for e in cx.of_method(Method::Full).filter(|e| !e.nci.is_zero()) {
+        let own = lines_of.get(&e.id).unwrap_or(&no_lines);
+        rows.push(post_one(j, cx, measured, e, own));
+    }
+    rows
+}
+
+/// The sum of a subsidiary's own journal lines of `rules` on accounts that pass `keep`.
+fn own_sum(
+    own: &[(EliminationRule, &EntryLine)],
+    rules: &[EliminationRule],
+    keep: &dyn Fn(&EntryLine) -> bool,
+) -> Decimal {
+    own.iter().filter(|(rule, l)| rules.contains(rule) && keep(l)).map(|(_, l)| l.amount).sum()
+}
+
+fn post_one(
+    j: &mut Journal,
+    cx: &Context,
+    m: &ForNci,
+    e: &EntityStructure,
+    own: &[(EliminationRule, &EntryLine)],
+) -> NciRow {
+    let roles = cx.roles;
+    let of = |x: &BTreeMap<EntityId, Decimal>| x.get(&e.id).copied().unwrap_or_default();
+    // The subsidiary's own equity, results of the year and translation difference
+    // included, less the equity at acquisition that the investment entry removed.
+    let equity_total =
+        -cx.balances_of(&e.id).filter(|((a, _), _)| cx.is_equity_or_flow(a)).map(|(_, v)| *v).sum::<Decimal>();
+    // Unrealised profit the subsidiary made on sales inside the group reduces its
+    // post-acquisition equity, and so the NCI's share (upstream).
+    let unrealised = own_sum(own, &[EliminationRule::UnrealisedProfit], &|l| cx.is_equity_or_flow(&l.account));
+    // The fair value adjustment at the closing rate is part of the subsidiary's net
+    // assets in the group, as it was part of the net assets acquired. A holder's
+    // exchange difference of the year on its investments in subsidiaries is eliminated
+    // (the investment rule): its NCI's share of that exchange exposure is already in
+    // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
+    let holder_fx = of(&m.investment_fx);
+    let post = equity_total + of(&m.fair_value_now) - unrealised - of(&m.pre_acquisition) - holder_fx;
+    let nci_post = cx.round(post * e.nci);
+    // No adjustment for the holder's investments in its own subsidiaries: each
+    // subsidiary's NCI at acquisition is its direct outside share (or fair value), and
+    // its post-acquisition equity is shared by the effective NCI, which already holds
+    // the holder's NCI's indirect part (P 80% of S, S 60% of T: 40% + 20% x 60% = 52%).
+    // Deducting the holder's NCI's share of the investment's cost as well would count
+    // that part twice. Results before control are not the group's (nor the NCI's).
+    let not_the_groups =
+        [EliminationRule::PreAcquisitionResults, EliminationRule::UnrealisedProfit, EliminationRule::NetInvestmentFx];
+    let result_of = |st: Statement| -> Decimal {
+        let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
+        view + own_sum(own, &not_the_groups, &|l| cx.in_statement(&l.account, st))
+    };
+    let profit = -result_of(Statement::ProfitOrLoss);
+    let oci = -result_of(Statement::Oci) + of(&m.fair_value_oci) - holder_fx;
+    j.post(
+        EliminationRule::NonControllingInterest,
+        cx.parent_of(e),
+        vec![e.id.clone()],
+        format!(
+            "NCI {} of post-acquisition equity {} of {}",
+            e.nci.normalize(),
+            money::format_amount(post, cx.minor),
+            e.id
+        ),
+        vec![
+            line(&roles.non_controlling_interest, &e.id, None, -nci_post),
+            line(&roles.retained_earnings, &e.id, None, nci_post),
+        ],
+    );
+    // The NCI at acquisition, posted by the investment rule.
+    let nci_acq =
+        -own_sum(own, &[EliminationRule::InvestmentAndGoodwill], &|l| l.account == roles.non_controlling_interest);
+    NciRow {
+        entity: e.id.clone(),
+        nci_share: e.nci,
+        profit: cx.round(profit * e.nci) - of(&m.nci_impairment_year),
+        oci: cx.round(oci * e.nci) + of(&m.nci_goodwill_oci),
+        equity: nci_acq + nci_post,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+
+    /// P holds 80% of S: NCI 20%. S's books: capital 600, retained earnings 100,
+    /// revenue 300, cost of sales 200 (profit 100), OCI gain 50: equity 850 in all,
+    /// credits. The equity at acquisition was 500, so post-acquisition equity is 350.
+    /// S sold goods to P with 25 of profit still unrealised (upstream): 325 is left,
+    /// and the NCI's share is 20% x 325 = 65 (3900 -65, 3200 +65). NCI row: profit
+    /// 20% x (100 - 25) = 15, OCI 20% x 50 = 10, equity 100 at acquisition + 65 = 165.
+    #[test]
+    fn the_effective_outside_share_of_post_acquisition_equity() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let (s, pp) = (id("S"), id("P"));
+        j.post(
+            EliminationRule::InvestmentAndGoodwill,
+            pp.clone(),
+            vec![s.clone()],
+            "at acquisition".into(),
+            vec![line(&acct("3900"), &s, None, d("-100")), line(&acct("3200"), &s, None, d("100"))],
+        );
+        j.post(
+            EliminationRule::UnrealisedProfit,
+            pp.clone(),
+            vec![s.clone(), pp.clone()],
+            "upstream".into(),
+            vec![line(&acct("1500"), &pp, Some(&s), d("-25")), line(&acct("5000"), &s, Some(&pp), d("25"))],
+        );
+        let measured = ForNci { pre_acquisition: BTreeMap::from([(s.clone(), d("500"))]), ..ForNci::default() };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(entry.rule, EliminationRule::NonControllingInterest);
+        assert_eq!(lines(entry), [("3900".into(), "S".into(), "-65".into()), ("3200".into(), "S".into(), "65".into())]);
+        let r = &rows[0];
+        assert_eq!((r.nci_share, r.profit, r.oci, r.equity), (d("0.2"), d("15"), d("10"), d("165")));
+    }
+}

@@ -1,0 +1,99 @@
+//! Rule `pre_acquisition_results`: the results a subsidiary made in this fiscal year
+//! before the group obtained control belong to the equity acquired (IFRS 10.B88), not to
+//! the group's profit; they are moved from income and expense (translation difference
+//! included) into pre-acquisition retained earnings, which the investment entry then
+//! eliminates.
+
+use std::collections::BTreeMap;
+
+use chrono::NaiveDate;
+use rust_decimal::Decimal;
+
+use super::aggregate::{Balances, EntityBalances};
+use super::context::Context;
+use super::journal::{EliminationRule, Journal, line};
+use crate::model::{Method, Period};
+use crate::structure::EntityStructure;
+
+/// The subsidiaries that came under control during this fiscal year, up to the period:
+/// each with its control date and the month end before it, whose balances hold its
+/// results before control.
+pub fn acquired_this_year<'a>(cx: &Context<'a>) -> Vec<(&'a EntityStructure, NaiveDate, Period)> {
+    cx.of_method(Method::Full)
+        .filter_map(|e| {
+            let from = e.controlled_from?;
+            let control_month = Period::of_date(from);
+            (control_month > cx.fiscal_start && control_month <= cx.period).then(|| (e, from, control_month.prev()))
+        })
+        .collect()
+}
+
+/// Posts one entry per subsidiary acquired this year, from the balances at the month
+/// end before its control month (`before`, one aggregate per month).
+pub fn post(j: &mut Journal, cx: &Context, before: &BTreeMap<Period, Balances>) {
+    let none = EntityBalances::new();
+    for (e, from, month) in acquired_this_year(cx) {
+        let own = before.get(&month).and_then(|b| b.get(&e.id)).unwrap_or(&none);
+        let mut lines = Vec::new();
+        let mut total = Decimal::ZERO;
+        for ((acct, cp), amount) in own {
+            if cx.is_flow(acct) {
+                lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
+                total += *amount;
+            }
+        }
+        lines.push(line(&cx.roles.retained_earnings, &e.id, None, total));
+        j.post(
+            EliminationRule::PreAcquisitionResults,
+            cx.parent_of(e),
+            vec![e.id.clone()],
+            format!("results of {} before control on {from} moved into equity at acquisition", e.id),
+            lines,
+        );
+    }
+}
+
+/// The month ends whose balances [`post`] reads.
+pub fn months_needed(cx: &Context) -> Vec<Period> {
+    acquired_this_year(cx).into_iter().map(|(_, _, m)| m).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+
+    /// S is bought on 15 April 2026 (fiscal year from January). At 31 March its books
+    /// show revenue 100 (a credit, -100) and cost of sales 60: a profit of 40 made
+    /// before control. The entry reverses both (4000 +100, 5000 -60) and credits the 40
+    /// to retained earnings at acquisition (3200 -40); 100 - 60 - 40 = 0.
+    #[test]
+    fn results_before_control_move_into_equity() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2026-04-15")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), Balances::new());
+        let before =
+            BTreeMap::from([(p("2026-03"), balances(&[("S", "4000", None, "-100"), ("S", "5000", None, "60")]))]);
+        let mut j = Journal::default();
+        post(&mut j, &cx, &before);
+        assert_eq!(j.entries.len(), 1);
+        let e = &j.entries[0];
+        assert_eq!((e.rule, e.posted_at.as_str()), (EliminationRule::PreAcquisitionResults, "P"));
+        assert_eq!(
+            lines(e),
+            [
+                ("4000".into(), "S".into(), "100".into()),
+                ("5000".into(), "S".into(), "-60".into()),
+                ("3200".into(), "S".into(), "-40".into())
+            ]
+        );
+        assert_eq!(months_needed(&cx), [p("2026-03")]);
+    }
+
+    /// Bought before the fiscal year (or after the period): nothing to move.
+    #[test]
+    fn acquisitions_outside_the_year_post_nothing() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2025-06-01")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), Balances::new());
+        assert!(acquired_this_year(&cx).is_empty());
+    }
+}

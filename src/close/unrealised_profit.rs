@@ -1,0 +1,164 @@
+//! Rule `unrealised_profit`: profit a group entity made on goods another still holds is
+//! not realised by the group (IFRS 10.B86(c)). The latest count at or before the period,
+//! in the buyer's currency at the closing rate, is taken out of the buyer's inventory.
+//! The seller bears it (upstream it is shared with the seller's NCI, `nci.rs`;
+//! downstream it is borne by the parent): what was eliminated at the opening is charged
+//! to retained earnings, the change of the year to cost of sales, and the exchange
+//! difference on the opening part to OCI.
+
+use std::collections::BTreeMap;
+
+use rust_decimal::Decimal;
+
+use super::context::Context;
+use super::journal::{EliminationRule, Journal, line};
+use crate::findings::{Finding, Rule};
+use crate::model::{EntityId, InventoryProfit, Period, RoleAccounts};
+use crate::money;
+
+/// Per seller and buyer: the latest count to the period, and the latest count before the
+/// fiscal year (the opening), if any.
+type Counts<'a> = BTreeMap<(EntityId, EntityId), (&'a InventoryProfit, Option<&'a InventoryProfit>)>;
+
+fn latest_counts<'a>(items: &'a [InventoryProfit], period: Period, fiscal_start: Period) -> Counts<'a> {
+    let mut latest: Counts<'a> = BTreeMap::new();
+    for ip in items.iter().filter(|x| x.period <= period) {
+        let key = (ip.seller.clone(), ip.buyer.clone());
+        let opening = ip.period < fiscal_start;
+        let slot = latest.entry(key).or_insert((ip, None));
+        if opening {
+            slot.1 = Some(match slot.1 {
+                Some(o) if o.period >= ip.period => o,
+                _ => ip,
+            });
+        }
+        if ip.period >= slot.0.period {
+            slot.0 = ip;
+        }
+    }
+    latest
+}
+
+/// The settings this rule needs when there are counts to the period: the inventory and
+/// cost of sales accounts. `check` raises the same finding.
+pub fn missing_accounts(roles: &RoleAccounts, items: &[InventoryProfit], period: Period) -> Option<Finding> {
+    let needed = items.iter().any(|x| x.period <= period);
+    (needed && (roles.inventory.is_none() || roles.cost_of_sales.is_none())).then(|| {
+        Finding::new(
+            Rule::SettingInvalid,
+            "inventory_profit.csv has rows but group.toml names no `accounts.inventory` and `accounts.cost_of_sales`",
+            "name the group accounts for inventory and cost of sales",
+        )
+    })
+}
+
+/// Posts one entry per seller and buyer, both consolidated; raises the missing
+/// settings as a finding instead.
+pub fn post(j: &mut Journal, cx: &Context, items: &[InventoryProfit], findings: &mut Vec<Finding>) {
+    let (Some(inventory), Some(cogs)) = (&cx.roles.inventory, &cx.roles.cost_of_sales) else {
+        findings.extend(missing_accounts(cx.roles, items, cx.period));
+        return;
+    };
+    for ((seller, buyer), (now, open)) in &latest_counts(items, cx.period, cx.fiscal_start) {
+        if !cx.consolidated.contains(seller) || !cx.consolidated.contains(buyer) {
+            continue;
+        }
+        let Some(bc) = cx.currencies.get(buyer).copied() else { continue };
+        let urp_now_fc = if now.period < cx.fiscal_start && open.is_none() {
+            Decimal::ZERO
+        } else {
+            now.inventory_amount * now.margin_rate
+        };
+        let urp_open_fc = open.map(|o| o.inventory_amount * o.margin_rate).unwrap_or_default();
+        let (Some(urp_now), Some(urp_open_then), Some(urp_open_now)) = (
+            cx.at_closing(bc, urp_now_fc, cx.period),
+            cx.at_closing(bc, urp_open_fc, cx.fiscal_start.prev()),
+            cx.at_closing(bc, urp_open_fc, cx.period),
+        ) else {
+            continue;
+        };
+        let change = urp_now - urp_open_now;
+        let fx = urp_open_now - urp_open_then;
+        j.post(
+            EliminationRule::UnrealisedProfit,
+            cx.lcp(seller, buyer),
+            vec![seller.clone(), buyer.clone()],
+            format!(
+                "profit of {seller} on goods held by {buyer}: {bc} {} x {} = {}",
+                now.inventory_amount,
+                now.margin_rate,
+                money::format_amount(urp_now, cx.minor)
+            ),
+            vec![
+                line(inventory, buyer, Some(seller), -urp_now),
+                line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then),
+                line(cogs, seller, Some(buyer), change),
+                line(&cx.roles.translation_difference, seller, Some(buyer), fx),
+            ],
+        );
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::*;
+    use crate::load::{Quote, Rate};
+    use crate::model::{Currency, Source};
+
+    fn count(period: &str, inventory: &str, margin: &str) -> InventoryProfit {
+        InventoryProfit {
+            seller: id("P"),
+            buyer: id("S"),
+            period: p(period),
+            inventory_amount: d(inventory),
+            margin_rate: d(margin),
+            source: Source::file("entities/inventory_profit.csv"),
+        }
+    }
+
+    /// P sells to S (USD). At the opening S held USD 1,000 of P's goods at a 20% margin:
+    /// USD 200 unrealised, EUR 100 at 2 USD per EUR. At the period S holds USD 600 at
+    /// 25%: USD 150, and the dollar has fallen to 2.5 per EUR, so EUR 60. The opening
+    /// USD 200 is EUR 80 at today's rate. Inventory -60; retained earnings +100 (the
+    /// opening elimination); cost of sales 60 - 80 = -20 (less unrealised profit than
+    /// at the opening); OCI 80 - 100 = -20 (the exchange loss on the opening part).
+    /// -60 + 100 - 20 - 20 = 0.
+    #[test]
+    fn downstream_with_an_opening_count_and_a_rate_change() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "1", "2020-01-01")], p("2026-06"));
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let items = [count("2025-12", "1000", "0.2"), count("2026-05", "600", "0.25"), count("2026-07", "1", "0.5")];
+        let mut j = Journal::default();
+        let mut findings = Vec::new();
+        post(&mut j, &cx, &items, &mut findings);
+        assert!(findings.is_empty());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1500".into(), "S".into(), "-60".into()),
+                ("3200".into(), "P".into(), "100".into()),
+                ("5000".into(), "P".into(), "-20".into()),
+                ("9000".into(), "P".into(), "-20".into())
+            ]
+        );
+    }
+
+    /// Counts but no inventory account: a finding, nothing posted.
+    #[test]
+    fn counts_without_the_accounts_are_a_finding() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "1", "2020-01-01")], p("2026-06"));
+        let mut roles = roles();
+        roles.inventory = None;
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        cx.roles = &roles;
+        let mut j = Journal::default();
+        let mut findings = Vec::new();
+        post(&mut j, &cx, &[count("2026-05", "600", "0.25")], &mut findings);
+        assert!(j.entries.is_empty());
+        assert_eq!(findings.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::SettingInvalid]);
+        assert!(missing_accounts(&roles, &[count("2026-07", "600", "0.25")], p("2026-06")).is_none());
+    }
+}
