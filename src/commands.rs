@@ -598,6 +598,17 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
         "income_translation": ds.settings.policies.income_translation,
         "ifric16": ds.settings.policies.ifric16,
         "significant_influence": ds.settings.policies.significant_influence.to_string(),
+        "intercompany": {
+            "tolerance_absolute": ds.settings.intercompany.tolerance_absolute.to_string(),
+            "tolerance_relative": ds.settings.intercompany.tolerance_relative.to_string(),
+            "timing_window_days": ds.settings.intercompany.timing_window_days,
+            "differences_posted_to": ds.settings.accounts.intercompany_difference.as_str(),
+            "accepted_differences": ds.accepted_differences.len(),
+        },
+        "plausibility": {
+            "rate_move": ds.settings.plausibility.rate_move.to_string(),
+            "sign_months": ds.settings.plausibility.sign_months,
+        },
     });
     let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
     let scope_key = if c.root == ds.settings.parent { "group".to_string() } else { c.root.to_string() };
