@@ -1354,6 +1354,25 @@ fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mu
         else {
             continue;
         };
+        // The close takes shares of the net assets at the acquisition date's rate as
+        // amount x net_assets_presentation / net_assets (exact, one rounding), which must
+        // stay inside rust_decimal's 28 digits: the product is bounded here, where the
+        // row is known, rather than overflowing in the close.
+        let widest = [nci_fv.unwrap_or_default(), na, fva].into_iter().map(|x| x.abs()).max().unwrap_or_default();
+        if widest.checked_mul(nap.abs()).is_none_or(|p| p >= Decimal::from_i128_with_scale(10i128.pow(27), 0)) {
+            f.push(
+                Finding::new(
+                    Rule::AmountTooLarge,
+                    format!(
+                        "`net_assets_presentation` {nap} times the largest of `net_assets`, `nci_fair_value` and `fair_value_adjustment` ({widest}) is not below 10^27, beyond exact arithmetic"
+                    ),
+                    "check the amounts and their units; one of them is almost certainly a pasting or unit error",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            continue;
+        }
         if m == NciMeasurement::FairValue && nci_fv.is_none() {
             f.push(
                 Finding::new(

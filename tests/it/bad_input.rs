@@ -461,6 +461,18 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "acquisition amounts whose product leaves exact arithmetic",
+            mutate: |f| {
+                f.replace(
+                    "entities/acquisitions.csv",
+                    "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+                    "GLF-BH,2026-04-01,999999999999999.999,fair_value,999999999999999.999,-999999999999999.999,999999999999999.99",
+                )
+            },
+            rule: Some("AmountTooLarge"),
+            code: 1,
+        },
+        Case {
             name: "an acquisition amount that is no number",
             mutate: |f| f.replace("entities/acquisitions.csv", "4500000.00,share", "4.5m,share"),
             rule: Some("AmountMalformed"),
@@ -636,6 +648,113 @@ fn each_bad_input_gives_its_finding() {
         }
     }
     assert!(failures.is_empty(), "{} of {} cases failed:\n{}", failures.len(), cases.len(), failures.join("\n"));
+}
+
+/// Amounts and rates at the edges of what the formats allow: the close runs (here a
+/// draft, past the acceptances that no longer fit) without a panic.
+#[test]
+fn extreme_values_within_the_limits_do_not_panic() {
+    let f = Folder::demo();
+    f.replace(
+        "entities/acquisitions.csv",
+        "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+        "GLF-BH,2026-04-01,9999999999999.999,fair_value,9999999999999.999,-9999999999999.999,9999999999999.99",
+    );
+    map_lines(&f, "rates/monthly.csv", |_, l| {
+        let c: Vec<&str> = l.split(',').collect();
+        match c.get(1) {
+            Some(&"BHD") if c[0].starts_with("2026") => format!("{},BHD,0.001,0.001,{}", c[0], c[4..].join(",")),
+            Some(&"JPY") if c[0].starts_with("2026") => format!("{},JPY,1000000,1000000,{}", c[0], c[4..].join(",")),
+            _ => l.to_string(),
+        }
+    });
+    let out = tempfile::tempdir().expect("temp dir");
+    let (o, d) = (out.path().to_str().expect("utf-8").to_string(), f.path().to_str().expect("utf-8").to_string());
+    for draft in [false, true] {
+        let (o, d) = (o.clone(), d.clone());
+        let got = std::panic::catch_unwind(move || {
+            let mut args = vec!["close", "--period", "2026-12", "--out", &o, "--data", &d];
+            if draft {
+                args.push("--draft");
+            }
+            crate::support::run(&args)
+        });
+        let (code, text) = got.expect("no panic");
+        assert!((0..=2).contains(&code), "exit {code}: {text}");
+        assert!(!text.contains("overflow"), "{text}");
+    }
+}
+
+/// A final close refuses a missing month; a draft closes without the entity, and every
+/// output says it is a draft: the heading, the folder, each file name, proof.json.
+#[test]
+fn a_draft_closes_despite_exceptions_and_says_so() {
+    let f = Folder::demo();
+    f.remove(UK_DEC);
+    let out = tempfile::tempdir().expect("temp dir");
+    let o = out.path().to_str().expect("utf-8");
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-12", "--out", o]);
+    assert_eq!(code, 1, "{v:#}");
+    assert!(!out.path().join("2026-12").exists(), "a refused close writes nothing");
+    let d = f.path().to_str().expect("utf-8");
+    let (code, text) = crate::support::run(&["close", "--period", "2026-12", "--out", o, "--data", d, "--draft"]);
+    assert_eq!(code, 1, "a draft with exceptions exits 1");
+    assert!(text.starts_with("DRAFT, NOT A FINAL CLOSE"), "{text}");
+    let dir = out.path().join("2026-12/group/ytd-draft");
+    let names: Vec<String> = std::fs::read_dir(&dir)
+        .expect("draft folder")
+        .map(|e| e.expect("entry").file_name().to_string_lossy().to_string())
+        .collect();
+    assert!(names.len() >= 10, "{names:?}");
+    assert!(names.iter().all(|n| n.starts_with("draft-")), "{names:?}");
+    let proof: Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("draft-proof.json")).expect("proof")).expect("json");
+    assert_eq!(proof["status"], "draft");
+    assert_eq!(proof["tied"], false);
+    let rules: Vec<&str> =
+        proof["exceptions"].as_array().expect("exceptions").iter().filter_map(|x| x["rule"].as_str()).collect();
+    assert!(rules.contains(&"DeliveryMissing") && rules.contains(&"DeliverySetAside"), "{rules:?}");
+    // The draft leaves ALD-UK out: its revenue is not in the group's.
+    let demo_out = tempfile::tempdir().expect("temp dir");
+    let (_, full) = run_json(
+        &crate::support::repo(),
+        &["close", "--period", "2026-12", "--out", demo_out.path().to_str().expect("utf-8")],
+    );
+    let (_, draft) = run_json(f.path(), &["close", "--period", "2026-12", "--out", o, "--draft"]);
+    assert_eq!(full["proof"]["status"], "final");
+    assert_eq!(draft["proof"]["status"], "draft");
+    assert_ne!(figures(&full).get("4000"), figures(&draft).get("4000"));
+}
+
+/// Each close has its own folder: a month view and a sub-group close leave the group's
+/// year-to-date files as they were.
+#[test]
+fn views_and_scopes_write_their_own_folders() {
+    let out = tempfile::tempdir().expect("temp dir");
+    let o = out.path().to_str().expect("utf-8");
+    let repo = crate::support::repo();
+    let (code, _) = run_json(&repo, &["close", "--period", "2026-12", "--out", o]);
+    assert_eq!(code, 0);
+    let ytd = out.path().join("2026-12/group/ytd/group_trial_balance.csv");
+    let before = std::fs::read(&ytd).expect("ytd written");
+    for args in [vec!["--view", "month"], vec!["--entity", "ALD-US"]] {
+        let mut a = vec!["close", "--period", "2026-12", "--out", o];
+        a.extend(args);
+        let (code, v) = run_json(&repo, &a);
+        assert_eq!(code, 0, "{v:#}");
+    }
+    assert_eq!(std::fs::read(&ytd).expect("ytd still there"), before);
+    for sub in ["group/month", "ALD-US/ytd"] {
+        let proof: Value = serde_json::from_str(
+            &std::fs::read_to_string(out.path().join("2026-12").join(sub).join("proof.json")).expect("proof"),
+        )
+        .expect("json");
+        assert_eq!(proof["status"], "final");
+        assert_eq!(
+            format!("{}/{}", proof["scope"].as_str().unwrap_or_default(), proof["view"].as_str().unwrap_or_default()),
+            sub
+        );
+    }
 }
 
 /// The group trial balance of a close, by account.
