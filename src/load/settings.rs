@@ -45,7 +45,7 @@ const ROLE_KEYS: &[&str] = &[
     "goodwill_impairment",
     "bargain_purchase_gain",
 ];
-const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
+const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days", "timing"];
 const SEGMENT_KEYS: &[&str] = &[
     "key",
     "revenue",
@@ -317,6 +317,19 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
                 &format!("known settings: {}", IC_KEYS.join(", ")),
             );
         }
+    }
+    // How the close posts a timing difference. Only to the difference account for now:
+    // posting it as an in-transit item is a policy the close does not support yet, so
+    // asking for it is refused rather than ignored.
+    match raw.intercompany.get("timing") {
+        None => {}
+        Some(toml::Value::String(s)) if s == "difference" => {}
+        Some(toml::Value::String(s)) if s == "in_transit" => bad2(
+            "intercompany.timing",
+            "posting timing differences as in-transit items is not supported yet; the close posts them to the intercompany difference account".into(),
+            "set timing = \"difference\" (or leave it out) until the close supports in-transit items",
+        ),
+        Some(v) => bad2("intercompany.timing", format!("{v} is not a known policy"), "write timing = \"difference\""),
     }
     let mut dec = |k: &str| -> Option<Decimal> {
         match raw.intercompany.get(k) {

@@ -579,6 +579,18 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "timing differences asked for as in-transit items",
+            mutate: |f| {
+                f.replace(
+                    "entities/group.toml",
+                    "timing_window_days = 5",
+                    "timing_window_days = 5\ntiming = \"in_transit\"",
+                )
+            },
+            rule: Some("SettingInvalid"),
+            code: 1,
+        },
+        Case {
             name: "an unknown plausibility setting",
             mutate: |f| f.replace("entities/group.toml", "sign_months = 2", "sign_months = 2\nsigns = 3"),
             rule: Some("SettingInvalid"),
