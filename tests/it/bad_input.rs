@@ -769,6 +769,31 @@ fn views_and_scopes_write_their_own_folders() {
     }
 }
 
+/// Without --period the period defaults to the latest delivered; when nothing can be
+/// read for want of an entity list, the entity list's own finding is what the close
+/// says, not a request for --period.
+#[test]
+fn the_real_finding_is_not_replaced_by_a_request_for_the_period() {
+    let header_only: fn(&Folder) = |f| {
+        let text = f.read("entities/entities.csv");
+        f.write("entities/entities.csv", &format!("{}\n", text.lines().next().unwrap_or_default()));
+    };
+    let latin1: fn(&Folder) = |f| {
+        let text = f.read("entities/entities.csv");
+        let bytes: Vec<u8> = text.chars().map(|c| if c == 'ä' { 0xE4 } else { c as u8 }).collect();
+        write_bytes(f, "entities/entities.csv", &bytes);
+    };
+    for (mutate, rule, code) in [(header_only, "TableEmpty", 1), (latin1, "FileUnreadable", 2)] {
+        let f = Folder::demo();
+        mutate(&f);
+        let out = tempfile::tempdir().expect("temp dir");
+        let d = f.path().to_str().expect("utf-8");
+        let (got, text) = crate::support::run(&["close", "--data", d, "--out", out.path().to_str().expect("utf-8")]);
+        assert_eq!(got, code, "{text}");
+        assert!(text.contains(rule) && !text.contains("--period"), "{text}");
+    }
+}
+
 /// The group trial balance of a close, by account.
 fn figures(v: &Value) -> BTreeMap<String, String> {
     v["group_trial_balance"]
