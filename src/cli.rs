@@ -89,9 +89,13 @@ pub enum Command {
         /// Close the sub-group below this intermediate holding on its own.
         #[arg(long)]
         entity: Option<String>,
-        /// Folder for the output files (a sub-folder per period is written).
+        /// Folder for the output files (written to <period>/<scope>/<view>/ below it).
         #[arg(long = "out", default_value = "out")]
         out_dir: PathBuf,
+        /// Close despite blocking findings, leaving out the deliveries they concern;
+        /// every output is marked draft and lists the exceptions.
+        #[arg(long)]
+        draft: bool,
         #[arg(long, value_enum, default_value = "table")]
         format: Format,
     },
@@ -247,12 +251,15 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
                 crate::commands::RatesArgs { daily, base, months, overrides, currencies, presentation, out_file };
             crate::commands::rates(&cli.data, args, format, out)
         }
-        Command::Close { period, view, entity, out_dir, format } => crate::commands::close(
+        Command::Close { period, view, entity, out_dir, draft, format } => crate::commands::close(
             &cli.data,
-            period,
-            view,
-            entity.map(crate::model::EntityId::new),
-            &out_dir,
+            crate::commands::CloseRequest {
+                period,
+                view,
+                entity: entity.map(crate::model::EntityId::new),
+                draft,
+                out_dir: &out_dir,
+            },
             format,
             out,
         ),

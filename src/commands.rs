@@ -53,7 +53,17 @@ pub fn load_checked(data: &Path, period: Option<Period>) -> Result<(Option<Check
         findings.sort();
         return Ok((None, findings));
     };
-    let period = pick_period(&ds, period)?;
+    // With no trial balance to default the period to, a blocking finding (an unreadable
+    // entity list, say) is the real problem: it is reported, not replaced by the
+    // request for --period.
+    let period = match pick_period(&ds, period) {
+        Ok(p) => p,
+        Err(_) if findings.has_blocking() => {
+            findings.sort();
+            return Ok((None, findings));
+        }
+        Err(e) => return Err(e),
+    };
     let scope = Scope::new(period, ds.settings.fiscal_year_start);
     let mapped = map_accounts(&ds, scope.fiscal_start)?;
     let crate::validate::Validated { structure, statements } = validate(&ds, &mapped, scope, &mut findings)?;
@@ -273,6 +283,12 @@ pub struct ClosedPeriod {
     pub base: Option<crate::close::Close>,
     pub checks: Vec<crate::proof::Check>,
     pub root: crate::model::EntityId,
+    /// Every finding of loading and validation (warnings included: the close shows them).
+    pub findings: Findings,
+    /// A draft: run despite blocking findings, with the deliveries they concern set aside.
+    pub draft: bool,
+    /// In a draft, the entities whose figures were left out, and why.
+    pub set_aside: std::collections::BTreeMap<crate::model::EntityId, crate::intercompany::Absence>,
 }
 
 /// [`run_close`] for a command: when findings stop the close they are written to `out`
@@ -282,10 +298,11 @@ fn run_close_or_stop(
     period: Option<Period>,
     view: crate::cli::View,
     entity: Option<crate::model::EntityId>,
+    draft: bool,
     format: Format,
     out: &mut dyn Write,
 ) -> Result<Result<ClosedPeriod, i32>, Error> {
-    Ok(match run_close(data, period, view, entity)? {
+    Ok(match run_close(data, period, view, entity, draft)? {
         Ok(c) => Ok(c),
         Err(findings) => {
             let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
@@ -322,18 +339,29 @@ fn structure_at(
 }
 
 /// Runs the close chain: load -> map_accounts -> validate -> structure -> translate ->
-/// eliminate -> roll_up. Returns the findings instead when they block.
+/// eliminate -> roll_up. Returns the findings instead when they block, unless `draft`:
+/// then the deliveries the blocking findings concern (or that are missing, or lack a
+/// rate) are set aside and the close runs on the rest, to be marked a draft.
 pub fn run_close(
     data: &Path,
     period: Option<Period>,
     view: crate::cli::View,
     entity: Option<crate::model::EntityId>,
+    draft: bool,
 ) -> Result<Result<ClosedPeriod, Findings>, Error> {
     let (loaded, findings) = load_checked(data, period)?;
-    if findings.has_blocking() {
+    if findings.has_unreadable() || (findings.has_blocking() && !draft) {
         return Ok(Err(findings));
     }
-    let Some(checked) = loaded else { return Ok(Err(findings)) };
+    let Some(mut checked) = loaded else { return Ok(Err(findings)) };
+    let mut set_aside = std::collections::BTreeMap::new();
+    if draft && findings.has_blocking() {
+        let deliveries = crate::intercompany::Deliveries::assess(&checked.ds, &findings, checked.scope)?;
+        checked.mapped = deliveries.restrict(&checked.mapped)?;
+        checked.ds.ledger = only_used(&checked.ds.ledger, &deliveries)?;
+        checked.ds.opening = only_used(&checked.ds.opening, &deliveries)?;
+        set_aside = deliveries.set_aside;
+    }
     let ds = &checked.ds;
     let scope = checked.scope;
     let root = entity.unwrap_or_else(|| ds.settings.parent.clone());
@@ -350,7 +378,32 @@ pub fn run_close(
     // The group's structure at the period is validation's; a sub-group has its own.
     let sub_group = (root != ds.settings.parent).then(|| structure_at(scope.period));
     let structure = sub_group.as_ref().unwrap_or(&checked.structure);
-    let close = crate::close::close_at(ds, &translated, structure, scope.period)?;
+    let mut close = crate::close::close_at(ds, &translated, structure, scope.period)?;
+    // The intercompany gate: the close posts every pair's difference, so an open one
+    // must be accepted (with its reason, which the elimination entry then carries).
+    let mut findings = findings;
+    let gate = {
+        let _span = tracing::info_span!("intercompany_gate").entered();
+        let deliveries = crate::intercompany::Deliveries::assess(ds, &findings, scope)?;
+        let mut options = crate::intercompany::Options::from_settings(&ds.settings.intercompany);
+        options.consolidated = Some(consolidated(structure));
+        let m = crate::intercompany::match_intercompany(ds, &translated, scope, &deliveries, &options)?;
+        crate::intercompany::gate(&m, &ds.accepted_differences, scope.period)
+    };
+    for e in close.journal.iter_mut().filter(|e| e.rule == crate::close::EliminationRule::Intercompany) {
+        if let [a, b] = e.entities.as_slice()
+            && let Some((_, text)) = gate.accepted.iter().find(|((x, y, kind), _)| {
+                x == a && y == b && e.description.starts_with(&format!("{kind} between {a} and {b};"))
+            })
+        {
+            e.description = format!("{}; {text}", e.description);
+        }
+    }
+    findings.extend(gate.findings);
+    findings.sort();
+    if findings.has_blocking() && !draft {
+        return Ok(Err(findings));
+    }
     let base_period =
         crate::close::view::base_period(view, scope.period, ds.settings.fiscal_year_start, scope.fiscal_start);
     let base = match base_period {
@@ -361,20 +414,91 @@ pub fn run_close(
         let _span = tracing::info_span!("prove_close").entered();
         crate::close::prove(&close)?
     });
-    Ok(Ok(ClosedPeriod { checked, translated, sub_group, close, base, checks, root }))
+    Ok(Ok(ClosedPeriod { checked, translated, sub_group, close, base, checks, root, findings, draft, set_aside }))
 }
 
-pub fn close(
-    data: &Path,
-    period: Option<Period>,
-    view: crate::cli::View,
-    entity: Option<crate::model::EntityId>,
-    out_dir: &Path,
-    format: Format,
-    out: &mut dyn Write,
-) -> Result<i32, Error> {
+/// The entities a close consolidates line by line (in full or proportionately).
+pub fn consolidated(s: &crate::structure::GroupStructure) -> std::collections::BTreeSet<crate::model::EntityId> {
+    s.entities()
+        .iter()
+        .filter(|e| matches!(e.method, crate::model::Method::Full | crate::model::Method::Proportionate))
+        .map(|e| e.id.clone())
+        .collect()
+}
+
+/// The rows of `df` of the entities whose deliveries are used.
+fn only_used(
+    df: &polars::prelude::DataFrame,
+    d: &crate::intercompany::Deliveries,
+) -> Result<polars::prelude::DataFrame, Error> {
+    use polars::prelude::*;
+    let used = DataFrame::new(
+        d.used.len(),
+        vec![Column::new("entity".into(), d.used.iter().map(|e| e.to_string()).collect::<Vec<_>>())],
+    )?;
+    Ok(df
+        .clone()
+        .lazy()
+        .join(used.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Semi))
+        .collect()?)
+}
+
+/// The exceptions of a close: every blocking finding of the run, and in a draft one
+/// finding per delivery set aside. A final close has none; a draft lists them all.
+fn exceptions(c: &ClosedPeriod) -> Vec<crate::findings::Finding> {
+    use crate::findings::{Finding, Rule, Severity};
+    let mut out: Vec<Finding> = c
+        .findings
+        .items()
+        .iter()
+        .chain(c.close.findings.iter())
+        .filter(|f| f.severity >= Severity::Blocking)
+        .cloned()
+        .collect();
+    for (e, why) in &c.set_aside {
+        out.push(
+            Finding::new(
+                Rule::DeliverySetAside,
+                format!(
+                    "{}; its figures are left out of this draft",
+                    report::intercompany::absence_text(e.as_str(), why)
+                ),
+                "deliver or correct it, then close again without --draft",
+            )
+            .entity(e)
+            .period(c.checked.scope.period),
+        );
+    }
+    out
+}
+
+/// The statement of cash flows (IAS 7) over the view's two closes, its proof added to
+/// `checks`; `None` without `cash_flow_lines.csv`.
+fn cash_flow_statement(
+    c: &ClosedPeriod,
+    opening: &crate::close::Close,
+    checks: &mut Vec<crate::proof::Check>,
+) -> Result<Option<crate::cash_flows::CashFlows>, Error> {
+    let ds = &c.checked.ds;
+    let Some(lines) = &ds.cash_flow_lines else { return Ok(None) };
+    let (cf, cf_checks) = crate::cash_flows::cash_flows(ds, lines, c.structure(), &c.translated, opening, &c.close)?;
+    checks.extend(cf_checks);
+    Ok(Some(cf))
+}
+
+/// What `tessera close` was asked for.
+pub struct CloseRequest<'a> {
+    pub period: Option<Period>,
+    pub view: crate::cli::View,
+    pub entity: Option<crate::model::EntityId>,
+    pub draft: bool,
+    pub out_dir: &'a Path,
+}
+
+pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let c = match run_close_or_stop(data, period, view, entity, format, out)? {
+    let CloseRequest { period, view, entity, draft, out_dir } = ask;
+    let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -413,18 +537,22 @@ pub fn close(
         (format!("Balance at {}", view_start.first_day()), format!("Balance at {}", scope.period.last_day())),
     )?;
     checks.push(equity_check);
-    // The statement of cash flows (IAS 7) over the same two closes, with its proof.
-    let cash_flows = match &ds.cash_flow_lines {
-        Some(lines) => {
-            let (cf, cf_checks) =
-                crate::cash_flows::cash_flows(ds, lines, c.structure(), &c.translated, opening, &c.close)?;
-            checks.extend(cf_checks);
-            Some(cf)
-        }
-        None => None,
-    };
-    let tied = crate::proof::tied(&checks)
-        && !c.close.findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
+    let cash_flows = cash_flow_statement(&c, opening, &mut checks)?;
+    let exceptions = exceptions(&c);
+    let tied = crate::proof::tied(&checks) && exceptions.is_empty();
+    // Shown with the close: the exceptions first, then every warning of the run.
+    let shown: Vec<crate::findings::Finding> = exceptions
+        .iter()
+        .cloned()
+        .chain(
+            c.findings
+                .items()
+                .iter()
+                .chain(c.close.findings.iter())
+                .filter(|f| f.severity < crate::findings::Severity::Blocking)
+                .cloned(),
+        )
+        .collect();
     let names: BTreeMap<crate::model::GroupAccount, String> =
         ds.accounts.iter().map(|a| (a.account.clone(), a.name.clone())).collect();
     let policies = serde_json::json!({
@@ -432,14 +560,32 @@ pub fn close(
         "income_translation": ds.settings.policies.income_translation,
         "ifric16": ds.settings.policies.ifric16,
         "significant_influence": ds.settings.policies.significant_influence.to_string(),
+        "intercompany": {
+            "tolerance_absolute": ds.settings.intercompany.tolerance_absolute.to_string(),
+            "tolerance_relative": ds.settings.intercompany.tolerance_relative.to_string(),
+            "timing_window_days": ds.settings.intercompany.timing_window_days,
+            "differences_posted_to": ds.settings.accounts.intercompany_difference.as_str(),
+            "accepted_differences": ds.accepted_differences.len(),
+        },
+        "plausibility": {
+            "rate_move": ds.settings.plausibility.rate_move.to_string(),
+            "sign_months": ds.settings.plausibility.sign_months,
+        },
     });
     let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
+    let scope_key = if c.root == ds.settings.parent { "group".to_string() } else { c.root.to_string() };
+    let status = if c.draft { "draft" } else { "final" };
     let r = report::close::CloseReport {
         period: scope.period.to_string(),
         currency: ds.settings.presentation_currency.code().to_string(),
         view: view.as_str(),
         scope: scope_label,
         proof: report::close::Proof {
+            status,
+            period: scope.period.to_string(),
+            scope: scope_key.clone(),
+            view: view.as_str(),
+            exceptions: &exceptions,
             tied,
             checks: &checks,
             inputs: &ds.inputs,
@@ -464,11 +610,11 @@ pub fn close(
         eliminations: &c.close.journal,
         nci: &c.close.nci,
         translation_reserves: &c.close.reserves,
-        findings: &c.close.findings,
+        findings: &shown,
         caution: report::CAUTION,
     };
     let _span = tracing::info_span!("report").entered();
-    let dir = report::close::output_dir(out_dir, scope.period);
+    let dir = report::close::output_dir(out_dir, scope.period, &scope_key, view.as_str(), c.draft);
     report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     Ok(if tied { 0 } else { 1 })
@@ -488,7 +634,7 @@ pub fn segments(
 ) -> Result<i32, Error> {
     use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
     use std::collections::BTreeMap;
-    let c = match run_close_or_stop(data, period, view, None, format, out)? {
+    let c = match run_close_or_stop(data, period, view, None, false, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -568,7 +714,10 @@ pub fn segments(
         caution: report::CAUTION,
     };
     if let Some(dir) = out_dir {
-        report::segments::write_outputs(&report::close::output_dir(dir, scope.period), &r)?;
+        report::segments::write_outputs(
+            &report::close::output_dir(dir, scope.period, "group", view.as_str(), false),
+            &r,
+        )?;
     }
     out.write_all(report::segments::render(&r, c.translated.minor, format).as_bytes())?;
     Ok(if tied && !blocking { 0 } else { 1 })
@@ -582,7 +731,7 @@ pub fn trace(
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
-    let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, format, out)? {
+    let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, false, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -662,7 +811,7 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     use crate::intercompany::{self, Deliveries, Options};
     let (loaded, findings) = load_checked(data, ask.period)?;
     let period = loaded.as_ref().map(|c| c.scope.period);
-    let Some(Checked { ds, scope, mapped, .. }) = loaded else {
+    let Some(Checked { ds, scope, mapped, structure, .. }) = loaded else {
         out.write_all(report::findings::render_check(&findings, period, Format::Table).as_bytes())?;
         return Ok(exit_code(&findings));
     };
@@ -691,6 +840,7 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
         options.tolerance_relative = x;
     }
     options.only = ask.entity.clone();
+    options.consolidated = Some(consolidated(&structure));
     let mut matching = intercompany::match_intercompany(&ds, &translated, scope, &deliveries, &options)?;
     matching.proof.extend(crate::translate::prove(&translated)?);
     out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;

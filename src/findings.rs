@@ -31,6 +31,18 @@ pub enum Rule {
     FileUnreadable,
     ColumnMissing,
     ColumnUnknown,
+    /// A header names the same column twice: which one holds the values is unknown.
+    ColumnDuplicated,
+    /// A CSV row of the wrong shape (more or fewer fields than the header, a comment).
+    RowMalformed,
+    /// A file or folder under entities/ or rates/ that is no part of the formats.
+    FileUnknown,
+    /// A trial balance file whose name does not declare movements or balances exactly.
+    DeliveryNameInvalid,
+    /// A table that holds no row where at least one is needed.
+    TableEmpty,
+    /// A rate outside the bounds that keep every translated amount exact.
+    RateOutOfRange,
     ValueMissing,
     ValueInvalid,
     SettingInvalid,
@@ -55,6 +67,24 @@ pub enum Rule {
     PeriodOutsideYear,
     DeliveryDuplicated,
     DeliveryMissing,
+    /// An entity outside the group at the period end delivers figures the close leaves out.
+    DeliveryOutsideScope,
+    /// A draft close left an entity's delivery out (missing, unread or with findings).
+    DeliverySetAside,
+    /// Two dates that must be the same day are not (acquisition and holding).
+    DateInconsistent,
+    /// A date after the end of the fiscal year being closed.
+    DateInFuture,
+    /// A closing rate that moves more than `plausibility.rate_move` from the month before.
+    RateMoveImplausible,
+    /// A month whose income has the opposite sign of the entity's earlier months.
+    SignsFlipped,
+    /// A counterparty on an account that is not intercompany.
+    CounterpartyOnPlainAccount,
+    /// An open intercompany difference above tolerance that no acceptance covers.
+    IntercompanyOpen,
+    /// A row of accepted_differences.csv that fits no difference the close posts.
+    AcceptanceUnused,
     OpeningMissing,
     OpeningHistoricalAmountMissing,
     TrialBalanceUnbalanced,
@@ -106,8 +136,15 @@ impl Rule {
     /// The severity a finding of this rule has unless a stage says otherwise.
     pub fn default_severity(self) -> Severity {
         match self {
-            Rule::FileMissing | Rule::FileUnreadable | Rule::ColumnMissing => Severity::Unreadable,
-            Rule::ColumnUnknown | Rule::EntityFolderUnknown | Rule::DeliveryMissing => Severity::Warning,
+            Rule::FileMissing | Rule::FileUnreadable | Rule::ColumnMissing | Rule::ColumnDuplicated => {
+                Severity::Unreadable
+            }
+            Rule::ColumnUnknown
+            | Rule::DeliveryOutsideScope
+            | Rule::RateMoveImplausible
+            | Rule::SignsFlipped
+            | Rule::CounterpartyOnPlainAccount
+            | Rule::AcceptanceUnused => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable

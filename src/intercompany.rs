@@ -64,6 +64,9 @@ use crate::validate::Scope;
 /// is cubic in the number of documents. The evidence says so.
 pub const MAX_DOCUMENT_GROUP: usize = 1_000;
 
+/// The file of accepted intercompany differences, under `entities/`.
+pub const ACCEPTED_FILE: &str = "accepted_differences.csv";
+
 /// Tolerances and the view asked for.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Options {
@@ -74,6 +77,9 @@ pub struct Options {
     pub timing_window_days: u32,
     /// Show only the pairs of this entity (the proof still covers every pair).
     pub only: Option<EntityId>,
+    /// The entities the close consolidates (in full or proportionately): only their pairs
+    /// are eliminated and post a difference. `None`: every entity.
+    pub consolidated: Option<BTreeSet<EntityId>>,
 }
 
 impl Options {
@@ -83,6 +89,7 @@ impl Options {
             tolerance_relative: s.tolerance_relative,
             timing_window_days: s.timing_window_days,
             only: None,
+            consolidated: None,
         }
     }
 }
@@ -485,7 +492,7 @@ impl Matching {
     pub fn postings(&self) -> Vec<DifferencePosting> {
         self.pairs
             .iter()
-            .filter(|p| posts_difference(p))
+            .filter(|p| posts_difference(p, self.options.consolidated.as_ref()))
             .map(|p| DifferencePosting {
                 entity: p.entity.clone(),
                 counterparty: p.counterparty.clone(),
@@ -502,8 +509,114 @@ impl Matching {
     }
 }
 
-fn posts_difference(p: &Pair) -> bool {
-    p.status == Status::WithinTolerance || (p.status == Status::Explained && p.reason == Some(Reason::Fx))
+/// Whether the close posts the pair's difference to the intercompany difference account:
+/// it eliminates both sides of every pair of two consolidated entities and posts what is
+/// left there, whatever the pair's status (within tolerance, FX, timing, or open, which
+/// only an acceptance lets into a final close). Dividend income is eliminated against
+/// the payer's retained earnings instead, with nothing left; a pair awaiting figures has
+/// no difference yet.
+pub fn posts_difference(p: &Pair, consolidated: Option<&BTreeSet<EntityId>>) -> bool {
+    let inside = consolidated.is_none_or(|c| c.contains(&p.entity) && c.contains(&p.counterparty));
+    inside
+        && p.status != Status::Awaiting
+        && !(p.kind == "dividend" && p.measure == Measure::YearToDate)
+        && !p.difference.unwrap_or_default().is_zero()
+}
+
+/// What the close's gate found in the matching: blocking findings for open differences
+/// not accepted, warnings for acceptances that fit no open pair, and the text each
+/// accepted pair adds to its elimination entry, by (entity, counterparty, kind) in the
+/// entry's order.
+#[derive(Debug, Default)]
+pub struct Gate {
+    pub findings: Vec<Finding>,
+    pub accepted: BTreeMap<(EntityId, EntityId, String), String>,
+}
+
+/// The intercompany gate of a close: every open difference the close would post must be
+/// accepted in `accepted_differences.csv` for `period`, by pair, kind and amount (to the
+/// cent, either sign, since the pair can be named in either order).
+pub fn gate(m: &Matching, accepted: &[crate::load::AcceptedDifference], period: Period) -> Gate {
+    use crate::findings::Rule;
+    let mut out = Gate::default();
+    let mut used = vec![false; accepted.len()];
+    let pres = m.currency.code();
+    for p in m.pairs.iter().filter(|p| posts_difference(p, m.options.consolidated.as_ref())) {
+        let d = p.difference.unwrap_or_default();
+        let same_pair = |a: &crate::load::AcceptedDifference| {
+            a.period == period
+                && a.kind == p.kind
+                && ((a.entity == p.entity && a.counterparty == p.counterparty)
+                    || (a.entity == p.counterparty && a.counterparty == p.entity))
+        };
+        let key = if p.entity <= p.counterparty {
+            (p.entity.clone(), p.counterparty.clone(), p.kind.clone())
+        } else {
+            (p.counterparty.clone(), p.entity.clone(), p.kind.clone())
+        };
+        let hit = accepted.iter().position(|a| same_pair(a) && a.amount.abs() == d.abs());
+        if let Some(i) = hit {
+            used[i] = true;
+            let a = &accepted[i];
+            out.accepted.insert(key, format!("accepted by {}: {}", a.accepted_by, a.reason));
+            continue;
+        }
+        if p.status != Status::Open {
+            continue;
+        }
+        let near = accepted.iter().find(|a| same_pair(a)).map(|a| {
+            format!(
+                " ({}:{} accepts {} {}, not this difference)",
+                a.source.file,
+                a.source.line.unwrap_or(0),
+                pres,
+                a.amount
+            )
+        });
+        out.findings.push(
+            Finding::new(
+                Rule::IntercompanyOpen,
+                format!(
+                    "{} and {} disagree on {} ({}) by {pres} {}: entity side {}, counterparty side {}, unexplained and above tolerance{}",
+                    p.entity,
+                    p.counterparty,
+                    p.kind,
+                    p.measure.as_str(),
+                    crate::money::format_amount(d, m.minor),
+                    crate::money::format_amount(p.amount_entity(), m.minor),
+                    crate::money::format_amount(p.amount_counterparty(), m.minor),
+                    near.unwrap_or_default()
+                ),
+                format!(
+                    "chase the difference (tessera match shows the pair); to close with it, add `{},{},{},{period},{},<reason>,<who>` to entities/{ACCEPTED_FILE}",
+                    p.entity,
+                    p.counterparty,
+                    p.kind,
+                    crate::money::plain(d)
+                ),
+            )
+            .entity(&p.entity)
+            .period(period),
+        );
+    }
+    for (a, u) in accepted.iter().zip(used) {
+        if !u && a.period == period {
+            out.findings.push(
+                Finding::new(
+                    Rule::AcceptanceUnused,
+                    format!(
+                        "the acceptance of {} {} between {} and {} ({}) fits no difference the close posts",
+                        pres, a.amount, a.entity, a.counterparty, a.kind
+                    ),
+                    "correct the pair, kind or amount to what tessera match shows, or remove the row",
+                )
+                .at(&a.source)
+                .entity(&a.entity)
+                .severity(Severity::Warning),
+            );
+        }
+    }
+    out
 }
 
 /// How the chart lets a kind be matched on one statement.
@@ -1205,7 +1318,7 @@ pub fn match_intercompany(
     if let Some(only) = &options.only {
         pairs.retain(|p| &p.entity == only || &p.counterparty == only);
     }
-    let (summary, totals) = summarize(&pairs, deliveries);
+    let (summary, totals) = summarize(&pairs, deliveries, options.consolidated.as_ref());
     Ok(Matching {
         period: scope.period,
         currency: ds.settings.presentation_currency,
@@ -1220,7 +1333,11 @@ pub fn match_intercompany(
     })
 }
 
-fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, Totals) {
+fn summarize(
+    pairs: &[Pair],
+    deliveries: &Deliveries,
+    consolidated: Option<&BTreeSet<EntityId>>,
+) -> (Vec<EntitySummary>, Totals) {
     let mut by: BTreeMap<EntityId, EntitySummary> = BTreeMap::new();
     let mut t = Totals::default();
     for p in pairs {
@@ -1228,7 +1345,7 @@ fn summarize(pairs: &[Pair], deliveries: &Deliveries) -> (Vec<EntitySummary>, To
         if p.status == Status::Awaiting {
             t.awaiting += 1;
         }
-        if posts_difference(p) {
+        if posts_difference(p, consolidated) {
             t.to_difference_account += p.difference.unwrap_or_default();
         }
         for e in [&p.entity, &p.counterparty] {

@@ -151,9 +151,74 @@ pub fn opening_presentation(ds: &Dataset) -> PolarsResult<LazyFrame> {
         .agg([col("amount_presentation").sum()]))
 }
 
+/// For every entity and month with delivered rows (the opening included), the next
+/// month the entity delivered as balances: `entity`, `period_index`, `next_index`. Rows
+/// of months with no later balance delivery have no row here.
+///
+/// Each month is read as what its file says it is, whatever the other months are. A
+/// balance month's movement is its balance less the cumulative balance of the month
+/// before, and that cumulative balance is the last balance delivered (the opening being
+/// the first) plus the movement months since. So every delivered row counts once in its
+/// own month and once, negated, in the next balance month after it.
+pub fn next_balances(lines: LazyFrame) -> PolarsResult<DataFrame> {
+    let months = lines
+        .select([col("entity"), col("period_index"), col("kind")])
+        .unique(None, UniqueKeepStrategy::Any)
+        .sort(["entity", "period_index"], SortMultipleOptions::default())
+        .collect()?;
+    let entity = months.column("entity")?.str()?;
+    let index = months.column("period_index")?.i32()?;
+    let kind = months.column("kind")?.str()?;
+    let mut per_entity: std::collections::BTreeMap<&str, (Vec<i32>, Vec<i32>)> = std::collections::BTreeMap::new();
+    for i in 0..months.height() {
+        let (Some(e), Some(p)) = (entity.get(i), index.get(i)) else { continue };
+        let slot = per_entity.entry(e).or_default();
+        slot.0.push(p);
+        if kind.get(i) == Some("balances") {
+            slot.1.push(p);
+        }
+    }
+    let (mut es, mut ps, mut ns) = (Vec::new(), Vec::new(), Vec::new());
+    for (e, (mut all, balances)) in per_entity {
+        all.dedup();
+        for p in all {
+            if let Some(n) = balances.iter().copied().find(|b| *b > p) {
+                es.push(e.to_string());
+                ps.push(p);
+                ns.push(n);
+            }
+        }
+    }
+    DataFrame::new(
+        es.len(),
+        vec![
+            Column::new("entity".into(), es),
+            Column::new("period_index".into(), ps),
+            Column::new("next_index".into(), ns),
+        ],
+    )
+}
+
+/// The delivered rows that make up an entity's cumulative balance at period index `p`:
+/// rows of months up to `p` that no balance delivery up to `p` has superseded.
+pub fn rows_behind(lines: &DataFrame, p: i32) -> PolarsResult<LazyFrame> {
+    let next = next_balances(lines.clone().lazy())?;
+    Ok(lines
+        .clone()
+        .lazy()
+        .join(
+            next.lazy(),
+            [col("entity"), col("period_index")],
+            [col("entity"), col("period_index")],
+            JoinArgs::new(JoinType::Left),
+        )
+        .filter(col("period_index").lt_eq(lit(p)).and(col("next_index").is_null().or(col("next_index").gt(lit(p)))))
+        .drop(Selector::ByName { names: ["next_index".into()].into(), strict: true }))
+}
+
 /// Movements per grain and period from the mapped lines, for periods from the opening
-/// (the month before `fiscal_start`) through `last`. Balance deliveries are differenced
-/// against the previous month (the opening before the first month).
+/// (the month before `fiscal_start`) through `last`. A month delivered as balances is
+/// differenced against the cumulative balance before it (see [`next_balances`]).
 pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
     let first = period_index(fiscal_start.prev());
     let last = period_index(last);
@@ -162,40 +227,24 @@ pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> Pola
     keys.push(col("period_index"));
     let base =
         mapped.clone().lazy().filter(col("period_index").gt_eq(lit(first)).and(col("period_index").lt_eq(lit(last))));
-    // Which entities deliver balances: their opening is a balance too, and every
-    // snapshot is subtracted from the next month.
-    let balance_entities = base
+    let next = next_balances(base.clone())?;
+    let delivered = base.group_by(keys.clone()).agg([col("amount").sum(), col("txn_amount").sum()]);
+    let superseded = delivered
         .clone()
-        .filter(col("kind").eq(lit("balances")))
-        .select([col("entity")])
-        .unique(None, UniqueKeepStrategy::Any);
-    let direct = base
-        .clone()
-        .join(balance_entities.clone(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Anti))
-        .group_by(keys.clone())
-        .agg([col("amount").sum(), col("txn_amount").sum()]);
-    let snapshots = base
-        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Semi))
-        .group_by(keys.clone())
-        .agg([col("amount").sum(), col("txn_amount").sum()]);
-    // Last snapshot per entity: the shifted copy of it lies beyond the data.
-    let last_snapshot =
-        snapshots.clone().group_by([col("entity")]).agg([col("period_index").max().alias("last_index")]);
-    let shifted = snapshots
-        .clone()
+        .join(
+            next.lazy(),
+            [col("entity"), col("period_index")],
+            [col("entity"), col("period_index")],
+            JoinArgs::new(JoinType::Inner),
+        )
         .with_columns([
-            (col("period_index") + lit(1)).alias("period_index"),
+            col("next_index").alias("period_index"),
             (lit(0).strict_cast(crate::money::amount_dtype()) - col("amount")).alias("amount"),
             (lit(0).strict_cast(crate::money::amount_dtype()) - col("txn_amount")).alias("txn_amount"),
         ])
-        .join(last_snapshot, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
-        .filter(col("period_index").lt_eq(col("last_index")))
-        .drop(Selector::ByName { names: ["last_index".into()].into(), strict: true });
-    let diffed = concat([snapshots, shifted], UnionArgs::default())?
-        .group_by(keys.clone())
-        .agg([col("amount").sum(), col("txn_amount").sum()]);
+        .drop(Selector::ByName { names: ["next_index".into()].into(), strict: true });
     // In no particular order: every user joins or sorts it.
-    Ok(concat([direct, diffed], UnionArgs::default())?
+    Ok(concat([delivered, superseded], UnionArgs::default())?
         .group_by(keys)
         .agg([col("amount").sum(), col("txn_amount").sum()]))
 }

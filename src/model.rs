@@ -260,6 +260,23 @@ pub struct IntercompanySettings {
     pub timing_window_days: u32,
 }
 
+/// Thresholds of the plausibility warnings (`[plausibility]` of group.toml): figures
+/// that are possible but should be looked at before a close is trusted.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct PlausibilitySettings {
+    /// A closing rate that moves by more than this share from the month before.
+    pub rate_move: Decimal,
+    /// How many earlier months of the year must agree on the sign of an entity's income
+    /// before a month with the opposite sign is flagged; 0 turns the check off.
+    pub sign_months: u32,
+}
+
+impl Default for PlausibilitySettings {
+    fn default() -> Self {
+        Self { rate_move: Decimal::new(25, 2), sign_months: 2 }
+    }
+}
+
 /// The group settings file, validated.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Settings {
@@ -270,6 +287,7 @@ pub struct Settings {
     pub policies: Policies,
     pub accounts: RoleAccounts,
     pub intercompany: IntercompanySettings,
+    pub plausibility: PlausibilitySettings,
     /// The `[segments]` table (IFRS 8), when the group reports segments.
     pub segments: Option<SegmentSettings>,
 }

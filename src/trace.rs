@@ -163,9 +163,9 @@ pub fn trace(
     Ok(t)
 }
 
-/// The ledger lines of `entities` behind their contributions on `account`: the latest
-/// balance delivery, or the opening balance and every month's movements up to the
-/// period.
+/// The ledger lines of `entities` behind their contributions on `account`: the rows of
+/// every month up to the period that no later balance delivery has superseded (each month
+/// is read as what it was delivered as).
 fn ledger_lines(
     account: &GroupAccount,
     mapped: &Mapped,
@@ -174,26 +174,9 @@ fn ledger_lines(
 ) -> PolarsResult<DataFrame> {
     let p = crate::map_accounts::period_index(period);
     let ents = Series::new("e".into(), entities.to_vec());
-    let balance_entities = mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(col("kind").eq(lit("balances")))
-        .select([col("entity")])
-        .unique(None, UniqueKeepStrategy::Any)
-        .with_column(lit(true).alias("by_balance"));
-    mapped
-        .lines
-        .clone()
-        .lazy()
+    crate::map_accounts::rows_behind(&mapped.lines, p)?
         .filter(
             col("group_account").eq(lit(account.as_str())).and(col("entity").is_in(lit(ents).implode(false), false)),
-        )
-        .join(balance_entities, [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
-        .filter(
-            when(col("by_balance").fill_null(lit(false)))
-                .then(col("period_index").eq(lit(p)))
-                .otherwise(col("period_index").lt_eq(lit(p))),
         )
         .sort(["entity", "file", "line"], SortMultipleOptions::default())
         .collect()

@@ -54,8 +54,9 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     let mut f: Vec<Finding> = Vec::new();
     check_reference_data(ds, &mut f);
     let structure = check_holdings(ds, scope, &mut f);
+    check_dates(ds, &structure, scope, &mut f);
     check_mappings(ds, mapped, &mut f)?;
-    check_periods(ds, mapped, scope, &mut f)?;
+    check_periods(ds, mapped, &structure, scope, &mut f)?;
     check_balanced(mapped, scope, &mut f)?;
     check_duplicates(mapped, &mut f)?;
     check_counterparties(ds, mapped, &mut f)?;
@@ -64,6 +65,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
+    check_plausibility(ds, mapped, scope, &mut f)?;
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -170,6 +172,77 @@ fn check_holdings(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> crate::st
     structure
 }
 
+/// Whether the close of the group needs the entity's figures at the period end: it is
+/// consolidated in full or proportionately, or equity-accounted.
+pub fn in_scope(structure: &crate::structure::GroupStructure, e: &EntityId) -> bool {
+    structure.entity(e).is_some_and(|x| x.method != Method::None)
+}
+
+/// Dates that must agree: an acquisition's date is the date the holdings say control
+/// (or significant influence) began, or the start of one of the entity's holdings, no date lies beyond the fiscal year closed, and an
+/// entity outside the group at the period end that delivers is said to be left out.
+fn check_dates(ds: &Dataset, structure: &crate::structure::GroupStructure, scope: Scope, f: &mut Vec<Finding>) {
+    let year_end = scope.fiscal_start.plus_months(11).last_day();
+    for h in &ds.holdings {
+        if h.valid_from > year_end {
+            f.push(
+                Finding::new(
+                    Rule::DateInFuture,
+                    format!(
+                        "the holding of {} in {} starts on {}, after the fiscal year closed here ends ({year_end})",
+                        h.owner, h.owned, h.valid_from
+                    ),
+                    "correct `valid_from` (the acquisition date); a holding of a later year belongs in that year's data folder",
+                )
+                .at(&h.source)
+                .entity(&h.owned),
+            );
+        }
+    }
+    for a in &ds.acquisitions {
+        if a.date > year_end {
+            f.push(
+                Finding::new(
+                    Rule::DateInFuture,
+                    format!(
+                        "the acquisition of {} is dated {}, after the fiscal year closed here ends ({year_end})",
+                        a.owned, a.date
+                    ),
+                    "correct the acquisition date: it is the date control or significant influence was obtained",
+                )
+                .at(&a.source)
+                .entity(&a.owned),
+            );
+            continue;
+        }
+        let starts: BTreeSet<chrono::NaiveDate> =
+            ds.holdings.iter().filter(|h| h.owned == a.owned).map(|h| h.valid_from).collect();
+        let control = structure.entity(&a.owned).and_then(|x| x.controlled_from);
+        // The date is the group's control date, or the start of a holding in the entity
+        // (a sub-subsidiary held before the group bought its holder keeps its own date).
+        let agrees = control == Some(a.date) || starts.contains(&a.date);
+        if !agrees {
+            let held = match control {
+                Some(c) => format!("holdings.csv gives control from {c}"),
+                None if starts.is_empty() => "holdings.csv has no holding in it".to_string(),
+                None => format!(
+                    "holdings.csv has holdings from {}",
+                    starts.iter().map(|d| d.to_string()).collect::<Vec<_>>().join(", ")
+                ),
+            };
+            f.push(
+                Finding::new(
+                    Rule::DateInconsistent,
+                    format!("the acquisition of {} is dated {}, but {held}", a.owned, a.date),
+                    "make acquisitions.csv `date` and holdings.csv `valid_from` the same day: the day control (or significant influence) was obtained",
+                )
+                .at(&a.source)
+                .entity(&a.owned),
+            );
+        }
+    }
+}
+
 /// A structure finding as a finding of the run, or `None` where another check already
 /// reports the same problem in the data.
 pub fn structure_finding(s: crate::structure::StructureFinding) -> Option<Finding> {
@@ -273,7 +346,13 @@ fn check_mappings(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> Polars
     Ok(())
 }
 
-fn check_periods(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+fn check_periods(
+    ds: &Dataset,
+    mapped: &Mapped,
+    structure: &crate::structure::GroupStructure,
+    scope: Scope,
+    f: &mut Vec<Finding>,
+) -> PolarsResult<()> {
     let start = period_index(scope.fiscal_start);
     let end = period_index(scope.fiscal_start.plus_months(11));
     let outside = ds
@@ -342,41 +421,82 @@ fn check_periods(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Findin
             .collect()?;
         (0..d.height()).filter_map(|i| Some((s(&d, "entity", i)?, idx(&d, "period_index", i)?))).collect()
     };
-    let ledger_entities: BTreeSet<String> = have.iter().map(|(e, _)| e.clone()).collect();
+    // The close is complete only with every month of every entity it consolidates or
+    // equity-accounts: a missing one is blocking. An entity outside the group at the
+    // period end is only said to be missing.
     for e in &ds.entities {
+        let needed = in_scope(structure, &e.id);
+        let sev = if needed { Severity::Blocking } else { Severity::Warning };
+        let why = if needed {
+            format!("the close needs it: {} is {} in the group", e.id, method_words(structure, &e.id))
+        } else {
+            "it is not part of the group at the period end, so the close does not need it".to_string()
+        };
         if !ds.delivered_entities.contains(&e.id) {
             f.push(
                 Finding::new(
                     Rule::DeliveryMissing,
-                    format!("{} has not delivered: there is no folder entities/{}/", e.id, e.id),
-                    "wait for the delivery or chase the entity; the close needs every consolidated entity",
+                    format!("{} has not delivered: there is no folder entities/{}/ ({why})", e.id, e.id),
+                    format!(
+                        "deliver entities/{}/ (mapping.csv, opening.csv and one trial balance per month), or run `tessera close --draft` to see a draft without it",
+                        e.id
+                    ),
                 )
+                .in_file(format!("entities/{}", e.id))
                 .entity(&e.id)
-                .period(scope.period),
+                .period(scope.period)
+                .severity(sev),
             );
             continue;
         }
         for p in scope.months() {
             if !have.contains(&(e.id.to_string(), period_index(p))) {
-                let (what, sev) = if ledger_entities.contains(e.id.as_str()) {
-                    ("no trial balance", Severity::Warning)
-                } else {
-                    ("no trial balance at all", Severity::Warning)
-                };
                 f.push(
                     Finding::new(
                         Rule::DeliveryMissing,
-                        format!("{} has {what} for {p}", e.id),
-                        format!("deliver entities/{}/tb-{p}.movements.csv (or .balances.csv)", e.id),
+                        format!("{} has no trial balance for {p} ({why})", e.id),
+                        format!(
+                            "deliver entities/{}/tb-{p}.movements.csv (or .balances.csv) with the month's rows; a file that is there but unread has its own finding",
+                            e.id
+                        ),
                     )
+                    .in_file(format!("entities/{}/tb-{p}.movements.csv", e.id))
                     .entity(&e.id)
                     .period(p)
                     .severity(sev),
                 );
             }
         }
+        if !needed && !have.iter().any(|(x, _)| x == e.id.as_str()) {
+            continue;
+        }
+        if !needed {
+            f.push(
+                Finding::new(
+                    Rule::DeliveryOutsideScope,
+                    format!(
+                        "{} delivers trial balances but is not part of the group at {} (holdings.csv), so its figures are not in the close",
+                        e.id,
+                        scope.period.last_day()
+                    ),
+                    "check the holding's dates in holdings.csv and acquisitions.csv if the entity should be in the close",
+                )
+                .entity(&e.id)
+                .period(scope.period)
+                .severity(Severity::Warning),
+            );
+        }
     }
     Ok(())
+}
+
+fn method_words(structure: &crate::structure::GroupStructure, e: &EntityId) -> &'static str {
+    match structure.entity(e).map(|x| x.method) {
+        Some(Method::Full) => "consolidated in full",
+        Some(Method::Proportionate) => "consolidated proportionately",
+        Some(Method::Equity) => "equity-accounted",
+        _ => "not consolidated",
+    }
 }
 
 fn check_balanced(mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
@@ -1022,6 +1142,142 @@ fn check_cash_flow_coverage(
             )
             .in_file(file)
             .account(a.as_str()),
+        );
+    }
+    Ok(())
+}
+
+/// Plausibility: figures that can be right but usually are not, as warnings the close
+/// shows (thresholds in `[plausibility]` of group.toml). A closing rate that jumps from
+/// the month before (a rate of the wrong quote or a shifted decimal point); a month
+/// whose income has the opposite sign of the entity's earlier months (an export with
+/// debit and credit swapped); a counterparty on an account that is not intercompany
+/// (the pair is then never matched or eliminated).
+fn check_plausibility(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let limits = &ds.settings.plausibility;
+    // Rates, as presentation-currency units per unit so that quotes compare.
+    let mut by_month: BTreeMap<(Currency, Period), &crate::load::MonthlyRate> = BTreeMap::new();
+    for r in &ds.rates {
+        by_month.insert((r.currency, r.period), r);
+    }
+    for ((ccy, p), r) in &by_month {
+        if *p <= scope.fiscal_start.prev() || *p > scope.period {
+            continue;
+        }
+        let Some(before) = by_month.get(&(*ccy, p.prev())) else { continue };
+        let per_unit = |x: &crate::load::Rate| match x.quote {
+            crate::load::Quote::PresentationPerUnit => Some(x.value),
+            crate::load::Quote::UnitsPerPresentation => Decimal::ONE.checked_div(x.value),
+        };
+        let (Some(now), Some(then)) = (per_unit(&r.closing), per_unit(&before.closing)) else { continue };
+        let Some(ratio) = now.checked_div(then) else { continue };
+        let moved = (ratio - Decimal::ONE).abs();
+        if moved > limits.rate_move {
+            f.push(
+                Finding::new(
+                    Rule::RateMoveImplausible,
+                    format!(
+                        "the {ccy} closing rate moves from {} in {} to {} in {p}: {}% against a threshold of {}%",
+                        before.closing.value,
+                        p.prev(),
+                        r.closing.value,
+                        (moved * Decimal::from(100)).round_dp(1),
+                        (limits.rate_move * Decimal::from(100)).normalize()
+                    ),
+                    "check the rate and its quote at the source (a rate of the other quote, or a shifted decimal point); raise plausibility.rate_move in group.toml if the move is real",
+                )
+                .at(&r.source)
+                .period(*p)
+                .severity(Severity::Warning),
+            );
+        }
+    }
+    // Income by entity and month: the sign of the months before.
+    if limits.sign_months > 0 {
+        let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("class")]);
+        let income = mapped
+            .movements(scope.fiscal_start, scope.period)?
+            .lazy()
+            .filter(col("period_index").gt_eq(lit(period_index(scope.fiscal_start))))
+            .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Inner))
+            .filter(col("class").eq(lit("income")))
+            .group_by([col("entity"), col("period_index")])
+            .agg([col("amount").sum()])
+            .sort(["entity", "period_index"], SortMultipleOptions::default())
+            .collect()?;
+        let amounts = column_decimals(income.column("amount")?)?;
+        let mut seen: BTreeMap<String, Vec<bool>> = BTreeMap::new();
+        for (i, amount) in amounts.iter().enumerate() {
+            let Some(a) = amount.filter(|a| !a.is_zero()) else { continue };
+            let e = s(&income, "entity", i).unwrap_or_default();
+            let p = period_of_index(idx(&income, "period_index", i).unwrap_or(0));
+            let credit = a.is_sign_negative();
+            let before = seen.entry(e.clone()).or_default();
+            let n = limits.sign_months as usize;
+            if before.len() >= n && before.iter().all(|c| *c != credit) {
+                let (was, is) = if credit { ("debit", "credit") } else { ("credit", "debit") };
+                f.push(
+                    Finding::new(
+                        Rule::SignsFlipped,
+                        format!(
+                            "{e}'s income of {p} is a {is} of {} while its {} earlier month(s) of the year were {was}s: the delivery may have debit and credit swapped",
+                            format_amount(a.abs(), 3),
+                            before.len()
+                        ),
+                        format!(
+                            "check entities/{e}'s trial balance of {p}: debit is positive, credit negative; set plausibility.sign_months = 0 in group.toml to turn the check off"
+                        ),
+                    )
+                    .in_file(format!("entities/{e}"))
+                    .entity(&EntityId::new(&e))
+                    .period(p)
+                    .severity(Severity::Warning),
+                );
+                // The month is not counted, so that a flipped month does not hide the next.
+                continue;
+            }
+            before.push(credit);
+        }
+    }
+    // A counterparty named on an account that is not intercompany, outside the exchange
+    // difference accounts of net investment items and the investments in associates
+    // (which name it by design: the investee).
+    let fx: BTreeSet<(String, String)> =
+        ds.net_investments.iter().map(|n| (n.entity.to_string(), n.fx_account.to_string())).collect();
+    let investments = ds.settings.accounts.equity_investments.to_string();
+    let plain = mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("counterparty").is_not_null().and(col("ic_kind").is_null()))
+        .group_by([col("entity"), col("account"), col("group_account")])
+        .agg([col("file").first(), col("line").first(), col("line").count().alias("rows"), col("counterparty").first()])
+        .sort(["entity", "account"], SortMultipleOptions::default())
+        .collect()?;
+    for i in 0..plain.height() {
+        let e = s(&plain, "entity", i).unwrap_or_default();
+        let ga = s(&plain, "group_account", i).unwrap_or_default();
+        if fx.contains(&(e.clone(), ga.clone())) || ga == investments {
+            continue;
+        }
+        let a = s(&plain, "account", i).unwrap_or_default();
+        let cp = s(&plain, "counterparty", i).unwrap_or_default();
+        let rows = plain.column("rows")?.u32()?.get(i).unwrap_or(0);
+        f.push(
+            Finding::new(
+                Rule::CounterpartyOnPlainAccount,
+                format!(
+                    "local account {a} (group {ga}) names counterparty {cp} on {rows} row(s), but {ga} has no ic_kind: the amount is neither matched nor eliminated"
+                ),
+                format!(
+                    "map {a} to an intercompany account of the chart if it is a balance with {cp}; otherwise clear the counterparty"
+                ),
+            )
+            .in_file(s(&plain, "file", i).unwrap_or_default())
+            .line(u(&plain, "line", i).unwrap_or(0))
+            .entity(&EntityId::new(&e))
+            .account(a)
+            .severity(Severity::Warning),
         );
     }
     Ok(())

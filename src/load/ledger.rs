@@ -64,7 +64,7 @@ pub(super) fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> 
         columns.push(Column::new_scalar("entity".into(), Scalar::from(PlSmallStr::from(entity)), n));
         columns.push(Column::new_scalar("kind".into(), Scalar::from(PlSmallStr::from(kind)), n));
         columns.push(Column::new_scalar("file".into(), Scalar::from(PlSmallStr::from(t.file.as_str())), n));
-        columns.push(Column::new("line".into(), (t.first_line..t.first_line + n as u64).collect::<Vec<u64>>()));
+        columns.push(Column::new("line".into(), t.lines.clone()));
         let df = DataFrame::new(n, columns)?;
         match &mut stacked {
             None => stacked = Some(df),

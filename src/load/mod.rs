@@ -131,6 +131,8 @@ pub struct Dataset {
     /// The statement of cash flows' line per group account (optional
     /// `cash_flow_lines.csv`; `None` when the file does not exist).
     pub cash_flow_lines: Option<Vec<crate::cash_flows::LineDef>>,
+    /// Intercompany differences accepted for the close (optional file).
+    pub accepted_differences: Vec<AcceptedDifference>,
     /// Entities with a folder (a delivery in progress or complete).
     pub delivered_entities: BTreeSet<EntityId>,
     /// Intercompany documents (optional detail): see `documents::DOCUMENT_COLUMNS`.
@@ -206,6 +208,9 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let accounts = load_accounts(root, &ent_dir.join("accounts.csv"), &mut f, &mut inputs);
     let layouts = load_layouts(root, &ent_dir.join("layouts.csv"), &mut f, &mut inputs);
 
+    f.extend(unknown_files(root, &ent_dir, ENTITY_FILES));
+    f.extend(unknown_files(root, &rates_dir, RATE_FILES));
+
     // Entity folders: deliveries.
     let known: BTreeMap<EntityId, Currency> = entities.iter().map(|e| (e.id.clone(), e.currency)).collect();
     let mut delivered = BTreeSet::new();
@@ -269,14 +274,30 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
         let id = EntityId::new(&name);
         if !known.contains_key(&id) {
-            f.push(
-                Finding::new(
+            if name.starts_with('.') {
+                continue;
+            }
+            // Entity ids are case-sensitive and a folder must be named exactly as its
+            // entity: a near miss is blocking, because the entity's whole delivery would
+            // otherwise be lost without a word.
+            let ids: Vec<&str> = known.keys().map(|e| e.as_str()).collect();
+            let x = match nearest(&name, &ids) {
+                Some(near) => Finding::new(
+                    Rule::EntityFolderUnknown,
+                    format!(
+                        "folder `{name}` is not an entity of entities.csv (the nearest is {near}; entity ids are case-sensitive); its files are not read"
+                    ),
+                    format!("rename the folder to `{near}` exactly as the entity is written in entities.csv"),
+                )
+                .entity(&EntityId::new(near))
+                .severity(Severity::Blocking),
+                None => Finding::new(
                     Rule::EntityFolderUnknown,
                     format!("folder `{name}` is not an entity of entities.csv; its files are not read"),
                     "add the entity to entities/entities.csv or move the folder out of entities/",
-                )
-                .in_file(rel(root, &dir)),
-            );
+                ),
+            };
+            f.push(x.in_file(rel(root, &dir)));
             continue;
         }
         delivered.insert(id.clone());
@@ -311,15 +332,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
                     document_tables.push((id.clone(), t));
                 }
             } else if !fname.starts_with('.') {
-                f.push(
-                    Finding::new(
-                        Rule::ColumnUnknown,
-                        format!("file `{fname}` is not part of an entity delivery and is not read"),
-                        "name trial balances tb-<label>.movements.csv or tb-<label>.balances.csv (or .parquet)",
-                    )
-                    .in_file(&display)
-                    .severity(Severity::Warning),
-                );
+                f.push(unknown_entity_file(&fname, &display).entity(&id));
             }
         }
         if !has_mapping {
@@ -352,6 +365,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
     let cash_flow_lines =
         cash_flow_lines::load_cash_flow_lines(root, &ent_dir.join("cash_flow_lines.csv"), &mut f, &mut inputs);
+    let accepted_differences =
+        load_accepted(root, &ent_dir.join(crate::intercompany::ACCEPTED_FILE), &mut f, &mut inputs);
 
     inputs.sort_by(|a, b| a.file.cmp(&b.file));
     let findings = into_findings(f);
@@ -376,6 +391,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             segment_accounts,
             net_investments,
             cash_flow_lines,
+            accepted_differences,
             delivered_entities: delivered,
             documents,
             documented_entities: documented,
@@ -383,6 +399,148 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         }),
         findings,
     )
+}
+
+/// The files tessera reads directly under `entities/` (besides the entity folders).
+pub const ENTITY_FILES: &[&str] = &[
+    "group.toml",
+    "entities.csv",
+    "holdings.csv",
+    "accounts.csv",
+    "layouts.csv",
+    "acquisitions.csv",
+    "inventory_profit.csv",
+    "segment_accounts.csv",
+    "net_investment.csv",
+    "cash_flow_lines.csv",
+    crate::intercompany::ACCEPTED_FILE,
+];
+
+/// The files tessera reads under `rates/`.
+pub const RATE_FILES: &[&str] = &["monthly.csv", "historical.csv"];
+
+/// The fixed file names of an entity folder (trial balances are named by pattern).
+const DELIVERY_FILES: &[&str] = &["mapping.csv", "opening.csv", DOCUMENTS_FILE];
+
+/// Edit distance (Levenshtein) between two names, by characters.
+fn distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut prev = row[0];
+        row[0] = i + 1;
+        for (j, cb) in b.iter().enumerate() {
+            let cur = row[j + 1];
+            row[j + 1] = (prev + usize::from(ca != *cb)).min(row[j] + 1).min(cur + 1);
+            prev = cur;
+        }
+    }
+    row[b.len()]
+}
+
+/// The expected name `name` most likely stands for: equal but for letter case, else
+/// within an edit distance of 3 (and less than half the name); `None` when nothing is
+/// that near.
+pub fn nearest<'a>(name: &str, expected: &[&'a str]) -> Option<&'a str> {
+    if let Some(same) = expected.iter().find(|e| e.eq_ignore_ascii_case(name)) {
+        return Some(same);
+    }
+    let lower = name.to_lowercase();
+    expected
+        .iter()
+        .map(|e| (distance(&lower, &e.to_lowercase()), *e))
+        .filter(|(d, e)| *d <= 3 && *d * 2 < e.chars().count().max(1))
+        .min()
+        .map(|(_, e)| e)
+}
+
+/// Findings for the files of `dir` that are not among `expected` (folders are the
+/// entity folders, checked apart). A name near an expected one is blocking, because the
+/// file it was meant to be is then missing; any other is a warning.
+fn unknown_files(root: &Path, dir: &Path, expected: &[&str]) -> Vec<Finding> {
+    let mut names: Vec<String> = std::fs::read_dir(dir)
+        .map(|rd| {
+            rd.filter_map(|e| e.ok())
+                .filter(|e| e.path().is_file())
+                .map(|e| e.file_name().to_string_lossy().to_string())
+                .collect()
+        })
+        .unwrap_or_default();
+    names.sort();
+    names
+        .into_iter()
+        .filter(|n| !n.starts_with('.') && !expected.contains(&n.as_str()))
+        .map(|n| {
+            let display = rel(root, &dir.join(&n));
+            match nearest(&n, expected) {
+                Some(near) => Finding::new(
+                    Rule::FileUnknown,
+                    format!("file `{n}` is not read; it looks like `{near}`, which tessera reads"),
+                    format!("rename it to `{near}` (names are exact, in lower case)"),
+                )
+                .in_file(display)
+                .severity(Severity::Blocking),
+                None => Finding::new(
+                    Rule::FileUnknown,
+                    format!("file `{n}` is no part of the data folder's formats and is not read"),
+                    "move it out of the data folder, or see docs/formats.md for the files tessera reads",
+                )
+                .in_file(display)
+                .severity(Severity::Warning),
+            }
+        })
+        .collect()
+}
+
+/// The finding for a file of an entity folder that is not read: a misnamed trial
+/// balance (blocking: its months would be lost), a near miss of a fixed name
+/// (blocking), or anything else (a warning).
+fn unknown_entity_file(fname: &str, display: &str) -> Finding {
+    let lower = fname.to_lowercase();
+    if lower.starts_with("tb") || lower.contains("movement") || lower.contains("balance") {
+        // The label is what comes before the first dot, with the `tb-` prefix restored.
+        let stem = fname.split('.').next().unwrap_or(fname);
+        let label = stem.get(2..).unwrap_or("").trim_start_matches(['-', '_', ' ']);
+        let label = if lower.starts_with("tb") { label } else { stem };
+        let candidates: Vec<String> = ["movements", "balances"]
+            .iter()
+            .flat_map(|k| ["csv", "parquet"].map(|e| format!("tb-{label}.{k}.{e}")))
+            .collect();
+        let refs: Vec<&str> = candidates.iter().map(|c| c.as_str()).collect();
+        let near = refs
+            .iter()
+            .map(|c| (distance(&lower, &c.to_lowercase()) * 2 + distance(fname, c), *c))
+            .min()
+            .map(|(_, c)| c)
+            .unwrap_or("tb-<label>.movements.csv");
+        return Finding::new(
+            Rule::DeliveryNameInvalid,
+            format!(
+                "file `{fname}` looks like a trial balance but its name does not declare its kind exactly; it is not read (the nearest valid name is `{near}`)"
+            ),
+            format!(
+                "rename it to `{near}`: trial balances are tb-<label>.movements.csv or tb-<label>.balances.csv (or .parquet), in lower case"
+            ),
+        )
+        .in_file(display)
+        .severity(Severity::Blocking);
+    }
+    match nearest(fname, DELIVERY_FILES) {
+        Some(near) => Finding::new(
+            Rule::FileUnknown,
+            format!("file `{fname}` is not read; it looks like `{near}`, which tessera reads"),
+            format!("rename it to `{near}` (names are exact, in lower case)"),
+        )
+        .in_file(display)
+        .severity(Severity::Blocking),
+        None => Finding::new(
+            Rule::FileUnknown,
+            format!("file `{fname}` is not part of an entity delivery and is not read"),
+            "name trial balances tb-<label>.movements.csv or tb-<label>.balances.csv (or .parquet); move other files out of the folder",
+        )
+        .in_file(display)
+        .severity(Severity::Warning),
+    }
 }
 
 /// One entity file read ahead: its hash (when it could be read), table and findings.
@@ -549,6 +707,17 @@ fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
                 Rule::ValueInvalid,
                 format!("{} entities exceed the limit of {MAX_ENTITIES}", t.height()),
                 "split the group into sub-groups closed separately",
+            )
+            .in_file(&t.file),
+        );
+        return Vec::new();
+    }
+    if t.height() == 0 {
+        f.push(
+            Finding::new(
+                Rule::TableEmpty,
+                "entities.csv lists no entity (it has a header and no rows)",
+                "list every entity of the group, one per row, the parent included",
             )
             .in_file(&t.file),
         );
@@ -896,9 +1065,34 @@ fn load_layouts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec
     out
 }
 
+/// The bounds of a rate, by quote: a quote that divides (units per presentation unit)
+/// must be at least 10^-3, so that an amount below 10^15 divided by it stays below
+/// 10^18 at the 20 decimals of the quotient (38 digits); a rate of either quote is at
+/// most 10^6, so that a product stays below 10^21 (see `money`).
+pub fn rate_bounds(quote: Quote) -> (Decimal, Decimal) {
+    let max = Decimal::from(1_000_000);
+    match quote {
+        Quote::UnitsPerPresentation => (Decimal::new(1, 3), max),
+        Quote::PresentationPerUnit => (Decimal::new(1, crate::money::RATE_SCALE as u32), max),
+    }
+}
+
 fn parse_rate(t: &TextTable, row: usize, col: &str, quote: Quote, f: &mut Vec<Finding>) -> Option<Rate> {
     let v = t.get(col, row)?;
+    let (low, high) = rate_bounds(quote);
     match Decimal::from_str(&v) {
+        Ok(d) if d.scale() as usize <= crate::money::RATE_SCALE && d > Decimal::ZERO && (d < low || d > high) => {
+            f.push(
+                Finding::new(
+                    Rule::RateOutOfRange,
+                    format!("`{col}` rate {v} ({}) is outside {low} to {high}", quote.as_str()),
+                    "check the rate and its quote: a rate this far out is almost always a unit or quote error; tessera keeps every translated amount exact only inside these bounds",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            None
+        }
         Ok(d) if d.scale() as usize <= crate::money::RATE_SCALE && d > Decimal::ZERO => Some(Rate { value: d, quote }),
         Ok(d) if d <= Decimal::ZERO => {
             f.push(
@@ -1169,6 +1363,25 @@ fn load_acquisitions(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mu
         else {
             continue;
         };
+        // The close takes shares of the net assets at the acquisition date's rate as
+        // amount x net_assets_presentation / net_assets (exact, one rounding), which must
+        // stay inside rust_decimal's 28 digits: the product is bounded here, where the
+        // row is known, rather than overflowing in the close.
+        let widest = [nci_fv.unwrap_or_default(), na, fva].into_iter().map(|x| x.abs()).max().unwrap_or_default();
+        if widest.checked_mul(nap.abs()).is_none_or(|p| p >= Decimal::from_i128_with_scale(10i128.pow(27), 0)) {
+            f.push(
+                Finding::new(
+                    Rule::AmountTooLarge,
+                    format!(
+                        "`net_assets_presentation` {nap} times the largest of `net_assets`, `nci_fair_value` and `fair_value_adjustment` ({widest}) is not below 10^27, beyond exact arithmetic"
+                    ),
+                    "check the amounts and their units; one of them is almost certainly a pasting or unit error",
+                )
+                .in_file(&t.file)
+                .line(t.line(row)),
+            );
+            continue;
+        }
         if m == NciMeasurement::FairValue && nci_fv.is_none() {
             f.push(
                 Finding::new(
@@ -1325,6 +1538,70 @@ fn load_net_investments(
             fx_account: GroupAccount::new(fx_account),
             from,
             note: t.get("note", row).unwrap_or_default(),
+            source: Source::line(&t.file, t.line(row)),
+        });
+    }
+    out
+}
+
+/// An intercompany difference that the group has looked at and accepts for one period's
+/// close, with the reason and who accepted it (`entities/accepted_differences.csv`).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct AcceptedDifference {
+    pub entity: EntityId,
+    pub counterparty: EntityId,
+    pub kind: String,
+    pub period: Period,
+    /// The pair's difference in the presentation currency, as `tessera match` shows it.
+    pub amount: Decimal,
+    pub reason: String,
+    pub accepted_by: String,
+    pub source: Source,
+}
+
+fn load_accepted(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<AcceptedDifference> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec {
+        required: &["entity", "counterparty", "kind", "period", "amount", "reason", "accepted_by"],
+        optional: &[],
+        prefixes: &[],
+    };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out = Vec::new();
+    for row in 0..t.height() {
+        let cells = (
+            required(&t, "entity", row, f),
+            required(&t, "counterparty", row, f),
+            required(&t, "kind", row, f),
+            required(&t, "period", row, f),
+            required(&t, "amount", row, f).and(parse_amount_cell(&t, row, "amount", f)),
+            required(&t, "reason", row, f),
+            required(&t, "accepted_by", row, f),
+        );
+        let (Some(entity), Some(counterparty), Some(kind), Some(p), Some(amount), Some(reason), Some(accepted_by)) =
+            cells
+        else {
+            continue;
+        };
+        let Ok(period) = Period::from_str(&p) else {
+            f.push(invalid(&t, row, "period", &p, "a period YYYY-MM"));
+            continue;
+        };
+        out.push(AcceptedDifference {
+            entity: EntityId::new(entity),
+            counterparty: EntityId::new(counterparty),
+            kind,
+            period,
+            amount,
+            reason,
+            accepted_by,
             source: Source::line(&t.file, t.line(row)),
         });
     }

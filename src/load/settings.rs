@@ -23,8 +23,12 @@ struct RawSettings {
     accounts: BTreeMap<String, String>,
     #[serde(default)]
     intercompany: BTreeMap<String, toml::Value>,
+    #[serde(default)]
+    plausibility: BTreeMap<String, toml::Value>,
     segments: Option<BTreeMap<String, toml::Value>>,
 }
+
+const PLAUSIBILITY_KEYS: &[&str] = &["rate_move", "sign_months"];
 
 const POLICY_KEYS: &[&str] = &["rounding", "income_translation", "ifric16", "significant_influence"];
 const ROLE_KEYS: &[&str] = &[
@@ -41,7 +45,7 @@ const ROLE_KEYS: &[&str] = &[
     "goodwill_impairment",
     "bargain_purchase_gain",
 ];
-const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days"];
+const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days", "timing"];
 const SEGMENT_KEYS: &[&str] = &[
     "key",
     "revenue",
@@ -315,6 +319,19 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             );
         }
     }
+    // How the close posts a timing difference. Only to the difference account for now:
+    // posting it as an in-transit item is a policy the close does not support yet, so
+    // asking for it is refused rather than ignored.
+    match raw.intercompany.get("timing") {
+        None => {}
+        Some(toml::Value::String(s)) if s == "difference" => {}
+        Some(toml::Value::String(s)) if s == "in_transit" => bad2(
+            "intercompany.timing",
+            "posting timing differences as in-transit items is not supported yet; the close posts them to the intercompany difference account".into(),
+            "set timing = \"difference\" (or leave it out) until the close supports in-transit items",
+        ),
+        Some(v) => bad2("intercompany.timing", format!("{v} is not a known policy"), "write timing = \"difference\""),
+    }
     let mut dec = |k: &str| -> Option<Decimal> {
         match raw.intercompany.get(k) {
             None => Some(Decimal::ZERO),
@@ -353,6 +370,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             None
         }
     };
+    let plausibility = parse_plausibility(&raw.plausibility, file, findings);
     let segments = raw.segments.as_ref().map(|t| parse_segments(t, file, findings));
     if findings.len() > before {
         return None;
@@ -393,6 +411,45 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             tolerance_relative: tol_rel?,
             timing_window_days: window?,
         },
+        plausibility: plausibility?,
         segments: segments.flatten(),
     })
+}
+
+/// The `[plausibility]` table: every key optional, defaults in `PlausibilitySettings`.
+fn parse_plausibility(
+    raw: &BTreeMap<String, toml::Value>,
+    file: &str,
+    findings: &mut Vec<Finding>,
+) -> Option<PlausibilitySettings> {
+    let mut out = PlausibilitySettings::default();
+    let mut ok = true;
+    let mut bad = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`plausibility.{key}`: {msg}"), action).in_file(file));
+    };
+    for (k, v) in raw {
+        match (k.as_str(), v) {
+            ("rate_move", toml::Value::String(s)) => match Decimal::from_str(s.trim()) {
+                Ok(d) if d > Decimal::ZERO && d <= Decimal::from(1000) => out.rate_move = d,
+                _ => {
+                    ok = false;
+                    bad(k, format!("{s:?} is not a share above 0"), "write a quoted share, e.g. \"0.25\" for 25%");
+                }
+            },
+            ("sign_months", toml::Value::Integer(n)) if (0..=11).contains(n) => out.sign_months = *n as u32,
+            (k, v) if PLAUSIBILITY_KEYS.contains(&k) => {
+                ok = false;
+                bad(
+                    k,
+                    format!("{v} is not a valid value"),
+                    "rate_move is a quoted share (\"0.25\"), sign_months a whole number 0..11",
+                );
+            }
+            (k, _) => {
+                ok = false;
+                bad(k, "unknown setting".into(), &format!("known settings: {}", PLAUSIBILITY_KEYS.join(", ")));
+            }
+        }
+    }
+    ok.then_some(out)
 }

@@ -1,6 +1,9 @@
 //! Reading one delimited or Parquet table as text columns, with its header checked
-//! against what the format requires. Every value stays text here; the caller parses it
-//! and reports what does not parse, with the line it came from.
+//! against what the format requires. Every value stays text here, trimmed, an empty or
+//! quoted empty cell being null; the caller parses it and reports what does not parse,
+//! with the line it came from. CSV is tokenised record by record so that every problem
+//! of the file's shape (text that is not UTF-8, a ragged row, a comment line, a column
+//! named twice) is a finding with its line, never a parser message without one.
 
 use std::path::Path;
 
@@ -21,8 +24,9 @@ pub struct TextTable {
     /// Path relative to the data folder, as shown in findings.
     pub file: String,
     pub df: DataFrame,
-    /// The first data row's line number (2 for CSV below its header, 1 for Parquet).
-    pub first_line: u64,
+    /// The line of each data row (in CSV the line its record starts on, the header
+    /// being line 1; in Parquet the row number from 1).
+    pub lines: Vec<u64>,
 }
 
 impl TextTable {
@@ -32,7 +36,7 @@ impl TextTable {
 
     /// Line number of data row `row`.
     pub fn line(&self, row: usize) -> u64 {
-        self.first_line + row as u64
+        self.lines.get(row).copied().unwrap_or(row as u64 + 2)
     }
 
     /// The text of `column` at `row`, trimmed; `None` when empty.
@@ -54,20 +58,36 @@ impl TextTable {
 /// columns are reported as warnings and kept out.
 pub fn read(path: &Path, file: &str, spec: &Spec<'_>, findings: &mut Vec<Finding>) -> Option<TextTable> {
     let is_parquet = path.extension().is_some_and(|e| e == "parquet");
-    let raw = if is_parquet { read_parquet_text(path) } else { read_csv_text(path) };
-    let mut df = match raw {
-        Ok(df) => df,
-        Err(e) => {
-            findings.push(
-                Finding::new(
-                    Rule::FileUnreadable,
-                    format!("cannot read the table: {e}"),
-                    "check that the file is UTF-8 CSV with a header row (or Parquet) and not truncated",
-                )
-                .in_file(file),
-            );
-            return None;
+    let (mut df, lines) = if is_parquet {
+        match read_parquet_text(path) {
+            Ok(df) => {
+                let n = df.height() as u64;
+                (df, (1..=n).collect())
+            }
+            Err(e) => {
+                findings.push(
+                    Finding::new(
+                        Rule::FileUnreadable,
+                        format!("cannot read the table: {e}"),
+                        "check that the file is Parquet and not truncated",
+                    )
+                    .in_file(file),
+                );
+                return None;
+            }
         }
+    } else {
+        let bytes = match std::fs::read(path) {
+            Ok(b) => b,
+            Err(e) => {
+                findings.push(
+                    Finding::new(Rule::FileUnreadable, format!("cannot read the file: {e}"), "check the file")
+                        .in_file(file),
+                );
+                return None;
+            }
+        };
+        read_csv_text(&bytes, file, findings)?
     };
     let names: Vec<String> = df.get_column_names().iter().map(|s| s.to_string()).collect();
     let mut ok = true;
@@ -123,21 +143,165 @@ pub fn read(path: &Path, file: &str, spec: &Spec<'_>, findings: &mut Vec<Finding
             }
         }
     }
-    Some(TextTable { file: file.to_string(), df, first_line: if is_parquet { 1 } else { 2 } })
+    Some(TextTable { file: file.to_string(), df, lines })
 }
 
-fn read_csv_text(path: &Path) -> PolarsResult<DataFrame> {
-    CsvReadOptions::default()
-        .with_has_header(true)
-        .with_infer_schema_length(Some(0))
-        .with_raise_if_empty(false)
-        .try_into_reader_with_file_path(Some(path.to_path_buf()))?
-        .finish()
+/// Tokenises CSV `bytes` (RFC 4180: commas, double quotes, a header row) into text
+/// columns and the line of each kept row. A file that cannot be read as a whole (not
+/// UTF-8, no header, a column named twice) returns `None` with its finding; a row of the
+/// wrong shape is a finding on its line and is left out.
+pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> Option<(DataFrame, Vec<u64>)> {
+    let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(bytes);
+    let mut header: Option<Vec<String>> = None;
+    let mut columns: Vec<Vec<Option<String>>> = Vec::new();
+    let mut lines: Vec<u64> = Vec::new();
+    let mut record = csv::ByteRecord::new();
+    loop {
+        let line = reader.position().line();
+        match reader.read_byte_record(&mut record) {
+            Ok(false) => break,
+            Ok(true) => {}
+            Err(e) => {
+                findings.push(
+                    Finding::new(
+                        Rule::FileUnreadable,
+                        format!("the file cannot be read as CSV from line {line}: {e}"),
+                        "save it as UTF-8 CSV, comma separated, with one header row",
+                    )
+                    .in_file(file)
+                    .line(line),
+                );
+                return None;
+            }
+        }
+        let line = record.position().map(|p| p.line()).unwrap_or(line);
+        let mut fields: Vec<String> = Vec::with_capacity(record.len());
+        for raw in record.iter() {
+            match std::str::from_utf8(raw) {
+                Ok(s) => fields.push(s.trim().to_string()),
+                Err(e) => {
+                    let bad = raw.get(e.valid_up_to()).copied().unwrap_or(0);
+                    findings.push(
+                        Finding::new(
+                            Rule::FileUnreadable,
+                            format!(
+                                "line {line} is not UTF-8 text (byte 0x{bad:02X} after {:?}); the file is not read",
+                                String::from_utf8_lossy(&raw[..e.valid_up_to()])
+                            ),
+                            "save the file as UTF-8 (an export in Latin-1 or Windows-1252 must be converted)",
+                        )
+                        .in_file(file)
+                        .line(line),
+                    );
+                    return None;
+                }
+            }
+        }
+        if fields.len() == 1 && fields[0].is_empty() {
+            continue; // a blank line holds no row
+        }
+        let Some(names) = &header else {
+            let mut seen: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
+            let mut ok = true;
+            for (i, n) in fields.iter().enumerate() {
+                if n.is_empty() {
+                    ok = false;
+                    findings.push(
+                        Finding::new(
+                            Rule::ColumnMissing,
+                            format!("column {} of the header has no name", i + 1),
+                            "name every column of the header row (docs/formats.md lists them)",
+                        )
+                        .in_file(file)
+                        .line(line),
+                    );
+                } else if let Some(first) = seen.insert(n.as_str(), i) {
+                    ok = false;
+                    findings.push(
+                        Finding::new(
+                            Rule::ColumnDuplicated,
+                            format!("column `{n}` is named twice in the header (columns {} and {})", first + 1, i + 1),
+                            format!("keep one `{n}` column: tessera cannot tell which one holds the values"),
+                        )
+                        .in_file(file)
+                        .line(line),
+                    );
+                }
+            }
+            if !ok {
+                return None;
+            }
+            columns = vec![Vec::new(); fields.len()];
+            header = Some(fields);
+            continue;
+        };
+        if fields.first().is_some_and(|f| f.starts_with('#')) {
+            findings.push(
+                Finding::new(
+                    Rule::RowMalformed,
+                    format!("line {line} is a comment line; tessera's tables have none, so the line is not read"),
+                    "remove the line (or put the note in a `note` column where the file has one)",
+                )
+                .in_file(file)
+                .line(line),
+            );
+            continue;
+        }
+        if fields.len() != names.len() {
+            findings.push(
+                Finding::new(
+                    Rule::RowMalformed,
+                    format!(
+                        "line {line} has {} fields, the header has {}; the row is not read",
+                        fields.len(),
+                        names.len()
+                    ),
+                    "give every row exactly the header's columns (a comma inside a value needs double quotes)",
+                )
+                .in_file(file)
+                .line(line),
+            );
+            continue;
+        }
+        for (c, v) in columns.iter_mut().zip(fields) {
+            c.push((!v.is_empty()).then_some(v));
+        }
+        lines.push(line);
+    }
+    let Some(names) = header else {
+        findings.push(
+            Finding::new(
+                Rule::FileUnreadable,
+                "the file is empty: it has no header row",
+                "write the header row and the data (docs/formats.md has an example of every file)",
+            )
+            .in_file(file),
+        );
+        return None;
+    };
+    let n = lines.len();
+    let cols: Vec<Column> = names.iter().zip(columns).map(|(name, values)| Column::new(name.into(), values)).collect();
+    match DataFrame::new(n, cols) {
+        Ok(df) => Some((df, lines)),
+        Err(e) => {
+            findings.push(Finding::new(Rule::FileUnreadable, e.to_string(), "check the file").in_file(file));
+            None
+        }
+    }
 }
 
 fn read_parquet_text(path: &Path) -> PolarsResult<DataFrame> {
     let file = std::fs::File::open(path)?;
     let df = ParquetReader::new(file).finish()?;
-    let cols: Vec<Expr> = df.get_column_names().iter().map(|n| col(n.as_str()).strict_cast(DataType::String)).collect();
+    // Trimmed, and an empty text null, as in CSV.
+    let cols: Vec<Expr> = df
+        .get_column_names()
+        .iter()
+        .map(|n| {
+            let t = col(n.as_str()).strict_cast(DataType::String).str().strip_chars(lit(NULL));
+            when(t.clone().eq(lit(""))).then(lit(NULL).cast(DataType::String)).otherwise(t).alias(n.as_str())
+        })
+        .collect();
     df.lazy().select(cols).collect()
 }

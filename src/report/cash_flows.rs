@@ -106,11 +106,11 @@ pub fn table(cf: &CashFlows, minor: u32) -> String {
     out
 }
 
-/// Writes `cash_flows.csv` to `dir`.
-pub fn write(dir: &Path, cf: &CashFlows) -> std::io::Result<()> {
+/// Writes the statement as `cash_flows.csv` to `path`.
+pub fn write(path: &Path, cf: &CashFlows) -> std::io::Result<()> {
     let mut text = csv_line(&["section", "line", "label", "amount"].map(String::from));
     for (section, line, label, amount) in rows(cf) {
         text.push_str(&csv_line(&[section, line, label, plain(amount)]));
     }
-    write_file(&dir.join("cash_flows.csv"), text.as_bytes())
+    write_file(path, text.as_bytes())
 }

@@ -113,6 +113,14 @@ pub struct Attribution {
 
 #[derive(Serialize)]
 pub struct Proof<'a> {
+    /// `final`, or `draft` for a close run with `--draft` despite its exceptions.
+    pub status: &'static str,
+    pub period: String,
+    /// `group`, or the root entity of a sub-group.
+    pub scope: String,
+    pub view: &'a str,
+    /// Every blocking finding the close was run despite (none in a final close).
+    pub exceptions: &'a [crate::findings::Finding],
     pub tied: bool,
     pub checks: &'a [Check],
     pub inputs: &'a [InputFile],
@@ -169,7 +177,14 @@ pub fn render(r: &CloseReport<'_>, minor: u32, format: Format) -> String {
 }
 
 fn table(r: &CloseReport<'_>, minor: u32) -> String {
-    let mut out = format!("{} statements for {} ({} view), in {}\n", r.scope, r.period, r.view, r.currency);
+    let mut out = String::new();
+    if r.proof.status == "draft" {
+        out.push_str(&format!(
+            "DRAFT, NOT A FINAL CLOSE: run despite {} exception(s), listed below; every file written is marked draft\n",
+            r.proof.exceptions.len()
+        ));
+    }
+    out.push_str(&format!("{} statements for {} ({} view), in {}\n", r.scope, r.period, r.view, r.currency));
     let titles = [
         ("profit_or_loss", "Statement of profit or loss"),
         ("oci", "Other comprehensive income"),
@@ -351,10 +366,12 @@ pub fn write_outputs(
             ),
         ],
     )?;
-    write_frame(dir, "group_trial_balance", tb)?;
-    write_frame(dir, "eliminations", journal_frame(r.eliminations)?)?;
-    write_frame(dir, "contributions", contributions.clone())?;
-    write_frame(dir, "translated", translated.clone())?;
+    // A draft's every file says so in its name (a CSV table has no place for a note).
+    let name = |n: &str| if r.proof.status == "draft" { format!("draft-{n}") } else { n.to_string() };
+    write_frame(dir, &name("group_trial_balance"), tb)?;
+    write_frame(dir, &name("eliminations"), journal_frame(r.eliminations)?)?;
+    write_frame(dir, &name("contributions"), contributions.clone())?;
+    write_frame(dir, &name("translated"), translated.clone())?;
     let nci = DataFrame::new(
         r.nci.len(),
         vec![
@@ -365,7 +382,7 @@ pub fn write_outputs(
             Column::new("equity".into(), r.nci.iter().map(|n| crate::money::plain(n.equity)).collect::<Vec<_>>()),
         ],
     )?;
-    write_frame(dir, "nci", nci)?;
+    write_frame(dir, &name("nci"), nci)?;
     let rs = r.translation_reserves;
     let reserves = DataFrame::new(
         rs.len(),
@@ -388,7 +405,7 @@ pub fn write_outputs(
             Column::new("reserve".into(), rs.iter().map(|x| crate::money::plain(x.reserve)).collect::<Vec<_>>()),
         ],
     )?;
-    write_frame(dir, "translation_reserves", reserves)?;
+    write_frame(dir, &name("translation_reserves"), reserves)?;
     let x = explanations;
     let col = |name: &str, f: &dyn Fn(&crate::translate::Explanation) -> String| {
         Column::new(name.into(), x.iter().map(f).collect::<Vec<_>>())
@@ -407,7 +424,7 @@ pub fn write_outputs(
             col("translation_difference", &|e| crate::money::plain(e.total)),
         ],
     )?;
-    write_frame(dir, "translation_differences", td)?;
+    write_frame(dir, &name("translation_differences"), td)?;
     let eq = &r.statements.changes_in_equity;
     let cells: Vec<(&EquityRowOut, &EquityColumnOut)> =
         eq.rows.iter().flat_map(|row| eq.columns.iter().map(move |c| (row, c))).collect();
@@ -426,16 +443,19 @@ pub fn write_outputs(
             ),
         ],
     )?;
-    write_frame(dir, "equity_changes", equity)?;
+    write_frame(dir, &name("equity_changes"), equity)?;
     if let Some(cf) = &r.statements.cash_flows {
-        super::cash_flows::write(dir, cf)?;
+        super::cash_flows::write(&dir.join(name("cash_flows.csv")), cf)?;
     }
-    write_file(&dir.join("proof.json"), to_json(&r.proof).as_bytes())?;
-    write_file(&dir.join("statements.json"), to_json(&r.statements).as_bytes())?;
+    write_file(&dir.join(name("proof.json")), to_json(&r.proof).as_bytes())?;
+    write_file(&dir.join(name("statements.json")), to_json(&r.statements).as_bytes())?;
     Ok(())
 }
 
-/// The period folder of a close's outputs.
-pub fn output_dir(out: &Path, period: Period) -> std::path::PathBuf {
-    out.join(period.to_string())
+/// The folder of a close's outputs: `<out>/<period>/<scope>/<view>`, the scope being
+/// `group` or the root entity of a sub-group, so that no close overwrites another's
+/// files; a draft's folder is `<view>-draft`.
+pub fn output_dir(out: &Path, period: Period, scope: &str, view: &str, draft: bool) -> std::path::PathBuf {
+    let view = if draft { format!("{view}-draft") } else { view.to_string() };
+    out.join(period.to_string()).join(scope).join(view)
 }

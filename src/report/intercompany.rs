@@ -51,7 +51,8 @@ struct PairOut {
     difference_txn: Option<Decimal>,
     /// The entity whose figures the pair waits for.
     awaiting: Option<String>,
-    /// The account the close posts the difference to (within tolerance, or FX).
+    /// The account the close posts the difference to (any pair of consolidated entities
+    /// with a difference).
     posted_to: Option<String>,
     /// The entity whose side is measured from its dividends declared (balance-sheet
     /// credits of the kind) rather than from profit-or-loss lines.
@@ -135,7 +136,7 @@ fn at_minor(d: Decimal, c: Option<Currency>) -> Decimal {
     d
 }
 
-fn absence_text(entity: &str, a: &Absence) -> String {
+pub fn absence_text(entity: &str, a: &Absence) -> String {
     match a {
         Absence::NoFolder => format!("{entity} has not delivered: there is no folder entities/{entity}/"),
         Absence::MissingMonths(ps) => {
@@ -226,6 +227,14 @@ fn explanation(p: &Pair, m: &Matching) -> String {
         text = format!("within tolerance, posted to {}: {text}", m.difference_account);
     } else if p.status == Status::Explained && p.reason == Some(Reason::Fx) {
         text = format!("{text}; posted to {} (IAS 21.45)", m.difference_account);
+    } else if p.status == Status::Explained {
+        text = format!("{text}; posted to {} by the close", m.difference_account);
+    } else if p.status == Status::Open {
+        text = format!(
+            "{text}; the close posts it to {} and a final close needs it accepted in entities/{}",
+            m.difference_account,
+            crate::intercompany::ACCEPTED_FILE
+        );
     }
     if let Evidence::Documents { greedy: true, .. } = &p.evidence {
         text.push_str(" (documents beyond the matching limit were paired greedily)");
@@ -243,7 +252,7 @@ fn txn_of(s: &Option<Side>, p: &Pair) -> Option<Decimal> {
 
 fn pair_out(p: &Pair, m: &Matching) -> PairOut {
     let awaiting = p.awaiting().map(|e| e.to_string());
-    let posted = p.status == Status::WithinTolerance || (p.status == Status::Explained && p.reason == Some(Reason::Fx));
+    let posted = crate::intercompany::posts_difference(p, m.options.consolidated.as_ref());
     let unpaired = match &p.evidence {
         Evidence::Documents { unpaired, .. } => unpaired
             .iter()
@@ -497,7 +506,7 @@ fn table(r: &Report<'_>, m: &Matching) -> String {
         t.awaiting
     ));
     out.push_str(&format!(
-        "net difference to post to {} (within tolerance and FX): {} {}\n",
+        "net difference the close posts to {} (every pair of consolidated entities: within tolerance, FX, timing, open): {} {}\n",
         t.difference_account,
         r.currency,
         format_amount(t.to_difference_account, minor)

@@ -43,15 +43,22 @@ fn check<'a>(v: &'a Value, name: &str) -> &'a Value {
 }
 
 fn close(dir: &Path, period: &str, view: &str, extra: &[&str]) -> Value {
+    let (code, v) = close_any(dir, period, view, extra);
+    assert_eq!(code, 0, "{period} {view}: {v:#}");
+    v
+}
+
+/// A close whose exit code may be 1 for reasons of its own (an intercompany difference
+/// not accepted, say); its statement of cash flows must still tie.
+fn close_any(dir: &Path, period: &str, view: &str, extra: &[&str]) -> (i32, Value) {
     let out = dir.join("out");
     let mut args = vec!["close", "--period", period, "--view", view, "--out", out.to_str().expect("utf-8")];
     args.extend_from_slice(extra);
     let (code, v) = run_json(dir, &args);
-    assert_eq!(code, 0, "{period} {view}: {v:#}");
     for name in ["cash_flows_reconcile", "cash_flow_lines_cover_movements"] {
         assert_eq!(check(&v, name)["ok"], true, "{period} {view}: {:#}", check(&v, name));
     }
-    v
+    (code, v)
 }
 
 /// A chart with the accounts of the two worked examples, its layout and its lines.
@@ -408,7 +415,7 @@ fn cash_flow_lines_findings() {
     f.replace(
         rel,
         "1000,investing,purchase_of_ppe,Purchase of property plant and equipment and intangible assets,,",
-        "1000,investing,purchase_of_ppe,Purchase of property plant and equipment and intangible assets,depreciation",
+        "1000,investing,purchase_of_ppe,Purchase of property plant and equipment and intangible assets,depreciation,",
     );
     let (code, v) = run_json(f.path(), &["check"]);
     assert_eq!(code, 1);
@@ -491,7 +498,7 @@ proptest! {
         prop_assert_eq!(code, 0, "{:#}", v["findings"]);
         for p in ["2026-01", "2026-02", "2026-03", "2026-04"] {
             for view in ["month", "qtd", "ytd"] {
-                close(f.path(), p, view, &[]);
+                close_any(f.path(), p, view, &["--draft"]);
             }
         }
     }
@@ -510,7 +517,7 @@ fn demo_ties_under_other_policies_and_hyperinflation() {
     f.replace("entities/entities.csv", "MX,MXN,Americas,Instruments,", "MX,MXN,Americas,Instruments,2026-06");
     for p in ["2026-05", "2026-06", "2026-09", "2026-12"] {
         for view in ["month", "qtd", "ytd"] {
-            close(f.path(), p, view, &[]);
+            close_any(f.path(), p, view, &["--draft"]);
         }
     }
 }

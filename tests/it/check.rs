@@ -195,15 +195,23 @@ fn missing_file_and_missing_column_are_unreadable_input() {
     at(one(&fs, "ColumnMissing"), UK_DEC, Some(1));
 }
 
+/// An equity-accounted associate that has not delivered blocks: the close needs every
+/// entity it consolidates or equity-accounts (issue 14). One outside the group only warns.
 #[test]
-fn an_entity_not_yet_delivered_is_a_warning_not_a_block() {
+fn an_entity_not_yet_delivered_blocks_when_the_close_needs_it() {
     let f = Folder::demo();
     f.remove("entities/HEL-CH");
+    f.append("entities/entities.csv", "ZZZ-01,Zed B.V.,NL,EUR,Europe,Corporate,");
     let (code, fs) = check(&f);
-    assert_eq!(code, 0, "{fs:#?}");
-    let x = one(&fs, "DeliveryMissing");
-    assert_eq!(x["entity"], "HEL-CH");
-    assert_eq!(x["severity"], "warning");
+    assert_eq!(code, 1, "{fs:#?}");
+    let missing: Vec<&Value> = fs.iter().filter(|x| x["rule"] == "DeliveryMissing").collect();
+    assert_eq!(missing.len(), 2, "{missing:#?}");
+    let hel = missing.iter().find(|x| x["entity"] == "HEL-CH").expect("HEL-CH");
+    assert_eq!(hel["severity"], "blocking");
+    assert_eq!(hel["file"], "entities/HEL-CH");
+    assert!(hel["message"].as_str().unwrap().contains("equity-accounted"), "{hel:#}");
+    let zed = missing.iter().find(|x| x["entity"] == "ZZZ-01").expect("ZZZ-01");
+    assert_eq!(zed["severity"], "warning");
 }
 
 #[test]

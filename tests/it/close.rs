@@ -231,11 +231,12 @@ fn outputs_are_byte_identical_on_rerun() {
         let (code, _) = run_json(&repo(), &["close", "--period", "2026-12", "--out", dir.path().to_str().unwrap()]);
         assert_eq!(code, 0);
     }
-    let files: Vec<_> = std::fs::read_dir(a.path().join("2026-12")).unwrap().map(|e| e.unwrap().file_name()).collect();
+    let files: Vec<_> =
+        std::fs::read_dir(a.path().join("2026-12/group/ytd")).unwrap().map(|e| e.unwrap().file_name()).collect();
     assert!(files.len() >= 10, "{files:?}");
     for name in files {
-        let x = std::fs::read(a.path().join("2026-12").join(&name)).unwrap();
-        let y = std::fs::read(b.path().join("2026-12").join(&name)).unwrap();
+        let x = std::fs::read(a.path().join("2026-12/group/ytd").join(&name)).unwrap();
+        let y = std::fs::read(b.path().join("2026-12/group/ytd").join(&name)).unwrap();
         assert!(x == y, "{name:?} differs between two runs");
     }
 }
@@ -539,7 +540,7 @@ fn no_output_shows_a_negative_zero() {
     assert_eq!(code, 0);
     assert!(signed_zero(&table).is_empty() && !table.contains("(0.00)"), "{table}");
     let mut files = 0;
-    for e in std::fs::read_dir(out.path().join("2026-01")).unwrap() {
+    for e in std::fs::read_dir(out.path().join("2026-01/group/ytd")).unwrap() {
         let p = e.unwrap().path();
         if matches!(p.extension().and_then(|x| x.to_str()), Some("csv" | "json")) {
             let text = std::fs::read_to_string(&p).unwrap();

@@ -78,7 +78,8 @@ fn demo_2026_12_every_deliberate_difference_is_classified() {
     classified(p, "explained", Some("timing"));
     assert_eq!(dec(&p["difference_txn"]), d("-96800.00"));
     assert_eq!(dec(&p["difference"]), d("-88040.91"));
-    assert_eq!(p["posted_to"], Value::Null);
+    // The close eliminates both sides and posts what is left (issue 14: match says so).
+    assert_eq!(p["posted_to"], "6950");
 
     // 4. True difference: rush order KIS-26-1207, price disputed.
     let p = pair(&r, "KIS-JP", "BRW-US", "trade");
@@ -324,8 +325,9 @@ fn unusable_document_rows_are_warnings() {
     classified(pair(&r, "BRW-US", "ALD-UK", "trade"), "explained", Some("timing"));
 }
 
-/// The postings handed to the close: within-tolerance and FX differences, in the
-/// presentation currency, to the intercompany difference account; never timing or open.
+/// The postings are what the close posts to the intercompany difference account, to the
+/// cent: the difference of every pair of consolidated entities (within tolerance, FX,
+/// timing and open), checked against the close's own elimination journal (issue 14).
 #[test]
 fn postings_for_the_intercompany_difference_account() {
     use tessera::intercompany::{Deliveries, Options, Reason, Status, match_intercompany};
@@ -335,19 +337,36 @@ fn postings_for_the_intercompany_difference_account() {
     assert_eq!(deliveries.used.len(), 10);
     let mapped = deliveries.restrict(&c.mapped).unwrap();
     let t = tessera::translate::translate(&c.ds, &mapped, c.scope.fiscal_start, c.scope.period).unwrap();
-    let m = match_intercompany(&c.ds, &t, c.scope, &deliveries, &Options::from_settings(&c.ds.settings.intercompany))
-        .unwrap();
+    let mut options = Options::from_settings(&c.ds.settings.intercompany);
+    options.consolidated = Some(tessera::commands::consolidated(&c.structure));
+    let m = match_intercompany(&c.ds, &t, c.scope, &deliveries, &options).unwrap();
     let posts = m.postings();
     assert!(!posts.is_empty());
     for p in &posts {
         assert_eq!(p.account.as_str(), "6950");
         assert_eq!(p.amount_entity + p.amount_counterparty, p.difference);
-        assert!(p.status == Status::WithinTolerance || p.reason == Some(Reason::Fx), "{p:?}");
+        assert!(!p.difference.is_zero(), "{p:?}");
     }
     let fx = posts.iter().find(|p| p.kind == "trade" && p.counterparty.as_str() == "ALD-UK").expect("ALD-NL/ALD-UK");
     assert_eq!(fx.difference, d("615.24"));
-    assert!(!posts.iter().any(|p| p.reason == Some(Reason::Timing) && p.status == Status::Explained));
-    assert!(!posts.iter().any(|p| p.entity.as_str() == "BRW-US" && p.counterparty.as_str() == "KIS-JP"));
+    assert!(posts.iter().any(|p| p.reason == Some(Reason::Timing) && p.status == Status::Explained));
+    assert!(posts.iter().any(|p| p.status == Status::Open && p.counterparty.as_str() == "KIS-JP"));
+    // The close's journal posts the same to 6950, to the cent.
+    let out = tempfile::tempdir().unwrap();
+    let (code, close) = run_json(&repo(), &["close", "--period", "2026-12", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0);
+    let posted: Decimal = close["eliminations"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .flat_map(|e| e["lines"].as_array().unwrap().iter())
+        .filter(|l| l["account"] == "6950")
+        .map(|l| d(l["amount"].as_str().unwrap()))
+        .sum();
+    let matched: Decimal = posts.iter().map(|p| p.difference).sum();
+    assert_eq!(posted, matched);
+    assert_eq!(matched, d("-326.03"));
+    assert_eq!(m.totals.to_difference_account, matched);
 }
 
 /// IAS 21.45: an intragroup monetary item cannot be eliminated without the exchange

@@ -2,6 +2,8 @@
 //! the bundled demo group or on small data built inside the test:
 //!
 //! - `support`: building data folders and running commands in-process;
+//! - `bad_input`: sixty-odd broken copies of the demo, each with the finding it must give,
+//!   and a bounded random mutation test (no panic, no silent change of figures);
 //! - `check`: `tessera check` on the demo (clean) and on broken copies, one per finding kind;
 //! - `close`: published consolidation cases as folders under `tests/cases/`, the demo
 //!   closing tied (under both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
@@ -14,6 +16,8 @@
 //! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
 //!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
+//! - `delivery_basis`: months delivered as balances among months of movements give the
+//!   same figures (a property test over any set of months);
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
@@ -27,11 +31,13 @@
 //!   IFRIC 16 on a three-tier group;
 //! - `translate_oracle`: the translation against a naive row-by-row oracle (property test).
 
+mod bad_input;
 mod cash_flows;
 mod check;
 mod close;
 mod close_oracle;
 mod currencies;
+mod delivery_basis;
 mod generate;
 mod golden;
 mod intercompany;

@@ -384,7 +384,7 @@ fn demo_reconciles_by_business_and_geography() {
         dec(&lines.iter().find(|l| l["line"] == line).expect("line")["amount"])
     };
     // Contributions, by hand.
-    let text = std::fs::read_to_string(out.path().join("2026-12/contributions.csv")).expect("contributions");
+    let text = std::fs::read_to_string(out.path().join("2026-12/group/ytd/contributions.csv")).expect("contributions");
     let mut rows = Vec::new();
     for l in text.lines().skip(1) {
         let c: Vec<&str> = l.split(',').collect();
@@ -456,9 +456,11 @@ fn demo_table_csv_and_files() {
     ]);
     assert_eq!(code, 0, "{text}");
     assert!(text.contains("Reconciliation to the group (IFRS 8.28)") && text.contains("proof: tied"), "{text}");
-    let json = std::fs::read_to_string(out.path().join("2026-12/segments-geography.json")).expect("json written");
+    let json =
+        std::fs::read_to_string(out.path().join("2026-12/group/ytd/segments-geography.json")).expect("json written");
     assert!(json.contains("\"key\": \"geography\""));
-    let csv = std::fs::read_to_string(out.path().join("2026-12/segments-geography.csv")).expect("csv written");
+    let csv =
+        std::fs::read_to_string(out.path().join("2026-12/group/ytd/segments-geography.csv")).expect("csv written");
     assert!(csv.starts_with("section,line,column,amount\n"));
     let (code, again) = crate::support::run(&[
         "segments",

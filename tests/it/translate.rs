@@ -381,7 +381,8 @@ fn ifric16_direct_and_step_by_step_agree_in_total_and_split_the_reserve() {
             assert_eq!(moved.len(), 1, "{moved:#?}");
             assert_eq!(moved[0]["posted_at"], "S");
         }
-        let written = std::fs::read_to_string(out.path().join("2026-01/translation_reserves.csv")).expect("written");
+        let written =
+            std::fs::read_to_string(out.path().join("2026-01/group/ytd/translation_reserves.csv")).expect("written");
         assert!(written.contains(&format!("T,{method},0.00,{t_reserve},{t_reserve}")), "{written}");
         group_tbs.push(c["group_trial_balance"].clone());
     }
