@@ -1,6 +1,7 @@
 //! The commands as pipelines of named stages. Each function here reads as the chain
 //! `load -> map_accounts -> validate -> ...` for its command and decides its exit code:
-//! 0 clean, 1 blocking findings (or a failed proof), 2 unreadable input.
+//! 0 clean, 1 blocking findings (or a failed proof), 3 unreadable input (2, a usage
+//! error, is decided by clap and `cli::error_exit_code`).
 
 use std::io::Write;
 use std::path::Path;
@@ -16,7 +17,7 @@ use crate::validate::{Scope, validate};
 /// Exit code for a set of findings.
 pub fn exit_code(findings: &Findings) -> i32 {
     if findings.has_unreadable() {
-        2
+        3
     } else if findings.has_blocking() {
         1
     } else {
@@ -359,12 +360,20 @@ pub fn run_close(
     Ok(Ok(ClosedPeriod { checked, translated, structure, close, base, checks, root }))
 }
 
+/// Where and what a close writes besides what it prints.
+pub struct CloseFiles {
+    /// The output folder; a sub-folder per period is written in it.
+    pub dir: std::path::PathBuf,
+    /// Parquet twins of the CSV tables, only when asked.
+    pub parquet: bool,
+}
+
 pub fn close(
     data: &Path,
     period: Option<Period>,
     view: crate::cli::View,
     entity: Option<crate::model::EntityId>,
-    out_dir: &Path,
+    files: &CloseFiles,
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
@@ -510,8 +519,39 @@ pub fn close(
         caution: report::CAUTION,
     };
     let _span = tracing::info_span!("report").entered();
-    let dir = report::close::output_dir(out_dir, scope.period);
-    report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
+    let dir = report::close::output_dir(&files.dir, scope.period);
+    let entity_minor: BTreeMap<String, u32> =
+        ds.entities.iter().map(|e| (e.id.to_string(), e.currency.minor_unit())).collect();
+    let tables = report::close::Tables {
+        names: &names,
+        entity_minor: &entity_minor,
+        minor,
+        contributions: &c.close.contributions,
+        translated: &c.translated.lines,
+        explanations: &c.translated.explanations,
+        parquet: files.parquet,
+    };
+    report::close::write_outputs(&dir, &r, &tables)?;
+    // The workbook and the page: the group's intercompany matching and, for the group
+    // itself, its segments by the default key.
+    let matching = matching_of(&c)?;
+    let segments = match &ds.settings.segments {
+        Some(settings) if c.root == ds.settings.parent => {
+            let derived = crate::segments::with_derived_key(&ds.entities, &settings.key);
+            let entities = derived.as_deref().unwrap_or(&ds.entities);
+            Some((settings.key.clone(), segment_report(&c, settings, &settings.key, entities)?.0))
+        }
+        _ => None,
+    };
+    let consolidated: std::collections::BTreeSet<String> =
+        c.close.contributions.column("entity")?.str()?.iter().flatten().map(String::from).collect();
+    let extras = report::html::Extras {
+        segments: segments.as_ref().map(|(k, rep)| (k.as_str(), rep.segments.as_slice())),
+        causes: report::html::causes(&c.translated.explanations, scope.fiscal_start, scope.period, &consolidated),
+        statuses: Some(report::intercompany::status_counts(&matching)),
+    };
+    report::write_file(&dir.join("close.xlsx"), &report::workbook::close_workbook(&r, &names, Some(&matching), minor))?;
+    report::write_file(&dir.join("close.html"), report::html::close_page(&r, &extras, minor).as_bytes())?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     Ok(if tied { 0 } else { 1 })
 }
@@ -528,8 +568,6 @@ pub fn segments(
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
-    use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
-    use std::collections::BTreeMap;
     let c = match run_close_or_stop(data, period, view, None, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -561,11 +599,53 @@ pub fn segments(
             if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
         )));
     }
+    let (rep, mut findings) = segment_report(&c, settings, &key, entities)?;
+    let mut checks = c.checks.clone();
+    checks.extend(rep.checks.iter().cloned());
+    findings.extend(rep.findings.iter().cloned());
+    findings.extend(c.close.findings.iter().cloned());
+    let blocking = findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
+    let tied = crate::proof::tied(&checks);
+    let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
+    let r = report::segments::SegmentsOut {
+        period: scope.period.to_string(),
+        currency: ds.settings.presentation_currency.code().to_string(),
+        view: view.as_str(),
+        scope: scope_label,
+        report: &rep,
+        findings: &findings,
+        proof: report::segments::SegmentsProof {
+            tied,
+            checks: &checks,
+            inputs: &ds.inputs,
+            tessera_version: env!("CARGO_PKG_VERSION"),
+        },
+        caution: report::CAUTION,
+    };
+    if let Some(dir) = out_dir {
+        report::segments::write_outputs(&report::close::output_dir(dir, scope.period), &r)?;
+    }
+    out.write_all(report::segments::render(&r, c.translated.minor, format).as_bytes())?;
+    Ok(if tied && !blocking { 0 } else { 1 })
+}
+
+/// The segment report of a closed period by `key`, with the findings of its settings
+/// (shared by `tessera segments` and the close's HTML report).
+fn segment_report(
+    c: &ClosedPeriod,
+    settings: &crate::model::SegmentSettings,
+    key: &str,
+    entities: &[crate::model::Entity],
+) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
+    use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
+    use std::collections::BTreeMap;
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
     let mut findings = Vec::new();
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     let measures = resolve_measures(settings, &statements, &ds.accounts, "entities/group.toml", &mut findings);
-    let m = Membership::build(&key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
+    let m = Membership::build(key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
     let country: BTreeMap<crate::model::EntityId, String> =
         ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
     let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
@@ -594,33 +674,7 @@ pub fn segments(
         settings.country_materiality,
         scope.period,
     );
-    let mut checks = c.checks.clone();
-    checks.extend(rep.checks.iter().cloned());
-    findings.extend(rep.findings.iter().cloned());
-    findings.extend(c.close.findings.iter().cloned());
-    let blocking = findings.iter().any(|f| f.severity >= crate::findings::Severity::Blocking);
-    let tied = crate::proof::tied(&checks);
-    let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
-    let r = report::segments::SegmentsOut {
-        period: scope.period.to_string(),
-        currency: ds.settings.presentation_currency.code().to_string(),
-        view: view.as_str(),
-        scope: scope_label,
-        report: &rep,
-        findings: &findings,
-        proof: report::segments::SegmentsProof {
-            tied,
-            checks: &checks,
-            inputs: &ds.inputs,
-            tessera_version: env!("CARGO_PKG_VERSION"),
-        },
-        caution: report::CAUTION,
-    };
-    if let Some(dir) = out_dir {
-        report::segments::write_outputs(&report::close::output_dir(dir, scope.period), &r)?;
-    }
-    out.write_all(report::segments::render(&r, c.translated.minor, format).as_bytes())?;
-    Ok(if tied && !blocking { 0 } else { 1 })
+    Ok((rep, findings))
 }
 
 pub fn trace(
@@ -798,6 +852,17 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;
     let tied = crate::proof::tied(&matching.proof);
     Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
+}
+
+/// The group's intercompany matching at a closed period, on the close's own
+/// translation (every delivery is complete, or the close would have stopped).
+fn matching_of(c: &ClosedPeriod) -> Result<crate::intercompany::Matching, Error> {
+    use crate::intercompany::{self, Deliveries, Options};
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let deliveries = Deliveries::assess(ds, &Findings::default(), scope)?;
+    let options = Options::from_settings(&ds.settings.intercompany);
+    Ok(intercompany::match_intercompany(ds, &c.translated, scope, &deliveries, &options)?)
 }
 
 /// Writes a synthetic group: the plan is drawn once, then each entity is drawn and

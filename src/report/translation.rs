@@ -14,7 +14,7 @@ use crate::money::{column_decimals, format_amount};
 use crate::proof::Check;
 use crate::translate::{Explanation, OperationReserve, Translated};
 
-use super::{CAUTION, Format, csv_line, to_json};
+use super::{CAUTION, CsvOut, Format, to_json};
 
 #[derive(Serialize)]
 struct Line {
@@ -229,26 +229,23 @@ pub fn render(
     Ok(match format {
         Format::Json => to_json(&report),
         Format::Csv => {
-            let mut out = csv_line(
-                &[
-                    "entity",
-                    "account",
-                    "counterparty",
-                    "txn_currency",
-                    "basis",
-                    "amount_local",
-                    "balance_local",
-                    "rate",
-                    "quote",
-                    "rate_kind",
-                    "amount_presentation",
-                    "balance_presentation",
-                ]
-                .map(String::from),
-            );
+            let mut out = CsvOut::new(&[
+                "entity",
+                "account",
+                "counterparty",
+                "txn_currency",
+                "basis",
+                "amount_local",
+                "balance_local",
+                "rate",
+                "quote",
+                "rate_kind",
+                "amount_presentation",
+                "balance_presentation",
+            ]);
             for er in &report.entities {
                 for l in &er.lines {
-                    out.push_str(&csv_line(&[
+                    out.row(&[
                         er.entity.clone(),
                         l.account.clone(),
                         l.counterparty.clone().unwrap_or_default(),
@@ -261,10 +258,10 @@ pub fn render(
                         l.rate_kind.clone(),
                         crate::money::plain(l.amount_presentation),
                         crate::money::plain(l.balance_presentation),
-                    ]));
+                    ]);
                 }
             }
-            out
+            out.finish()
         }
         Format::Table => table(&report, t.minor),
     })
@@ -367,6 +364,7 @@ fn table(r: &Report<'_>, minor: u32) -> String {
         &[false, true, true, true, true],
     ));
     out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
-    out.push_str(&format!("\n{CAUTION}\n"));
+    out.push('\n');
+    out.push_str(&super::caution_text());
     out
 }

@@ -9,6 +9,8 @@
 //! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
 //!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
+//! - `pack`: the command line (help, exit codes, closed pipe, TESSERA_DATA) and the
+//!   close's files, workbook (read back by openpyxl) and HTML report (headless Chromium);
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
@@ -28,6 +30,7 @@ mod close_oracle;
 mod currencies;
 mod generate;
 mod intercompany;
+mod pack;
 mod rates_ecb;
 mod rates_findings;
 mod segments;
