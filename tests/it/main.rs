@@ -6,6 +6,8 @@
 //! - `close`: published consolidation cases as folders under `tests/cases/`, the demo
 //!   closing tied (under both IFRIC 16 methods), net investment loans (IAS 21.32), trace;
 //! - `close_oracle`: a property test of the close against a naive consolidation;
+//! - `golden`: every output of the demo's main commands against the committed copies under
+//!   `tests/golden/` (regenerate with `TESSERA_GOLDEN=write`);
 //! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
 //!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
@@ -29,6 +31,7 @@ mod close;
 mod close_oracle;
 mod currencies;
 mod generate;
+mod golden;
 mod intercompany;
 mod pack;
 mod rates_ecb;
