@@ -30,6 +30,7 @@ fn main() {
     let spinner = if cli.verbose == 0 && !own_bars { tessera::progress::StageSpinner::new() } else { None };
     tracing_subscriber::registry().with(log).with(recorder.clone()).with(spinner.clone()).init();
     let stages = cli.stages.clone();
+    tessera::report::fit_to_terminal();
     let stdout = std::io::stdout();
     let mut out = stdout.lock();
     let result = tessera::run(cli, &mut out);

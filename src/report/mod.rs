@@ -126,14 +126,29 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     Ok(())
 }
 
-/// The terminal's width in columns when standard output is a terminal (`COLUMNS`
-/// wins, as shells set it); `None` when the output goes to a file or a pipe, which
-/// gets tables at their natural width.
+/// The width tables are fitted to; unset (natural width) unless the binary found a
+/// terminal, so that what the library renders for a test or a file never depends on
+/// the terminal the run was started from.
+static WIDTH: std::sync::OnceLock<Option<u16>> = std::sync::OnceLock::new();
+
+/// Fits tables to the terminal when standard output is one (`COLUMNS` wins, as shells
+/// set it); called once by the binary. Output to a file or a pipe keeps tables at their
+/// natural width.
+pub fn fit_to_terminal() {
+    let width = if console::Term::stdout().is_term() {
+        std::env::var("COLUMNS")
+            .ok()
+            .and_then(|c| c.trim().parse::<u16>().ok())
+            .or_else(|| console::Term::stdout().size_checked().map(|(_, cols)| cols))
+    } else {
+        None
+    };
+    let _ = WIDTH.set(width);
+}
+
+/// The width tables are fitted to, if any (see [`fit_to_terminal`]).
 pub fn terminal_width() -> Option<u16> {
-    if let Some(w) = std::env::var("COLUMNS").ok().and_then(|c| c.trim().parse::<u16>().ok()) {
-        return Some(w);
-    }
-    console::Term::stdout().size_checked().map(|(_, cols)| cols)
+    WIDTH.get().copied().flatten()
 }
 
 /// The one table style: a rule under the header and nothing else, so that a table
@@ -167,7 +182,9 @@ pub fn table_at(header: &[&str], rows: &[Vec<String>], right: &[bool], width: Op
     for i in 0..header.len() {
         let r = right.get(i).unwrap_or(&false);
         // An amount is never broken over lines: only text columns give way to fit.
-        let widest = rows.iter().filter_map(|row| row.get(i)).map(|c| c.chars().count()).max().unwrap_or(0);
+        // Headers may wrap between words, not inside one.
+        let word = header.get(i).map(|h| h.split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0));
+        let widest = rows.iter().filter_map(|row| row.get(i)).map(|c| c.chars().count()).chain(word).max().unwrap_or(0);
         // The width comfy-table fixes includes the cell's padding, one space a side.
         let fixed = |w: usize| comfy_table::Width::Fixed(u16::try_from(w + 2).unwrap_or(u16::MAX));
         if let Some(c) = t.column_mut(i) {
