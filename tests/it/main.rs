@@ -12,7 +12,8 @@
 //!   is byte-identical per seed, and `match` finds the difference each pair was given;
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `pack`: the command line (help, exit codes, closed pipe, TESSERA_DATA) and the
-//!   close's files, workbook (read back by openpyxl) and HTML report (headless Chromium);
+//!   close's files, workbook (read back by openpyxl) and HTML report (headless Chromium),
+//!   and the figures docs/demo.md quotes;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;

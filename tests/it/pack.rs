@@ -426,3 +426,85 @@ fn a_close_writes_its_files_workbook_and_report() {
     let png = std::fs::read(&shot).unwrap();
     assert!(png.starts_with(b"\x89PNG") && png.len() > 20_000, "screenshot at {}", shot.display());
 }
+
+/// An amount as docs/demo.md writes it: thousands separators, negatives in parentheses
+/// or with a minus sign.
+fn doc_amount(text: &str) -> Decimal {
+    let t = text.trim().replace(',', "");
+    match t.strip_prefix('(').and_then(|x| x.strip_suffix(')')) {
+        Some(inner) => -d(inner),
+        None => d(&t),
+    }
+}
+
+/// Every amount with two decimals in `text` (`1,418,597.18`, `-49,308,366.45`).
+fn amounts_in(text: &str) -> Vec<Decimal> {
+    let mut out = Vec::new();
+    for word in text.split(|c: char| c.is_whitespace() || c == '(' || c == ')' || c == ';') {
+        let w = word.trim_end_matches([',', '.']);
+        let digits = w.trim_start_matches('-');
+        // A paragraph number such as IFRS 8.13 is not an amount: amounts have a
+        // thousands separator or at least three digits before the point.
+        let is_amount = digits.len() > 5
+            && digits.as_bytes()[digits.len() - 3] == b'.'
+            && digits.chars().all(|c| c.is_ascii_digit() || c == ',' || c == '.')
+            && digits.chars().next().is_some_and(|c| c.is_ascii_digit());
+        if is_amount {
+            out.push(doc_amount(w));
+        }
+    }
+    out
+}
+
+#[test]
+fn the_figures_quoted_in_docs_demo_are_the_demo_close() {
+    let doc = std::fs::read_to_string(repo().join("docs/demo.md")).unwrap();
+    let out = tempfile::tempdir().unwrap();
+    let (code, close) = run_json(&repo(), &["close", "--period", "2026-12", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0);
+    let (_, business) = run_json(&repo(), &["segments", "--period", "2026-12", "--by", "business"]);
+    let (_, geography) = run_json(&repo(), &["segments", "--period", "2026-12", "--by", "geography"]);
+    let section = doc.split("## The figures of the close").nth(1).expect("the figures section");
+    let mut table = Vec::new();
+    for row in section.lines().filter(|l| l.starts_with("| ") && l.contains('`')) {
+        let cells: Vec<&str> = row.trim_matches('|').split('|').map(str::trim).collect();
+        let from: Vec<&str> = cells[1].trim_matches('`').split_whitespace().collect();
+        let quoted = doc_amount(cells[2]);
+        let actual = match from.as_slice() {
+            ["close", "attribution", field] => json_amount(&close["attribution"][*field]),
+            ["close", statement, line] => {
+                let lines = close["statements"][*statement]["lines"].as_array().unwrap();
+                json_amount(&lines.iter().find(|l| l["line"] == *line).unwrap_or_else(|| panic!("{row}"))["amount"])
+            }
+            [key, "segment", segment, value] => {
+                let v = if *key == "business" { &business } else { &geography };
+                let s = v["segments"].as_array().unwrap().iter().find(|s| s["segment"] == *segment).unwrap();
+                json_amount(&s["values"][*value])
+            }
+            [key, "reconciliation", line, item] => {
+                let v = if *key == "business" { &business } else { &geography };
+                let l = v["reconciliation"].as_array().unwrap().iter().find(|l| l["line"] == *line).unwrap();
+                match *item {
+                    "reportable_segments" | "group" => json_amount(&l[*item]),
+                    _ => json_amount(
+                        &l["items"].as_array().unwrap().iter().find(|i| i["item"] == *item).unwrap()["amount"],
+                    ),
+                }
+            }
+            _ => panic!("docs/demo.md names a figure the test cannot find: {row}"),
+        };
+        assert_eq!(quoted, actual, "docs/demo.md: {row}");
+        table.push(quoted);
+    }
+    assert!(table.len() >= 20, "{} figures checked", table.len());
+    // The segment paragraphs quote only figures of the table.
+    let paragraphs = doc.split("At 2026-12, year to date:").nth(1).unwrap().split("## ").next().unwrap();
+    let quoted = amounts_in(paragraphs);
+    assert!(quoted.len() >= 10, "{quoted:?}");
+    for a in quoted {
+        assert!(
+            table.contains(&a) || table.contains(&-a),
+            "docs/demo.md quotes {a}, which is not a figure of the close"
+        );
+    }
+}
