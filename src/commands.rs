@@ -550,7 +550,10 @@ pub fn close(
         causes: report::html::causes(&c.translated.explanations, scope.fiscal_start, scope.period, &consolidated),
         statuses: Some(report::intercompany::status_counts(&matching)),
     };
-    report::write_file(&dir.join("close.xlsx"), &report::workbook::close_workbook(&r, &names, Some(&matching), minor))?;
+    report::write_file(
+        &dir.join("close.xlsx"),
+        &report::workbook::close_workbook(&r, &names, Some(&matching), segments.as_ref().map(|(_, rep)| rep), minor),
+    )?;
     report::write_file(&dir.join("close.html"), report::html::close_page(&r, &extras, minor).as_bytes())?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     Ok(if tied { 0 } else { 1 })

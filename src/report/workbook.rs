@@ -1,7 +1,7 @@
 //! The close workbook (`close.xlsx`): one sheet per statement laid out from the layouts,
 //! then the statement of changes in equity, the group trial balance, the elimination
 //! journal with account names and rule, the NCI schedule, the intercompany matching with
-//! who must act, the translation reserve by operation and the proof. Every figure is a
+//! who must act, the segment report, the translation reserve by operation and the proof. Every figure is a
 //! number cell taken from the close's own report, so that the workbook says exactly
 //! what `close --format json` says.
 
@@ -27,6 +27,7 @@ pub fn close_workbook(
     r: &CloseReport<'_>,
     names: &BTreeMap<GroupAccount, String>,
     matching: Option<&crate::intercompany::Matching>,
+    segments: Option<&crate::segments::SegmentReport>,
     minor: u32,
 ) -> Vec<u8> {
     let mut sheets = Vec::new();
@@ -113,6 +114,10 @@ pub fn close_workbook(
         sheets.push(act);
     }
 
+    if let Some(rep) = segments {
+        sheets.push(segment_sheet(rep));
+    }
+
     let mut s = Sheet::new("Translation reserve");
     s.header(&["operation", "method", "brought forward", "year to date", "reserve"]);
     for x in r.translation_reserves {
@@ -143,4 +148,29 @@ pub fn close_workbook(
     s.row(vec![Cell::from(super::CAUTION)]);
     sheets.push(s);
     workbook(&sheets, minor)
+}
+
+/// The segment report (IFRS 8.23, 8.28): each line by segment, then its reconciliation
+/// to the group, item by item.
+fn segment_sheet(rep: &crate::segments::SegmentReport) -> Sheet {
+    let mut s = Sheet::new(&format!("Segments by {}", rep.key));
+    let mut head: Vec<&str> = vec!["line"];
+    head.extend(rep.segments.iter().map(|x| x.segment.as_str()));
+    s.header(&head);
+    for l in &rep.lines {
+        let mut cells = vec![Cell::Text(l.label.clone())];
+        cells.extend(rep.segments.iter().map(|x| Cell::Amount(x.values.get(&l.line).copied().unwrap_or_default())));
+        s.row(cells);
+    }
+    s.row(vec![]);
+    s.bold_row(vec![Cell::from("Reconciliation to the group (IFRS 8.28)")]);
+    for l in &rep.reconciliation {
+        s.bold_row(vec![Cell::Text(l.label.clone())]);
+        s.row(vec![Cell::from("  reportable segments"), Cell::Amount(l.reportable_segments)]);
+        for i in &l.items {
+            s.row(vec![Cell::Text(format!("  {}", i.label)), Cell::Amount(i.amount)]);
+        }
+        s.bold_row(vec![Cell::from("  group"), Cell::Amount(l.group)]);
+    }
+    s
 }

@@ -183,7 +183,7 @@ fn json_amount(v: &Value) -> Decimal {
     d(v.as_str().unwrap_or_else(|| panic!("{v} is not an amount string")))
 }
 
-fn check_workbook(wb: &Value, close: &Value, matching: &Value) {
+fn check_workbook(wb: &Value, close: &Value, matching: &Value, segments: &Value) {
     let amount_format = "#,##0.00_);(#,##0.00)";
     // Statements: every line, in layout order, with its amount, totals bold.
     for (key, sheet) in [("profit_or_loss", "Profit or loss"), ("oci", "OCI"), ("balance_sheet", "Financial position")]
@@ -297,6 +297,22 @@ fn check_workbook(wb: &Value, close: &Value, matching: &Value) {
     let marked: Vec<&str> = act.iter().filter(|r| r[1].1 == "yes").map(|r| r[0].1.as_str()).collect();
     assert_eq!(marked, must);
 
+    // The segment report, every line of every segment, then each reconciliation.
+    let rows = sheet_rows(wb, "Segments by business");
+    let lines = segments["lines"].as_array().unwrap();
+    let segs = segments["segments"].as_array().unwrap();
+    for (row, l) in rows.iter().zip(lines) {
+        assert_eq!(row[0].1, l["label"].as_str().unwrap());
+        for (k, s) in segs.iter().enumerate() {
+            let want = s["values"][l["line"].as_str().unwrap()].as_str().map(d).unwrap_or_default();
+            assert_eq!(number(&row[k + 1]), want, "{} {}", s["segment"], l["line"]);
+        }
+    }
+    let groups: Vec<Decimal> = rows.iter().filter(|r| r[0].1.trim() == "group").map(|r| number(&r[1])).collect();
+    let want: Vec<Decimal> =
+        segments["reconciliation"].as_array().unwrap().iter().map(|l| json_amount(&l["group"])).collect();
+    assert_eq!(groups, want);
+
     // The proof, in words.
     let rows = sheet_rows(wb, "Proof");
     assert!(rows.iter().any(|r| r[0].1 == "the balance sheet balances" && r[1].1 == "yes"), "{rows:?}");
@@ -396,8 +412,10 @@ fn a_close_writes_its_files_workbook_and_report() {
     // The workbook, read back by openpyxl, figure by figure.
     let (code, matching) = run_json(f.path(), &["match", "--period", "2026-12"]);
     assert_eq!(code, 0);
+    let (code, segments) = run_json(f.path(), &["segments", "--period", "2026-12", "--by", "business"]);
+    assert_eq!(code, 0);
     match read_workbook(&dir.join("close.xlsx")) {
-        Some(wb) => check_workbook(&wb, &close, &matching),
+        Some(wb) => check_workbook(&wb, &close, &matching, &segments),
         None => eprintln!(
             "SKIPPED the workbook read-back: /usr/bin/python3 with openpyxl is absent (apt-get install python3-openpyxl)"
         ),
