@@ -318,8 +318,8 @@ fn check_workbook(wb: &Value, close: &Value, matching: &Value, segments: &Value)
     assert!(rows.iter().any(|r| r[0].1 == "the balance sheet balances" && r[1].1 == "yes"), "{rows:?}");
 }
 
-/// Opens the page in headless Chromium: the DOM after rendering, a screenshot, and the
-/// browser's log of console messages.
+/// Opens the page in headless Chromium: the DOM after rendering, a screenshot, a print
+/// to PDF, and the browser's log, where every console message shows as `CONSOLE`.
 fn render_in_chromium(page: &Path, shot: &Path) -> Option<(String, String)> {
     let chromium = Path::new("/usr/bin/chromium");
     if !chromium.exists() {
@@ -350,7 +350,25 @@ fn render_in_chromium(page: &Path, shot: &Path) -> Option<(String, String)> {
         .output()
         .unwrap();
     assert!(s.status.success(), "{}", String::from_utf8_lossy(&s.stderr));
-    let log = format!("{}{}", String::from_utf8_lossy(&dom.stderr), String::from_utf8_lossy(&s.stderr));
+    // Printed to PDF as a reader would print it.
+    let pdf = shot.with_extension("pdf");
+    let pdf_arg = format!("--print-to-pdf={}", pdf.display());
+    let p = Command::new(chromium)
+        .args(common)
+        .arg(&user)
+        .args([pdf_arg.as_str(), "--no-pdf-header-footer"])
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(p.status.success(), "{}", String::from_utf8_lossy(&p.stderr));
+    let printed = std::fs::read(&pdf).unwrap();
+    assert!(printed.starts_with(b"%PDF") && printed.len() > 20_000, "printed to {}", pdf.display());
+    let log = format!(
+        "{}{}{}",
+        String::from_utf8_lossy(&dom.stderr),
+        String::from_utf8_lossy(&s.stderr),
+        String::from_utf8_lossy(&p.stderr)
+    );
     Some((String::from_utf8_lossy(&dom.stdout).into_owned(), log))
 }
 
