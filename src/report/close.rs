@@ -436,13 +436,15 @@ fn text_at_minor(c: &str, minor_col: &str, minors: &[u32], fallback: Expr) -> Ex
     e.alias(c)
 }
 
-/// `col` mapped through `pairs` (old -> new), into a column `alias` of type `dtype`;
-/// all null when there is nothing to map (polars cannot map through an empty list).
+/// `col` mapped through `old` -> `new` into a column `alias` of type `dtype`; all null
+/// when there is nothing to map (polars cannot map through an empty list).
 fn mapped(c: &str, old: Series, new: Series, dtype: DataType, alias: &str) -> Expr {
     if old.is_empty() {
         return lit(NULL).cast(dtype).alias(alias);
     }
-    col(c).replace_strict(lit(old), lit(new), None::<Expr>, Some(dtype)).alias(alias)
+    // A value with no mapping (none is expected) becomes null rather than an error.
+    let default = lit(NULL).cast(dtype.clone());
+    col(c).replace_strict(lit(old), lit(new), Some(default), Some(dtype)).alias(alias)
 }
 
 /// Account names beside the `group_account` column.
