@@ -163,6 +163,28 @@ pub fn text_table(header: &[&str], rows: &[Vec<String>], right: &[bool]) -> Stri
 
 /// [`text_table`] at a given width (`None`: natural width).
 pub fn table_at(header: &[&str], rows: &[Vec<String>], right: &[bool], width: Option<u16>) -> String {
+    if let Some(w) = width
+        && let Some(parts) = column_groups(header, rows, right, usize::from(w))
+    {
+        // A schedule wider than the terminal (a label, then amounts) is printed in
+        // groups of columns, each repeating the labels, rather than breaking amounts.
+        let mut out = String::new();
+        for (k, cols) in parts.iter().enumerate() {
+            let pick = |r: &[String]| -> Vec<String> {
+                std::iter::once(0).chain(cols.iter().copied()).map(|i| r.get(i).cloned().unwrap_or_default()).collect()
+            };
+            let head: Vec<String> = pick(&header.iter().map(|h| h.to_string()).collect::<Vec<_>>());
+            let head: Vec<&str> = head.iter().map(String::as_str).collect();
+            let body: Vec<Vec<String>> = rows.iter().map(|r| pick(r)).collect();
+            let mut align = vec![false];
+            align.extend(cols.iter().map(|_| true));
+            if k > 0 {
+                out.push('\n');
+            }
+            out.push_str(&table_at(&head, &body, &align, width));
+        }
+        return out;
+    }
     use comfy_table::{CellAlignment, ContentArrangement, Table};
     let mut t = Table::new();
     t.load_preset(TABLE_STYLE);
@@ -206,6 +228,39 @@ pub fn table_at(header: &[&str], rows: &[Vec<String>], right: &[bool], width: Op
         out.push('\n');
     }
     out
+}
+
+/// For a schedule (a text column, then only amount columns) wider than `width`: the
+/// amount columns split into groups that fit beside the label column; `None` when the
+/// table is not a schedule or fits as it is.
+fn column_groups(header: &[&str], rows: &[Vec<String>], right: &[bool], width: usize) -> Option<Vec<Vec<usize>>> {
+    let n = header.len();
+    if n < 3 || right.len() != n || right[0] || !right[1..].iter().all(|r| *r) {
+        return None;
+    }
+    let cell = |i: usize| {
+        let word = header[i].split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0);
+        rows.iter().filter_map(|r| r.get(i)).map(|c| c.chars().count()).chain([word]).max().unwrap_or(0)
+    };
+    // Each column takes its content, one space of padding a side and a separator.
+    let label = cell(0).min(30) + 3;
+    let amounts: Vec<usize> = (1..n).map(|i| cell(i) + 3).collect();
+    if label + amounts.iter().sum::<usize>() <= width {
+        return None;
+    }
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    let mut used = label;
+    for (k, w) in amounts.iter().enumerate() {
+        match groups.last_mut() {
+            Some(g) if used + w <= width => g.push(k + 1),
+            _ => {
+                groups.push(vec![k + 1]);
+                used = label;
+            }
+        }
+        used += w;
+    }
+    Some(groups)
 }
 
 /// CSV text through the `csv` crate (RFC 4180 quoting, carriage returns included).
@@ -370,6 +425,25 @@ mod tests {
             [vec!["x,y".to_string(), "say \"hi\"".to_string()], vec!["line\rbreak".to_string(), "plain".to_string()]],
         );
         assert_eq!(text, "a,b\n\"x,y\",\"say \"\"hi\"\"\"\n\"line\rbreak\",plain\n");
+    }
+
+    #[test]
+    fn a_wide_schedule_is_printed_in_groups_of_columns() {
+        let header = ["", "one", "two", "three", "four", "five", "six", "seven"];
+        let rows: Vec<Vec<String>> = ["Balance at the start", "Profit", "Balance at the end"]
+            .iter()
+            .map(|l| std::iter::once(l.to_string()).chain((1..8).map(|k| format!("{k}00,000,000.00"))).collect())
+            .collect();
+        let mut right = vec![false];
+        right.extend([true; 7]);
+        let t = table_at(&header, &rows, &right, Some(80));
+        assert!(t.lines().all(|l| l.chars().count() <= 80), "{t}");
+        for k in 1..8 {
+            assert_eq!(t.matches(&format!("{k}00,000,000.00")).count(), 3, "each amount whole, once per row: {t}");
+        }
+        assert_eq!(t.matches("Balance at the start").count(), 3, "labels repeated in each of 3 groups: {t}");
+        // At its natural width it is one table.
+        assert_eq!(table_at(&header, &rows, &right, None).matches("Profit").count(), 1);
     }
 
     #[test]
