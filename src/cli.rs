@@ -77,8 +77,10 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Agrees intercompany positions pair by pair and kind by kind on whatever has been
-    /// delivered, and explains each difference (FX, timing) or marks it open.
+    /// Agrees intercompany positions pair by pair and explains each difference.
+    ///
+    /// Works on whatever has been delivered, pair by pair and kind by kind; each
+    /// difference is explained (FX, timing) or marked open, with who must act.
     #[command(
         name = "match",
         after_help = "Examples:\n  tessera match\n  tessera match --entity ALD-UK --period 2026-12\n  tessera match --fail-on-open   # exit 1 while a pair is open: a gate before the close"
@@ -101,8 +103,10 @@ pub enum Command {
         #[arg(long)]
         fail_on_open: bool,
     },
-    /// Closes the period: group statements, elimination journal, NCI and proof, written
-    /// as CSV, a workbook and an HTML report.
+    /// Closes the period: group statements, eliminations, NCI, workbook and report.
+    ///
+    /// Prints the statements and the proof; writes CSV tables, close.xlsx and
+    /// close.html into a folder per period.
     #[command(
         after_help = "Examples:\n  tessera close\n  tessera close --period 2026-06 --view qtd\n  tessera close --entity ALD-US --out sub-groups   # the sub-group below ALD-US\n  tessera close --format json | jq .proof.tied"
     )]
@@ -124,8 +128,9 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Segment figures by geography, business line or any segment key (IFRS 8), with
-    /// the reconciliation to the group, the thresholds and the entity-wide view.
+    /// Segment figures by geography, business line or any segment key (IFRS 8).
+    ///
+    /// With the reconciliation to the group, the thresholds and the entity-wide view.
     #[command(
         after_help = "Examples:\n  tessera segments\n  tessera segments --by geography --period 2026-12\n  tessera segments --view month --format json --out out"
     )]
@@ -145,8 +150,10 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Shows how a group figure is made: each entity's translated contribution, the
-    /// ledger lines behind it and each elimination, summing to the figure.
+    /// Shows how a group figure is made, down to the ledger lines.
+    ///
+    /// Each entity's translated contribution, the ledger lines behind it and each
+    /// elimination, summing to the figure.
     #[command(after_help = "Examples:\n  tessera trace 1100\n  tessera trace 4000 --period 2026-06 --format csv")]
     Trace {
         /// Group account to trace (an id of accounts.csv).
@@ -159,8 +166,7 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Translates every entity into the presentation currency (IAS 21) and explains
-    /// each translation difference.
+    /// Translates every entity (IAS 21) and explains each translation difference.
     #[command(after_help = "Examples:\n  tessera translate\n  tessera translate --entity KIS-JP --period 2026-03")]
     Translate {
         #[arg(long, value_parser = parse_period, help = PERIOD_HELP)]
@@ -171,7 +177,7 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Shows the group structure: control, effective interest, NCI and method per entity.
+    /// Shows the group structure: control, interest, NCI and method per entity.
     #[command(after_help = "Examples:\n  tessera structure\n  tessera structure --period 2026-03 --format json")]
     Structure {
         /// Period whose last day the structure is taken at; the latest delivered by default.
@@ -180,8 +186,10 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Derives each month's closing and average rates from a central bank's daily
-    /// reference rates; writes the rates file the close reads only when --out is given.
+    /// Derives monthly closing and average rates from daily reference rates.
+    ///
+    /// Cross rates through the bank's currency, with provenance; prints them, and
+    /// writes the rates file the close reads only when --out is given.
     #[command(
         after_help = "Examples:\n  tessera rates --daily eurofxref-hist.csv                          # print only\n  tessera rates --daily eurofxref-hist.csv --out rates/monthly.csv  # write the close's rates file"
     )]
@@ -212,8 +220,9 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
-    /// Writes a synthetic group (invented data in the input format) into a folder: a
-    /// multi-tier structure in many currencies with intercompany pairs on both sides.
+    /// Writes a synthetic group (invented data in the input format) into a folder.
+    ///
+    /// A multi-tier structure in many currencies with intercompany pairs on both sides.
     #[command(
         after_help = "Examples:\n  tessera generate --entities 40 --months 3 --out /tmp/acme\n  tessera --data /tmp/acme close"
     )]
@@ -244,9 +253,11 @@ pub enum Command {
         #[arg(long = "out")]
         out_dir: PathBuf,
     },
-    /// Generates synthetic groups of the sizes asked, closes each from CSV and from
-    /// Parquet in a child process, and writes wall time, rows per second and peak memory
-    /// per stage to a JSON file. Run it from a release build.
+    /// Measures the close on synthetic groups (run it from a release build).
+    ///
+    /// Generates groups of the sizes asked, closes each from CSV and from Parquet in a
+    /// child process, and writes wall time, rows per second and peak memory per stage
+    /// to a JSON file.
     #[command(
         after_help = "Examples:\n  cargo run --release -- bench --sizes S\n  cargo run --release -- bench --sizes S,M,L --out docs/bench/results.json"
     )]
@@ -270,8 +281,9 @@ pub enum Command {
         #[arg(long, default_value_t = 1)]
         seed: u64,
     },
-    /// Prints a completion script for a shell (e.g. `tessera completions bash >
-    /// ~/.local/share/bash-completion/completions/tessera`).
+    /// Prints a completion script for a shell.
+    ///
+    /// E.g. `tessera completions bash > ~/.local/share/bash-completion/completions/tessera`.
     Completions {
         /// The shell to complete in.
         #[arg(value_enum)]
