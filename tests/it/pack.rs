@@ -544,3 +544,24 @@ fn the_figures_quoted_in_docs_demo_are_the_demo_close() {
         );
     }
 }
+
+#[test]
+fn translate_shows_local_amounts_at_their_minor_unit() {
+    // ISO 4217: JPY has no minor unit, BHD three decimals.
+    for (entity, decimals) in [("KIS-JP", 0), ("GLF-BH", 3), ("ALD-UK", 2)] {
+        let (code, v) = run_json(&repo(), &["translate", "--period", "2026-12", "--entity", entity]);
+        assert_eq!(code, 0);
+        let e = &v["entities"][0];
+        let mut texts: Vec<&str> = e["lines"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .flat_map(|l| [l["amount_local"].as_str().unwrap(), l["balance_local"].as_str().unwrap()])
+            .collect();
+        texts.push(e["month"]["opening_net_assets_local"].as_str().unwrap());
+        assert!(texts.len() > 10);
+        for t in texts {
+            assert_eq!(t.split_once('.').map(|(_, f)| f.len()).unwrap_or(0), decimals, "{entity} {t}");
+        }
+    }
+}
