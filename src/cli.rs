@@ -194,7 +194,8 @@ pub enum Command {
         after_help = "Examples:\n  tessera rates --daily eurofxref-hist.csv                          # print only\n  tessera rates --daily eurofxref-hist.csv --out rates/monthly.csv  # write the close's rates file"
     )]
     Rates {
-        /// Daily series files (wide: Date,USD,JPY,...; or long: date,currency,rate).
+        /// Daily series files (wide: Date,USD,JPY,...; or long: date,currency,rate),
+        /// relative to the working folder.
         #[arg(long, required = true, num_args = 1..)]
         daily: Vec<PathBuf>,
         /// The bank's own currency: the daily values are units per 1 unit of it.

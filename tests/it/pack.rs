@@ -19,6 +19,18 @@ fn d(s: &str) -> Decimal {
     Decimal::from_str(s).unwrap_or_else(|_| panic!("{s:?} is not a decimal"))
 }
 
+/// The first file named `name` at or below `dir`.
+fn find_file(dir: &Path, name: &str) -> Option<PathBuf> {
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(dir).ok()?.filter_map(|e| e.ok().map(|e| e.path())).collect();
+    entries.sort();
+    for p in &entries {
+        if p.file_name().is_some_and(|n| n == name) {
+            return Some(p.clone());
+        }
+    }
+    entries.iter().filter(|p| p.is_dir()).find_map(|p| find_file(p, name))
+}
+
 fn exe() -> Command {
     Command::new(env!("CARGO_BIN_EXE_tessera"))
 }
@@ -379,7 +391,10 @@ fn a_close_writes_its_files_workbook_and_report() {
     // --out is taken relative to the data folder.
     let (code, close) = run_json(f.path(), &["close", "--period", "2026-12", "--out", "pack"]);
     assert_eq!(code, 0, "{close:#}");
-    let dir: PathBuf = f.path().join("pack/2026-12");
+    // The close's folder below the period's (its layout may add scope and view).
+    let dir: PathBuf = find_file(&f.path().join("pack/2026-12"), "close.xlsx")
+        .and_then(|p| p.parent().map(Path::to_path_buf))
+        .expect("close.xlsx written under pack/2026-12");
     assert!(dir.join("close.xlsx").is_file() && dir.join("close.html").is_file(), "{}", dir.display());
     assert!(!dir.join("translated.parquet").exists(), "Parquet only when asked");
 
@@ -425,7 +440,7 @@ fn a_close_writes_its_files_workbook_and_report() {
     let (code, _) =
         run(&["close", "--period", "2026-12", "--out", "pq", "--parquet", "--data", data, "--format", "json"]);
     assert_eq!(code, 0);
-    assert!(f.path().join("pq/2026-12/translated.parquet").is_file());
+    assert!(find_file(&f.path().join("pq/2026-12"), "translated.parquet").is_some());
 
     // The workbook, read back by openpyxl, figure by figure.
     let (code, matching) = run_json(f.path(), &["match", "--period", "2026-12"]);
