@@ -532,9 +532,11 @@ pub fn close(
         parquet: files.parquet,
     };
     report::close::write_outputs(&dir, &r, &tables)?;
-    // The workbook and the page: the group's intercompany matching and, for the group
-    // itself, its segments by the default key.
-    let matching = matching_of(&c)?;
+    // The workbook and the page: for the group itself, its intercompany matching and its
+    // segments by the default key.
+    // Matching is the group's: a sub-group's workbook and page leave it out rather than
+    // show pairs outside the sub-group.
+    let matching = if c.root == ds.settings.parent { Some(matching_of(&c)?) } else { None };
     let segments = match &ds.settings.segments {
         Some(settings) if c.root == ds.settings.parent => {
             let derived = crate::segments::with_derived_key(&ds.entities, &settings.key);
@@ -548,11 +550,11 @@ pub fn close(
     let extras = report::html::Extras {
         segments: segments.as_ref().map(|(k, rep)| (k.as_str(), rep.segments.as_slice())),
         causes: report::html::causes(&c.translated.explanations, scope.fiscal_start, scope.period, &consolidated),
-        statuses: Some(report::intercompany::status_counts(&matching)),
+        statuses: matching.as_ref().map(report::intercompany::status_counts),
     };
     report::write_file(
         &dir.join("close.xlsx"),
-        &report::workbook::close_workbook(&r, &names, Some(&matching), segments.as_ref().map(|(_, rep)| rep), minor),
+        &report::workbook::close_workbook(&r, &names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
     )?;
     report::write_file(&dir.join("close.html"), report::html::close_page(&r, &extras, minor).as_bytes())?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
