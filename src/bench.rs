@@ -143,7 +143,8 @@ fn group(o: &Options, name: &str, work: &Path) -> Result<(PathBuf, Option<f64>, 
 fn close_child(data: &Path) -> Result<(i32, f64, Vec<StageRecord>), Error> {
     let exe = std::env::current_exe()?;
     let stages = data.join("stages.json");
-    let out = data.join("out");
+    // `--out` is taken relative to the data folder.
+    let out = Path::new("out");
     let t0 = Instant::now();
     let status = std::process::Command::new(exe)
         .arg("--stages")
@@ -152,7 +153,7 @@ fn close_child(data: &Path) -> Result<(i32, f64, Vec<StageRecord>), Error> {
         .arg(data)
         .arg("close")
         .arg("--out")
-        .arg(&out)
+        .arg(out)
         .arg("--format")
         .arg("json")
         .stdout(std::process::Stdio::null())

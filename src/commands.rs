@@ -1,6 +1,7 @@
 //! The commands as pipelines of named stages. Each function here reads as the chain
 //! `load -> map_accounts -> validate -> ...` for its command and decides its exit code:
-//! 0 clean, 1 blocking findings (or a failed proof), 2 unreadable input.
+//! 0 clean, 1 blocking findings (or a failed proof), 3 unreadable input (2, a usage
+//! error, is decided by clap and `cli::error_exit_code`).
 
 use std::io::Write;
 use std::path::Path;
@@ -16,7 +17,7 @@ use crate::validate::{Scope, validate};
 /// Exit code for a set of findings.
 pub fn exit_code(findings: &Findings) -> i32 {
     if findings.has_unreadable() {
-        2
+        3
     } else if findings.has_blocking() {
         1
     } else {
@@ -492,12 +493,15 @@ pub struct CloseRequest<'a> {
     pub view: crate::cli::View,
     pub entity: Option<crate::model::EntityId>,
     pub draft: bool,
+    /// The output folder; a sub-folder per period, scope and view is written in it.
     pub out_dir: &'a Path,
+    /// Parquet twins of the CSV tables, only when asked.
+    pub parquet: bool,
 }
 
 pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let CloseRequest { period, view, entity, draft, out_dir } = ask;
+    let CloseRequest { period, view, entity, draft, out_dir, parquet } = ask;
     let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -615,7 +619,44 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     };
     let _span = tracing::info_span!("report").entered();
     let dir = report::close::output_dir(out_dir, scope.period, &scope_key, view.as_str(), c.draft);
-    report::close::write_outputs(&dir, &r, &c.close.contributions, &c.translated.lines, &c.translated.explanations)?;
+    let entity_minor: BTreeMap<String, u32> =
+        ds.entities.iter().map(|e| (e.id.to_string(), e.currency.minor_unit())).collect();
+    let tables = report::close::Tables {
+        names: &names,
+        entity_minor: &entity_minor,
+        minor,
+        contributions: &c.close.contributions,
+        translated: &c.translated.lines,
+        explanations: &c.translated.explanations,
+        parquet,
+    };
+    report::close::write_outputs(&dir, &r, &tables)?;
+    // The workbook and the page: for the group itself, its intercompany matching and its
+    // segments by the default key.
+    // Matching is the group's: a sub-group's workbook and page leave it out rather than
+    // show pairs outside the sub-group.
+    let matching = if c.root == ds.settings.parent { Some(matching_of(&c)?) } else { None };
+    let segments = match &ds.settings.segments {
+        Some(settings) if c.root == ds.settings.parent => {
+            let derived = crate::segments::with_derived_key(&ds.entities, &settings.key);
+            let entities = derived.as_deref().unwrap_or(&ds.entities);
+            Some((settings.key.clone(), segment_report(&c, settings, &settings.key, entities)?.0))
+        }
+        _ => None,
+    };
+    let consolidated: std::collections::BTreeSet<String> =
+        c.close.contributions.column("entity")?.str()?.iter().flatten().map(String::from).collect();
+    let extras = report::html::Extras {
+        segments: segments.as_ref().map(|(k, rep)| (k.as_str(), rep.segments.as_slice())),
+        causes: report::html::causes(&c.translated.explanations, scope.fiscal_start, scope.period, &consolidated),
+        statuses: matching.as_ref().map(report::intercompany::status_counts),
+    };
+    let name = |n: &str| if c.draft { format!("draft-{n}") } else { n.to_string() };
+    report::write_file(
+        &dir.join(name("close.xlsx")),
+        &report::workbook::close_workbook(&r, &names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
+    )?;
+    report::write_file(&dir.join(name("close.html")), report::html::close_page(&r, &extras, minor).as_bytes())?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     Ok(if tied { 0 } else { 1 })
 }
@@ -632,8 +673,6 @@ pub fn segments(
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
-    use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
-    use std::collections::BTreeMap;
     let c = match run_close_or_stop(data, period, view, None, false, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -665,32 +704,7 @@ pub fn segments(
             if keys.is_empty() { "none".to_string() } else { keys.join(", ") }
         )));
     }
-    let mut findings = Vec::new();
-    let measures =
-        resolve_measures(settings, &c.checked.statements, &ds.accounts, "entities/group.toml", &mut findings);
-    let m = Membership::build(&key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
-    let country: BTreeMap<crate::model::EntityId, String> =
-        ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
-    let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
-    let base = match &c.base {
-        Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
-        None => None,
-    };
-    let chart = crate::close::view::Chart::new(&ds.accounts);
-    let is_flow = |a: &crate::model::GroupAccount| chart.is_flow(a);
-    let attr = ytd.view(base.as_ref(), &is_flow);
-    let group = crate::close::view::flows_of_view(&c.close.group, c.base.as_ref().map(|b| &b.group), &is_flow);
-    let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
-    let rep = crate::segments::report(
-        &measures,
-        &m,
-        &attr,
-        &group,
-        &ds.accounts,
-        &home,
-        settings.country_materiality,
-        scope.period,
-    );
+    let (rep, mut findings) = segment_report(&c, settings, &key, entities)?;
     let mut checks = c.checks.clone();
     checks.extend(rep.checks.iter().cloned());
     findings.extend(rep.findings.iter().cloned());
@@ -721,6 +735,47 @@ pub fn segments(
     }
     out.write_all(report::segments::render(&r, c.translated.minor, format).as_bytes())?;
     Ok(if tied && !blocking { 0 } else { 1 })
+}
+
+/// The segment report of a closed period by `key`, with the findings of its settings
+/// (shared by `tessera segments` and the close's HTML report).
+fn segment_report(
+    c: &ClosedPeriod,
+    settings: &crate::model::SegmentSettings,
+    key: &str,
+    entities: &[crate::model::Entity],
+) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
+    use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
+    use std::collections::BTreeMap;
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let mut findings = Vec::new();
+    let measures =
+        resolve_measures(settings, &c.checked.statements, &ds.accounts, "entities/group.toml", &mut findings);
+    let m = Membership::build(key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
+    let country: BTreeMap<crate::model::EntityId, String> =
+        ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
+    let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
+    let base = match &c.base {
+        Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
+        None => None,
+    };
+    let chart = crate::close::view::Chart::new(&ds.accounts);
+    let is_flow = |a: &crate::model::GroupAccount| chart.is_flow(a);
+    let attr = ytd.view(base.as_ref(), &is_flow);
+    let group = crate::close::view::flows_of_view(&c.close.group, c.base.as_ref().map(|b| &b.group), &is_flow);
+    let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
+    let rep = crate::segments::report(
+        &measures,
+        &m,
+        &attr,
+        &group,
+        &ds.accounts,
+        &home,
+        settings.country_materiality,
+        scope.period,
+    );
+    Ok((rep, findings))
 }
 
 pub fn trace(
@@ -846,6 +901,17 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;
     let tied = crate::proof::tied(&matching.proof);
     Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
+}
+
+/// The group's intercompany matching at a closed period, on the close's own
+/// translation (every delivery is complete, or the close would have stopped).
+fn matching_of(c: &ClosedPeriod) -> Result<crate::intercompany::Matching, Error> {
+    use crate::intercompany::{self, Deliveries, Options};
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let deliveries = Deliveries::assess(ds, &Findings::default(), scope)?;
+    let options = Options::from_settings(&ds.settings.intercompany);
+    Ok(intercompany::match_intercompany(ds, &c.translated, scope, &deliveries, &options)?)
 }
 
 /// Writes a synthetic group: the plan is drawn once, then each entity is drawn and

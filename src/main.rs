@@ -21,10 +21,16 @@ fn main() {
     let recorder = cli.stages.as_ref().map(|_| tessera::stages::StageRecorder::new());
     // A spinner names the running stage on a terminal, unless the log already does.
     // generate and bench draw bars of their own.
-    let own_bars = matches!(cli.command, tessera::cli::Command::Generate { .. } | tessera::cli::Command::Bench { .. });
+    let own_bars = matches!(
+        cli.command,
+        tessera::cli::Command::Generate { .. }
+            | tessera::cli::Command::Bench { .. }
+            | tessera::cli::Command::Completions { .. }
+    );
     let spinner = if cli.verbose == 0 && !own_bars { tessera::progress::StageSpinner::new() } else { None };
     tracing_subscriber::registry().with(log).with(recorder.clone()).with(spinner.clone()).init();
     let stages = cli.stages.clone();
+    tessera::report::fit_to_terminal();
     let stdout = std::io::stdout();
     let mut out = stdout.lock();
     let result = tessera::run(cli, &mut out);
@@ -33,9 +39,12 @@ fn main() {
     }
     let code = match result {
         Ok(code) => code,
+        // A reader that stops early (`tessera close | head`) closes the pipe: that is
+        // the reader's choice, not a failure, so the run ends quietly.
+        Err(tessera::Error::Io(e)) if e.kind() == std::io::ErrorKind::BrokenPipe => 0,
         Err(e) => {
             eprintln!("tessera: {e}");
-            2
+            tessera::cli::error_exit_code(&e)
         }
     };
     if let (Some(path), Some(r)) = (stages, recorder)

@@ -235,13 +235,15 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
         }
     }
     let pol = |k: &str| raw.policies.get(k).map(|s| s.trim().to_string());
+    // The value as the user wrote it, for a message (never a debug form such as Some("x")).
+    let given = |v: Option<&str>| v.map(|v| format!("\"{v}\"")).unwrap_or_else(|| "no value".to_string());
     let rounding = match pol("rounding").as_deref() {
         Some("half_away_from_zero") => Some(RoundingMode::HalfAwayFromZero),
         Some("half_even") => Some(RoundingMode::HalfEven),
         other => {
             bad(
                 "policies.rounding",
-                format!("{other:?} is not a rounding mode"),
+                format!("{} is not a rounding mode", given(other)),
                 "use \"half_away_from_zero\" or \"half_even\"",
             );
             None
@@ -253,7 +255,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
         other => {
             bad(
                 "policies.income_translation",
-                format!("{other:?} is not a method"),
+                format!("{} is not a method", given(other)),
                 "use \"periodic\" or \"year_to_date\"",
             );
             None
@@ -263,7 +265,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
         Some("direct") => Some(Ifric16Method::Direct),
         Some("step_by_step") => Some(Ifric16Method::StepByStep),
         other => {
-            bad("policies.ifric16", format!("{other:?} is not a method"), "use \"direct\" or \"step_by_step\"");
+            bad("policies.ifric16", format!("{} is not a method", given(other)), "use \"direct\" or \"step_by_step\"");
             None
         }
     };

@@ -7,7 +7,7 @@ use std::path::Path;
 use crate::cash_flows::CashFlows;
 use crate::money::{format_amount, plain};
 
-use super::{csv_line, write_file};
+use super::{csv_text, write_file};
 
 /// Every figure of the statement, in the order printed: (section, line, label, amount).
 fn rows(cf: &CashFlows) -> Vec<(String, String, String, rust_decimal::Decimal)> {
@@ -108,9 +108,9 @@ pub fn table(cf: &CashFlows, minor: u32) -> String {
 
 /// Writes the statement as `cash_flows.csv` to `path`.
 pub fn write(path: &Path, cf: &CashFlows) -> std::io::Result<()> {
-    let mut text = csv_line(&["section", "line", "label", "amount"].map(String::from));
-    for (section, line, label, amount) in rows(cf) {
-        text.push_str(&csv_line(&[section, line, label, plain(amount)]));
-    }
+    let text = csv_text(
+        &["section", "line", "label", "amount"],
+        rows(cf).into_iter().map(|(section, line, label, amount)| vec![section, line, label, plain(amount)]),
+    );
     write_file(path, text.as_bytes())
 }

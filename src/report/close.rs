@@ -17,7 +17,7 @@ use crate::model::{GroupAccount, Period};
 use crate::money::format_amount;
 use crate::proof::Check;
 
-use super::{CAUTION, Format, csv_line, to_json, write_file};
+use super::{CsvOut, Format, to_json, write_file};
 
 /// One printed line of a statement.
 #[derive(Debug, Clone, Serialize)]
@@ -27,6 +27,9 @@ pub struct StatementLine {
     /// As presented (income, equity and liabilities positive where the layout says so).
     pub amount: Decimal,
     pub total: bool,
+    /// Whether the layout shows this line debit positive (assets, expenses).
+    #[serde(skip)]
+    pub debit_positive: bool,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -47,6 +50,7 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
             label: l.label.clone(),
             amount: l.presentation.show(v),
             total: matches!(l.body, LineBody::Total(_)),
+            debit_positive: l.presentation == crate::layout::Presentation::DebitPositive,
         })
         .collect();
     StatementOut { statement: st.statement.clone(), lines }
@@ -162,18 +166,63 @@ pub fn render(r: &CloseReport<'_>, minor: u32, format: Format) -> String {
     match format {
         Format::Json => to_json(r),
         Format::Csv => {
-            let mut out = csv_line(&["account", "name", "amount"].map(String::from));
+            let mut out = CsvOut::new(&["account", "name", "amount"]);
             for row in &r.group_trial_balance {
-                out.push_str(&csv_line(&[
+                out.row(&[
                     row["account"].as_str().unwrap_or_default().to_string(),
                     row["name"].as_str().unwrap_or_default().to_string(),
                     row["amount"].as_str().unwrap_or_default().to_string(),
-                ]));
+                ]);
             }
-            out
+            out.finish()
         }
         Format::Table => table(r, minor),
     }
+}
+
+/// The statements the terminal shows, in the order of IAS 1.10, with their titles.
+pub const TITLES: [(&str, &str); 3] = [
+    ("profit_or_loss", "Statement of profit or loss"),
+    ("oci", "Other comprehensive income"),
+    ("balance_sheet", "Statement of financial position"),
+];
+
+/// The heading of the amount column of a statement: what the figures cover.
+pub fn amount_heading(statement: &str, view: &str, period: &str, currency: &str) -> String {
+    if statement == "balance_sheet" {
+        return format!("{currency} at end of {period}");
+    }
+    let span = match view {
+        "month" => "month",
+        "qtd" => "quarter to date",
+        _ => "year to date",
+    };
+    format!("{currency} {span} {period}")
+}
+
+/// A statement's rows as shown: its lines (items indented under their totals) and the
+/// attribution lines that IAS 1.81B asks under profit and OCI.
+pub fn statement_rows(r: &CloseReport<'_>, key: &str) -> Vec<(String, Decimal, bool)> {
+    let Some(st) = r.statements.laid_out.get(key) else { return Vec::new() };
+    let a = &r.attribution;
+    let mut rows: Vec<(String, Decimal, bool)> = st
+        .lines
+        .iter()
+        .map(|l| (if l.total { l.label.clone() } else { format!("  {}", l.label) }, l.amount, l.total))
+        .collect();
+    let extra: Vec<(&str, Decimal)> = match key {
+        "profit_or_loss" => vec![
+            ("attributable to owners of the parent", a.profit_owners),
+            ("attributable to non-controlling interests", a.profit_nci),
+        ],
+        "oci" => vec![
+            ("attributable to owners of the parent", a.oci_owners),
+            ("attributable to non-controlling interests", a.oci_nci),
+        ],
+        _ => vec![("of which profit and OCI of the year to date", a.result_in_equity)],
+    };
+    rows.extend(extra.into_iter().map(|(l, v)| (format!("    {l}"), v, false)));
+    rows
 }
 
 fn table(r: &CloseReport<'_>, minor: u32) -> String {
@@ -185,50 +234,50 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         ));
     }
     out.push_str(&format!("{} statements for {} ({} view), in {}\n", r.scope, r.period, r.view, r.currency));
-    let titles = [
-        ("profit_or_loss", "Statement of profit or loss"),
-        ("oci", "Other comprehensive income"),
-        ("balance_sheet", "Statement of financial position"),
-    ];
-    for (key, title) in titles {
-        let Some(st) = r.statements.laid_out.get(key) else { continue };
-        out.push_str(&format!("\n{title}\n"));
-        let a = &r.attribution;
-        let extra: Vec<(&str, Decimal)> = match key {
-            "profit_or_loss" => vec![
-                ("attributable to owners of the parent", a.profit_owners),
-                ("attributable to non-controlling interests", a.profit_nci),
-            ],
-            "oci" => vec![
-                ("attributable to owners of the parent", a.oci_owners),
-                ("attributable to non-controlling interests", a.oci_nci),
-            ],
-            _ => vec![("of which profit and OCI of the year to date", a.result_in_equity)],
-        };
-        let labels = st.lines.iter().map(|l| l.label.chars().count()).chain(extra.iter().map(|(l, _)| l.len() + 2));
-        let width = labels.max().unwrap_or(10).max(40);
-        for l in &st.lines {
-            let amount = format_amount(l.amount, minor);
-            if l.total {
-                out.push_str(&format!("  {:<width$}  {:>18}\n", l.label.to_uppercase(), amount));
-            } else {
-                out.push_str(&format!("    {:<w2$}  {:>18}\n", l.label, amount, w2 = width - 2));
-            }
+    // One label width for every statement, so that the amounts stand in one column.
+    let width = TITLES
+        .iter()
+        .flat_map(|(key, title)| {
+            statement_rows(r, key).into_iter().map(|(l, _, _)| l.chars().count()).chain([title.chars().count()])
+        })
+        .max()
+        .unwrap_or(40);
+    // And one amount width, headings included.
+    let amounts = TITLES
+        .iter()
+        .flat_map(|(key, _)| {
+            let heading = amount_heading(key, r.view, &r.period, &r.currency).chars().count();
+            statement_rows(r, key).into_iter().map(|(_, v, _)| format_amount(v, minor).len()).chain([heading])
+        })
+        .max()
+        .unwrap_or(18);
+    for (key, title) in TITLES {
+        if !r.statements.laid_out.contains_key(key) {
+            continue;
         }
-        for (label, amount) in extra {
-            out.push_str(&format!("      {label:<w4$}  {:>18}\n", format_amount(amount, minor), w4 = width - 4));
-        }
+        let rows: Vec<Vec<String>> = statement_rows(r, key)
+            .into_iter()
+            .map(|(label, v, _)| vec![format!("{label:<width$}"), format!("{:>amounts$}", format_amount(v, minor))])
+            .collect();
+        let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
+        out.push('\n');
+        out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true]));
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
     if let Some(cf) = &r.statements.cash_flows {
         out.push_str(&super::cash_flows::table(cf, minor));
     }
-    out.push_str(&format!("\nelimination journal: {} entries", r.eliminations.len()));
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
         *by_rule.entry(e.rule.as_str()).or_default() += 1;
     }
-    out.push_str(&format!(" ({})\n", by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")));
+    let journal = format!(
+        "elimination journal: {} entries ({})",
+        r.eliminations.len(),
+        by_rule.iter().map(|(k, v)| format!("{k} {v}")).collect::<Vec<_>>().join(", ")
+    );
+    out.push('\n');
+    out.push_str(&super::wrap(&journal, super::terminal_width().map(usize::from).unwrap_or(88).clamp(40, 88)));
     if let Some(first) = r.translation_reserves.first() {
         let method = match first.method {
             crate::model::Ifric16Method::Direct => "direct",
@@ -253,10 +302,61 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         ));
     }
     for f in r.findings {
-        out.push_str(&format!("\n{:?} {}: {}\n  what to do: {}\n", f.severity, f.rule, f.message, f.action));
+        out.push_str(&format!(
+            "\n{} {}: {}\n  what to do: {}\n",
+            super::findings::severity_word(f.severity),
+            f.rule,
+            f.message,
+            f.action
+        ));
     }
-    out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
-    out.push_str(&format!("\n{CAUTION}\n"));
+    out.push_str(&proof_text(r, minor));
+    out.push('\n');
+    out.push_str(&super::caution_text());
+    out
+}
+
+/// The balance sheet check in words, from the statement's own totals: the last
+/// debit-positive total (total assets) against the last credit-positive one (total
+/// equity and liabilities).
+pub fn balance_sheet_words(r: &CloseReport<'_>, ok: bool, minor: u32) -> Option<String> {
+    let bs = r.statements.laid_out.get("balance_sheet")?;
+    let assets = bs.lines.iter().rev().find(|l| l.total && l.debit_positive)?;
+    let claims = bs.lines.iter().rev().find(|l| l.total && !l.debit_positive)?;
+    let verdict = if ok { "the balance sheet balances" } else { "the balance sheet does NOT balance" };
+    Some(format!(
+        "{verdict}: {} {} = {} {} (the year's profit and OCI, {}, counted in equity)",
+        assets.label.to_lowercase(),
+        format_amount(assets.amount, minor),
+        claims.label.to_lowercase(),
+        format_amount(claims.amount, minor),
+        format_amount(r.attribution.result_in_equity, minor)
+    ))
+}
+
+/// The close's checks in words, each with whether it holds; the balance sheet's in the
+/// statement's own figures.
+pub fn proof_items(r: &CloseReport<'_>, minor: u32) -> Vec<(bool, String)> {
+    r.proof
+        .checks
+        .iter()
+        .map(|c| {
+            let words = match c.name {
+                "balance_sheet_balances" => balance_sheet_words(r, c.ok, minor),
+                _ => None,
+            }
+            .unwrap_or_else(|| format!("{}: {}", super::check_words(c.name), super::readable_detail(&c.detail)));
+            (c.ok, words)
+        })
+        .collect()
+}
+
+/// The close's proof as printed: the verdict, then each check in words.
+pub fn proof_text(r: &CloseReport<'_>, minor: u32) -> String {
+    let mut out = super::proof_lines(r.proof.tied, &[]);
+    for (ok, words) in proof_items(r, minor) {
+        out.push_str(&format!("  {} {words}\n", if ok { "ok  " } else { "FAIL" }));
+    }
     out
 }
 
@@ -290,13 +390,16 @@ fn frame_bytes(df: &mut DataFrame, parquet: bool) -> PolarsResult<Vec<u8>> {
     Ok(buf)
 }
 
-fn write_frame(dir: &Path, name: &str, mut df: DataFrame) -> Result<(), crate::Error> {
+fn write_frame(dir: &Path, name: &str, mut df: DataFrame, parquet: bool) -> Result<(), crate::Error> {
     write_file(&dir.join(format!("{name}.csv")), &frame_bytes(&mut df, false)?)?;
-    write_file(&dir.join(format!("{name}.parquet")), &frame_bytes(&mut df, true)?)?;
+    if parquet {
+        write_file(&dir.join(format!("{name}.parquet")), &frame_bytes(&mut df, true)?)?;
+    }
     Ok(())
 }
 
-fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
+fn journal_frame(journal: &[Entry], names: &BTreeMap<GroupAccount, String>) -> PolarsResult<DataFrame> {
+    let mut name = Vec::new();
     let mut id = Vec::new();
     let mut rule = Vec::new();
     let mut at = Vec::new();
@@ -311,6 +414,7 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
             rule.push(e.rule.as_str());
             at.push(e.posted_at.to_string());
             acct.push(l.account.to_string());
+            name.push(names.get(&l.account).cloned().unwrap_or_default());
             ent.push(l.entity.to_string());
             cp.push(l.counterparty.as_ref().map(|c| c.to_string()));
             amount.push(crate::money::plain(l.amount));
@@ -324,6 +428,7 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
             Column::new("rule".into(), rule),
             Column::new("posted_at".into(), at),
             Column::new("account".into(), acct),
+            Column::new("account_name".into(), name),
             Column::new("entity".into(), ent),
             Column::new("counterparty".into(), cp),
             Column::new("amount".into(), amount),
@@ -333,13 +438,182 @@ fn journal_frame(journal: &[Entry]) -> PolarsResult<DataFrame> {
 }
 
 /// Writes every table of a close to `dir` (the only place a close touches the disk).
-pub fn write_outputs(
-    dir: &Path,
-    r: &CloseReport<'_>,
-    contributions: &DataFrame,
-    translated: &DataFrame,
-    explanations: &[crate::translate::Explanation],
-) -> Result<(), crate::Error> {
+/// A decimal column as text at `decimals` places. Amounts are exact at their unit, so
+/// the rounding changes no value; it makes the cast to the narrower scale strict-safe.
+fn text_at(c: &str, decimals: u32) -> Expr {
+    col(c)
+        .round(decimals, RoundMode::HalfAwayFromZero)
+        .strict_cast(DataType::Decimal(38, decimals as usize))
+        .cast(DataType::String)
+}
+
+/// A decimal column as text, each row at the decimals named by `minor_col`; `fallback`
+/// where that names none.
+fn text_at_minor(c: &str, minor_col: &str, minors: &[u32], fallback: Expr) -> Expr {
+    let mut e = fallback;
+    for m in minors {
+        e = when(col(minor_col).eq(lit(*m))).then(text_at(c, *m)).otherwise(e);
+    }
+    e.alias(c)
+}
+
+/// `col` mapped through `old` -> `new` into a column `alias` of type `dtype`; all null
+/// when there is nothing to map (polars cannot map through an empty list).
+fn mapped(c: &str, old: Series, new: Series, dtype: DataType, alias: &str) -> Expr {
+    if old.is_empty() {
+        return lit(NULL).cast(dtype).alias(alias);
+    }
+    // A value with no mapping (none is expected) becomes null rather than an error.
+    let default = lit(NULL).cast(dtype.clone());
+    col(c).replace_strict(lit(old), lit(new), Some(default), Some(dtype)).alias(alias)
+}
+
+/// Account names beside the `group_account` column.
+fn with_names(lf: LazyFrame, names: &BTreeMap<GroupAccount, String>) -> LazyFrame {
+    let old = Series::new("old".into(), names.keys().map(|a| a.as_str().to_string()).collect::<Vec<_>>());
+    let new = Series::new("new".into(), names.values().cloned().collect::<Vec<_>>());
+    lf.with_column(mapped("group_account", old, new, DataType::String, "account_name"))
+}
+
+/// The contributions with account names; amounts stay decimals until written.
+fn contributions_frame(df: &DataFrame, t: &Tables<'_>) -> PolarsResult<DataFrame> {
+    with_names(df.clone().lazy(), t.names)
+        .select([col("entity"), col("group_account"), col("account_name"), col("counterparty"), col("amount")])
+        .collect()
+}
+
+/// The translated lines with the period as YYYY-MM (not its index), account names and
+/// each row's local currency minor unit (`minor_local`) and transaction currency's
+/// (`minor_txn`), which the CSV uses and then drops.
+fn translated_frame(df: &DataFrame, t: &Tables<'_>) -> PolarsResult<DataFrame> {
+    let idx: Vec<i32> = df.column("period_index")?.i32()?.unique()?.iter().flatten().collect();
+    let periods: Vec<String> = idx.iter().map(|i| crate::map_accounts::period_of_index(*i).to_string()).collect();
+    let txn: Vec<String> = df.column("txn_currency")?.str()?.unique()?.iter().flatten().map(String::from).collect();
+    let txn_minor: Vec<u32> = txn
+        .iter()
+        .map(|c| crate::model::Currency::parse(c).map(|c| c.minor_unit()).unwrap_or(crate::money::AMOUNT_SCALE as u32))
+        .collect();
+    let entities: Vec<String> = t.entity_minor.keys().cloned().collect();
+    let entity_minor: Vec<u32> = t.entity_minor.values().copied().collect();
+    with_names(df.clone().lazy(), t.names)
+        .with_columns([
+            mapped(
+                "period_index",
+                Series::new("old".into(), idx),
+                Series::new("new".into(), periods),
+                DataType::String,
+                "period",
+            ),
+            mapped(
+                "entity",
+                Series::new("old".into(), entities),
+                Series::new("new".into(), entity_minor),
+                DataType::UInt32,
+                "minor_local",
+            ),
+            mapped(
+                "txn_currency",
+                Series::new("old".into(), txn),
+                Series::new("new".into(), txn_minor),
+                DataType::UInt32,
+                "minor_txn",
+            ),
+        ])
+        .select([
+            col("entity"),
+            col("group_account"),
+            col("account_name"),
+            col("counterparty"),
+            col("txn_currency"),
+            col("period"),
+            col("basis"),
+            col("amount_local"),
+            col("balance_local"),
+            col("txn_amount"),
+            col("rate"),
+            col("quote"),
+            col("rate_kind"),
+            col("amount_presentation"),
+            col("balance_presentation"),
+            col("minor_local"),
+            col("minor_txn"),
+        ])
+        .collect()
+}
+
+/// Writes a frame holding amounts: the Parquet twin (when asked) keeps the decimals;
+/// the CSV shows each amount at its currency's minor unit: local amounts at the local
+/// currency's (JPY 0, BHD 3), transaction amounts at the transaction currency's and
+/// the rest at the presentation currency's.
+fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> Result<(), crate::Error> {
+    let helpers = ["minor_local", "minor_txn"];
+    let has = |c: &str| df.get_column_names().iter().any(|n| n.as_str() == c);
+    let keep: Vec<Expr> =
+        df.get_column_names().iter().filter(|n| !helpers.contains(&n.as_str())).map(|n| col(n.as_str())).collect();
+    if t.parquet {
+        let mut typed = df.clone().lazy().select(keep.clone()).collect()?;
+        write_file(&dir.join(format!("{name}.parquet")), &frame_bytes(&mut typed, true)?)?;
+    }
+    let minors: Vec<u32> = (0..=4).collect();
+    let mut exprs = Vec::new();
+    for n in df.get_column_names() {
+        let n = n.as_str();
+        if helpers.contains(&n) {
+            continue;
+        }
+        exprs.push(match n {
+            "amount_local" | "balance_local" if has("minor_local") => {
+                text_at_minor(n, "minor_local", &minors, col(n).cast(DataType::String))
+            }
+            // A line with no transaction currency has no transaction amount.
+            "txn_amount" if has("minor_txn") => {
+                text_at_minor(n, "minor_txn", &minors, lit(NULL).cast(DataType::String))
+            }
+            "amount" | "amount_presentation" | "balance_presentation" => text_at(n, t.minor).alias(n),
+            _ => col(n),
+        });
+    }
+    let mut text = df.lazy().select(exprs).collect()?;
+    write_file(&dir.join(format!("{name}.csv")), &frame_bytes(&mut text, false)?)?;
+    Ok(())
+}
+
+/// `statements.csv`: every laid-out line of every statement, in layout order, amounts
+/// as presented.
+fn write_statements(dir: &Path, file: &str, r: &CloseReport<'_>) -> Result<(), crate::Error> {
+    let mut out = super::CsvOut::new(&["statement", "line", "label", "total", "amount"]);
+    for (key, st) in &r.statements.laid_out {
+        for l in &st.lines {
+            out.row(&[
+                key.clone(),
+                l.line.clone(),
+                l.label.clone(),
+                l.total.to_string(),
+                crate::money::plain(l.amount),
+            ]);
+        }
+    }
+    write_file(&dir.join(file), out.finish().as_bytes())?;
+    Ok(())
+}
+
+/// The frames of a close written beside the report, and whether Parquet twins are asked.
+pub struct Tables<'a> {
+    /// Group account names, written beside account ids.
+    pub names: &'a BTreeMap<GroupAccount, String>,
+    /// Each entity's functional currency's minor unit (ISO 4217), for local amounts.
+    pub entity_minor: &'a BTreeMap<String, u32>,
+    /// The presentation currency's minor unit.
+    pub minor: u32,
+    pub contributions: &'a DataFrame,
+    pub translated: &'a DataFrame,
+    pub explanations: &'a [crate::translate::Explanation],
+    pub parquet: bool,
+}
+
+pub fn write_outputs(dir: &Path, r: &CloseReport<'_>, tables: &Tables<'_>) -> Result<(), crate::Error> {
+    let parquet = tables.parquet;
+    let (contributions, translated, explanations) = (tables.contributions, tables.translated, tables.explanations);
     let tb = DataFrame::new(
         r.group_trial_balance.len(),
         vec![
@@ -368,10 +642,11 @@ pub fn write_outputs(
     )?;
     // A draft's every file says so in its name (a CSV table has no place for a note).
     let name = |n: &str| if r.proof.status == "draft" { format!("draft-{n}") } else { n.to_string() };
-    write_frame(dir, &name("group_trial_balance"), tb)?;
-    write_frame(dir, &name("eliminations"), journal_frame(r.eliminations)?)?;
-    write_frame(dir, &name("contributions"), contributions.clone())?;
-    write_frame(dir, &name("translated"), translated.clone())?;
+    write_frame(dir, &name("group_trial_balance"), tb, parquet)?;
+    write_frame(dir, &name("eliminations"), journal_frame(r.eliminations, tables.names)?, parquet)?;
+    write_money_frame(dir, &name("contributions"), contributions_frame(contributions, tables)?, tables)?;
+    write_money_frame(dir, &name("translated"), translated_frame(translated, tables)?, tables)?;
+    write_statements(dir, &name("statements.csv"), r)?;
     let nci = DataFrame::new(
         r.nci.len(),
         vec![
@@ -382,7 +657,7 @@ pub fn write_outputs(
             Column::new("equity".into(), r.nci.iter().map(|n| crate::money::plain(n.equity)).collect::<Vec<_>>()),
         ],
     )?;
-    write_frame(dir, &name("nci"), nci)?;
+    write_frame(dir, &name("nci"), nci, parquet)?;
     let rs = r.translation_reserves;
     let reserves = DataFrame::new(
         rs.len(),
@@ -405,7 +680,7 @@ pub fn write_outputs(
             Column::new("reserve".into(), rs.iter().map(|x| crate::money::plain(x.reserve)).collect::<Vec<_>>()),
         ],
     )?;
-    write_frame(dir, &name("translation_reserves"), reserves)?;
+    write_frame(dir, &name("translation_reserves"), reserves, parquet)?;
     let x = explanations;
     let col = |name: &str, f: &dyn Fn(&crate::translate::Explanation) -> String| {
         Column::new(name.into(), x.iter().map(f).collect::<Vec<_>>())
@@ -424,7 +699,7 @@ pub fn write_outputs(
             col("translation_difference", &|e| crate::money::plain(e.total)),
         ],
     )?;
-    write_frame(dir, &name("translation_differences"), td)?;
+    write_frame(dir, &name("translation_differences"), td, parquet)?;
     let eq = &r.statements.changes_in_equity;
     let cells: Vec<(&EquityRowOut, &EquityColumnOut)> =
         eq.rows.iter().flat_map(|row| eq.columns.iter().map(move |c| (row, c))).collect();
@@ -443,7 +718,7 @@ pub fn write_outputs(
             ),
         ],
     )?;
-    write_frame(dir, &name("equity_changes"), equity)?;
+    write_frame(dir, &name("equity_changes"), equity, parquet)?;
     if let Some(cf) = &r.statements.cash_flows {
         super::cash_flows::write(&dir.join(name("cash_flows.csv")), cf)?;
     }

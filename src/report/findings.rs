@@ -5,7 +5,7 @@ use serde::Serialize;
 use crate::findings::{Findings, Severity};
 use crate::model::Period;
 
-use super::{CAUTION, Format, csv_line, to_json};
+use super::{CsvOut, Format, to_json};
 
 #[derive(Serialize)]
 struct CheckJson<'a> {
@@ -28,12 +28,10 @@ pub fn render_check(findings: &Findings, period: Option<Period>, format: Format)
             findings: findings.items(),
         }),
         Format::Csv => {
-            let mut out = csv_line(
-                &["severity", "rule", "file", "line", "entity", "account", "period", "message", "action"]
-                    .map(String::from),
-            );
+            let mut out =
+                CsvOut::new(&["severity", "rule", "file", "line", "entity", "account", "period", "message", "action"]);
             for f in findings.items() {
-                out.push_str(&csv_line(&[
+                out.row(&[
                     severity_word(f.severity).to_string(),
                     f.rule.to_string(),
                     f.file.clone().unwrap_or_default(),
@@ -43,9 +41,9 @@ pub fn render_check(findings: &Findings, period: Option<Period>, format: Format)
                     f.period.map(|p| p.to_string()).unwrap_or_default(),
                     f.message.clone(),
                     f.action.clone(),
-                ]));
+                ]);
             }
-            out
+            out.finish()
         }
         Format::Table => {
             let mut out = String::new();
@@ -66,7 +64,7 @@ pub fn render_check(findings: &Findings, period: Option<Period>, format: Format)
                     ctx.push(format!("period {p}"));
                 }
                 let loc = f.location();
-                out.push_str(&format!("{:<8} {}", severity_word(f.severity), f.rule));
+                out.push_str(&format!("{:<10} {}", severity_word(f.severity), f.rule));
                 if !loc.is_empty() {
                     out.push_str(&format!("  {loc}"));
                 }
@@ -74,23 +72,25 @@ pub fn render_check(findings: &Findings, period: Option<Period>, format: Format)
                     out.push_str(&format!("  ({})", ctx.join(", ")));
                 }
                 out.push('\n');
-                out.push_str(&format!("         {}\n         what to do: {}\n", f.message, f.action));
+                out.push_str(&format!("           {}\n           what to do: {}\n", f.message, f.action));
             }
             if findings.is_empty() {
                 out.push_str("no findings: every delivery passes every rule\n");
             } else {
                 out.push_str(&format!("\n{blocking} blocking, {warnings} warning(s)\n"));
             }
-            out.push_str(&format!("\n{CAUTION}\n"));
+            out.push('\n');
+            out.push_str(&super::caution_text());
             out
         }
     }
 }
 
-fn severity_word(s: Severity) -> &'static str {
+/// A severity as every report spells it: the same word as in JSON.
+pub fn severity_word(s: Severity) -> &'static str {
     match s {
         Severity::Warning => "warning",
         Severity::Blocking => "blocking",
-        Severity::Unreadable => "unread",
+        Severity::Unreadable => "unreadable",
     }
 }

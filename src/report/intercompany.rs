@@ -11,7 +11,7 @@ use crate::model::Currency;
 use crate::money::format_amount;
 use crate::proof::Check;
 
-use super::{CAUTION, Format, csv_line, text_table, to_json};
+use super::{CAUTION, CsvOut, Format, text_table, to_json};
 
 #[derive(Serialize)]
 struct Tolerance {
@@ -371,29 +371,26 @@ fn opt(d: Option<Decimal>) -> String {
 }
 
 fn csv(r: &Report<'_>) -> String {
-    let mut out = csv_line(
-        &[
-            "entity",
-            "counterparty",
-            "kind",
-            "measure",
-            "status",
-            "reason",
-            "amount_entity",
-            "amount_counterparty",
-            "difference",
-            "txn_currency",
-            "amount_entity_txn",
-            "amount_counterparty_txn",
-            "difference_txn",
-            "awaiting",
-            "posted_to",
-            "explanation",
-        ]
-        .map(String::from),
-    );
+    let mut out = CsvOut::new(&[
+        "entity",
+        "counterparty",
+        "kind",
+        "measure",
+        "status",
+        "reason",
+        "amount_entity",
+        "amount_counterparty",
+        "difference",
+        "txn_currency",
+        "amount_entity_txn",
+        "amount_counterparty_txn",
+        "difference_txn",
+        "awaiting",
+        "posted_to",
+        "explanation",
+    ]);
     for p in &r.pairs {
-        out.push_str(&csv_line(&[
+        out.row(&[
             p.entity.clone(),
             p.counterparty.clone(),
             p.kind.clone(),
@@ -410,9 +407,9 @@ fn csv(r: &Report<'_>) -> String {
             p.awaiting.clone().unwrap_or_default(),
             p.posted_to.clone().unwrap_or_default(),
             p.explanation.clone(),
-        ]));
+        ]);
     }
-    out
+    out.finish()
 }
 
 fn table(r: &Report<'_>, m: &Matching) -> String {
@@ -532,6 +529,86 @@ fn table(r: &Report<'_>, m: &Matching) -> String {
     for c in r.proof.checks {
         out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
     }
-    out.push_str(&format!("\n{CAUTION}\n"));
+    out.push('\n');
+    out.push_str(&super::caution_text());
     out
+}
+
+/// The matching as two workbook sheets: every pair with its status, both sides and the
+/// difference; then who must act, per entity, with its pairs by status.
+pub fn sheets(m: &Matching) -> (super::xlsx::Sheet, super::xlsx::Sheet) {
+    use super::xlsx::{Cell, Sheet};
+    let amount = |d: Option<Decimal>| d.map(Cell::Amount).unwrap_or(Cell::Empty);
+    let mut pairs = Sheet::new("Intercompany");
+    pairs.header(&[
+        "entity",
+        "counterparty",
+        "kind",
+        "measure",
+        "status",
+        "reason",
+        "amount entity",
+        "amount counterparty",
+        "difference",
+        "awaiting",
+        "posted to",
+        "explanation",
+    ]);
+    for p in m.pairs.iter().map(|p| pair_out(p, m)) {
+        pairs.row(vec![
+            Cell::Text(p.entity),
+            Cell::Text(p.counterparty),
+            Cell::Text(p.kind),
+            Cell::from(p.measure),
+            Cell::from(p.status),
+            Cell::from(p.reason.unwrap_or_default()),
+            amount(p.amount_entity),
+            amount(p.amount_counterparty),
+            amount(p.difference),
+            Cell::Text(p.awaiting.unwrap_or_default()),
+            Cell::Text(p.posted_to.unwrap_or_default()),
+            Cell::Text(p.explanation),
+        ]);
+    }
+    let mut act = Sheet::new("Who must act");
+    act.header(&[
+        "entity",
+        "must act",
+        "pairs",
+        "matched",
+        "within tolerance",
+        "explained",
+        "open",
+        "open difference",
+        "awaited",
+        "why its figures are not used",
+    ]);
+    for e in summary(m).entities {
+        let count = |n: usize| Cell::Number(Decimal::from(n));
+        act.row(vec![
+            Cell::Text(e.entity),
+            Cell::from(if e.must_act { "yes" } else { "no" }),
+            count(e.pairs),
+            count(e.matched),
+            count(e.within_tolerance),
+            count(e.explained),
+            count(e.open),
+            Cell::Amount(e.open_difference),
+            count(e.awaited),
+            Cell::Text(e.absence.unwrap_or_default()),
+        ]);
+    }
+    (pairs, act)
+}
+
+/// The pairs by status, in the order a reader acts on them, for the report's summary.
+pub fn status_counts(m: &Matching) -> Vec<(&'static str, usize)> {
+    let t = summary(m).totals;
+    vec![
+        ("matched", t.matched),
+        ("within tolerance", t.within_tolerance),
+        ("explained", t.explained),
+        ("open", t.open),
+        ("awaiting", t.awaiting),
+    ]
 }

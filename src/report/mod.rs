@@ -7,12 +7,15 @@ pub mod cash_flows;
 pub mod close;
 pub mod findings;
 pub mod generate;
+pub mod html;
 pub mod intercompany;
 pub mod rates;
 pub mod segments;
 pub mod structure;
 pub mod trace;
 pub mod translation;
+pub mod workbook;
+pub mod xlsx;
 
 use std::path::Path;
 
@@ -124,62 +127,341 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     Ok(())
 }
 
-/// Renders rows as an aligned text table; `right` marks right-aligned columns.
+/// The width tables are fitted to; unset (natural width) unless the binary found a
+/// terminal, so that what the library renders for a test or a file never depends on
+/// the terminal the run was started from.
+static WIDTH: std::sync::OnceLock<Option<u16>> = std::sync::OnceLock::new();
+
+/// Fits tables to the terminal when standard output is one (`COLUMNS` wins, as shells
+/// set it); called once by the binary. Output to a file or a pipe keeps tables at their
+/// natural width.
+pub fn fit_to_terminal() {
+    let width = if console::Term::stdout().is_term() {
+        std::env::var("COLUMNS")
+            .ok()
+            .and_then(|c| c.trim().parse::<u16>().ok())
+            .or_else(|| console::Term::stdout().size_checked().map(|(_, cols)| cols))
+    } else {
+        None
+    };
+    let _ = WIDTH.set(width);
+}
+
+/// The width tables are fitted to, if any (see [`fit_to_terminal`]).
+pub fn terminal_width() -> Option<u16> {
+    WIDTH.get().copied().flatten()
+}
+
+/// The one table style: a rule under the header and nothing else, so that a table
+/// reads like a printed schedule. Order of the 19 characters: comfy-table's preset.
+const TABLE_STYLE: &str = "     ──            ";
+
+/// Renders rows as an aligned text table that fits the terminal (long cells wrap);
+/// `right` marks right-aligned (amount) columns.
 pub fn text_table(header: &[&str], rows: &[Vec<String>], right: &[bool]) -> String {
-    let n = header.len();
-    let mut width: Vec<usize> = header.iter().map(|h| h.chars().count()).collect();
-    for r in rows {
-        for (i, c) in r.iter().enumerate().take(n) {
-            width[i] = width[i].max(c.chars().count());
+    table_at(header, rows, right, terminal_width())
+}
+
+/// [`text_table`] at a given width (`None`: natural width).
+pub fn table_at(header: &[&str], rows: &[Vec<String>], right: &[bool], width: Option<u16>) -> String {
+    if let Some(w) = width
+        && let Some(parts) = column_groups(header, rows, right, usize::from(w))
+    {
+        // A schedule wider than the terminal (a label, then amounts) is printed in
+        // groups of columns, each repeating the labels, rather than breaking amounts.
+        let mut out = String::new();
+        for (k, cols) in parts.iter().enumerate() {
+            let pick = |r: &[String]| -> Vec<String> {
+                std::iter::once(0).chain(cols.iter().copied()).map(|i| r.get(i).cloned().unwrap_or_default()).collect()
+            };
+            let head: Vec<String> = pick(&header.iter().map(|h| h.to_string()).collect::<Vec<_>>());
+            let head: Vec<&str> = head.iter().map(String::as_str).collect();
+            let body: Vec<Vec<String>> = rows.iter().map(|r| pick(r)).collect();
+            let mut align = vec![false];
+            align.extend(cols.iter().map(|_| true));
+            if k > 0 {
+                out.push('\n');
+            }
+            out.push_str(&table_at(&head, &body, &align, width));
+        }
+        return out;
+    }
+    use comfy_table::{CellAlignment, ContentArrangement, Table};
+    let mut t = Table::new();
+    t.load_preset(TABLE_STYLE);
+    match width {
+        Some(w) => {
+            t.set_width(w);
+            t.set_content_arrangement(ContentArrangement::Dynamic);
+        }
+        None => {
+            t.set_content_arrangement(ContentArrangement::Disabled);
         }
     }
-    let fmt_row = |cells: &[String]| -> String {
-        let mut line = String::new();
-        for (i, c) in cells.iter().enumerate().take(n) {
-            let pad = width[i] - c.chars().count();
-            if i > 0 {
-                line.push_str("  ");
-            }
-            if right.get(i).copied().unwrap_or(false) {
-                line.push_str(&" ".repeat(pad));
-                line.push_str(c);
+    t.set_header(header.to_vec());
+    for r in rows {
+        t.add_row(r.clone());
+    }
+    for i in 0..header.len() {
+        let r = right.get(i).unwrap_or(&false);
+        // An amount is never broken over lines: only text columns give way to fit.
+        // Headers may wrap between words, not inside one.
+        let word = header.get(i).map(|h| h.split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0));
+        let widest = rows.iter().filter_map(|row| row.get(i)).map(|c| c.chars().count()).chain(word).max().unwrap_or(0);
+        // The width comfy-table fixes includes the cell's padding, one space a side.
+        let fixed = |w: usize| comfy_table::Width::Fixed(u16::try_from(w + 2).unwrap_or(u16::MAX));
+        if let Some(c) = t.column_mut(i) {
+            if *r {
+                c.set_cell_alignment(CellAlignment::Right);
+                c.set_constraint(comfy_table::ColumnConstraint::Absolute(fixed(widest)));
             } else {
-                line.push_str(c);
-                if i + 1 < n {
-                    line.push_str(&" ".repeat(pad));
-                }
+                // Text wraps, but not below a readable width.
+                c.set_constraint(comfy_table::ColumnConstraint::LowerBoundary(fixed(widest.min(16))));
             }
         }
-        line.trim_end().to_string()
-    };
+    }
     let mut out = String::new();
-    out.push_str(&fmt_row(&header.iter().map(|s| s.to_string()).collect::<Vec<_>>()));
-    out.push('\n');
-    out.push_str(&width.iter().map(|w| "-".repeat(*w)).collect::<Vec<_>>().join("  "));
-    out.push('\n');
-    for r in rows {
-        out.push_str(&fmt_row(r));
+    for line in t.lines() {
+        // comfy-table pads one space left of the first column; the report's own
+        // margin is enough.
+        let line = line.strip_prefix(' ').unwrap_or(&line).trim_end().to_string();
+        out.push_str(&line);
         out.push('\n');
     }
     out
 }
 
-/// Quotes a CSV field when it needs it.
-pub fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n']) { format!("\"{}\"", s.replace('"', "\"\"")) } else { s.to_string() }
+/// For a schedule (a text column, then only amount columns) wider than `width`: the
+/// amount columns split into groups that fit beside the label column; `None` when the
+/// table is not a schedule or fits as it is.
+fn column_groups(header: &[&str], rows: &[Vec<String>], right: &[bool], width: usize) -> Option<Vec<Vec<usize>>> {
+    let n = header.len();
+    if n < 3 || right.len() != n || right[0] || !right[1..].iter().all(|r| *r) {
+        return None;
+    }
+    let cell = |i: usize| {
+        let word = header[i].split_whitespace().map(|w| w.chars().count()).max().unwrap_or(0);
+        rows.iter().filter_map(|r| r.get(i)).map(|c| c.chars().count()).chain([word]).max().unwrap_or(0)
+    };
+    // Each column takes its content, one space of padding a side and a separator.
+    let label = cell(0).min(30) + 3;
+    let amounts: Vec<usize> = (1..n).map(|i| cell(i) + 3).collect();
+    if label + amounts.iter().sum::<usize>() <= width {
+        return None;
+    }
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    let mut used = label;
+    for (k, w) in amounts.iter().enumerate() {
+        match groups.last_mut() {
+            Some(g) if used + w <= width => g.push(k + 1),
+            _ => {
+                groups.push(vec![k + 1]);
+                used = label;
+            }
+        }
+        used += w;
+    }
+    Some(groups)
 }
 
-pub fn csv_line(fields: &[String]) -> String {
-    let mut l = fields.iter().map(|f| csv_field(f)).collect::<Vec<_>>().join(",");
-    l.push('\n');
-    l
+/// CSV text through the `csv` crate (RFC 4180 quoting, carriage returns included).
+pub fn csv_text<I>(header: &[&str], rows: I) -> String
+where
+    I: IntoIterator<Item = Vec<String>>,
+{
+    let mut w = csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
+    // Writing into memory cannot fail but for a record of the wrong length, which is a
+    // bug of the caller.
+    w.write_record(header).expect("header written");
+    for r in rows {
+        w.write_record(&r).expect("row written");
+    }
+    let bytes = w.into_inner().expect("csv flushed into memory");
+    String::from_utf8(bytes).expect("csv of UTF-8 fields is UTF-8")
 }
 
-/// The proof as printed under every table report: the verdict, then each check.
-pub fn proof_lines(tied: bool, checks: &[crate::proof::Check]) -> String {
-    let mut out = format!("\nproof: {}\n", if tied { "tied" } else { "NOT TIED" });
-    for c in checks {
-        out.push_str(&format!("  {} {}: {}\n", if c.ok { "ok  " } else { "FAIL" }, c.name, c.detail));
+/// CSV built row by row through the `csv` crate; [`CsvOut::finish`] gives the text.
+pub struct CsvOut {
+    header: Vec<String>,
+    rows: Vec<Vec<String>>,
+}
+
+impl CsvOut {
+    pub fn new(header: &[&str]) -> Self {
+        Self { header: header.iter().map(|h| h.to_string()).collect(), rows: Vec::new() }
+    }
+    pub fn row(&mut self, fields: &[String]) {
+        self.rows.push(fields.to_vec());
+    }
+    pub fn finish(self) -> String {
+        let header: Vec<&str> = self.header.iter().map(String::as_str).collect();
+        csv_text(&header, self.rows)
+    }
+}
+
+/// `text` wrapped at word boundaries to lines of at most `width` characters.
+pub fn wrap(text: &str, width: usize) -> String {
+    let mut out = String::new();
+    let mut line = String::new();
+    for word in text.split_whitespace() {
+        if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
+            out.push_str(&line);
+            out.push('\n');
+            line.clear();
+        }
+        if !line.is_empty() {
+            line.push(' ');
+        }
+        line.push_str(word);
+    }
+    out.push_str(&line);
+    out.push('\n');
+    out
+}
+
+/// The caution as a printed paragraph: wrapped to the terminal, at most 88 columns.
+pub fn caution_text() -> String {
+    let width = terminal_width().map(|w| usize::from(w).clamp(40, 88)).unwrap_or(88);
+    wrap(CAUTION, width)
+}
+
+/// A check's name in words: `balance_sheet_balances` -> "balance sheet balances".
+pub fn check_words(name: &str) -> String {
+    name.replace('_', " ")
+}
+
+/// The figures of a check's detail formatted for people: every decimal number gets its
+/// thousands separators ("9505969.62" -> "9,505,969.62"). Integers are left alone:
+/// they are counts, years or account numbers.
+pub fn readable_detail(detail: &str) -> String {
+    let chars: Vec<char> = detail.chars().collect();
+    let mut out = String::new();
+    let mut i = 0;
+    while i < chars.len() {
+        let starts_number = chars[i].is_ascii_digit() && (i == 0 || !is_word_char(chars[i - 1]));
+        if !starts_number {
+            out.push(chars[i]);
+            i += 1;
+            continue;
+        }
+        let mut j = i;
+        while j < chars.len() && chars[j].is_ascii_digit() {
+            j += 1;
+        }
+        let is_decimal = j + 1 < chars.len() && chars[j] == '.' && chars[j + 1].is_ascii_digit();
+        if !is_decimal {
+            out.extend(&chars[i..j]);
+            i = j;
+            continue;
+        }
+        let mut k = j + 1;
+        while k < chars.len() && chars[k].is_ascii_digit() {
+            k += 1;
+        }
+        if k < chars.len() && is_word_char(chars[k]) {
+            out.extend(&chars[i..k]);
+            i = k;
+            continue;
+        }
+        let int: String = chars[i..j].iter().collect();
+        out.push_str(&group_thousands(&int));
+        out.extend(&chars[j..k]);
+        i = k;
     }
     out
+}
+
+fn is_word_char(c: char) -> bool {
+    c.is_alphanumeric() || c == '.' || c == '_'
+}
+
+/// Digits with a comma every three from the right.
+fn group_thousands(digits: &str) -> String {
+    let mut out = String::new();
+    for (i, ch) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i).is_multiple_of(3) {
+            out.push(',');
+        }
+        out.push(ch);
+    }
+    out
+}
+
+/// The proof as printed under every table report: the verdict, then each check in
+/// words with its figures formatted.
+pub fn proof_lines(tied: bool, checks: &[crate::proof::Check]) -> String {
+    let mut out =
+        format!("\nproof: {}\n", if tied { "tied, every check holds" } else { "NOT TIED, a check fails (see below)" });
+    for c in checks {
+        out.push_str(&format!(
+            "  {} {}: {}\n",
+            if c.ok { "ok  " } else { "FAIL" },
+            check_words(c.name),
+            readable_detail(&c.detail)
+        ));
+    }
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn details_get_thousands_separators_on_amounts_only() {
+        assert_eq!(
+            readable_detail("assets - equity - liabilities = 9505969.62, profit = -1234.5"),
+            "assets - equity - liabilities = 9,505,969.62, profit = -1,234.5"
+        );
+        // Counts, account numbers, periods and rates keep their form.
+        assert_eq!(readable_detail("12 deliveries, account 131500, 2026-12"), "12 deliveries, account 131500, 2026-12");
+        assert_eq!(readable_detail("rate 1.1102 on 2026-09-15"), "rate 1.1102 on 2026-09-15");
+        assert_eq!(readable_detail("v0.1.0 and 2.5x"), "v0.1.0 and 2.5x");
+    }
+
+    #[test]
+    fn csv_quotes_separators_quotes_and_line_breaks() {
+        let text = csv_text(
+            &["a", "b"],
+            [vec!["x,y".to_string(), "say \"hi\"".to_string()], vec!["line\rbreak".to_string(), "plain".to_string()]],
+        );
+        assert_eq!(text, "a,b\n\"x,y\",\"say \"\"hi\"\"\"\n\"line\rbreak\",plain\n");
+    }
+
+    #[test]
+    fn a_wide_schedule_is_printed_in_groups_of_columns() {
+        let header = ["", "one", "two", "three", "four", "five", "six", "seven"];
+        let rows: Vec<Vec<String>> = ["Balance at the start", "Profit", "Balance at the end"]
+            .iter()
+            .map(|l| std::iter::once(l.to_string()).chain((1..8).map(|k| format!("{k}00,000,000.00"))).collect())
+            .collect();
+        let mut right = vec![false];
+        right.extend([true; 7]);
+        let t = table_at(&header, &rows, &right, Some(80));
+        assert!(t.lines().all(|l| l.chars().count() <= 80), "{t}");
+        for k in 1..8 {
+            assert_eq!(t.matches(&format!("{k}00,000,000.00")).count(), 3, "each amount whole, once per row: {t}");
+        }
+        assert_eq!(t.matches("Balance at the start").count(), 3, "labels repeated in each of 3 groups: {t}");
+        // At its natural width it is one table.
+        assert_eq!(table_at(&header, &rows, &right, None).matches("Profit").count(), 1);
+    }
+
+    #[test]
+    fn wrap_keeps_lines_within_the_width() {
+        let w = wrap(CAUTION, 60);
+        assert!(w.lines().count() > 3);
+        assert!(w.lines().all(|l| l.chars().count() <= 60), "{w}");
+        assert_eq!(w.split_whitespace().collect::<Vec<_>>(), CAUTION.split_whitespace().collect::<Vec<_>>());
+    }
+
+    #[test]
+    fn tables_fit_the_width_asked() {
+        let rows = vec![vec!["a long label that will need to wrap somewhere".to_string(), "1,234.56".to_string()]];
+        let t = table_at(&["label", "amount"], &rows, &[false, true], Some(30));
+        assert!(t.lines().all(|l| l.chars().count() <= 30), "{t}");
+        assert!(t.contains("1,234.56"), "an amount is never broken: {t}");
+        let natural = table_at(&["label", "amount"], &rows, &[false, true], None);
+        assert_eq!(natural.lines().count(), 3, "{natural}");
+    }
 }

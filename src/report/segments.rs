@@ -13,7 +13,7 @@ use crate::money::format_amount;
 use crate::proof::Check;
 use crate::segments::SegmentReport;
 
-use super::{CAUTION, Format, csv_line, proof_lines, text_table, to_json, write_file};
+use super::{CsvOut, Format, proof_lines, text_table, to_json, write_file};
 
 #[derive(Serialize)]
 pub struct SegmentsProof<'a> {
@@ -38,51 +38,41 @@ pub struct SegmentsOut<'a> {
 
 /// One figure per row: section, line, column, amount (a plain decimal string).
 fn csv(r: &SegmentsOut<'_>) -> String {
-    let mut out = csv_line(&["section".into(), "line".into(), "column".into(), "amount".into()]);
+    let mut out = CsvOut::new(&["section", "line", "column", "amount"]);
     let rep = r.report;
     for l in &rep.lines {
         for s in &rep.segments {
             let v = s.values.get(&l.line).copied().unwrap_or_default();
-            out.push_str(&csv_line(&["segment".into(), l.line.clone(), s.segment.clone(), v.to_string()]));
+            out.row(&["segment".into(), l.line.clone(), s.segment.clone(), v.to_string()]);
         }
     }
     for l in &rep.reconciliation {
-        out.push_str(&csv_line(&[
+        out.row(&[
             "reconciliation".into(),
             l.line.clone(),
             "reportable_segments".into(),
             crate::money::plain(l.reportable_segments),
-        ]));
+        ]);
         for i in &l.items {
-            out.push_str(&csv_line(&[
-                "reconciliation".into(),
-                l.line.clone(),
-                i.item.clone(),
-                crate::money::plain(i.amount),
-            ]));
+            out.row(&["reconciliation".into(), l.line.clone(), i.item.clone(), crate::money::plain(i.amount)]);
         }
-        out.push_str(&csv_line(&[
-            "reconciliation".into(),
-            l.line.clone(),
-            "group".into(),
-            crate::money::plain(l.group),
-        ]));
+        out.row(&["reconciliation".into(), l.line.clone(), "group".into(), crate::money::plain(l.group)]);
     }
     for c in &rep.entity_wide.rows {
-        out.push_str(&csv_line(&[
+        out.row(&[
             "entity_wide".into(),
             "revenue_external".into(),
             c.country.clone(),
             crate::money::plain(c.revenue_external),
-        ]));
-        out.push_str(&csv_line(&[
+        ]);
+        out.row(&[
             "entity_wide".into(),
             "non_current_assets".into(),
             c.country.clone(),
             crate::money::plain(c.non_current_assets),
-        ]));
+        ]);
     }
-    out
+    out.finish()
 }
 
 /// The entity-wide table by country (IFRS 8.33).
@@ -207,13 +197,18 @@ fn table(r: &SegmentsOut<'_>, minor: u32) -> String {
     if !r.findings.is_empty() {
         out.push_str("\nfindings:\n");
         for f in r.findings {
-            out.push_str(&format!("  {:?} {}: {} ({})\n", f.severity, f.rule, f.message, f.action));
+            out.push_str(&format!(
+                "  {} {}: {} ({})\n",
+                super::findings::severity_word(f.severity),
+                f.rule,
+                f.message,
+                f.action
+            ));
         }
     }
     out.push_str(&proof_lines(r.proof.tied, r.proof.checks));
     out.push('\n');
-    out.push_str(CAUTION);
-    out.push('\n');
+    out.push_str(&super::caution_text());
     out
 }
 

@@ -7,7 +7,7 @@ use serde::Serialize;
 use crate::model::{Entity, Method, Period};
 use crate::structure::GroupStructure;
 
-use super::{CAUTION, Format, csv_line, to_json};
+use super::{CAUTION, CsvOut, Format, to_json};
 
 #[derive(Serialize)]
 struct Holder {
@@ -80,12 +80,10 @@ pub fn render(s: &GroupStructure, entities: &[Entity], period: Period, format: F
     match format {
         Format::Json => to_json(&report),
         Format::Csv => {
-            let mut out = csv_line(
-                &["entity", "parent", "controlled_from", "effective_interest", "nci", "method", "reason"]
-                    .map(String::from),
-            );
+            let mut out =
+                CsvOut::new(&["entity", "parent", "controlled_from", "effective_interest", "nci", "method", "reason"]);
             for r in &report.entities {
-                out.push_str(&csv_line(&[
+                out.row(&[
                     r.id.clone(),
                     r.parent.clone().unwrap_or_default(),
                     r.controlled_from.clone().unwrap_or_default(),
@@ -93,18 +91,20 @@ pub fn render(s: &GroupStructure, entities: &[Entity], period: Period, format: F
                     r.nci.to_string(),
                     r.method.as_str().to_string(),
                     r.reason.clone(),
-                ]));
+                ]);
             }
-            out
+            out.finish()
         }
         Format::Table => {
             let mut out = format!("group structure at {} (period {})\n\n", report.as_of, report.period);
             let head = ["entity", "ccy", "held by", "control since", "group", "nci", "method", "reason"];
+            let in_tree: Vec<(usize, String)> =
+                report.entities.iter().filter_map(|r| r.depth.map(|d| (d, r.id.clone()))).collect();
+            let mut drawn = tree_cells(&in_tree).into_iter();
             let mut rows = Vec::new();
             for r in &report.entities {
                 let name = match r.depth {
-                    Some(0) => r.id.clone(),
-                    Some(d) => format!("{}└─ {}", "   ".repeat(d - 1), r.id),
+                    Some(_) => drawn.next().unwrap_or_else(|| r.id.clone()),
                     None => format!("·  {}", r.id),
                 };
                 let held = r
@@ -132,8 +132,46 @@ pub fn render(s: &GroupStructure, entities: &[Entity], period: Period, format: F
             }
             out.push_str(&super::text_table(&head, &rows, &[false, false, false, false, true, true, false, false]));
             out.push_str("\n· = outside the control tree (associates, joint ventures, investments)\n");
-            out.push_str(&format!("\n{CAUTION}\n"));
+            out.push('\n');
+            out.push_str(&super::caution_text());
             out
         }
+    }
+}
+
+/// The control tree drawn by termtree, one line per entity in the order given
+/// (pre-order, each with its depth below the root), so that each line can head its
+/// entity's row.
+fn tree_cells(items: &[(usize, String)]) -> Vec<String> {
+    fn build(items: &[(usize, String)], i: &mut usize) -> termtree::Tree<String> {
+        let (depth, id) = &items[*i];
+        let mut tree = termtree::Tree::new(id.clone());
+        *i += 1;
+        while *i < items.len() && items[*i].0 > *depth {
+            tree.push(build(items, i));
+        }
+        tree
+    }
+    let mut lines = Vec::new();
+    let mut i = 0;
+    while i < items.len() {
+        let tree = build(items, &mut i);
+        lines.extend(tree.to_string().lines().map(str::to_string));
+    }
+    lines
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn each_child_gets_its_own_connector() {
+        let items: Vec<(usize, String)> = [(0, "P"), (1, "A"), (2, "A1"), (1, "B"), (1, "C"), (2, "C1"), (2, "C2")]
+            .iter()
+            .map(|(d, s)| (*d, s.to_string()))
+            .collect();
+        let lines = tree_cells(&items);
+        assert_eq!(lines, ["P", "├── A", "│   └── A1", "├── B", "└── C", "    ├── C1", "    └── C2"]);
     }
 }

@@ -5,35 +5,35 @@
 use crate::money::format_amount;
 use crate::trace::Trace;
 
-use super::{Format, csv_line, to_json};
+use super::{CsvOut, Format, to_json};
 
 /// The trace in `format`.
 pub fn render(t: &Trace, minor: u32, format: Format) -> String {
     match format {
         Format::Json => to_json(t),
         Format::Csv => {
-            let mut out = csv_line(&["source", "entity", "reference", "counterparty", "amount"].map(String::from));
+            let mut out = CsvOut::new(&["source", "entity", "reference", "counterparty", "amount"]);
             for p in &t.entities {
                 for c in &p.by_counterparty {
-                    out.push_str(&csv_line(&[
+                    out.row(&[
                         "contribution".into(),
                         p.entity.clone(),
                         String::new(),
                         c.counterparty.clone().unwrap_or_default(),
                         crate::money::plain(c.amount),
-                    ]));
+                    ]);
                 }
             }
             for e in &t.eliminations {
-                out.push_str(&csv_line(&[
+                out.row(&[
                     format!("elimination {}", e.rule),
                     e.entity.clone(),
                     e.entry.clone(),
                     e.counterparty.clone().unwrap_or_default(),
                     crate::money::plain(e.amount),
-                ]));
+                ]);
             }
-            out
+            out.finish()
         }
         Format::Table => {
             let mut out =

@@ -14,7 +14,7 @@ use crate::money::{column_decimals, format_amount};
 use crate::proof::Check;
 use crate::translate::{Explanation, OperationReserve, Translated};
 
-use super::{CAUTION, Format, csv_line, to_json};
+use super::{CAUTION, CsvOut, Format, to_json};
 
 #[derive(Serialize)]
 struct Line {
@@ -63,10 +63,10 @@ impl Split {
 }
 
 #[derive(Serialize)]
-struct EntityReport<'a> {
+struct EntityReport {
     entity: String,
     currency: String,
-    month: Option<&'a Explanation>,
+    month: Option<Explanation>,
     year_to_date: Split,
     /// Which foreign operation each part of the difference belongs to.
     reserves: Vec<ReserveLine>,
@@ -111,7 +111,7 @@ struct Report<'a> {
     gains_positive: &'static str,
     proof: Proof<'a>,
     ifric16: Ifric16Method,
-    entities: Vec<EntityReport<'a>>,
+    entities: Vec<EntityReport>,
     reserves_by_operation: Vec<OperationLine>,
     caution: &'static str,
 }
@@ -158,14 +158,26 @@ fn lines_by_entity(
             continue;
         }
         let e = ent[i].clone().unwrap_or_default();
+        // Local amounts at their currency's minor unit (ISO 4217: JPY 0, BHD 3); they are
+        // exact at it, so this only drops the scale's surplus zeros.
+        let minor = ccy[i].as_deref().and_then(crate::model::Currency::parse).map(|c| c.minor_unit());
+        let local = |d: Option<Decimal>| {
+            let mut d = d.unwrap_or_default();
+            if let Some(m) = minor {
+                d = d.round_dp(m);
+                d.rescale(m);
+            }
+            d
+        };
+        let (amount_local, balance_local) = (local(al[i]), local(bl[i]));
         let entry = by.entry(e).or_insert_with(|| (ccy[i].clone().unwrap_or_default(), Vec::new()));
         entry.1.push(Line {
             account: acc[i].clone().unwrap_or_default(),
             counterparty: cp[i].clone(),
             txn_currency: txc[i].clone(),
             basis: basis[i].clone().unwrap_or_default(),
-            amount_local: al[i].unwrap_or_default(),
-            balance_local: bl[i].unwrap_or_default(),
+            amount_local,
+            balance_local,
             rate: rate[i].unwrap_or_default().normalize(),
             quote: quote[i].clone().unwrap_or_default(),
             rate_kind: kind[i].clone().unwrap_or_default(),
@@ -191,7 +203,21 @@ pub fn render(
     let by = lines_by_entity(t, period, only)?;
     let mut entities = Vec::new();
     for (e, (ccy, lines)) in by {
-        let month = t.explanations.iter().find(|x| x.entity.as_str() == e && x.period == period);
+        let month = t.explanations.iter().find(|x| x.entity.as_str() == e && x.period == period).map(|x| {
+            // The local figures at the currency's minor unit, as the lines.
+            let m = x.currency.minor_unit();
+            let at = |d: Decimal| {
+                let mut d = d.round_dp(m);
+                d.rescale(m);
+                d
+            };
+            Explanation {
+                opening_net_assets_local: at(x.opening_net_assets_local),
+                profit_local: at(x.profit_local),
+                equity_movements_local: at(x.equity_movements_local),
+                ..x.clone()
+            }
+        });
         let mut ytd = Split::default();
         for x in
             t.explanations.iter().filter(|x| x.entity.as_str() == e && x.period >= fiscal_start && x.period <= period)
@@ -241,26 +267,23 @@ pub fn render(
     Ok(match format {
         Format::Json => to_json(&report),
         Format::Csv => {
-            let mut out = csv_line(
-                &[
-                    "entity",
-                    "account",
-                    "counterparty",
-                    "txn_currency",
-                    "basis",
-                    "amount_local",
-                    "balance_local",
-                    "rate",
-                    "quote",
-                    "rate_kind",
-                    "amount_presentation",
-                    "balance_presentation",
-                ]
-                .map(String::from),
-            );
+            let mut out = CsvOut::new(&[
+                "entity",
+                "account",
+                "counterparty",
+                "txn_currency",
+                "basis",
+                "amount_local",
+                "balance_local",
+                "rate",
+                "quote",
+                "rate_kind",
+                "amount_presentation",
+                "balance_presentation",
+            ]);
             for er in &report.entities {
                 for l in &er.lines {
-                    out.push_str(&csv_line(&[
+                    out.row(&[
                         er.entity.clone(),
                         l.account.clone(),
                         l.counterparty.clone().unwrap_or_default(),
@@ -273,10 +296,10 @@ pub fn render(
                         l.rate_kind.clone(),
                         crate::money::plain(l.amount_presentation),
                         crate::money::plain(l.balance_presentation),
-                    ]));
+                    ]);
                 }
             }
-            out
+            out.finish()
         }
         Format::Table => table(&report, t.minor),
     })
@@ -310,7 +333,7 @@ fn table(r: &Report<'_>, minor: u32) -> String {
         "rounding",
         "translation diff.",
     ];
-    let row = |e: &EntityReport<'_>, x: &Split| -> Vec<String> {
+    let row = |e: &EntityReport, x: &Split| -> Vec<String> {
         let mut v = vec![e.entity.clone(), e.currency.clone()];
         v.extend(
             [x.on_opening_net_assets, x.on_profit, x.on_equity_movements, x.on_hyperinflation, x.rounding, x.total]
@@ -319,7 +342,8 @@ fn table(r: &Report<'_>, minor: u32) -> String {
         v
     };
     let right = [false, false, true, true, true, true, true, true];
-    let month: Vec<Vec<String>> = r.entities.iter().filter_map(|e| e.month.map(|m| row(e, &Split::of(m)))).collect();
+    let month: Vec<Vec<String>> =
+        r.entities.iter().filter_map(|e| e.month.as_ref().map(|m| row(e, &Split::of(m)))).collect();
     out.push_str("translation difference of the month, explained (gains positive, IAS 21.41)\n");
     out.push_str(&super::text_table(&head, &month, &right));
     let ytd: Vec<Vec<String>> = r.entities.iter().map(|e| row(e, &e.year_to_date)).collect();
@@ -345,6 +369,7 @@ fn table(r: &Report<'_>, minor: u32) -> String {
         &[false, true, true, true, true],
     ));
     out.push_str(&super::proof_lines(r.proof.tied, r.proof.checks));
-    out.push_str(&format!("\n{CAUTION}\n"));
+    out.push('\n');
+    out.push_str(&super::caution_text());
     out
 }

@@ -1,8 +1,8 @@
 //! Bad input, table-driven: each row breaks a copy of the demo in one way and names the
 //! finding `tessera check` must give and its exit code (0 clean or warnings only, 1
-//! blocking, 2 unreadable). A row whose check exits 0 must also show its warning in the
+//! blocking, 3 unreadable). A row whose check exits 0 must also show its warning in the
 //! close's own output; a row whose check blocks must stop the final close (exit 1 or
-//! 2). Then a bounded random test: demo files mutated byte by byte, cell by cell and row
+//! 3). Then a bounded random test: demo files mutated byte by byte, cell by cell and row
 //! by row never make a run panic, and never let a close exit 0 with figures that differ
 //! from the demo's unless the mutation is a legitimate delivery.
 
@@ -92,7 +92,7 @@ fn cases() -> Vec<Case> {
                 write_bytes(f, "entities/entities.csv", &bytes);
             },
             rule: Some("FileUnreadable"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "mapping label in Windows-1252",
@@ -102,7 +102,7 @@ fn cases() -> Vec<Case> {
                 write_bytes(f, UK_MAP, &bytes);
             },
             rule: Some("FileUnreadable"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "entities.csv with only its header",
@@ -154,7 +154,7 @@ fn cases() -> Vec<Case> {
                 })
             },
             rule: Some("ColumnDuplicated"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "a column named twice in mapping.csv",
@@ -162,13 +162,13 @@ fn cases() -> Vec<Case> {
                 f.replace(UK_MAP, "local_account,local_name,group_account", "local_account,local_account,group_account")
             },
             rule: Some("ColumnDuplicated"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "an empty trial balance file",
             mutate: |f| f.write(UK_DEC, ""),
             rule: Some("FileUnreadable"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "a trial balance with only its header",
@@ -182,7 +182,7 @@ fn cases() -> Vec<Case> {
                 map_lines(f, UK_DEC, |i, l| if i == 0 { l.replace("amount,", "value,") } else { l.to_string() })
             },
             rule: Some("ColumnMissing"),
-            code: 2,
+            code: 3,
         },
         Case {
             name: "an unknown column",
@@ -255,7 +255,7 @@ fn cases() -> Vec<Case> {
             name: "monthly.csv with a capital",
             mutate: |f| rename(f, "rates/monthly.csv", "rates/Monthly.csv"),
             rule: Some("FileUnknown"),
-            code: 2,
+            code: 3,
         },
         // --- completeness -----------------------------------------------------------
         Case {
@@ -692,7 +692,7 @@ fn extreme_values_within_the_limits_do_not_panic() {
             crate::support::run(&args)
         });
         let (code, text) = got.expect("no panic");
-        assert!((0..=2).contains(&code), "exit {code}: {text}");
+        assert!((0..=3).contains(&code), "exit {code}: {text}");
         assert!(!text.contains("overflow"), "{text}");
     }
 }
@@ -783,7 +783,7 @@ fn the_real_finding_is_not_replaced_by_a_request_for_the_period() {
         let bytes: Vec<u8> = text.chars().map(|c| if c == 'ä' { 0xE4 } else { c as u8 }).collect();
         write_bytes(f, "entities/entities.csv", &bytes);
     };
-    for (mutate, rule, code) in [(header_only, "TableEmpty", 1), (latin1, "FileUnreadable", 2)] {
+    for (mutate, rule, code) in [(header_only, "TableEmpty", 1), (latin1, "FileUnreadable", 3)] {
         let f = Folder::demo();
         mutate(&f);
         let out = tempfile::tempdir().expect("temp dir");
@@ -968,7 +968,7 @@ proptest! {
         let got = close_caught(&f);
         prop_assert!(got.is_ok(), "{:?} panicked: {:?}", m, got.err());
         let (code, v) = got.unwrap_or_default();
-        prop_assert!((0..=2).contains(&code), "{:?}: exit {}", m, code);
+        prop_assert!((0..=3).contains(&code), "{:?}: exit {}", m, code);
         if code == 0 && !legitimate {
             prop_assert_eq!(&figures(&v), base, "{:?} closed with exit 0 and changed figures", m);
         }

@@ -185,13 +185,13 @@ fn missing_file_and_missing_column_are_unreadable_input() {
     let f = Folder::demo();
     f.remove("rates/monthly.csv");
     let (code, fs) = check(&f);
-    assert_eq!(code, 2);
+    assert_eq!(code, 3);
     at(one(&fs, "FileMissing"), "rates/monthly.csv", None);
 
     let g = Folder::demo();
     g.replace(UK_DEC, "period,account,amount,", "period,account,amt,");
     let (code, fs) = check(&g);
-    assert_eq!(code, 2);
+    assert_eq!(code, 3);
     at(one(&fs, "ColumnMissing"), UK_DEC, Some(1));
 }
 

@@ -18,6 +18,9 @@
 //! - `currencies`: ISO 4217 minor units against the published table;
 //! - `delivery_basis`: months delivered as balances among months of movements give the
 //!   same figures (a property test over any set of months);
+//! - `pack`: the command line (help, exit codes, closed pipe, TESSERA_DATA) and the
+//!   close's files, workbook (read back by openpyxl) and HTML report (headless Chromium),
+//!   and the figures docs/demo.md quotes;
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
@@ -41,6 +44,7 @@ mod delivery_basis;
 mod generate;
 mod golden;
 mod intercompany;
+mod pack;
 mod rates_ecb;
 mod rates_findings;
 mod segments;

@@ -384,11 +384,15 @@ fn demo_reconciles_by_business_and_geography() {
         dec(&lines.iter().find(|l| l["line"] == line).expect("line")["amount"])
     };
     // Contributions, by hand.
-    let text = std::fs::read_to_string(out.path().join("2026-12/group/ytd/contributions.csv")).expect("contributions");
+    let mut reader =
+        csv::Reader::from_path(out.path().join("2026-12/group/ytd/contributions.csv")).expect("contributions");
+    let head: Vec<String> = reader.headers().expect("header").iter().map(String::from).collect();
+    let at = |n: &str| head.iter().position(|h| h == n).expect("column");
+    let (e, a, cp, v) = (at("entity"), at("group_account"), at("counterparty"), at("amount"));
     let mut rows = Vec::new();
-    for l in text.lines().skip(1) {
-        let c: Vec<&str> = l.split(',').collect();
-        rows.push((c[0].to_string(), c[1].parse::<u32>().unwrap(), c[2].to_string(), d(c[3])));
+    for r in reader.records() {
+        let c = r.expect("row");
+        rows.push((c[e].to_string(), c[a].parse::<u32>().unwrap(), c[cp].to_string(), d(&c[v])));
     }
     let consolidated: BTreeSet<String> = rows.iter().map(|r| r.0.clone()).collect();
     let entities = std::fs::read_to_string(data.join("entities/entities.csv")).unwrap();

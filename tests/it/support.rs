@@ -20,7 +20,7 @@ pub fn run(args: &[&str]) -> (i32, String) {
         Ok(c) => c,
         Err(e) => {
             out.extend_from_slice(format!("error: {e}\n").as_bytes());
-            2
+            tessera::cli::error_exit_code(&e)
         }
     };
     (code, String::from_utf8(out).expect("utf-8 output"))
