@@ -544,38 +544,10 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     let cash_flows = cash_flow_statement(&c, opening, &mut checks)?;
     let exceptions = exceptions(&c);
     let tied = crate::proof::tied(&checks) && exceptions.is_empty();
-    // Shown with the close: the exceptions first, then every warning of the run.
-    let shown: Vec<crate::findings::Finding> = exceptions
-        .iter()
-        .cloned()
-        .chain(
-            c.findings
-                .items()
-                .iter()
-                .chain(c.close.findings.iter())
-                .filter(|f| f.severity < crate::findings::Severity::Blocking)
-                .cloned(),
-        )
-        .collect();
+    let shown = shown_findings(&c, &exceptions);
     let names: BTreeMap<crate::model::GroupAccount, String> =
         ds.accounts.iter().map(|a| (a.account.clone(), a.name.clone())).collect();
-    let policies = serde_json::json!({
-        "rounding": ds.settings.policies.rounding,
-        "income_translation": ds.settings.policies.income_translation,
-        "ifric16": ds.settings.policies.ifric16,
-        "significant_influence": ds.settings.policies.significant_influence.to_string(),
-        "intercompany": {
-            "tolerance_absolute": ds.settings.intercompany.tolerance_absolute.to_string(),
-            "tolerance_relative": ds.settings.intercompany.tolerance_relative.to_string(),
-            "timing_window_days": ds.settings.intercompany.timing_window_days,
-            "differences_posted_to": ds.settings.accounts.intercompany_difference.as_str(),
-            "accepted_differences": ds.accepted_differences.len(),
-        },
-        "plausibility": {
-            "rate_move": ds.settings.plausibility.rate_move.to_string(),
-            "sign_months": ds.settings.plausibility.sign_months,
-        },
-    });
+    let policies = applied_policies(ds);
     let scope_label = if c.root == ds.settings.parent { "group".to_string() } else { format!("sub-group {}", c.root) };
     let scope_key = if c.root == ds.settings.parent { "group".to_string() } else { c.root.to_string() };
     let status = if c.draft { "draft" } else { "final" };
@@ -631,16 +603,69 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
         parquet,
     };
     report::close::write_outputs(&dir, &r, &tables)?;
+    write_pack(&c, &r, &dir, &names)?;
+    out.write_all(report::close::render(&r, minor, format).as_bytes())?;
+    Ok(if tied { 0 } else { 1 })
+}
+
+/// The policies a close applied, as `proof.json` records them.
+fn applied_policies(ds: &Dataset) -> serde_json::Value {
+    serde_json::json!({
+        "rounding": ds.settings.policies.rounding,
+        "income_translation": ds.settings.policies.income_translation,
+        "ifric16": ds.settings.policies.ifric16,
+        "significant_influence": ds.settings.policies.significant_influence.to_string(),
+        "intercompany": {
+            "tolerance_absolute": ds.settings.intercompany.tolerance_absolute.to_string(),
+            "tolerance_relative": ds.settings.intercompany.tolerance_relative.to_string(),
+            "timing_window_days": ds.settings.intercompany.timing_window_days,
+            "differences_posted_to": ds.settings.accounts.intercompany_difference.as_str(),
+            "accepted_differences": ds.accepted_differences.len(),
+        },
+        "plausibility": {
+            "rate_move": ds.settings.plausibility.rate_move.to_string(),
+            "sign_months": ds.settings.plausibility.sign_months,
+        },
+    })
+}
+
+/// What a close shows with its figures: the exceptions first, then every warning of the
+/// run.
+fn shown_findings(c: &ClosedPeriod, exceptions: &[crate::findings::Finding]) -> Vec<crate::findings::Finding> {
+    exceptions
+        .iter()
+        .cloned()
+        .chain(
+            c.findings
+                .items()
+                .iter()
+                .chain(c.close.findings.iter())
+                .filter(|f| f.severity < crate::findings::Severity::Blocking)
+                .cloned(),
+        )
+        .collect()
+}
+
+/// The close's workbook and HTML page beside its tables.
+fn write_pack(
+    c: &ClosedPeriod,
+    r: &report::close::CloseReport<'_>,
+    dir: &Path,
+    names: &std::collections::BTreeMap<crate::model::GroupAccount, String>,
+) -> Result<(), Error> {
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let minor = c.translated.minor;
     // The workbook and the page: for the group itself, its intercompany matching and its
     // segments by the default key.
     // Matching is the group's: a sub-group's workbook and page leave it out rather than
     // show pairs outside the sub-group.
-    let matching = if c.root == ds.settings.parent { Some(matching_of(&c)?) } else { None };
+    let matching = if c.root == ds.settings.parent { Some(matching_of(c)?) } else { None };
     let segments = match &ds.settings.segments {
         Some(settings) if c.root == ds.settings.parent => {
             let derived = crate::segments::with_derived_key(&ds.entities, &settings.key);
             let entities = derived.as_deref().unwrap_or(&ds.entities);
-            Some((settings.key.clone(), segment_report(&c, settings, &settings.key, entities)?.0))
+            Some((settings.key.clone(), segment_report(c, settings, &settings.key, entities)?.0))
         }
         _ => None,
     };
@@ -654,11 +679,10 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     let name = |n: &str| if c.draft { format!("draft-{n}") } else { n.to_string() };
     report::write_file(
         &dir.join(name("close.xlsx")),
-        &report::workbook::close_workbook(&r, &names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
+        &report::workbook::close_workbook(r, names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
     )?;
-    report::write_file(&dir.join(name("close.html")), report::html::close_page(&r, &extras, minor).as_bytes())?;
-    out.write_all(report::close::render(&r, minor, format).as_bytes())?;
-    Ok(if tied { 0 } else { 1 })
+    report::write_file(&dir.join(name("close.html")), report::html::close_page(r, &extras, minor).as_bytes())?;
+    Ok(())
 }
 
 /// `tessera segments`: the close's figures by segment, reconciled to the group. Built on
