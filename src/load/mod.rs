@@ -754,35 +754,7 @@ fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
                 .entity(&eid),
             );
         }
-        let currency = match Currency::parse(&ccy) {
-            Some(c) if c.minor_unit_checked().is_some_and(|m| m <= 3) => c,
-            Some(c) => {
-                f.push(
-                    Finding::new(
-                        Rule::CurrencyUnknown,
-                        format!("currency {c} of entity {id} has no ISO 4217 minor unit of 0 to 3 decimals"),
-                        "a functional currency must be a national currency (ISO 4217)",
-                    )
-                    .in_file(&t.file)
-                    .line(line)
-                    .entity(&eid),
-                );
-                continue;
-            }
-            None => {
-                f.push(
-                    Finding::new(
-                        Rule::CurrencyUnknown,
-                        format!("currency {ccy:?} of entity {id} is not an ISO 4217 code"),
-                        "use a three-letter code such as EUR, JPY or BHD",
-                    )
-                    .in_file(&t.file)
-                    .line(line)
-                    .entity(&eid),
-                );
-                continue;
-            }
-        };
+        let Some(currency) = parse_functional_currency(&t, line, &id, &ccy, &eid, f) else { continue };
         let hyper = match t.get("hyperinflationary_from", row) {
             None => None,
             Some(v) => match Period::from_str(&v) {
@@ -808,6 +780,47 @@ fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
         });
     }
     out
+}
+
+/// Parses an entity's functional currency, which must be an ISO 4217 national currency
+/// with a minor unit of 0 to 3 decimals; otherwise a finding on its line and `None`.
+fn parse_functional_currency(
+    t: &TextTable,
+    line: u64,
+    id: &str,
+    ccy: &str,
+    eid: &EntityId,
+    f: &mut Vec<Finding>,
+) -> Option<Currency> {
+    match Currency::parse(ccy) {
+        Some(c) if c.minor_unit_checked().is_some_and(|m| m <= 3) => Some(c),
+        Some(c) => {
+            f.push(
+                Finding::new(
+                    Rule::CurrencyUnknown,
+                    format!("currency {c} of entity {id} has no ISO 4217 minor unit of 0 to 3 decimals"),
+                    "a functional currency must be a national currency (ISO 4217)",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(eid),
+            );
+            None
+        }
+        None => {
+            f.push(
+                Finding::new(
+                    Rule::CurrencyUnknown,
+                    format!("currency {ccy:?} of entity {id} is not an ISO 4217 code"),
+                    "use a three-letter code such as EUR, JPY or BHD",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(eid),
+            );
+            None
+        }
+    }
 }
 
 fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<Holding> {
