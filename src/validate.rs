@@ -353,6 +353,13 @@ fn check_periods(
     scope: Scope,
     f: &mut Vec<Finding>,
 ) -> PolarsResult<()> {
+    check_months_outside_year(ds, scope, f)?;
+    check_duplicate_deliveries(mapped, f)?;
+    check_missing_deliveries(ds, mapped, structure, scope, f)
+}
+
+/// Finds ledger periods outside the fiscal year being closed, one finding per file and period.
+fn check_months_outside_year(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let start = period_index(scope.fiscal_start);
     let end = period_index(scope.fiscal_start.plus_months(11));
     let outside = ds
@@ -382,6 +389,11 @@ fn check_periods(
             .entity(&EntityId::new(s(&outside, "entity", i).unwrap_or_default())),
         );
     }
+    Ok(())
+}
+
+/// Finds an entity's month delivered in more than one file.
+fn check_duplicate_deliveries(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
     // Each entity and period comes from one file, and of one kind.
     let deliveries = mapped
         .lines
@@ -409,6 +421,17 @@ fn check_periods(
             .period(p),
         );
     }
+    Ok(())
+}
+
+/// Finds the months and entities not delivered, blocking where the close needs them.
+fn check_missing_deliveries(
+    ds: &Dataset,
+    mapped: &Mapped,
+    structure: &crate::structure::GroupStructure,
+    scope: Scope,
+    f: &mut Vec<Finding>,
+) -> PolarsResult<()> {
     // Who has not delivered which month yet.
     let have: BTreeSet<(String, i32)> = {
         let d = mapped
@@ -1154,6 +1177,13 @@ fn check_cash_flow_coverage(
 /// debit and credit swapped); a counterparty on an account that is not intercompany
 /// (the pair is then never matched or eliminated).
 fn check_plausibility(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    check_rate_moves(ds, scope, f);
+    check_income_signs(ds, mapped, scope, f)?;
+    check_plain_counterparties(ds, mapped, f)
+}
+
+/// Warns of a closing rate that moves more than `plausibility.rate_move` from the month before.
+fn check_rate_moves(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) {
     let limits = &ds.settings.plausibility;
     // Rates, as presentation-currency units per unit so that quotes compare.
     let mut by_month: BTreeMap<(Currency, Period), &crate::load::MonthlyRate> = BTreeMap::new();
@@ -1192,6 +1222,11 @@ fn check_plausibility(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<F
             );
         }
     }
+}
+
+/// Warns of an entity's monthly income whose sign flips against its earlier months of the year.
+fn check_income_signs(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+    let limits = &ds.settings.plausibility;
     // Income by entity and month: the sign of the months before.
     if limits.sign_months > 0 {
         let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("class")]);
@@ -1239,6 +1274,11 @@ fn check_plausibility(ds: &Dataset, mapped: &Mapped, scope: Scope, f: &mut Vec<F
             before.push(credit);
         }
     }
+    Ok(())
+}
+
+/// Warns of a counterparty named on an account that is neither intercompany nor named by design.
+fn check_plain_counterparties(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
     // A counterparty named on an account that is not intercompany, outside the exchange
     // difference accounts of net investment items and the investments in associates
     // (which name it by design: the investee).

@@ -174,7 +174,6 @@ fn rel(root: &Path, p: &Path) -> String {
 
 /// Reads the data folder. Returns the dataset when the settings, entities and chart
 /// could be read; every problem met on the way is in the findings either way.
-#[allow(clippy::too_many_lines)] // issue 13: to split by step once the branch editing load/ has landed (avoids a conflict)
 pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let _span = tracing::info_span!("load", root = %root.display()).entered();
     let mut f: Vec<Finding> = Vec::new();
@@ -211,143 +210,9 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     f.extend(unknown_files(root, &ent_dir, ENTITY_FILES));
     f.extend(unknown_files(root, &rates_dir, RATE_FILES));
 
-    // Entity folders: deliveries.
     let known: BTreeMap<EntityId, Currency> = entities.iter().map(|e| (e.id.clone(), e.currency)).collect();
-    let mut delivered = BTreeSet::new();
-    let mut mapping_tables = Vec::new();
-    let mut ledger_tables = Vec::new();
-    let mut opening_tables = Vec::new();
-    let mut document_tables = Vec::new();
-    let mut documented = BTreeSet::new();
-    let mut dirs: Vec<PathBuf> = std::fs::read_dir(&ent_dir)
-        .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_dir()).collect())
-        .unwrap_or_default();
-    dirs.sort();
-    // The files of every entity folder are read (and hashed) in parallel up front; the
-    // loop below then takes them in folder and file order, so findings and inputs come
-    // out in the same order as a file-by-file read.
-    let listed: Vec<(PathBuf, Vec<PathBuf>)> = dirs
-        .into_iter()
-        .map(|dir| {
-            let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
-                .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_file()).collect())
-                .unwrap_or_default();
-            files.sort();
-            (dir, files)
-        })
-        .collect();
-    let mut jobs = Vec::new();
-    for (dir, files) in &listed {
-        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
-        if !known.contains_key(&EntityId::new(&name)) {
-            continue;
-        }
-        for file in files {
-            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
-            let spec = if fname == "mapping.csv" {
-                &ledger::MAPPING_SPEC
-            } else if fname == "opening.csv" {
-                &ledger::OPENING_SPEC
-            } else if ledger::delivery_kind(&fname).is_some() {
-                &ledger::LEDGER_SPEC
-            } else if fname == DOCUMENTS_FILE {
-                &documents::DOCUMENT_SPEC
-            } else {
-                continue;
-            };
-            jobs.push((file.clone(), rel(root, file), spec));
-        }
-    }
-    let mut fetched = {
-        let _span = tracing::debug_span!("read_files", files = jobs.len()).entered();
-        prefetch(jobs)
-    };
-    let mut take = |file: &PathBuf, inputs: &mut Vec<InputFile>, f: &mut Vec<Finding>| -> Option<TextTable> {
-        let got = fetched.remove(file)?;
-        if let Some(sha) = got.sha256 {
-            inputs.push(InputFile { file: rel(root, file), sha256: sha });
-        }
-        f.extend(got.findings);
-        got.table
-    };
-    for (dir, files) in listed {
-        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
-        let id = EntityId::new(&name);
-        if !known.contains_key(&id) {
-            if name.starts_with('.') {
-                continue;
-            }
-            // Entity ids are case-sensitive and a folder must be named exactly as its
-            // entity: a near miss is blocking, because the entity's whole delivery would
-            // otherwise be lost without a word.
-            let ids: Vec<&str> = known.keys().map(|e| e.as_str()).collect();
-            let x = match nearest(&name, &ids) {
-                Some(near) => Finding::new(
-                    Rule::EntityFolderUnknown,
-                    format!(
-                        "folder `{name}` is not an entity of entities.csv (the nearest is {near}; entity ids are case-sensitive); its files are not read"
-                    ),
-                    format!("rename the folder to `{near}` exactly as the entity is written in entities.csv"),
-                )
-                .entity(&EntityId::new(near))
-                .severity(Severity::Blocking),
-                None => Finding::new(
-                    Rule::EntityFolderUnknown,
-                    format!("folder `{name}` is not an entity of entities.csv; its files are not read"),
-                    "add the entity to entities/entities.csv or move the folder out of entities/",
-                ),
-            };
-            f.push(x.in_file(rel(root, &dir)));
-            continue;
-        }
-        delivered.insert(id.clone());
-        let mut has_mapping = false;
-        for file in files {
-            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
-            let display = rel(root, &file);
-            let kind = ledger::delivery_kind(&fname);
-            if fname == "mapping.csv" {
-                has_mapping = true;
-                if let Some(t) = take(&file, &mut inputs, &mut f) {
-                    mapping_tables.push((id.clone(), t));
-                }
-            } else if fname == "opening.csv" {
-                if let Some(t) = take(&file, &mut inputs, &mut f) {
-                    opening_tables.push((id.clone(), t));
-                }
-            } else if let Some(kind) = kind {
-                if let Some(t) = take(&file, &mut inputs, &mut f) {
-                    ledger_tables.push((id.clone(), kind, t));
-                }
-            } else if fname == DOCUMENTS_FILE {
-                documented.insert(id.clone());
-                // Document detail is optional: a file that cannot be used is a warning,
-                // never a reason to set the entity's delivery aside.
-                let before = f.len();
-                let read = take(&file, &mut inputs, &mut f);
-                for x in &mut f[before..] {
-                    x.severity = Severity::Warning;
-                }
-                if let Some(t) = read {
-                    document_tables.push((id.clone(), t));
-                }
-            } else if !fname.starts_with('.') {
-                f.push(unknown_entity_file(&fname, &display).entity(&id));
-            }
-        }
-        if !has_mapping {
-            f.push(
-                Finding::new(
-                    Rule::FileMissing,
-                    format!("entity {id} has no mapping.csv, so none of its accounts can be mapped"),
-                    "deliver entities/<entity>/mapping.csv with the entity's local accounts",
-                )
-                .in_file(format!("entities/{name}/mapping.csv"))
-                .entity(&id)
-                .severity(Severity::Blocking),
-            );
-        }
-    }
+    let Deliveries { delivered, documented, mapping_tables, ledger_tables, opening_tables, document_tables } =
+        read_deliveries(root, &ent_dir, &known, &mut f, &mut inputs);
 
     let parse_span = tracing::debug_span!("parse_tables").entered();
     let mappings = ledger::build_mappings(mapping_tables, &mut f);
@@ -399,6 +264,186 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
         }),
         findings,
     )
+}
+
+/// The tables of the entity folders by kind, with the entities that delivered a folder
+/// and those that delivered document detail.
+struct Deliveries {
+    delivered: BTreeSet<EntityId>,
+    documented: BTreeSet<EntityId>,
+    mapping_tables: Vec<(EntityId, TextTable)>,
+    ledger_tables: Vec<(EntityId, &'static str, TextTable)>,
+    opening_tables: Vec<(EntityId, TextTable)>,
+    document_tables: Vec<(EntityId, TextTable)>,
+}
+
+/// Reads every entity folder under `ent_dir` into its tables, with a finding for a folder
+/// of no known entity, a file tessera does not read and a missing mapping.
+fn read_deliveries(
+    root: &Path,
+    ent_dir: &Path,
+    known: &BTreeMap<EntityId, Currency>,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Deliveries {
+    let mut d = Deliveries {
+        delivered: BTreeSet::new(),
+        documented: BTreeSet::new(),
+        mapping_tables: Vec::new(),
+        ledger_tables: Vec::new(),
+        opening_tables: Vec::new(),
+        document_tables: Vec::new(),
+    };
+    let listed = list_entity_folders(ent_dir);
+    let jobs = plan_reads(root, &listed, known);
+    // The files of every entity folder are read (and hashed) in parallel up front; the
+    // loop below then takes them in folder and file order, so findings and inputs come
+    // out in the same order as a file-by-file read.
+    let mut fetched = {
+        let _span = tracing::debug_span!("read_files", files = jobs.len()).entered();
+        prefetch(jobs)
+    };
+    let mut take = |file: &PathBuf, inputs: &mut Vec<InputFile>, f: &mut Vec<Finding>| -> Option<TextTable> {
+        let got = fetched.remove(file)?;
+        if let Some(sha) = got.sha256 {
+            inputs.push(InputFile { file: rel(root, file), sha256: sha });
+        }
+        f.extend(got.findings);
+        got.table
+    };
+    for (dir, files) in listed {
+        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+        let id = EntityId::new(&name);
+        if !known.contains_key(&id) {
+            if name.starts_with('.') {
+                continue;
+            }
+            f.push(unknown_folder_finding(&name, known).in_file(rel(root, &dir)));
+            continue;
+        }
+        d.delivered.insert(id.clone());
+        let mut has_mapping = false;
+        for file in files {
+            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+            let display = rel(root, &file);
+            let kind = ledger::delivery_kind(&fname);
+            if fname == "mapping.csv" {
+                has_mapping = true;
+                if let Some(t) = take(&file, inputs, f) {
+                    d.mapping_tables.push((id.clone(), t));
+                }
+            } else if fname == "opening.csv" {
+                if let Some(t) = take(&file, inputs, f) {
+                    d.opening_tables.push((id.clone(), t));
+                }
+            } else if let Some(kind) = kind {
+                if let Some(t) = take(&file, inputs, f) {
+                    d.ledger_tables.push((id.clone(), kind, t));
+                }
+            } else if fname == DOCUMENTS_FILE {
+                d.documented.insert(id.clone());
+                // Document detail is optional: a file that cannot be used is a warning,
+                // never a reason to set the entity's delivery aside.
+                let before = f.len();
+                let read = take(&file, inputs, f);
+                for x in &mut f[before..] {
+                    x.severity = Severity::Warning;
+                }
+                if let Some(t) = read {
+                    d.document_tables.push((id.clone(), t));
+                }
+            } else if !fname.starts_with('.') {
+                f.push(unknown_entity_file(&fname, &display).entity(&id));
+            }
+        }
+        if !has_mapping {
+            f.push(
+                Finding::new(
+                    Rule::FileMissing,
+                    format!("entity {id} has no mapping.csv, so none of its accounts can be mapped"),
+                    "deliver entities/<entity>/mapping.csv with the entity's local accounts",
+                )
+                .in_file(format!("entities/{name}/mapping.csv"))
+                .entity(&id)
+                .severity(Severity::Blocking),
+            );
+        }
+    }
+    d
+}
+
+/// Lists the folders under `ent_dir` with their files, both sorted by name.
+fn list_entity_folders(ent_dir: &Path) -> Vec<(PathBuf, Vec<PathBuf>)> {
+    let mut dirs: Vec<PathBuf> = std::fs::read_dir(ent_dir)
+        .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_dir()).collect())
+        .unwrap_or_default();
+    dirs.sort();
+    dirs.into_iter()
+        .map(|dir| {
+            let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
+                .map(|rd| rd.filter_map(|e| e.ok()).map(|e| e.path()).filter(|p| p.is_file()).collect())
+                .unwrap_or_default();
+            files.sort();
+            (dir, files)
+        })
+        .collect()
+}
+
+/// Plans the reads of the entity folders: each file of a known entity that tessera
+/// reads, with its display name and the table spec it is read by.
+fn plan_reads(
+    root: &Path,
+    listed: &[(PathBuf, Vec<PathBuf>)],
+    known: &BTreeMap<EntityId, Currency>,
+) -> Vec<(PathBuf, String, &'static Spec<'static>)> {
+    let mut jobs = Vec::new();
+    for (dir, files) in listed {
+        let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+        if !known.contains_key(&EntityId::new(&name)) {
+            continue;
+        }
+        for file in files {
+            let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
+            let spec = if fname == "mapping.csv" {
+                &ledger::MAPPING_SPEC
+            } else if fname == "opening.csv" {
+                &ledger::OPENING_SPEC
+            } else if ledger::delivery_kind(&fname).is_some() {
+                &ledger::LEDGER_SPEC
+            } else if fname == DOCUMENTS_FILE {
+                &documents::DOCUMENT_SPEC
+            } else {
+                continue;
+            };
+            jobs.push((file.clone(), rel(root, file), spec));
+        }
+    }
+    jobs
+}
+
+/// Builds the finding for an entity folder `name` of no entity in `known`, naming the
+/// nearest entity id when there is one.
+fn unknown_folder_finding(name: &str, known: &BTreeMap<EntityId, Currency>) -> Finding {
+    // Entity ids are case-sensitive and a folder must be named exactly as its
+    // entity: a near miss is blocking, because the entity's whole delivery would
+    // otherwise be lost without a word.
+    let ids: Vec<&str> = known.keys().map(|e| e.as_str()).collect();
+    match nearest(name, &ids) {
+        Some(near) => Finding::new(
+            Rule::EntityFolderUnknown,
+            format!(
+                "folder `{name}` is not an entity of entities.csv (the nearest is {near}; entity ids are case-sensitive); its files are not read"
+            ),
+            format!("rename the folder to `{near}` exactly as the entity is written in entities.csv"),
+        )
+        .entity(&EntityId::new(near))
+        .severity(Severity::Blocking),
+        None => Finding::new(
+            Rule::EntityFolderUnknown,
+            format!("folder `{name}` is not an entity of entities.csv; its files are not read"),
+            "add the entity to entities/entities.csv or move the folder out of entities/",
+        ),
+    }
 }
 
 /// The files tessera reads directly under `entities/` (besides the entity folders).
@@ -762,35 +807,7 @@ fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
                 .entity(&eid),
             );
         }
-        let currency = match Currency::parse(&ccy) {
-            Some(c) if c.minor_unit_checked().is_some_and(|m| m <= 3) => c,
-            Some(c) => {
-                f.push(
-                    Finding::new(
-                        Rule::CurrencyUnknown,
-                        format!("currency {c} of entity {id} has no ISO 4217 minor unit of 0 to 3 decimals"),
-                        "a functional currency must be a national currency (ISO 4217)",
-                    )
-                    .in_file(&t.file)
-                    .line(line)
-                    .entity(&eid),
-                );
-                continue;
-            }
-            None => {
-                f.push(
-                    Finding::new(
-                        Rule::CurrencyUnknown,
-                        format!("currency {ccy:?} of entity {id} is not an ISO 4217 code"),
-                        "use a three-letter code such as EUR, JPY or BHD",
-                    )
-                    .in_file(&t.file)
-                    .line(line)
-                    .entity(&eid),
-                );
-                continue;
-            }
-        };
+        let Some(currency) = parse_functional_currency(&t, line, &id, &ccy, &eid, f) else { continue };
         let hyper = match t.get("hyperinflationary_from", row) {
             None => None,
             Some(v) => match Period::from_str(&v) {
@@ -816,6 +833,47 @@ fn load_entities(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
         });
     }
     out
+}
+
+/// Parses an entity's functional currency, which must be an ISO 4217 national currency
+/// with a minor unit of 0 to 3 decimals; otherwise a finding on its line and `None`.
+fn parse_functional_currency(
+    t: &TextTable,
+    line: u64,
+    id: &str,
+    ccy: &str,
+    eid: &EntityId,
+    f: &mut Vec<Finding>,
+) -> Option<Currency> {
+    match Currency::parse(ccy) {
+        Some(c) if c.minor_unit_checked().is_some_and(|m| m <= 3) => Some(c),
+        Some(c) => {
+            f.push(
+                Finding::new(
+                    Rule::CurrencyUnknown,
+                    format!("currency {c} of entity {id} has no ISO 4217 minor unit of 0 to 3 decimals"),
+                    "a functional currency must be a national currency (ISO 4217)",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(eid),
+            );
+            None
+        }
+        None => {
+            f.push(
+                Finding::new(
+                    Rule::CurrencyUnknown,
+                    format!("currency {ccy:?} of entity {id} is not an ISO 4217 code"),
+                    "use a three-letter code such as EUR, JPY or BHD",
+                )
+                .in_file(&t.file)
+                .line(line)
+                .entity(eid),
+            );
+            None
+        }
+    }
 }
 
 fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<Holding> {

@@ -166,22 +166,8 @@ fn parse_segments(
 
 /// Parses and validates the settings text. Returns `None` when any required setting is
 /// missing or wrong; every problem is in `findings`.
-#[allow(clippy::too_many_lines)] // issue 13: to split by step once the branch editing load/ has landed (avoids a conflict)
 pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Settings> {
-    let raw: RawSettings = match toml::from_str(text) {
-        Ok(r) => r,
-        Err(e) => {
-            findings.push(
-                Finding::new(
-                    Rule::SettingInvalid,
-                    format!("the settings file does not parse: {}", e.message()),
-                    "fix the TOML syntax or the key named; docs/formats.md shows a complete example",
-                )
-                .in_file(file),
-            );
-            return None;
-        }
-    };
+    let raw = read_raw(text, file, findings)?;
     let before = findings.len();
     let mut bad = |key: &str, msg: String, action: &str| {
         findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
@@ -224,6 +210,55 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             bad("fiscal_year_start", "missing".into(), "set fiscal_year_start = 1 for a calendar year");
             None
         }
+    };
+    let policies = parse_policies(&raw, file, findings);
+    let accounts = parse_role_accounts(&raw, file, findings);
+    let intercompany = parse_intercompany(&raw, file, findings);
+    let plausibility = parse_plausibility(&raw.plausibility, file, findings);
+    let segments = raw.segments.as_ref().map(|t| parse_segments(t, file, findings));
+    if findings.len() > before {
+        return None;
+    }
+    let (Some(parent), Some(presentation_currency), Some(fiscal_year_start)) = (parent, currency, fys) else {
+        return None;
+    };
+    Some(Settings {
+        name,
+        parent,
+        presentation_currency,
+        fiscal_year_start,
+        policies: policies?,
+        accounts: accounts?,
+        intercompany: intercompany?,
+        plausibility: plausibility?,
+        segments: segments.flatten(),
+    })
+}
+
+/// Reads the settings text as TOML into its raw keys; a syntax error or an unknown key
+/// is a finding and `None`.
+fn read_raw(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<RawSettings> {
+    match toml::from_str(text) {
+        Ok(r) => Some(r),
+        Err(e) => {
+            findings.push(
+                Finding::new(
+                    Rule::SettingInvalid,
+                    format!("the settings file does not parse: {}", e.message()),
+                    "fix the TOML syntax or the key named; docs/formats.md shows a complete example",
+                )
+                .in_file(file),
+            );
+            None
+        }
+    }
+}
+
+/// Parses the `[policies]` table: rounding, income translation, the IFRIC 16 method and
+/// the significant-influence threshold, reporting every key that is unknown or wrong.
+fn parse_policies(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) -> Option<Policies> {
+    let mut bad = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
     };
     for k in raw.policies.keys() {
         if !POLICY_KEYS.contains(&k.as_str()) {
@@ -283,6 +318,20 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             }
         },
     };
+    Some(Policies {
+        rounding: rounding?,
+        income_translation: income?,
+        ifric16: ifric16?,
+        significant_influence: significant_influence?,
+    })
+}
+
+/// Parses the `[accounts]` table: the group account of every role, the required ones
+/// reported when missing.
+fn parse_role_accounts(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) -> Option<RoleAccounts> {
+    let mut bad = |key: &str, msg: String, action: &str| {
+        findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
+    };
     for k in raw.accounts.keys() {
         if !ROLE_KEYS.contains(&k.as_str()) {
             bad(
@@ -309,12 +358,34 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
         role("equity_result"),
         role("intercompany_difference"),
     );
-    let mut bad2 = |key: &str, msg: String, action: &str| {
+    let (Some(re), Some(tr), Some(td), Some(nci), Some(gw), Some(ei), Some(er), Some(icd)) = roles else {
+        return None;
+    };
+    Some(RoleAccounts {
+        retained_earnings: re,
+        translation_reserve: tr,
+        translation_difference: td,
+        non_controlling_interest: nci,
+        goodwill: gw,
+        equity_investments: ei,
+        equity_result: er,
+        intercompany_difference: icd,
+        inventory: raw.accounts.get("inventory").map(|a| GroupAccount::new(a.trim())),
+        cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
+        goodwill_impairment: raw.accounts.get("goodwill_impairment").map(|a| GroupAccount::new(a.trim())),
+        bargain_purchase_gain: raw.accounts.get("bargain_purchase_gain").map(|a| GroupAccount::new(a.trim())),
+    })
+}
+
+/// Parses the `[intercompany]` table: the matching tolerances, the timing window and how
+/// a timing difference is posted.
+fn parse_intercompany(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) -> Option<IntercompanySettings> {
+    let mut bad = |key: &str, msg: String, action: &str| {
         findings.push(Finding::new(Rule::SettingInvalid, format!("`{key}`: {msg}"), action).in_file(file));
     };
     for k in raw.intercompany.keys() {
         if !IC_KEYS.contains(&k.as_str()) {
-            bad2(
+            bad(
                 &format!("intercompany.{k}"),
                 "unknown setting".into(),
                 &format!("known settings: {}", IC_KEYS.join(", ")),
@@ -327,12 +398,12 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
     match raw.intercompany.get("timing") {
         None => {}
         Some(toml::Value::String(s)) if s == "difference" => {}
-        Some(toml::Value::String(s)) if s == "in_transit" => bad2(
+        Some(toml::Value::String(s)) if s == "in_transit" => bad(
             "intercompany.timing",
             "posting timing differences as in-transit items is not supported yet; the close posts them to the intercompany difference account".into(),
             "set timing = \"difference\" (or leave it out) until the close supports in-transit items",
         ),
-        Some(v) => bad2("intercompany.timing", format!("{v} is not a known policy"), "write timing = \"difference\""),
+        Some(v) => bad("intercompany.timing", format!("{v} is not a known policy"), "write timing = \"difference\""),
     }
     let mut dec = |k: &str| -> Option<Decimal> {
         match raw.intercompany.get(k) {
@@ -340,7 +411,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             Some(toml::Value::String(s)) => match Decimal::from_str(s.trim()) {
                 Ok(d) if d >= Decimal::ZERO => Some(d),
                 _ => {
-                    bad2(
+                    bad(
                         &format!("intercompany.{k}"),
                         format!("{s:?} is not a non-negative decimal"),
                         "write it as a quoted decimal, e.g. \"50.00\"",
@@ -349,7 +420,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
                 }
             },
             Some(v) => {
-                bad2(
+                bad(
                     &format!("intercompany.{k}"),
                     format!("{v} is not a quoted decimal"),
                     "quote decimals so they stay exact, e.g. \"50.00\"",
@@ -364,7 +435,7 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
         None => Some(5),
         Some(toml::Value::Integer(n)) if (0..=366).contains(n) => Some(*n as u32),
         Some(v) => {
-            bad2(
+            bad(
                 "intercompany.timing_window_days",
                 format!("{v} is not a number of days 0..366"),
                 "write a whole number",
@@ -372,49 +443,10 @@ pub fn parse(text: &str, file: &str, findings: &mut Vec<Finding>) -> Option<Sett
             None
         }
     };
-    let plausibility = parse_plausibility(&raw.plausibility, file, findings);
-    let segments = raw.segments.as_ref().map(|t| parse_segments(t, file, findings));
-    if findings.len() > before {
-        return None;
-    }
-    let (Some(parent), Some(presentation_currency), Some(fiscal_year_start)) = (parent, currency, fys) else {
-        return None;
-    };
-    let (Some(rounding), Some(income_translation), Some(ifric16), Some(significant_influence)) =
-        (rounding, income, ifric16, significant_influence)
-    else {
-        return None;
-    };
-    let (Some(re), Some(tr), Some(td), Some(nci), Some(gw), Some(ei), Some(er), Some(icd)) = roles else {
-        return None;
-    };
-    Some(Settings {
-        name,
-        parent,
-        presentation_currency,
-        fiscal_year_start,
-        policies: Policies { rounding, income_translation, ifric16, significant_influence },
-        accounts: RoleAccounts {
-            retained_earnings: re,
-            translation_reserve: tr,
-            translation_difference: td,
-            non_controlling_interest: nci,
-            goodwill: gw,
-            equity_investments: ei,
-            equity_result: er,
-            intercompany_difference: icd,
-            inventory: raw.accounts.get("inventory").map(|a| GroupAccount::new(a.trim())),
-            cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
-            goodwill_impairment: raw.accounts.get("goodwill_impairment").map(|a| GroupAccount::new(a.trim())),
-            bargain_purchase_gain: raw.accounts.get("bargain_purchase_gain").map(|a| GroupAccount::new(a.trim())),
-        },
-        intercompany: IntercompanySettings {
-            tolerance_absolute: tol_abs?,
-            tolerance_relative: tol_rel?,
-            timing_window_days: window?,
-        },
-        plausibility: plausibility?,
-        segments: segments.flatten(),
+    Some(IntercompanySettings {
+        tolerance_absolute: tol_abs?,
+        tolerance_relative: tol_rel?,
+        timing_window_days: window?,
     })
 }
 

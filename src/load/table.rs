@@ -176,92 +176,19 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
             }
         }
         let line = record.position().map(|p| p.line()).unwrap_or(line);
-        let mut fields: Vec<String> = Vec::with_capacity(record.len());
-        for raw in record.iter() {
-            match std::str::from_utf8(raw) {
-                Ok(s) => fields.push(s.trim().to_string()),
-                Err(e) => {
-                    let bad = raw.get(e.valid_up_to()).copied().unwrap_or(0);
-                    findings.push(
-                        Finding::new(
-                            Rule::FileUnreadable,
-                            format!(
-                                "line {line} is not UTF-8 text (byte 0x{bad:02X} after {:?}); the file is not read",
-                                String::from_utf8_lossy(&raw[..e.valid_up_to()])
-                            ),
-                            "save the file as UTF-8 (an export in Latin-1 or Windows-1252 must be converted)",
-                        )
-                        .in_file(file)
-                        .line(line),
-                    );
-                    return None;
-                }
-            }
-        }
+        let fields = decode_fields(&record, line, file, findings)?;
         if fields.len() == 1 && fields[0].is_empty() {
             continue; // a blank line holds no row
         }
         let Some(names) = &header else {
-            let mut seen: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
-            let mut ok = true;
-            for (i, n) in fields.iter().enumerate() {
-                if n.is_empty() {
-                    ok = false;
-                    findings.push(
-                        Finding::new(
-                            Rule::ColumnMissing,
-                            format!("column {} of the header has no name", i + 1),
-                            "name every column of the header row (docs/formats.md lists them)",
-                        )
-                        .in_file(file)
-                        .line(line),
-                    );
-                } else if let Some(first) = seen.insert(n.as_str(), i) {
-                    ok = false;
-                    findings.push(
-                        Finding::new(
-                            Rule::ColumnDuplicated,
-                            format!("column `{n}` is named twice in the header (columns {} and {})", first + 1, i + 1),
-                            format!("keep one `{n}` column: tessera cannot tell which one holds the values"),
-                        )
-                        .in_file(file)
-                        .line(line),
-                    );
-                }
-            }
-            if !ok {
+            if !check_header(&fields, line, file, findings) {
                 return None;
             }
             columns = vec![Vec::new(); fields.len()];
             header = Some(fields);
             continue;
         };
-        if fields.first().is_some_and(|f| f.starts_with('#')) {
-            findings.push(
-                Finding::new(
-                    Rule::RowMalformed,
-                    format!("line {line} is a comment line; tessera's tables have none, so the line is not read"),
-                    "remove the line (or put the note in a `note` column where the file has one)",
-                )
-                .in_file(file)
-                .line(line),
-            );
-            continue;
-        }
-        if fields.len() != names.len() {
-            findings.push(
-                Finding::new(
-                    Rule::RowMalformed,
-                    format!(
-                        "line {line} has {} fields, the header has {}; the row is not read",
-                        fields.len(),
-                        names.len()
-                    ),
-                    "give every row exactly the header's columns (a comma inside a value needs double quotes)",
-                )
-                .in_file(file)
-                .line(line),
-            );
+        if !check_row_shape(&fields, names.len(), line, file, findings) {
             continue;
         }
         for (c, v) in columns.iter_mut().zip(fields) {
@@ -289,6 +216,97 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
             None
         }
     }
+}
+
+/// Decodes one CSV record's fields as trimmed UTF-8 text; a field that is not UTF-8 is
+/// a finding on its line and `None`, as the whole file then cannot be trusted.
+fn decode_fields(record: &csv::ByteRecord, line: u64, file: &str, findings: &mut Vec<Finding>) -> Option<Vec<String>> {
+    let mut fields: Vec<String> = Vec::with_capacity(record.len());
+    for raw in record.iter() {
+        match std::str::from_utf8(raw) {
+            Ok(s) => fields.push(s.trim().to_string()),
+            Err(e) => {
+                let bad = raw.get(e.valid_up_to()).copied().unwrap_or(0);
+                findings.push(
+                    Finding::new(
+                        Rule::FileUnreadable,
+                        format!(
+                            "line {line} is not UTF-8 text (byte 0x{bad:02X} after {:?}); the file is not read",
+                            String::from_utf8_lossy(&raw[..e.valid_up_to()])
+                        ),
+                        "save the file as UTF-8 (an export in Latin-1 or Windows-1252 must be converted)",
+                    )
+                    .in_file(file)
+                    .line(line),
+                );
+                return None;
+            }
+        }
+    }
+    Some(fields)
+}
+
+/// Checks the header row names every column once, with a finding on its line for each
+/// column unnamed or named twice; `false` when the file cannot be read by its header.
+fn check_header(fields: &[String], line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
+    let mut seen: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
+    let mut ok = true;
+    for (i, n) in fields.iter().enumerate() {
+        if n.is_empty() {
+            ok = false;
+            findings.push(
+                Finding::new(
+                    Rule::ColumnMissing,
+                    format!("column {} of the header has no name", i + 1),
+                    "name every column of the header row (docs/formats.md lists them)",
+                )
+                .in_file(file)
+                .line(line),
+            );
+        } else if let Some(first) = seen.insert(n.as_str(), i) {
+            ok = false;
+            findings.push(
+                Finding::new(
+                    Rule::ColumnDuplicated,
+                    format!("column `{n}` is named twice in the header (columns {} and {})", first + 1, i + 1),
+                    format!("keep one `{n}` column: tessera cannot tell which one holds the values"),
+                )
+                .in_file(file)
+                .line(line),
+            );
+        }
+    }
+    ok
+}
+
+/// Checks a data row is neither a comment line nor of a width other than the header's
+/// (`width`), with a finding on its line when it is; `false` leaves the row out.
+fn check_row_shape(fields: &[String], width: usize, line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
+    if fields.first().is_some_and(|f| f.starts_with('#')) {
+        findings.push(
+            Finding::new(
+                Rule::RowMalformed,
+                format!("line {line} is a comment line; tessera's tables have none, so the line is not read"),
+                "remove the line (or put the note in a `note` column where the file has one)",
+            )
+            .in_file(file)
+            .line(line),
+        );
+        return false;
+    }
+    if fields.len() != width {
+        findings.push(
+            Finding::new(
+                Rule::RowMalformed,
+                format!("line {line} has {} fields, the header has {}; the row is not read", fields.len(), width),
+                "give every row exactly the header's columns (a comma inside a value needs double quotes)",
+            )
+            .in_file(file)
+            .line(line),
+        );
+        return false;
+    }
+    true
 }
 
 fn read_parquet_text(path: &Path) -> PolarsResult<DataFrame> {
