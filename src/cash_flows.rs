@@ -246,24 +246,7 @@ pub fn cash_flows(
         let d = delta.get(key).copied().unwrap_or_default();
         let p = parts.get(key).copied().unwrap_or_default();
         let k = share.get(e).copied().unwrap_or(Decimal::ONE);
-        let (fx, acq) = if k == Decimal::ONE {
-            // A full contribution is the entity's translated balance: its movement must be
-            // exactly the parts, or this module has missed something.
-            if d != p.translated + p.acquired {
-                problems.push(format!(
-                    "{e} {a}: contribution moved {} but translated movement {} + balance acquired {} = {}",
-                    money::plain(d),
-                    money::plain(p.translated),
-                    money::plain(p.acquired),
-                    money::plain(p.translated + p.acquired)
-                ));
-            }
-            (p.translated - p.flow, p.acquired)
-        } else {
-            // Proportionate (IFRS 11.20): the share of each part, the flow taking the
-            // rounding so that the parts still add up to the contribution's movement.
-            (money::round((p.translated - p.flow) * k, minor, mode), money::round(p.acquired * k, minor, mode))
-        };
+        let (fx, acq) = split_movement(key, d, p, k, (minor, mode), &mut problems);
         let flow = d - fx - acq;
         let def = class.get(a);
         let section = def.map(|x| x.section);
@@ -296,31 +279,18 @@ pub fn cash_flows(
     }
 
     // The elimination journal's movement between the two closes.
-    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired) {
-        let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
-        let own = match treatment {
-            Treatment::Acquisition => Some(ACQUISITIONS),
-            // The profit or loss part stays in profit before tax; the rest of the entry,
-            // which is its non-cash other side, is added back on a line of its own.
-            Treatment::Goodwill | Treatment::EquityMethod if pl => Some(PROFIT_BEFORE_TAX),
-            Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
-            Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
-            Treatment::ByAccount => None,
-        };
-        if let Some(line) = own {
-            add(line, x);
-            continue;
-        }
-        if class.get(&a).is_some_and(|d| d.section == Section::Cash) {
-            problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
-        }
-        route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified);
-    }
-    for (a, x) in &unclassified {
-        if !x.is_zero() {
-            problems.push(format!("{a} moved {} but has no line in cash_flow_lines.csv", money::plain(*x)));
+    for (own, e, a, x) in journal_lines(opening, closing, acquired, &chart, &class, &mut problems) {
+        match own {
+            Some(line) => add(line, x),
+            None => route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified),
         }
     }
+    problems.extend(
+        unclassified
+            .iter()
+            .filter(|(_, x)| !x.is_zero())
+            .map(|(a, x)| format!("{a} moved {} but has no line in cash_flow_lines.csv", money::plain(*x))),
+    );
 
     // The statement: the lines of the classification in file order, the fixed ones
     // where they belong.
@@ -606,6 +576,68 @@ fn contribution_movements(opening: &Close, closing: &Close) -> PolarsResult<BTre
         }
     }
     Ok(out)
+}
+
+/// The fx and acquired parts of a contribution's movement `d` whose translated parts are
+/// `p`, at the entity's share `k`; a full contribution that does not equal its parts is a
+/// problem of this module, named in the proof.
+fn split_movement(
+    key: &Key,
+    d: Decimal,
+    p: Parts,
+    k: Decimal,
+    (minor, mode): (u32, RoundingMode),
+    problems: &mut Vec<String>,
+) -> (Decimal, Decimal) {
+    let (e, a, _) = key;
+    if k == Decimal::ONE {
+        // A full contribution is the entity's translated balance: its movement must be
+        // exactly the parts, or this module has missed something.
+        if d != p.translated + p.acquired {
+            problems.push(format!(
+                "{e} {a}: contribution moved {} but translated movement {} + balance acquired {} = {}",
+                money::plain(d),
+                money::plain(p.translated),
+                money::plain(p.acquired),
+                money::plain(p.translated + p.acquired)
+            ));
+        }
+        (p.translated - p.flow, p.acquired)
+    } else {
+        // Proportionate (IFRS 11.20): the share of each part, the flow taking the
+        // rounding so that the parts still add up to the contribution's movement.
+        (money::round((p.translated - p.flow) * k, minor, mode), money::round(p.acquired * k, minor, mode))
+    }
+}
+
+/// The journal's movements between the closes, each with the fixed line it belongs on
+/// (`None`: the line of its account).
+fn journal_lines(
+    opening: &Close,
+    closing: &Close,
+    acquired: &BTreeSet<EntityId>,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    class: &BTreeMap<&GroupAccount, &LineDef>,
+    problems: &mut Vec<String>,
+) -> Vec<(Option<&'static str>, EntityId, GroupAccount, Decimal)> {
+    let mut out = Vec::new();
+    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired) {
+        let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
+        let own = match treatment {
+            Treatment::Acquisition => Some(ACQUISITIONS),
+            // The profit or loss part stays in profit before tax; the rest of the entry,
+            // which is its non-cash other side, is added back on a line of its own.
+            Treatment::Goodwill | Treatment::EquityMethod if pl => Some(PROFIT_BEFORE_TAX),
+            Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
+            Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
+            Treatment::ByAccount => None,
+        };
+        if own.is_none() && class.get(&a).is_some_and(|d| d.section == Section::Cash) {
+            problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
+        }
+        out.push((own, e, a, x));
+    }
+    out
 }
 
 /// The journal's movement between the closes by treatment, entity and account.
