@@ -638,7 +638,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     let name = |n: &str| if c.draft { format!("draft-{n}") } else { n.to_string() };
     report::write_file(
         &dir.join(name("close.xlsx")),
-        &report::workbook::close_workbook(&r, &names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
+        &report::workbook::close_workbook(&r, &names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor)?,
     )?;
     report::write_file(&dir.join(name("close.html")), report::html::close_page(&r, &extras, minor).as_bytes())?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
