@@ -331,7 +331,7 @@ pub fn parse_tolerance(s: &str) -> Result<Decimal, String> {
 pub fn error_exit_code(e: &Error) -> i32 {
     match e {
         Error::Usage(_) => 2,
-        Error::Io(_) | Error::Polars(_) => 3,
+        Error::Io(_) | Error::Polars(_) | Error::Workbook(_) => 3,
     }
 }
 

@@ -679,7 +679,7 @@ fn write_pack(
     let name = |n: &str| if c.draft { format!("draft-{n}") } else { n.to_string() };
     report::write_file(
         &dir.join(name("close.xlsx")),
-        &report::workbook::close_workbook(r, names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor),
+        &report::workbook::close_workbook(r, names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor)?,
     )?;
     report::write_file(&dir.join(name("close.html")), report::html::close_page(r, &extras, minor).as_bytes())?;
     Ok(())

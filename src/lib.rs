@@ -40,6 +40,8 @@ pub enum Error {
     Io(#[from] std::io::Error),
     #[error("table processing failed: {0}")]
     Polars(#[from] polars::prelude::PolarsError),
+    #[error("cannot write the workbook: {0}")]
+    Workbook(String),
 }
 
 pub use cli::{Cli, run};

@@ -29,7 +29,7 @@ pub fn close_workbook(
     matching: Option<&crate::intercompany::Matching>,
     segments: Option<&crate::segments::SegmentReport>,
     minor: u32,
-) -> Vec<u8> {
+) -> Result<Vec<u8>, crate::Error> {
     let mut sheets = Vec::new();
     for ((key, title), (_, sheet_name)) in TITLES.iter().zip(STATEMENT_SHEETS) {
         if !r.statements.laid_out.contains_key(*key) {
