@@ -518,13 +518,7 @@ fn unknown_files(root: &Path, dir: &Path, expected: &[&str]) -> Vec<Finding> {
         .map(|n| {
             let display = rel(root, &dir.join(&n));
             match nearest(&n, expected) {
-                Some(near) => Finding::new(
-                    Rule::FileUnknown,
-                    format!("file `{n}` is not read; it looks like `{near}`, which tessera reads"),
-                    format!("rename it to `{near}` (names are exact, in lower case)"),
-                )
-                .in_file(display)
-                .severity(Severity::Blocking),
+                Some(near) => misnamed(&n, near, &display),
                 None => Finding::new(
                     Rule::FileUnknown,
                     format!("file `{n}` is no part of the data folder's formats and is not read"),
@@ -535,6 +529,18 @@ fn unknown_files(root: &Path, dir: &Path, expected: &[&str]) -> Vec<Finding> {
             }
         })
         .collect()
+}
+
+/// The finding for a file that is not read but is a near miss of a name tessera reads:
+/// blocking, since what it holds would be lost.
+fn misnamed(name: &str, near: &str, display: &str) -> Finding {
+    Finding::new(
+        Rule::FileUnknown,
+        format!("file `{name}` is not read; it looks like `{near}`, which tessera reads"),
+        format!("rename it to `{near}` (names are exact, in lower case)"),
+    )
+    .in_file(display)
+    .severity(Severity::Blocking)
 }
 
 /// The finding for a file of an entity folder that is not read: a misnamed trial
@@ -571,13 +577,7 @@ fn unknown_entity_file(fname: &str, display: &str) -> Finding {
         .severity(Severity::Blocking);
     }
     match nearest(fname, DELIVERY_FILES) {
-        Some(near) => Finding::new(
-            Rule::FileUnknown,
-            format!("file `{fname}` is not read; it looks like `{near}`, which tessera reads"),
-            format!("rename it to `{near}` (names are exact, in lower case)"),
-        )
-        .in_file(display)
-        .severity(Severity::Blocking),
+        Some(near) => misnamed(fname, near, display),
         None => Finding::new(
             Rule::FileUnknown,
             format!("file `{fname}` is not part of an entity delivery and is not read"),
