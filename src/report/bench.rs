@@ -6,6 +6,27 @@ use std::path::Path;
 use crate::bench::Results;
 use crate::stages::StageRecord;
 
+/// The accepted-differences file (docs/formats.md) accepting every pair a `match` JSON
+/// report shows open, at the difference it reports, for a generated group.
+pub fn acceptances(matching: &serde_json::Value) -> String {
+    let mut out = super::CsvOut::new(&["entity", "counterparty", "kind", "period", "amount", "reason", "accepted_by"]);
+    let period = matching["period"].as_str().unwrap_or_default();
+    let pairs = matching["pairs"].as_array().map(Vec::as_slice).unwrap_or_default();
+    for p in pairs.iter().filter(|p| p["status"] == "open") {
+        let text = |k: &str| p[k].as_str().unwrap_or_default().to_string();
+        out.row(&[
+            text("entity"),
+            text("counterparty"),
+            text("kind"),
+            period.to_string(),
+            text("difference"),
+            "open difference planted by the generator".to_string(),
+            "tessera bench".to_string(),
+        ]);
+    }
+    out.finish()
+}
+
 pub fn write_stages(path: &Path, records: &[StageRecord]) -> std::io::Result<()> {
     super::write_file(path, super::to_json(&records).as_bytes())
 }

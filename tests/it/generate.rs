@@ -74,17 +74,7 @@ fn generated_group_closes_tied_and_parquet_gives_the_same_close() {
         let (code, before) = run_json(f.path(), &["close", "--out", out.to_str().expect("utf-8")]);
         assert_eq!(code, 1, "the open pairs must block: {before:#}");
         let (_, m) = run_json(f.path(), &["match"]);
-        let mut accepted = String::from("entity,counterparty,kind,period,amount,reason,accepted_by\n");
-        for p in m["pairs"].as_array().expect("pairs").iter().filter(|p| p["status"] == "open") {
-            accepted.push_str(&format!(
-                "{},{},{},{},{},generated open difference,test\n",
-                p["entity"].as_str().unwrap_or_default(),
-                p["counterparty"].as_str().unwrap_or_default(),
-                p["kind"].as_str().unwrap_or_default(),
-                m["period"].as_str().unwrap_or_default(),
-                p["difference"].as_str().unwrap_or_default()
-            ));
-        }
+        let accepted = tessera::report::bench::acceptances(&m);
         f.write("entities/accepted_differences.csv", &accepted);
         let (code, v) = run_json(f.path(), &["close", "--out", out.to_str().expect("utf-8")]);
         assert_eq!(code, 0, "parquet {parquet}: {:#}", v["proof"]);
