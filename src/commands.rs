@@ -84,11 +84,35 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
             scope.period,
             scope.fiscal_start,
         )?);
+        // The close's intercompany gate: an open difference that is not accepted blocks
+        // the close, so check lists it too (when nothing else stops the translation).
+        if !findings.has_blocking() {
+            let translated = crate::translate::translate(&c.ds, &c.mapped, scope.fiscal_start, scope.period)?;
+            let gate = intercompany_gate(&c.ds, &translated, &c.structure, scope, &findings)?;
+            findings.extend(gate.findings);
+        }
         findings.sort();
     }
     let period = loaded.as_ref().map(|c| c.scope.period);
     out.write_all(report::findings::render_check(&findings, period, format).as_bytes())?;
     Ok(exit_code(&findings))
+}
+
+/// The intercompany gate of a close: matching on the translated deliveries, and which
+/// open differences are accepted (their reasons) or block (their findings).
+fn intercompany_gate(
+    ds: &Dataset,
+    translated: &crate::translate::Translated,
+    structure: &crate::structure::GroupStructure,
+    scope: crate::validate::Scope,
+    findings: &Findings,
+) -> Result<crate::intercompany::Gate, Error> {
+    let _span = tracing::info_span!("intercompany_gate").entered();
+    let deliveries = crate::intercompany::Deliveries::assess(ds, findings, scope)?;
+    let mut options = crate::intercompany::Options::from_settings(&ds.settings.intercompany);
+    options.consolidated = Some(consolidated(structure));
+    let m = crate::intercompany::match_intercompany(ds, translated, scope, &deliveries, &options)?;
+    Ok(crate::intercompany::gate(&m, &ds.accepted_differences, scope.period))
 }
 
 /// Refuses to go on past blocking findings: prints them and returns the exit code.
@@ -383,14 +407,7 @@ pub fn run_close(
     // The intercompany gate: the close posts every pair's difference, so an open one
     // must be accepted (with its reason, which the elimination entry then carries).
     let mut findings = findings;
-    let gate = {
-        let _span = tracing::info_span!("intercompany_gate").entered();
-        let deliveries = crate::intercompany::Deliveries::assess(ds, &findings, scope)?;
-        let mut options = crate::intercompany::Options::from_settings(&ds.settings.intercompany);
-        options.consolidated = Some(consolidated(structure));
-        let m = crate::intercompany::match_intercompany(ds, &translated, scope, &deliveries, &options)?;
-        crate::intercompany::gate(&m, &ds.accepted_differences, scope.period)
-    };
+    let gate = intercompany_gate(ds, &translated, structure, scope, &findings)?;
     for e in close.journal.iter_mut().filter(|e| e.rule == crate::close::EliminationRule::Intercompany) {
         if let [a, b] = e.entities.as_slice()
             && let Some((_, text)) = gate.accepted.iter().find(|((x, y, kind), _)| {

@@ -427,7 +427,7 @@ fn cases() -> Vec<Case> {
             name: "a closing rate shifted by a factor of 100",
             mutate: |f| f.replace("rates/monthly.csv", "2026-12,USD,1.1035,", "2026-12,USD,110.35,"),
             rule: Some("RateMoveImplausible"),
-            code: 0,
+            code: 1,
         },
         // --- amounts ----------------------------------------------------------------
         Case {
@@ -525,7 +525,7 @@ fn cases() -> Vec<Case> {
             name: "a month delivered with debit and credit swapped",
             mutate: |f| flip_signs(f, UK_DEC),
             rule: Some("SignsFlipped"),
-            code: 0,
+            code: 1,
         },
         Case {
             name: "a period outside the fiscal year",

@@ -494,6 +494,7 @@ proptest! {
         ]);
         prop_assert_eq!(code, 0, "{}", text);
         classify_generated(f.path());
+        crate::generate::accept_planted(f.path());
         let (code, v) = run_json(f.path(), &["check"]);
         prop_assert_eq!(code, 0, "{:#}", v["findings"]);
         for p in ["2026-01", "2026-02", "2026-03", "2026-04"] {
