@@ -88,7 +88,7 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
         // the close, so check lists it too (when nothing else stops the translation).
         if !findings.has_blocking() {
             let translated = crate::translate::translate(&c.ds, &c.mapped, scope.fiscal_start, scope.period)?;
-            let gate = intercompany_gate(&c.ds, &translated, &c.structure, scope, &findings)?;
+            let (gate, _) = intercompany_gate(&c.ds, &translated, &c.structure, scope, &findings)?;
             findings.extend(gate.findings);
         }
         findings.sort();
@@ -106,13 +106,13 @@ fn intercompany_gate(
     structure: &crate::structure::GroupStructure,
     scope: crate::validate::Scope,
     findings: &Findings,
-) -> Result<crate::intercompany::Gate, Error> {
+) -> Result<(crate::intercompany::Gate, crate::intercompany::Matching), Error> {
     let _span = tracing::info_span!("intercompany_gate").entered();
     let deliveries = crate::intercompany::Deliveries::assess(ds, findings, scope)?;
     let mut options = crate::intercompany::Options::from_settings(&ds.settings.intercompany);
     options.consolidated = Some(consolidated(structure));
     let m = crate::intercompany::match_intercompany(ds, translated, scope, &deliveries, &options)?;
-    Ok(crate::intercompany::gate(&m, &ds.accepted_differences, scope.period))
+    Ok((crate::intercompany::gate(&m, &ds.accepted_differences, scope.period), m))
 }
 
 /// Refuses to go on past blocking findings: prints them and returns the exit code.
@@ -314,6 +314,9 @@ pub struct ClosedPeriod {
     pub draft: bool,
     /// In a draft, the entities whose figures were left out, and why.
     pub set_aside: std::collections::BTreeMap<crate::model::EntityId, crate::intercompany::Absence>,
+    /// The intercompany matching the close's gate ran on (what `match` reports and the
+    /// close posts), shown again in the workbook and the page.
+    pub matching: crate::intercompany::Matching,
 }
 
 /// [`run_close`] for a command: when findings stop the close they are written to `out`
@@ -407,7 +410,7 @@ pub fn run_close(
     // The intercompany gate: the close posts every pair's difference, so an open one
     // must be accepted (with its reason, which the elimination entry then carries).
     let mut findings = findings;
-    let gate = intercompany_gate(ds, &translated, structure, scope, &findings)?;
+    let (gate, matching) = intercompany_gate(ds, &translated, structure, scope, &findings)?;
     for e in close.journal.iter_mut().filter(|e| e.rule == crate::close::EliminationRule::Intercompany) {
         if let [a, b] = e.entities.as_slice()
             && let Some((_, text)) = gate.accepted.iter().find(|((x, y, kind), _)| {
@@ -432,7 +435,19 @@ pub fn run_close(
         let _span = tracing::info_span!("prove_close").entered();
         crate::close::prove(&close)?
     });
-    Ok(Ok(ClosedPeriod { checked, translated, sub_group, close, base, checks, root, findings, draft, set_aside }))
+    Ok(Ok(ClosedPeriod {
+        checked,
+        translated,
+        sub_group,
+        close,
+        base,
+        checks,
+        root,
+        findings,
+        draft,
+        set_aside,
+        matching,
+    }))
 }
 
 /// The entities a close consolidates line by line (in full or proportionately).
@@ -677,7 +692,7 @@ fn write_pack(
     // segments by the default key.
     // Matching is the group's: a sub-group's workbook and page leave it out rather than
     // show pairs outside the sub-group.
-    let matching = if c.root == ds.settings.parent { Some(matching_of(c)?) } else { None };
+    let matching = (c.root == ds.settings.parent).then_some(&c.matching);
     let segments = match &ds.settings.segments {
         Some(settings) if c.root == ds.settings.parent => {
             let derived = crate::segments::with_derived_key(&ds.entities, &settings.key);
@@ -691,12 +706,12 @@ fn write_pack(
     let extras = report::html::Extras {
         segments: segments.as_ref().map(|(k, rep)| (k.as_str(), rep.segments.as_slice())),
         causes: report::html::causes(&c.translated.explanations, scope.fiscal_start, scope.period, &consolidated),
-        statuses: matching.as_ref().map(report::intercompany::status_counts),
+        statuses: matching.map(report::intercompany::status_counts),
     };
     let name = |n: &str| if c.draft { format!("draft-{n}") } else { n.to_string() };
     report::write_file(
         &dir.join(name("close.xlsx")),
-        &report::workbook::close_workbook(r, names, matching.as_ref(), segments.as_ref().map(|(_, rep)| rep), minor)?,
+        &report::workbook::close_workbook(r, names, matching, segments.as_ref().map(|(_, rep)| rep), minor)?,
     )?;
     report::write_file(&dir.join(name("close.html")), report::html::close_page(r, &extras, minor).as_bytes())?;
     Ok(())
@@ -942,17 +957,6 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     out.write_all(report::intercompany::render(&matching, &findings, format).as_bytes())?;
     let tied = crate::proof::tied(&matching.proof);
     Ok(if !tied || (ask.fail_on_open && matching.has_open()) { 1 } else { 0 })
-}
-
-/// The group's intercompany matching at a closed period, on the close's own
-/// translation (every delivery is complete, or the close would have stopped).
-fn matching_of(c: &ClosedPeriod) -> Result<crate::intercompany::Matching, Error> {
-    use crate::intercompany::{self, Deliveries, Options};
-    let ds = &c.checked.ds;
-    let scope = c.checked.scope;
-    let deliveries = Deliveries::assess(ds, &Findings::default(), scope)?;
-    let options = Options::from_settings(&ds.settings.intercompany);
-    Ok(intercompany::match_intercompany(ds, &c.translated, scope, &deliveries, &options)?)
 }
 
 /// Writes a synthetic group: the plan is drawn once, then each entity is drawn and
