@@ -129,6 +129,10 @@ pub enum Command {
         /// every output is marked draft and lists the exceptions (exit code 1).
         #[arg(long)]
         draft: bool,
+        /// Compare with `budget`, `forecast-NAME` (a folder under plans/) or
+        /// `prior-year`: variance columns, the currency effect and the profit walk.
+        #[arg(long, value_parser = crate::compare::Source::parse)]
+        compare: Option<crate::compare::Source>,
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
@@ -356,7 +360,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
             };
             crate::commands::match_intercompany(data, &ask, format, out)
         }
-        Command::Close { period, view, entity, out_dir, parquet, draft, format } => {
+        Command::Close { period, view, entity, out_dir, parquet, draft, compare, format } => {
             let out_dir = under_data(data, &out_dir);
             crate::commands::close(
                 data,
@@ -367,6 +371,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
                     draft,
                     out_dir: &out_dir,
                     parquet,
+                    compare,
                 },
                 format,
                 out,

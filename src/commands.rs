@@ -529,14 +529,23 @@ pub struct CloseRequest<'a> {
     pub out_dir: &'a Path,
     /// Parquet twins of the CSV tables, only when asked.
     pub parquet: bool,
+    /// What to compare the close with (`--compare`), if anything.
+    pub compare: Option<crate::compare::Source>,
 }
 
 pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let CloseRequest { period, view, entity, draft, out_dir, parquet } = ask;
+    let CloseRequest { period, view, entity, draft, out_dir, parquet, compare } = ask;
     let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
+    };
+    let (comparison, compare_findings) = match &compare {
+        Some(source) => match compare_close(&c, source, format, out)? {
+            Ok((x, f)) => (Some(x), f),
+            Err(code) => return Ok(code),
+        },
+        None => (None, Vec::new()),
     };
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
@@ -576,7 +585,8 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     let cash_flows = cash_flow_statement(&c, opening, &mut checks)?;
     let exceptions = exceptions(&c);
     let tied = crate::proof::tied(&checks) && exceptions.is_empty();
-    let shown = shown_findings(&c, &exceptions);
+    let mut shown = shown_findings(&c, &exceptions);
+    shown.extend(compare_findings);
     let names: BTreeMap<crate::model::GroupAccount, String> =
         ds.accounts.iter().map(|a| (a.account.clone(), a.name.clone())).collect();
     let policies = applied_policies(ds);
@@ -605,6 +615,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
             laid_out: out_statements,
             changes_in_equity: report::close::equity_changes_out(&equity_changes),
             cash_flows,
+            comparison,
         },
         attribution: report::close::Attribution {
             profit: figures.attribution.profit,
@@ -638,6 +649,58 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     write_pack(&c, &r, &dir, &names)?;
     out.write_all(report::close::render(&r, minor, format).as_bytes())?;
     Ok(if tied { 0 } else { 1 })
+}
+
+/// The comparison of a close (`--compare`): the comparison's close beside the actual
+/// one, with the warnings of its inputs; when its findings block, they are written to
+/// `out` and the exit code (at least 1) comes back as `Err`.
+fn compare_close(
+    c: &ClosedPeriod,
+    source: &crate::compare::Source,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<Result<(crate::compare::Comparison, Vec<crate::findings::Finding>), i32>, Error> {
+    use crate::compare::{Actuals, Source};
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let mut f = Vec::new();
+    let compared = match source {
+        Source::PriorYear => {
+            f.extend(crate::compare::prior_year_findings(ds, scope.fiscal_start));
+            None
+        }
+        Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {
+            None => None,
+            Some(plan) => {
+                let a = Actuals {
+                    ds,
+                    mapped: &c.checked.mapped,
+                    structure: c.structure(),
+                    fiscal_start: scope.fiscal_start,
+                    period: scope.period,
+                    base_period: c.base.as_ref().map(|b| b.period),
+                };
+                let (x, more) = crate::compare::compare_plan(&a, &plan)?;
+                f.extend(more);
+                x.map(|x| (x, plan.inputs))
+            }
+        },
+    };
+    let mut findings = Findings::default();
+    findings.extend(f.clone());
+    findings.sort();
+    match compared {
+        Some((x, inputs)) if !findings.has_blocking() => {
+            let mut cmp = crate::compare::comparison(ds, &c.checked.statements, (&c.close, c.base.as_ref()), &x)?;
+            cmp.inputs = inputs;
+            Ok(Ok((cmp, f)))
+        }
+        _ => {
+            let code =
+                stop_on_findings(&findings, out, Some(scope.period), format)?.unwrap_or_else(|| exit_code(&findings));
+            Ok(Err(code.max(1)))
+        }
+    }
 }
 
 /// The policies a close applied, as `proof.json` records them.

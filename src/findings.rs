@@ -130,6 +130,8 @@ pub enum Rule {
     SegmentsExternalRevenueShort,
     /// An account that moves has no line in cash_flow_lines.csv (IAS 7).
     CashFlowLineMissing,
+    /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
+    ComparisonUnavailable,
 }
 
 impl Rule {

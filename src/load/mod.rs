@@ -9,6 +9,7 @@ pub mod daily;
 mod documents;
 mod ledger;
 pub mod machine;
+pub mod plans;
 mod settings;
 pub mod table;
 
