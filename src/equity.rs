@@ -405,6 +405,7 @@ mod tests {
                 line("NCI", LineBody::Accounts(vec![GroupAccount::new("3900")])),
                 line("TOT", LineBody::Total(vec![("OWN".into(), 1), ("NCI".into(), 1)])),
             ],
+            ratios: Vec::new(),
         };
         let ids = |c: &[Component]| c.iter().map(|k| k.id.clone()).collect::<Vec<_>>();
         assert_eq!(ids(&components(&[layout], &chart)), ["OWN", "NCI"]);

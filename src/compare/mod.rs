@@ -236,9 +236,11 @@ fn balancing_rows(ledger: &DataFrame) -> PolarsResult<DataFrame> {
     DataFrame::new(n, cols)
 }
 
-/// The rows of `df` (ledger columns) as (entity, period, account, file, line), for
-/// findings.
-fn located(df: &DataFrame) -> PolarsResult<Vec<(String, String, String, String, u64)>> {
+/// A plan row's place: entity, period, account, file, line.
+type RowAt = (String, String, String, String, u64);
+
+/// The rows of `df` (ledger columns) as [`RowAt`], for findings.
+fn located(df: &DataFrame) -> PolarsResult<Vec<RowAt>> {
     let s = |c: &str| crate::money::column_strings(df, c);
     let (e, p, acc, file) = (s("entity")?, s("period")?, s("account")?, s("file")?);
     let line = df.column("line")?.strict_cast(&DataType::UInt64)?;
@@ -252,7 +254,7 @@ fn located(df: &DataFrame) -> PolarsResult<Vec<(String, String, String, String, 
 }
 
 /// A finding located on a plan row.
-fn on_row(rule: Rule, row: &(String, String, String, String, u64), message: String, action: &str) -> Finding {
+fn on_row(rule: Rule, row: &RowAt, message: String, action: &str) -> Finding {
     let (e, p, acc, file, line) = row;
     let mut x = Finding::new(rule, message, action).in_file(file).line(*line).entity(&EntityId::new(e)).account(acc);
     if let Ok(p) = p.parse::<Period>() {
@@ -387,6 +389,8 @@ pub struct Comparison {
     /// The compared statements' lines by statement (income statement and OCI: a plan
     /// has no balance sheet of its own).
     pub statements: BTreeMap<String, Vec<walk::LineComparison>>,
+    /// The compared statements' ratio lines, in percent.
+    pub ratios: BTreeMap<String, Vec<walk::RatioComparison>>,
     pub walks: Vec<walk::Walk>,
     pub currency_effect: Vec<walk::CurrencyRow>,
     /// The comparison's input files and their SHA-256.
@@ -424,8 +428,12 @@ pub fn comparison(
         figures(&c.at_rates, c.at_rates_base.as_ref()),
     );
     let mut out_statements = BTreeMap::new();
+    let mut ratios = BTreeMap::new();
     for st in statements.iter().filter(|s| s.statement == "profit_or_loss" || s.statement == "oci") {
         out_statements.insert(st.statement.clone(), walk::compare_statement(st, &fa.flows, &fc.flows, &fr.flows, true));
+        if !st.ratios.is_empty() {
+            ratios.insert(st.statement.clone(), walk::compare_ratios(st, &fa.flows, &fc.flows, &fr.flows));
+        }
     }
     let parts_a = walk::Parts::of(actual.0, actual.1)?;
     let parts_c = walk::Parts::of(&c.close, c.base.as_ref())?;
@@ -438,6 +446,7 @@ pub fn comparison(
     Ok(Comparison {
         comparison: c.name.clone(),
         statements: out_statements,
+        ratios,
         walks,
         currency_effect,
         inputs: Vec::new(),

@@ -372,3 +372,59 @@ pub fn compare_statement(
         })
         .collect()
 }
+
+/// A ratio line beside its comparison, in percent; each `None` where a denominator is
+/// zero.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct RatioComparison {
+    pub line: String,
+    pub label: String,
+    pub actual: Option<Decimal>,
+    pub comparison: Option<Decimal>,
+    /// `actual - comparison`, in percentage points.
+    pub variance_points: Option<Decimal>,
+    /// A ratio whose numerator is shown credit positive (a margin) is favourable when it
+    /// rises, one shown debit positive (a cost ratio) when it falls (common practice).
+    pub direction: Option<&'static str>,
+    pub at_comparison_rates: Option<Decimal>,
+    /// `actual - at_comparison_rates`, in percentage points.
+    pub currency_effect_points: Option<Decimal>,
+}
+
+/// The ratio lines of `st` (see [`compare_statement`] for the amounts).
+pub fn compare_ratios(
+    st: &ResolvedStatement,
+    actual: &Amounts,
+    comparison: &Amounts,
+    at_rates: &Amounts,
+) -> Vec<RatioComparison> {
+    let (a, c, r) = (st.evaluate_ratios(actual), st.evaluate_ratios(comparison), st.evaluate_ratios(at_rates));
+    let diff = |x: Option<Decimal>, y: Option<Decimal>| Some(x? - y?);
+    st.ratios
+        .iter()
+        .zip(a.into_iter().zip(c).zip(r))
+        .map(|(l, (((_, a), (_, c)), (_, r)))| {
+            let rising_is_good = st
+                .lines
+                .iter()
+                .find(|x| x.line == l.numerator)
+                .is_some_and(|x| x.presentation == crate::layout::Presentation::CreditPositive);
+            let variance_points = diff(a, c);
+            let direction = variance_points.and_then(|v| match (v.cmp(&Decimal::ZERO), rising_is_good) {
+                (std::cmp::Ordering::Equal, _) => None,
+                (std::cmp::Ordering::Greater, true) | (std::cmp::Ordering::Less, false) => Some("favourable"),
+                _ => Some("unfavourable"),
+            });
+            RatioComparison {
+                line: l.line.clone(),
+                label: l.label.clone(),
+                actual: a,
+                comparison: c,
+                variance_points,
+                direction,
+                at_comparison_rates: r,
+                currency_effect_points: diff(a, r),
+            }
+        })
+        .collect()
+}

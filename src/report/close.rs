@@ -36,6 +36,17 @@ pub struct StatementLine {
 pub struct StatementOut {
     pub statement: String,
     pub lines: Vec<StatementLine>,
+    /// The layout's ratio lines, in percent (`None` when the denominator is zero).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub ratios: Vec<RatioOut>,
+}
+
+/// One ratio line of a statement, in percent.
+#[derive(Debug, Clone, Serialize)]
+pub struct RatioOut {
+    pub line: String,
+    pub label: String,
+    pub percent: Option<Decimal>,
 }
 
 /// Lays a statement out from account amounts (debit positive).
@@ -53,7 +64,13 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
             debit_positive: l.presentation == crate::layout::Presentation::DebitPositive,
         })
         .collect();
-    StatementOut { statement: st.statement.clone(), lines }
+    let ratios = st
+        .ratios
+        .iter()
+        .zip(st.evaluate_ratios(amounts))
+        .map(|(r, (_, percent))| RatioOut { line: r.line.clone(), label: r.label.clone(), percent })
+        .collect();
+    StatementOut { statement: st.statement.clone(), lines, ratios }
 }
 
 /// The statement of changes in equity as output: columns by component, rows by
@@ -265,6 +282,10 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
         out.push('\n');
         out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true]));
+        for x in &r.statements.laid_out[key].ratios {
+            let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+            out.push_str(&format!("{:<width$}   {p:>amounts$}\n", x.label));
+        }
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
     if let Some(cf) = &r.statements.cash_flows {

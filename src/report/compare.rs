@@ -54,6 +54,20 @@ pub fn table(c: &Comparison, currency: &str, minor: u32) -> String {
                 ]
             })
             .collect();
+        let mut rows = rows;
+        for r in c.ratios.get(key).map(Vec::as_slice).unwrap_or_default() {
+            let pct = |p: Option<Decimal>| p.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+            let pts = |p: Option<Decimal>| p.map(|p| format!("{p:.1} pt")).unwrap_or_default();
+            rows.push(vec![
+                r.label.clone(),
+                pct(r.actual),
+                pct(r.comparison),
+                pts(r.variance_points),
+                String::new(),
+                direction(r.direction).to_string(),
+                pts(r.currency_effect_points),
+            ]);
+        }
         out.push('\n');
         out.push_str(&super::text_table(
             &[
@@ -106,7 +120,8 @@ pub fn statement_cells(l: Option<&LineComparison>) -> Vec<String> {
     }
 }
 
-/// `comparison.csv`, `walk.csv` and `currency_effect.csv`, named through `name` (a
+/// `comparison.csv`, `comparison_ratios.csv` (with ratio lines), `walk.csv` and
+/// `currency_effect.csv`, named through `name` (a
 /// draft's files say so).
 pub fn write_files(dir: &Path, c: &Comparison, name: &dyn Fn(&str) -> String) -> Result<(), crate::Error> {
     let mut lines = CsvOut::new(&[
@@ -140,6 +155,9 @@ pub fn write_files(dir: &Path, c: &Comparison, name: &dyn Fn(&str) -> String) ->
         }
     }
     write_file(&dir.join(name("comparison.csv")), lines.finish().as_bytes())?;
+    if !c.ratios.is_empty() {
+        write_file(&dir.join(name("comparison_ratios.csv")), ratios_csv(c).as_bytes())?;
+    }
     let mut walk = CsvOut::new(&["comparison", "measure", "label", "step", "item", "amount"]);
     for w in &c.walks {
         let row = |step: &str, item: &str, v: Decimal| {
@@ -166,4 +184,38 @@ pub fn write_files(dir: &Path, c: &Comparison, name: &dyn Fn(&str) -> String) ->
     }
     write_file(&dir.join(name("currency_effect.csv")), fx.finish().as_bytes())?;
     Ok(())
+}
+
+/// `comparison_ratios.csv`: the ratio lines beside the comparison, in percent.
+fn ratios_csv(c: &Comparison) -> String {
+    let mut ratios = CsvOut::new(&[
+        "comparison",
+        "statement",
+        "line",
+        "label",
+        "actual_percent",
+        "compared_percent",
+        "variance_points",
+        "direction",
+        "at_comparison_rates_percent",
+        "currency_effect_points",
+    ]);
+    let p = |x: Option<Decimal>| x.map(plain).unwrap_or_default();
+    for (st, rs) in &c.ratios {
+        for r in rs {
+            ratios.row(&[
+                c.comparison.clone(),
+                st.clone(),
+                r.line.clone(),
+                r.label.clone(),
+                p(r.actual),
+                p(r.comparison),
+                p(r.variance_points),
+                r.direction.unwrap_or_default().to_string(),
+                p(r.at_comparison_rates),
+                p(r.currency_effect_points),
+            ]);
+        }
+    }
+    ratios.finish()
 }

@@ -125,7 +125,10 @@ fn currency_effect_and_walk_on_two_entities_by_hand() {
     let f = Folder::empty();
     f.write("entities/group.toml", &settings("EUR", "E0", "half_away_from_zero", "periodic"));
     f.write("entities/accounts.csv", CHART);
-    f.write("entities/layouts.csv", LAYOUT);
+    f.write(
+        "entities/layouts.csv",
+        &format!("{LAYOUT}profit_or_loss,MARGIN,Profit margin,,PROFIT / REV,credit_positive\n"),
+    );
     f.write("entities/entities.csv", "entity,name,country,currency\nE0,E0 NV,NL,EUR\nE1,E1 Inc,US,USD\n");
     f.write("entities/holdings.csv", "owner,owned,capital_share,voting_share,valid_from\nE0,E1,1.00,1.00,2020-01-01\n");
     f.write(
@@ -197,6 +200,17 @@ fn currency_effect_and_walk_on_two_entities_by_hand() {
     assert_eq!(rev["direction"], "favourable");
     assert_eq!(d(&rev["currency_effect"]), Decimal::new(-10000, 2));
     let exp = cmp["statements"]["profit_or_loss"].as_array().unwrap().iter().find(|l| l["line"] == "EXP").unwrap();
+    // The ratio line: profit over revenue, 1,100.00 / 1,500.00 = 73.3% actual, 1,050.00 /
+    // 1,450.00 = 72.4% planned (72.41...), 1,160.00 / 1,600.00 = 72.5% at the plan's
+    // rates: +0.9 points, favourable, of which currency 0.8 points.
+    let m = &cmp["ratios"]["profit_or_loss"][0];
+    assert_eq!(m["line"], "MARGIN");
+    assert_eq!((d(&m["actual"]), d(&m["comparison"])), (Decimal::new(733, 1), Decimal::new(724, 1)));
+    assert_eq!((d(&m["variance_points"]), d(&m["currency_effect_points"])), (Decimal::new(9, 1), Decimal::new(8, 1)));
+    assert_eq!(m["direction"], "favourable");
+    let pl = &v["statements"]["profit_or_loss"];
+    assert_eq!(pl["ratios"][0]["line"], "MARGIN");
+    assert_eq!(d(&pl["ratios"][0]["percent"]), Decimal::new(733, 1));
     // Expenses 400.00 actual against 400.00 planned: no variance, no direction.
     assert_eq!(d(&exp["variance"]), Decimal::ZERO);
     assert_eq!(exp["direction"], Value::Null);
@@ -274,4 +288,30 @@ proptest! {
         prop_assert_eq!(code, 0, "{:#}", v);
         assert_walks_add_up(&v);
     }
+}
+
+#[test]
+fn a_ratio_line_divides_lines_above_it_and_no_total_adds_it() {
+    let f = Folder::demo();
+    // A ratio of a line below it, and a total that adds a ratio.
+    f.replace(
+        "entities/layouts.csv",
+        "profit_or_loss,GM,Gross margin,,GP / REV,",
+        "profit_or_loss,GM,Gross margin,,GP / XYZ,",
+    );
+    f.append("entities/layouts.csv", "profit_or_loss,BAD,Not a total,,PROFIT GM OM,credit_positive");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-12"]);
+    assert_eq!(code, 1, "{v:#}");
+    let messages: Vec<&str> = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|x| x["rule"] == "LayoutInvalid")
+        .map(|x| x["message"].as_str().unwrap())
+        .collect();
+    assert!(
+        messages.iter().any(|m| m.contains("ratio line GM of profit_or_loss: XYZ is not an amount line above it")),
+        "{messages:?}"
+    );
+    assert!(messages.iter().any(|m| m.contains("line BAD totals OM, a ratio line of profit_or_loss")), "{messages:?}");
 }
