@@ -155,6 +155,10 @@ pub enum Command {
         /// folder (relative to the data folder).
         #[arg(long = "out")]
         out_dir: Option<PathBuf>,
+        /// Compare with `budget`, `forecast-NAME` or `prior-year`: each segment's
+        /// revenue and results beside the comparison, with the currency effect.
+        #[arg(long, value_parser = crate::compare::Source::parse)]
+        compare: Option<crate::compare::Source>,
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
@@ -377,9 +381,10 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
                 out,
             )
         }
-        Command::Segments { period, view, by, out_dir, format } => {
+        Command::Segments { period, view, by, out_dir, compare, format } => {
             let out_dir = out_dir.map(|d| under_data(data, &d));
-            crate::commands::segments(data, period, view, by, out_dir.as_deref(), format, out)
+            let ask = crate::commands::SegmentsRequest { period, view, by, out_dir: out_dir.as_deref(), compare };
+            crate::commands::segments(data, ask, format, out)
         }
         Command::Trace { account, period, entity, format } => crate::commands::trace(
             data,

@@ -651,20 +651,22 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     Ok(if tied { 0 } else { 1 })
 }
 
-/// The comparison of a close (`--compare`): the comparison's close beside the actual
-/// one, with the warnings of its inputs; when its findings block, they are written to
-/// `out` and the exit code (at least 1) comes back as `Err`.
-fn compare_close(
+/// A close's comparison closed (`--compare`), with the comparison's input files and the
+/// warnings of its inputs; when its findings block, they are written to `out` and the
+/// exit code (at least 1) comes back as `Err`.
+type ComparedClose = (crate::compare::Compared, Vec<crate::load::InputFile>, Vec<crate::findings::Finding>);
+
+fn compared(
     c: &ClosedPeriod,
     source: &crate::compare::Source,
     format: Format,
     out: &mut dyn Write,
-) -> Result<Result<(crate::compare::Comparison, Vec<crate::findings::Finding>), i32>, Error> {
+) -> Result<Result<ComparedClose, i32>, Error> {
     use crate::compare::{Actuals, Source};
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
     let mut f = Vec::new();
-    let compared = match source {
+    let closed = match source {
         Source::PriorYear => {
             f.extend(crate::compare::prior_year_findings(ds, scope.fiscal_start));
             None
@@ -689,18 +691,32 @@ fn compare_close(
     let mut findings = Findings::default();
     findings.extend(f.clone());
     findings.sort();
-    match compared {
-        Some((x, inputs)) if !findings.has_blocking() => {
-            let mut cmp = crate::compare::comparison(ds, &c.checked.statements, (&c.close, c.base.as_ref()), &x)?;
-            cmp.inputs = inputs;
-            Ok(Ok((cmp, f)))
-        }
+    match closed {
+        Some((x, inputs)) if !findings.has_blocking() => Ok(Ok((x, inputs, f))),
         _ => {
             let code =
                 stop_on_findings(&findings, out, Some(scope.period), format)?.unwrap_or_else(|| exit_code(&findings));
             Ok(Err(code.max(1)))
         }
     }
+}
+
+/// The comparison a close shows (`--compare`), or the exit code when it cannot be made.
+fn compare_close(
+    c: &ClosedPeriod,
+    source: &crate::compare::Source,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<Result<(crate::compare::Comparison, Vec<crate::findings::Finding>), i32>, Error> {
+    Ok(match compared(c, source, format, out)? {
+        Ok((x, inputs, f)) => {
+            let mut cmp =
+                crate::compare::comparison(&c.checked.ds, &c.checked.statements, (&c.close, c.base.as_ref()), &x)?;
+            cmp.inputs = inputs;
+            Ok((cmp, f))
+        }
+        Err(code) => Err(code),
+    })
 }
 
 /// The policies a close applied, as `proof.json` records them.
@@ -783,15 +799,18 @@ fn write_pack(
 /// `tessera segments`: the close's figures by segment, reconciled to the group. Built on
 /// `run_close` and its elimination journal; exit 1 when the proof fails or a finding
 /// blocks.
-pub fn segments(
-    data: &Path,
-    period: Option<Period>,
-    view: crate::cli::View,
-    by: Option<String>,
-    out_dir: Option<&Path>,
-    format: Format,
-    out: &mut dyn Write,
-) -> Result<i32, Error> {
+/// What `tessera segments` was asked for.
+pub struct SegmentsRequest<'a> {
+    pub period: Option<Period>,
+    pub view: crate::cli::View,
+    pub by: Option<String>,
+    pub out_dir: Option<&'a Path>,
+    /// What to compare the segments with (`--compare`), if anything.
+    pub compare: Option<crate::compare::Source>,
+}
+
+pub fn segments(data: &Path, ask: SegmentsRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
+    let SegmentsRequest { period, view, by, out_dir, compare } = ask;
     let c = match run_close_or_stop(data, period, view, None, false, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -824,6 +843,18 @@ pub fn segments(
         )));
     }
     let (rep, mut findings) = segment_report(&c, settings, &key, entities)?;
+    let comparison = match &compare {
+        Some(source) => match compared(&c, source, format, out)? {
+            Ok((x, _, f)) => {
+                findings.extend(f);
+                let (cr, _) = segment_report_of(&c, (&x.close, x.base.as_ref()), settings, &key, entities)?;
+                let (rr, _) = segment_report_of(&c, (&x.at_rates, x.at_rates_base.as_ref()), settings, &key, entities)?;
+                Some((x.name.clone(), crate::compare::walk::compare_segments(&rep, &cr, &rr)))
+            }
+            Err(code) => return Ok(code),
+        },
+        None => None,
+    };
     let mut checks = c.checks.clone();
     checks.extend(rep.checks.iter().cloned());
     findings.extend(rep.findings.iter().cloned());
@@ -837,6 +868,7 @@ pub fn segments(
         view: view.as_str(),
         scope: scope_label,
         report: &rep,
+        comparison: comparison.as_ref().map(|(name, rows)| report::segments::ComparisonOut { comparison: name, rows }),
         findings: &findings,
         proof: report::segments::SegmentsProof {
             tied,
@@ -864,8 +896,21 @@ fn segment_report(
     key: &str,
     entities: &[crate::model::Entity],
 ) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
+    segment_report_of(c, (&c.close, c.base.as_ref()), settings, key, entities)
+}
+
+/// [`segment_report`] of another close of the same period and scope (a comparison's):
+/// `closes` is the close and its base.
+fn segment_report_of(
+    c: &ClosedPeriod,
+    closes: (&crate::close::Close, Option<&crate::close::Close>),
+    settings: &crate::model::SegmentSettings,
+    key: &str,
+    entities: &[crate::model::Entity],
+) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
     use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
     use std::collections::BTreeMap;
+    let (close, base) = closes;
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
     let mut findings = Vec::new();
@@ -874,15 +919,15 @@ fn segment_report(
     let m = Membership::build(key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
     let country: BTreeMap<crate::model::EntityId, String> =
         ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
-    let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
-    let base = match &c.base {
+    let ytd = attribute(&contribution_rows(close)?, &close.journal, &m, &country);
+    let base_attr = match base {
         Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
         None => None,
     };
     let chart = crate::close::view::Chart::new(&ds.accounts);
     let is_flow = |a: &crate::model::GroupAccount| chart.is_flow(a);
-    let attr = ytd.view(base.as_ref(), &is_flow);
-    let group = crate::close::view::flows_of_view(&c.close.group, c.base.as_ref().map(|b| &b.group), &is_flow);
+    let attr = ytd.view(base_attr.as_ref(), &is_flow);
+    let group = crate::close::view::flows_of_view(&close.group, base.map(|b| &b.group), &is_flow);
     let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
     let rep = crate::segments::report(
         &measures,

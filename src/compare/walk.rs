@@ -428,3 +428,70 @@ pub fn compare_ratios(
         })
         .collect()
 }
+
+/// One figure of a segment (or the group) beside its comparison.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct SegmentComparison {
+    /// The segment, or `group` for the group's figure.
+    pub segment: String,
+    /// The segment report's line (`revenue`, `revenue_external`, `profit`, ...).
+    pub line: String,
+    pub actual: Decimal,
+    pub comparison: Decimal,
+    pub variance: Decimal,
+    pub variance_percent: Option<Decimal>,
+    /// Flow figures are shown credit positive in the segment report, so more is
+    /// favourable.
+    pub direction: Option<&'static str>,
+    pub at_comparison_rates: Decimal,
+    pub currency_effect: Decimal,
+}
+
+/// Every flow figure (not segment assets or liabilities: a plan has no balance sheet)
+/// of every segment and of the group, in the actual report, the comparison's and the
+/// actual one at the comparison's rates, all by the same key.
+pub fn compare_segments(
+    actual: &crate::segments::SegmentReport,
+    comparison: &crate::segments::SegmentReport,
+    at_rates: &crate::segments::SegmentReport,
+) -> Vec<SegmentComparison> {
+    let value = |r: &crate::segments::SegmentReport, segment: &str, line: &str| {
+        if segment == "group" {
+            return r.reconciliation.iter().find(|l| l.line == line).map(|l| l.group).unwrap_or_default();
+        }
+        r.segments.iter().find(|s| s.segment == segment).and_then(|s| s.values.get(line)).copied().unwrap_or_default()
+    };
+    let mut segments: Vec<String> = actual.segments.iter().map(|s| s.segment.clone()).collect();
+    for s in &comparison.segments {
+        if !segments.contains(&s.segment) {
+            segments.push(s.segment.clone());
+        }
+    }
+    segments.push("group".into());
+    let lines: Vec<&str> =
+        actual.lines.iter().map(|l| l.line.as_str()).filter(|l| !matches!(*l, "assets" | "liabilities")).collect();
+    let mut out = Vec::new();
+    for s in &segments {
+        for l in &lines {
+            let (a, c, r) = (value(actual, s, l), value(comparison, s, l), value(at_rates, s, l));
+            let variance = a - c;
+            let direction = match variance.cmp(&Decimal::ZERO) {
+                std::cmp::Ordering::Greater => Some("favourable"),
+                std::cmp::Ordering::Less => Some("unfavourable"),
+                std::cmp::Ordering::Equal => None,
+            };
+            out.push(SegmentComparison {
+                segment: s.clone(),
+                line: l.to_string(),
+                actual: a,
+                comparison: c,
+                variance,
+                variance_percent: variance_percent(variance, c),
+                direction,
+                at_comparison_rates: r,
+                currency_effect: a - r,
+            });
+        }
+    }
+    out
+}

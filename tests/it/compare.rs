@@ -315,3 +315,27 @@ fn a_ratio_line_divides_lines_above_it_and_no_total_adds_it() {
     );
     assert!(messages.iter().any(|m| m.contains("line BAD totals OM, a ratio line of profit_or_loss")), "{messages:?}");
 }
+
+#[test]
+fn segments_compare_ties_to_the_close_compare() {
+    let f = Folder::demo();
+    let (code, seg) = run_json(f.path(), &["segments", "--period", "2026-12", "--compare", "budget"]);
+    assert_eq!(code, 0, "{seg:#}");
+    let (_, close) = close_json(&f, "2026-12", "budget");
+    let rows = seg["comparison"]["rows"].as_array().unwrap_or_else(|| panic!("{seg:#}"));
+    let group = |line: &str| rows.iter().find(|r| r["segment"] == "group" && r["line"] == line).unwrap();
+    let pl = close["statements"]["comparison"]["statements"]["profit_or_loss"].as_array().unwrap();
+    // The segment report's revenue is the layout line REV and its profit OP ([segments]).
+    for (seg_line, pl_line) in [("revenue", "REV"), ("profit", "OP")] {
+        let l = pl.iter().find(|l| l["line"] == pl_line).unwrap();
+        for field in ["actual", "comparison", "variance", "currency_effect"] {
+            assert_eq!(d(&group(seg_line)[field]), d(&l[field]), "{seg_line} {field}");
+        }
+    }
+    // A segment's variance is its actual less the comparison, its currency effect the
+    // actual less the actual at the budget rates.
+    for r in rows {
+        assert_eq!(d(&r["variance"]), d(&r["actual"]) - d(&r["comparison"]));
+        assert_eq!(d(&r["currency_effect"]), d(&r["actual"]) - d(&r["at_comparison_rates"]));
+    }
+}
