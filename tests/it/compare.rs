@@ -15,8 +15,11 @@ fn d(v: &Value) -> Decimal {
     v.as_str().unwrap_or_else(|| panic!("not a decimal string: {v}")).parse().expect("decimal")
 }
 
-/// The walks of a close's JSON by measure: (comparison, steps, actual).
-fn walks(v: &Value) -> BTreeMap<String, (Decimal, Vec<(String, String, Decimal)>, Decimal)> {
+/// A walk as read from JSON: comparison, steps (step, item, amount), actual.
+type WalkRead = (Decimal, Vec<(String, String, Decimal)>, Decimal);
+
+/// The walks of a close's JSON by measure.
+fn walks(v: &Value) -> BTreeMap<String, WalkRead> {
     v["statements"]["comparison"]["walks"]
         .as_array()
         .unwrap_or_else(|| panic!("no walks: {v:#}"))
