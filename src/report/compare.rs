@@ -219,3 +219,120 @@ fn ratios_csv(c: &Comparison) -> String {
     }
     ratios.finish()
 }
+
+/// The workbook's sheets of a comparison: the statements beside it (ratio lines in
+/// percent) and the walks.
+pub fn sheets(c: &Comparison) -> Vec<super::xlsx::Sheet> {
+    use super::xlsx::{Cell, Sheet};
+    let opt = |x: Option<Decimal>| x.map(Cell::Number).unwrap_or(Cell::Empty);
+    let mut s = Sheet::new(&format!("Against {}", c.comparison).chars().take(31).collect::<String>());
+    s.header(&[
+        "statement",
+        "line",
+        "actual",
+        &c.comparison,
+        "variance",
+        "variance %",
+        "F/U",
+        "at comparison rates",
+        "currency effect",
+    ]);
+    for (st, lines) in &c.statements {
+        for l in lines {
+            s.row(vec![
+                Cell::Text(st.clone()),
+                Cell::Text(l.label.clone()),
+                Cell::Amount(l.actual),
+                Cell::Amount(l.comparison),
+                Cell::Amount(l.variance),
+                opt(l.variance_percent),
+                Cell::Text(direction(l.direction).into()),
+                Cell::Amount(l.at_comparison_rates),
+                Cell::Amount(l.currency_effect),
+            ]);
+        }
+        for r in c.ratios.get(st).map(Vec::as_slice).unwrap_or_default() {
+            s.row(vec![
+                Cell::Text(st.clone()),
+                Cell::Text(format!("{} (%; variance in points)", r.label)),
+                opt(r.actual),
+                opt(r.comparison),
+                opt(r.variance_points),
+                Cell::Empty,
+                Cell::Text(direction(r.direction).into()),
+                opt(r.at_comparison_rates),
+                opt(r.currency_effect_points),
+            ]);
+        }
+    }
+    let mut w = Sheet::new("Walks");
+    w.header(&["walk", "step", "amount"]);
+    for x in &c.walks {
+        w.bold_row(vec![Cell::Text(x.label.clone()), Cell::Text(c.comparison.clone()), Cell::Amount(x.comparison)]);
+        for st in &x.steps {
+            w.row(vec![
+                Cell::Text(x.label.clone()),
+                Cell::Text(step_words(st.step, &st.item)),
+                Cell::Amount(st.amount),
+            ]);
+        }
+        w.bold_row(vec![Cell::Text(x.label.clone()), Cell::Text("actual".into()), Cell::Amount(x.actual)]);
+    }
+    vec![s, w]
+}
+
+/// The page's section of a comparison: the statements beside it and the walks.
+pub fn html(c: &Comparison, minor: u32) -> String {
+    use super::html::escape;
+    let name = escape(&c.comparison);
+    let mut h = format!("<section><h2>Against {name}</h2>");
+    for (key, title) in super::close::TITLES {
+        let Some(lines) = c.statements.get(key) else { continue };
+        h.push_str(&format!(
+            r#"<table class="statement" id="compare-{key}"><thead><tr><th>{}</th><th class="amount">actual</th><th class="amount">{name}</th><th class="amount">variance</th><th class="amount">%</th><th>F/U</th><th class="amount">currency effect</th></tr></thead><tbody>"#,
+            escape(title)
+        ));
+        for l in lines {
+            h.push_str(&format!(
+                r#"<tr><td>{}</td><td class="amount">{}</td><td class="amount">{}</td><td class="amount">{}</td><td class="amount">{}</td><td>{}</td><td class="amount">{}</td></tr>"#,
+                escape(&l.label),
+                format_amount(l.actual, minor),
+                format_amount(l.comparison, minor),
+                format_amount(l.variance, minor),
+                percent(l.variance_percent),
+                direction(l.direction),
+                format_amount(l.currency_effect, minor)
+            ));
+        }
+        for r in c.ratios.get(key).map(Vec::as_slice).unwrap_or_default() {
+            let pct = |p: Option<Decimal>| p.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+            let pts = |p: Option<Decimal>| p.map(|p| format!("{p:.1} pt")).unwrap_or_default();
+            h.push_str(&format!(
+                r#"<tr><td>{}</td><td class="amount">{}</td><td class="amount">{}</td><td class="amount">{}</td><td></td><td>{}</td><td class="amount">{}</td></tr>"#,
+                escape(&r.label),
+                pct(r.actual),
+                pct(r.comparison),
+                pts(r.variance_points),
+                direction(r.direction),
+                pts(r.currency_effect_points)
+            ));
+        }
+        h.push_str("</tbody></table>");
+    }
+    for w in &c.walks {
+        h.push_str(&format!(
+            r#"<table class="statement walk"><thead><tr><th>Walk: {}</th><th class="amount"></th></tr></thead><tbody>"#,
+            escape(&w.label)
+        ));
+        for row in walk_rows(w, &c.comparison, minor) {
+            h.push_str(&format!(
+                r#"<tr><td>{}</td><td class="amount">{}</td></tr>"#,
+                escape(row[0].trim()),
+                escape(&row[1])
+            ));
+        }
+        h.push_str("</tbody></table>");
+    }
+    h.push_str("</section>");
+    h
+}
