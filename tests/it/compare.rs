@@ -342,3 +342,17 @@ fn segments_compare_ties_to_the_close_compare() {
         assert_eq!(d(&r["currency_effect"]), d(&r["actual"]) - d(&r["at_comparison_rates"]));
     }
 }
+
+#[test]
+fn walk_adds_up_in_month_and_quarter_views_and_for_a_sub_group() {
+    let f = Folder::demo();
+    let out = f.path().join("out");
+    let out = out.to_str().unwrap();
+    for extra in [&["--view", "month"][..], &["--view", "qtd"], &["--entity", "ALD-US"]] {
+        let mut args = vec!["close", "--period", "2026-09", "--out", out, "--compare", "budget"];
+        args.extend_from_slice(extra);
+        let (code, v) = run_json(f.path(), &args);
+        assert_eq!(code, 0, "{extra:?}: {v:#}");
+        assert_walks_add_up(&v);
+    }
+}
