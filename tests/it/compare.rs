@@ -258,7 +258,8 @@ proptest! {
     /// Random groups of the close oracle with a random plan: some entities unplanned
     /// (scope), the others' revenue and expenses scaled, intercompany sales planned on
     /// both sides, a random plan rate. The walk adds up exactly and ends at the close's
-    /// own profit attributable to the owners.
+    /// own profit attributable to the owners; the planned profit, the actual profit at
+    /// the plan's rates and the currency effect agree with a naive oracle.
     #[test]
     fn walk_adds_up_on_random_groups(
         g in crate::close_oracle::group(),
@@ -290,6 +291,43 @@ proptest! {
         let (code, v) = close_json(&f, "2026-01", "budget");
         prop_assert_eq!(code, 0, "{:#}", v);
         assert_walks_add_up(&v);
+        // A naive oracle of the group's profit, planned and at the plan's rates: each
+        // line translated on its own (IAS 21.39(b), one rounding half away from zero),
+        // intercompany sales cancelling when both sides are there (one currency, so equal
+        // when translated, IFRS 10.B86(c)).
+        let round2 = |x: Decimal| x.round_dp_with_strategy(2, rust_decimal::RoundingStrategy::MidpointAwayFromZero);
+        let at = |x: Decimal, usd: bool, rate: Decimal| if usd { round2(x / rate) } else { x };
+        let (plan_rate, actual_rate) = (Decimal::new(plan_rate, 4), Decimal::new(g.rates.2, 4));
+        let mut planned_profit = Decimal::ZERO;
+        let mut at_plan_rates = Decimal::ZERO;
+        let mut actual = Decimal::ZERO;
+        for (i, e) in g.ents.iter().enumerate() {
+            let (rev, exp) = (Decimal::new(e.revenue, 2), Decimal::new(e.expenses, 2));
+            if planned[i] || i == 0 {
+                let (pr, pe) = ((rev * k).round_dp(2), (exp * k).round_dp(2));
+                planned_profit += at(pr, e.usd, plan_rate) - at(pe, e.usd, plan_rate);
+            }
+            at_plan_rates += at(rev, e.usd, plan_rate) - at(exp, e.usd, plan_rate);
+            actual += at(rev, e.usd, actual_rate) - at(exp, e.usd, actual_rate);
+        }
+        // A sale planned on one side only stays in profit: its elimination leaves the
+        // planned side's line on the intercompany difference account, in profit or loss.
+        let is_planned = |i: usize| i == 0 || planned[i];
+        for &(a, b, _, sales) in &g.ic {
+            let x = at(Decimal::new(sales, 2), g.ents[a].usd, plan_rate);
+            match (is_planned(a), is_planned(b)) {
+                (true, false) => planned_profit += x,
+                (false, true) => planned_profit -= x,
+                _ => {}
+            }
+        }
+        let cmp = &v["statements"]["comparison"];
+        let profit = cmp["statements"]["profit_or_loss"].as_array().unwrap().iter().find(|l| l["line"] == "PROFIT").unwrap();
+        prop_assert_eq!(d(&profit["actual"]), actual);
+        prop_assert_eq!(d(&profit["comparison"]), planned_profit);
+        prop_assert_eq!(d(&profit["at_comparison_rates"]), at_plan_rates);
+        let w = walks(&v);
+        prop_assert_eq!(&w["profit_owners"].1[0], &("currency".to_string(), "group".to_string(), actual - at_plan_rates));
     }
 }
 
