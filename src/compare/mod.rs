@@ -178,15 +178,15 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
         ds.mappings
             .columns()
             .iter()
-            .map(|c| match c.name().as_str() {
-                "entity" => Column::new("entity".into(), planned.clone()),
-                "local_account" | "group_account" => Column::new(c.name().clone(), vec![PLAN_BALANCE; n]),
-                "line" => {
-                    Column::new("line".into(), vec![0u64; n]).strict_cast(c.dtype()).unwrap_or_else(|_| c.clone())
-                }
-                _ => Column::full_null(c.name().clone(), n, c.dtype()),
+            .map(|c| {
+                Ok(match c.name().as_str() {
+                    "entity" => Column::new("entity".into(), planned.clone()),
+                    "local_account" | "group_account" => Column::new(c.name().clone(), vec![PLAN_BALANCE; n]),
+                    "line" => Column::new("line".into(), vec![0u64; n]).strict_cast(c.dtype())?,
+                    _ => Column::full_null(c.name().clone(), n, c.dtype()),
+                })
             })
-            .collect(),
+            .collect::<PolarsResult<Vec<_>>>()?,
     )?;
     out.mappings = concat([ds.mappings.clone().lazy(), mapping_rows.lazy()], UnionArgs::default())?.collect()?;
     out.accounts.push(AccountDef {
@@ -333,9 +333,9 @@ fn scope_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
         .collect()
 }
 
-/// Every currency of an entity in the close needs a plan rate for every month of the
-/// year to the period end: the plan and the actuals at constant currency are
-/// translated at them.
+/// Every currency of an entity the close consolidates or equity-accounts needs a plan
+/// rate for every month of the year to the period end: the plan and the actuals at
+/// constant currency are translated at them.
 fn rate_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
     let given: BTreeSet<(Period, Currency)> = plan.rates.iter().map(|r| (r.period, r.currency)).collect();
     let presentation = a.ds.settings.presentation_currency;
@@ -343,6 +343,7 @@ fn rate_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
         .structure
         .entities()
         .iter()
+        .filter(|e| matches!(e.method, Method::Full | Method::Proportionate | Method::Equity))
         .filter_map(|e| a.ds.entity(&e.id).map(|x| (x.currency, &e.id)))
         .filter(|(c, _)| *c != presentation)
         .collect();
