@@ -394,3 +394,63 @@ fn walk_adds_up_in_month_and_quarter_views_and_for_a_sub_group() {
         assert_walks_add_up(&v);
     }
 }
+
+#[test]
+fn currency_effect_is_zero_for_a_plan_at_the_actual_rates_all_year() {
+    let f = Folder::demo();
+    // A forecast with the budget's figures at the actual rates of every month.
+    let rates: String = f
+        .read("rates/monthly.csv")
+        .lines()
+        .filter(|l| l.starts_with("period") || l.starts_with("2026-"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    f.write("plans/forecast-same/rates.csv", &rates);
+    for e in ["ALD-NL", "ALD-UK", "ALD-US", "BRW-MX", "BRW-US", "HEL-CH", "KIS-JP", "NRD-SE", "WSL-PL"] {
+        f.write(&format!("plans/forecast-same/{e}.csv"), &f.read(&format!("plans/budget/{e}.csv")));
+    }
+    let (code, v) = close_json(&f, "2026-12", "forecast-same");
+    assert_eq!(code, 0, "{v:#}");
+    let cmp = &v["statements"]["comparison"];
+    for r in cmp["currency_effect"].as_array().unwrap() {
+        assert_eq!(d(&r["effect"]), Decimal::ZERO, "{r}");
+    }
+    for l in cmp["statements"]["profit_or_loss"].as_array().unwrap() {
+        assert_eq!(d(&l["currency_effect"]), Decimal::ZERO, "{l}");
+    }
+}
+
+/// Every amount docs/demo.md quotes in its section on plans is a figure of the close
+/// against the budget at 2026-12.
+#[test]
+fn the_demo_story_quotes_figures_of_the_close() {
+    let doc = std::fs::read_to_string(crate::support::repo().join("docs/demo.md")).expect("docs/demo.md");
+    let section = doc.split("## Plans: a budget and a forecast").nth(1).expect("the plans section");
+    let section = section.split("\n## ").next().unwrap();
+    let f = Folder::demo();
+    let (_, v) = close_json(&f, "2026-12", "budget");
+    let mut figures = std::collections::BTreeSet::new();
+    fn collect(v: &Value, out: &mut std::collections::BTreeSet<Decimal>) {
+        match v {
+            Value::String(s) => {
+                if let Ok(x) = s.parse::<Decimal>() {
+                    out.insert(x.abs());
+                }
+            }
+            Value::Array(a) => a.iter().for_each(|x| collect(x, out)),
+            Value::Object(o) => o.values().for_each(|x| collect(x, out)),
+            _ => {}
+        }
+    }
+    collect(&v["statements"]["comparison"], &mut figures);
+    let mut quoted = 0;
+    for word in section.split(|c: char| !(c.is_ascii_digit() || c == ',' || c == '.')) {
+        let w = word.trim_matches(|c| c == ',' || c == '.');
+        if w.contains('.') && w.contains(',') {
+            let x: Decimal = w.replace(',', "").parse().expect("an amount");
+            assert!(figures.contains(&x), "docs/demo.md quotes {w}, which the close against the budget does not show");
+            quoted += 1;
+        }
+    }
+    assert!(quoted >= 10, "only {quoted} amounts found");
+}
