@@ -84,6 +84,7 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
             scope.period,
             scope.fiscal_start,
         )?);
+        findings.extend(plan_findings(c)?);
         // The close's intercompany gate: an open difference that is not accepted blocks
         // the close, so check lists it too (when nothing else stops the translation).
         if !findings.has_blocking() {
@@ -96,6 +97,25 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
     let period = loaded.as_ref().map(|c| c.scope.period);
     out.write_all(report::findings::render_check(&findings, period, format).as_bytes())?;
     Ok(exit_code(&findings))
+}
+
+/// The findings of every plan of the data folder (`plans/`), as `close --compare` would
+/// raise them, so that `check` lists them without closing.
+fn plan_findings(c: &Checked) -> Result<Vec<crate::findings::Finding>, Error> {
+    let mut f = Vec::new();
+    for name in crate::load::plans::plan_names(&c.ds.root, &mut f) {
+        let Some(plan) = crate::load::plans::load_plan(&c.ds, &name, &mut f) else { continue };
+        let a = crate::compare::Actuals {
+            ds: &c.ds,
+            mapped: &c.mapped,
+            structure: &c.structure,
+            fiscal_start: c.scope.fiscal_start,
+            period: c.scope.period,
+            base_period: None,
+        };
+        f.extend(crate::compare::check_plan(&a, &plan)?);
+    }
+    Ok(f)
 }
 
 /// The intercompany gate of a close: matching on the translated deliveries, and which

@@ -124,6 +124,15 @@ pub fn with_rates(ds: &Dataset, rates: &[MonthlyRate]) -> Dataset {
     out
 }
 
+/// The findings of a plan's rows beside the actuals `a`, without closing it (for
+/// `tessera check`).
+pub fn check_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<Vec<Finding>> {
+    let mut f = plan_findings(a, plan)?;
+    let mapped = crate::map_accounts::map_accounts(&plan_dataset(a.ds, plan)?, a.fiscal_start)?;
+    f.extend(unmapped_findings(&mapped.unmapped)?);
+    Ok(f)
+}
+
 /// Closes the plan `plan` beside the actuals `a`. `None` with the findings when the plan
 /// has blocking ones.
 pub fn compare_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<(Option<Compared>, Vec<Finding>)> {

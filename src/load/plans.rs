@@ -43,6 +43,37 @@ pub fn is_plan_name(name: &str) -> bool {
             .is_some_and(|l| !l.is_empty() && l.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_'))
 }
 
+/// The plans of the data folder (`plans/<name>/` with a plan's name), sorted; a folder
+/// under `plans/` that names no plan is a warning.
+pub fn plan_names(root: &Path, f: &mut Vec<Finding>) -> Vec<String> {
+    let dir = root.join(PLANS_DIR);
+    let mut names: Vec<String> = std::fs::read_dir(&dir)
+        .map(|rd| {
+            rd.filter_map(|e| e.ok())
+                .filter(|e| e.path().is_dir())
+                .map(|e| e.file_name().to_string_lossy().to_string())
+                .collect()
+        })
+        .unwrap_or_default();
+    names.sort();
+    names.retain(|n| {
+        let ok = is_plan_name(n);
+        if !ok && !n.starts_with('.') {
+            f.push(
+                Finding::new(
+                    Rule::FileUnknown,
+                    format!("folder `{n}` under plans/ is neither budget nor forecast-<label>, and is not read"),
+                    "rename it budget or forecast-<label>, or move it out of plans/",
+                )
+                .in_file(rel(root, &dir.join(n)))
+                .severity(Severity::Warning),
+            );
+        }
+        ok
+    });
+    names
+}
+
 /// Reads `plans/<name>/` of the data folder `ds.root`. `None` (with a finding) when the
 /// folder or its rates are missing.
 pub fn load_plan(ds: &Dataset, name: &str, f: &mut Vec<Finding>) -> Option<PlanInput> {

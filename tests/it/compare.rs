@@ -250,6 +250,16 @@ fn a_plans_bad_rows_are_findings_all_in_one_run() {
     {
         assert!(rules.iter().any(|r| r == rule), "{rule} missing in {rules:?}");
     }
+    // `check` lists them too, without --compare, with their file and line.
+    let (code, c) = run_json(f.path(), &["check", "--period", "2026-12"]);
+    assert_eq!(code, 1, "{c:#}");
+    let unmapped = c["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "AccountUnmapped").expect("unmapped");
+    assert_eq!(unmapped["file"], "plans/budget/ALD-UK.csv");
+    assert_eq!(unmapped["line"].as_u64(), Some(f.line_of("plans/budget/ALD-UK.csv", "2026-02,99999")));
+    let rules: Vec<&str> = c["findings"].as_array().unwrap().iter().map(|x| x["rule"].as_str().unwrap()).collect();
+    for rule in ["PeriodOutsideYear", "RowDuplicated", "EntityUnknown", "RateMissing", "CurrencyUnknown"] {
+        assert!(rules.contains(&rule), "check: {rule} missing in {rules:?}");
+    }
 }
 
 proptest! {
