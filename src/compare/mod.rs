@@ -154,6 +154,14 @@ pub fn compare_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<(Option<C
         Ok((c, b))
     };
     let (close, base) = close_of(&pds, &mapped)?;
+    // What the plan's close finds (a bargain purchase to reassess, say) is shown, as a
+    // warning: the comparison's figures are not a close of record.
+    f.extend(close.findings.iter().map(|x| {
+        let mut x = x.clone();
+        x.message = format!("in the close of the plan {}: {}", plan.name, x.message);
+        x.severity = Severity::Warning;
+        x
+    }));
     let (at_rates, at_rates_base) = close_of(&with_rates(a.ds, &plan.rates), a.mapped)?;
     Ok((
         Some(Compared {
