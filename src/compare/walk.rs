@@ -495,3 +495,114 @@ pub fn compare_segments(
     }
     out
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn d(s: &str) -> Decimal {
+        s.parse().unwrap()
+    }
+
+    fn amounts(rows: &[(&str, &str)]) -> Amounts {
+        rows.iter().map(|(a, v)| (GroupAccount::new(*a), d(v))).collect()
+    }
+
+    fn parts(entities: &[(&str, &[(&str, &str)])], rules: &[(EliminationRule, &[(&str, &str)])], nci: &str) -> Parts {
+        let mut p = Parts { profit_nci: d(nci), ..Parts::default() };
+        for (e, rows) in entities {
+            let a = amounts(rows);
+            for (k, v) in &a {
+                *p.group.entry(k.clone()).or_default() += *v;
+            }
+            p.by_entity.insert(EntityId::new(*e), a);
+        }
+        for (r, rows) in rules {
+            let a = amounts(rows);
+            for (k, v) in &a {
+                *p.group.entry(k.clone()).or_default() += *v;
+            }
+            p.by_rule.insert(*r, a);
+        }
+        p
+    }
+
+    /// Worked by hand (invented figures, debit positive; profit = -(4000 + 5000)):
+    /// actual A: P revenue 1,000 cost 600; S revenue 500 cost 200; N (not planned)
+    /// revenue 300 cost 100; the intercompany elimination debits revenue 50 and credits
+    /// cost 50 (revenue 50 less, profit unchanged). NCI 40.
+    /// At plan rates C: P as A; S revenue 550 cost 220; N revenue 330 cost 110;
+    /// eliminations as A. Plan P: P revenue 900 cost 500; S revenue 520 cost 260;
+    /// eliminations revenue +30 cost -30. NCI 35.
+    /// Profit: A = 400 + 300 + 200 = 900, less NCI 40 = 860. C = 400 + 330 + 220 = 950.
+    /// Plan = 400 + 260 = 660, less NCI 35 = 625.
+    /// Steps: currency 900 - 950 = -50; scope N 220 - 0 = 220; operating P 400 - 400 = 0,
+    /// S 330 - 260 = 70; eliminations 0 - 0 = 0; NCI -(40 - 35) = -5.
+    /// 625 - 50 + 220 + 0 + 70 + 0 - 5 = 860.
+    #[test]
+    fn walk_of_profit_worked_by_hand() {
+        let ic: &[(&str, &str)] = &[("4000", "50"), ("5000", "-50")];
+        let actual = parts(
+            &[
+                ("P", &[("4000", "-1000"), ("5000", "600")]),
+                ("S", &[("4000", "-500"), ("5000", "200")]),
+                ("N", &[("4000", "-300"), ("5000", "100")]),
+            ],
+            &[(EliminationRule::Intercompany, ic)],
+            "40",
+        );
+        let at_rates = parts(
+            &[
+                ("P", &[("4000", "-1000"), ("5000", "600")]),
+                ("S", &[("4000", "-550"), ("5000", "220")]),
+                ("N", &[("4000", "-330"), ("5000", "110")]),
+            ],
+            &[(EliminationRule::Intercompany, ic)],
+            "40",
+        );
+        let plan = parts(
+            &[("P", &[("4000", "-900"), ("5000", "500")]), ("S", &[("4000", "-520"), ("5000", "260")])],
+            &[(EliminationRule::Intercompany, &[("4000", "30"), ("5000", "-30")])],
+            "35",
+        );
+        let planned = [EntityId::new("P"), EntityId::new("S")].into_iter().collect();
+        let sides = Sides { actual: &actual, at_rates: &at_rates, comparison: &plan, planned: &planned };
+        let m = Measure {
+            id: "profit_owners".into(),
+            label: "profit".into(),
+            weights: [(GroupAccount::new("4000"), 1), (GroupAccount::new("5000"), 1)].into(),
+            owners: true,
+        };
+        let w = walk(&m, &sides, &|e| e.to_string());
+        assert_eq!((w.comparison, w.actual), (d("625"), d("860")));
+        let steps: Vec<(&str, &str, Decimal)> = w.steps.iter().map(|s| (s.step, s.item.as_str(), s.amount)).collect();
+        assert_eq!(
+            steps,
+            vec![
+                ("currency", "group", d("-50")),
+                ("scope", "N", d("220")),
+                ("operating", "P", d("0")),
+                ("operating", "S", d("70")),
+                ("elimination", "intercompany", d("0")),
+                ("nci", "attributable to non-controlling interests", d("-5")),
+            ]
+        );
+        // Revenue (4000 only): the intercompany elimination moves it: at plan rates
+        // -(50) against the plan's -(30): -20.
+        let rev = Measure {
+            id: "REV".into(),
+            label: "Revenue".into(),
+            weights: [(GroupAccount::new("4000"), 1)].into(),
+            owners: false,
+        };
+        let w = walk(&rev, &sides, &|e| e.to_string());
+        assert_eq!((w.comparison, w.actual), (d("1390"), d("1750")));
+        let elim = w.steps.iter().find(|s| s.step == "elimination").unwrap();
+        assert_eq!(elim.amount, d("-20"));
+        // The currency effect by entity sums to the group's.
+        let fx = currency_effect(&m, &actual, &at_rates, &|e| e.to_string());
+        let by_entity: Decimal = fx.iter().filter(|r| r.level == "entity").map(|r| r.effect).sum();
+        let group = fx.iter().find(|r| r.level == "group").unwrap().effect;
+        assert_eq!((by_entity, group), (d("-50"), d("-50")));
+    }
+}
