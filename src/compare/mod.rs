@@ -460,7 +460,13 @@ pub fn comparison(
     let seg = segment_of(ds);
     let measures = walk::walk_measures(statements, ds.settings.segments.as_ref(), &ds.accounts);
     let walks = measures.iter().map(|m| walk::walk(m, &sides, &seg)).collect();
-    let currency_effect = measures.iter().flat_map(|m| walk::currency_effect(m, &parts_a, &parts_r, &seg)).collect();
+    let mut currency_effect: Vec<walk::CurrencyRow> =
+        measures.iter().flat_map(|m| walk::currency_effect(m, &parts_a, &parts_r, &seg)).collect();
+    // The balance sheet, which a plan does not have, still has a currency effect: its
+    // lines at the comparison's closing rate of the period end.
+    for st in statements.iter().filter(|s| s.statement == "balance_sheet") {
+        currency_effect.extend(walk::line_currency_effect(st, &fa.balance_sheet, &fr.balance_sheet));
+    }
     Ok(Comparison {
         comparison: c.name.clone(),
         statements: out_statements,

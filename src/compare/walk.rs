@@ -323,6 +323,28 @@ pub struct LineComparison {
     pub currency_effect: Decimal,
 }
 
+/// The currency effect of every line of a statement the comparison does not compare
+/// (the balance sheet of a plan): the actual line less the same line at the
+/// comparison's rates, as rows of level `line` named `<statement>:<line>`.
+pub fn line_currency_effect(st: &ResolvedStatement, actual: &Amounts, at_rates: &Amounts) -> Vec<CurrencyRow> {
+    let (a, r) = (st.evaluate(actual), st.evaluate(at_rates));
+    st.lines
+        .iter()
+        .zip(a.into_iter().zip(r))
+        .map(|(l, ((_, a), (_, r)))| {
+            let (a, r) = (l.presentation.show(a), l.presentation.show(r));
+            CurrencyRow {
+                measure: format!("{}:{}", st.statement, l.line),
+                level: "line",
+                item: l.label.clone(),
+                actual: a,
+                at_comparison_rates: r,
+                effect: a - r,
+            }
+        })
+        .collect()
+}
+
 /// The variance in percent of the comparison's magnitude, rounded to one decimal.
 pub fn variance_percent(variance: Decimal, comparison: Decimal) -> Option<Decimal> {
     if comparison.is_zero() {
