@@ -425,6 +425,20 @@ fn entry_column(e: &Entry, m: &Membership) -> Option<Column> {
     if segs.len() == 1 { segs.into_iter().next().map(|s| m.column(s)) } else { None }
 }
 
+/// The column of a top-side line (close/topside.rs): an entry that names no entity is
+/// the group's, an unallocated item (IFRS 8.28); a line of one that names entities is
+/// the segment of its entity, as the entity's own figure would be. `None` for every
+/// other rule.
+fn adjustment_column(e: &Entry, l: &crate::close::EntryLine, m: &Membership) -> Option<Column> {
+    if e.rule != EliminationRule::GroupAdjustment {
+        return None;
+    }
+    if e.entities.is_empty() {
+        return Some(Column::Unallocated("consolidation:group_adjustment".into()));
+    }
+    Some(m.column(m.of(&l.entity, &l.account)))
+}
+
 /// Attributes each contribution `(entity, account, amount)` and each journal line.
 pub fn attribute(
     contributions: &[(EntityId, GroupAccount, Decimal)],
@@ -441,6 +455,12 @@ pub fn attribute(
     for entry in journal {
         let col = entry_column(entry, m);
         for l in &entry.lines {
+            if let Some(c) = adjustment_column(entry, l, m) {
+                add(&mut out.columns, c, &l.account, l.amount);
+                *out.countries.entry(country_of(&l.entity)).or_default().entry(l.account.clone()).or_default() +=
+                    l.amount;
+                continue;
+            }
             match &col {
                 Some(c) => add(&mut out.columns, c.clone(), &l.account, l.amount),
                 None => {
