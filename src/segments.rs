@@ -1322,6 +1322,35 @@ mod tests {
         assert_eq!(across.inter_segment[&Column::Segment("X".into())][&GroupAccount::new("4100")], d(100));
     }
 
+    /// A top-side entry naming no entity is an unallocated item (IFRS 8.28); one naming
+    /// entities in two segments puts each line in its entity's segment, not in the
+    /// inter-segment column: it is no transaction between them. A provision of 70 at A
+    /// (segment X) and 30 at C (segment Y) against one liability line each.
+    #[test]
+    fn a_top_side_entry_is_unallocated_or_its_entities_segments() {
+        let ents = [entity("A", "NL", "X"), entity("C", "NL", "Y")];
+        let mut f = Vec::new();
+        let m = Membership::build("business", &ents, &[], &chart(), None, &mut f);
+        let country = BTreeMap::new();
+        let plain =
+            |account: &str, e: &str, amount: i64| EntryLine { counterparty: None, ..line(account, e, "A", amount) };
+        let group =
+            entry(EliminationRule::GroupAdjustment, &[], vec![plain("5000", "HQ", 50), plain("2450", "HQ", -50)]);
+        let attr = attribute(&[], &[group], &m, &country);
+        let unallocated = Column::Unallocated("consolidation:group_adjustment".into());
+        assert_eq!(attr.columns.keys().collect::<Vec<_>>(), vec![&unallocated]);
+        let named = entry(
+            EliminationRule::GroupAdjustment,
+            &["A", "C"],
+            vec![plain("5000", "A", 70), plain("2450", "A", -70), plain("5000", "C", 30), plain("2450", "C", -30)],
+        );
+        let attr = attribute(&[], &[named], &m, &country);
+        let x = &attr.columns[&Column::Segment("X".into())];
+        let y = &attr.columns[&Column::Segment("Y".into())];
+        assert_eq!((x[&GroupAccount::new("5000")], y[&GroupAccount::new("5000")]), (d(70), d(30)));
+        assert!(!attr.columns.contains_key(&Column::InterSegment) && attr.inter_segment.is_empty());
+    }
+
     /// A refinement moves an entity's account to another segment, and an account claimed
     /// twice is a finding.
     #[test]
