@@ -122,6 +122,8 @@ pub const PROFIT_BEFORE_TAX: &str = "profit_before_tax";
 /// The fixed lines this module adds.
 pub const ACQUISITIONS: &str = "acquisition_of_subsidiaries";
 pub const GOODWILL_IMPAIRMENT: &str = "goodwill_impairment";
+pub const FAIR_VALUE_DEPRECIATION: &str = "fair_value_depreciation";
+const FAIR_VALUE_DEPRECIATION_LABEL: &str = "Depreciation of fair value adjustments";
 pub const SHARE_OF_ASSOCIATES: &str = "share_of_associates";
 pub const UNCLASSIFIED: &str = "unclassified";
 const ACQUISITIONS_LABEL: &str = "Acquisition of subsidiaries net of cash acquired";
@@ -198,6 +200,8 @@ enum Treatment {
     Acquisition,
     Goodwill,
     EquityMethod,
+    /// The depreciation of fair value adjustments: non-cash, added back on its own line.
+    FairValue,
 }
 
 /// The statement of cash flows between `opening` (the close at the end of the month
@@ -415,11 +419,13 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
         // The fixed adjustments follow profit before tax.
         if l.line == PROFIT_BEFORE_TAX {
             push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+            push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
             push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
         }
     }
     push(Section::Operating, PROFIT_BEFORE_TAX, "Profit before tax", &mut order);
     push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+    push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
     push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
@@ -430,7 +436,7 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
 /// each line's components) and totals.
 fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) -> Vec<SectionFlows> {
     let order = line_order(lines);
-    let fixed = [GOODWILL_IMPAIRMENT, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
+    let fixed = [GOODWILL_IMPAIRMENT, FAIR_VALUE_DEPRECIATION, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
     let mut sections = Vec::new();
     for section in [Section::Operating, Section::Investing, Section::Financing] {
         let mut out = Vec::new();
@@ -627,8 +633,9 @@ fn journal_lines(
             Treatment::Acquisition => Some(ACQUISITIONS),
             // The profit or loss part stays in profit before tax; the rest of the entry,
             // which is its non-cash other side, is added back on a line of its own.
-            Treatment::Goodwill | Treatment::EquityMethod if pl => Some(PROFIT_BEFORE_TAX),
+            Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue if pl => Some(PROFIT_BEFORE_TAX),
             Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
+            Treatment::FairValue => Some(FAIR_VALUE_DEPRECIATION),
             Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
             Treatment::ByAccount => None,
         };
@@ -655,6 +662,7 @@ fn journal_movements(
                     Treatment::Acquisition
                 }
                 EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,
+                EliminationRule::FairValueDepreciation => Treatment::FairValue,
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };

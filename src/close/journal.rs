@@ -29,6 +29,8 @@ pub enum EliminationRule {
     UnrealisedProfit,
     /// `investment.rs`: investment against equity at acquisition, goodwill.
     InvestmentAndGoodwill,
+    /// `fair_value.rs`: depreciation of the fair value adjustments at acquisition.
+    FairValueDepreciation,
     /// `equity_method.rs`: the share of an associate's or joint venture's results.
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
@@ -46,6 +48,7 @@ impl EliminationRule {
             EliminationRule::NetInvestmentFx => "net_investment_fx",
             EliminationRule::UnrealisedProfit => "unrealised_profit",
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
+            EliminationRule::FairValueDepreciation => "fair_value_depreciation",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
         }
@@ -152,6 +155,7 @@ mod tests {
             EliminationRule::NetInvestmentFx,
             EliminationRule::UnrealisedProfit,
             EliminationRule::InvestmentAndGoodwill,
+            EliminationRule::FairValueDepreciation,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
         ]
@@ -168,6 +172,7 @@ mod tests {
                 "net_investment_fx",
                 "unrealised_profit",
                 "investment_and_goodwill",
+                "fair_value_depreciation",
                 "equity_method",
                 "non_controlling_interest"
             ]

@@ -30,7 +30,8 @@ struct RawSettings {
 
 const PLAUSIBILITY_KEYS: &[&str] = &["rate_move", "sign_months"];
 
-const POLICY_KEYS: &[&str] = &["rounding", "income_translation", "ifric16", "significant_influence"];
+const POLICY_KEYS: &[&str] =
+    &["rounding", "income_translation", "ifric16", "significant_influence", "goodwill_impairment_rate"];
 const ROLE_KEYS: &[&str] = &[
     "retained_earnings",
     "translation_reserve",
@@ -318,11 +319,24 @@ fn parse_policies(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) ->
             }
         },
     };
+    let goodwill_impairment_rate = match pol("goodwill_impairment_rate").as_deref() {
+        None | Some("closing") => Some(ImpairmentRate::Closing),
+        Some("average") => Some(ImpairmentRate::Average),
+        Some(other) => {
+            bad(
+                "policies.goodwill_impairment_rate",
+                format!("\"{other}\" is not a rate"),
+                "use \"closing\" or \"average\" (the rate of the month the impairment is recognised in)",
+            );
+            None
+        }
+    };
     Some(Policies {
         rounding: rounding?,
         income_translation: income?,
         ifric16: ifric16?,
         significant_influence: significant_influence?,
+        goodwill_impairment_rate: goodwill_impairment_rate?,
     })
 }
 
