@@ -154,10 +154,11 @@ pub fn findings(
             continue;
         };
         match method_of(&u.owned) {
-            Some(Method::Full) | None => {}
+            // Not consolidated (or outside the scope closed): nothing to post.
+            Some(Method::Full | Method::None) | None => {}
             Some(m) => out.push(at(
                 Rule::ValueInvalid,
-                format!("{}: a fair value adjustment on {} of an entity consolidated by the {m:?} method: only subsidiaries consolidated in full are supported", u.owned, u.account),
+                format!("{}: a fair value adjustment on {} of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", u.owned, u.account, m.as_str()),
                 "remove the row; the share of an investee's result after its fair value adjustments (IAS 28.32) is not supported yet",
             )),
         }
