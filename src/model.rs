@@ -242,6 +242,10 @@ pub struct RoleAccounts {
     /// Income account for the gain on a bargain purchase (IFRS 3.34); needed only when
     /// an acquisition's goodwill would be negative.
     pub bargain_purchase_gain: Option<GroupAccount>,
+    /// Deferred tax (balance sheet) and tax expense (profit or loss) of the
+    /// consolidation adjustments; needed only under `policies.deferred_tax`.
+    pub deferred_tax: Option<GroupAccount>,
+    pub deferred_tax_expense: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -253,6 +257,9 @@ pub struct Policies {
     pub significant_influence: Decimal,
     /// The rate of a goodwill impairment in the month it is recognised.
     pub goodwill_impairment_rate: ImpairmentRate,
+    /// Deferred tax on the consolidation adjustments (IAS 12.19, 12.66): fair value
+    /// adjustments and unrealised profit in inventory. Off unless asked for.
+    pub deferred_tax: bool,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -574,6 +581,9 @@ pub struct Uplift {
     pub life_months: Option<u32>,
     /// The profit or loss group account of the depreciation, with a useful life.
     pub expense_account: Option<GroupAccount>,
+    /// The deferred tax on another adjustment that the close derives (IAS 12.19), not
+    /// a row of a file: on the deferred tax account, released with the depreciation.
+    pub deferred_tax: bool,
     pub source: Source,
 }
 
@@ -600,4 +610,14 @@ pub enum ImpairmentRate {
     /// The average rate of the month, the approximation used for the month's other
     /// expenses (IAS 21.40).
     Average,
+}
+
+/// An entity's income tax rate, from `entities/tax_rates.csv`: the rate the deferred tax
+/// on its consolidation adjustments is measured at (IAS 12.47).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct TaxRate {
+    pub entity: EntityId,
+    /// A share: 0.25 for 25%.
+    pub rate: Decimal,
+    pub source: Source,
 }

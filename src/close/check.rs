@@ -46,6 +46,7 @@ pub fn data_findings(
     out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper));
     let has_rate = |e: &EntityId, p: Period| super::impairment_rate_known(ds, e, p);
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, (period, fiscal_start), roles, &has_rate));
+    out.extend(fair_value::deferred_tax_findings(ds, period));
     Ok(out)
 }
 

@@ -38,24 +38,135 @@ use crate::map_accounts::period_index;
 use crate::model::*;
 use crate::money;
 
-/// The adjustments of one acquisition: the single `fair_value_adjustment` of its
-/// acquisitions.csv row (never depreciated), then its rows of
-/// `fair_value_adjustments.csv`, in file order.
-pub fn uplifts_of(a: &Acquisition, file: &[Uplift]) -> Vec<Uplift> {
-    let mut out = Vec::new();
-    if let Some(account) = &a.fair_value_account
-        && !a.fair_value_adjustment.is_zero()
-    {
-        out.push(Uplift {
-            owned: a.owned.clone(),
+/// The deferred tax the close recognises on its consolidation adjustments (IAS 12.19,
+/// 12.66), when `policies.deferred_tax` asks for it and both accounts are named (the
+/// findings of [`deferred_tax_findings`] block the close otherwise).
+#[derive(Debug, Clone)]
+pub struct DeferredTax {
+    pub rates: BTreeMap<EntityId, Decimal>,
+    /// Balance sheet: the deferred tax liability (credit) or asset (debit).
+    pub account: GroupAccount,
+    /// Profit or loss: the deferred tax expense or income.
+    pub expense: GroupAccount,
+}
+
+impl DeferredTax {
+    pub fn of(ds: &Dataset) -> Option<Self> {
+        let roles = &ds.settings.accounts;
+        let (Some(account), Some(expense)) = (&roles.deferred_tax, &roles.deferred_tax_expense) else { return None };
+        ds.settings.policies.deferred_tax.then(|| DeferredTax {
+            rates: ds.tax_rates.iter().map(|t| (t.entity.clone(), t.rate)).collect(),
             account: account.clone(),
-            amount: a.fair_value_adjustment,
-            life_months: None,
-            expense_account: None,
-            source: a.source.clone(),
-        });
+            expense: expense.clone(),
+        })
     }
-    out.extend(file.iter().filter(|u| u.owned == a.owned).cloned());
+
+    /// `e`'s rate, when it has one other than 0.
+    pub fn rate(&self, e: &EntityId) -> Option<Decimal> {
+        self.rates.get(e).copied().filter(|t| !t.is_zero())
+    }
+}
+
+/// Every fair value adjustment of the acquisitions: the single `fair_value_adjustment`
+/// of each acquisitions.csv row (never depreciated), the rows of
+/// `fair_value_adjustments.csv`, and, with deferred tax, each one's deferred tax (IAS
+/// 12.19): the entity's rate times the adjustment, on the deferred tax account, with the
+/// same life, released through the tax expense account as the adjustment is depreciated.
+pub fn all_uplifts(acquisitions: &[Acquisition], file: &[Uplift], tax: Option<&DeferredTax>) -> Vec<Uplift> {
+    let mut out: Vec<Uplift> = Vec::new();
+    for a in acquisitions {
+        if let Some(account) = &a.fair_value_account
+            && !a.fair_value_adjustment.is_zero()
+        {
+            out.push(Uplift {
+                owned: a.owned.clone(),
+                account: account.clone(),
+                amount: a.fair_value_adjustment,
+                life_months: None,
+                expense_account: None,
+                deferred_tax: false,
+                source: a.source.clone(),
+            });
+        }
+    }
+    out.extend(file.iter().cloned());
+    let Some(tax) = tax else { return out };
+    let companions: Vec<Uplift> = out
+        .iter()
+        .filter_map(|u| {
+            let t = tax.rate(&u.owned)?;
+            Some(Uplift {
+                owned: u.owned.clone(),
+                account: tax.account.clone(),
+                amount: -(u.amount * t),
+                life_months: u.life_months,
+                expense_account: u.life_months.map(|_| tax.expense.clone()),
+                deferred_tax: true,
+                source: u.source.clone(),
+            })
+        })
+        .collect();
+    out.extend(companions);
+    out
+}
+
+/// The adjustments of one acquisition (of [`all_uplifts`]).
+pub fn uplifts_of(a: &Acquisition, all: &[Uplift]) -> Vec<Uplift> {
+    all.iter().filter(|u| u.owned == a.owned).cloned().collect()
+}
+
+/// What deferred tax on the consolidation adjustments needs, under
+/// `policies.deferred_tax = "recognise"`: both accounts, of the right statements, and a
+/// rate in `tax_rates.csv` for every entity with a fair value adjustment and every buyer
+/// holding goods with unrealised profit to `period` (0 is a rate: no tax). `check`
+/// raises the same.
+pub fn deferred_tax_findings(ds: &Dataset, period: Period) -> Vec<Finding> {
+    if !ds.settings.policies.deferred_tax {
+        return Vec::new();
+    }
+    let roles = &ds.settings.accounts;
+    let mut out = Vec::new();
+    let statement_of = |a: &GroupAccount| ds.account(a).map(|d| d.statement);
+    for (key, acct, st, word) in [
+        ("deferred_tax", &roles.deferred_tax, Statement::BalanceSheet, "balance-sheet"),
+        ("deferred_tax_expense", &roles.deferred_tax_expense, Statement::ProfitOrLoss, "profit or loss"),
+    ] {
+        match acct {
+            None => out.push(Finding::new(
+                Rule::SettingInvalid,
+                format!("`policies.deferred_tax` is \"recognise\" but group.toml names no `accounts.{key}`"),
+                format!("name the {word} account of deferred tax in [accounts], or set the policy to \"off\""),
+            )),
+            Some(a) if statement_of(a) != Some(st) => out.push(Finding::new(
+                Rule::AccountUnknown,
+                format!("`accounts.{key}` {a} is not a {word} account of entities/accounts.csv"),
+                "name an account of the chart with that statement",
+            )),
+            Some(_) => {}
+        }
+    }
+    let has_rate = |e: &EntityId| ds.tax_rates.iter().any(|t| &t.entity == e);
+    let mut needed: BTreeMap<EntityId, Source> = BTreeMap::new();
+    for a in ds.acquisitions.iter().filter(|a| !a.fair_value_adjustment.is_zero()) {
+        needed.entry(a.owned.clone()).or_insert_with(|| a.source.clone());
+    }
+    for u in &ds.uplifts {
+        needed.entry(u.owned.clone()).or_insert_with(|| u.source.clone());
+    }
+    for ip in ds.inventory_profits.iter().filter(|x| x.period <= period) {
+        needed.entry(ip.buyer.clone()).or_insert_with(|| ip.source.clone());
+    }
+    for (e, source) in needed.iter().filter(|(e, _)| !has_rate(e)) {
+        out.push(
+            Finding::new(
+                Rule::ValueMissing,
+                format!("{e} has consolidation adjustments with deferred tax (`policies.deferred_tax`) but no rate in entities/tax_rates.csv"),
+                "add the entity's income tax rate (0 where it pays none)",
+            )
+            .at(source)
+            .entity(e),
+        );
+    }
     out
 }
 
@@ -263,7 +374,12 @@ fn post_one(
         cx.parent_of(e),
         vec![e.id.clone()],
         format!(
-            "depreciation of the fair value adjustment of {} on {}: {fc} {} over {life} months from {acquired}, {fc} {} to date",
+            "{} of {} on {}: {fc} {} over {life} months from {acquired}, {fc} {} to date",
+            if u.deferred_tax {
+                "release of the deferred tax on the fair value adjustment (IAS 12.19)"
+            } else {
+                "depreciation of the fair value adjustment"
+            },
             e.id,
             u.account,
             money::format_amount(u.amount, minor),
@@ -299,6 +415,7 @@ mod tests {
             amount: d(amount),
             life_months: life,
             expense_account: life.map(|_| acct("5000")),
+            deferred_tax: false,
             source: Source::file("entities/fair_value_adjustments.csv"),
         }
     }
@@ -452,5 +569,56 @@ mod tests {
         let mut u = plant("1200", Some(60));
         (u.account, u.expense_account) = (acct("5000"), Some(acct("1600")));
         assert_eq!(rules(u, &a, &full, &no), [Rule::AccountUnknown, Rule::AccountUnknown]);
+    }
+
+    /// Deferred tax at 25% on the plant uplift of `the_year_of_acquisition...`: a
+    /// companion adjustment of USD -300 on the deferred tax account (2500), released
+    /// through the tax expense account (8000) with the same 60 months: USD -5 a month.
+    /// April -5 / 2.0 = -2.50, May -5 / 2.5 = -2.00, June -5 / 4.0 = -1.25: tax income
+    /// 5.75; to date USD -15 / 2.5 = -6 off the liability (a debit of 6); OCI
+    /// -6 + 5.75 = -0.25, a quarter of the depreciation's 1 with the opposite sign.
+    /// Lines: 2500 S +6, 8000 S -5.75, 9000 S -0.25. Without a rate there is none.
+    #[test]
+    fn the_deferred_tax_on_an_uplift_is_released_with_its_depreciation() {
+        let w = world("2026-04-15", "2026-06");
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        cx.closing.insert((usd(), p("2026-06")), rate("2.5"));
+        let mut chart = w.chart.clone();
+        for (a, statement, class) in [
+            ("2500", Statement::BalanceSheet, AccountClass::Liability),
+            ("8000", Statement::ProfitOrLoss, AccountClass::Expense),
+        ] {
+            chart.push(AccountDef {
+                account: acct(a),
+                name: a.into(),
+                statement,
+                class,
+                basis: Basis::Closing,
+                ic_kind: None,
+                non_current: false,
+                source: Source::file("entities/accounts.csv"),
+            });
+        }
+        cx.chart = chart.iter().map(|a| (&a.account, a)).collect();
+        let r = rates(&[("2026-04", "2"), ("2026-05", "2.5"), ("2026-06", "4")]);
+        let tax =
+            DeferredTax { rates: BTreeMap::from([(id("S"), d("0.25"))]), account: acct("2500"), expense: acct("8000") };
+        let a = [acquired("2026-04-15")];
+        let all = all_uplifts(&a, &[plant("1200", Some(60))], Some(&tax));
+        assert_eq!(all.len(), 2);
+        assert_eq!((all[1].amount, all[1].deferred_tax, all[1].life_months), (d("-300"), true, Some(60)));
+        let mut j = Journal::default();
+        post(&mut j, &cx, &a, &all, &r);
+        assert_eq!(j.entries.len(), 2);
+        assert_eq!(
+            lines(&j.entries[1]),
+            [
+                ("2500".into(), "S".into(), "6".into()),
+                ("8000".into(), "S".into(), "-5.75".into()),
+                ("9000".into(), "S".into(), "-0.25".into())
+            ]
+        );
+        let no_rate = DeferredTax { rates: BTreeMap::new(), ..tax };
+        assert_eq!(all_uplifts(&a, &[plant("1200", Some(60))], Some(&no_rate)).len(), 1);
     }
 }

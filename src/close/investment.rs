@@ -470,6 +470,8 @@ pub fn post(
             record.clone()
         };
         let Some(fc) = cx.currencies.get(&e.id).copied() else { continue };
+        let uplifts = super::fair_value::uplifts_of(&a, records.uplifts);
+        let a = net_of_deferred_tax(a, &uplifts);
         found.extend(findings(e, Some(&a), held, fc, cx.fiscal_start, cx.roles, &statement_of));
         // Impairments by month replace the record's undated columns.
         let dated = records.impairments.get(&e.id).cloned().unwrap_or_default();
@@ -483,11 +485,27 @@ pub fn post(
             }
         };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let uplifts = super::fair_value::uplifts_of(&a, records.uplifts);
         let sub = Acquired { cx, e, a, fc, m, uplifts, dated };
         post_one(j, &sub, invest, months, &mut nci);
     }
     nci
+}
+
+/// The acquisition with its net assets less the deferred tax on its fair value
+/// adjustments (IAS 12.19): `net_assets` of acquisitions.csv includes the adjustments but
+/// not their tax. The deferred tax is part of the identifiable net assets, so it moves
+/// goodwill (IAS 12.66): a liability on an asset's uplift increases it. The
+/// presentation amount keeps the acquisition date's rate (the ratio of the two).
+fn net_of_deferred_tax(a: Acquisition, uplifts: &[Uplift]) -> Acquisition {
+    let tax_fc: Decimal = uplifts.iter().filter(|u| u.deferred_tax).map(|u| u.amount).sum();
+    if tax_fc.is_zero() || a.net_assets.is_zero() {
+        return a;
+    }
+    Acquisition {
+        net_assets: a.net_assets + tax_fc,
+        net_assets_presentation: a.net_assets_presentation + tax_fc * a.net_assets_presentation / a.net_assets,
+        ..a
+    }
 }
 
 /// The entry of one subsidiary.
@@ -853,5 +871,68 @@ mod tests {
         rates.average.insert((usd, p("2026-02")), rate("2"));
         let (got, _) = close(&rates);
         assert!(got.contains(&("5000".into(), "S".into(), "50".into())), "{got:?}");
+    }
+
+    /// Deferred tax on a fair value adjustment moves goodwill (IAS 12.66). P holds 80%
+    /// of S: consideration USD 1,000, net assets USD 1,000 (EUR 500) including a plant
+    /// uplift of USD 200 (on 1600); tax at 25%: a liability of USD 50, so the
+    /// identifiable net assets are USD 950 (EUR 475 at the same 2 USD per EUR). NCI 20%
+    /// x 950 = USD 190 (EUR 95); goodwill 1,000 + 190 - 950 = USD 240 (200 without the
+    /// tax: the liability raises goodwill by the parent's 80% x 50 = 40). At 2 USD per
+    /// EUR throughout: 1200 P -500, 3000 S +600, 3200 S 475 - (100 - 25) - 600 = -200,
+    /// 1600 S +100, 2500 S -25, 1100 S +120, 3900 S -95; no exchange difference.
+    #[test]
+    fn deferred_tax_on_an_uplift_is_part_of_the_net_assets_acquired() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        for (a, class) in [("1600", AccountClass::Asset), ("2500", AccountClass::Liability)] {
+            w.chart.push(AccountDef {
+                account: acct(a),
+                name: a.into(),
+                statement: Statement::BalanceSheet,
+                class,
+                basis: Basis::Closing,
+                ic_kind: None,
+                non_current: true,
+                source: Source::file("entities/accounts.csv"),
+            });
+        }
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-200")]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let a = acquisition("1000", "1000", "500");
+        let plant = Uplift {
+            owned: id("S"),
+            account: acct("1600"),
+            amount: d("200"),
+            life_months: None,
+            expense_account: None,
+            deferred_tax: false,
+            source: Source::file("entities/fair_value_adjustments.csv"),
+        };
+        let tax = super::super::fair_value::DeferredTax {
+            rates: BTreeMap::from([(id("S"), d("0.25"))]),
+            account: acct("2500"),
+            expense: acct("8000"),
+        };
+        let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
+        let records = Records { uplifts: &all, impairments: BTreeMap::new() };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        let want: Vec<(String, String, String)> = [
+            ("1200", "P", "-500"),
+            ("3000", "S", "600"),
+            ("3200", "S", "-200"),
+            ("1600", "S", "100"),
+            ("2500", "S", "-25"),
+            ("1100", "S", "120"),
+            ("3900", "S", "-95"),
+        ]
+        .iter()
+        .map(|(x, y, z)| (x.to_string(), y.to_string(), z.to_string()))
+        .collect();
+        assert_eq!(lines(&j.entries[0]), want);
+        assert_eq!(nci.fair_value_now.get(&id("S")), Some(&d("75")));
     }
 }

@@ -149,16 +149,19 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let year_parts = ifric16::parts_of_year(&cx, &operations);
     ifric16::post(&mut j, &cx, &year_parts);
     net_investment::post(&mut j, &cx, &ds.net_investments, &before);
-    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, &mut findings);
+    let tax = fair_value::DeferredTax::of(ds);
+    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, tax.as_ref(), &mut findings);
     let invest = investment::investments(&cx);
     let months = investment::investment_months(t, &cx, &invest)?;
     let rates = fair_value::ExpenseRates::of(ds);
+    let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
     let records =
-        investment::Records { uplifts: &ds.uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
+        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
     findings.extend(fair_value_findings(ds, &cx));
     findings.extend(impairment_findings(ds, &cx));
-    fair_value::post(&mut j, &cx, &ds.acquisitions, &ds.uplifts, &rates);
+    findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
+    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
     drop(eliminate_span);

@@ -9,7 +9,11 @@ use std::path::Path;
 
 use super::{InputFile, Spec, invalid, open_table, parse_amount_cell, required};
 use crate::findings::{Finding, Rule};
-use crate::model::{EntityId, GroupAccount, Source, Uplift};
+use std::str::FromStr;
+
+use rust_decimal::Decimal;
+
+use crate::model::{EntityId, GroupAccount, Source, TaxRate, Uplift};
 
 /// The longest useful life accepted, in months (100 years): a longer one is almost
 /// certainly a unit error (days or years pasted as months).
@@ -68,8 +72,46 @@ pub(super) fn load_uplifts(root: &Path, path: &Path, f: &mut Vec<Finding>, input
             amount,
             life_months,
             expense_account: if life_months.is_some() { expense_account } else { None },
+            deferred_tax: false,
             source: Source::line(&t.file, t.line(row)),
         });
+    }
+    out
+}
+
+/// `entities/tax_rates.csv` (optional): each entity's income tax rate, for the deferred
+/// tax on its consolidation adjustments. A share in [0, 1); an entity twice is
+/// `RowDuplicated`.
+pub(super) fn load_tax_rates(
+    root: &Path,
+    path: &Path,
+    f: &mut Vec<Finding>,
+    inputs: &mut Vec<InputFile>,
+) -> Vec<TaxRate> {
+    if !path.is_file() {
+        return Vec::new();
+    }
+    let spec = Spec { required: &["entity", "rate"], optional: &["note"], prefixes: &[] };
+    let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
+    let mut out: Vec<TaxRate> = Vec::new();
+    for row in 0..t.height() {
+        let (Some(entity), Some(v)) = (required(&t, "entity", row, f), required(&t, "rate", row, f)) else { continue };
+        let rate = match Decimal::from_str(&v) {
+            Ok(x) if x >= Decimal::ZERO && x < Decimal::ONE => x,
+            _ => {
+                f.push(invalid(&t, row, "rate", &v, "a share in [0, 1), e.g. 0.25 for 25%"));
+                continue;
+            }
+        };
+        if out.iter().any(|x| x.entity.as_str() == entity) {
+            f.push(
+                Finding::new(Rule::RowDuplicated, format!("{entity} has a second tax rate"), "keep one row per entity")
+                    .in_file(&t.file)
+                    .line(t.line(row)),
+            );
+            continue;
+        }
+        out.push(TaxRate { entity: EntityId::new(entity), rate, source: Source::line(&t.file, t.line(row)) });
     }
     out
 }

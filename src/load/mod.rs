@@ -132,6 +132,8 @@ pub struct Dataset {
     pub uplifts: Vec<Uplift>,
     /// Goodwill impairments by month (optional `goodwill_impairments.csv`).
     pub impairments: Vec<GoodwillImpairment>,
+    /// Income tax rates per entity (optional `tax_rates.csv`).
+    pub tax_rates: Vec<TaxRate>,
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
@@ -235,6 +237,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let uplifts = fair_values::load_uplifts(root, &ent_dir.join(FAIR_VALUES_FILE), &mut f, &mut inputs);
     let impairments = impairments::load_impairments(root, &ent_dir.join(IMPAIRMENTS_FILE), &mut f, &mut inputs);
+    let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
     let cash_flow_lines =
@@ -264,6 +267,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             inventory_profits,
             uplifts,
             impairments,
+            tax_rates,
             segment_accounts,
             net_investments,
             cash_flow_lines,
@@ -461,6 +465,8 @@ fn unknown_folder_finding(name: &str, known: &BTreeMap<EntityId, Currency>) -> F
 pub const FAIR_VALUES_FILE: &str = "fair_value_adjustments.csv";
 /// Goodwill impairments with the month each is recognised in.
 pub const IMPAIRMENTS_FILE: &str = "goodwill_impairments.csv";
+/// Income tax rates per entity, for deferred tax on consolidation adjustments.
+pub const TAX_RATES_FILE: &str = "tax_rates.csv";
 
 /// The files tessera reads directly under `entities/` (besides the entity folders).
 pub const ENTITY_FILES: &[&str] = &[
@@ -473,6 +479,7 @@ pub const ENTITY_FILES: &[&str] = &[
     "inventory_profit.csv",
     FAIR_VALUES_FILE,
     IMPAIRMENTS_FILE,
+    TAX_RATES_FILE,
     "segment_accounts.csv",
     "net_investment.csv",
     "cash_flow_lines.csv",
