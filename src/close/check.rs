@@ -45,7 +45,8 @@ pub fn data_findings(
     let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= period);
     out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper));
     let has_rate = |e: &EntityId, p: Period| super::impairment_rate_known(ds, e, p);
-    out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, (period, fiscal_start), roles, &has_rate));
+    let when = (period, fiscal_start);
+    out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
     Ok(out)
 }

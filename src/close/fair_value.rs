@@ -121,11 +121,33 @@ pub fn uplifts_of(a: &Acquisition, all: &[Uplift]) -> Vec<Uplift> {
 /// holding goods with unrealised profit to `period` (0 is a rate: no tax). `check`
 /// raises the same.
 pub fn deferred_tax_findings(ds: &Dataset, period: Period) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for t in ds.tax_rates.iter().filter(|t| ds.entity(&t.entity).is_none()) {
+        out.push(
+            Finding::new(
+                Rule::EntityUnknown,
+                format!("entities/tax_rates.csv names {}, which is not in entities/entities.csv", t.entity),
+                "correct the entity id or remove the row",
+            )
+            .at(&t.source),
+        );
+    }
     if !ds.settings.policies.deferred_tax {
-        return Vec::new();
+        // The rates are read but not used: say so rather than ignore them silently.
+        if let Some(t) = ds.tax_rates.first() {
+            out.push(
+                Finding::new(
+                    Rule::ValueInvalid,
+                    "entities/tax_rates.csv has rates but `policies.deferred_tax` is off: no deferred tax is recognised on the consolidation adjustments",
+                    "set `deferred_tax = \"recognise\"` in [policies] to use them, or remove the file",
+                )
+                .at(&Source::file(&t.source.file))
+                .severity(crate::findings::Severity::Warning),
+            );
+        }
+        return out;
     }
     let roles = &ds.settings.accounts;
-    let mut out = Vec::new();
     let statement_of = |a: &GroupAccount| ds.account(a).map(|d| d.statement);
     for (key, acct, st, word) in [
         ("deferred_tax", &roles.deferred_tax, Statement::BalanceSheet, "balance-sheet"),

@@ -78,13 +78,15 @@ pub fn dated(cx: &Context, rows: &[GoodwillImpairment], rates: &ExpenseRates) ->
 /// `fiscal_start`: no acquisition row; an acquisition that also gives the undated
 /// `impairment` column (one place only); a month before the acquisition; an impairment
 /// of the year without `accounts.goodwill_impairment`; no rate for the month under the
-/// policy (`has_rate`).
+/// policy (`has_rate`); an entity that is not a subsidiary consolidated in full
+/// (`method_of`: an equity-accounted investee's impairment by month is not supported).
 pub fn findings(
     rows: &[GoodwillImpairment],
     acquisitions: &[Acquisition],
     (period, fiscal_start): (Period, Period),
     roles: &RoleAccounts,
     has_rate: &dyn Fn(&EntityId, Period) -> bool,
+    method_of: &dyn Fn(&EntityId) -> Option<Method>,
 ) -> Vec<Finding> {
     let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
     let mut out = Vec::new();
@@ -103,6 +105,13 @@ pub fn findings(
             ));
             continue;
         };
+        if let Some(m @ (Method::Equity | Method::Proportionate)) = method_of(&r.owned) {
+            out.push(at(
+                Rule::ValueInvalid,
+                format!("{}: a goodwill impairment by month of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", r.owned, m.as_str()),
+                "give the impairment of an equity-accounted investment in `impairment` of acquisitions.csv (IAS 28.40-43)",
+            ));
+        }
         if !a.impairment.is_zero() {
             out.push(at(
                 Rule::ValueInvalid,
@@ -182,11 +191,12 @@ mod tests {
         let when = (p("2026-03"), p("2026-01"));
         let rate = |_: &EntityId, _: Period| true;
         let no_rate = |_: &EntityId, _: Period| false;
+        let full = |_: &EntityId| Some(Method::Full);
         let rules = |rows: &[GoodwillImpairment],
                      a: &[Acquisition],
                      roles: &RoleAccounts,
                      r: &dyn Fn(&EntityId, Period) -> bool| {
-            findings(rows, a, when, roles, r).iter().map(|f| f.rule).collect::<Vec<_>>()
+            findings(rows, a, when, roles, r, &full).iter().map(|f| f.rule).collect::<Vec<_>>()
         };
         assert_eq!(rules(&[row("2026-02")], &[], &roles, &rate), [Rule::AcquisitionMissing]);
         assert_eq!(rules(&[row("2026-02")], &[acquired("0")], &roles, &rate), [Rule::SettingInvalid]);
@@ -195,5 +205,8 @@ mod tests {
         assert_eq!(rules(&[row("2026-02")], &[acquired("50")], &roles, &rate), [Rule::ValueInvalid]);
         assert_eq!(rules(&[row("2025-05")], &[acquired("0")], &roles, &rate), [Rule::ValueInvalid]);
         assert_eq!(rules(&[row("2026-02")], &[acquired("0")], &roles, &no_rate), [Rule::RateMissing]);
+        let equity = |_: &EntityId| Some(Method::Equity);
+        let found = findings(&[row("2026-02")], &[acquired("0")], when, &roles, &rate, &equity);
+        assert_eq!(found.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::ValueInvalid]);
     }
 }

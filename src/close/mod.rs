@@ -101,7 +101,8 @@ fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
 fn impairment_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let has_rate = |e: &EntityId, p: Period| impairment_rate_known(ds, e, p);
     let when = (cx.period, cx.fiscal_start);
-    impairment::findings(&ds.impairments, &ds.acquisitions, when, cx.roles, &has_rate)
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    impairment::findings(&ds.impairments, &ds.acquisitions, when, cx.roles, &has_rate, &method_of)
 }
 
 /// Whether `rates/monthly.csv` has month `p` (its closing and average rates, either of

@@ -556,7 +556,7 @@ fn no_output_shows_a_negative_zero() {
 /// copy of a case folder per finding the close's rules raise.
 #[test]
 fn every_finding_of_the_close_is_listed_by_check() {
-    let broken: [(&str, &str, &str, &str, &str); 12] = [
+    let broken: [(&str, &str, &str, &str, &str); 13] = [
         (
             "foreign-subsidiary-fair-value-adjustment",
             "entities/acquisitions.csv",
@@ -609,6 +609,13 @@ fn every_finding_of_the_close_is_listed_by_check() {
             "AcquisitionMissing",
         ),
         ("mid-year-acquisition-uplift-deferred-tax", "entities/tax_rates.csv", "S,0.25,\n", "", "ValueMissing"),
+        (
+            "mid-year-acquisition-uplift-deferred-tax",
+            "entities/group.toml",
+            "deferred_tax = \"recognise\"\n",
+            "",
+            "ValueInvalid",
+        ),
         (
             "mid-year-acquisition-uplift-deferred-tax",
             "entities/group.toml",
