@@ -24,8 +24,10 @@
 //! - the elimination journal's movement: line by line by account (intragroup flows are
 //!   eliminated because both sides and the elimination land on the same lines), except
 //!   the entries that restate a non-cash item: goodwill (`investment_and_goodwill`: its
-//!   profit or loss part, an impairment, is added back) and the equity method (the share
-//!   of the result is reversed), each on a line of its own.
+//!   profit or loss part, an impairment, is added back), the depreciation of fair value
+//!   adjustments (`fair_value_depreciation`: added back; the release of their deferred
+//!   tax, `fair_value_deferred_tax`, nets to zero there) and the equity method (the share of the result is reversed), each on
+//!   a line of its own.
 //!
 //! Equity movements in the books of a subsidiary (its dividends, after the intragroup part
 //! is eliminated, and the close's NCI entries against them) belong to the line of the NCI
@@ -202,6 +204,9 @@ enum Treatment {
     EquityMethod,
     /// The depreciation of fair value adjustments: non-cash, added back on its own line.
     FairValue,
+    /// The release of their deferred tax: non-cash and no part of profit before tax, so
+    /// the whole entry (tax income against the liability) nets to zero on that line.
+    FairValueTax,
 }
 
 /// The statement of cash flows between `opening` (the close at the end of the month
@@ -635,7 +640,7 @@ fn journal_lines(
             // which is its non-cash other side, is added back on a line of its own.
             Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue if pl => Some(PROFIT_BEFORE_TAX),
             Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
-            Treatment::FairValue => Some(FAIR_VALUE_DEPRECIATION),
+            Treatment::FairValue | Treatment::FairValueTax => Some(FAIR_VALUE_DEPRECIATION),
             Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
             Treatment::ByAccount => None,
         };
@@ -663,6 +668,7 @@ fn journal_movements(
                 }
                 EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,
                 EliminationRule::FairValueDepreciation => Treatment::FairValue,
+                EliminationRule::FairValueDeferredTax => Treatment::FairValueTax,
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };

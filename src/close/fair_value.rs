@@ -1,4 +1,4 @@
-//! Rule `fair_value_depreciation`: the fair value adjustments of an acquired
+//! Rules `fair_value_depreciation` and `fair_value_deferred_tax`: the fair value adjustments of an acquired
 //! subsidiary's identifiable assets (IFRS 3.18) are the foreign operation's assets, in
 //! its functional currency (IAS 21.47), and those with a useful life are depreciated
 //! after the acquisition (IFRS 3.54, IAS 16.50), land not at all (IAS 16.58). The
@@ -391,8 +391,10 @@ fn post_one(
     // Depreciation reduces the asset: a credit, and the exchange difference balances
     // the entry (a weaker currency shrinks the credit: a gain in OCI).
     let fx = now - opening - expense;
+    let rule =
+        if u.deferred_tax { EliminationRule::FairValueDeferredTax } else { EliminationRule::FairValueDepreciation };
     j.post(
-        EliminationRule::FairValueDepreciation,
+        rule,
         cx.parent_of(e),
         vec![e.id.clone()],
         format!(
@@ -632,6 +634,7 @@ mod tests {
         let mut j = Journal::default();
         post(&mut j, &cx, &a, &all, &r);
         assert_eq!(j.entries.len(), 2);
+        assert_eq!(j.entries[1].rule, EliminationRule::FairValueDeferredTax);
         assert_eq!(
             lines(&j.entries[1]),
             [

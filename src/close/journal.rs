@@ -31,6 +31,8 @@ pub enum EliminationRule {
     InvestmentAndGoodwill,
     /// `fair_value.rs`: depreciation of the fair value adjustments at acquisition.
     FairValueDepreciation,
+    /// `fair_value.rs`: release of the deferred tax on those adjustments (IAS 12.19).
+    FairValueDeferredTax,
     /// `equity_method.rs`: the share of an associate's or joint venture's results.
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
@@ -49,6 +51,7 @@ impl EliminationRule {
             EliminationRule::UnrealisedProfit => "unrealised_profit",
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
             EliminationRule::FairValueDepreciation => "fair_value_depreciation",
+            EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
         }
@@ -156,6 +159,7 @@ mod tests {
             EliminationRule::UnrealisedProfit,
             EliminationRule::InvestmentAndGoodwill,
             EliminationRule::FairValueDepreciation,
+            EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
         ]
@@ -173,6 +177,7 @@ mod tests {
                 "unrealised_profit",
                 "investment_and_goodwill",
                 "fair_value_depreciation",
+                "fair_value_deferred_tax",
                 "equity_method",
                 "non_controlling_interest"
             ]

@@ -70,7 +70,8 @@ fn post_one(
     // The depreciation of the fair value adjustments to date (earlier years', the
     // year's expense and its exchange difference) reduces the net assets the NCI
     // shares, as the adjustments at acquisition were part of them.
-    let depreciation = own_sum(own, &[EliminationRule::FairValueDepreciation], &|l| cx.is_equity_or_flow(&l.account));
+    let fair_value_rules = [EliminationRule::FairValueDepreciation, EliminationRule::FairValueDeferredTax];
+    let depreciation = own_sum(own, &fair_value_rules, &|l| cx.is_equity_or_flow(&l.account));
     // The fair value adjustment at the closing rate is part of the subsidiary's net
     // assets in the group, as it was part of the net assets acquired. A holder's
     // exchange difference of the year on its investments in subsidiaries is eliminated
@@ -92,6 +93,7 @@ fn post_one(
         EliminationRule::UnrealisedProfit,
         EliminationRule::NetInvestmentFx,
         EliminationRule::FairValueDepreciation,
+        EliminationRule::FairValueDeferredTax,
     ];
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
