@@ -29,10 +29,16 @@ pub enum EliminationRule {
     UnrealisedProfit,
     /// `investment.rs`: investment against equity at acquisition, goodwill.
     InvestmentAndGoodwill,
+    /// `fair_value.rs`: depreciation of the fair value adjustments at acquisition.
+    FairValueDepreciation,
+    /// `fair_value.rs`: release of the deferred tax on those adjustments (IAS 12.19).
+    FairValueDeferredTax,
     /// `equity_method.rs`: the share of an associate's or joint venture's results.
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
+    GroupAdjustment,
 }
 
 impl EliminationRule {
@@ -46,8 +52,11 @@ impl EliminationRule {
             EliminationRule::NetInvestmentFx => "net_investment_fx",
             EliminationRule::UnrealisedProfit => "unrealised_profit",
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
+            EliminationRule::FairValueDepreciation => "fair_value_depreciation",
+            EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
 }
@@ -152,8 +161,11 @@ mod tests {
             EliminationRule::NetInvestmentFx,
             EliminationRule::UnrealisedProfit,
             EliminationRule::InvestmentAndGoodwill,
+            EliminationRule::FairValueDepreciation,
+            EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::GroupAdjustment,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -168,8 +180,11 @@ mod tests {
                 "net_investment_fx",
                 "unrealised_profit",
                 "investment_and_goodwill",
+                "fair_value_depreciation",
+                "fair_value_deferred_tax",
                 "equity_method",
-                "non_controlling_interest"
+                "non_controlling_interest",
+                "group_adjustment"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

@@ -12,8 +12,11 @@
 //! which no statement of the comparison shows. The plan starts from the actual opening
 //! balances (the acquisitions, investments and equity at acquisition are the actual
 //! ones, so the eliminations of investments and the NCI run on the same structure).
-//! Actual inventory profits, net investment designations and accepted intercompany
-//! differences are facts of the actuals, not of a plan, and are left out of its close.
+//! Actual inventory profits, net investment designations, accepted intercompany
+//! differences and top-side entries (`group_adjustments.csv`) are facts of the actuals,
+//! not of a plan, and are left out of its close; what follows from the acquisitions
+//! (fair value adjustments and their depreciation, goodwill impairments, deferred tax)
+//! applies to the plan as to the actuals.
 //!
 //! Constant currency: the actual movement frame translated by `translate` at the
 //! comparison's rates for the months it gives rates for (every month of the year to the
@@ -219,6 +222,7 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
     out.inventory_profits.clear();
     out.net_investments.clear();
     out.accepted_differences.clear();
+    out.group_adjustments = Default::default();
     Ok(out)
 }
 
