@@ -65,6 +65,15 @@ fn flip_signs(f: &Folder, rel: &str) {
     });
 }
 
+/// The chart with a `reserve` column, `reserve` given on `account`'s row only.
+fn with_reserve(f: &Folder, account: &str, reserve: &str) {
+    map_lines(f, "entities/accounts.csv", |i, l| match i {
+        0 => format!("{l},reserve"),
+        _ if l.starts_with(&format!("{account},")) => format!("{l},{reserve}"),
+        _ => format!("{l},"),
+    });
+}
+
 fn cases() -> Vec<Case> {
     vec![
         // --- the shape of a file ---------------------------------------------------
@@ -608,6 +617,37 @@ fn cases() -> Vec<Case> {
             },
             rule: Some("AccountInvalid"),
             code: 1,
+        },
+        // --- the reserve an OCI account accumulates into (accounts.csv) ------------------
+        Case {
+            name: "an OCI account accumulating into an account not in the chart",
+            mutate: |f| with_reserve(f, "9000", "3999"),
+            rule: Some("AccountUnknown"),
+            code: 1,
+        },
+        Case {
+            name: "an OCI account accumulating into a liability",
+            mutate: |f| with_reserve(f, "9000", "2600"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "an OCI account accumulating into the NCI",
+            mutate: |f| with_reserve(f, "9000", "3900"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "a reserve named on a profit or loss account",
+            mutate: |f| with_reserve(f, "4000", "3300"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "the translation difference accumulating into the translation reserve, said aloud",
+            mutate: |f| with_reserve(f, "9000", "3300"),
+            rule: None,
+            code: 0,
         },
         // --- top-side entries (group_adjustments.csv) ----------------------------------
         Case {
