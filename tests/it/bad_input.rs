@@ -65,12 +65,14 @@ fn flip_signs(f: &Folder, rel: &str) {
     });
 }
 
-/// The chart with a `reserve` column, `reserve` given on `account`'s row only.
+/// The chart with `reserve` (its last column) set on `account`'s row.
 fn with_reserve(f: &Folder, account: &str, reserve: &str) {
-    map_lines(f, "entities/accounts.csv", |i, l| match i {
-        0 => format!("{l},reserve"),
-        _ if l.starts_with(&format!("{account},")) => format!("{l},{reserve}"),
-        _ => format!("{l},"),
+    assert!(
+        f.read("entities/accounts.csv").starts_with("account,name,statement,class,basis,ic_kind,non_current,reserve\n")
+    );
+    map_lines(f, "entities/accounts.csv", |_, l| match l.rsplit_once(',') {
+        Some((rest, _)) if l.starts_with(&format!("{account},")) => format!("{rest},{reserve}"),
+        _ => l.to_string(),
     });
 }
 
