@@ -217,6 +217,7 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
         basis: Basis::Closing,
         ic_kind: None,
         non_current: false,
+        reserve: None,
         source: crate::model::Source::file("(plan balancing line)"),
     });
     out.inventory_profits.clear();
