@@ -66,6 +66,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_net_investments(ds, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     check_plausibility(ds, mapped, scope, &mut f)?;
+    f.extend(crate::ownership::findings(ds, scope));
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);

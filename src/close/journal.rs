@@ -33,6 +33,8 @@ pub enum EliminationRule {
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `step_acquisition.rs`: the interest held before control remeasured to fair value.
+    StepAcquisition,
 }
 
 impl EliminationRule {
@@ -48,6 +50,7 @@ impl EliminationRule {
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::StepAcquisition => "step_acquisition",
         }
     }
 }
@@ -154,6 +157,7 @@ mod tests {
             EliminationRule::InvestmentAndGoodwill,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::StepAcquisition,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -169,7 +173,8 @@ mod tests {
                 "unrealised_profit",
                 "investment_and_goodwill",
                 "equity_method",
-                "non_controlling_interest"
+                "non_controlling_interest",
+                "step_acquisition"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

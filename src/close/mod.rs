@@ -12,7 +12,7 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `equity_method`.
+//!   `step_acquisition`, `equity_method`.
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -37,6 +37,7 @@ pub mod pre_acquisition;
 pub mod prove;
 pub mod reserves;
 pub mod roll_up;
+pub mod step_acquisition;
 pub mod unrealised_profit;
 pub mod view;
 
@@ -128,6 +129,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let invest = investment::investments(&cx);
     let months = investment::investment_months(t, &cx, &invest)?;
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &mut findings);
+    let steps =
+        crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
     drop(eliminate_span);

@@ -9,6 +9,7 @@ pub mod daily;
 mod documents;
 mod ledger;
 pub mod machine;
+mod ownership;
 mod settings;
 pub mod table;
 
@@ -128,6 +129,8 @@ pub struct Dataset {
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// Shares bought and sold (optional `ownership_changes.csv`).
+    pub ownership_changes: Vec<OwnershipChange>,
     /// The statement of cash flows' line per group account (optional
     /// `cash_flow_lines.csv`; `None` when the file does not exist).
     pub cash_flow_lines: Option<Vec<crate::cash_flows::LineDef>>,
@@ -228,6 +231,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let ownership_changes =
+        ownership::load_ownership_changes(root, &ent_dir.join(ownership::OWNERSHIP_CHANGES_FILE), &mut f, &mut inputs);
     let cash_flow_lines =
         cash_flow_lines::load_cash_flow_lines(root, &ent_dir.join("cash_flow_lines.csv"), &mut f, &mut inputs);
     let accepted_differences =
@@ -255,6 +260,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             inventory_profits,
             segment_accounts,
             net_investments,
+            ownership_changes,
             cash_flow_lines,
             accepted_differences,
             delivered_entities: delivered,
@@ -459,6 +465,7 @@ pub const ENTITY_FILES: &[&str] = &[
     "net_investment.csv",
     "cash_flow_lines.csv",
     crate::intercompany::ACCEPTED_FILE,
+    ownership::OWNERSHIP_CHANGES_FILE,
 ];
 
 /// The files tessera reads under `rates/`.
