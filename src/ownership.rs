@@ -17,6 +17,7 @@
 use std::collections::{BTreeMap, BTreeSet};
 
 use chrono::NaiveDate;
+use polars::prelude::*;
 use rust_decimal::Decimal;
 
 use crate::findings::{Finding, Rule};
@@ -255,9 +256,7 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
             "the NCI adjustment, the difference to the owners' equity and the reattribution of the translation reserve (IAS 21.48C) are not posted yet".into(),
         )],
         ChangeKind::LossOfControl if !this_year => Vec::new(),
-        ChangeKind::LossOfControl => vec![unsupported(
-            "the results to the date, the derecognition, the gain or loss and the recycling of the translation reserve (IAS 21.48) are not posted yet".into(),
-        )],
+        ChangeKind::LossOfControl => loss_of_control_needs(ds, x, &unsupported),
         ChangeKind::NotControlled if !this_year => Vec::new(),
         ChangeKind::NotControlled => vec![unsupported(format!(
             "the entity is {} before and {} after; the equity method and the investments take the share at the period end for the whole year",
@@ -332,6 +331,210 @@ fn step_acquisition_needs(
         out.extend(gain_account_findings(ds, c));
     }
     out
+}
+
+/// The last month end consolidated for a subsidiary whose control ends on `date` (the
+/// first day without it): the last month end on or before the day before. A month's
+/// results belong to the group when it controls the entity at that month's end, as for
+/// an acquisition: sold on 1 May, April is consolidated; sold on 15 April or on 30 April,
+/// the results to 31 March are, and April's are part of what is sold.
+pub fn last_controlled_month(date: NaiveDate) -> Period {
+    let last_day = date.pred_opt().unwrap_or(date);
+    let month = Period::of_date(last_day);
+    if month.last_day() == last_day { month } else { month.prev() }
+}
+
+/// A loss of control is expressed when the subsidiary was consolidated in full, held by
+/// the row's holder alone (in the presentation currency, without NCI of its own), holds
+/// no entity itself, has no intercompany line, no net investment item and no inventory
+/// count inside the group, was acquired with NCI at its share of net assets and no fair
+/// value adjustment, keeps at most an investment (not an associate or joint
+/// arrangement), delivered every month it is consolidated for, and the group has no
+/// statement of cash flows (its disposal line, IAS 7.39-42, is not built yet).
+fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
+    let c = x.change;
+    let before_day = c.date.pred_opt().unwrap_or(c.date);
+    let mut why: Vec<String> = Vec::new();
+    if x.method_before != Method::Full {
+        why.push(format!("it was consolidated by the method {} the day before", x.method_before.as_str()));
+    }
+    if x.group_holders_before.iter().any(|h| h != &c.holder) {
+        why.push(format!(
+            "it was held by {}, not by {} alone",
+            x.group_holders_before.iter().map(EntityId::as_str).collect::<Vec<_>>().join(", "),
+            c.holder
+        ));
+    }
+    if !x.holder_nci.is_zero() {
+        why.push(format!("the holder {} has a non-controlling interest of its own", c.holder));
+    }
+    if ds.entity(&c.holder).is_some_and(|e| e.currency != ds.settings.presentation_currency) {
+        why.push("the holder's functional currency is not the presentation currency".into());
+    }
+    if matches!(x.method_after, Method::Equity | Method::Proportionate) {
+        why.push(format!(
+            "the interest retained is accounted for by the method {} (its cost at fair value, IFRS 10.B98(b)(iii), is not posted yet)",
+            x.method_after.as_str()
+        ));
+    }
+    if ds.holdings.iter().any(|h| h.owner == c.owned && h.is_valid_on(before_day) && !h.capital_share.is_zero()) {
+        why.push(format!("{} holds shares of other entities (a sub-group disposal)", c.owned));
+    }
+    why.extend(acquisition_obstacles(ds, c, before_day));
+    if ds.net_investments.iter().any(|n| n.entity == c.owned || n.counterparty == c.owned)
+        || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
+    {
+        why.push("net_investment.csv or inventory_profit.csv names it".into());
+    }
+    if has_counterparty_lines(ds, &c.owned) || is_named_by_others(ds, &c.owned) {
+        why.push(format!(
+            "its trial balances name counterparties, or others name it beyond their investment: intercompany items of {} are not eliminated up to the date yet",
+            c.owned
+        ));
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the statement of cash flows has no disposal line yet (IAS 7.39-42)".into());
+    }
+    let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
+    out.extend(gain_account_findings(ds, c));
+    out.extend(retained_value_findings(ds, c));
+    out.extend(months_missing(ds, c));
+    out
+}
+
+/// What of the subsidiary's acquisition the derecognition does not handle yet.
+fn acquisition_obstacles(ds: &Dataset, c: &OwnershipChange, before_day: NaiveDate) -> Vec<String> {
+    let mut why = Vec::new();
+    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date <= before_day) {
+        None => why.push("acquisitions.csv has no acquisition of it before the date".into()),
+        Some(a) => {
+            if a.nci_measurement == NciMeasurement::FairValue && a.nci_fair_value.is_some_and(|v| !v.is_zero()) {
+                why.push("its NCI was measured at fair value (the NCI's goodwill is not derecognised yet)".into());
+            }
+            if !a.fair_value_adjustment.is_zero() {
+                why.push("its acquisition has a fair value adjustment (not derecognised yet)".into());
+            }
+        }
+    }
+    why
+}
+
+/// Whether an entity's trial balances or opening balances name a counterparty.
+fn has_counterparty_lines(ds: &Dataset, e: &EntityId) -> bool {
+    [&ds.ledger, &ds.opening].into_iter().any(|df| {
+        df.clone()
+            .lazy()
+            .filter(col("entity").eq(lit(e.as_str())).and(col("counterparty").is_not_null()))
+            .collect()
+            .map(|d| d.height() > 0)
+            .unwrap_or(true)
+    })
+}
+
+/// Whether another entity's trial balances or opening balances name `e` on an account
+/// other than an investment (an intragroup dividend, a sale, a loan with the sold
+/// subsidiary): those items are not eliminated up to the date yet.
+fn is_named_by_others(ds: &Dataset, e: &EntityId) -> bool {
+    let pairs = |df: &DataFrame| -> Option<Vec<(String, String)>> {
+        let d = df
+            .clone()
+            .lazy()
+            .filter(col("counterparty").eq(lit(e.as_str())).and(col("entity").neq(lit(e.as_str()))))
+            .select([col("entity"), col("account")])
+            .collect()
+            .ok()?;
+        let (a, b) = (d.column("entity").ok()?.str().ok()?, d.column("account").ok()?.str().ok()?);
+        Some(a.iter().zip(b.iter()).filter_map(|(x, y)| Some((x?.to_string(), y?.to_string()))).collect())
+    };
+    let Some(m) = (|| {
+        let d = &ds.mappings;
+        let (e, l, g) = (
+            d.column("entity").ok()?.str().ok()?,
+            d.column("local_account").ok()?.str().ok()?,
+            d.column("group_account").ok()?.str().ok()?,
+        );
+        Some(
+            e.iter()
+                .zip(l.iter())
+                .zip(g.iter())
+                .filter_map(|((e, l), g)| Some(((e?.to_string(), l?.to_string()), g?.to_string())))
+                .collect::<BTreeMap<(String, String), String>>(),
+        )
+    })() else {
+        return true;
+    };
+    [&ds.ledger, &ds.opening].into_iter().any(|df| match pairs(df) {
+        None => true,
+        Some(rows) => rows.iter().any(|k| {
+            let kind = m.get(k).and_then(|g| ds.account(&GroupAccount::new(g))).and_then(|d| d.ic_kind.as_deref());
+            kind != Some("investment")
+        }),
+    })
+}
+
+/// A retained interest needs its fair value (IFRS 10.25(b)); none is retained when the
+/// holder's share after the sale is 0.
+fn retained_value_findings(ds: &Dataset, c: &OwnershipChange) -> Option<Finding> {
+    let retained = capital_share_on(&ds.holdings, &c.holder, &c.owned, c.date);
+    let f =
+        |rule, message: String, action: &str| Some(Finding::new(rule, message, action).at(&c.source).entity(&c.owned));
+    match c.fair_value_held {
+        None if !retained.is_zero() => f(
+            Rule::ValueMissing,
+            format!(
+                "{} keeps {} of {} after the sale on {} but `fair_value_held` is empty",
+                c.holder,
+                retained.normalize(),
+                c.owned,
+                c.date
+            ),
+            "give the fair value of the interest retained at the date control is lost (IFRS 10.25(b))",
+        ),
+        Some(v) if retained.is_zero() && !v.is_zero() => f(
+            Rule::OwnershipChangeInconsistent,
+            format!("{} keeps nothing of {} after {}, but `fair_value_held` is {v}", c.holder, c.owned, c.date),
+            "leave `fair_value_held` empty when no interest is retained, or correct holdings.csv",
+        ),
+        _ => None,
+    }
+}
+
+/// The months from the fiscal year's start to the last month end consolidated that the
+/// sold subsidiary has not delivered: blocking, its results to the date are needed.
+fn months_missing(ds: &Dataset, c: &OwnershipChange) -> Vec<Finding> {
+    let last = last_controlled_month(c.date);
+    let first = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
+    if last < first {
+        return Vec::new();
+    }
+    let have: BTreeSet<String> = ds
+        .ledger
+        .clone()
+        .lazy()
+        .filter(col("entity").eq(lit(c.owned.as_str())))
+        .select([col("period")])
+        .collect()
+        .ok()
+        .and_then(|d| Some(d.column("period").ok()?.str().ok()?.iter().flatten().map(String::from).collect()))
+        .unwrap_or_default();
+    first
+        .through(&last)
+        .into_iter()
+        .filter(|p| !have.contains(&p.to_string()))
+        .map(|p| {
+            Finding::new(
+                Rule::DeliveryMissing,
+                format!(
+                    "{} has no trial balance for {p}: it is sold on {} and consolidated to the end of {last}",
+                    c.owned, c.date
+                ),
+                format!("deliver entities/{}/tb-{p}.movements.csv (or .balances.csv)", c.owned),
+            )
+            .in_file(format!("entities/{}/tb-{p}.movements.csv", c.owned))
+            .entity(&c.owned)
+            .period(p)
+        })
+        .collect()
 }
 
 /// The row's `gain_account` must be a profit or loss account of the chart.
@@ -445,4 +648,43 @@ pub fn step_acquisitions(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
                 && agreement(ds, c).is_empty()
         })
         .collect()
+}
+
+/// The rows the close posts as losses of control: control lost in the fiscal year of
+/// `scope` up to its period, each meeting what `loss_of_control_needs` asks.
+pub fn losses_of_control(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
+    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
+    ds.ownership_changes
+        .iter()
+        .filter(|c| c.date >= year_first && c.date <= period_last && c.share.is_sign_negative())
+        .filter(|c| {
+            let x = classify(ds, c);
+            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
+            x.kind == ChangeKind::LossOfControl
+                && loss_of_control_needs(ds, &x, &blocks).is_empty()
+                && agreement(ds, c).is_empty()
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn date(s: &str) -> NaiveDate {
+        NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap_or_else(|_| panic!("bad date {s}"))
+    }
+
+    /// The month rule: a month's results are the group's when it controls the entity at
+    /// that month's end. Sold on 1 May: 30 April was controlled. Sold on 15 April or on
+    /// 30 April: 30 April was not, the last month end controlled is 31 March. Sold on
+    /// 1 January: the year's opening balances are the last consolidated.
+    #[test]
+    fn the_last_month_end_controlled() {
+        let month = |s: &str| last_controlled_month(date(s)).to_string();
+        assert_eq!(month("2026-05-01"), "2026-04");
+        assert_eq!(month("2026-04-15"), "2026-03");
+        assert_eq!(month("2026-04-30"), "2026-03");
+        assert_eq!(month("2026-01-01"), "2025-12");
+    }
 }

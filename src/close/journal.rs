@@ -35,6 +35,8 @@ pub enum EliminationRule {
     NonControllingInterest,
     /// `step_acquisition.rs`: the interest held before control remeasured to fair value.
     StepAcquisition,
+    /// `loss_of_control.rs`: a subsidiary sold: derecognition, gain, recycling.
+    LossOfControl,
 }
 
 impl EliminationRule {
@@ -51,6 +53,7 @@ impl EliminationRule {
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
             EliminationRule::StepAcquisition => "step_acquisition",
+            EliminationRule::LossOfControl => "loss_of_control",
         }
     }
 }
@@ -158,6 +161,7 @@ mod tests {
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
             EliminationRule::StepAcquisition,
+            EliminationRule::LossOfControl,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -174,7 +178,8 @@ mod tests {
                 "investment_and_goodwill",
                 "equity_method",
                 "non_controlling_interest",
-                "step_acquisition"
+                "step_acquisition",
+                "loss_of_control"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

@@ -12,7 +12,9 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `step_acquisition`, `equity_method`.
+//!   `step_acquisition`, `loss_of_control`, `equity_method`. A subsidiary sold in the
+//!   year contributes what the close at its last month end consolidated gives it
+//!   (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -31,6 +33,7 @@ pub mod ifric16;
 pub mod intercompany;
 pub mod investment;
 pub mod journal;
+pub mod loss_of_control;
 pub mod nci;
 pub mod net_investment;
 pub mod pre_acquisition;
@@ -100,12 +103,15 @@ pub struct Close {
     /// The translation reserve per consolidated foreign operation.
     pub reserves: Vec<OperationReserveRow>,
     pub findings: Vec<Finding>,
+    /// Subsidiaries sold in the fiscal year to the period (`loss_of_control`).
+    pub disposals: Vec<loss_of_control::Disposal>,
 }
 
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
-    let contributions = aggregate(ds, t, s, period)?;
+    let sold = sold_in_year(ds, t, period, fiscal_start)?;
+    let contributions = with_sold(aggregate(ds, t, s, period)?, &sold)?;
     let balances = aggregate::balances(&contributions)?;
     let cx = context::Context::new(ds, t, s, period, fiscal_start, balances);
     let mut findings = Vec::new();
@@ -132,15 +138,51 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
     step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let disposals: Vec<loss_of_control::Disposal> =
+        sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
     drop(eliminate_span);
 
-    let nci = nci::post(&mut j, &cx, &for_nci);
+    let mut nci = nci::post(&mut j, &cx, &for_nci);
+    nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
     let brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
     let reserves = reserves::reserves(&cx, &brought_forward, &year_parts, ds.settings.policies.ifric16);
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings })
+    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals })
+}
+
+/// The subsidiaries sold in the fiscal year to `period` (none for the close of the
+/// opening balances), each as the close at its last month end consolidated shows it.
+fn sold_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<loss_of_control::AtLastMonth<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::losses_of_control(ds, scope)
+        .into_iter()
+        .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The contribution frame with the sold subsidiaries' contributions at their last month
+/// end added, in the frame's order.
+fn with_sold(contributions: DataFrame, sold: &[loss_of_control::AtLastMonth]) -> PolarsResult<DataFrame> {
+    if sold.is_empty() {
+        return Ok(contributions);
+    }
+    let mut all = contributions;
+    for x in sold {
+        all.vstack_mut(&x.contributions)?;
+    }
+    all.lazy()
+        .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
+        .collect()
 }

@@ -67,14 +67,17 @@ fn a_holding_that_ends_in_the_year_needs_a_row_and_a_loss_of_control_blocks() {
     let (code, fs) = check(&f, "2026-12");
     assert_eq!(code, 1);
     assert!(of_rule(&fs, "OwnershipChangeMissing").is_empty(), "{fs:#?}");
+    // NRD-SE trades with the group and the demo has a statement of cash flows: what
+    // the derecognition does not handle yet is each named, at the row.
     let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
-    assert_eq!(unsupported.len(), 1, "{fs:#?}");
-    assert_eq!((unsupported[0]["file"].as_str(), unsupported[0]["line"].as_u64()), (Some(CHANGES), Some(2)));
-    assert!(
-        unsupported[0]["message"].as_str().unwrap().contains("loss of control (IFRS 10.25"),
-        "{:#}",
-        unsupported[0]
-    );
+    assert_eq!(unsupported.len(), 2, "{fs:#?}");
+    for why in ["intercompany items of NRD-SE", "statement of cash flows"] {
+        let x = unsupported.iter().find(|x| x["message"].as_str().unwrap().contains(why)).expect(why);
+        assert_eq!((x["file"].as_str(), x["line"].as_u64()), (Some(CHANGES), Some(2)));
+        assert!(x["message"].as_str().unwrap().contains("loss of control (IFRS 10.25"), "{x:#}");
+    }
+    // And the row lacks the account for the gain.
+    assert_eq!(of_rule(&fs, "ValueMissing").len(), 1, "{fs:#?}");
     // The close refuses it too.
     let out = tempfile::tempdir().unwrap();
     let (code, _) = run_json(f.path(), &["close", "--period", "2026-12", "--out", out.path().to_str().unwrap()]);
@@ -142,4 +145,75 @@ fn control_in_stages_needs_the_fair_value_held_and_an_investment_before() {
     let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
     assert_eq!(unsupported.len(), 1, "{fs:#?}");
     assert!(unsupported[0]["message"].as_str().unwrap().contains("IAS 28.22"), "{:#}", unsupported[0]);
+}
+
+/// A copy of a case folder.
+fn case(name: &str) -> Folder {
+    let f = Folder::empty();
+    for sub in ["entities", "rates"] {
+        copy_tree(&repo().join("tests/cases").join(name).join(sub), &f.path().join(sub));
+    }
+    f
+}
+
+fn amount(v: &Value) -> rust_decimal::Decimal {
+    v.as_str().and_then(|s| s.parse().ok()).unwrap_or_else(|| panic!("not a decimal: {v}"))
+}
+
+/// The month of the sale of the foreign operation (tests/cases/loss-of-control-foreign-
+/// operation, worked in its SOURCE.md): March closed S consolidated; April holds only
+/// the disposal: the gain 80 + reclassified reserve 48 in profit, the reclassification
+/// -48 in OCI (IAS 1.92-93), nothing attributable to the NCI, and the disposal row of
+/// the statement of changes in equity.
+#[test]
+fn the_month_of_a_sale_shows_the_gain_and_the_reclassification() {
+    let f = case("loss-of-control-foreign-operation");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) =
+        run_json(f.path(), &["close", "--period", "2026-04", "--view", "month", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    assert_eq!(v["proof"]["tied"], true, "{:#}", v["proof"]);
+    let a = &v["attribution"];
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    assert_eq!(
+        [amount(&a["profit"]), amount(&a["profit_nci"]), amount(&a["oci"]), amount(&a["oci_nci"])],
+        [d("128"), d("0"), d("-48"), d("0")],
+        "{a:#}"
+    );
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    let disposals = rows.iter().find(|r| r["row"] == "disposals").expect("a disposals row");
+    assert_eq!(amount(&disposals["amounts"]["NCI"]), d("-180"), "{disposals:#}");
+    let entries: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "loss_of_control").collect();
+    assert_eq!(entries.len(), 1, "{:#}", v["eliminations"]);
+
+    // March, before the sale: S consolidated as usual, no disposal row.
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    assert!(rows.iter().all(|r| r["row"] != "disposals"), "{rows:#?}");
+    assert!(v["eliminations"].as_array().unwrap().iter().all(|e| e["rule"] != "loss_of_control"));
+}
+
+/// Without `fair_value_held` for the 10% kept, the sale of T (tests/cases/loss-of-
+/// control-retained-interest) blocks; with an associate kept (30%), the equity method's
+/// cost at fair value is not posted yet: blocking too.
+#[test]
+fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
+    let f = case("loss-of-control-retained-interest");
+    f.replace(CHANGES, ",700,100,,4700,", ",700,,,4700,");
+    let (code, fs) = check(&f, "2026-03");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "ValueMissing");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("keeps 0.1 of T"), "{:#}", x[0]);
+
+    let f = case("loss-of-control-retained-interest");
+    f.replace(HOLDINGS, "P,T,0.1,0.1,2026-03-15,", "P,T,0.3,0.3,2026-03-15,");
+    f.replace(CHANGES, "2026-03-15,P,T,-0.7,", "2026-03-15,P,T,-0.5,");
+    let (code, fs) = check(&f, "2026-03");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("method equity"), "{:#}", x[0]);
 }
