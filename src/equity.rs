@@ -238,8 +238,10 @@ pub fn changes_in_equity(
         add(&mut acquisitions, nci, x);
     }
     let disposals = disposals_row(opening, closing, n, (re, tr, nci));
-    let other: Vec<Decimal> =
-        (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i] - disposals[i]).collect();
+    let with_nci = transactions_with_nci_row(opening, closing, n, (re, nci));
+    let other: Vec<Decimal> = (0..n)
+        .map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i] - disposals[i] - with_nci[i])
+        .collect();
 
     let columns = columns(components, nci);
     let widen = |v: &[Decimal]| widen(v, nci);
@@ -253,10 +255,19 @@ pub fn changes_in_equity(
             label: "Non-controlling interests on acquisition".into(),
             amounts: widen(&acquisitions),
         },
+        Row {
+            id: "transactions_with_nci",
+            label: "Transactions with non-controlling interests".into(),
+            amounts: widen(&with_nci),
+        },
         Row { id: "disposals", label: "Disposals of subsidiaries".into(), amounts: widen(&disposals) },
         Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
         Row { id: "closing", label: labels.1, amounts: widen(&close) },
     ];
+    // Each row is shown only for a view in which such a change happened.
+    if !closing.stake_changes.iter().any(|d| !opening.stake_changes.contains(d)) {
+        rows.retain(|r| r.id != "transactions_with_nci");
+    }
     // The row is shown only for a view in which a subsidiary was sold.
     if disposals.iter().all(Decimal::is_zero) && !closing.disposals.iter().any(|d| !opening.disposals.contains(d)) {
         rows.retain(|r| r.id != "disposals");
@@ -276,6 +287,25 @@ fn disposals_row(opening: &Close, closing: &Close, n: usize, (re, tr, nci): Colu
         opening.disposals.iter().map(|d| (&d.entity, d.date)).collect();
     for d in closing.disposals.iter().filter(|d| !earlier.contains(&(&d.entity, d.date))) {
         for (at, x) in [(nci, -d.nci_derecognised), (tr, -d.reserve_nci), (re, d.reserve_nci)] {
+            if let Some(i) = at {
+                row[i] += x;
+            }
+        }
+    }
+    row
+}
+
+/// Changes in stake with control kept between the two closes (IFRS 10.23, B96): the
+/// NCI's carrying amount transferred, and the owners' side, the consideration less it.
+fn transactions_with_nci_row(
+    opening: &Close,
+    closing: &Close,
+    n: usize,
+    (re, nci): (Option<usize>, Option<usize>),
+) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    for d in closing.stake_changes.iter().filter(|d| !opening.stake_changes.contains(d)) {
+        for (at, x) in [(nci, -d.nci_transferred), (re, d.cash + d.nci_transferred)] {
             if let Some(i) = at {
                 row[i] += x;
             }

@@ -252,9 +252,7 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
         ChangeKind::ChangeInStake if !this_year => vec![unsupported(
             "the NCI is measured on the effective interest at the period end over all the equity earned since acquisition, so a change of an earlier year would misstate it".into(),
         )],
-        ChangeKind::ChangeInStake => vec![unsupported(
-            "the NCI adjustment, the difference to the owners' equity and the reattribution of the translation reserve (IAS 21.48C) are not posted yet".into(),
-        )],
+        ChangeKind::ChangeInStake => change_in_stake_needs(ds, x, &unsupported),
         ChangeKind::LossOfControl if !this_year => Vec::new(),
         ChangeKind::LossOfControl => loss_of_control_needs(ds, x, &unsupported),
         ChangeKind::NotControlled if !this_year => Vec::new(),
@@ -398,6 +396,67 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
     out.extend(gain_account_findings(ds, c));
     out.extend(retained_value_findings(ds, c));
+    out.extend(months_missing(ds, c));
+    out
+}
+
+/// A change in stake with control kept is expressed when the subsidiary and the holder
+/// keep their books in the presentation currency (the reattribution of a translation
+/// reserve, IAS 21.48C, is not posted yet), the holder holds it alone before and after
+/// and has no NCI of its own, it holds no other entity, names no counterparty and is
+/// named by no other entity but for the investment in it, its acquisition measured the
+/// NCI at its share of net assets without a fair value adjustment, it changes hands once
+/// in the year, and the group has no statement of cash flows (IAS 7.42A is not built).
+fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
+    let c = x.change;
+    let before_day = c.date.pred_opt().unwrap_or(c.date);
+    let pres = ds.settings.presentation_currency;
+    let mut why: Vec<String> = Vec::new();
+    if [&c.holder, &c.owned].into_iter().any(|e| ds.entity(e).is_some_and(|x| x.currency != pres)) {
+        why.push(format!(
+            "the holder or the subsidiary keeps its books in another currency than {pres}: reattributing the translation reserve (IAS 21.48C) is not posted yet"
+        ));
+    }
+    let holders_after: BTreeSet<&EntityId> = ds
+        .holdings
+        .iter()
+        .filter(|h| h.owned == c.owned && h.is_valid_on(c.date) && !h.capital_share.is_zero())
+        .map(|h| &h.owner)
+        .collect();
+    if x.group_holders_before.iter().any(|h| h != &c.holder) || holders_after.iter().any(|h| *h != &c.holder) {
+        why.push(format!("{} is held by others than {} too", c.owned, c.holder));
+    }
+    if !x.holder_nci.is_zero() {
+        why.push(format!("the holder {} has a non-controlling interest of its own", c.holder));
+    }
+    if ds.holdings.iter().any(|h| h.owner == c.owned && h.is_valid_on(before_day) && !h.capital_share.is_zero()) {
+        why.push(format!("{} holds shares of other entities (multi-tier NCI)", c.owned));
+    }
+    why.extend(acquisition_obstacles(ds, c, before_day));
+    // The investment entry measures the NCI at acquisition at the period end's outside
+    // share, which this rule corrects; a bargain purchase at that share it does not.
+    let outside_after = Decimal::ONE - capital_share_on(&ds.holdings, &c.holder, &c.owned, c.date);
+    if let Some(a) = ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date <= before_day)
+        && a.consideration + outside_after * a.net_assets < a.net_assets
+    {
+        why.push("at the new share the acquisition's goodwill would be negative (a bargain purchase), which is not corrected yet".into());
+    }
+    if has_counterparty_lines(ds, &c.owned) || is_named_by_others(ds, &c.owned) {
+        why.push(format!("intercompany items of {} are not split between the two shares yet", c.owned));
+    }
+    let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
+    let in_year = |d: NaiveDate| Period::of_date(d).fiscal_year_start(ds.settings.fiscal_year_start) == year;
+    if ds.ownership_changes.iter().filter(|o| o.owned == c.owned && in_year(o.date)).count() > 1 {
+        why.push(format!("{} changes hands more than once in the fiscal year", c.owned));
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the statement of cash flows has no line for transactions with the NCI yet (IAS 7.42A)".into());
+    }
+    let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
+    if c.share.is_sign_negative() {
+        // The holder's own gain on the shares sold is reversed to equity.
+        out.extend(gain_account_findings(ds, c));
+    }
     out.extend(months_missing(ds, c));
     out
 }
@@ -662,6 +721,23 @@ pub fn losses_of_control(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
             let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
             x.kind == ChangeKind::LossOfControl
                 && loss_of_control_needs(ds, &x, &blocks).is_empty()
+                && agreement(ds, c).is_empty()
+        })
+        .collect()
+}
+
+/// The rows the close posts as changes in stake with control kept, in the fiscal year
+/// of `scope` up to its period.
+pub fn changes_in_stake(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
+    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
+    ds.ownership_changes
+        .iter()
+        .filter(|c| c.date >= year_first && c.date <= period_last)
+        .filter(|c| {
+            let x = classify(ds, c);
+            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
+            x.kind == ChangeKind::ChangeInStake
+                && change_in_stake_needs(ds, &x, &blocks).is_empty()
                 && agreement(ds, c).is_empty()
         })
         .collect()

@@ -37,6 +37,8 @@ pub enum EliminationRule {
     StepAcquisition,
     /// `loss_of_control.rs`: a subsidiary sold: derecognition, gain, recycling.
     LossOfControl,
+    /// `change_in_stake.rs`: more or less of a subsidiary, control kept.
+    ChangeInStake,
 }
 
 impl EliminationRule {
@@ -54,6 +56,7 @@ impl EliminationRule {
             EliminationRule::NonControllingInterest => "non_controlling_interest",
             EliminationRule::StepAcquisition => "step_acquisition",
             EliminationRule::LossOfControl => "loss_of_control",
+            EliminationRule::ChangeInStake => "change_in_stake",
         }
     }
 }
@@ -162,6 +165,7 @@ mod tests {
             EliminationRule::NonControllingInterest,
             EliminationRule::StepAcquisition,
             EliminationRule::LossOfControl,
+            EliminationRule::ChangeInStake,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -179,7 +183,8 @@ mod tests {
                 "equity_method",
                 "non_controlling_interest",
                 "step_acquisition",
-                "loss_of_control"
+                "loss_of_control",
+                "change_in_stake"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

@@ -12,7 +12,8 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `step_acquisition`, `loss_of_control`, `equity_method`. A subsidiary sold in the
+//!   `step_acquisition`, `loss_of_control`, `equity_method`, and after the NCI
+//!   `change_in_stake` (which corrects the NCI rows). A subsidiary sold in the
 //!   year contributes what the close at its last month end consolidated gives it
 //!   (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
@@ -25,6 +26,7 @@
 //! (entry descriptions quote amounts as text).
 
 pub mod aggregate;
+pub mod change_in_stake;
 pub mod check;
 pub mod context;
 pub mod dividends;
@@ -105,12 +107,15 @@ pub struct Close {
     pub findings: Vec<Finding>,
     /// Subsidiaries sold in the fiscal year to the period (`loss_of_control`).
     pub disposals: Vec<loss_of_control::Disposal>,
+    /// Changes in stake with control kept in the fiscal year to the period.
+    pub stake_changes: Vec<change_in_stake::StakeChange>,
 }
 
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
     let sold = sold_in_year(ds, t, period, fiscal_start)?;
+    let stakes = stakes_changed_in_year(ds, t, period, fiscal_start)?;
     let contributions = with_sold(aggregate(ds, t, s, period)?, &sold)?;
     let balances = aggregate::balances(&contributions)?;
     let cx = context::Context::new(ds, t, s, period, fiscal_start, balances);
@@ -146,12 +151,16 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     let mut nci = nci::post(&mut j, &cx, &for_nci);
     nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
+    let stake_changes: Vec<change_in_stake::StakeChange> = stakes
+        .iter()
+        .filter_map(|b| change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, b, &invest, &mut nci))
+        .collect();
     let brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
     let reserves = reserves::reserves(&cx, &brought_forward, &year_parts, ds.settings.policies.ifric16);
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals })
+    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals, stake_changes })
 }
 
 /// The subsidiaries sold in the fiscal year to `period` (none for the close of the
@@ -170,6 +179,21 @@ fn sold_in_year<'a>(
         .into_iter()
         .map(|c| loss_of_control::at_last_month(ds, t, c))
         .collect()
+}
+
+/// The changes in stake with control kept in the fiscal year to `period`, each with the
+/// subsidiary as the close at the last month end before it shows it.
+fn stakes_changed_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<change_in_stake::Before<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::changes_in_stake(ds, scope).into_iter().map(|c| change_in_stake::before(ds, t, c)).collect()
 }
 
 /// The contribution frame with the sold subsidiaries' contributions at their last month
