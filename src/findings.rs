@@ -137,6 +137,13 @@ pub enum Rule {
     OwnershipChangeInconsistent,
     /// A change in ownership the close cannot express yet (it never guesses a figure).
     OwnershipChangeUnsupported,
+    /// A top-side entry of group_adjustments.csv whose lines do not sum to zero.
+    GroupAdjustmentUnbalanced,
+    /// A top-side entry's scope is not the parent or the holding entity of a sub-group,
+    /// or a line names an entity outside that sub-group.
+    GroupAdjustmentScopeInvalid,
+    /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
+    GroupAdjustmentInconsistent,
 }
 
 impl Rule {

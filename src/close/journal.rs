@@ -39,6 +39,8 @@ pub enum EliminationRule {
     LossOfControl,
     /// `change_in_stake.rs`: more or less of a subsidiary, control kept.
     ChangeInStake,
+    /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
+    GroupAdjustment,
 }
 
 impl EliminationRule {
@@ -57,6 +59,7 @@ impl EliminationRule {
             EliminationRule::StepAcquisition => "step_acquisition",
             EliminationRule::LossOfControl => "loss_of_control",
             EliminationRule::ChangeInStake => "change_in_stake",
+            EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
 }
@@ -166,6 +169,7 @@ mod tests {
             EliminationRule::StepAcquisition,
             EliminationRule::LossOfControl,
             EliminationRule::ChangeInStake,
+            EliminationRule::GroupAdjustment,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -184,7 +188,8 @@ mod tests {
                 "non_controlling_interest",
                 "step_acquisition",
                 "loss_of_control",
-                "change_in_stake"
+                "change_in_stake",
+                "group_adjustment"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

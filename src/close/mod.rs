@@ -12,10 +12,11 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `step_acquisition`, `loss_of_control`, `equity_method`, and after the NCI
-//!   `change_in_stake` (which corrects the NCI rows). A subsidiary sold in the
-//!   year contributes what the close at its last month end consolidated gives it
-//!   (`loss_of_control.rs`, which runs that close).
+//!   `step_acquisition`, `loss_of_control`, `equity_method`, then the top-side
+//!   entries (`topside`, rule `group_adjustment`), which the NCI shares where a line
+//!   names a subsidiary, and after the NCI `change_in_stake` (which corrects the NCI
+//!   rows). A subsidiary sold in the year contributes what the close at its last month
+//!   end consolidated gives it (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -43,6 +44,7 @@ pub mod prove;
 pub mod reserves;
 pub mod roll_up;
 pub mod step_acquisition;
+pub mod topside;
 pub mod unrealised_profit;
 pub mod view;
 
@@ -147,6 +149,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
+    topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
     let mut nci = nci::post(&mut j, &cx, &for_nci);

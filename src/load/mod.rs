@@ -4,6 +4,7 @@
 //! run shows everything wrong with a delivery. It knows nothing about accounting rules
 //! beyond the shape of each file; `validate` checks the rules.
 
+pub mod adjustments;
 mod cash_flow_lines;
 pub mod daily;
 mod documents;
@@ -131,6 +132,9 @@ pub struct Dataset {
     pub net_investments: Vec<NetInvestment>,
     /// Shares bought and sold (optional `ownership_changes.csv`).
     pub ownership_changes: Vec<OwnershipChange>,
+    /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
+    /// `close::topside`.
+    pub group_adjustments: adjustments::GroupAdjustments,
     /// The statement of cash flows' line per group account (optional
     /// `cash_flow_lines.csv`; `None` when the file does not exist).
     pub cash_flow_lines: Option<Vec<crate::cash_flows::LineDef>>,
@@ -233,6 +237,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
     let ownership_changes =
         ownership::load_ownership_changes(root, &ent_dir.join(ownership::OWNERSHIP_CHANGES_FILE), &mut f, &mut inputs);
+    let group_adjustments = adjustments::load_group_adjustments(
+        root,
+        &ent_dir.join(adjustments::GROUP_ADJUSTMENTS_FILE),
+        &mut f,
+        &mut inputs,
+    );
     let cash_flow_lines =
         cash_flow_lines::load_cash_flow_lines(root, &ent_dir.join("cash_flow_lines.csv"), &mut f, &mut inputs);
     let accepted_differences =
@@ -261,6 +271,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             segment_accounts,
             net_investments,
             ownership_changes,
+            group_adjustments,
             cash_flow_lines,
             accepted_differences,
             delivered_entities: delivered,
@@ -466,6 +477,7 @@ pub const ENTITY_FILES: &[&str] = &[
     "cash_flow_lines.csv",
     crate::intercompany::ACCEPTED_FILE,
     ownership::OWNERSHIP_CHANGES_FILE,
+    adjustments::GROUP_ADJUSTMENTS_FILE,
 ];
 
 /// The files tessera reads under `rates/`.
