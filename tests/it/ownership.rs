@@ -193,6 +193,12 @@ fn the_month_of_a_sale_shows_the_gain_and_the_reclassification() {
         v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "loss_of_control").collect();
     assert_eq!(entries.len(), 1, "{:#}", v["eliminations"]);
 
+    // The trace of the gain: P's own gain of 400 and the entry's lines, reconciled.
+    let (code, text) =
+        crate::support::run(&["trace", "--data", f.path().to_str().unwrap(), "--period", "2026-04", "4700"]);
+    assert_eq!(code, 0, "{text}");
+    assert!(text.contains("loss_of_control") && text.contains("(128.00)") && text.contains("reconciles"), "{text}");
+
     // March, before the sale: S consolidated as usual, no disposal row.
     let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
     assert_eq!(code, 0, "{:#}", v["findings"]);
