@@ -461,17 +461,17 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     out
 }
 
-/// What of the subsidiary's acquisition the derecognition does not handle yet.
+/// What of the subsidiary's acquisition a sale or a change in stake does not handle yet.
 fn acquisition_obstacles(ds: &Dataset, c: &OwnershipChange, before_day: NaiveDate) -> Vec<String> {
     let mut why = Vec::new();
     match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date <= before_day) {
         None => why.push("acquisitions.csv has no acquisition of it before the date".into()),
         Some(a) => {
             if a.nci_measurement == NciMeasurement::FairValue && a.nci_fair_value.is_some_and(|v| !v.is_zero()) {
-                why.push("its NCI was measured at fair value (the NCI's goodwill is not derecognised yet)".into());
+                why.push("its NCI was measured at fair value (the NCI's part of goodwill is not handled yet)".into());
             }
             if !a.fair_value_adjustment.is_zero() {
-                why.push("its acquisition has a fair value adjustment (not derecognised yet)".into());
+                why.push("its acquisition has a fair value adjustment (not handled yet)".into());
             }
         }
     }
