@@ -470,7 +470,7 @@ fn acquisition_obstacles(ds: &Dataset, c: &OwnershipChange, before_day: NaiveDat
             if a.nci_measurement == NciMeasurement::FairValue && a.nci_fair_value.is_some_and(|v| !v.is_zero()) {
                 why.push("its NCI was measured at fair value (the NCI's part of goodwill is not handled yet)".into());
             }
-            if !a.fair_value_adjustment.is_zero() {
+            if !a.fair_value_adjustment.is_zero() || ds.uplifts.iter().any(|u| u.owned == c.owned) {
                 why.push("its acquisition has a fair value adjustment (not handled yet)".into());
             }
         }

@@ -214,6 +214,8 @@ pub mod fixture {
             cost_of_sales: Some(acct("5000")),
             goodwill_impairment: None,
             bargain_purchase_gain: None,
+            deferred_tax: None,
+            deferred_tax_expense: None,
         }
     }
 

@@ -29,6 +29,10 @@ pub enum EliminationRule {
     UnrealisedProfit,
     /// `investment.rs`: investment against equity at acquisition, goodwill.
     InvestmentAndGoodwill,
+    /// `fair_value.rs`: depreciation of the fair value adjustments at acquisition.
+    FairValueDepreciation,
+    /// `fair_value.rs`: release of the deferred tax on those adjustments (IAS 12.19).
+    FairValueDeferredTax,
     /// `equity_method.rs`: the share of an associate's or joint venture's results.
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
@@ -54,6 +58,8 @@ impl EliminationRule {
             EliminationRule::NetInvestmentFx => "net_investment_fx",
             EliminationRule::UnrealisedProfit => "unrealised_profit",
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
+            EliminationRule::FairValueDepreciation => "fair_value_depreciation",
+            EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
             EliminationRule::StepAcquisition => "step_acquisition",
@@ -164,6 +170,8 @@ mod tests {
             EliminationRule::NetInvestmentFx,
             EliminationRule::UnrealisedProfit,
             EliminationRule::InvestmentAndGoodwill,
+            EliminationRule::FairValueDepreciation,
+            EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
             EliminationRule::StepAcquisition,
@@ -184,6 +192,8 @@ mod tests {
                 "net_investment_fx",
                 "unrealised_profit",
                 "investment_and_goodwill",
+                "fair_value_depreciation",
+                "fair_value_deferred_tax",
                 "equity_method",
                 "non_controlling_interest",
                 "step_acquisition",

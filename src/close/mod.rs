@@ -12,11 +12,12 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `step_acquisition`, `loss_of_control`, `equity_method`, then the top-side
-//!   entries (`topside`, rule `group_adjustment`), which the NCI shares where a line
-//!   names a subsidiary, and after the NCI `change_in_stake` (which corrects the NCI
-//!   rows). A subsidiary sold in the year contributes what the close at its last month
-//!   end consolidated gives it (`loss_of_control.rs`, which runs that close).
+//!   `fair_value` (depreciation of the fair value adjustments), `step_acquisition`,
+//!   `loss_of_control`, `equity_method`, then the top-side entries (`topside`, rule
+//!   `group_adjustment`), which the NCI shares where a line names a subsidiary, and
+//!   after the NCI `change_in_stake` (which corrects the NCI rows). A subsidiary sold in
+//!   the year contributes what the close at its last month end consolidated gives it
+//!   (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -32,7 +33,9 @@ pub mod check;
 pub mod context;
 pub mod dividends;
 pub mod equity_method;
+pub mod fair_value;
 pub mod ifric16;
+pub mod impairment;
 pub mod intercompany;
 pub mod investment;
 pub mod journal;
@@ -95,6 +98,30 @@ pub struct OperationReserveRow {
     pub reserve: Decimal,
 }
 
+/// The findings of `fair_value_adjustments.csv` for the close's structure.
+fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
+    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= cx.period);
+    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper)
+}
+
+/// The findings of `goodwill_impairments.csv` for the close.
+fn impairment_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
+    let has_rate = |e: &EntityId, p: Period| impairment_rate_known(ds, e, p);
+    let when = (cx.period, cx.fiscal_start);
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    impairment::findings(&ds.impairments, &ds.acquisitions, when, cx.roles, &has_rate, &method_of)
+}
+
+/// Whether `rates/monthly.csv` has month `p` (its closing and average rates, either of
+/// which the impairment policy may ask for) for `e`'s currency; always true in the
+/// presentation currency.
+pub(crate) fn impairment_rate_known(ds: &Dataset, e: &EntityId, p: Period) -> bool {
+    let Some(c) = ds.entity(e).map(|x| x.currency) else { return true };
+    c == ds.settings.presentation_currency || ds.rates.iter().any(|r| r.currency == c && r.period == p)
+}
+
 /// A close on year-to-date balances at one period end.
 pub struct Close {
     pub period: Period,
@@ -138,10 +165,19 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let year_parts = ifric16::parts_of_year(&cx, &operations);
     ifric16::post(&mut j, &cx, &year_parts);
     net_investment::post(&mut j, &cx, &ds.net_investments, &before);
-    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, &mut findings);
+    let tax = fair_value::DeferredTax::of(ds);
+    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, tax.as_ref(), &mut findings);
     let invest = investment::investments(&cx);
     let months = investment::investment_months(t, &cx, &invest)?;
-    let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &mut findings);
+    let rates = fair_value::ExpenseRates::of(ds);
+    let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
+    let records =
+        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
+    let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
+    findings.extend(fair_value_findings(ds, &cx));
+    findings.extend(impairment_findings(ds, &cx));
+    findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
+    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
     step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);

@@ -70,13 +70,19 @@ fn post_one(
     // A top-side line naming the subsidiary (or booked in its sub-group without naming
     // another entity) is its figure, shared by its NCI (IFRS 10.B94; close/topside.rs).
     let topside = own_sum(own, &[EliminationRule::GroupAdjustment], &|l| cx.is_equity_or_flow(&l.account));
+    // The depreciation of the fair value adjustments to date (earlier years', the
+    // year's expense and its exchange difference) reduces the net assets the NCI
+    // shares, as the adjustments at acquisition were part of them.
+    let fair_value_rules = [EliminationRule::FairValueDepreciation, EliminationRule::FairValueDeferredTax];
+    let depreciation = own_sum(own, &fair_value_rules, &|l| cx.is_equity_or_flow(&l.account));
     // The fair value adjustment at the closing rate is part of the subsidiary's net
     // assets in the group, as it was part of the net assets acquired. A holder's
     // exchange difference of the year on its investments in subsidiaries is eliminated
     // (the investment rule): its NCI's share of that exchange exposure is already in
     // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
     let holder_fx = of(&m.investment_fx);
-    let post = equity_total + of(&m.fair_value_now) - unrealised - topside - of(&m.pre_acquisition) - holder_fx;
+    let post =
+        equity_total + of(&m.fair_value_now) - unrealised - topside - depreciation - of(&m.pre_acquisition) - holder_fx;
     let nci_post = cx.round(post * e.nci);
     // No adjustment for the holder's investments in its own subsidiaries: each
     // subsidiary's NCI at acquisition is its direct outside share (or fair value), and
@@ -85,12 +91,16 @@ fn post_one(
     // Deducting the holder's NCI's share of the investment's cost as well would count
     // that part twice. Results before control are not the group's (nor the NCI's); the
     // subsidiary's result as the group sees it also moves by its unrealised profit, the
-    // net investment difference moved to OCI and the top-side lines that name it.
+    // net investment difference moved to OCI and the top-side lines that name it. The
+    // depreciation of the fair value adjustments is the subsidiary's expense in the
+    // group, and its exchange difference the subsidiary's OCI: the NCI shares both.
     let not_the_groups = [
         EliminationRule::PreAcquisitionResults,
         EliminationRule::UnrealisedProfit,
         EliminationRule::NetInvestmentFx,
         EliminationRule::GroupAdjustment,
+        EliminationRule::FairValueDepreciation,
+        EliminationRule::FairValueDeferredTax,
     ];
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
@@ -170,5 +180,49 @@ mod tests {
         assert_eq!(lines(entry), [("3900".into(), "S".into(), "-65".into()), ("3200".into(), "S".into(), "65".into())]);
         let r = &rows[0];
         assert_eq!((r.nci_share, r.profit, r.oci, r.equity), (d("0.2"), d("15"), d("10"), d("165")));
+    }
+
+    /// The same S with a plant fair value adjustment of EUR 600 at the closing rate
+    /// (measured by the investment rule) and its depreciation entry: 24 off the plant,
+    /// an expense of 23 and an exchange loss of 1 in OCI. Post-acquisition equity
+    /// 850 + 600 - 24 - 500 = 926, the NCI's 20% = 185.20. NCI row: profit 20% x
+    /// (100 - 23) = 15.40, OCI 20% x (50 - 1) = 9.80 (IAS 21.41).
+    #[test]
+    fn the_nci_bears_its_share_of_the_fair_value_depreciation() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let s = id("S");
+        j.post(
+            EliminationRule::FairValueDepreciation,
+            id("P"),
+            vec![s.clone()],
+            "depreciation".into(),
+            vec![
+                line(&acct("1300"), &s, None, d("-24")),
+                line(&acct("5000"), &s, None, d("23")),
+                line(&acct("9000"), &s, None, d("1")),
+            ],
+        );
+        let measured = ForNci {
+            pre_acquisition: BTreeMap::from([(s.clone(), d("500"))]),
+            fair_value_now: BTreeMap::from([(s.clone(), d("600"))]),
+            ..ForNci::default()
+        };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(
+            lines(entry),
+            [("3900".into(), "S".into(), "-185.2".into()), ("3200".into(), "S".into(), "185.2".into())]
+        );
+        let r = &rows[0];
+        assert_eq!((r.profit, r.oci, r.equity), (d("15.4"), d("9.8"), d("185.2")));
     }
 }

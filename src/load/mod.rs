@@ -8,6 +8,8 @@ pub mod adjustments;
 mod cash_flow_lines;
 pub mod daily;
 mod documents;
+mod fair_values;
+mod impairments;
 mod ledger;
 pub mod machine;
 mod ownership;
@@ -127,6 +129,13 @@ pub struct Dataset {
     pub historical_rates: Vec<HistoricalRate>,
     pub acquisitions: Vec<Acquisition>,
     pub inventory_profits: Vec<InventoryProfit>,
+    /// Fair value adjustments of acquired subsidiaries (optional
+    /// `fair_value_adjustments.csv`).
+    pub uplifts: Vec<Uplift>,
+    /// Goodwill impairments by month (optional `goodwill_impairments.csv`).
+    pub impairments: Vec<GoodwillImpairment>,
+    /// Income tax rates per entity (optional `tax_rates.csv`).
+    pub tax_rates: Vec<TaxRate>,
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
@@ -233,6 +242,9 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
+    let uplifts = fair_values::load_uplifts(root, &ent_dir.join(FAIR_VALUES_FILE), &mut f, &mut inputs);
+    let impairments = impairments::load_impairments(root, &ent_dir.join(IMPAIRMENTS_FILE), &mut f, &mut inputs);
+    let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
     let ownership_changes =
@@ -268,6 +280,9 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             historical_rates,
             acquisitions,
             inventory_profits,
+            uplifts,
+            impairments,
+            tax_rates,
             segment_accounts,
             net_investments,
             ownership_changes,
@@ -463,6 +478,13 @@ fn unknown_folder_finding(name: &str, known: &BTreeMap<EntityId, Currency>) -> F
     }
 }
 
+/// The fair value adjustments of acquired subsidiaries, with their useful lives.
+pub const FAIR_VALUES_FILE: &str = "fair_value_adjustments.csv";
+/// Goodwill impairments with the month each is recognised in.
+pub const IMPAIRMENTS_FILE: &str = "goodwill_impairments.csv";
+/// Income tax rates per entity, for deferred tax on consolidation adjustments.
+pub const TAX_RATES_FILE: &str = "tax_rates.csv";
+
 /// The files tessera reads directly under `entities/` (besides the entity folders).
 pub const ENTITY_FILES: &[&str] = &[
     "group.toml",
@@ -472,6 +494,9 @@ pub const ENTITY_FILES: &[&str] = &[
     "layouts.csv",
     "acquisitions.csv",
     "inventory_profit.csv",
+    FAIR_VALUES_FILE,
+    IMPAIRMENTS_FILE,
+    TAX_RATES_FILE,
     "segment_accounts.csv",
     "net_investment.csv",
     "cash_flow_lines.csv",

@@ -466,7 +466,7 @@ fn cases() -> Vec<Case> {
             mutate: |f| {
                 f.replace(
                     "entities/acquisitions.csv",
-                    "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+                    "GLF-BH,2026-04-01,1474070.400,fair_value,523047.134,1245350.320,3041415.90",
                     "GLF-BH,2026-04-01,999999999999999.999,fair_value,999999999999999.999,-999999999999999.999,999999999999999.99",
                 )
             },
@@ -725,7 +725,7 @@ fn extreme_values_within_the_limits_do_not_panic() {
     let f = Folder::demo();
     f.replace(
         "entities/acquisitions.csv",
-        "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+        "GLF-BH,2026-04-01,1474070.400,fair_value,523047.134,1245350.320,3041415.90",
         "GLF-BH,2026-04-01,9999999999999.999,fair_value,9999999999999.999,-9999999999999.999,9999999999999.99",
     );
     map_lines(&f, "rates/monthly.csv", |_, l| {
