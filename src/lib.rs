@@ -20,6 +20,7 @@ pub mod load;
 pub mod map_accounts;
 pub mod model;
 pub mod money;
+pub mod ownership;
 pub mod progress;
 pub mod proof;
 pub mod rates;
