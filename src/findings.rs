@@ -130,6 +130,13 @@ pub enum Rule {
     SegmentsExternalRevenueShort,
     /// An account that moves has no line in cash_flow_lines.csv (IAS 7).
     CashFlowLineMissing,
+    /// A top-side entry of group_adjustments.csv whose lines do not sum to zero.
+    GroupAdjustmentUnbalanced,
+    /// A top-side entry's scope is not the parent or the holding entity of a sub-group,
+    /// or a line names an entity outside that sub-group.
+    GroupAdjustmentScopeInvalid,
+    /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
+    GroupAdjustmentInconsistent,
 }
 
 impl Rule {

@@ -37,6 +37,8 @@ pub enum EliminationRule {
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
+    GroupAdjustment,
 }
 
 impl EliminationRule {
@@ -54,6 +56,7 @@ impl EliminationRule {
             EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
 }
@@ -162,6 +165,7 @@ mod tests {
             EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::GroupAdjustment,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -179,7 +183,8 @@ mod tests {
                 "fair_value_depreciation",
                 "fair_value_deferred_tax",
                 "equity_method",
-                "non_controlling_interest"
+                "non_controlling_interest",
+                "group_adjustment"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

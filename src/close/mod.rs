@@ -12,7 +12,9 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `fair_value` (depreciation of the fair value adjustments), `equity_method`.
+//!   `fair_value` (depreciation of the fair value adjustments), `equity_method`, then
+//!   the top-side entries (`topside`, rule `group_adjustment`), which the NCI shares
+//!   where a line names a subsidiary.
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -39,6 +41,7 @@ pub mod pre_acquisition;
 pub mod prove;
 pub mod reserves;
 pub mod roll_up;
+pub mod topside;
 pub mod unrealised_profit;
 pub mod view;
 
@@ -165,6 +168,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
+    topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
     let nci = nci::post(&mut j, &cx, &for_nci);
