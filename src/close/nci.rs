@@ -67,22 +67,21 @@ fn post_one(
     // Unrealised profit the subsidiary made on sales inside the group reduces its
     // post-acquisition equity, and so the NCI's share (upstream).
     let unrealised = own_sum(own, &[EliminationRule::UnrealisedProfit], &|l| cx.is_equity_or_flow(&l.account));
+    // A top-side line naming the subsidiary (or booked in its sub-group without naming
+    // another entity) is its figure, shared by its NCI (IFRS 10.B94; close/topside.rs).
+    let topside = own_sum(own, &[EliminationRule::GroupAdjustment], &|l| cx.is_equity_or_flow(&l.account));
     // The depreciation of the fair value adjustments to date (earlier years', the
     // year's expense and its exchange difference) reduces the net assets the NCI
     // shares, as the adjustments at acquisition were part of them.
     let fair_value_rules = [EliminationRule::FairValueDepreciation, EliminationRule::FairValueDeferredTax];
     let depreciation = own_sum(own, &fair_value_rules, &|l| cx.is_equity_or_flow(&l.account));
-    // A top-side line naming the subsidiary (or booked in its sub-group without naming
-    // another entity) is its figure, shared by its NCI (IFRS 10.B94; close/topside.rs).
-    let topside = own_sum(own, &[EliminationRule::GroupAdjustment], &|l| cx.is_equity_or_flow(&l.account));
     // The fair value adjustment at the closing rate is part of the subsidiary's net
     // assets in the group, as it was part of the net assets acquired. A holder's
     // exchange difference of the year on its investments in subsidiaries is eliminated
     // (the investment rule): its NCI's share of that exchange exposure is already in
     // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
     let holder_fx = of(&m.investment_fx);
-    let post =
-        equity_total + of(&m.fair_value_now) - unrealised - depreciation - topside - of(&m.pre_acquisition) - holder_fx;
+    let post = equity_total + of(&m.fair_value_now) - unrealised - topside - depreciation - of(&m.pre_acquisition) - holder_fx;
     let nci_post = cx.round(post * e.nci);
     // No adjustment for the holder's investments in its own subsidiaries: each
     // subsidiary's NCI at acquisition is its direct outside share (or fair value), and
@@ -91,16 +90,16 @@ fn post_one(
     // Deducting the holder's NCI's share of the investment's cost as well would count
     // that part twice. Results before control are not the group's (nor the NCI's); the
     // subsidiary's result as the group sees it also moves by its unrealised profit, the
-    // net investment difference moved to OCI and the top-side lines that name it.
-    // The depreciation of the fair value adjustments is the subsidiary's expense in the
+    // net investment difference moved to OCI and the top-side lines that name it. The
+    // depreciation of the fair value adjustments is the subsidiary's expense in the
     // group, and its exchange difference the subsidiary's OCI: the NCI shares both.
     let not_the_groups = [
         EliminationRule::PreAcquisitionResults,
         EliminationRule::UnrealisedProfit,
         EliminationRule::NetInvestmentFx,
+        EliminationRule::GroupAdjustment,
         EliminationRule::FairValueDepreciation,
         EliminationRule::FairValueDeferredTax,
-        EliminationRule::GroupAdjustment,
     ];
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
