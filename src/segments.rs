@@ -1067,6 +1067,7 @@ mod tests {
             basis: Basis::Average,
             ic_kind: None,
             non_current,
+            reserve: None,
             source: Source::file("accounts.csv"),
         }
     }
