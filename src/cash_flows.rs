@@ -821,6 +821,7 @@ mod tests {
             basis: Basis::Closing,
             ic_kind: None,
             non_current: false,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         }
     }

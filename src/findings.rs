@@ -144,6 +144,8 @@ pub enum Rule {
     GroupAdjustmentScopeInvalid,
     /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
     GroupAdjustmentInconsistent,
+    /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
+    ComparisonUnavailable,
 }
 
 impl Rule {

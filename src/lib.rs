@@ -10,6 +10,7 @@ pub mod cash_flows;
 pub mod cli;
 pub mod close;
 pub mod commands;
+pub mod compare;
 pub mod equity;
 pub mod findings;
 pub mod generate;

@@ -488,6 +488,9 @@ pub struct AccountDef {
     pub basis: Basis,
     pub ic_kind: Option<String>,
     pub non_current: bool,
+    /// For an OCI account, the equity reserve its amounts accumulate into (revaluation,
+    /// hedging, ...); `None` is the translation reserve (`accounts.translation_reserve`).
+    pub reserve: Option<GroupAccount>,
     pub source: Source,
 }
 

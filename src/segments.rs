@@ -1070,6 +1070,7 @@ mod tests {
             basis: Basis::Average,
             ic_kind: None,
             non_current,
+            reserve: None,
             source: Source::file("accounts.csv"),
         }
     }

@@ -162,6 +162,7 @@ pub mod fixture {
             basis: Basis::Closing,
             ic_kind: ic_kind.map(String::from),
             non_current: false,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         }
     }

@@ -472,6 +472,7 @@ mod tests {
             basis: Basis::Closing,
             ic_kind: None,
             non_current: true,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         });
         w
@@ -620,6 +621,7 @@ mod tests {
                 basis: Basis::Closing,
                 ic_kind: None,
                 non_current: false,
+                reserve: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }

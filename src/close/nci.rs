@@ -1,6 +1,8 @@
 //! Rule `non_controlling_interest`: the effective outside share of each subsidiary's
 //! post-acquisition equity (IFRS 10.22, B94), profit, OCI and translation difference
-//! included (IAS 21.41), multi-tier through effective interests. Also the NCI rows: the
+//! included (IAS 21.41), multi-tier through effective interests, posted against each
+//! reserve the chart names for its part (`reserve` of accounts.csv, IAS 1.106(a)) and
+//! retained earnings for the rest (the translation reserve's part included). Also the NCI rows: the
 //! NCI's share of the subsidiary's profit and OCI of the year and its NCI in equity.
 //!
 //! It reads the journal posted so far: each subsidiary's own lines of the earlier rules
@@ -108,6 +110,15 @@ fn post_one(
     };
     let profit = -result_of(Statement::ProfitOrLoss);
     let oci = -result_of(Statement::Oci) + of(&m.fair_value_oci) - holder_fx;
+    // The NCI's share leaves each reserve the chart names for its part, the rest
+    // leaves retained earnings (which include the translation reserve's part).
+    let from_reserves = reserve_shares(cx, e, own);
+    let from_retained = nci_post - from_reserves.iter().map(|(_, x)| *x).sum::<Decimal>();
+    let mut lines = vec![
+        line(&roles.non_controlling_interest, &e.id, None, -nci_post),
+        line(&roles.retained_earnings, &e.id, None, from_retained),
+    ];
+    lines.extend(from_reserves.iter().map(|(r, x)| line(r, &e.id, None, *x)));
     j.post(
         EliminationRule::NonControllingInterest,
         cx.parent_of(e),
@@ -118,10 +129,7 @@ fn post_one(
             money::format_amount(post, cx.minor),
             e.id
         ),
-        vec![
-            line(&roles.non_controlling_interest, &e.id, None, -nci_post),
-            line(&roles.retained_earnings, &e.id, None, nci_post),
-        ],
+        lines,
     );
     // The NCI at acquisition, posted by the investment rule.
     let nci_acq =
@@ -133,6 +141,32 @@ fn post_one(
         oci: cx.round(oci * e.nci) + of(&m.nci_goodwill_oci),
         equity: nci_acq + nci_post,
     }
+}
+
+/// The NCI's share of the subsidiary's post-acquisition amount in each reserve the
+/// chart names (`reserve` of accounts.csv; IAS 1.106(a), (d): each component of equity
+/// attributed between the owners and the NCI), debit positive: the reserve's own
+/// balance and the OCI accounts accumulating into it, with the subsidiary's journal
+/// lines so far on them (what the investment entry removed at acquisition).
+fn reserve_shares(
+    cx: &Context,
+    e: &EntityStructure,
+    own: &[(EliminationRule, &EntryLine)],
+) -> Vec<(GroupAccount, Decimal)> {
+    let named: std::collections::BTreeSet<&GroupAccount> =
+        cx.chart.values().filter_map(|d| d.reserve.as_ref()).filter(|r| **r != cx.roles.translation_reserve).collect();
+    let into =
+        |a: &GroupAccount, r: &GroupAccount| a == r || cx.chart.get(a).and_then(|d| d.reserve.as_ref()) == Some(r);
+    named
+        .into_iter()
+        .map(|r| {
+            let books: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| into(a, r)).map(|(_, v)| *v).sum();
+            let journal: Decimal = own.iter().filter(|(_, l)| into(&l.account, r)).map(|(_, l)| l.amount).sum();
+            // A reserve is a credit; the NCI's share of it leaves the reserve as a debit.
+            (r.clone(), cx.round(-(books + journal) * e.nci))
+        })
+        .filter(|(_, x)| !x.is_zero())
+        .collect()
 }
 
 #[cfg(test)]
@@ -224,5 +258,43 @@ mod tests {
         );
         let r = &rows[0];
         assert_eq!((r.profit, r.oci, r.equity), (d("15.4"), d("9.8"), d("185.2")));
+    }
+
+    /// S (80%) with a revaluation gain of 40 in OCI on 9100, which the chart puts in the
+    /// revaluation surplus 3400, besides the translation difference 50 on 9000 (to the
+    /// translation reserve). Equity 600 + 100 + 100 + 50 + 40 = 890 less 500 at
+    /// acquisition: 390, NCI 20% = 78. Of it, 20% x 40 = 8 leaves the revaluation
+    /// surplus and 70 retained earnings (which carry the translation reserve's part).
+    #[test]
+    fn the_nci_share_of_a_named_reserve_leaves_that_reserve() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let mut surplus = w.chart.iter().find(|a| a.account == acct("3300")).cloned().unwrap_or_else(|| panic!("3300"));
+        surplus.account = acct("3400");
+        let mut gains = w.chart.iter().find(|a| a.account == acct("9000")).cloned().unwrap_or_else(|| panic!("9000"));
+        gains.account = acct("9100");
+        gains.reserve = Some(acct("3400"));
+        w.chart.extend([surplus, gains]);
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+            ("S", "9100", None, "-40"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let measured = ForNci { pre_acquisition: BTreeMap::from([(id("S"), d("500"))]), ..ForNci::default() };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(
+            lines(entry),
+            [
+                ("3900".into(), "S".into(), "-78".into()),
+                ("3200".into(), "S".into(), "70".into()),
+                ("3400".into(), "S".into(), "8".into())
+            ]
+        );
+        assert_eq!(rows[0].oci, d("18"));
     }
 }

@@ -13,6 +13,7 @@ mod impairments;
 mod ledger;
 pub mod machine;
 mod ownership;
+pub mod plans;
 mod settings;
 pub mod table;
 
@@ -1028,7 +1029,7 @@ fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
 fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<AccountDef> {
     let spec = Spec {
         required: &["account", "name", "statement", "class", "basis"],
-        optional: &["ic_kind", "non_current"],
+        optional: &["ic_kind", "non_current", "reserve"],
         prefixes: &[],
     };
     let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
@@ -1126,6 +1127,7 @@ fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
             basis,
             ic_kind: t.get("ic_kind", row),
             non_current,
+            reserve: t.get("reserve", row).map(GroupAccount::new),
             source: Source::line(&t.file, line),
         });
     }

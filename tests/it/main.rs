@@ -11,6 +11,8 @@
 //!   (IAS 7 illustrative example A), a foreign subsidiary's exchange effect, the demo tied
 //!   in every month and view, the findings of cash_flow_lines.csv, a property test;
 //! - `close_oracle`: a property test of the close against a naive consolidation;
+//! - `compare`: `close --compare`: the walk adds up (demo, hand example, random groups),
+//!   the currency effect, a plan's findings;
 //! - `golden`: every output of the demo's main commands against the committed copies under
 //!   `tests/golden/` (regenerate with `TESSERA_GOLDEN=write`);
 //! - `generate`: the synthetic group passes `check`, closes tied from CSV and Parquet,
@@ -44,6 +46,7 @@ mod cash_flows;
 mod check;
 mod close;
 mod close_oracle;
+mod compare;
 mod currencies;
 mod delivery_basis;
 mod generate;
