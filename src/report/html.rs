@@ -488,7 +488,6 @@ mod tests {
         assert!(svg.starts_with("<svg") && svg.ends_with("</svg>"));
     }
 
-    #[test]
     /// Budget 100, currency -30, scope +50, actual 120: the scale runs from 0 to 120
     /// (each of 330 pixels is 4/11 of a unit), each step starts where the bar before it
     /// ended, and down steps are drawn leftwards.
@@ -516,6 +515,7 @@ mod tests {
         waterfall_chart("walk", ("budget", d("1")), &[], ("actual", d("2")), 2);
     }
 
+    #[test]
     fn text_is_escaped() {
         assert_eq!(escape(r#"R&D <x> "y""#), "R&amp;D &lt;x&gt; &quot;y&quot;");
     }
