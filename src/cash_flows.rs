@@ -55,6 +55,11 @@
 //! must be the proceeds less the cash disposed, or the proof names the difference (a
 //! profit or loss elimination about the subsidiary other than the gain, say).
 //!
+//! Dividends from equity-accounted investees (the holder's income on a `dividend`
+//! account naming one) stay in operating activities, or, under
+//! `policies.associate_dividends = "investing"`, are taken out of operating and shown in
+//! investing (IAS 7.31-33, 7.38); the share of their results is reversed as non-cash.
+//!
 //! Not supported: a subsidiary acquired and sold in the same view, an entity consolidated
 //! at the opening but not at the closing other than by a sale (each fails the proof, never
 //! a guess), and the direct method.
@@ -150,6 +155,12 @@ pub const FAIR_VALUE_DEPRECIATION: &str = "fair_value_depreciation";
 const FAIR_VALUE_DEPRECIATION_LABEL: &str = "Depreciation of fair value adjustments";
 pub const SHARE_OF_ASSOCIATES: &str = "share_of_associates";
 pub const UNCLASSIFIED: &str = "unclassified";
+/// Dividends received from equity-accounted investees under the policy `investing`
+/// (IAS 7.31-33): taken out of profit before tax in operating, shown in investing.
+pub const ASSOCIATE_DIVIDEND_INCOME: &str = "associate_dividend_income";
+const ASSOCIATE_DIVIDEND_INCOME_LABEL: &str = "Dividends from associates and joint ventures (in investing)";
+pub const ASSOCIATE_DIVIDENDS: &str = "dividends_from_associates";
+const ASSOCIATE_DIVIDENDS_LABEL: &str = "Dividends received from associates and joint ventures";
 /// Not a line: the journal's movement on the cash of a subsidiary sold.
 const CASH_DISPOSED: &str = "cash_disposed";
 /// Changes in ownership interests in subsidiaries that do not result in a loss of control
@@ -351,6 +362,10 @@ pub fn cash_flows(
             continue;
         }
         route(&chart, &class, nci_line.as_deref(), root, e, a, flow, &mut add, &mut unclassified);
+        if cp.as_ref().is_some_and(|c| dividend_in_investing(ds, s, &chart, c, a)) {
+            add(ASSOCIATE_DIVIDEND_INCOME, -flow);
+            add(ASSOCIATE_DIVIDENDS, flow);
+        }
     }
 
     // The elimination journal's movement between the two closes.
@@ -514,6 +529,7 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
             push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
             push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
             push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+            push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
         }
     }
     push(Section::Operating, PROFIT_BEFORE_TAX, "Profit before tax", &mut order);
@@ -521,8 +537,10 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
     push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
     push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+    push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
     push(Section::Investing, DISPOSALS, DISPOSALS_LABEL, &mut order);
+    push(Section::Investing, ASSOCIATE_DIVIDENDS, ASSOCIATE_DIVIDENDS_LABEL, &mut order);
     push(Section::Financing, NCI_TRANSACTIONS, NCI_TRANSACTIONS_LABEL, &mut order);
     push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
     order
@@ -537,8 +555,10 @@ fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) 
         FAIR_VALUE_DEPRECIATION,
         SHARE_OF_ASSOCIATES,
         GAIN_ON_DISPOSAL,
+        ASSOCIATE_DIVIDEND_INCOME,
         ACQUISITIONS,
         DISPOSALS,
+        ASSOCIATE_DIVIDENDS,
         NCI_TRANSACTIONS,
         UNCLASSIFIED,
     ];
@@ -604,6 +624,24 @@ fn stake_changes_in_view(opening: &Close, closing: &Close) -> BTreeMap<EntityId,
         *out.entry(x.entity.clone()).or_default() += x.cash;
     }
     out
+}
+
+/// Whether a flow on `a` naming `c` is a dividend from an equity-accounted investee to be
+/// shown in investing (`policies.associate_dividends`, IAS 7.31-33): the holder's income
+/// on a `dividend` account. Under `operating` it stays in profit before tax, where the
+/// share of the investee's result is reversed on its own line.
+fn dividend_in_investing(
+    ds: &Dataset,
+    s: &GroupStructure,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    c: &EntityId,
+    a: &GroupAccount,
+) -> bool {
+    ds.settings.policies.associate_dividends == DividendsReceived::Investing
+        && chart
+            .get(a)
+            .is_some_and(|d| d.statement == Statement::ProfitOrLoss && d.ic_kind.as_deref() == Some("dividend"))
+        && s.entity(c).is_some_and(|x| x.method == Method::Equity)
 }
 
 /// The line of a holder's flows on its investment in `c` when its ownership changed in

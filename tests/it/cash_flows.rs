@@ -719,3 +719,68 @@ fn a_subsidiary_acquired_and_sold_in_the_year_blocks_with_a_statement() {
     f.remove("entities/cash_flow_lines.csv");
     assert!(!blocked(&f));
 }
+
+/// A group of `P` and its associate `A` (30%, equity method, IAS 28.5) in the chart of
+/// the case folders, with `policy` for dividends from associates.
+fn associate_group(policy: Option<&str>) -> Folder {
+    let f = stake_case("change-in-stake-purchase");
+    f.remove("entities/ownership_changes.csv");
+    std::fs::remove_dir_all(f.path().join("entities/S")).expect("remove S");
+    if let Some(p) = policy {
+        f.replace("entities/group.toml", "[policies]\n", &format!("[policies]\nassociate_dividends = \"{p}\"\n"));
+    }
+    f.write("entities/entities.csv", "entity,name,country,currency\nP,P Ltd,GB,EUR\nA,A SA,FR,EUR\n");
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,A,0.3,0.3,2020-01-01,\n",
+    );
+    f.write(
+        "entities/acquisitions.csv",
+        "owned,date,consideration,nci_measurement,nci_fair_value,net_assets,net_assets_presentation,impairment,note\nA,2020-01-01,150,share_of_net_assets,,500,500,0,30%\n",
+    );
+    f.write(
+        "entities/P/opening.csv",
+        "account,amount,counterparty,amount_presentation\n1000,1000,,\n1300,150,A,\n3000,-1150,,-1150\n",
+    );
+    f.write(
+        "entities/P/tb-2026.movements.csv",
+        "period,account,amount,counterparty\n2026-01,1000,12,\n2026-01,4200,-12,A\n",
+    );
+    f.write("entities/A/mapping.csv", &f.read("entities/P/mapping.csv"));
+    f.write("entities/A/opening.csv", "account,amount,counterparty,amount_presentation\n1000,500,,\n3000,-500,,-500\n");
+    f.write(
+        "entities/A/tb-2026.movements.csv",
+        "period,account,amount,counterparty\n2026-01,1000,60,\n2026-01,4000,-100,\n2026-01,3200,40,\n",
+    );
+    f
+}
+
+/// Worked by hand from IAS 7.31-33 (dividends received are classified consistently as
+/// operating or investing), IAS 7.37-38 (an investment accounted for by the equity
+/// method: the statement shows the cash flows between the investor and the investee,
+/// dividends) and IAS 28.10: P holds 30% of A; in January A earns 100 in cash and pays a
+/// dividend of 40, P receives 12 in cash and books it as dividend income. Group cash
+/// 1,000 -> 1,012, net change 12, with the share of A's result (30) no cash (its
+/// reversal and profit before tax together leave the dividend, 12, in operating):
+/// - policy `operating` (the default, and explicitly): operating 12, investing 0;
+/// - policy `investing`: the dividend taken out of operating (-12) and shown in
+///   investing (+12): operating 0, investing 12.
+#[test]
+fn dividends_from_an_associate_under_both_policies_ias7_31_33() {
+    for (policy, operating, investing) in
+        [(None, "12", "0"), (Some("operating"), "12", "0"), (Some("investing"), "0", "12")]
+    {
+        let f = associate_group(policy);
+        let v = close(f.path(), "2026-01", "ytd", &[]);
+        let l = lines(&v);
+        let get = |id: &str| l.get(id).copied().unwrap_or_default();
+        assert_eq!(totals(&v), [d(operating), d(investing), d("0"), d("12")], "{policy:?}: {l:?}");
+        assert_eq!(get("share_of_associates") + get("profit_before_tax"), d("12"), "{policy:?}: {l:?}");
+        assert_eq!(get("dividends_from_associates"), d(investing), "{policy:?}: {l:?}");
+        assert_eq!(get("associate_dividend_income"), -d(investing), "{policy:?}: {l:?}");
+    }
+    let f = associate_group(Some("financing"));
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1);
+    assert!(v["findings"].as_array().expect("findings").iter().any(|x| x["rule"] == "SettingInvalid"), "{v:#}");
+}
