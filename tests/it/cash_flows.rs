@@ -784,3 +784,46 @@ fn dividends_from_an_associate_under_both_policies_ias7_31_33() {
     assert_eq!(code, 1);
     assert!(v["findings"].as_array().expect("findings").iter().any(|x| x["rule"] == "SettingInvalid"), "{v:#}");
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 6, ..ProptestConfig::default() })]
+
+    /// Random sales of T on tests/cases/loss-of-control-retained-interest (the proceeds,
+    /// how much of January's and February's earnings T holds as inventory rather than
+    /// cash): in every view of March the statement ties, the disposal line is the
+    /// proceeds less T's cash at 28 February and the gain taken out is the case's gain
+    /// worked by hand, proceeds + 100 + 140 - 700 - 80 (IFRS 10.B98; IAS 7.39-42).
+    #[test]
+    fn random_disposals_tie_net_of_cash_disposed(proceeds in 0i64..200_000, stock in (0i64..=5_000, 0i64..=5_000)) {
+        let f = stake_case("loss-of-control-retained-interest");
+        let p = Decimal::new(proceeds, 2);
+        let (s1, s2) = (Decimal::new(stock.0, 2), Decimal::new(stock.1, 2));
+        f.replace("entities/ownership_changes.csv", ",700,100,", &format!(",{p},100,"));
+        f.replace(
+            "entities/P/tb-2026.movements.csv",
+            "2026-03,1000,700,\n2026-03,1400,-350,T\n2026-03,4700,-350,\n",
+            &format!("2026-03,1000,{p},\n2026-03,1400,-350,T\n2026-03,4700,{},\n", d("350") - p),
+        );
+        f.replace(
+            "entities/T/tb-2026.movements.csv",
+            "2026-01,1000,50,\n",
+            &format!("2026-01,1000,{},\n2026-01,1500,{s1},\n", d("50") - s1),
+        );
+        f.replace(
+            "entities/T/tb-2026.movements.csv",
+            "2026-02,1000,50,\n",
+            &format!("2026-02,1000,{},\n2026-02,1500,{s2},\n", d("50") - s2),
+        );
+        let cash_disposed = d("700") - s1 - s2;
+        let gain = p + d("100") + d("140") - d("700") - d("80");
+        for view in ["month", "qtd", "ytd"] {
+            let v = close(f.path(), "2026-03", view, &[]);
+            let l = lines(&v);
+            let get = |id: &str| l.get(id).copied().unwrap_or_default();
+            prop_assert_eq!(get("disposal_of_subsidiaries"), p - cash_disposed, "{} {:?}", view, l);
+            prop_assert_eq!(get("gain_on_disposal"), -gain, "{} {:?}", view, l);
+        }
+        let v = close(f.path(), "2026-03", "ytd", &[]);
+        prop_assert_eq!(totals(&v), [d("100") - s1 - s2, p - cash_disposed, d("0"), p - d("600")]);
+    }
+}
