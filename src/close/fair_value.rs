@@ -473,6 +473,7 @@ mod tests {
             ic_kind: None,
             non_current: true,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         });
         w
@@ -622,6 +623,7 @@ mod tests {
                 ic_kind: None,
                 non_current: false,
                 reserve: None,
+                monetary: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }

@@ -1,6 +1,6 @@
 //! Translation (IAS 21) against published examples, policies and a property test.
 
-use crate::support::{CHART, Folder, LAYOUT, identity_mapping, run_json, settings};
+use crate::support::{CHART, Folder, LAYOUT, ias29_chart, ias29_settings, identity_mapping, run_json, settings};
 
 /// A parent in EUR and one wholly owned subsidiary in `ccy`, with the given opening
 /// balance, one month of movements and rates (units of `ccy` per EUR).
@@ -29,6 +29,12 @@ fn build_through(c: &Case, hyper_from: &str, months: &[&str]) -> Folder {
         tb.push_str(&format!("{m},1000,0.00\n"));
     }
     f.write("entities/P/tb-2026-01.movements.csv", &tb);
+    if !hyper_from.is_empty() {
+        // What the IAS 29 restatement needs besides the price index: the chart's
+        // monetary column and the net monetary position's account.
+        f.write("entities/accounts.csv", &ias29_chart());
+        f.write("entities/group.toml", &ias29_settings(&settings("EUR", "P", c.rounding, c.income)));
+    }
     f
 }
 
@@ -234,13 +240,17 @@ fn rounding_ties_at_half_in_both_modes() {
 
 /// A hyperinflationary subsidiary (IAS 21.42(a)): from the first hyperinflationary period
 /// every item, equity and income included, is translated at the closing rate, after the
-/// IAS 29 restatement (which the entity delivers; tessera translates). Invented ARS
-/// figures, by hand: opening cash 1,000 and share capital 1,000 brought forward at
-/// EUR 80.00; ARS per EUR 10 at the opening, 20 at January's close, 15 average.
-/// January revenue 400: cash 1,400 / 20 = 70.00; share capital -1,000 / 20 = -50.00;
-/// revenue -400 / 20 = -20.00 (not -400 / 15 = -26.67). The month's translated movements:
-/// (70.00 - 100.00) + (-50.00 + 80.00) - 20.00 = -20.00, so the translation difference is
-/// +20.00 debit, -20.00 gains positive, all of it the hyperinflation line.
+/// IAS 29 restatement. Invented ARS figures, worked by hand: opening cash 1,000 and share
+/// capital 1,000 brought forward at EUR 80.00; ARS per EUR 10 at the opening, 20 at
+/// January's close, 15 average; price index 100 at the opening, 125 at January's end.
+/// Restated (IAS 29.12, 29.25-28): cash 1,400 kept; share capital 1,000 x 1.25 = 1,250;
+/// January revenue 400 as recorded; the net monetary asset of 1,000 held while prices
+/// rose 25% loses 250 (1,400 - 1,250 - 400 = -250, balanced by a debit of 250).
+/// Translated at 20: cash 70.00, share capital -62.50, revenue -20.00 (not -400 / 15 =
+/// -26.67), the loss 12.50. The month's translated movements: (70.00 - 100.00) +
+/// (-62.50 + 80.00) - 20.00 + 12.50 = -20.00, so the translation difference is +20.00
+/// debit, -20.00 gains positive, all of it the hyperinflation line: the translated
+/// balances of the month before (100.00 - 80.00 = 20.00) released.
 #[test]
 fn hyperinflationary_entity_at_closing_rate_throughout() {
     let f = build_through(
@@ -257,17 +267,22 @@ fn hyperinflationary_entity_at_closing_rate_throughout() {
         "2026-01",
         &["2026-01"],
     );
+    f.write("rates/price_index.csv", "currency,period,index\nARS,2025-12,100\nARS,2026-01,125\n");
     let (code, r) = run_json(f.path(), &["translate", "--period", "2026-01"]);
     assert_eq!(code, 0, "{r:#}");
     assert_eq!(r["proof"]["tied"], true);
     let s = entity(&r, "S");
     assert_eq!(dec(&line(s, "1000")["balance_presentation"]), "70.00");
-    assert_eq!(dec(&line(s, "3000")["balance_presentation"]), "-50.00");
+    assert_eq!(dec(&line(s, "3000")["balance_presentation"]), "-62.50");
+    assert_eq!(dec(&line(s, "3000")["balance_local"]), "-1250.00");
+    assert_eq!(dec(&line(s, "5150")["balance_local"]), "250.00");
+    assert_eq!(dec(&line(s, "5150")["balance_presentation"]), "12.50");
     assert_eq!(line(s, "3000")["rate_kind"], "closing");
     assert_eq!(dec(&line(s, "4000")["balance_presentation"]), "-20.00");
     assert_eq!(line(s, "4000")["rate_kind"], "closing");
     let m = &s["month"];
     assert_eq!(dec(&m["on_hyperinflation"]), "-20.00");
+    assert_eq!(dec(&m["rounding"]), "0.00");
     assert_eq!(dec(&m["total"]), "-20.00");
     assert_eq!(dec(&m["on_profit"]), "0.00");
 }
