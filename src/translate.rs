@@ -10,8 +10,8 @@
 //!   (21.39b, 21.40);
 //! - historical (equity): the amount brought forward, plus each movement x the rate of
 //!   its date from rates/historical.csv (dividends at the rate of their date);
-//! - hyperinflationary entities, from the period declared: every balance x closing
-//!   (21.42).
+//! - hyperinflationary entities, from the period declared: every balance, restated
+//!   first by `restate` (IAS 29), x closing (21.42(a)).
 //!
 //! Each translated balance is rounded once, to the presentation currency's minor unit,
 //! with the group's rounding mode; the residue lands in the translation difference
