@@ -287,6 +287,42 @@ fn hyperinflationary_entity_at_closing_rate_throughout() {
     assert_eq!(dec(&m["on_profit"]), "0.00");
 }
 
+/// The explanation of a hyperinflationary entity's translation difference, on the case
+/// `hyperinflation-begins-mid-year-ias29` (worked by hand in its SOURCE.md from IAS
+/// 21.39-42 and IAS 29): January, before hyperinflation, splits as usual into (30.00) on
+/// the opening net assets and (3.30) on profit; February, restated and all at closing,
+/// releases January's translated balances: a gain of 33.30, the cause `hyperinflation`.
+#[test]
+fn hyperinflation_beginning_in_the_year_releases_the_earlier_translation() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/hyperinflation-begins-mid-year-ias29");
+    let (code, r) = run_json(&dir, &["translate", "--period", "2026-02"]);
+    assert_eq!(code, 0, "{r:#}");
+    assert_eq!(r["proof"]["tied"], true);
+    let p = entity(&r, "P");
+    let (m, y) = (&p["month"], &p["year_to_date"]);
+    assert_eq!(dec(&m["on_hyperinflation"]), "33.30");
+    assert_eq!(dec(&m["on_opening_net_assets"]), "0.00");
+    assert_eq!(dec(&m["rounding"]), "0.00");
+    assert_eq!(dec(&m["total"]), "33.30");
+    assert_eq!(dec(&y["on_opening_net_assets"]), "-30.00");
+    assert_eq!(dec(&y["on_profit"]), "-3.30");
+    assert_eq!(dec(&y["total"]), "0.00");
+    assert_eq!(dec(&line(p, "1200")["balance_local"]), "2200.00");
+    // The audit trail (translated.csv): land restated by 121/110 in February, the
+    // restatement beside the balance; the gain on the net monetary position all of it.
+    let out = tempfile::tempdir().expect("temp dir");
+    let (code, _) = run_json(&dir, &["close", "--period", "2026-02", "--out", out.path().to_str().expect("utf-8")]);
+    assert_eq!(code, 0);
+    let csv = std::fs::read_to_string(out.path().join("2026-02/group/ytd/translated.csv")).expect("translated.csv");
+    assert!(csv.starts_with("entity,group_account,account_name,counterparty,txn_currency,period,basis,amount_local,balance_local,restatement_local,"), "{csv}");
+    assert!(csv.contains("\nP,1200,Land,,,2026-02,closing,200.00,2200.00,200.00,"), "{csv}");
+    assert!(csv.contains("\nP,1200,Land,,,2026-01,closing,0.00,2000.00,0.00,"), "{csv}");
+    assert!(
+        csv.contains("\nP,5100,Gain or loss on the net monetary position,,,2026-02,average,-17.00,-17.00,-17.00,"),
+        "{csv}"
+    );
+}
+
 /// The three-tier group of IFRIC 16's reasoning (an ultimate parent, an intermediate
 /// parent in another currency, an indirect foreign operation below it); invented
 /// figures, worked by hand. P in EUR holds S in GBP, which holds T in USD (100% each,
