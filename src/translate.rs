@@ -244,8 +244,14 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         .sort(by_gid(), SortMultipleOptions::default())
         .with_columns([
             col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
-            // The part of the local balance that is IAS 29 restatement, for the audit trail.
-            col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?.alias("restatement_local"),
+            // The part of the local balance that is IAS 29 restatement, for the audit trail
+            // (cumulated only when some entity is restated: a zero column otherwise).
+            if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
+                col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
+            } else {
+                zero.clone()
+            }
+            .alias("restatement_local"),
         ]))
 }
 
