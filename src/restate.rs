@@ -23,7 +23,8 @@
 //! Each restated balance is rounded once, to the entity's currency minor unit with the
 //! group's rounding mode; the net monetary position absorbs the residue, so the restated
 //! trial balance sums to zero exactly. Comparatives are not restated (IAS 21.42(b): the
-//! presentation currency is never hyperinflationary here), so the months before `f`
+//! presentation currency is never hyperinflationary here; a hyperinflationary entity in
+//! the presentation currency is a blocking finding), so the months before `f`
 //! and the figures brought forward in the presentation currency stay as they were.
 //! Restate knows nothing about files.
 
@@ -302,6 +303,21 @@ pub fn findings(
     }
     out.extend(unclassified(ds, mapped, &hyper)?);
     for (e, _, _) in &hyper {
+        if e.currency == ds.settings.presentation_currency {
+            out.push(
+                Finding::new(
+                    Rule::RestatementUnsupported,
+                    format!(
+                        "{} is hyperinflationary in {}, the presentation currency: IAS 21.42(b) would restate the comparatives and the close does not",
+                        e.id,
+                        e.currency.code()
+                    ),
+                    "present the group in a currency that is not hyperinflationary, or restate outside tessera",
+                )
+                .at(&e.source)
+                .entity(&e.id),
+            );
+        }
         if let Some(a) = ds.acquisitions.iter().find(|a| a.owned == e.id) {
             out.push(
                 Finding::new(

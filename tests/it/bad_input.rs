@@ -779,6 +779,14 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "a hyperinflationary entity in the presentation currency",
+            mutate: |f| {
+                f.replace("entities/entities.csv", "NL,EUR,Europe,Corporate,\n", "NL,EUR,Europe,Corporate,2026-01\n")
+            },
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
             name: "a monetary flag on an equity account",
             mutate: |f| {
                 map_lines(f, "entities/accounts.csv", |i, l| match i {
