@@ -137,6 +137,9 @@ pub enum Rule {
     GroupAdjustmentScopeInvalid,
     /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
     GroupAdjustmentInconsistent,
+    /// The share of an equity-accounted investee's losses beyond the carrying amount is
+    /// not recognised (IAS 28.38-39): a warning that shows the amount.
+    AssociateLossesUnrecognised,
 }
 
 impl Rule {
@@ -151,7 +154,8 @@ impl Rule {
             | Rule::RateMoveImplausible
             | Rule::SignsFlipped
             | Rule::CounterpartyOnPlainAccount
-            | Rule::AcceptanceUnused => Severity::Warning,
+            | Rule::AcceptanceUnused
+            | Rule::AssociateLossesUnrecognised => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable

@@ -48,6 +48,7 @@ pub fn data_findings(
     let when = (period, fiscal_start);
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
+    out.extend(equity_method::findings(ds, &method_of, period));
     Ok(out)
 }
 

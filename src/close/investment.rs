@@ -893,6 +893,7 @@ mod tests {
                 basis: Basis::Closing,
                 ic_kind: None,
                 non_current: true,
+                reserve: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }
