@@ -309,11 +309,14 @@ fn post_share(
     ];
     lines.extend(dividends.iter().map(|(receiver, acct, x)| line(acct, receiver, Some(&e.id), *x)));
     let m = |x: Decimal| money::format_amount(x, cx.minor);
+    let from = match start_of(cx, a) {
+        Start::InYear(month) => format!(" from {month}"),
+        _ => String::new(),
+    };
     let mut text = format!(
-        "share {} of {} from {}: profit {}, OCI {}, prior years {}",
+        "share {} of {}{from}: profit {}, OCI {}, prior years {}",
         share.normalize(),
         e.id,
-        Period::of_date(a.date),
         m(c.profit),
         m(so),
         m(c.prior)
