@@ -159,7 +159,13 @@ struct UpliftParts {
 /// the depreciation to date) is at the closing rate (IAS 21.47), the year's
 /// depreciation at the investee's expense rates; the rest of the change is exchange
 /// difference. In the presentation currency the exchange parts are zero.
-fn uplift_parts(cx: &Context, rates: &ExpenseRates, fc: Currency, a: &Acquisition, uplifts: &[Uplift]) -> Option<UpliftParts> {
+fn uplift_parts(
+    cx: &Context,
+    rates: &ExpenseRates,
+    fc: Currency,
+    a: &Acquisition,
+    uplifts: &[Uplift],
+) -> Option<UpliftParts> {
     let acquired = Period::of_date(a.date);
     let start = start_of(cx, a);
     let mut out = UpliftParts::default();
@@ -223,8 +229,7 @@ fn dividends_received(cx: &Context, e: &EntityId) -> Vec<(EntityId, GroupAccount
     let mut out = Vec::new();
     for (receiver, accts) in &cx.balances {
         for ((acct, cp), amount) in accts {
-            if cp.as_ref() == Some(e) && cx.kind_of(acct) == Some("dividend") && cx.is_flow(acct) && !amount.is_zero()
-            {
+            if cp.as_ref() == Some(e) && cx.kind_of(acct) == Some("dividend") && cx.is_flow(acct) && !amount.is_zero() {
                 out.push((receiver.clone(), acct.clone(), -*amount));
             }
         }
@@ -430,7 +435,11 @@ pub fn unrealised_lines(
 
 /// The investee of an `inventory_profit.csv` pair and the direction, when one side is
 /// consolidated and the other equity-accounted; `None` otherwise.
-pub fn investee_pair<'a>(cx: &Context<'a>, seller: &EntityId, buyer: &EntityId) -> Option<(&'a EntityStructure, Direction)> {
+pub fn investee_pair<'a>(
+    cx: &Context<'a>,
+    seller: &EntityId,
+    buyer: &EntityId,
+) -> Option<(&'a EntityStructure, Direction)> {
     let equity = |x: &EntityId| cx.of_method(Method::Equity).find(|e| &e.id == x);
     if cx.consolidated.contains(seller) {
         equity(buyer).map(|e| (e, Direction::Downstream))
@@ -457,7 +466,8 @@ pub fn post_unrealised(
 }
 
 /// What the equity method cannot express, for a close at `period` (blocking): the
-/// undated `impairment` of an investee's acquisition (give it by month), an acquisition
+/// undated `impairment` of an investee's acquisition (give it by month), an NCI fair
+/// value for an investee (it has no NCI), an acquisition
 /// row whose date's rate cannot be derived, unrealised profit on goods between an
 /// investee and an entity the group does not consolidate, and unrealised profit with an
 /// investee under the deferred tax policy (its deferred tax is not modelled).
@@ -469,6 +479,12 @@ pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, p
         let at = |message: String, action: &str| {
             Finding::new(Rule::ValueInvalid, message, action).at(&a.source).entity(&a.owned)
         };
+        if a.nci_fair_value.is_some_and(|x| !x.is_zero()) {
+            out.push(at(
+                format!("{}: `nci_fair_value` {} given for an equity-accounted investee, which has no NCI in the group", a.owned, a.nci_fair_value.unwrap_or_default()),
+                "leave `nci_fair_value` empty for an associate or joint venture; its goodwill is inside the investment (IAS 28.32(a))",
+            ));
+        }
         if !a.impairment.is_zero() || !a.impairment_year.is_zero() {
             out.push(at(
                 format!("{}: an undated `impairment` {} of an equity-accounted investment", a.owned, a.impairment),
@@ -494,7 +510,10 @@ pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, p
             continue;
         }
         let at = |message: String, action: &str| {
-            Finding::new(Rule::ValueInvalid, message, action).at(&ip.source).entity(if equity(s) { s } else { b }).period(ip.period)
+            Finding::new(Rule::ValueInvalid, message, action)
+                .at(&ip.source)
+                .entity(if equity(s) { s } else { b })
+                .period(ip.period)
         };
         if !(consolidated(s) || consolidated(b)) {
             out.push(at(
@@ -558,7 +577,13 @@ mod tests {
         World::new(&["P", "A"], &[holding("P", "A", "0.3", "2020-01-01")], p("2026-06"))
     }
 
-    fn run(cx: &Context, a: &Acquisition, inv: Investee, uplifts: &[Uplift], dated: &[Dated]) -> (Journal, Vec<Finding>) {
+    fn run(
+        cx: &Context,
+        a: &Acquisition,
+        inv: Investee,
+        uplifts: &[Uplift],
+        dated: &[Dated],
+    ) -> (Journal, Vec<Finding>) {
         let rates = rates();
         let impairments = BTreeMap::from([(id("A"), dated.to_vec())]);
         let inputs = Inputs { uplifts, impairments: &impairments, rates: &rates };
@@ -652,6 +677,43 @@ mod tests {
         assert!(j.entries.is_empty());
     }
 
+    /// A (USD) acquired on 2025-07-01 with a plant uplift of USD 120 over 60 months, EUR
+    /// 60 at the acquisition date's rate (EUR 400 for USD 800). By the opening six
+    /// months are depreciated (USD 12): the net USD 108 at the opening's 2 USD per EUR
+    /// is 54, so earlier years lose 60 - 54 = 6 (A's own books are as at acquisition:
+    /// equity 340 = 400 less the uplift). This year six months more (USD 12) at averages
+    /// of 2: an expense of 6; the net USD 96 at June's closing rate of 2.5 is 38.40, so
+    /// the exchange difference is 38.40 - 54 + 6 = -9.60 (IAS 21.47). P's 30%: prior
+    /// -1.80, profit -1.80, OCI -2.88; the investment -6.48 = 30% x (38.40 - 60).
+    #[test]
+    fn a_foreign_investees_uplift_at_the_closing_rate() {
+        let w = world();
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        cx.closing.insert((usd(), p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let a = acquired("2025-07-01", "240");
+        let inv = Investee { opening: rows(&[("3000", "-340")]), ..Investee::default() };
+        let plant = Uplift {
+            owned: id("A"),
+            account: acct("1500"),
+            amount: d("120"),
+            life_months: Some(60),
+            expense_account: Some(acct("5000")),
+            deferred_tax: false,
+            source: Source::file("entities/fair_value_adjustments.csv"),
+        };
+        let (j, found) = run(&cx, &a, inv, &[plant], &[]);
+        assert!(found.is_empty());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "-6.48".into()),
+                ("4900".into(), "P".into(), "1.8".into()),
+                ("9000".into(), "P".into(), "2.88".into()),
+                ("3200".into(), "P".into(), "1.8".into())
+            ]
+        );
+    }
+
     /// Cost USD 240 = EUR 120 at the acquisition date's rate. Earlier years: opening
     /// equity 300 against net assets 400, P's 30% = -30. This year a loss of 500: -150.
     /// The cumulative -180 would take the investment of 120 below zero: -120 is
@@ -676,10 +738,10 @@ mod tests {
             ]
         );
         assert!(j.entries[0].description.contains("losses not recognised 60.00"), "{}", j.entries[0].description);
-        assert_eq!(found.iter().map(|f| (f.rule, f.severity)).collect::<Vec<_>>(), [(
-            Rule::AssociateLossesUnrecognised,
-            Severity::Warning
-        )]);
+        assert_eq!(
+            found.iter().map(|f| (f.rule, f.severity)).collect::<Vec<_>>(),
+            [(Rule::AssociateLossesUnrecognised, Severity::Warning)]
+        );
     }
 
     /// Three years of an investment of 100: a share of -80 brought forward and -50 this

@@ -246,7 +246,14 @@ impl ExpenseRates {
 
     /// This fiscal year's depreciation of `u` in the presentation currency, from
     /// `first` (the later of the fiscal year's start and the acquisition month).
-    pub(crate) fn expense_of_year(&self, cx: &Context, fc: Currency, u: &Uplift, acquired: Period, first: Period) -> Decimal {
+    pub(crate) fn expense_of_year(
+        &self,
+        cx: &Context,
+        fc: Currency,
+        u: &Uplift,
+        acquired: Period,
+        first: Period,
+    ) -> Decimal {
         let minor = fc.minor_unit();
         let to = |m: Period| depreciated_to(u, acquired, m, minor, cx.mode);
         if self.policy == Some(IncomeTranslation::YearToDate) {

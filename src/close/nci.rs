@@ -83,7 +83,8 @@ fn post_one(
     // (the investment rule): its NCI's share of that exchange exposure is already in
     // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
     let holder_fx = of(&m.investment_fx);
-    let post = equity_total + of(&m.fair_value_now) - unrealised - topside - depreciation - of(&m.pre_acquisition) - holder_fx;
+    let post =
+        equity_total + of(&m.fair_value_now) - unrealised - topside - depreciation - of(&m.pre_acquisition) - holder_fx;
     let nci_post = cx.round(post * e.nci);
     // No adjustment for the holder's investments in its own subsidiaries: each
     // subsidiary's NCI at acquisition is its direct outside share (or fair value), and

@@ -201,10 +201,7 @@ mod tests {
         assert_eq!(j.entries[0].rule, EliminationRule::EquityMethod);
         assert_eq!(
             lines(&j.entries[0]),
-            [
-                ("1300".into(), "P".into(), "-30".into()),
-                ("5000".into(), "P".into(), "30".into())
-            ]
+            [("1300".into(), "P".into(), "-30".into()), ("5000".into(), "P".into(), "30".into())]
         );
         let tax = DeferredTax { account: acct("1700"), expense: acct("8100"), rates: Default::default() };
         let mut j = Journal::default();
