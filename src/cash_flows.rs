@@ -663,7 +663,13 @@ fn journal_movements(
         for entry in &c.journal {
             let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
             let treatment = match entry.rule {
-                EliminationRule::InvestmentAndGoodwill | EliminationRule::PreAcquisitionResults if new_subsidiary => {
+                // A step acquisition's remeasurement gain is not cash: with the
+                // acquisition it nets to nothing on the acquisition line.
+                EliminationRule::InvestmentAndGoodwill
+                | EliminationRule::PreAcquisitionResults
+                | EliminationRule::StepAcquisition
+                    if new_subsidiary =>
+                {
                     Treatment::Acquisition
                 }
                 EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,

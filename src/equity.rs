@@ -261,12 +261,15 @@ pub fn changes_in_equity(
         );
         add(&mut acquisitions, nci, x);
     }
-    let other: Vec<Decimal> =
-        (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i]).collect();
+    let disposals = disposals_row(opening, closing, n, (re, tr, nci));
+    let with_nci = transactions_with_nci_row(opening, closing, n, (re, nci));
+    let other: Vec<Decimal> = (0..n)
+        .map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i] - disposals[i] - with_nci[i])
+        .collect();
 
     let columns = columns(components, nci);
     let widen = |v: &[Decimal]| widen(v, nci);
-    let rows = vec![
+    let mut rows = vec![
         Row { id: "opening", label: labels.0, amounts: widen(&open) },
         Row { id: "profit", label: "Profit for the period".into(), amounts: widen(&profit) },
         Row { id: "oci", label: "Other comprehensive income".into(), amounts: widen(&oci) },
@@ -276,12 +279,67 @@ pub fn changes_in_equity(
             label: "Non-controlling interests on acquisition".into(),
             amounts: widen(&acquisitions),
         },
+        Row {
+            id: "transactions_with_nci",
+            label: "Transactions with non-controlling interests".into(),
+            amounts: widen(&with_nci),
+        },
+        Row { id: "disposals", label: "Disposals of subsidiaries".into(), amounts: widen(&disposals) },
         Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
         Row { id: "closing", label: labels.1, amounts: widen(&close) },
     ];
+    // Each row is shown only for a view in which such a change happened.
+    if !closing.stake_changes.iter().any(|d| !opening.stake_changes.contains(d)) {
+        rows.retain(|r| r.id != "transactions_with_nci");
+    }
+    // The row is shown only for a view in which a subsidiary was sold.
+    if disposals.iter().all(Decimal::is_zero) && !closing.disposals.iter().any(|d| !opening.disposals.contains(d)) {
+        rows.retain(|r| r.id != "disposals");
+    }
     let check = prove(components, &equity_accounts, &open, &movement, &close);
     Ok((EquityChanges { columns, rows }, check))
 }
+
+/// Subsidiaries sold between the two closes (IFRS 10.25, IAS 21.48B): the NCI
+/// derecognised, and the NCI's share of the translation reserve leaving the reserve,
+/// which the close carries gross, for retained earnings, where the NCI's share of the
+/// subsidiary's post-acquisition equity had been taken from. The owners' share of the
+/// reserve is reclassified through OCI and profit, in those rows.
+fn disposals_row(opening: &Close, closing: &Close, n: usize, (re, tr, nci): Columns) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    let earlier: BTreeSet<(&EntityId, chrono::NaiveDate)> =
+        opening.disposals.iter().map(|d| (&d.entity, d.date)).collect();
+    for d in closing.disposals.iter().filter(|d| !earlier.contains(&(&d.entity, d.date))) {
+        for (at, x) in [(nci, -d.nci_derecognised), (tr, -d.reserve_nci), (re, d.reserve_nci)] {
+            if let Some(i) = at {
+                row[i] += x;
+            }
+        }
+    }
+    row
+}
+
+/// Changes in stake with control kept between the two closes (IFRS 10.23, B96): the
+/// NCI's carrying amount transferred, and the owners' side, the consideration less it.
+fn transactions_with_nci_row(
+    opening: &Close,
+    closing: &Close,
+    n: usize,
+    (re, nci): (Option<usize>, Option<usize>),
+) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    for d in closing.stake_changes.iter().filter(|d| !opening.stake_changes.contains(d)) {
+        for (at, x) in [(nci, -d.nci_transferred), (re, d.cash + d.nci_transferred)] {
+            if let Some(i) = at {
+                row[i] += x;
+            }
+        }
+    }
+    row
+}
+
+/// The positions of the retained earnings, translation reserve and NCI columns.
+type Columns = (Option<usize>, Option<usize>, Option<usize>);
 
 /// The movement of each component on the second path, credit positive: contributions
 /// and journal lines of the two closes, and the result of the view counted in retained
@@ -445,6 +503,7 @@ mod tests {
                 line("NCI", LineBody::Accounts(vec![GroupAccount::new("3900")])),
                 line("TOT", LineBody::Total(vec![("OWN".into(), 1), ("NCI".into(), 1)])),
             ],
+            ratios: Vec::new(),
         };
         let ids = |c: &[Component]| c.iter().map(|k| k.id.clone()).collect::<Vec<_>>();
         assert_eq!(ids(&components(&[layout], &chart)), ["OWN", "NCI"]);

@@ -568,6 +568,33 @@ pub struct NetInvestment {
     pub source: Source,
 }
 
+/// A change in a holder's share of an entity on one date, from
+/// `entities/ownership_changes.csv`: shares bought or sold, what was paid or received,
+/// and the fair value of the interest held before (a step acquisition, IFRS 3.42) or
+/// retained after (a loss of control, IFRS 10.25). Amounts are in the owned entity's
+/// functional currency, like `acquisitions.csv`. holdings.csv still gives the shares and
+/// dates: the holder's capital share on `date` less its share the day before must be
+/// `share`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct OwnershipChange {
+    /// The first day of the new share (the old holding's `valid_to` is the day before).
+    pub date: NaiveDate,
+    pub holder: EntityId,
+    pub owned: EntityId,
+    /// Capital share bought (positive) or sold (negative).
+    pub share: Decimal,
+    /// Consideration paid for the shares bought, or proceeds of the shares sold.
+    pub consideration: Decimal,
+    /// Fair value at `date` of the interest held before (bought) or retained (sold).
+    pub fair_value_held: Option<Decimal>,
+    /// Transaction costs (IFRS 3.53: an expense of an acquisition).
+    pub costs: Decimal,
+    /// The profit or loss group account of a gain or loss the change gives rise to.
+    pub gain_account: Option<GroupAccount>,
+    pub note: String,
+    pub source: Source,
+}
+
 /// One line of a top-side entry, from `entities/group_adjustments.csv`: an entry the
 /// group books on the group chart in the presentation currency, above the entities'
 /// ledgers (a late audit adjustment, a remeasurement only the group makes). The rows

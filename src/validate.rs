@@ -68,6 +68,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_reserves(ds, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     check_plausibility(ds, mapped, scope, &mut f)?;
+    f.extend(crate::ownership::findings(ds, scope));
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -449,7 +450,10 @@ fn check_missing_deliveries(
     // The close is complete only with every month of every entity it consolidates or
     // equity-accounts: a missing one is blocking. An entity outside the group at the
     // period end is only said to be missing.
-    for e in &ds.entities {
+    // A subsidiary sold in the year has its months to the sale checked by `ownership`;
+    // its figures to then are in the close, so it is neither missing nor outside.
+    let sold: BTreeSet<&EntityId> = crate::ownership::losses_of_control(ds, scope).iter().map(|c| &c.owned).collect();
+    for e in ds.entities.iter().filter(|e| !sold.contains(&e.id)) {
         let needed = in_scope(structure, &e.id);
         let sev = if needed { Severity::Blocking } else { Severity::Warning };
         let why = if needed {

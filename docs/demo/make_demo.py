@@ -233,6 +233,8 @@ LAYOUTS = [
     ("profit_or_loss", "PBT", "Profit before tax", "", "OP FIN ASSOC", "credit_positive"),
     ("profit_or_loss", "TAX", "Income tax", "8000..8999", "", "credit_positive"),
     ("profit_or_loss", "PROFIT", "Profit for the period", "", "PBT TAX", "credit_positive"),
+    ("profit_or_loss", "GM", "Gross margin", "", "GP / REV", "credit_positive"),
+    ("profit_or_loss", "OM", "Operating margin", "", "OP / REV", "credit_positive"),
     ("oci", "TRD", "Exchange differences on translating foreign operations", "9000", "", "credit_positive"),
     ("oci", "REVAL", "Gains on property revaluation", "9100", "", "credit_positive"),
     ("oci", "OCI", "Total other comprehensive income", "", "TRD REVAL", "credit_positive"),

@@ -37,6 +37,12 @@ pub enum EliminationRule {
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `step_acquisition.rs`: the interest held before control remeasured to fair value.
+    StepAcquisition,
+    /// `loss_of_control.rs`: a subsidiary sold: derecognition, gain, recycling.
+    LossOfControl,
+    /// `change_in_stake.rs`: more or less of a subsidiary, control kept.
+    ChangeInStake,
     /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
     GroupAdjustment,
 }
@@ -56,6 +62,9 @@ impl EliminationRule {
             EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::StepAcquisition => "step_acquisition",
+            EliminationRule::LossOfControl => "loss_of_control",
+            EliminationRule::ChangeInStake => "change_in_stake",
             EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
@@ -165,6 +174,9 @@ mod tests {
             EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::StepAcquisition,
+            EliminationRule::LossOfControl,
+            EliminationRule::ChangeInStake,
             EliminationRule::GroupAdjustment,
         ]
         .into_iter()
@@ -184,6 +196,9 @@ mod tests {
                 "fair_value_deferred_tax",
                 "equity_method",
                 "non_controlling_interest",
+                "step_acquisition",
+                "loss_of_control",
+                "change_in_stake",
                 "group_adjustment"
             ]
         );

@@ -12,9 +12,12 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `fair_value` (depreciation of the fair value adjustments), `equity_method`, then
-//!   the top-side entries (`topside`, rule `group_adjustment`), which the NCI shares
-//!   where a line names a subsidiary.
+//!   `fair_value` (depreciation of the fair value adjustments), `step_acquisition`,
+//!   `loss_of_control`, `equity_method`, then the top-side entries (`topside`, rule
+//!   `group_adjustment`), which the NCI shares where a line names a subsidiary, and
+//!   after the NCI `change_in_stake` (which corrects the NCI rows). A subsidiary sold in
+//!   the year contributes what the close at its last month end consolidated gives it
+//!   (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -25,6 +28,7 @@
 //! (entry descriptions quote amounts as text).
 
 pub mod aggregate;
+pub mod change_in_stake;
 pub mod check;
 pub mod context;
 pub mod dividends;
@@ -35,12 +39,14 @@ pub mod impairment;
 pub mod intercompany;
 pub mod investment;
 pub mod journal;
+pub mod loss_of_control;
 pub mod nci;
 pub mod net_investment;
 pub mod pre_acquisition;
 pub mod prove;
 pub mod reserves;
 pub mod roll_up;
+pub mod step_acquisition;
 pub mod topside;
 pub mod unrealised_profit;
 pub mod view;
@@ -134,12 +140,18 @@ pub struct Close {
     /// The translation reserve per consolidated foreign operation.
     pub reserves: Vec<OperationReserveRow>,
     pub findings: Vec<Finding>,
+    /// Subsidiaries sold in the fiscal year to the period (`loss_of_control`).
+    pub disposals: Vec<loss_of_control::Disposal>,
+    /// Changes in stake with control kept in the fiscal year to the period.
+    pub stake_changes: Vec<change_in_stake::StakeChange>,
 }
 
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
-    let contributions = aggregate(ds, t, s, period)?;
+    let sold = sold_in_year(ds, t, period, fiscal_start)?;
+    let stakes = stakes_changed_in_year(ds, t, period, fiscal_start)?;
+    let contributions = with_sold(aggregate(ds, t, s, period)?, &sold)?;
     let balances = aggregate::balances(&contributions)?;
     let cx = context::Context::new(ds, t, s, period, fiscal_start, balances);
     let mut findings = Vec::new();
@@ -172,6 +184,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     findings.extend(impairment_findings(ds, &cx));
     findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
     fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
+    let steps =
+        crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let disposals: Vec<loss_of_control::Disposal> =
+        sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     let inputs = equity_method::Inputs { uplifts: &uplifts, impairments: &records.impairments, rates: &rates };
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &inputs, &mut findings);
@@ -179,11 +196,64 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
-    let nci = nci::post(&mut j, &cx, &for_nci);
+    let mut nci = nci::post(&mut j, &cx, &for_nci);
+    nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
+    let stake_changes: Vec<change_in_stake::StakeChange> = stakes
+        .iter()
+        .filter_map(|b| change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, b, &invest, &mut nci))
+        .collect();
     let brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
     let reserves = reserves::reserves(&cx, &brought_forward, &year_parts, ds.settings.policies.ifric16);
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings })
+    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals, stake_changes })
+}
+
+/// The subsidiaries sold in the fiscal year to `period` (none for the close of the
+/// opening balances), each as the close at its last month end consolidated shows it.
+fn sold_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<loss_of_control::AtLastMonth<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::losses_of_control(ds, scope)
+        .into_iter()
+        .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The changes in stake with control kept in the fiscal year to `period`, each with the
+/// subsidiary as the close at the last month end before it shows it.
+fn stakes_changed_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<change_in_stake::Before<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::changes_in_stake(ds, scope).into_iter().map(|c| change_in_stake::before(ds, t, c)).collect()
+}
+
+/// The contribution frame with the sold subsidiaries' contributions at their last month
+/// end added, in the frame's order.
+fn with_sold(contributions: DataFrame, sold: &[loss_of_control::AtLastMonth]) -> PolarsResult<DataFrame> {
+    if sold.is_empty() {
+        return Ok(contributions);
+    }
+    let mut all = contributions;
+    for x in sold {
+        all.vstack_mut(&x.contributions)?;
+    }
+    all.lazy()
+        .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
+        .collect()
 }

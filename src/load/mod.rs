@@ -12,6 +12,8 @@ mod fair_values;
 mod impairments;
 mod ledger;
 pub mod machine;
+mod ownership;
+pub mod plans;
 mod settings;
 pub mod table;
 
@@ -138,6 +140,8 @@ pub struct Dataset {
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// Shares bought and sold (optional `ownership_changes.csv`).
+    pub ownership_changes: Vec<OwnershipChange>,
     /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
     /// `close::topside`.
     pub group_adjustments: adjustments::GroupAdjustments,
@@ -244,6 +248,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let ownership_changes =
+        ownership::load_ownership_changes(root, &ent_dir.join(ownership::OWNERSHIP_CHANGES_FILE), &mut f, &mut inputs);
     let group_adjustments = adjustments::load_group_adjustments(
         root,
         &ent_dir.join(adjustments::GROUP_ADJUSTMENTS_FILE),
@@ -280,6 +286,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             tax_rates,
             segment_accounts,
             net_investments,
+            ownership_changes,
             group_adjustments,
             cash_flow_lines,
             accepted_differences,
@@ -495,6 +502,7 @@ pub const ENTITY_FILES: &[&str] = &[
     "net_investment.csv",
     "cash_flow_lines.csv",
     crate::intercompany::ACCEPTED_FILE,
+    ownership::OWNERSHIP_CHANGES_FILE,
     adjustments::GROUP_ADJUSTMENTS_FILE,
 ];
 

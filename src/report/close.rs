@@ -36,6 +36,17 @@ pub struct StatementLine {
 pub struct StatementOut {
     pub statement: String,
     pub lines: Vec<StatementLine>,
+    /// The layout's ratio lines, in percent (`None` when the denominator is zero).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub ratios: Vec<RatioOut>,
+}
+
+/// One ratio line of a statement, in percent.
+#[derive(Debug, Clone, Serialize)]
+pub struct RatioOut {
+    pub line: String,
+    pub label: String,
+    pub percent: Option<Decimal>,
 }
 
 /// Lays a statement out from account amounts (debit positive).
@@ -53,7 +64,13 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
             debit_positive: l.presentation == crate::layout::Presentation::DebitPositive,
         })
         .collect();
-    StatementOut { statement: st.statement.clone(), lines }
+    let ratios = st
+        .ratios
+        .iter()
+        .zip(st.evaluate_ratios(amounts))
+        .map(|(r, (_, percent))| RatioOut { line: r.line.clone(), label: r.label.clone(), percent })
+        .collect();
+    StatementOut { statement: st.statement.clone(), lines, ratios }
 }
 
 /// The statement of changes in equity as output: columns by component, rows by
@@ -102,6 +119,9 @@ pub struct Statements {
     /// The statement of cash flows (IAS 7), when the group classifies its accounts.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub cash_flows: Option<crate::cash_flows::CashFlows>,
+    /// The comparison asked with `--compare`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub comparison: Option<crate::compare::Comparison>,
 }
 
 #[derive(Serialize)]
@@ -262,10 +282,17 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
         out.push('\n');
         out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true]));
+        for x in &r.statements.laid_out[key].ratios {
+            let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+            out.push_str(&format!("{:<width$}   {p:>amounts$}\n", x.label));
+        }
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
     if let Some(cf) = &r.statements.cash_flows {
         out.push_str(&super::cash_flows::table(cf, minor));
+    }
+    if let Some(c) = &r.statements.comparison {
+        out.push_str(&super::compare::table(c, &r.currency, minor));
     }
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
@@ -581,16 +608,22 @@ fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> R
 /// `statements.csv`: every laid-out line of every statement, in layout order, amounts
 /// as presented.
 fn write_statements(dir: &Path, file: &str, r: &CloseReport<'_>) -> Result<(), crate::Error> {
-    let mut out = super::CsvOut::new(&["statement", "line", "label", "total", "amount"]);
+    // With a comparison, its columns follow the amount (empty on lines not compared).
+    let compared = r.statements.comparison.as_ref();
+    let mut header = vec!["statement", "line", "label", "total", "amount"];
+    if compared.is_some() {
+        header.extend(super::compare::STATEMENT_COLUMNS);
+    }
+    let mut out = super::CsvOut::new(&header);
     for (key, st) in &r.statements.laid_out {
         for l in &st.lines {
-            out.row(&[
-                key.clone(),
-                l.line.clone(),
-                l.label.clone(),
-                l.total.to_string(),
-                crate::money::plain(l.amount),
-            ]);
+            let mut row =
+                vec![key.clone(), l.line.clone(), l.label.clone(), l.total.to_string(), crate::money::plain(l.amount)];
+            if let Some(c) = compared {
+                let line = c.statements.get(key).and_then(|ls| ls.iter().find(|x| x.line == l.line));
+                row.extend(super::compare::statement_cells(line));
+            }
+            out.row(&row);
         }
     }
     write_file(&dir.join(file), out.finish().as_bytes())?;
@@ -647,6 +680,9 @@ pub fn write_outputs(dir: &Path, r: &CloseReport<'_>, tables: &Tables<'_>) -> Re
     write_money_frame(dir, &name("contributions"), contributions_frame(contributions, tables)?, tables)?;
     write_money_frame(dir, &name("translated"), translated_frame(translated, tables)?, tables)?;
     write_statements(dir, &name("statements.csv"), r)?;
+    if let Some(c) = &r.statements.comparison {
+        super::compare::write_files(dir, c, &name)?;
+    }
     let nci = DataFrame::new(
         r.nci.len(),
         vec![
