@@ -261,15 +261,16 @@ pub fn post(
         if start_of(cx, a) == Start::Later {
             continue;
         }
-        post_share(j, cx, e, a, investees.get(&e.id).unwrap_or(&none), inputs, findings);
+        let carrying = post_share(j, cx, e, a, investees.get(&e.id).unwrap_or(&none), inputs, findings);
         if let Some(rows) = inputs.impairments.get(&e.id) {
-            post_impairment(j, cx, e, rows);
+            findings.extend(post_impairment(j, cx, e, rows, carrying));
         }
     }
 }
 
 /// The share of results, after the fair value adjustments, the dividends received and
-/// the floor of IAS 28.38-39, in one entry.
+/// the floor of IAS 28.38-39, in one entry; returns the carrying amount it leaves (cost
+/// plus the share since acquisition less the dividends), `None` when it posts nothing.
 fn post_share(
     j: &mut Journal,
     cx: &Context,
@@ -278,14 +279,14 @@ fn post_share(
     inv: &Investee,
     inputs: &Inputs,
     findings: &mut Vec<Finding>,
-) {
+) -> Option<Decimal> {
     let roles = cx.roles;
     let fc = cx.currencies.get(&e.id).copied().unwrap_or(cx.presentation);
     let (Some(up), Some(cost)) =
         (uplift_parts(cx, inputs.rates, fc, a, inputs.uplifts), at_acquisition(cx, fc, a, a.consideration))
     else {
         // `findings` raises the blocking finding for the acquisition row.
-        return;
+        return None;
     };
     let sum_where = |m: &Accounts, f: &dyn Fn(&AccountDef) -> bool| -> Decimal {
         m.iter().filter(|(a, _)| cx.chart.get(a).is_some_and(|d| f(d))).map(|(_, v)| *v).sum()
@@ -337,6 +338,7 @@ fn post_share(
         findings.push(losses_unrecognised(&e.id, cx.period, cost, spr + sp + so - div, c.unrecognised));
     }
     j.post(EliminationRule::EquityMethod, holder.clone(), vec![holder, e.id.clone()], text, lines);
+    Some(cost + c.prior + c.profit + so - div)
 }
 
 /// The fair value adjustments at the acquisition date's rate: the investee's books at
@@ -362,15 +364,22 @@ fn losses_unrecognised(e: &EntityId, period: Period, cost: Decimal, share: Decim
 
 /// The impairments of the investment as a whole to the period (IAS 28.40-43), each at
 /// its month's fixed rate: the year's in the share of result, earlier years' in retained
-/// earnings, against the investment.
-fn post_impairment(j: &mut Journal, cx: &Context, e: &EntityStructure, rows: &[Dated]) {
+/// earnings, against the investment. They are posted as given; impairments beyond the
+/// `carrying` amount left by the share (an investment below zero) are a warning.
+fn post_impairment(
+    j: &mut Journal,
+    cx: &Context,
+    e: &EntityStructure,
+    rows: &[Dated],
+    carrying: Option<Decimal>,
+) -> Option<Finding> {
     let (mut year, mut prior) = (Decimal::ZERO, Decimal::ZERO);
     for d in rows {
         let x = d.at_rate(cx, d.amount);
         if d.in_year { year += x } else { prior += x }
     }
     if year.is_zero() && prior.is_zero() {
-        return;
+        return None;
     }
     let holder = holder_of(cx, e);
     let roles = cx.roles;
@@ -390,6 +399,24 @@ fn post_impairment(j: &mut Journal, cx: &Context, e: &EntityStructure, rows: &[D
             line(&roles.retained_earnings, &holder, Some(&e.id), prior),
         ],
     );
+    let carrying = carrying?;
+    (year + prior > carrying).then(|| {
+        let m = |x: Decimal| money::format_amount(x, cx.minor);
+        Finding::new(
+            Rule::ValueInvalid,
+            format!(
+                "{}: impairments of the investment to date {} exceed its carrying amount {} before them: the investment is {} (IAS 28.40-43)",
+                e.id,
+                m(year + prior),
+                m(carrying),
+                m(carrying - year - prior)
+            ),
+            "check the impairments in goodwill_impairments.csv: an impairment takes the investment to its recoverable amount, at least zero",
+        )
+        .entity(&e.id)
+        .period(cx.period)
+        .severity(Severity::Warning)
+    })
 }
 
 /// One side of goods between the group and an investee (IAS 28.28).
@@ -671,6 +698,24 @@ mod tests {
                 ("7400".into(), "P".into(), "10".into())
             ]
         );
+        // Acquired in the fiscal year's first month (2026-01-20): the whole year to date,
+        // 30% x 150 = 45 and 30% x 20 = 6, and still no earlier years.
+        let a_jan = acquired("2026-01-20", "240");
+        let inv = Investee {
+            own: rows(&[("4000", "-150"), ("9000", "-20")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-900")]),
+            before: Accounts::new(),
+        };
+        let cx_jan = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let (j, _) = run(&cx_jan, &a_jan, inv, &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "51".into()),
+                ("4900".into(), "P".into(), "-45".into()),
+                ("9000".into(), "P".into(), "-6".into())
+            ]
+        );
         // Closed at March, before the acquisition: nothing.
         let cx = w.context(p("2026-03"), p("2026-01"), Default::default());
         let (j, _) = run(&cx, &a, Investee::default(), &[], &[]);
@@ -775,7 +820,8 @@ mod tests {
             Dated { period: p("2026-02"), amount: d("50"), rate: Some(two()), in_year: true },
         ];
         let inv = Investee { opening: rows(&[("3000", "-400")]), ..Investee::default() };
-        let (j, _) = run(&cx, &a, inv, &[], &dated);
+        let (j, found) = run(&cx, &a, inv.clone(), &[], &dated);
+        assert!(found.is_empty());
         // The share entry has no amount (no results since acquisition) and is not posted.
         assert_eq!(j.entries.len(), 1);
         assert_eq!(
@@ -786,6 +832,15 @@ mod tests {
                 ("3200".into(), "P".into(), "10".into())
             ]
         );
+        // USD 300 more in March (EUR 150) takes the investment of EUR 120 below zero
+        // (120 - 185 = -65): a warning with the figures.
+        let more = Dated { period: p("2026-03"), amount: d("300"), rate: Some(two()), in_year: true };
+        let (_, found) = run(&cx, &a, inv, &[], &[dated[0].clone(), dated[1].clone(), more]);
+        assert_eq!(
+            found.iter().map(|f| (f.rule, f.severity)).collect::<Vec<_>>(),
+            [(Rule::ValueInvalid, Severity::Warning)]
+        );
+        assert!(found[0].message.contains("185.00 exceed its carrying amount 120.00"), "{}", found[0].message);
     }
 
     /// P's share of unrealised profit now 30, at the opening 20 (24 at today's rate).
