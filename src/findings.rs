@@ -159,6 +159,9 @@ pub enum Rule {
     RestatementUnsupported,
     /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
     ComparisonUnavailable,
+    /// The share of an equity-accounted investee's losses beyond the carrying amount is
+    /// not recognised (IAS 28.38-39): a warning that shows the amount.
+    AssociateLossesUnrecognised,
 }
 
 impl Rule {
@@ -174,7 +177,8 @@ impl Rule {
             | Rule::SignsFlipped
             | Rule::CounterpartyOnPlainAccount
             | Rule::AcceptanceUnused
-            | Rule::PriceIndexUnused => Severity::Warning,
+            | Rule::PriceIndexUnused
+            | Rule::AssociateLossesUnrecognised => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable
