@@ -555,3 +555,19 @@ pub struct NetInvestment {
     pub note: String,
     pub source: Source,
 }
+
+/// What a fiscal year's close brings forward from the prior year's close in the same
+/// data folder, besides the balances (`years`): amounts that a rule counts from the
+/// opening of the first year the folder holds, so that the close at a year end and the
+/// close of the next year's opening agree. Empty for the first year.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct BroughtForward {
+    /// Per holder: the exchange differences of the earlier years held on its eliminated
+    /// investments in subsidiaries. The NCI rule takes them out of the holder's
+    /// post-acquisition equity, as it takes out the year's.
+    pub investment_fx: std::collections::BTreeMap<EntityId, Decimal>,
+    /// Per holder and investee: the holder's share of the investee's OCI of the earlier
+    /// years held (equity method, IAS 28.10): in the translation reserve, where it
+    /// accumulated, not in retained earnings.
+    pub equity_method_oci: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
+}

@@ -73,6 +73,19 @@ pub fn post(
         let r = |x: Decimal| cx.round(x * share);
         let (sp, so, spr) = (r(profit), r(oci), r(prior));
         let holder = e.direct_holders.first().map(|h| h.owner.clone()).unwrap_or_else(|| cx.structure.parent().clone());
+        // The share of OCI of the earlier years the folder holds stays in the
+        // translation reserve where the year-end close put it (IAS 28.10).
+        let oci_before =
+            cx.brought_forward.equity_method_oci.get(&(holder.clone(), e.id.clone())).copied().unwrap_or_default();
+        let mut lines = vec![
+            line(&roles.equity_investments, &holder, Some(&e.id), sp + so + spr),
+            line(&roles.equity_result, &holder, Some(&e.id), -sp),
+            line(&roles.translation_difference, &holder, Some(&e.id), -so),
+            line(&roles.retained_earnings, &holder, Some(&e.id), -(spr - oci_before)),
+        ];
+        if !oci_before.is_zero() {
+            lines.push(line(&roles.translation_reserve, &holder, Some(&e.id), -oci_before));
+        }
         j.post(
             EliminationRule::EquityMethod,
             holder.clone(),
@@ -85,12 +98,7 @@ pub fn post(
                 money::format_amount(so, cx.minor),
                 money::format_amount(spr, cx.minor)
             ),
-            vec![
-                line(&roles.equity_investments, &holder, Some(&e.id), sp + so + spr),
-                line(&roles.equity_result, &holder, Some(&e.id), -sp),
-                line(&roles.translation_difference, &holder, Some(&e.id), -so),
-                line(&roles.retained_earnings, &holder, Some(&e.id), -spr),
-            ],
+            lines,
         );
     }
 }
