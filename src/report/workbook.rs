@@ -10,7 +10,7 @@ use std::str::FromStr;
 
 use rust_decimal::Decimal;
 
-use super::close::{CloseReport, TITLES, amount_heading, statement_rows};
+use super::close::{CloseReport, TITLES, amount_heading, statement_prior_rows, statement_rows};
 use super::xlsx::{Cell, Sheet, workbook};
 use crate::model::GroupAccount;
 
@@ -36,9 +36,18 @@ pub fn close_workbook(
             continue;
         }
         let mut s = Sheet::new(sheet_name);
-        s.header(&[title, &amount_heading(key, r.view, &r.period, &r.currency)]);
-        for (label, amount, total) in statement_rows(r, key) {
-            let cells = vec![Cell::Text(label), Cell::Amount(amount)];
+        // The prior year's column (IAS 1.38), when the close has one.
+        let prior = statement_prior_rows(r, key).zip(r.statements.prior_year.as_ref());
+        let now = amount_heading(key, r.view, &r.period, &r.currency);
+        match &prior {
+            Some((_, p)) => s.header(&[title, &now, &amount_heading(key, r.view, &p.period, &r.currency)]),
+            None => s.header(&[title, &now]),
+        }
+        for (i, (label, amount, total)) in statement_rows(r, key).into_iter().enumerate() {
+            let mut cells = vec![Cell::Text(label), Cell::Amount(amount)];
+            if let Some((rows, _)) = &prior {
+                cells.push(Cell::Amount(rows[i]));
+            }
             if total { s.bold_row(cells) } else { s.row(cells) }
         }
         sheets.push(s);
