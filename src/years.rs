@@ -95,6 +95,7 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
     } else {
         let prior_ds = year_dataset(full, prior, &mut Vec::new())?;
         let mapped = map_accounts(&prior_ds, prior)?;
+        findings.extend(prior_year_blocked(&prior_ds, &mapped, prior, start)?);
         let t = crate::translate::translate(&prior_ds, &mapped, prior, start.prev())?;
         ds.brought_forward = brought_forward(&prior_ds, &t, start.prev())?;
         Some(derive_opening(&prior_ds, &t, prior, &delivered_prior, findings)?)
@@ -138,6 +139,32 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
 /// A list literal of entity ids, for `is_in`.
 fn entity_list(ids: impl IntoIterator<Item = String>) -> Expr {
     lit(Series::new("entities".into(), ids.into_iter().collect::<Vec<_>>())).implode(false)
+}
+
+/// A finding when the prior year (a one-year dataset starting `prior`) has blocking
+/// findings of its own: its close, and so the opening carried from it, cannot be relied
+/// on (a rate missing, say, leaves the translated result short).
+fn prior_year_blocked(
+    prior_ds: &Dataset,
+    mapped: &crate::map_accounts::Mapped,
+    prior: Period,
+    start: Period,
+) -> PolarsResult<Option<Finding>> {
+    let mut found = crate::findings::Findings::default();
+    let scope = crate::validate::Scope::new(start.prev(), prior_ds.settings.fiscal_year_start);
+    crate::validate::validate(prior_ds, mapped, scope, &mut found)?;
+    let blocking = found.items().iter().filter(|f| f.severity >= Severity::Blocking).count();
+    Ok((blocking > 0).then(|| {
+        Finding::new(
+            Rule::OpeningNotDerivable,
+            format!(
+                "the fiscal year starting {prior} has {blocking} blocking finding(s) of its own, so the openings of {start} carried from its close cannot be relied on"
+            ),
+            format!("run `tessera check --period {}` and fix them", start.prev()),
+        )
+        .period(start)
+        .severity(Severity::Blocking)
+    }))
 }
 
 fn by_name(names: &[&str]) -> Selector {

@@ -161,13 +161,20 @@ def build_prior_rates() -> None:
             tilt = D((i * 5) % 7 - 3) / D(10000)
             avg = ((closes[i - 1] + closes[i]) / 2 * (1 + tilt / 10)).quantize(
                 D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
-            RATES[ccy][months[i]] = {"closing": closes[i], "average": avg, "average_ytd": None}
+            RATES[ccy][months[i]] = {"closing": closes[i], "average": avg}
     for p in [PRIOR_OPENING] + PRIOR_PERIODS:
         u = RATES["USD"][p]
         RATES["BHD"][p] = {
             k: (BHD_PER_USD * u[k]).quantize(D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
             for k in ("closing", "average")}
-        RATES["BHD"][p]["average_ytd"] = None
+    # Year-to-date averages of 2025, as build_rates does for 2026.
+    for ccy in RATES:
+        acc = []
+        for p in PRIOR_PERIODS + [OPENING_PERIOD]:
+            acc.append(RATES[ccy][p]["average"])
+            RATES[ccy][p]["average_ytd"] = (sum(acc) / len(acc)).quantize(
+                D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
+        RATES[ccy][PRIOR_OPENING]["average_ytd"] = None
 
 
 build_prior_rates()

@@ -146,3 +146,18 @@ fn the_prior_year_columns_equal_a_close_of_the_prior_year_on_its_own() {
     assert_eq!(now["statements"]["prior_year"]["changes_in_equity"], then["statements"]["changes_in_equity"]);
     assert_eq!(now["statements"]["prior_year"]["period"], "2025-12");
 }
+
+#[test]
+fn a_prior_year_with_blocking_findings_is_named_when_its_close_is_carried() {
+    // Without June 2025's USD rate the 2025 close, and so the carried 2026 opening, is
+    // short: the check of 2026 says so instead of carrying it silently.
+    let f = case("year-end-carried-forward");
+    f.replace("rates/monthly.csv", "2025-06,USD,1.25,1.25,units_per_presentation\n", "");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v}");
+    let found = findings_of(&v, "OpeningNotDerivable");
+    assert_eq!(found.len(), 1, "{}", v["findings"]);
+    let text = found[0]["message"].as_str().unwrap_or_default();
+    assert!(text.contains("the fiscal year starting 2025-01 has"), "{text}");
+    assert!(found[0]["action"].as_str().unwrap_or_default().contains("tessera check --period 2025-12"));
+}
