@@ -690,7 +690,8 @@ fn comparatives(
         }
     };
     let ob = c.opening_balances()?;
-    checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &c.checked.ds));
+    let ds = &c.checked.ds;
+    checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &ds.accounts, &ds.settings.accounts));
     let figures = prior.figures();
     for st in &c.checked.statements {
         let flows = st.statement == "profit_or_loss" || st.statement == "oci";

@@ -708,9 +708,13 @@ pub fn prior_year_close(
 /// this one: the balance sheet of `prior_end` (the prior year's close at its last month,
 /// profit or loss in retained earnings, OCI in the translation reserve) against the close
 /// of this year's opening balances, account by account.
-pub fn opening_is_prior_closing(prior_end: &Close, opening: &Close, ds: &Dataset) -> Check {
-    let chart = Chart::new(&ds.accounts);
-    let roles = &ds.settings.accounts;
+pub fn opening_is_prior_closing(
+    prior_end: &Close,
+    opening: &Close,
+    accounts: &[AccountDef],
+    roles: &RoleAccounts,
+) -> Check {
+    let chart = Chart::new(accounts);
     let bs = |c: &Close| -> Amounts {
         balance_sheet_amounts(&c.group, &chart, roles)
             .into_iter()
@@ -737,4 +741,40 @@ pub fn opening_is_prior_closing(prior_end: &Close, opening: &Close, ds: &Dataset
         differing.join("; ")
     };
     Check::new("opening_is_prior_year_closing", differing.is_empty(), detail)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::close::context::fixture::{acct, chart, d, p, roles};
+
+    fn close(period: &str, group: &[(&str, &str)]) -> Close {
+        Close {
+            period: p(period),
+            contributions: DataFrame::default(),
+            journal: Vec::new(),
+            group: group.iter().map(|(a, v)| (acct(a), d(v))).collect(),
+            nci: Vec::new(),
+            reserves: Vec::new(),
+            findings: Vec::new(),
+        }
+    }
+
+    /// The year-end close: cash 100 against capital 40, retained earnings 10, a profit of
+    /// 30 (revenue 4000) and an OCI gain of 20 (9000), credits negative. Closed into
+    /// equity: retained earnings 10 + 30 = 40, translation reserve 20: the next opening.
+    #[test]
+    fn the_year_end_balance_sheet_is_the_next_opening() {
+        let end =
+            close("2025-12", &[("1500", "100"), ("3000", "-40"), ("3200", "-10"), ("4000", "-30"), ("9000", "-20")]);
+        let opening = close("2025-12", &[("1500", "100"), ("3000", "-40"), ("3200", "-40"), ("3300", "-20")]);
+        let c = opening_is_prior_closing(&end, &opening, &chart(), &roles());
+        assert!(c.ok, "{}", c.detail);
+        // The OCI closed into retained earnings instead: both accounts named, with the
+        // difference.
+        let wrong = close("2025-12", &[("1500", "100"), ("3000", "-40"), ("3200", "-60")]);
+        let c = opening_is_prior_closing(&end, &wrong, &chart(), &roles());
+        assert!(!c.ok);
+        assert_eq!(c.detail, "3200: closing -40 opening -60 difference -20; 3300: closing -20 opening 0 difference 20");
+    }
 }
