@@ -136,6 +136,13 @@ pub enum Rule {
     /// An entity's opening cannot be derived from its prior-year close (no local
     /// account maps to retained earnings, or the prior year cannot be translated).
     OpeningNotDerivable,
+    /// A top-side entry of group_adjustments.csv whose lines do not sum to zero.
+    GroupAdjustmentUnbalanced,
+    /// A top-side entry's scope is not the parent or the holding entity of a sub-group,
+    /// or a line names an entity outside that sub-group.
+    GroupAdjustmentScopeInvalid,
+    /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
+    GroupAdjustmentInconsistent,
 }
 
 impl Rule {

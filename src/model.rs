@@ -571,3 +571,26 @@ pub struct BroughtForward {
     /// accumulated, not in retained earnings.
     pub equity_method_oci: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
 }
+
+/// One line of a top-side entry, from `entities/group_adjustments.csv`: an entry the
+/// group books on the group chart in the presentation currency, above the entities'
+/// ledgers (a late audit adjustment, a remeasurement only the group makes). The rows
+/// sharing `entry` are one entry; `close::topside` checks and posts it.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct GroupAdjustment {
+    /// The entry id the rows of one entry share.
+    pub entry: String,
+    /// The month the entry is booked in.
+    pub period: Period,
+    /// The group's parent, or the holding entity of the sub-group the entry belongs to.
+    pub scope: EntityId,
+    pub account: GroupAccount,
+    /// Presentation currency, debit positive.
+    pub amount: Decimal,
+    /// The consolidated entity whose figure the line corrects, when there is one.
+    pub entity: Option<EntityId>,
+    pub counterparty: Option<EntityId>,
+    pub reason: String,
+    pub prepared_by: String,
+    pub source: Source,
+}

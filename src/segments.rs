@@ -425,6 +425,20 @@ fn entry_column(e: &Entry, m: &Membership) -> Option<Column> {
     if segs.len() == 1 { segs.into_iter().next().map(|s| m.column(s)) } else { None }
 }
 
+/// The column of a top-side line (close/topside.rs): an entry that names no entity is
+/// the group's, an unallocated item (IFRS 8.28); a line of one that names entities is
+/// the segment of its entity, as the entity's own figure would be. `None` for every
+/// other rule.
+fn adjustment_column(e: &Entry, l: &crate::close::EntryLine, m: &Membership) -> Option<Column> {
+    if e.rule != EliminationRule::GroupAdjustment {
+        return None;
+    }
+    if e.entities.is_empty() {
+        return Some(Column::Unallocated("consolidation:group_adjustment".into()));
+    }
+    Some(m.column(m.of(&l.entity, &l.account)))
+}
+
 /// Attributes each contribution `(entity, account, amount)` and each journal line.
 pub fn attribute(
     contributions: &[(EntityId, GroupAccount, Decimal)],
@@ -441,6 +455,12 @@ pub fn attribute(
     for entry in journal {
         let col = entry_column(entry, m);
         for l in &entry.lines {
+            if let Some(c) = adjustment_column(entry, l, m) {
+                add(&mut out.columns, c, &l.account, l.amount);
+                *out.countries.entry(country_of(&l.entity)).or_default().entry(l.account.clone()).or_default() +=
+                    l.amount;
+                continue;
+            }
             match &col {
                 Some(c) => add(&mut out.columns, c.clone(), &l.account, l.amount),
                 None => {
@@ -1300,6 +1320,35 @@ mod tests {
         let across = attribute(&[], &[sale("A", "C")], &m, &country);
         assert_eq!(across.columns.keys().collect::<Vec<_>>(), vec![&Column::InterSegment]);
         assert_eq!(across.inter_segment[&Column::Segment("X".into())][&GroupAccount::new("4100")], d(100));
+    }
+
+    /// A top-side entry naming no entity is an unallocated item (IFRS 8.28); one naming
+    /// entities in two segments puts each line in its entity's segment, not in the
+    /// inter-segment column: it is no transaction between them. A provision of 70 at A
+    /// (segment X) and 30 at C (segment Y) against one liability line each.
+    #[test]
+    fn a_top_side_entry_is_unallocated_or_its_entities_segments() {
+        let ents = [entity("A", "NL", "X"), entity("C", "NL", "Y")];
+        let mut f = Vec::new();
+        let m = Membership::build("business", &ents, &[], &chart(), None, &mut f);
+        let country = BTreeMap::new();
+        let plain =
+            |account: &str, e: &str, amount: i64| EntryLine { counterparty: None, ..line(account, e, "A", amount) };
+        let group =
+            entry(EliminationRule::GroupAdjustment, &[], vec![plain("5000", "HQ", 50), plain("2450", "HQ", -50)]);
+        let attr = attribute(&[], &[group], &m, &country);
+        let unallocated = Column::Unallocated("consolidation:group_adjustment".into());
+        assert_eq!(attr.columns.keys().collect::<Vec<_>>(), vec![&unallocated]);
+        let named = entry(
+            EliminationRule::GroupAdjustment,
+            &["A", "C"],
+            vec![plain("5000", "A", 70), plain("2450", "A", -70), plain("5000", "C", 30), plain("2450", "C", -30)],
+        );
+        let attr = attribute(&[], &[named], &m, &country);
+        let x = &attr.columns[&Column::Segment("X".into())];
+        let y = &attr.columns[&Column::Segment("Y".into())];
+        assert_eq!((x[&GroupAccount::new("5000")], y[&GroupAccount::new("5000")]), (d(70), d(30)));
+        assert!(!attr.columns.contains_key(&Column::InterSegment) && attr.inter_segment.is_empty());
     }
 
     /// A refinement moves an entity's account to another segment, and an account claimed

@@ -64,6 +64,7 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_rates(ds, mapped, scope, &mut f)?;
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
+    check_group_adjustments(ds, &structure, scope, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     check_plausibility(ds, mapped, scope, &mut f)?;
     let mut layout_findings = Vec::new();
@@ -1013,6 +1014,27 @@ fn check_net_investments(ds: &Dataset, f: &mut Vec<Finding>) {
     }
 }
 
+/// The top-side entries of `entities/group_adjustments.csv`, by the close's own checks
+/// (`close::topside::check`) on the group's structure at the period end.
+fn check_group_adjustments(
+    ds: &Dataset,
+    structure: &crate::structure::GroupStructure,
+    scope: Scope,
+    f: &mut Vec<Finding>,
+) {
+    use crate::close::topside::{Frame, findings};
+    let fr = Frame {
+        chart: ds.accounts.iter().map(|a| (&a.account, a)).collect(),
+        roles: &ds.settings.accounts,
+        known: ds.entities.iter().map(|e| &e.id).collect(),
+        structure,
+        fiscal_start: scope.fiscal_start,
+        period: scope.period,
+        minor: ds.settings.presentation_currency.minor_unit(),
+    };
+    f.extend(findings(&ds.group_adjustments, &fr));
+}
+
 /// The rows of `entities/cash_flow_lines.csv` (IAS 7), when the file exists: accounts of
 /// the chart, once each, each line id with one section and label, `against` only on
 /// profit or loss and naming a line of the file; and every account that moves in the
@@ -1147,6 +1169,15 @@ fn check_cash_flow_coverage(
     let posted: BTreeSet<&GroupAccount> = roles.into_iter().flatten().collect();
     let mut missing: BTreeSet<&GroupAccount> = moving.keys().collect();
     missing.extend(posted.iter().copied().filter(|a| ds.account(a).is_some()));
+    // The accounts of the top-side entries the close counts move too.
+    let topside: BTreeSet<&GroupAccount> = ds
+        .group_adjustments
+        .lines
+        .iter()
+        .filter(|r| r.period >= scope.fiscal_start && r.period <= scope.period && ds.account(&r.account).is_some())
+        .map(|r| &r.account)
+        .collect();
+    missing.extend(topside.iter().copied());
     for a in missing.into_iter().filter(|a| !seen.contains_key(a)) {
         let how = match moving.get(a) {
             Some(m) => format!(
@@ -1155,6 +1186,7 @@ fn check_cash_flow_coverage(
                 scope.period,
                 format_amount(*m, 3)
             ),
+            None if !posted.contains(a) => "is booked by a top-side entry of group_adjustments.csv".to_string(),
             None => "is posted by the close (a role account of group.toml)".to_string(),
         };
         f.push(

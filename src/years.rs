@@ -73,6 +73,17 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
     };
     ds.holdings.retain(|h| !later(h.valid_from));
     ds.acquisitions.retain(|a| !later(a.date));
+    // A top-side entry belongs to the year of its month (its first row's, so that an
+    // entry whose rows disagree stays whole for validation to name): entries of another
+    // year the folder holds are that year's.
+    let mut entry_year: BTreeMap<String, Period> = BTreeMap::new();
+    for r in &full.group_adjustments.lines {
+        entry_year.entry(r.entry.clone()).or_insert_with(|| r.period.fiscal_year_start(fys));
+    }
+    ds.group_adjustments.lines.retain(|r| {
+        let y = entry_year.get(&r.entry).copied().unwrap_or(start);
+        y == start || !years.contains(&y)
+    });
     // An entity whose first year is later has not delivered for this one.
     ds.delivered_entities.retain(|e| first_year.get(e).is_none_or(|y| *y <= start));
     // The year's rows, and the other rows of the files that deliver them: a month of

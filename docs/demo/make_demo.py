@@ -1487,6 +1487,23 @@ DOCUMENT_NOTES = {"timing_jun": "instruments invoiced 2026-06-29 and booked by B
                   "timing_dec": "instruments in transit to ALD-UK at the year end"}
 
 
+# A top-side entry (entities/group_adjustments.csv, docs/demo.md "A top-side entry"): in
+# November the auditors ask for a warranty provision at BRW-US after its books closed; the
+# group books it in the ALD-US sub-group, naming BRW-US, in EUR on the group chart.
+TOPSIDE_REASON = "warranty provision for the November recall asked for by the auditors after BRW-US closed"
+TOPSIDE = [
+    ("TS-2026-11-01", "2026-11", "ALD-US", "6200", D("85000.00"), "BRW-US"),
+    ("TS-2026-11-01", "2026-11", "ALD-US", "2600", D("-85000.00"), "BRW-US"),
+]
+
+
+def group_adjustments():
+    assert sum(x[4] for x in TOPSIDE) == 0, "a top-side entry must balance"
+    return [[entry, period, scope, account, fmt(amount, PRESENTATION), entity, "", TOPSIDE_REASON,
+             "group reporting (M. Okafor)"]
+            for entry, period, scope, account, amount, entity in TOPSIDE]
+
+
 def documents():
     rows = []
     for key, date in DOCUMENT_DATES.items():
@@ -1577,6 +1594,10 @@ def main(argv=None):
     w.csv("entities/inventory_profit.csv",
           ["seller", "buyer", "period", "inventory_amount", "currency", "margin_rate", "note"],
           inventory_profit(snapshots))
+
+    w.csv("entities/group_adjustments.csv",
+          ["entry", "period", "scope", "account", "amount", "entity", "counterparty", "reason", "prepared_by"],
+          group_adjustments())
 
     rate_rows = []
     for period in [PRIOR_OPENING] + PRIOR_PERIODS + ALL_PERIODS:

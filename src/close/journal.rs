@@ -33,6 +33,8 @@ pub enum EliminationRule {
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
+    GroupAdjustment,
 }
 
 impl EliminationRule {
@@ -48,6 +50,7 @@ impl EliminationRule {
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
 }
@@ -154,6 +157,7 @@ mod tests {
             EliminationRule::InvestmentAndGoodwill,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::GroupAdjustment,
         ]
         .into_iter()
         .map(EliminationRule::as_str)
@@ -169,7 +173,8 @@ mod tests {
                 "unrealised_profit",
                 "investment_and_goodwill",
                 "equity_method",
-                "non_controlling_interest"
+                "non_controlling_interest",
+                "group_adjustment"
             ]
         );
         assert_eq!(serde_json::to_string(&EliminationRule::EquityMethod).ok().as_deref(), Some("\"equity_method\""));

@@ -12,7 +12,8 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `equity_method`.
+//!   `equity_method`, then the top-side entries (`topside`, rule `group_adjustment`),
+//!   which the NCI shares where a line names a subsidiary.
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -37,6 +38,7 @@ pub mod pre_acquisition;
 pub mod prove;
 pub mod reserves;
 pub mod roll_up;
+pub mod topside;
 pub mod unrealised_profit;
 pub mod view;
 
@@ -130,6 +132,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &mut findings);
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
+    topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
     let nci = nci::post(&mut j, &cx, &for_nci);

@@ -67,6 +67,9 @@ fn post_one(
     // Unrealised profit the subsidiary made on sales inside the group reduces its
     // post-acquisition equity, and so the NCI's share (upstream).
     let unrealised = own_sum(own, &[EliminationRule::UnrealisedProfit], &|l| cx.is_equity_or_flow(&l.account));
+    // A top-side line naming the subsidiary (or booked in its sub-group without naming
+    // another entity) is its figure, shared by its NCI (IFRS 10.B94; close/topside.rs).
+    let topside = own_sum(own, &[EliminationRule::GroupAdjustment], &|l| cx.is_equity_or_flow(&l.account));
     // The fair value adjustment at the closing rate is part of the subsidiary's net
     // assets in the group, as it was part of the net assets acquired. A holder's
     // exchange difference of the year on its investments in subsidiaries is eliminated
@@ -76,17 +79,27 @@ fn post_one(
     // The same exchange difference of the earlier years the folder holds, carried from
     // the prior year's close, so that the NCI at a year end is the next year's opening.
     let holder_fx_before = cx.brought_forward.investment_fx.get(&e.id).copied().unwrap_or_default();
-    let post =
-        equity_total + of(&m.fair_value_now) - unrealised - of(&m.pre_acquisition) - holder_fx - holder_fx_before;
+    let post = equity_total + of(&m.fair_value_now)
+        - unrealised
+        - topside
+        - of(&m.pre_acquisition)
+        - holder_fx
+        - holder_fx_before;
     let nci_post = cx.round(post * e.nci);
     // No adjustment for the holder's investments in its own subsidiaries: each
     // subsidiary's NCI at acquisition is its direct outside share (or fair value), and
     // its post-acquisition equity is shared by the effective NCI, which already holds
     // the holder's NCI's indirect part (P 80% of S, S 60% of T: 40% + 20% x 60% = 52%).
     // Deducting the holder's NCI's share of the investment's cost as well would count
-    // that part twice. Results before control are not the group's (nor the NCI's).
-    let not_the_groups =
-        [EliminationRule::PreAcquisitionResults, EliminationRule::UnrealisedProfit, EliminationRule::NetInvestmentFx];
+    // that part twice. Results before control are not the group's (nor the NCI's); the
+    // subsidiary's result as the group sees it also moves by its unrealised profit, the
+    // net investment difference moved to OCI and the top-side lines that name it.
+    let not_the_groups = [
+        EliminationRule::PreAcquisitionResults,
+        EliminationRule::UnrealisedProfit,
+        EliminationRule::NetInvestmentFx,
+        EliminationRule::GroupAdjustment,
+    ];
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
         view + own_sum(own, &not_the_groups, &|l| cx.in_statement(&l.account, st))

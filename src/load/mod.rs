@@ -4,6 +4,7 @@
 //! run shows everything wrong with a delivery. It knows nothing about accounting rules
 //! beyond the shape of each file; `validate` checks the rules.
 
+pub mod adjustments;
 mod cash_flow_lines;
 pub mod daily;
 mod documents;
@@ -129,6 +130,9 @@ pub struct Dataset {
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
+    /// `close::topside`.
+    pub group_adjustments: adjustments::GroupAdjustments,
     /// The statement of cash flows' line per group account (optional
     /// `cash_flow_lines.csv`; `None` when the file does not exist).
     pub cash_flow_lines: Option<Vec<crate::cash_flows::LineDef>>,
@@ -232,6 +236,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let group_adjustments = adjustments::load_group_adjustments(
+        root,
+        &ent_dir.join(adjustments::GROUP_ADJUSTMENTS_FILE),
+        &mut f,
+        &mut inputs,
+    );
     let cash_flow_lines =
         cash_flow_lines::load_cash_flow_lines(root, &ent_dir.join("cash_flow_lines.csv"), &mut f, &mut inputs);
     let accepted_differences =
@@ -259,6 +269,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             inventory_profits,
             segment_accounts,
             net_investments,
+            group_adjustments,
             cash_flow_lines,
             accepted_differences,
             delivered_entities: delivered,
@@ -464,6 +475,7 @@ pub const ENTITY_FILES: &[&str] = &[
     "net_investment.csv",
     "cash_flow_lines.csv",
     crate::intercompany::ACCEPTED_FILE,
+    adjustments::GROUP_ADJUSTMENTS_FILE,
 ];
 
 /// The files tessera reads under `rates/`.

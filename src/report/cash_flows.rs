@@ -10,7 +10,7 @@ use crate::money::{format_amount, plain};
 use super::{csv_text, write_file};
 
 /// Every figure of the statement, in the order printed: (section, line, label, amount).
-fn rows(cf: &CashFlows) -> Vec<(String, String, String, rust_decimal::Decimal)> {
+pub(super) fn rows(cf: &CashFlows) -> Vec<(String, String, String, rust_decimal::Decimal)> {
     let mut out = Vec::new();
     for s in &cf.sections {
         let section = s.section.as_str().to_string();
@@ -57,6 +57,17 @@ fn rows(cf: &CashFlows) -> Vec<(String, String, String, rust_decimal::Decimal)> 
         cf.cash_closing,
     ));
     out
+}
+
+/// Whether a row of [`rows`] is a total (printed in bold in the pack): a section's
+/// total, the net change and the closing cash. The exchange line (IAS 7.28) is one
+/// reconciling item, its parts indented below it.
+pub(super) fn is_total(section: &str, line: &str) -> bool {
+    match section {
+        "exchange" => false,
+        "cash" => line != "opening",
+        _ => line == "total",
+    }
 }
 
 fn total_label(s: crate::cash_flows::Section) -> &'static str {

@@ -244,6 +244,27 @@ fn equity_table(r: &CloseReport<'_>, minor: u32) -> String {
     t
 }
 
+/// The statement of cash flows (IAS 7) under its own heading, totals in bold.
+fn cash_flow_table(cf: &crate::cash_flows::CashFlows, minor: u32) -> String {
+    let mut t = format!(
+        r#"<h2>Statement of cash flows</h2><table class="statement" id="cash_flows"><thead><tr><th>Indirect method (IAS 7.18(b))</th><th class="amount">{} to {}</th></tr></thead><tbody>"#,
+        cf.opening_period.next(),
+        cf.period
+    );
+    for (section, line, label, amount) in super::cash_flows::rows(cf) {
+        let total = super::cash_flows::is_total(&section, &line);
+        t.push_str(&format!(
+            r#"<tr{}><td class="{}">{}</td><td class="amount">{}</td></tr>"#,
+            if total { r#" class="total""# } else { "" },
+            if total { "total" } else { "item" },
+            escape(&label),
+            format_amount(amount, minor)
+        ));
+    }
+    t.push_str("</tbody></table>");
+    t
+}
+
 /// The page for a close.
 pub fn close_page(r: &CloseReport<'_>, extras: &Extras<'_>, minor: u32) -> String {
     let title = format!("{} close {} ({} view)", capitalised(&r.scope), r.period, r.view);
@@ -270,6 +291,9 @@ pub fn close_page(r: &CloseReport<'_>, extras: &Extras<'_>, minor: u32) -> Strin
     }
     h.push_str("<h2>Statement of changes in equity</h2>");
     h.push_str(&equity_table(r, minor));
+    if let Some(cf) = &r.statements.cash_flows {
+        h.push_str(&cash_flow_table(cf, minor));
+    }
     h.push_str("</section>");
 
     if let Some((key, segments)) = extras.segments {

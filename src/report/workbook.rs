@@ -63,6 +63,9 @@ pub fn close_workbook(
         if row.row == "opening" || row.row == "closing" { s.bold_row(cells) } else { s.row(cells) }
     }
     sheets.push(s);
+    if let Some(cf) = &r.statements.cash_flows {
+        sheets.push(cash_flow_sheet(cf));
+    }
 
     let mut s = Sheet::new("Trial balance");
     s.header(&["account", "name", "amount (debit positive)"]);
@@ -157,6 +160,20 @@ pub fn close_workbook(
     s.row(vec![Cell::from(super::CAUTION)]);
     sheets.push(s);
     workbook(&sheets, minor)
+}
+
+/// The statement of cash flows (IAS 7), its totals in bold.
+fn cash_flow_sheet(cf: &crate::cash_flows::CashFlows) -> Sheet {
+    let mut s = Sheet::new("Cash flows");
+    s.header(&[
+        "Statement of cash flows (IAS 7, indirect method)",
+        &format!("{} to {}", cf.opening_period.next(), cf.period),
+    ]);
+    for (section, line, label, amount) in super::cash_flows::rows(cf) {
+        let cells = vec![Cell::Text(label), Cell::Amount(amount)];
+        if super::cash_flows::is_total(&section, &line) { s.bold_row(cells) } else { s.row(cells) }
+    }
+    s
 }
 
 /// The segment report (IFRS 8.23, 8.28): each line by segment, then its reconciliation

@@ -16,6 +16,7 @@ use crate::support::{Folder, run_json};
 const UK_DEC: &str = "entities/ALD-UK/tb-2026-12.movements.csv";
 const UK_MAP: &str = "entities/ALD-UK/mapping.csv";
 const JP_DEC: &str = "entities/KIS-JP/tb-2026-12.balances.csv";
+const TOPSIDE: &str = "entities/group_adjustments.csv";
 
 /// One bad input: how to break the demo, the rule it must raise, the exit code of check.
 struct Case {
@@ -606,6 +607,61 @@ fn cases() -> Vec<Case> {
                 )
             },
             rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        // --- top-side entries (group_adjustments.csv) ----------------------------------
+        Case {
+            name: "a top-side entry that does not balance",
+            mutate: |f| f.replace(TOPSIDE, "2600,-85000.00", "2600,-84000.00"),
+            rule: Some("GroupAdjustmentUnbalanced"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side line on an account not in the chart",
+            mutate: |f| f.replace(TOPSIDE, "ALD-US,6200,", "ALD-US,6299,"),
+            rule: Some("AccountUnknown"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side line on the NCI account the close computes",
+            mutate: |f| f.replace(TOPSIDE, "ALD-US,2600,", "ALD-US,3900,"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side entry scoped to an entity that holds no sub-group",
+            mutate: |f| map_lines(f, TOPSIDE, |_, l| l.replace(",ALD-US,", ",BRW-MX,")),
+            rule: Some("GroupAdjustmentScopeInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side line naming an entity outside its sub-group",
+            mutate: |f| f.replace(TOPSIDE, "85000.00,BRW-US,", "85000.00,ALD-UK,"),
+            rule: Some("GroupAdjustmentScopeInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side entry booked outside the fiscal year",
+            mutate: |f| map_lines(f, TOPSIDE, |_, l| l.replace(",2026-11,", ",2027-01,")),
+            rule: Some("PeriodOutsideYear"),
+            code: 1,
+        },
+        Case {
+            name: "two rows of one top-side entry with different reasons",
+            mutate: |f| f.replace(TOPSIDE, "-85000.00,BRW-US,,warranty", "-85000.00,BRW-US,,a warranty"),
+            rule: Some("GroupAdjustmentInconsistent"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side amount with more decimals than the presentation currency",
+            mutate: |f| map_lines(f, TOPSIDE, |_, l| l.replace("85000.00,", "85000.005,")),
+            rule: Some("AmountSurplusDecimals"),
+            code: 1,
+        },
+        Case {
+            name: "a top-side row without its preparer",
+            mutate: |f| f.replace(TOPSIDE, ",group reporting (M. Okafor)\n", ",\n"),
+            rule: Some("ValueMissing"),
             code: 1,
         },
     ]

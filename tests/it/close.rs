@@ -616,3 +616,44 @@ fn every_finding_of_the_close_is_listed_by_check() {
         }
     }
 }
+
+/// The demo's top-side entry (docs/demo.md: EUR 85,000.00 of other operating expenses
+/// booked in November in the ALD-US sub-group, naming BRW-US) against the same demo
+/// without it: the month views show it in November only; the group's close and the
+/// sub-group's both count it, BRW-US's NCI bearing 40% (34,000.00) in the group and
+/// 25% (21,250.00) in the sub-group; booked as a group entry (scope ALD-NL) it leaves
+/// the sub-group's close alone.
+#[test]
+fn a_top_side_entry_counts_in_its_month_and_its_scopes() {
+    const FILE: &str = "entities/group_adjustments.csv";
+    let with = Folder::demo();
+    let without = Folder::demo();
+    without.remove(FILE);
+    let group = Folder::demo();
+    let text = group.read(FILE).replace(",ALD-US,", ",ALD-NL,");
+    group.write(FILE, &text);
+    let close = |f: &Folder, period: &str, view: &str, entity: Option<&str>| -> Value {
+        let out = f.path().join("out");
+        let mut args = vec!["close", "--period", period, "--view", view, "--out", out.to_str().unwrap()];
+        if let Some(e) = entity {
+            args.extend(["--entity", e]);
+        }
+        let (code, v) = run_json(f.path(), &args);
+        assert_eq!(code, 0, "{period} {view} {entity:?}: {:#}", v["proof"]);
+        assert_eq!(v["proof"]["tied"], true, "{:#}", v["proof"]);
+        v
+    };
+    let op = |v: &Value| statement_line(v, "profit_or_loss", "OP").unwrap();
+    let nci_profit = |v: &Value| text_decimal(&v["attribution"]["profit_nci"]).unwrap();
+    for (period, moved) in [("2026-10", "0"), ("2026-11", "85000"), ("2026-12", "0")] {
+        let (a, b) = (close(&with, period, "month", None), close(&without, period, "month", None));
+        assert_eq!(op(&b) - op(&a), d(moved), "{period}");
+    }
+    let (a, b) = (close(&with, "2026-12", "ytd", None), close(&without, "2026-12", "ytd", None));
+    assert_eq!((op(&b) - op(&a), nci_profit(&b) - nci_profit(&a)), (d("85000"), d("34000")));
+    assert_eq!(tb(&a, "2600") - tb(&b, "2600"), d("-85000"));
+    let sub = |f: &Folder| close(f, "2026-12", "ytd", Some("ALD-US"));
+    let (a, b, g) = (sub(&with), sub(&without), sub(&group));
+    assert_eq!((op(&b) - op(&a), nci_profit(&b) - nci_profit(&a)), (d("85000"), d("21250")));
+    assert_eq!((op(&g), nci_profit(&g)), (op(&b), nci_profit(&b)));
+}

@@ -97,12 +97,8 @@ fn diff(name: &str, want: &[u8], got: &[u8]) -> String {
     for i in 0..w.len().max(g.len()) {
         let (a, b) = (w.get(i), g.get(i));
         if a != b {
-            text.push_str(&format!(
-                "  line {}:\n  - {}\n  + {}\n",
-                i + 1,
-                a.unwrap_or(&"(none)"),
-                b.unwrap_or(&"(none)")
-            ));
+            let (a, b) = excerpts(a.unwrap_or(&"(none)"), b.unwrap_or(&"(none)"));
+            text.push_str(&format!("  line {}:\n  - {a}\n  + {b}\n", i + 1));
             shown += 1;
             if shown == 12 {
                 text.push_str("  ...\n");
@@ -111,6 +107,24 @@ fn diff(name: &str, want: &[u8], got: &[u8]) -> String {
         }
     }
     text
+}
+
+/// Two differing lines, cut to a window around their first difference when long (an
+/// HTML page is one line of many kilobytes).
+fn excerpts(a: &str, b: &str) -> (String, String) {
+    const WIDTH: usize = 160;
+    let (ca, cb): (Vec<char>, Vec<char>) = (a.chars().collect(), b.chars().collect());
+    if ca.len() <= 2 * WIDTH && cb.len() <= 2 * WIDTH {
+        return (a.to_string(), b.to_string());
+    }
+    let first = ca.iter().zip(&cb).take_while(|(x, y)| x == y).count();
+    let start = first.saturating_sub(WIDTH / 2);
+    let cut = |c: &[char]| {
+        let end = (start + WIDTH).min(c.len());
+        let text: String = c[start.min(end)..end].iter().collect();
+        format!("[char {}] ...{text}...", start + 1)
+    };
+    (cut(&ca), cut(&cb))
 }
 
 fn write_case(dir: &Path, files: &BTreeMap<String, Vec<u8>>) {

@@ -24,6 +24,8 @@
 //! - `rates_ecb`: `rates` derivation against the euro system's reference rates (a pinned
 //!   PyPI extract) and an independent Python `decimal` oracle;
 //! - `rates_findings`: the rate derivation's findings, each from a small inline file;
+//! - `readme`: the README's commands exist with their options and its shell lines run as
+//!   written; no dead links in the README and docs;
 //! - `segments`: `tessera segments` (IFRS 8): a study-text thresholds problem, head office
 //!   and account refinements, the demo reconciled by business and geography with its
 //!   inter-segment revenue by hand, and a property test;
@@ -49,6 +51,7 @@ mod intercompany;
 mod pack;
 mod rates_ecb;
 mod rates_findings;
+mod readme;
 mod segments;
 mod structure;
 mod support;

@@ -232,6 +232,37 @@ fn check_workbook(wb: &Value, close: &Value, matching: &Value, segments: &Value)
         }
     }
 
+    // The statement of cash flows: each section's lines and total, then the cash
+    // reconciliation, in the order of `cash_flows.csv`.
+    let cf = &close["statements"]["cash_flows"];
+    let mut want = Vec::new();
+    for s in cf["sections"].as_array().unwrap() {
+        for l in s["lines"].as_array().unwrap() {
+            want.push((l["label"].as_str().unwrap().to_string(), json_amount(&l["amount"]), false));
+        }
+        want.push((String::new(), json_amount(&s["total"]), true));
+    }
+    let ex = &cf["exchange"];
+    for (k, bold) in [
+        (&cf["net_change"], true),
+        (&cf["cash_opening"], false),
+        (&ex["total"], false),
+        (&ex["on_cash"], false),
+        (&ex["residue"], false),
+        (&cf["cash_closing"], true),
+    ] {
+        want.push((String::new(), json_amount(k), bold));
+    }
+    let rows = sheet_rows(wb, "Cash flows");
+    assert_eq!(rows.len(), want.len(), "cash flows: every line, total and reconciling figure");
+    for (row, (label, amount, bold)) in rows.iter().zip(&want) {
+        if !label.is_empty() {
+            assert_eq!(&row[0].1, label);
+        }
+        assert_eq!(number(&row[1]), *amount, "cash flows: {}", row[0].1);
+        assert_eq!(row[1].3, *bold, "cash flows {}: bold = total", row[0].1);
+    }
+
     // Group trial balance.
     let rows = sheet_rows(wb, "Trial balance");
     let tb = close["group_trial_balance"].as_array().unwrap();
@@ -468,7 +499,7 @@ fn a_close_writes_its_files_workbook_and_report() {
         eprintln!("SKIPPED the browser check: /usr/bin/chromium is absent (apt-get install chromium)");
         return;
     };
-    for id in ["profit_or_loss", "oci", "balance_sheet", "equity_changes", "intercompany"] {
+    for id in ["profit_or_loss", "oci", "balance_sheet", "equity_changes", "cash_flows", "intercompany"] {
         assert!(dom.contains(&format!("id=\"{id}\"")), "the rendered page lacks {id}");
     }
     assert_eq!(dom.matches("<svg class=\"chart\"").count(), 3, "segments, causes, operations");
