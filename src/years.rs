@@ -106,7 +106,7 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
     } else {
         let prior_ds = year_dataset(full, prior, &mut Vec::new())?;
         let mapped = map_accounts(&prior_ds, prior)?;
-        findings.extend(prior_year_blocked(&prior_ds, &mapped, prior, start)?);
+        findings.extend(prior_year_blocked(&prior_ds, &mapped, prior, start, &delivered_prior)?);
         let t = crate::translate::translate(&prior_ds, &mapped, prior, start.prev())?;
         ds.brought_forward = brought_forward(&prior_ds, &t, start.prev())?;
         Some(derive_opening(&prior_ds, &t, prior, &delivered_prior, findings)?)
@@ -160,11 +160,18 @@ fn prior_year_blocked(
     mapped: &crate::map_accounts::Mapped,
     prior: Period,
     start: Period,
+    carried: &BTreeSet<EntityId>,
 ) -> PolarsResult<Option<Finding>> {
     let mut found = crate::findings::Findings::default();
     let scope = crate::validate::Scope::new(start.prev(), prior_ds.settings.fiscal_year_start);
     crate::validate::validate(prior_ds, mapped, scope, &mut found)?;
-    let blocking = found.items().iter().filter(|f| f.severity >= Severity::Blocking).count();
+    // Only what touches the carried entities (or no entity in particular) counts: an
+    // entity that did not deliver the prior year has nothing carried from it.
+    let blocking = found
+        .items()
+        .iter()
+        .filter(|f| f.severity >= Severity::Blocking && f.entity.as_ref().is_none_or(|e| carried.contains(e)))
+        .count();
     Ok((blocking > 0).then(|| {
         Finding::new(
             Rule::OpeningNotDerivable,

@@ -22,14 +22,9 @@ fn amount_of(v: &serde_json::Value) -> Decimal {
     v.as_str().and_then(|s| Decimal::from_str(s).ok()).unwrap_or_default()
 }
 
-/// The workbook's bytes for a close; `matching` adds the intercompany sheets.
-pub fn close_workbook(
-    r: &CloseReport<'_>,
-    names: &BTreeMap<GroupAccount, String>,
-    matching: Option<&crate::intercompany::Matching>,
-    segments: Option<&crate::segments::SegmentReport>,
-    minor: u32,
-) -> Result<Vec<u8>, crate::Error> {
+/// The sheets of the statements of profit or loss, OCI and financial position, each
+/// with the prior year's column (IAS 1.38) when the close has one.
+fn statement_sheets(r: &CloseReport<'_>) -> Vec<Sheet> {
     let mut sheets = Vec::new();
     for ((key, title), (_, sheet_name)) in TITLES.iter().zip(STATEMENT_SHEETS) {
         if !r.statements.laid_out.contains_key(*key) {
@@ -52,6 +47,18 @@ pub fn close_workbook(
         }
         sheets.push(s);
     }
+    sheets
+}
+
+/// The workbook's bytes for a close; `matching` adds the intercompany sheets.
+pub fn close_workbook(
+    r: &CloseReport<'_>,
+    names: &BTreeMap<GroupAccount, String>,
+    matching: Option<&crate::intercompany::Matching>,
+    segments: Option<&crate::segments::SegmentReport>,
+    minor: u32,
+) -> Result<Vec<u8>, crate::Error> {
+    let mut sheets = statement_sheets(r);
     let eq = &r.statements.changes_in_equity;
     let mut s = Sheet::new("Changes in equity");
     let mut head: Vec<&str> = vec!["Statement of changes in equity"];
