@@ -570,6 +570,10 @@ pub struct BroughtForward {
     /// years held (equity method, IAS 28.10): in the translation reserve, where it
     /// accumulated, not in retained earnings.
     pub equity_method_oci: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
+    /// Per foreign operation: its translation reserve at the prior year end (IFRIC 16.17,
+    /// gains positive), brought forward as the operation's own rather than as each
+    /// entity's translated opening has it (the two differ under the step-by-step method).
+    pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
 }
 
 /// One line of a top-side entry, from `entities/group_adjustments.csv`: an entry the

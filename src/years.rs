@@ -460,6 +460,8 @@ fn brought_forward(
     let close = crate::close::close_at(prior, t, &structure, prior_end)?;
     let roles = &prior.settings.accounts;
     let mut out = prior.brought_forward.clone();
+    // The reserve per operation is cumulative: the year end's replaces what came before.
+    out.operation_reserves = close.reserves.iter().map(|r| (r.operation.clone(), r.reserve)).collect();
     for e in &close.journal {
         for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
             let Some(cp) = &l.counterparty else { continue };

@@ -141,8 +141,11 @@ pub mod fixture {
     use chrono::NaiveDate;
 
     /// Nothing brought forward: the fixture's year is the first.
-    static NOTHING_BROUGHT_FORWARD: BroughtForward =
-        BroughtForward { investment_fx: BTreeMap::new(), equity_method_oci: BTreeMap::new() };
+    static NOTHING_BROUGHT_FORWARD: BroughtForward = BroughtForward {
+        investment_fx: BTreeMap::new(),
+        equity_method_oci: BTreeMap::new(),
+        operation_reserves: BTreeMap::new(),
+    };
 
     pub fn d(s: &str) -> Decimal {
         s.parse().unwrap_or_else(|_| panic!("bad decimal {s}"))

@@ -136,7 +136,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     drop(eliminate_span);
 
     let nci = nci::post(&mut j, &cx, &for_nci);
-    let brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
+    let mut brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
+    // The reserve per operation at the prior year end, where the folder holds that year.
+    brought_forward.extend(ds.brought_forward.operation_reserves.iter().map(|(e, v)| (e.clone(), *v)));
     let reserves = reserves::reserves(&cx, &brought_forward, &year_parts, ds.settings.policies.ifric16);
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();

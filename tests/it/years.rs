@@ -161,3 +161,32 @@ fn a_prior_year_with_blocking_findings_is_named_when_its_close_is_carried() {
     assert!(text.contains("the fiscal year starting 2025-01 has"), "{text}");
     assert!(found[0]["action"].as_str().unwrap_or_default().contains("tessera check --period 2025-12"));
 }
+
+#[test]
+fn the_reserve_per_operation_is_carried_under_both_ifric16_methods() {
+    // IFRIC 16.17: under the step-by-step method part of an entity's difference belongs
+    // to its intermediate parent's operation; the reserve each operation holds at the
+    // 2025 year end is what 2026 brings forward for it (GLF-BH, acquired in 2026, brings
+    // forward its own opening's).
+    for method in ["direct", "step_by_step"] {
+        let demo = Folder::demo();
+        demo.replace("entities/group.toml", "ifric16 = \"direct\"", &format!("ifric16 = \"{method}\""));
+        let (code, then) = run_json(demo.path(), &["close", "--period", "2025-12", "--out", "out"]);
+        assert_eq!(code, 0, "{method}");
+        let (code, now) = run_json(demo.path(), &["close", "--period", "2026-12", "--out", "out"]);
+        assert_eq!(code, 0, "{method}: {}", now["proof"]);
+        let reserve: BTreeMap<String, String> = then["translation_reserves"]
+            .as_array()
+            .expect("reserves")
+            .iter()
+            .map(|r| (r["operation"].as_str().unwrap().to_string(), r["reserve"].as_str().unwrap().to_string()))
+            .collect();
+        assert!(reserve.len() >= 6, "{method}: {reserve:?}");
+        for r in now["translation_reserves"].as_array().expect("reserves") {
+            let op = r["operation"].as_str().unwrap();
+            if op != "GLF-BH" {
+                assert_eq!(r["brought_forward"].as_str(), reserve.get(op).map(String::as_str), "{method} {op}");
+            }
+        }
+    }
+}
