@@ -24,8 +24,10 @@
 //! - the elimination journal's movement: line by line by account (intragroup flows are
 //!   eliminated because both sides and the elimination land on the same lines), except
 //!   the entries that restate a non-cash item: goodwill (`investment_and_goodwill`: its
-//!   profit or loss part, an impairment, is added back) and the equity method (the share
-//!   of the result is reversed), each on a line of its own.
+//!   profit or loss part, an impairment, is added back), the depreciation of fair value
+//!   adjustments (`fair_value_depreciation`: added back; the release of their deferred
+//!   tax, `fair_value_deferred_tax`, nets to zero there) and the equity method (the share of the result is reversed), each on
+//!   a line of its own.
 //!
 //! Equity movements in the books of a subsidiary (its dividends, after the intragroup part
 //! is eliminated, and the close's NCI entries against them) belong to the line of the NCI
@@ -122,6 +124,8 @@ pub const PROFIT_BEFORE_TAX: &str = "profit_before_tax";
 /// The fixed lines this module adds.
 pub const ACQUISITIONS: &str = "acquisition_of_subsidiaries";
 pub const GOODWILL_IMPAIRMENT: &str = "goodwill_impairment";
+pub const FAIR_VALUE_DEPRECIATION: &str = "fair_value_depreciation";
+const FAIR_VALUE_DEPRECIATION_LABEL: &str = "Depreciation of fair value adjustments";
 pub const SHARE_OF_ASSOCIATES: &str = "share_of_associates";
 pub const UNCLASSIFIED: &str = "unclassified";
 const ACQUISITIONS_LABEL: &str = "Acquisition of subsidiaries net of cash acquired";
@@ -198,6 +202,11 @@ enum Treatment {
     Acquisition,
     Goodwill,
     EquityMethod,
+    /// The depreciation of fair value adjustments: non-cash, added back on its own line.
+    FairValue,
+    /// The release of their deferred tax: non-cash and no part of profit before tax, so
+    /// the whole entry (tax income against the liability) nets to zero on that line.
+    FairValueTax,
 }
 
 /// The statement of cash flows between `opening` (the close at the end of the month
@@ -415,11 +424,13 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
         // The fixed adjustments follow profit before tax.
         if l.line == PROFIT_BEFORE_TAX {
             push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+            push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
             push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
         }
     }
     push(Section::Operating, PROFIT_BEFORE_TAX, "Profit before tax", &mut order);
     push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
+    push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
     push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
@@ -430,7 +441,7 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
 /// each line's components) and totals.
 fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) -> Vec<SectionFlows> {
     let order = line_order(lines);
-    let fixed = [GOODWILL_IMPAIRMENT, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
+    let fixed = [GOODWILL_IMPAIRMENT, FAIR_VALUE_DEPRECIATION, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
     let mut sections = Vec::new();
     for section in [Section::Operating, Section::Investing, Section::Financing] {
         let mut out = Vec::new();
@@ -627,8 +638,9 @@ fn journal_lines(
             Treatment::Acquisition => Some(ACQUISITIONS),
             // The profit or loss part stays in profit before tax; the rest of the entry,
             // which is its non-cash other side, is added back on a line of its own.
-            Treatment::Goodwill | Treatment::EquityMethod if pl => Some(PROFIT_BEFORE_TAX),
+            Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue if pl => Some(PROFIT_BEFORE_TAX),
             Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
+            Treatment::FairValue | Treatment::FairValueTax => Some(FAIR_VALUE_DEPRECIATION),
             Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
             Treatment::ByAccount => None,
         };
@@ -651,10 +663,18 @@ fn journal_movements(
         for entry in &c.journal {
             let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
             let treatment = match entry.rule {
-                EliminationRule::InvestmentAndGoodwill | EliminationRule::PreAcquisitionResults if new_subsidiary => {
+                // A step acquisition's remeasurement gain is not cash: with the
+                // acquisition it nets to nothing on the acquisition line.
+                EliminationRule::InvestmentAndGoodwill
+                | EliminationRule::PreAcquisitionResults
+                | EliminationRule::StepAcquisition
+                    if new_subsidiary =>
+                {
                     Treatment::Acquisition
                 }
                 EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,
+                EliminationRule::FairValueDepreciation => Treatment::FairValue,
+                EliminationRule::FairValueDeferredTax => Treatment::FairValueTax,
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };
@@ -801,6 +821,7 @@ mod tests {
             basis: Basis::Closing,
             ic_kind: None,
             non_current: false,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         }
     }

@@ -129,6 +129,10 @@ pub enum Command {
         /// every output is marked draft and lists the exceptions (exit code 1).
         #[arg(long)]
         draft: bool,
+        /// Compare with `budget`, `forecast-NAME` (a folder under plans/) or
+        /// `prior-year`: variance columns, the currency effect and the profit walk.
+        #[arg(long, value_parser = crate::compare::Source::parse)]
+        compare: Option<crate::compare::Source>,
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
@@ -151,6 +155,10 @@ pub enum Command {
         /// folder (relative to the data folder).
         #[arg(long = "out")]
         out_dir: Option<PathBuf>,
+        /// Compare with `budget`, `forecast-NAME` or `prior-year`: each segment's
+        /// revenue and results beside the comparison, with the currency effect.
+        #[arg(long, value_parser = crate::compare::Source::parse)]
+        compare: Option<crate::compare::Source>,
         #[arg(long, value_enum, default_value = "table", help = FORMAT_HELP)]
         format: Format,
     },
@@ -356,7 +364,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
             };
             crate::commands::match_intercompany(data, &ask, format, out)
         }
-        Command::Close { period, view, entity, out_dir, parquet, draft, format } => {
+        Command::Close { period, view, entity, out_dir, parquet, draft, compare, format } => {
             let out_dir = under_data(data, &out_dir);
             crate::commands::close(
                 data,
@@ -367,14 +375,16 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
                     draft,
                     out_dir: &out_dir,
                     parquet,
+                    compare,
                 },
                 format,
                 out,
             )
         }
-        Command::Segments { period, view, by, out_dir, format } => {
+        Command::Segments { period, view, by, out_dir, compare, format } => {
             let out_dir = out_dir.map(|d| under_data(data, &d));
-            crate::commands::segments(data, period, view, by, out_dir.as_deref(), format, out)
+            let ask = crate::commands::SegmentsRequest { period, view, by, out_dir: out_dir.as_deref(), compare };
+            crate::commands::segments(data, ask, format, out)
         }
         Command::Trace { account, period, entity, format } => crate::commands::trace(
             data,

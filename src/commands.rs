@@ -93,6 +93,7 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
             scope.period,
             scope.fiscal_start,
         )?);
+        findings.extend(plan_findings(c)?);
         // The close's intercompany gate: an open difference that is not accepted blocks
         // the close, so check lists it too (when nothing else stops the translation).
         if !findings.has_blocking() {
@@ -105,6 +106,25 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
     let period = loaded.as_ref().map(|c| c.scope.period);
     out.write_all(report::findings::render_check(&findings, period, format).as_bytes())?;
     Ok(exit_code(&findings))
+}
+
+/// The findings of every plan of the data folder (`plans/`), as `close --compare` would
+/// raise them, so that `check` lists them without closing.
+fn plan_findings(c: &Checked) -> Result<Vec<crate::findings::Finding>, Error> {
+    let mut f = Vec::new();
+    for name in crate::load::plans::plan_names(&c.ds.root, &mut f) {
+        let Some(plan) = crate::load::plans::load_plan(&c.ds, &name, &mut f) else { continue };
+        let a = crate::compare::Actuals {
+            ds: &c.ds,
+            mapped: &c.mapped,
+            structure: &c.structure,
+            fiscal_start: c.scope.fiscal_start,
+            period: c.scope.period,
+            base_period: None,
+        };
+        f.extend(crate::compare::check_plan(&a, &plan)?);
+    }
+    Ok(f)
 }
 
 /// The intercompany gate of a close: matching on the translated deliveries, and which
@@ -538,14 +558,23 @@ pub struct CloseRequest<'a> {
     pub out_dir: &'a Path,
     /// Parquet twins of the CSV tables, only when asked.
     pub parquet: bool,
+    /// What to compare the close with (`--compare`), if anything.
+    pub compare: Option<crate::compare::Source>,
 }
 
 pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let CloseRequest { period, view, entity, draft, out_dir, parquet } = ask;
+    let CloseRequest { period, view, entity, draft, out_dir, parquet, compare } = ask;
     let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
+    };
+    let (comparison, compare_findings) = match &compare {
+        Some(source) => match compare_close(&c, source, format, out)? {
+            Ok((x, f)) => (Some(x), f),
+            Err(code) => return Ok(code),
+        },
+        None => (None, Vec::new()),
     };
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
@@ -586,7 +615,8 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     let prior_year = comparatives(&c, view, &mut out_statements, &mut checks)?;
     let exceptions = exceptions(&c);
     let tied = crate::proof::tied(&checks) && exceptions.is_empty();
-    let shown = shown_findings(&c, &exceptions);
+    let mut shown = shown_findings(&c, &exceptions);
+    shown.extend(compare_findings);
     let names: BTreeMap<crate::model::GroupAccount, String> =
         ds.accounts.iter().map(|a| (a.account.clone(), a.name.clone())).collect();
     let policies = applied_policies(ds);
@@ -616,6 +646,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
             changes_in_equity: report::close::equity_changes_out(&equity_changes),
             cash_flows,
             prior_year,
+            comparison,
         },
         attribution: attribution_out(&figures.attribution),
         eliminations: &c.close.journal,
@@ -718,6 +749,74 @@ fn comparatives(
     }))
 }
 
+/// A close's comparison closed (`--compare`), with the comparison's input files and the
+/// warnings of its inputs; when its findings block, they are written to `out` and the
+/// exit code (at least 1) comes back as `Err`.
+type ComparedClose = (crate::compare::Compared, Vec<crate::load::InputFile>, Vec<crate::findings::Finding>);
+
+fn compared(
+    c: &ClosedPeriod,
+    source: &crate::compare::Source,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<Result<ComparedClose, i32>, Error> {
+    use crate::compare::{Actuals, Source};
+    let ds = &c.checked.ds;
+    let scope = c.checked.scope;
+    let mut f = Vec::new();
+    let closed = match source {
+        Source::PriorYear => {
+            f.extend(crate::compare::prior_year_findings(ds, scope.fiscal_start));
+            None
+        }
+        Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {
+            None => None,
+            Some(plan) => {
+                let a = Actuals {
+                    ds,
+                    mapped: &c.checked.mapped,
+                    structure: c.structure(),
+                    fiscal_start: scope.fiscal_start,
+                    period: scope.period,
+                    base_period: c.base.as_ref().map(|b| b.period),
+                };
+                let (x, more) = crate::compare::compare_plan(&a, &plan)?;
+                f.extend(more);
+                x.map(|x| (x, plan.inputs))
+            }
+        },
+    };
+    let mut findings = Findings::default();
+    findings.extend(f.clone());
+    findings.sort();
+    match closed {
+        Some((x, inputs)) if !findings.has_blocking() => Ok(Ok((x, inputs, f))),
+        _ => {
+            let code =
+                stop_on_findings(&findings, out, Some(scope.period), format)?.unwrap_or_else(|| exit_code(&findings));
+            Ok(Err(code.max(1)))
+        }
+    }
+}
+
+/// The comparison a close shows (`--compare`), or the exit code when it cannot be made.
+fn compare_close(
+    c: &ClosedPeriod,
+    source: &crate::compare::Source,
+    format: Format,
+    out: &mut dyn Write,
+) -> Result<Result<(crate::compare::Comparison, Vec<crate::findings::Finding>), i32>, Error> {
+    Ok(match compared(c, source, format, out)? {
+        Ok((x, inputs, f)) => {
+            let mut cmp =
+                crate::compare::comparison(&c.checked.ds, &c.checked.statements, (&c.close, c.base.as_ref()), &x)?;
+            cmp.inputs = inputs;
+            Ok((cmp, f))
+        }
+        Err(code) => Err(code),
+    })
+}
+
 /// The policies a close applied, as `proof.json` records them.
 fn applied_policies(ds: &Dataset) -> serde_json::Value {
     serde_json::json!({
@@ -798,15 +897,18 @@ fn write_pack(
 /// `tessera segments`: the close's figures by segment, reconciled to the group. Built on
 /// `run_close` and its elimination journal; exit 1 when the proof fails or a finding
 /// blocks.
-pub fn segments(
-    data: &Path,
-    period: Option<Period>,
-    view: crate::cli::View,
-    by: Option<String>,
-    out_dir: Option<&Path>,
-    format: Format,
-    out: &mut dyn Write,
-) -> Result<i32, Error> {
+/// What `tessera segments` was asked for.
+pub struct SegmentsRequest<'a> {
+    pub period: Option<Period>,
+    pub view: crate::cli::View,
+    pub by: Option<String>,
+    pub out_dir: Option<&'a Path>,
+    /// What to compare the segments with (`--compare`), if anything.
+    pub compare: Option<crate::compare::Source>,
+}
+
+pub fn segments(data: &Path, ask: SegmentsRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
+    let SegmentsRequest { period, view, by, out_dir, compare } = ask;
     let c = match run_close_or_stop(data, period, view, None, false, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -839,6 +941,18 @@ pub fn segments(
         )));
     }
     let (rep, mut findings) = segment_report(&c, settings, &key, entities)?;
+    let comparison = match &compare {
+        Some(source) => match compared(&c, source, format, out)? {
+            Ok((x, _, f)) => {
+                findings.extend(f);
+                let (cr, _) = segment_report_of(&c, (&x.close, x.base.as_ref()), settings, &key, entities)?;
+                let (rr, _) = segment_report_of(&c, (&x.at_rates, x.at_rates_base.as_ref()), settings, &key, entities)?;
+                Some((x.name.clone(), crate::compare::walk::compare_segments(&rep, &cr, &rr)))
+            }
+            Err(code) => return Ok(code),
+        },
+        None => None,
+    };
     let mut checks = c.checks.clone();
     checks.extend(rep.checks.iter().cloned());
     findings.extend(rep.findings.iter().cloned());
@@ -852,6 +966,7 @@ pub fn segments(
         view: view.as_str(),
         scope: scope_label,
         report: &rep,
+        comparison: comparison.as_ref().map(|(name, rows)| report::segments::ComparisonOut { comparison: name, rows }),
         findings: &findings,
         proof: report::segments::SegmentsProof {
             tied,
@@ -879,8 +994,21 @@ fn segment_report(
     key: &str,
     entities: &[crate::model::Entity],
 ) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
+    segment_report_of(c, (&c.close, c.base.as_ref()), settings, key, entities)
+}
+
+/// [`segment_report`] of another close of the same period and scope (a comparison's):
+/// `closes` is the close and its base.
+fn segment_report_of(
+    c: &ClosedPeriod,
+    closes: (&crate::close::Close, Option<&crate::close::Close>),
+    settings: &crate::model::SegmentSettings,
+    key: &str,
+    entities: &[crate::model::Entity],
+) -> Result<(crate::segments::SegmentReport, Vec<crate::findings::Finding>), Error> {
     use crate::segments::{Membership, attribute, contribution_rows, resolve_measures};
     use std::collections::BTreeMap;
+    let (close, base) = closes;
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
     let mut findings = Vec::new();
@@ -889,15 +1017,15 @@ fn segment_report(
     let m = Membership::build(key, entities, &ds.segment_accounts, &ds.accounts, Some(settings), &mut findings);
     let country: BTreeMap<crate::model::EntityId, String> =
         ds.entities.iter().map(|e| (e.id.clone(), e.country.clone())).collect();
-    let ytd = attribute(&contribution_rows(&c.close)?, &c.close.journal, &m, &country);
-    let base = match &c.base {
+    let ytd = attribute(&contribution_rows(close)?, &close.journal, &m, &country);
+    let base_attr = match base {
         Some(b) => Some(attribute(&contribution_rows(b)?, &b.journal, &m, &country)),
         None => None,
     };
     let chart = crate::close::view::Chart::new(&ds.accounts);
     let is_flow = |a: &crate::model::GroupAccount| chart.is_flow(a);
-    let attr = ytd.view(base.as_ref(), &is_flow);
-    let group = crate::close::view::flows_of_view(&c.close.group, c.base.as_ref().map(|b| &b.group), &is_flow);
+    let attr = ytd.view(base_attr.as_ref(), &is_flow);
+    let group = crate::close::view::flows_of_view(&close.group, base.map(|b| &b.group), &is_flow);
     let home = ds.entity(&c.root).map(|e| e.country.clone()).unwrap_or_default();
     let rep = crate::segments::report(
         &measures,

@@ -3,13 +3,16 @@
 //!
 //! The balances come from the balance sheet of two closes (the opening and the closing
 //! one), with the result of the year counted in retained earnings and OCI in the
-//! translation reserve, as the balance sheet shows them. The movements are computed on a
+//! reserve of each OCI account (the translation reserve unless the chart names
+//! another), as the balance sheet shows them. The movements are computed on a
 //! second path, from the entities' contributions and the elimination journal of the two
 //! closes, and split into rows by their source:
 //!
-//! - profit and OCI of the view, the NCI's share of each moved to the NCI column (the
-//!   close takes the NCI's share of every post-acquisition movement through retained
-//!   earnings, so the NCI's share of OCI leaves the retained earnings column);
+//! - profit and OCI of the view, each reserve's OCI in its column, the NCI's share of
+//!   each moved to the NCI column (the close takes the NCI's share of a reserve the
+//!   chart names from that reserve, and of every other post-acquisition movement
+//!   through retained earnings, so the rest of the NCI's share of OCI leaves the
+//!   retained earnings column);
 //! - dividends: the direct movements of retained earnings in the books of the entities
 //!   consolidated at both dates, less the intragroup dividends eliminated against them
 //!   (IFRS 10.B86), the NCI's share of a subsidiary's dividend in the NCI column;
@@ -201,8 +204,29 @@ pub fn changes_in_equity(
     };
     add(&mut profit, re, view.profit - view.profit_nci);
     add(&mut profit, nci, view.profit_nci);
-    add(&mut oci, tr, view.oci);
-    add(&mut oci, re, -view.oci_nci);
+    // Each reserve's OCI of the view in its own column (IAS 1.106(d)); the rest of the
+    // view's OCI, as its statement shows it, in the translation reserve's.
+    let mut named_oci = Decimal::ZERO;
+    for (reserve, x) in
+        oci_of_view(&chart, roles, (opening, closing)).iter().filter(|(r, _)| **r != roles.translation_reserve)
+    {
+        add(&mut oci, find(reserve).or(tr), -*x);
+        named_oci += -*x;
+    }
+    add(&mut oci, tr, view.oci - named_oci);
+    // The NCI's share of OCI leaves retained earnings, through which the close takes
+    // it, but for the reserves the chart names: the NCI entry takes its share from
+    // each of those directly (close/nci.rs).
+    let mut nci_from_reserves = Decimal::ZERO;
+    let named: BTreeSet<&GroupAccount> =
+        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).filter(|r| **r != roles.translation_reserve).collect();
+    for reserve in named {
+        let x = journal_sum(closing, reserve, Some(EliminationRule::NonControllingInterest), None)
+            - journal_sum(opening, reserve, Some(EliminationRule::NonControllingInterest), None);
+        add(&mut oci, find(reserve).or(tr), -x);
+        nci_from_reserves += x;
+    }
+    add(&mut oci, re, -view.oci_nci + nci_from_reserves);
     add(&mut oci, nci, view.oci_nci);
 
     // Dividends: direct movements of retained earnings in the books of entities
@@ -237,12 +261,15 @@ pub fn changes_in_equity(
         );
         add(&mut acquisitions, nci, x);
     }
-    let other: Vec<Decimal> =
-        (0..n).map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i]).collect();
+    let disposals = disposals_row(opening, closing, n, (re, tr, nci));
+    let with_nci = transactions_with_nci_row(opening, closing, n, (re, nci));
+    let other: Vec<Decimal> = (0..n)
+        .map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i] - disposals[i] - with_nci[i])
+        .collect();
 
     let columns = columns(components, nci);
     let widen = |v: &[Decimal]| widen(v, nci);
-    let rows = vec![
+    let mut rows = vec![
         Row { id: "opening", label: labels.0, amounts: widen(&open) },
         Row { id: "profit", label: "Profit for the period".into(), amounts: widen(&profit) },
         Row { id: "oci", label: "Other comprehensive income".into(), amounts: widen(&oci) },
@@ -252,12 +279,67 @@ pub fn changes_in_equity(
             label: "Non-controlling interests on acquisition".into(),
             amounts: widen(&acquisitions),
         },
+        Row {
+            id: "transactions_with_nci",
+            label: "Transactions with non-controlling interests".into(),
+            amounts: widen(&with_nci),
+        },
+        Row { id: "disposals", label: "Disposals of subsidiaries".into(), amounts: widen(&disposals) },
         Row { id: "other", label: "Other movements".into(), amounts: widen(&other) },
         Row { id: "closing", label: labels.1, amounts: widen(&close) },
     ];
+    // Each row is shown only for a view in which such a change happened.
+    if !closing.stake_changes.iter().any(|d| !opening.stake_changes.contains(d)) {
+        rows.retain(|r| r.id != "transactions_with_nci");
+    }
+    // The row is shown only for a view in which a subsidiary was sold.
+    if disposals.iter().all(Decimal::is_zero) && !closing.disposals.iter().any(|d| !opening.disposals.contains(d)) {
+        rows.retain(|r| r.id != "disposals");
+    }
     let check = prove(components, &equity_accounts, &open, &movement, &close);
     Ok((EquityChanges { columns, rows }, check))
 }
+
+/// Subsidiaries sold between the two closes (IFRS 10.25, IAS 21.48B): the NCI
+/// derecognised, and the NCI's share of the translation reserve leaving the reserve,
+/// which the close carries gross, for retained earnings, where the NCI's share of the
+/// subsidiary's post-acquisition equity had been taken from. The owners' share of the
+/// reserve is reclassified through OCI and profit, in those rows.
+fn disposals_row(opening: &Close, closing: &Close, n: usize, (re, tr, nci): Columns) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    let earlier: BTreeSet<(&EntityId, chrono::NaiveDate)> =
+        opening.disposals.iter().map(|d| (&d.entity, d.date)).collect();
+    for d in closing.disposals.iter().filter(|d| !earlier.contains(&(&d.entity, d.date))) {
+        for (at, x) in [(nci, -d.nci_derecognised), (tr, -d.reserve_nci), (re, d.reserve_nci)] {
+            if let Some(i) = at {
+                row[i] += x;
+            }
+        }
+    }
+    row
+}
+
+/// Changes in stake with control kept between the two closes (IFRS 10.23, B96): the
+/// NCI's carrying amount transferred, and the owners' side, the consideration less it.
+fn transactions_with_nci_row(
+    opening: &Close,
+    closing: &Close,
+    n: usize,
+    (re, nci): (Option<usize>, Option<usize>),
+) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    for d in closing.stake_changes.iter().filter(|d| !opening.stake_changes.contains(d)) {
+        for (at, x) in [(nci, -d.nci_transferred), (re, d.cash + d.nci_transferred)] {
+            if let Some(i) = at {
+                row[i] += x;
+            }
+        }
+    }
+    row
+}
+
+/// The positions of the retained earnings, translation reserve and NCI columns.
+type Columns = (Option<usize>, Option<usize>, Option<usize>);
 
 /// The movement of each component on the second path, credit positive: contributions
 /// and journal lines of the two closes, and the result of the view counted in retained
@@ -284,9 +366,24 @@ fn movements(
     let result_of = |c: &Close, st: Statement| -> Decimal { chart.sum(&c.group, st) };
     *moved.entry(roles.retained_earnings.clone()).or_default() +=
         result_of(closing, Statement::ProfitOrLoss) - result_of(opening, Statement::ProfitOrLoss);
-    *moved.entry(roles.translation_reserve.clone()).or_default() +=
-        result_of(closing, Statement::Oci) - result_of(opening, Statement::Oci);
+    for (reserve, x) in oci_of_view(chart, roles, (opening, closing)) {
+        *moved.entry(reserve).or_default() += x;
+    }
     components.iter().map(|k| -k.accounts.iter().filter_map(|a| moved.get(a)).copied().sum::<Decimal>()).collect()
+}
+
+/// The OCI between the two closes by the reserve each OCI account accumulates into
+/// (debit positive): the closing close's year to date less the opening's.
+fn oci_of_view(
+    chart: &Chart,
+    roles: &RoleAccounts,
+    (opening, closing): (&Close, &Close),
+) -> BTreeMap<GroupAccount, Decimal> {
+    let mut out = chart.oci_by_reserve(&closing.group, roles);
+    for (reserve, x) in chart.oci_by_reserve(&opening.group, roles) {
+        *out.entry(reserve).or_default() -= x;
+    }
+    out
 }
 
 /// Columns: the components, the owners' total before the NCI (`nci`: its component),
@@ -378,6 +475,7 @@ mod tests {
             basis: Basis::Historical,
             ic_kind: None,
             non_current: false,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         }
     }
@@ -405,6 +503,7 @@ mod tests {
                 line("NCI", LineBody::Accounts(vec![GroupAccount::new("3900")])),
                 line("TOT", LineBody::Total(vec![("OWN".into(), 1), ("NCI".into(), 1)])),
             ],
+            ratios: Vec::new(),
         };
         let ids = |c: &[Component]| c.iter().map(|k| k.id.clone()).collect::<Vec<_>>();
         assert_eq!(ids(&components(&[layout], &chart)), ["OWN", "NCI"]);

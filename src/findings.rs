@@ -136,6 +136,13 @@ pub enum Rule {
     /// An entity's opening cannot be derived from its prior-year close (no local
     /// account maps to retained earnings, or the prior year cannot be translated).
     OpeningNotDerivable,
+    /// A holding ends or a previously held entity comes under control during the year
+    /// without a row of ownership_changes.csv to say what was paid, received or held.
+    OwnershipChangeMissing,
+    /// A row of ownership_changes.csv that holdings.csv or acquisitions.csv contradict.
+    OwnershipChangeInconsistent,
+    /// A change in ownership the close cannot express yet (it never guesses a figure).
+    OwnershipChangeUnsupported,
     /// A top-side entry of group_adjustments.csv whose lines do not sum to zero.
     GroupAdjustmentUnbalanced,
     /// A top-side entry's scope is not the parent or the holding entity of a sub-group,
@@ -143,6 +150,8 @@ pub enum Rule {
     GroupAdjustmentScopeInvalid,
     /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
     GroupAdjustmentInconsistent,
+    /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
+    ComparisonUnavailable,
 }
 
 impl Rule {

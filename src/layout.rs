@@ -60,11 +60,33 @@ pub enum LineBody {
     Total(Vec<(String, i32)>),
 }
 
-/// A statement resolved against the chart: lines in print order.
+/// A ratio line: one line of the statement divided by another, in percent (`total_of`
+/// written `GP / REV`). It is no amount: totals cannot add it, and it is shown apart
+/// from the statement's amounts.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct RatioLine {
+    pub line: String,
+    pub label: String,
+    pub numerator: String,
+    pub denominator: String,
+}
+
+/// A statement resolved against the chart: lines in print order, and its ratio lines.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct ResolvedStatement {
     pub statement: String,
     pub lines: Vec<ResolvedLine>,
+    pub ratios: Vec<RatioLine>,
+}
+
+/// `numerator / denominator` in percent, one decimal (half away from zero); `None` when
+/// the denominator is zero.
+pub fn percent_of(numerator: Decimal, denominator: Decimal) -> Option<Decimal> {
+    if denominator.is_zero() {
+        return None;
+    }
+    let p = numerator * Decimal::ONE_HUNDRED / denominator;
+    Some(p.round_dp_with_strategy(1, rust_decimal::RoundingStrategy::MidpointAwayFromZero))
 }
 
 impl ResolvedStatement {
@@ -84,6 +106,28 @@ impl ResolvedStatement {
             out.push((l.line.clone(), v));
         }
         out
+    }
+
+    /// The ratio lines' percentages from account amounts (debit positive): each line's
+    /// value as presented over the other's as presented, so that a margin of income
+    /// over income is positive when both are income.
+    pub fn evaluate_ratios(&self, amounts: &BTreeMap<GroupAccount, Decimal>) -> Vec<(String, Option<Decimal>)> {
+        let values = self.evaluate(amounts);
+        let shown = |id: &str| {
+            let l = self.lines.iter().find(|l| l.line == id)?;
+            let v = values.iter().find(|(x, _)| x == id)?.1;
+            Some(l.presentation.show(v))
+        };
+        self.ratios
+            .iter()
+            .map(|r| {
+                let p = match (shown(&r.numerator), shown(&r.denominator)) {
+                    (Some(n), Some(d)) => percent_of(n, d),
+                    _ => None,
+                };
+                (r.line.clone(), p)
+            })
+            .collect()
     }
 }
 
@@ -125,6 +169,7 @@ pub fn resolve(lines: &[LayoutLine], chart: &[AccountDef], findings: &mut Vec<Fi
         let mut seen_ids = BTreeSet::new();
         let mut covered: BTreeMap<&str, &LayoutLine> = BTreeMap::new();
         let mut resolved = Vec::new();
+        let mut ratios = Vec::new();
         for l in rows {
             if !seen_ids.insert(l.line.clone()) {
                 findings.push(
@@ -135,6 +180,14 @@ pub fn resolve(lines: &[LayoutLine], chart: &[AccountDef], findings: &mut Vec<Fi
                     )
                     .at(&l.source),
                 );
+                continue;
+            }
+            if let (None, Some(parts)) = (&l.accounts, &l.total_of)
+                && parts.contains('/')
+            {
+                if let Some(r) = ratio_line(l, parts, &seen_ids, &ratios, st, findings) {
+                    ratios.push(r);
+                }
                 continue;
             }
             let body = match (&l.accounts, &l.total_of) {
@@ -162,27 +215,7 @@ pub fn resolve(lines: &[LayoutLine], chart: &[AccountDef], findings: &mut Vec<Fi
                     }
                     LineBody::Accounts(accts)
                 }
-                (None, Some(parts)) => {
-                    let mut v = Vec::new();
-                    for p in parts.split_whitespace() {
-                        let (id, sign) = match p.strip_prefix('-') {
-                            Some(id) => (id, -1),
-                            None => (p.strip_prefix('+').unwrap_or(p), 1),
-                        };
-                        if !seen_ids.contains(id) {
-                            findings.push(
-                                Finding::new(
-                                    Rule::LayoutInvalid,
-                                    format!("line {} totals {id}, which is not a line above it in {st}", l.line),
-                                    "a total may only add lines defined above it",
-                                )
-                                .at(&l.source),
-                            );
-                        }
-                        v.push((id.to_string(), sign));
-                    }
-                    LineBody::Total(v)
-                }
+                (None, Some(parts)) => total_body(l, parts, &seen_ids, &ratios, st, findings),
                 _ => {
                     findings.push(
                         Finding::new(
@@ -215,14 +248,123 @@ pub fn resolve(lines: &[LayoutLine], chart: &[AccountDef], findings: &mut Vec<Fi
                 );
             }
         }
-        out.push(ResolvedStatement { statement: st.to_string(), lines: resolved });
+        out.push(ResolvedStatement { statement: st.to_string(), lines: resolved, ratios });
     }
     out
+}
+
+/// The lines a total line `l` adds, each with its sign; a finding for a line that is
+/// not above it or is a ratio line.
+fn total_body(
+    l: &LayoutLine,
+    parts: &str,
+    seen_ids: &BTreeSet<String>,
+    ratios: &[RatioLine],
+    st: &str,
+    findings: &mut Vec<Finding>,
+) -> LineBody {
+    let mut v = Vec::new();
+    for p in parts.split_whitespace() {
+        let (id, sign) = match p.strip_prefix('-') {
+            Some(id) => (id, -1),
+            None => (p.strip_prefix('+').unwrap_or(p), 1),
+        };
+        if ratios.iter().any(|r| r.line == id) {
+            findings.push(
+                Finding::new(
+                    Rule::LayoutInvalid,
+                    format!("line {} totals {id}, a ratio line of {st}", l.line),
+                    "a total adds amounts: leave the ratio out of it",
+                )
+                .at(&l.source),
+            );
+        } else if !seen_ids.contains(id) {
+            findings.push(
+                Finding::new(
+                    Rule::LayoutInvalid,
+                    format!("line {} totals {id}, which is not a line above it in {st}", l.line),
+                    "a total may only add lines defined above it",
+                )
+                .at(&l.source),
+            );
+        }
+        v.push((id.to_string(), sign));
+    }
+    LineBody::Total(v)
+}
+
+/// A ratio line `A / B` of `l`, both lines above it that are not ratios; `None` with a
+/// finding otherwise.
+fn ratio_line(
+    l: &LayoutLine,
+    parts: &str,
+    seen_ids: &BTreeSet<String>,
+    ratios: &[RatioLine],
+    st: &str,
+    findings: &mut Vec<Finding>,
+) -> Option<RatioLine> {
+    let mut bad = |why: String| {
+        findings.push(
+            Finding::new(
+                Rule::LayoutInvalid,
+                format!("ratio line {} of {st}: {why}", l.line),
+                "write a ratio line's total_of as `NUMERATOR / DENOMINATOR`, two lines above it",
+            )
+            .at(&l.source),
+        );
+        None
+    };
+    let Some((n, d)) = parts.split_once('/') else { return bad(format!("{parts:?} is not A / B")) };
+    let (n, d) = (n.trim(), d.trim());
+    if n.is_empty() || d.is_empty() || n.contains(char::is_whitespace) || d.contains(char::is_whitespace) {
+        return bad(format!("{parts:?} is not one line over one line"));
+    }
+    for id in [n, d] {
+        if !seen_ids.contains(id) || ratios.iter().any(|r| r.line == id) {
+            return bad(format!("{id} is not an amount line above it"));
+        }
+    }
+    Some(RatioLine { line: l.line.clone(), label: l.label.clone(), numerator: n.into(), denominator: d.into() })
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ratio_lines_are_percent_of_presented_values_to_one_decimal() {
+        let line = |id: &str, body: LineBody| ResolvedLine {
+            line: id.into(),
+            label: id.into(),
+            presentation: Presentation::CreditPositive,
+            body,
+        };
+        let acct = |a: &str| GroupAccount::new(a);
+        let st = ResolvedStatement {
+            statement: "profit_or_loss".into(),
+            lines: vec![
+                line("REV", LineBody::Accounts(vec![acct("4000")])),
+                line("COS", LineBody::Accounts(vec![acct("5000")])),
+                line("GP", LineBody::Total(vec![("REV".into(), 1), ("COS".into(), 1)])),
+            ],
+            ratios: vec![RatioLine {
+                line: "GM".into(),
+                label: "Gross margin".into(),
+                numerator: "GP".into(),
+                denominator: "REV".into(),
+            }],
+        };
+        // Revenue 3,000.00 (a credit), cost 1,999.85: gross profit 1,000.15, and
+        // 1,000.15 / 3,000.00 = 33.338...% = 33.3%.
+        let amounts: BTreeMap<GroupAccount, Decimal> =
+            [(acct("4000"), Decimal::new(-300000, 2)), (acct("5000"), Decimal::new(199985, 2))].into();
+        assert_eq!(st.evaluate_ratios(&amounts), vec![("GM".to_string(), Some(Decimal::new(333, 1)))]);
+        // No revenue: no margin.
+        assert_eq!(st.evaluate_ratios(&BTreeMap::new()), vec![("GM".to_string(), None)]);
+        // Ties round away from zero: 1 / 8 = 12.5% exactly, 1 / 16 = 6.25% -> 6.3%.
+        assert_eq!(percent_of(Decimal::ONE, Decimal::from(16)), Some(Decimal::new(63, 1)));
+        assert_eq!(percent_of(-Decimal::ONE, Decimal::from(16)), Some(Decimal::new(-63, 1)));
+    }
 
     #[test]
     fn ranges_compare_ids_of_equal_length() {

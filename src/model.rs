@@ -242,6 +242,10 @@ pub struct RoleAccounts {
     /// Income account for the gain on a bargain purchase (IFRS 3.34); needed only when
     /// an acquisition's goodwill would be negative.
     pub bargain_purchase_gain: Option<GroupAccount>,
+    /// Deferred tax (balance sheet) and tax expense (profit or loss) of the
+    /// consolidation adjustments; needed only under `policies.deferred_tax`.
+    pub deferred_tax: Option<GroupAccount>,
+    pub deferred_tax_expense: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -251,6 +255,11 @@ pub struct Policies {
     pub ifric16: Ifric16Method,
     /// Voting share from which an investee is presumed an associate (IAS 28.5).
     pub significant_influence: Decimal,
+    /// The rate of a goodwill impairment in the month it is recognised.
+    pub goodwill_impairment_rate: ImpairmentRate,
+    /// Deferred tax on the consolidation adjustments (IAS 12.19, 12.66): fair value
+    /// adjustments and unrealised profit in inventory. Off unless asked for.
+    pub deferred_tax: bool,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -479,6 +488,9 @@ pub struct AccountDef {
     pub basis: Basis,
     pub ic_kind: Option<String>,
     pub non_current: bool,
+    /// For an OCI account, the equity reserve its amounts accumulate into (revaluation,
+    /// hedging, ...); `None` is the translation reserve (`accounts.translation_reserve`).
+    pub reserve: Option<GroupAccount>,
     pub source: Source,
 }
 
@@ -576,6 +588,33 @@ pub struct BroughtForward {
     pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
 }
 
+/// A change in a holder's share of an entity on one date, from
+/// `entities/ownership_changes.csv`: shares bought or sold, what was paid or received,
+/// and the fair value of the interest held before (a step acquisition, IFRS 3.42) or
+/// retained after (a loss of control, IFRS 10.25). Amounts are in the owned entity's
+/// functional currency, like `acquisitions.csv`. holdings.csv still gives the shares and
+/// dates: the holder's capital share on `date` less its share the day before must be
+/// `share`.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct OwnershipChange {
+    /// The first day of the new share (the old holding's `valid_to` is the day before).
+    pub date: NaiveDate,
+    pub holder: EntityId,
+    pub owned: EntityId,
+    /// Capital share bought (positive) or sold (negative).
+    pub share: Decimal,
+    /// Consideration paid for the shares bought, or proceeds of the shares sold.
+    pub consideration: Decimal,
+    /// Fair value at `date` of the interest held before (bought) or retained (sold).
+    pub fair_value_held: Option<Decimal>,
+    /// Transaction costs (IFRS 3.53: an expense of an acquisition).
+    pub costs: Decimal,
+    /// The profit or loss group account of a gain or loss the change gives rise to.
+    pub gain_account: Option<GroupAccount>,
+    pub note: String,
+    pub source: Source,
+}
+
 /// One line of a top-side entry, from `entities/group_adjustments.csv`: an entry the
 /// group books on the group chart in the presentation currency, above the entities'
 /// ledgers (a late audit adjustment, a remeasurement only the group makes). The rows
@@ -596,5 +635,62 @@ pub struct GroupAdjustment {
     pub counterparty: Option<EntityId>,
     pub reason: String,
     pub prepared_by: String,
+    pub source: Source,
+}
+
+/// One fair value adjustment of an acquired subsidiary's identifiable asset or
+/// liability (IFRS 3.18), from `entities/fair_value_adjustments.csv` (or the single
+/// `fair_value_adjustment` of `acquisitions.csv`, which is never depreciated). In the
+/// subsidiary's functional currency: it is the foreign operation's asset (IAS 21.47).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Uplift {
+    pub owned: EntityId,
+    /// The balance-sheet group account the adjustment belongs to.
+    pub account: GroupAccount,
+    /// Fair value less carrying amount at the acquisition date, functional currency.
+    pub amount: Decimal,
+    /// Remaining useful life in months from the acquisition month; `None` for an asset
+    /// that is not depreciated (land, IAS 16.58).
+    pub life_months: Option<u32>,
+    /// The profit or loss group account of the depreciation, with a useful life.
+    pub expense_account: Option<GroupAccount>,
+    /// The deferred tax on another adjustment that the close derives (IAS 12.19), not
+    /// a row of a file: on the deferred tax account, released with the depreciation.
+    pub deferred_tax: bool,
+    pub source: Source,
+}
+
+/// A goodwill impairment recognised in one month, from
+/// `entities/goodwill_impairments.csv`: in the acquired entity's functional currency,
+/// like its goodwill (IAS 21.47).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct GoodwillImpairment {
+    pub owned: EntityId,
+    /// The month the impairment is recognised in (IAS 36.59-60).
+    pub period: Period,
+    pub amount: Decimal,
+    pub source: Source,
+}
+
+/// The rate a goodwill impairment is translated at, once, in the month it is recognised
+/// (`policies.goodwill_impairment_rate`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ImpairmentRate {
+    /// The closing rate of the month: the spot rate at the date of the impairment test
+    /// when the test is made at the month end (IAS 21.21-22).
+    #[default]
+    Closing,
+    /// The average rate of the month, the approximation used for the month's other
+    /// expenses (IAS 21.40).
+    Average,
+}
+
+/// An entity's income tax rate, from `entities/tax_rates.csv`: the rate the deferred tax
+/// on its consolidation adjustments is measured at (IAS 12.47).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct TaxRate {
+    pub entity: EntityId,
+    /// A share: 0.25 for 25%.
+    pub rate: Decimal,
     pub source: Source,
 }

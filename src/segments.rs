@@ -400,7 +400,10 @@ fn add(m: &mut BTreeMap<Column, Amounts>, c: Column, a: &GroupAccount, v: Decima
 /// the NCI entry are the group's, not any segment's (IFRS 8.28 unallocated items).
 fn unallocated_rule(rule: EliminationRule) -> Option<&'static str> {
     match rule {
-        EliminationRule::InvestmentAndGoodwill => Some("consolidation:investment_and_goodwill"),
+        EliminationRule::InvestmentAndGoodwill
+        | EliminationRule::StepAcquisition
+        | EliminationRule::LossOfControl
+        | EliminationRule::ChangeInStake => Some("consolidation:investment_and_goodwill"),
         EliminationRule::NonControllingInterest => Some("consolidation:non_controlling_interest"),
         _ => None,
     }
@@ -1067,6 +1070,7 @@ mod tests {
             basis: Basis::Average,
             ic_kind: None,
             non_current,
+            reserve: None,
             source: Source::file("accounts.csv"),
         }
     }

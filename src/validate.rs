@@ -65,8 +65,10 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
     check_group_adjustments(ds, &structure, scope, &mut f);
+    check_reserves(ds, &mut f);
     check_cash_flow_lines(ds, mapped, scope, &mut f)?;
     check_plausibility(ds, mapped, scope, &mut f)?;
+    f.extend(crate::ownership::findings(ds, scope));
     let mut layout_findings = Vec::new();
     let statements = crate::layout::resolve(&ds.layouts, &ds.accounts, &mut layout_findings);
     f.extend(layout_findings);
@@ -448,7 +450,10 @@ fn check_missing_deliveries(
     // The close is complete only with every month of every entity it consolidates or
     // equity-accounts: a missing one is blocking. An entity outside the group at the
     // period end is only said to be missing.
-    for e in &ds.entities {
+    // A subsidiary sold in the year has its months to the sale checked by `ownership`;
+    // its figures to then are in the close, so it is neither missing nor outside.
+    let sold: BTreeSet<&EntityId> = crate::ownership::losses_of_control(ds, scope).iter().map(|c| &c.owned).collect();
+    for e in ds.entities.iter().filter(|e| !sold.contains(&e.id)) {
         let needed = in_scope(structure, &e.id);
         let sev = if needed { Severity::Blocking } else { Severity::Warning };
         let why = if needed {
@@ -1010,6 +1015,48 @@ fn check_net_investments(ds: &Dataset, f: &mut Vec<Finding>) {
                 ),
                 "keep one row per item",
             ));
+        }
+    }
+}
+
+/// The `reserve` of each OCI account of the chart (IAS 1.106(d), 1.108): an equity
+/// account of the balance sheet other than the NCI (the close attributes the NCI's
+/// share itself), named only on OCI accounts.
+fn check_reserves(ds: &Dataset, f: &mut Vec<Finding>) {
+    let nci = &ds.settings.accounts.non_controlling_interest;
+    for a in &ds.accounts {
+        let Some(r) = &a.reserve else { continue };
+        let at = |rule: Rule, msg: String, action: &str| {
+            Finding::new(rule, msg, action).at(&a.source).account(a.account.as_str())
+        };
+        if a.statement != Statement::Oci {
+            f.push(at(
+                Rule::AccountInvalid,
+                format!(
+                    "account {} names reserve {r} but is not an OCI account: only OCI accumulates in a reserve",
+                    a.account
+                ),
+                "leave `reserve` empty on accounts of the balance sheet and of profit or loss",
+            ));
+            continue;
+        }
+        match ds.account(r) {
+            None => f.push(at(
+                Rule::AccountUnknown,
+                format!("account {} accumulates into reserve {r}, which is not in accounts.csv", a.account),
+                "name an equity account of the group chart, e.g. the revaluation surplus",
+            )),
+            Some(d) if d.statement != Statement::BalanceSheet || d.class != AccountClass::Equity || r == nci => {
+                f.push(at(
+                    Rule::AccountInvalid,
+                    format!(
+                        "account {} accumulates into reserve {r}, which is not an equity account of the balance sheet other than the NCI",
+                        a.account
+                    ),
+                    "name a reserve of equity (balance_sheet, equity); the NCI's share is attributed by the close",
+                ))
+            }
+            _ => {}
         }
     }
 }

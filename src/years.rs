@@ -777,6 +777,8 @@ mod tests {
             nci: Vec::new(),
             reserves: Vec::new(),
             findings: Vec::new(),
+            disposals: Vec::new(),
+            stake_changes: Vec::new(),
         }
     }
 

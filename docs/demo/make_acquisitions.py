@@ -6,7 +6,9 @@ share premium (acquisitions before 2026, invented: the retained earnings brought
 are post-acquisition), except WSL-PL, bought in 2021 with accumulated losses of PLN
 800,000 that reduce the net assets acquired (so its goodwill is positive), translated at the historical amounts of opening.csv; for GLF-BH,
 acquired 2026-04-01, it is all of its equity at that date (opening equity plus the
-results of January to March), translated at the 2026-03 closing rate. The consideration
+results of January to March) plus the fair value adjustment of its plant (UPLIFT below,
+also written to entities/fair_value_adjustments.csv), translated at the 2026-03 closing
+rate. The consideration
 is the holders' investment cost, converted into the acquired entity's currency at the
 same historical rate. Stdlib only, Decimal arithmetic."""
 import csv
@@ -27,6 +29,10 @@ entities = {r["entity"]: r for r in rows(ENT / "entities.csv")}
 holdings = rows(ENT / "holdings.csv")
 rates = {(r["period"], r["currency"]): r for r in rows(ROOT / "rates" / "monthly.csv")}
 MINOR = {"JPY": 0, "BHD": 3}
+# GLF-BH's plant is worth more than its books say at the acquisition (invented): an
+# uplift of BHD 60,000 with a remaining life of five years, depreciated in the group.
+UPLIFT = ("GLF-BH", "1000", D("60000.000"), 60, "6100",
+          "plant and machinery: fair value above carrying amount; remaining life 5 years")
 
 
 def q(x, ccy):
@@ -86,7 +92,7 @@ for h in holdings:
             for r in rows(ENT / owned / f"tb-2026-{month}.movements.csv"):
                 if accounts[m[r["account"]]]["statement"] != "balance_sheet":
                     na += D(r["amount"])
-        na = -na
+        na = -na + UPLIFT[2]
         rate = D(rates[("2026-03", ccy)]["closing"])
         na_pres = q(na / rate, "EUR")
         cost_eur = D("3600000.00")
@@ -122,3 +128,9 @@ for h in holdings:
 
 (ENT / "acquisitions.csv").write_text("\n".join(out) + "\n", encoding="utf-8")
 print("\n".join(out))
+owned, account, amount, life, expense, note = UPLIFT
+(ENT / "fair_value_adjustments.csv").write_text(
+    "owned,account,amount,useful_life_months,expense_account,note\n"
+    f"{owned},{account},{amount},{life},{expense},{note}\n",
+    encoding="utf-8",
+)

@@ -234,6 +234,7 @@ GROUP_ACCOUNTS = [
     ("3100", "Share premium", "balance_sheet", "equity", "historical", "", ""),
     ("3200", "Retained earnings", "balance_sheet", "equity", "historical", "", ""),
     ("3300", "Translation reserve", "balance_sheet", "equity", "historical", "", ""),
+    ("3400", "Revaluation surplus", "balance_sheet", "equity", "historical", "", ""),
     ("3900", "Non-controlling interests", "balance_sheet", "equity", "historical", "", ""),
     ("4000", "Revenue from external customers", "profit_or_loss", "income", "average", "", ""),
     ("4100", "Revenue from group entities", "profit_or_loss", "income", "average", "sales", ""),
@@ -254,7 +255,11 @@ GROUP_ACCOUNTS = [
     ("7400", "Dividend income from group entities", "profit_or_loss", "income", "average", "dividend", ""),
     ("8000", "Income tax expense", "profit_or_loss", "expense", "average", "", ""),
     ("9000", "Exchange differences on translating foreign operations", "oci", "income", "average", "", ""),
+    ("9100", "Gains on property revaluation", "oci", "income", "average", "", ""),
 ]
+# The reserve an OCI account accumulates into (accounts.csv `reserve`); the others go to
+# the translation reserve.
+RESERVES = {"9100": "3400"}
 ACC = {a[0]: dict(name=a[1], statement=a[2], cls=a[3], basis=a[4], ic_kind=a[5])
        for a in GROUP_ACCOUNTS}
 # Foreign-currency items revalued at the closing rate at each month end (IAS 21.23a).
@@ -279,8 +284,11 @@ LAYOUTS = [
     ("profit_or_loss", "PBT", "Profit before tax", "", "OP FIN ASSOC", "credit_positive"),
     ("profit_or_loss", "TAX", "Income tax", "8000..8999", "", "credit_positive"),
     ("profit_or_loss", "PROFIT", "Profit for the period", "", "PBT TAX", "credit_positive"),
+    ("profit_or_loss", "GM", "Gross margin", "", "GP / REV", "credit_positive"),
+    ("profit_or_loss", "OM", "Operating margin", "", "OP / REV", "credit_positive"),
     ("oci", "TRD", "Exchange differences on translating foreign operations", "9000", "", "credit_positive"),
-    ("oci", "OCI", "Total other comprehensive income", "", "TRD", "credit_positive"),
+    ("oci", "REVAL", "Gains on property revaluation", "9100", "", "credit_positive"),
+    ("oci", "OCI", "Total other comprehensive income", "", "TRD REVAL", "credit_positive"),
     # The balance sheet shows at least the line items of IAS 1.54 that the group has.
     ("balance_sheet", "PPE", "Property plant and equipment", "1000", "", "debit_positive"),
     ("balance_sheet", "INTA", "Intangible assets", "1050", "", "debit_positive"),
@@ -298,7 +306,8 @@ LAYOUTS = [
     ("balance_sheet", "SP", "Share premium", "3100", "", "credit_positive"),
     ("balance_sheet", "RE", "Retained earnings", "3200", "", "credit_positive"),
     ("balance_sheet", "TR", "Translation reserve", "3300", "", "credit_positive"),
-    ("balance_sheet", "EQP", "Equity attributable to owners of the parent", "", "SC SP RE TR",
+    ("balance_sheet", "RS", "Revaluation surplus", "3400", "", "credit_positive"),
+    ("balance_sheet", "EQP", "Equity attributable to owners of the parent", "", "SC SP RE TR RS",
      "credit_positive"),
     ("balance_sheet", "NCI", "Non-controlling interests", "3900", "", "credit_positive"),
     ("balance_sheet", "EQ", "Total equity", "", "EQP NCI", "credit_positive"),
@@ -313,8 +322,9 @@ LAYOUTS = [
     ("equity_changes", "SP", "Share premium", "3100", "", "credit_positive"),
     ("equity_changes", "RE", "Retained earnings", "3200", "", "credit_positive"),
     ("equity_changes", "TR", "Translation reserve", "3300", "", "credit_positive"),
+    ("equity_changes", "RS", "Revaluation surplus", "3400", "", "credit_positive"),
     ("equity_changes", "NCI", "Non-controlling interests", "3900", "", "credit_positive"),
-    ("equity_changes", "TOTAL", "Total equity", "", "SC SP RE TR NCI", "credit_positive"),
+    ("equity_changes", "TOTAL", "Total equity", "", "SC SP RE TR RS NCI", "credit_positive"),
 ]
 
 # ---------------------------------------------------------------------------------------
@@ -464,9 +474,11 @@ CHARTS: dict[str, dict[str, tuple[str, str, str]]] = {
         "other_recv": ("1400-100", "Prepaid expenses", "1700"),
         "ppe_cost": ("1500-100", "Machinery and equipment", "1000"),
         "ppe_accdep": ("1500-900", "Accumulated depreciation", "1000"),
+        "ppe_reval": ("1500-050", "Land revaluation", "1000"),
         "int_cost": ("1600-100", "Software and patents", "1050"),
         "int_accamort": ("1600-900", "Accumulated amortization", "1050"),
         "invest_sub": ("1700-100", "Investment in Brightwater Mexico", "1200"),
+        "reval_oci": ("3950-100", "Land revaluation gain (OCI)", "9100"),
         "ap_ext": ("2000-100", "Accounts payable", "2400"),
         "ap_ic": ("2050-100", "Due to affiliates", "2450"),
         "accruals": ("2100-100", "Accrued expenses", "2600"),
@@ -950,7 +962,7 @@ class Ledger:
                 row[0] += amount
                 row[1] += tamt
             self.used_locals.add(k[0])
-            if ACC[grp]["statement"] != "balance_sheet":
+            if ACC[grp]["statement"] == "profit_or_loss":
                 self.pl_month[grp] = self.pl_month.get(grp, D(0)) + amount
 
     def balance(self, sem, cp="", tccy=""):
@@ -1140,6 +1152,9 @@ def simulate():
                 led.post([("amort", q(p["amort"], ccy)), ("int_accamort", -q(p["amort"], ccy))], "amortisation")
             if m in p["capex"]:
                 led.post([("ppe_cost", q(p["capex"][m], ccy)), ("cash", -q(p["capex"][m], ccy))], "capex")
+            if (e, m) in REVALUATION:
+                x = q(REVALUATION[(e, m)], ccy)
+                led.post([("ppe_reval", x), ("reval_oci", -x)], "revaluation (IAS 16.39)")
             if p.get("bank_loan"):
                 i = q(p["bank_loan"] * p["bank_rate"] / 12, ccy)
                 led.post([("int_exp_bank", i), ("cash", -i)], "bank interest")
@@ -1487,6 +1502,12 @@ DOCUMENT_NOTES = {"timing_jun": "instruments invoiced 2026-06-29 and booked by B
                   "timing_dec": "instruments in transit to ALD-UK at the year end"}
 
 
+# A revaluation (docs/demo.md "A revaluation surplus"): BRW-US carries its land under the
+# revaluation model (IAS 16.31) and a valuation at 30 June raises it by USD 250,000.00,
+# a gain in OCI that the group chart accumulates in the revaluation surplus (IAS 16.39).
+# No deferred tax is booked on it, to keep the demo small.
+REVALUATION = {("BRW-US", 6): D("250000.00")}
+
 # A top-side entry (entities/group_adjustments.csv, docs/demo.md "A top-side entry"): in
 # November the auditors ask for a warranty provision at BRW-US after its books closed; the
 # group books it in the ALD-US sub-group, naming BRW-US, in EUR on the group chart.
@@ -1540,8 +1561,8 @@ def main(argv=None):
            "arrangement", "method_override", "override_reason"],
           [list(h) + ["", "", "", ""] for h in HOLDINGS])
     w.csv("entities/accounts.csv",
-          ["account", "name", "statement", "class", "basis", "ic_kind", "non_current"],
-          [list(a) for a in GROUP_ACCOUNTS])
+          ["account", "name", "statement", "class", "basis", "ic_kind", "non_current", "reserve"],
+          [list(a) + [RESERVES.get(a[0], "")] for a in GROUP_ACCOUNTS])
     w.csv("entities/layouts.csv",
           ["statement", "line", "label", "accounts", "total_of", "presentation"],
           [list(x) for x in LAYOUTS])

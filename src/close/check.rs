@@ -4,13 +4,14 @@
 //! acquisition record says that cannot be posted (`ValueInvalid`, `AccountUnknown`,
 //! `GoodwillNegative`) and the role accounts a rule needs (`SettingInvalid`). The rules
 //! raise them through the same functions (`investment::findings`,
-//! `equity_method::acquisition_missing`, `unrealised_profit::missing_accounts`).
+//! `equity_method::acquisition_missing`, `unrealised_profit::missing_accounts`,
+//! `fair_value::findings` for the fair value adjustments).
 
 use std::collections::{BTreeMap, BTreeSet};
 
 use polars::prelude::*;
 
-use super::{equity_method, investment, unrealised_profit};
+use super::{equity_method, fair_value, impairment, investment, unrealised_profit};
 use crate::findings::Finding;
 use crate::load::Dataset;
 use crate::map_accounts::{Mapped, period_index};
@@ -40,6 +41,13 @@ pub fn data_findings(
     for e in s.entities().iter().filter(|e| e.method == Method::Equity && !acq.contains_key(&e.id)) {
         out.push(equity_method::acquisition_missing(&e.id));
     }
+    let method_of = |e: &EntityId| s.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= period);
+    out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper));
+    let has_rate = |e: &EntityId, p: Period| super::impairment_rate_known(ds, e, p);
+    let when = (period, fiscal_start);
+    out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
+    out.extend(fair_value::deferred_tax_findings(ds, period));
     Ok(out)
 }
 

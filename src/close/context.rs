@@ -172,6 +172,7 @@ pub mod fixture {
             basis: Basis::Closing,
             ic_kind: ic_kind.map(String::from),
             non_current: false,
+            reserve: None,
             source: Source::file("entities/accounts.csv"),
         }
     }
@@ -224,6 +225,8 @@ pub mod fixture {
             cost_of_sales: Some(acct("5000")),
             goodwill_impairment: None,
             bargain_purchase_gain: None,
+            deferred_tax: None,
+            deferred_tax_expense: None,
         }
     }
 

@@ -18,6 +18,7 @@ use polars::prelude::*;
 use rust_decimal::Decimal;
 
 use super::context::Context;
+use super::impairment::Dated;
 use super::journal::{EliminationRule, EntryLine, Journal, line};
 use crate::findings::{Finding, Rule, Severity};
 use crate::map_accounts::period_index;
@@ -36,6 +37,15 @@ pub type LineMonths = BTreeMap<i32, (Decimal, Decimal, Decimal)>;
 
 /// The translated investment lines (holder, account, owned) of the fiscal year, by month.
 pub type InvestmentMonths = BTreeMap<(EntityId, GroupAccount, EntityId), LineMonths>;
+
+/// What other files add to the acquisition records.
+#[derive(Debug, Default)]
+pub struct Records<'r> {
+    /// The fair value adjustments of `fair_value_adjustments.csv`.
+    pub uplifts: &'r [Uplift],
+    /// The goodwill impairments by month, per entity (`impairment::dated`).
+    pub impairments: BTreeMap<EntityId, Vec<Dated>>,
+}
 
 /// What the NCI rule (`nci.rs`) reads of this one, per subsidiary (or per holder).
 #[derive(Debug, Default)]
@@ -340,7 +350,16 @@ struct Acquired<'c, 'a> {
     a: Acquisition,
     fc: Currency,
     m: Measured,
+    /// Its fair value adjustments (`fair_value::uplifts_of`).
+    uplifts: Vec<Uplift>,
+    /// Its goodwill impairments by month; empty when the record's undated columns hold
+    /// them.
+    dated: Vec<Dated>,
 }
+
+/// One fair value adjustment in the entry: account, amount in the subsidiary's
+/// currency, at the acquisition rate, at the closing rate.
+type FairValueLine = (GroupAccount, Decimal, Decimal, Decimal);
 
 impl Acquired<'_, '_> {
     /// In the presentation currency at the closing rate of `p` (0 without a rate: the
@@ -365,13 +384,50 @@ impl Acquired<'_, '_> {
         self.m.goodwill_fc + self.m.bargain_fc
     }
 
-    /// The fair value adjustment as (account, at the acquisition rate, at the closing
-    /// rate), when it is on a balance-sheet account.
-    fn fair_value(&self) -> Option<(GroupAccount, Decimal, Decimal)> {
-        let acct = self.a.fair_value_account.as_ref()?;
-        let adjustment = self.a.fair_value_adjustment;
-        (!adjustment.is_zero() && self.cx.in_statement(acct, Statement::BalanceSheet))
-            .then(|| (acct.clone(), self.at_hist(adjustment), self.to_pres(adjustment, self.cx.period)))
+    /// The fair value adjustments on balance-sheet accounts, each at its full amount
+    /// (its depreciation is the rule `fair_value_depreciation`'s).
+    fn fair_values(&self) -> Vec<FairValueLine> {
+        self.uplifts
+            .iter()
+            .filter(|u| !u.amount.is_zero() && self.cx.in_statement(&u.account, Statement::BalanceSheet))
+            .map(|u| (u.account.clone(), u.amount, self.at_hist(u.amount), self.to_pres(u.amount, self.cx.period)))
+            .collect()
+    }
+
+    /// `share` of the goodwill impairment to date (or of this fiscal year's only) in the
+    /// presentation currency: each dated impairment at the rate of its month, fixed
+    /// once recognised; the record's undated columns at the closing rate.
+    fn impairment_pres(&self, share: Decimal, year_only: bool) -> Decimal {
+        if self.dated.is_empty() {
+            let x = if year_only { self.a.impairment_year } else { self.a.impairment };
+            return self.to_pres(share * x, self.cx.period);
+        }
+        self.dated.iter().filter(|d| d.in_year || !year_only).map(|d| d.at_rate(self.cx, share * d.amount)).sum()
+    }
+
+    /// This fiscal year's exchange difference on `share` of goodwill (`gross_fc`,
+    /// before impairment), and the difference to date: the change of its carrying
+    /// amount at the closing rate, from the opening (or the acquisition) to now, less
+    /// what the impairments took out of it at their own rates. Undated impairments are
+    /// at the closing rate, so the difference is that of the gross goodwill.
+    fn goodwill_fx(&self, gross_fc: Decimal, share: Decimal) -> (Decimal, Decimal) {
+        let (cx, a) = (self.cx, &self.a);
+        let hist = self.at_hist(gross_fc);
+        if self.dated.is_empty() {
+            let now = self.to_pres(gross_fc, cx.period);
+            let year = self.opening_period().map(|p0| now - self.to_pres(gross_fc, p0)).unwrap_or(now - hist);
+            return (year, now - hist);
+        }
+        let now = self.to_pres(gross_fc - share * a.impairment, cx.period);
+        let to_date = now - hist + self.impairment_pres(share, false);
+        let year = match self.opening_period() {
+            Some(p0) => {
+                now - self.to_pres(gross_fc - share * (a.impairment - a.impairment_year), p0)
+                    + self.impairment_pres(share, true)
+            }
+            None => to_date,
+        };
+        (year, to_date)
     }
 
     /// The month before the fiscal year, when the subsidiary was held then.
@@ -389,6 +445,7 @@ pub fn post(
     acquisitions: &[Acquisition],
     invest: &Investments,
     months: &InvestmentMonths,
+    records: &Records,
     found: &mut Vec<Finding>,
 ) -> ForNci {
     let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
@@ -413,12 +470,42 @@ pub fn post(
             record.clone()
         };
         let Some(fc) = cx.currencies.get(&e.id).copied() else { continue };
+        let uplifts = super::fair_value::uplifts_of(&a, records.uplifts);
+        let a = net_of_deferred_tax(a, &uplifts);
         found.extend(findings(e, Some(&a), held, fc, cx.fiscal_start, cx.roles, &statement_of));
+        // Impairments by month replace the record's undated columns.
+        let dated = records.impairments.get(&e.id).cloned().unwrap_or_default();
+        let a = if dated.is_empty() {
+            a
+        } else {
+            Acquisition {
+                impairment: dated.iter().map(|d| d.amount).sum(),
+                impairment_year: dated.iter().filter(|d| d.in_year).map(|d| d.amount).sum(),
+                ..a
+            }
+        };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let sub = Acquired { cx, e, a, fc, m };
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated };
         post_one(j, &sub, invest, months, &mut nci);
     }
     nci
+}
+
+/// The acquisition with its net assets less the deferred tax on its fair value
+/// adjustments (IAS 12.19): `net_assets` of acquisitions.csv includes the adjustments but
+/// not their tax. The deferred tax is part of the identifiable net assets, so it moves
+/// goodwill (IAS 12.66): a liability on an asset's uplift increases it. The
+/// presentation amount keeps the acquisition date's rate (the ratio of the two).
+fn net_of_deferred_tax(a: Acquisition, uplifts: &[Uplift]) -> Acquisition {
+    let tax_fc: Decimal = uplifts.iter().filter(|u| u.deferred_tax).map(|u| u.amount).sum();
+    if tax_fc.is_zero() || a.net_assets.is_zero() {
+        return a;
+    }
+    Acquisition {
+        net_assets: a.net_assets + tax_fc,
+        net_assets_presentation: a.net_assets_presentation + tax_fc * a.net_assets_presentation / a.net_assets,
+        ..a
+    }
 }
 
 /// The entry of one subsidiary.
@@ -427,14 +514,14 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
     let roles = cx.roles;
     let goodwill_fc = sub.goodwill_fc();
     let nci_pres = sub.at_hist(sub.m.nci_fc);
-    let impairment_pres = sub.to_pres(a.impairment, cx.period);
+    let impairment_pres = sub.impairment_pres(Decimal::ONE, false);
     nci.pre_acquisition.insert(e.id.clone(), a.net_assets_presentation);
-    let fva = sub.fair_value();
+    let fva = sub.fair_values();
     let mut lines = Vec::new();
     let (investment_total, holders_fx_year) = investment_lines(sub, invest, months, &mut lines);
-    equity_acquired_lines(sub, fva.as_ref(), &mut lines);
-    if let Some((_, _, now)) = &fva {
-        nci.fair_value_now.insert(e.id.clone(), *now);
+    equity_acquired_lines(sub, &fva, &mut lines);
+    if !fva.is_empty() {
+        nci.fair_value_now.insert(e.id.clone(), fva.iter().map(|x| x.3).sum());
     }
     lines.push(line(&roles.goodwill, &e.id, None, sub.to_pres(goodwill_fc, cx.period)));
     if let Some(acct) = &sub.m.bargain_account {
@@ -442,7 +529,7 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
     }
     lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
     let impairment_year_pres = impairment_lines(sub, impairment_pres, &mut lines);
-    exchange_difference_lines(sub, fva.as_ref(), &holders_fx_year, &mut lines, nci);
+    exchange_difference_lines(sub, &fva, &holders_fx_year, &mut lines, nci);
     if a.nci_measurement == NciMeasurement::FairValue {
         full_goodwill_lines(sub, impairment_year_pres, &mut lines, nci);
     }
@@ -503,9 +590,9 @@ fn investment_lines(
 /// The equity acquired: the subsidiary's contributed capital (share capital, premium
 /// and other equity accounts that are not reserves of the group) in full, and the rest
 /// of the net assets acquired from its retained earnings. The books hold the net assets
-/// acquired less the fair value adjustment: only that part of the retained earnings is
-/// pre-acquisition in the books, and the adjustment itself is added to its account.
-fn equity_acquired_lines(sub: &Acquired, fva: Option<&(GroupAccount, Decimal, Decimal)>, lines: &mut Vec<EntryLine>) {
+/// acquired less the fair value adjustments: only that part of the retained earnings is
+/// pre-acquisition in the books, and each adjustment itself is added to its account.
+fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<EntryLine>) {
     let (cx, e) = (sub.cx, sub.e);
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
@@ -516,9 +603,9 @@ fn equity_acquired_lines(sub: &Acquired, fva: Option<&(GroupAccount, Decimal, De
             capital += -*amount;
         }
     }
-    let fva_hist = fva.map(|x| x.1).unwrap_or_default();
+    let fva_hist: Decimal = fva.iter().map(|x| x.2).sum();
     lines.push(line(&roles.retained_earnings, &e.id, None, sub.a.net_assets_presentation - fva_hist - capital));
-    if let Some((acct, _, now)) = fva {
+    for (acct, _, _, now) in fva {
         lines.push(line(acct, &e.id, None, *now));
     }
 }
@@ -530,7 +617,7 @@ fn impairment_lines(sub: &Acquired, impairment_pres: Decimal, lines: &mut Vec<En
     let (cx, e, a) = (sub.cx, sub.e, &sub.a);
     let impairment_year_pres = match (&cx.roles.goodwill_impairment, a.impairment_year.is_zero()) {
         (Some(acct), false) => {
-            let x = sub.to_pres(a.impairment_year, cx.period);
+            let x = sub.impairment_pres(Decimal::ONE, true);
             lines.push(line(acct, &e.id, None, x));
             x
         }
@@ -548,7 +635,7 @@ fn impairment_lines(sub: &Acquired, impairment_pres: Decimal, lines: &mut Vec<En
 /// the part brought forward to the reserve.
 fn exchange_difference_lines(
     sub: &Acquired,
-    fva: Option<&(GroupAccount, Decimal, Decimal)>,
+    fva: &[FairValueLine],
     holders_fx_year: &[(EntityId, Decimal)],
     lines: &mut Vec<EntryLine>,
     nci: &mut ForNci,
@@ -557,22 +644,21 @@ fn exchange_difference_lines(
     let roles = cx.roles;
     let residual: Decimal = lines.iter().map(|l| l.amount).sum();
     let opening_period = sub.opening_period();
-    // The exchange difference is that of the goodwill before impairment: the
-    // impairment is charged at the closing rate, so together they move the carrying
-    // amount from its rate at acquisition to the closing rate exactly.
+    // The exchange difference is the change of goodwill's carrying amount that the
+    // impairments do not explain: with undated impairments, charged at the closing
+    // rate, that of the goodwill before impairment; with dated ones, at their own rates.
     let gross_fc = sub.goodwill_fc() + a.impairment;
-    let goodwill_fx_year = match opening_period {
-        Some(p0) => sub.to_pres(gross_fc, cx.period) - sub.to_pres(gross_fc, p0),
-        None => sub.to_pres(gross_fc, cx.period) - sub.at_hist(gross_fc),
-    };
+    let (goodwill_fx_year, _) = sub.goodwill_fx(gross_fc, Decimal::ONE);
     // The fair value adjustment's exchange difference, like goodwill's, is OCI of the
     // year for the part since the opening; it is shared with the NCI as the
     // subsidiary's other net assets are (`nci.rs`).
-    let fva_fx_year = match (fva, opening_period) {
-        (None, _) => Decimal::ZERO,
-        (Some((_, _, now)), Some(p0)) => *now - sub.to_pres(a.fair_value_adjustment, p0),
-        (Some((_, hist, now)), None) => *now - *hist,
-    };
+    let fva_fx_year: Decimal = fva
+        .iter()
+        .map(|(_, fc, hist, now)| match opening_period {
+            Some(p0) => *now - sub.to_pres(*fc, p0),
+            None => *now - *hist,
+        })
+        .sum();
     if !fva_fx_year.is_zero() {
         nci.fair_value_oci.insert(e.id.clone(), fva_fx_year);
     }
@@ -604,17 +690,14 @@ fn full_goodwill_lines(sub: &Acquired, impairment_year_pres: Decimal, lines: &mu
     let roles = cx.roles;
     let outside = sub.m.outside;
     let nci_goodwill_fc = sub.m.nci_fc - outside * a.net_assets;
-    let nci_impairment = sub.to_pres(outside * a.impairment, cx.period);
+    let nci_impairment = sub.impairment_pres(outside, false);
     if !impairment_year_pres.is_zero() {
         // The NCI's share of the year's impairment is part of its share of profit.
-        nci.nci_impairment_year.insert(e.id.clone(), sub.to_pres(outside * a.impairment_year, cx.period));
+        nci.nci_impairment_year.insert(e.id.clone(), sub.impairment_pres(outside, true));
     }
-    let nci_goodwill_now = sub.to_pres(nci_goodwill_fc, cx.period);
-    let fx_to_date = nci_goodwill_now - sub.at_hist(nci_goodwill_fc);
-    let fx_year = match sub.opening_period() {
-        Some(p0) => nci_goodwill_now - sub.to_pres(nci_goodwill_fc, p0),
-        None => fx_to_date,
-    };
+    // The impairment is the NCI's only as far as its part of goodwill bears it: the
+    // exchange difference on that part, net of it, is the NCI's.
+    let (fx_year, fx_to_date) = sub.goodwill_fx(nci_goodwill_fc, outside);
     lines.push(line(&roles.non_controlling_interest, &e.id, None, nci_impairment - fx_to_date));
     lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
     nci.nci_goodwill_oci.insert(e.id.clone(), fx_year);
@@ -664,7 +747,16 @@ mod tests {
         let invest = investments(&cx);
         let mut j = Journal::default();
         let mut found = Vec::new();
-        let nci = post(&mut j, &cx, &[acquisition("1000", "1000", "500")], &invest, &Default::default(), &mut found);
+        let records = Records::default();
+        let nci = post(
+            &mut j,
+            &cx,
+            &[acquisition("1000", "1000", "500")],
+            &invest,
+            &Default::default(),
+            &records,
+            &mut found,
+        );
         assert!(found.is_empty(), "{found:?}");
         assert_eq!(j.entries.len(), 1);
         assert_eq!(
@@ -709,5 +801,139 @@ mod tests {
             [Rule::AcquisitionMissing]
         );
         assert!(findings(e, None, false, usd, p("2026-01"), &roles, &statement).is_empty());
+    }
+
+    /// Full goodwill with an impairment recognised in February (IAS 36.C6). P (EUR)
+    /// holds 80% of S (USD) since 2020: consideration USD 1,000, NCI at fair value USD
+    /// 300, net assets USD 1,000 (EUR 500: 2 USD per EUR then). Goodwill 1,000 + 300 -
+    /// 1,000 = USD 300, of which the NCI's 300 - 20% x 1,000 = USD 100. February's
+    /// test impairs USD 100, at February's closing rate 2.5: EUR 40, an expense of the
+    /// year, fixed. At June's closing rate 4.0 goodwill is USD 200 / 4 = EUR 50 (a
+    /// retranslated impairment would be 25). Exchange difference of the year:
+    /// 50 - 300 / 2 (the opening) + 40 = -60, a loss (a debit of 60).
+    /// The NCI's part: USD 100 at 2 = EUR 50 at acquisition, now USD 80 / 4 = 20; its
+    /// impairment 20% x 100 / 2.5 = 8; its exchange difference 20 - 50 + 8 = -22 (all
+    /// this year: the opening rate is the acquisition's). Lines: 1200 P -500, 3000 S
+    /// +600, 3200 S -100, 1100 S +50, 3900 S -150 (NCI USD 300 at 2), 5000 S +40,
+    /// 9000 S +60, then the NCI's part of goodwill: 3900 S +30 (8 + 22), 3200 S -30.
+    /// Under the average policy, February's average 2.0 gives an impairment of 50.
+    #[test]
+    fn a_dated_impairment_is_fixed_at_its_months_rate_and_shared_under_full_goodwill() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut roles = roles();
+        roles.goodwill_impairment = Some(acct("5000"));
+        cx.roles = &roles;
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        let rate = |x: &str| Rate { value: d(x), quote: Quote::UnitsPerPresentation };
+        cx.closing.insert((usd, p("2026-02")), rate("2.5"));
+        cx.closing.insert((usd, p("2026-06")), rate("4"));
+        let mut a = acquisition("1000", "1000", "500");
+        a.nci_measurement = NciMeasurement::FairValue;
+        a.nci_fair_value = Some(d("300"));
+        let rows = [GoodwillImpairment {
+            owned: id("S"),
+            period: p("2026-02"),
+            amount: d("100"),
+            source: Source::file("entities/goodwill_impairments.csv"),
+        }];
+        let mut rates = super::super::fair_value::ExpenseRates::default();
+        let invest = investments(&cx);
+        let close = |rates: &super::super::fair_value::ExpenseRates| {
+            let records = Records { uplifts: &[], impairments: super::super::impairment::dated(&cx, &rows, rates) };
+            let mut j = Journal::default();
+            let mut found = Vec::new();
+            let nci = post(&mut j, &cx, std::slice::from_ref(&a), &invest, &Default::default(), &records, &mut found);
+            assert!(found.is_empty(), "{found:?}");
+            (lines(&j.entries[0]), nci)
+        };
+        let (got, nci) = close(&rates);
+        let want: Vec<(String, String, String)> = [
+            ("1200", "P", "-500"),
+            ("3000", "S", "600"),
+            ("3200", "S", "-100"),
+            ("1100", "S", "50"),
+            ("3900", "S", "-150"),
+            ("5000", "S", "40"),
+            ("9000", "S", "60"),
+            ("3900", "S", "30"),
+            ("3200", "S", "-30"),
+        ]
+        .iter()
+        .map(|(x, y, z)| (x.to_string(), y.to_string(), z.to_string()))
+        .collect();
+        assert_eq!(got, want);
+        assert_eq!(nci.nci_impairment_year.get(&id("S")), Some(&d("8")));
+        assert_eq!(nci.nci_goodwill_oci.get(&id("S")), Some(&d("-22")));
+        rates.impairment_rate = ImpairmentRate::Average;
+        rates.average.insert((usd, p("2026-02")), rate("2"));
+        let (got, _) = close(&rates);
+        assert!(got.contains(&("5000".into(), "S".into(), "50".into())), "{got:?}");
+    }
+
+    /// Deferred tax on a fair value adjustment moves goodwill (IAS 12.66). P holds 80%
+    /// of S: consideration USD 1,000, net assets USD 1,000 (EUR 500) including a plant
+    /// uplift of USD 200 (on 1600); tax at 25%: a liability of USD 50, so the
+    /// identifiable net assets are USD 950 (EUR 475 at the same 2 USD per EUR). NCI 20%
+    /// x 950 = USD 190 (EUR 95); goodwill 1,000 + 190 - 950 = USD 240 (200 without the
+    /// tax: the liability raises goodwill by the parent's 80% x 50 = 40). At 2 USD per
+    /// EUR throughout: 1200 P -500, 3000 S +600, 3200 S 475 - (100 - 25) - 600 = -200,
+    /// 1600 S +100, 2500 S -25, 1100 S +120, 3900 S -95; no exchange difference.
+    #[test]
+    fn deferred_tax_on_an_uplift_is_part_of_the_net_assets_acquired() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        for (a, class) in [("1600", AccountClass::Asset), ("2500", AccountClass::Liability)] {
+            w.chart.push(AccountDef {
+                account: acct(a),
+                name: a.into(),
+                statement: Statement::BalanceSheet,
+                class,
+                basis: Basis::Closing,
+                ic_kind: None,
+                non_current: true,
+                reserve: None,
+                source: Source::file("entities/accounts.csv"),
+            });
+        }
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-200")]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let a = acquisition("1000", "1000", "500");
+        let plant = Uplift {
+            owned: id("S"),
+            account: acct("1600"),
+            amount: d("200"),
+            life_months: None,
+            expense_account: None,
+            deferred_tax: false,
+            source: Source::file("entities/fair_value_adjustments.csv"),
+        };
+        let tax = super::super::fair_value::DeferredTax {
+            rates: BTreeMap::from([(id("S"), d("0.25"))]),
+            account: acct("2500"),
+            expense: acct("8000"),
+        };
+        let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
+        let records = Records { uplifts: &all, impairments: BTreeMap::new() };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        let want: Vec<(String, String, String)> = [
+            ("1200", "P", "-500"),
+            ("3000", "S", "600"),
+            ("3200", "S", "-200"),
+            ("1600", "S", "100"),
+            ("2500", "S", "-25"),
+            ("1100", "S", "120"),
+            ("3900", "S", "-95"),
+        ]
+        .iter()
+        .map(|(x, y, z)| (x.to_string(), y.to_string(), z.to_string()))
+        .collect();
+        assert_eq!(lines(&j.entries[0]), want);
+        assert_eq!(nci.fair_value_now.get(&id("S")), Some(&d("75")));
     }
 }

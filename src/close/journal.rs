@@ -29,10 +29,20 @@ pub enum EliminationRule {
     UnrealisedProfit,
     /// `investment.rs`: investment against equity at acquisition, goodwill.
     InvestmentAndGoodwill,
+    /// `fair_value.rs`: depreciation of the fair value adjustments at acquisition.
+    FairValueDepreciation,
+    /// `fair_value.rs`: release of the deferred tax on those adjustments (IAS 12.19).
+    FairValueDeferredTax,
     /// `equity_method.rs`: the share of an associate's or joint venture's results.
     EquityMethod,
     /// `nci.rs`: the non-controlling interests' share of post-acquisition equity.
     NonControllingInterest,
+    /// `step_acquisition.rs`: the interest held before control remeasured to fair value.
+    StepAcquisition,
+    /// `loss_of_control.rs`: a subsidiary sold: derecognition, gain, recycling.
+    LossOfControl,
+    /// `change_in_stake.rs`: more or less of a subsidiary, control kept.
+    ChangeInStake,
     /// `topside.rs`: a top-side entry of `group_adjustments.csv`, booked by the group.
     GroupAdjustment,
 }
@@ -48,8 +58,13 @@ impl EliminationRule {
             EliminationRule::NetInvestmentFx => "net_investment_fx",
             EliminationRule::UnrealisedProfit => "unrealised_profit",
             EliminationRule::InvestmentAndGoodwill => "investment_and_goodwill",
+            EliminationRule::FairValueDepreciation => "fair_value_depreciation",
+            EliminationRule::FairValueDeferredTax => "fair_value_deferred_tax",
             EliminationRule::EquityMethod => "equity_method",
             EliminationRule::NonControllingInterest => "non_controlling_interest",
+            EliminationRule::StepAcquisition => "step_acquisition",
+            EliminationRule::LossOfControl => "loss_of_control",
+            EliminationRule::ChangeInStake => "change_in_stake",
             EliminationRule::GroupAdjustment => "group_adjustment",
         }
     }
@@ -155,8 +170,13 @@ mod tests {
             EliminationRule::NetInvestmentFx,
             EliminationRule::UnrealisedProfit,
             EliminationRule::InvestmentAndGoodwill,
+            EliminationRule::FairValueDepreciation,
+            EliminationRule::FairValueDeferredTax,
             EliminationRule::EquityMethod,
             EliminationRule::NonControllingInterest,
+            EliminationRule::StepAcquisition,
+            EliminationRule::LossOfControl,
+            EliminationRule::ChangeInStake,
             EliminationRule::GroupAdjustment,
         ]
         .into_iter()
@@ -172,8 +192,13 @@ mod tests {
                 "net_investment_fx",
                 "unrealised_profit",
                 "investment_and_goodwill",
+                "fair_value_depreciation",
+                "fair_value_deferred_tax",
                 "equity_method",
                 "non_controlling_interest",
+                "step_acquisition",
+                "loss_of_control",
+                "change_in_stake",
                 "group_adjustment"
             ]
         );

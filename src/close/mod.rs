@@ -12,8 +12,12 @@
 //!   entries named by an [`EliminationRule`], in this order: `pre_acquisition`,
 //!   `intercompany` (loans and interest included), `dividends`, `ifric16`,
 //!   `net_investment`, `unrealised_profit`, `investment` (and goodwill),
-//!   `equity_method`, then the top-side entries (`topside`, rule `group_adjustment`),
-//!   which the NCI shares where a line names a subsidiary.
+//!   `fair_value` (depreciation of the fair value adjustments), `step_acquisition`,
+//!   `loss_of_control`, `equity_method`, then the top-side entries (`topside`, rule
+//!   `group_adjustment`), which the NCI shares where a line names a subsidiary, and
+//!   after the NCI `change_in_stake` (which corrects the NCI rows). A subsidiary sold in
+//!   the year contributes what the close at its last month end consolidated gives it
+//!   (`loss_of_control.rs`, which runs that close).
 //! - `nci` (nci.rs): the NCI's share of post-acquisition equity, multi-tier.
 //! - `reserves` (reserves.rs): the translation reserve per foreign operation.
 //! - `roll_up` (roll_up.rs): contributions plus eliminations, per group account.
@@ -24,20 +28,25 @@
 //! (entry descriptions quote amounts as text).
 
 pub mod aggregate;
+pub mod change_in_stake;
 pub mod check;
 pub mod context;
 pub mod dividends;
 pub mod equity_method;
+pub mod fair_value;
 pub mod ifric16;
+pub mod impairment;
 pub mod intercompany;
 pub mod investment;
 pub mod journal;
+pub mod loss_of_control;
 pub mod nci;
 pub mod net_investment;
 pub mod pre_acquisition;
 pub mod prove;
 pub mod reserves;
 pub mod roll_up;
+pub mod step_acquisition;
 pub mod topside;
 pub mod unrealised_profit;
 pub mod view;
@@ -89,6 +98,30 @@ pub struct OperationReserveRow {
     pub reserve: Decimal,
 }
 
+/// The findings of `fair_value_adjustments.csv` for the close's structure.
+fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
+    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= cx.period);
+    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper)
+}
+
+/// The findings of `goodwill_impairments.csv` for the close.
+fn impairment_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
+    let has_rate = |e: &EntityId, p: Period| impairment_rate_known(ds, e, p);
+    let when = (cx.period, cx.fiscal_start);
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    impairment::findings(&ds.impairments, &ds.acquisitions, when, cx.roles, &has_rate, &method_of)
+}
+
+/// Whether `rates/monthly.csv` has month `p` (its closing and average rates, either of
+/// which the impairment policy may ask for) for `e`'s currency; always true in the
+/// presentation currency.
+pub(crate) fn impairment_rate_known(ds: &Dataset, e: &EntityId, p: Period) -> bool {
+    let Some(c) = ds.entity(e).map(|x| x.currency) else { return true };
+    c == ds.settings.presentation_currency || ds.rates.iter().any(|r| r.currency == c && r.period == p)
+}
+
 /// A close on year-to-date balances at one period end.
 pub struct Close {
     pub period: Period,
@@ -101,12 +134,18 @@ pub struct Close {
     /// The translation reserve per consolidated foreign operation.
     pub reserves: Vec<OperationReserveRow>,
     pub findings: Vec<Finding>,
+    /// Subsidiaries sold in the fiscal year to the period (`loss_of_control`).
+    pub disposals: Vec<loss_of_control::Disposal>,
+    /// Changes in stake with control kept in the fiscal year to the period.
+    pub stake_changes: Vec<change_in_stake::StakeChange>,
 }
 
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
-    let contributions = aggregate(ds, t, s, period)?;
+    let sold = sold_in_year(ds, t, period, fiscal_start)?;
+    let stakes = stakes_changed_in_year(ds, t, period, fiscal_start)?;
+    let contributions = with_sold(aggregate(ds, t, s, period)?, &sold)?;
     let balances = aggregate::balances(&contributions)?;
     let cx = context::Context::new(ds, t, s, period, fiscal_start, balances);
     let mut findings = Vec::new();
@@ -126,16 +165,35 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let year_parts = ifric16::parts_of_year(&cx, &operations);
     ifric16::post(&mut j, &cx, &year_parts);
     net_investment::post(&mut j, &cx, &ds.net_investments, &before);
-    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, &mut findings);
+    let tax = fair_value::DeferredTax::of(ds);
+    unrealised_profit::post(&mut j, &cx, &ds.inventory_profits, tax.as_ref(), &mut findings);
     let invest = investment::investments(&cx);
     let months = investment::investment_months(t, &cx, &invest)?;
-    let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &mut findings);
+    let rates = fair_value::ExpenseRates::of(ds);
+    let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
+    let records =
+        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
+    let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
+    findings.extend(fair_value_findings(ds, &cx));
+    findings.extend(impairment_findings(ds, &cx));
+    findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
+    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
+    let steps =
+        crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let disposals: Vec<loss_of_control::Disposal> =
+        sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
     topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
-    let nci = nci::post(&mut j, &cx, &for_nci);
+    let mut nci = nci::post(&mut j, &cx, &for_nci);
+    nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
+    let stake_changes: Vec<change_in_stake::StakeChange> = stakes
+        .iter()
+        .filter_map(|b| change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, b, &invest, &mut nci))
+        .collect();
     let mut brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
     // The reserve per operation at the prior year end, where the folder holds that year.
     brought_forward.extend(ds.brought_forward.operation_reserves.iter().map(|(e, v)| (e.clone(), *v)));
@@ -143,5 +201,53 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings })
+    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals, stake_changes })
+}
+
+/// The subsidiaries sold in the fiscal year to `period` (none for the close of the
+/// opening balances), each as the close at its last month end consolidated shows it.
+fn sold_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<loss_of_control::AtLastMonth<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::losses_of_control(ds, scope)
+        .into_iter()
+        .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The changes in stake with control kept in the fiscal year to `period`, each with the
+/// subsidiary as the close at the last month end before it shows it.
+fn stakes_changed_in_year<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<change_in_stake::Before<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::changes_in_stake(ds, scope).into_iter().map(|c| change_in_stake::before(ds, t, c)).collect()
+}
+
+/// The contribution frame with the sold subsidiaries' contributions at their last month
+/// end added, in the frame's order.
+fn with_sold(contributions: DataFrame, sold: &[loss_of_control::AtLastMonth]) -> PolarsResult<DataFrame> {
+    if sold.is_empty() {
+        return Ok(contributions);
+    }
+    let mut all = contributions;
+    for x in sold {
+        all.vstack_mut(&x.contributions)?;
+    }
+    all.lazy()
+        .sort(["entity", "group_account", "counterparty"], SortMultipleOptions::default().with_nulls_last(false))
+        .collect()
 }

@@ -1,6 +1,8 @@
 //! Rule `non_controlling_interest`: the effective outside share of each subsidiary's
 //! post-acquisition equity (IFRS 10.22, B94), profit, OCI and translation difference
-//! included (IAS 21.41), multi-tier through effective interests. Also the NCI rows: the
+//! included (IAS 21.41), multi-tier through effective interests, posted against each
+//! reserve the chart names for its part (`reserve` of accounts.csv, IAS 1.106(a)) and
+//! retained earnings for the rest (the translation reserve's part included). Also the NCI rows: the
 //! NCI's share of the subsidiary's profit and OCI of the year and its NCI in equity.
 //!
 //! It reads the journal posted so far: each subsidiary's own lines of the earlier rules
@@ -70,6 +72,11 @@ fn post_one(
     // A top-side line naming the subsidiary (or booked in its sub-group without naming
     // another entity) is its figure, shared by its NCI (IFRS 10.B94; close/topside.rs).
     let topside = own_sum(own, &[EliminationRule::GroupAdjustment], &|l| cx.is_equity_or_flow(&l.account));
+    // The depreciation of the fair value adjustments to date (earlier years', the
+    // year's expense and its exchange difference) reduces the net assets the NCI
+    // shares, as the adjustments at acquisition were part of them.
+    let fair_value_rules = [EliminationRule::FairValueDepreciation, EliminationRule::FairValueDeferredTax];
+    let depreciation = own_sum(own, &fair_value_rules, &|l| cx.is_equity_or_flow(&l.account));
     // The fair value adjustment at the closing rate is part of the subsidiary's net
     // assets in the group, as it was part of the net assets acquired. A holder's
     // exchange difference of the year on its investments in subsidiaries is eliminated
@@ -82,6 +89,7 @@ fn post_one(
     let post = equity_total + of(&m.fair_value_now)
         - unrealised
         - topside
+        - depreciation
         - of(&m.pre_acquisition)
         - holder_fx
         - holder_fx_before;
@@ -93,12 +101,16 @@ fn post_one(
     // Deducting the holder's NCI's share of the investment's cost as well would count
     // that part twice. Results before control are not the group's (nor the NCI's); the
     // subsidiary's result as the group sees it also moves by its unrealised profit, the
-    // net investment difference moved to OCI and the top-side lines that name it.
+    // net investment difference moved to OCI and the top-side lines that name it. The
+    // depreciation of the fair value adjustments is the subsidiary's expense in the
+    // group, and its exchange difference the subsidiary's OCI: the NCI shares both.
     let not_the_groups = [
         EliminationRule::PreAcquisitionResults,
         EliminationRule::UnrealisedProfit,
         EliminationRule::NetInvestmentFx,
         EliminationRule::GroupAdjustment,
+        EliminationRule::FairValueDepreciation,
+        EliminationRule::FairValueDeferredTax,
     ];
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
@@ -106,6 +118,15 @@ fn post_one(
     };
     let profit = -result_of(Statement::ProfitOrLoss);
     let oci = -result_of(Statement::Oci) + of(&m.fair_value_oci) - holder_fx;
+    // The NCI's share leaves each reserve the chart names for its part, the rest
+    // leaves retained earnings (which include the translation reserve's part).
+    let from_reserves = reserve_shares(cx, e, own);
+    let from_retained = nci_post - from_reserves.iter().map(|(_, x)| *x).sum::<Decimal>();
+    let mut lines = vec![
+        line(&roles.non_controlling_interest, &e.id, None, -nci_post),
+        line(&roles.retained_earnings, &e.id, None, from_retained),
+    ];
+    lines.extend(from_reserves.iter().map(|(r, x)| line(r, &e.id, None, *x)));
     j.post(
         EliminationRule::NonControllingInterest,
         cx.parent_of(e),
@@ -116,10 +137,7 @@ fn post_one(
             money::format_amount(post, cx.minor),
             e.id
         ),
-        vec![
-            line(&roles.non_controlling_interest, &e.id, None, -nci_post),
-            line(&roles.retained_earnings, &e.id, None, nci_post),
-        ],
+        lines,
     );
     // The NCI at acquisition, posted by the investment rule.
     let nci_acq =
@@ -131,6 +149,32 @@ fn post_one(
         oci: cx.round(oci * e.nci) + of(&m.nci_goodwill_oci),
         equity: nci_acq + nci_post,
     }
+}
+
+/// The NCI's share of the subsidiary's post-acquisition amount in each reserve the
+/// chart names (`reserve` of accounts.csv; IAS 1.106(a), (d): each component of equity
+/// attributed between the owners and the NCI), debit positive: the reserve's own
+/// balance and the OCI accounts accumulating into it, with the subsidiary's journal
+/// lines so far on them (what the investment entry removed at acquisition).
+fn reserve_shares(
+    cx: &Context,
+    e: &EntityStructure,
+    own: &[(EliminationRule, &EntryLine)],
+) -> Vec<(GroupAccount, Decimal)> {
+    let named: std::collections::BTreeSet<&GroupAccount> =
+        cx.chart.values().filter_map(|d| d.reserve.as_ref()).filter(|r| **r != cx.roles.translation_reserve).collect();
+    let into =
+        |a: &GroupAccount, r: &GroupAccount| a == r || cx.chart.get(a).and_then(|d| d.reserve.as_ref()) == Some(r);
+    named
+        .into_iter()
+        .map(|r| {
+            let books: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| into(a, r)).map(|(_, v)| *v).sum();
+            let journal: Decimal = own.iter().filter(|(_, l)| into(&l.account, r)).map(|(_, l)| l.amount).sum();
+            // A reserve is a credit; the NCI's share of it leaves the reserve as a debit.
+            (r.clone(), cx.round(-(books + journal) * e.nci))
+        })
+        .filter(|(_, x)| !x.is_zero())
+        .collect()
 }
 
 #[cfg(test)]
@@ -178,5 +222,87 @@ mod tests {
         assert_eq!(lines(entry), [("3900".into(), "S".into(), "-65".into()), ("3200".into(), "S".into(), "65".into())]);
         let r = &rows[0];
         assert_eq!((r.nci_share, r.profit, r.oci, r.equity), (d("0.2"), d("15"), d("10"), d("165")));
+    }
+
+    /// The same S with a plant fair value adjustment of EUR 600 at the closing rate
+    /// (measured by the investment rule) and its depreciation entry: 24 off the plant,
+    /// an expense of 23 and an exchange loss of 1 in OCI. Post-acquisition equity
+    /// 850 + 600 - 24 - 500 = 926, the NCI's 20% = 185.20. NCI row: profit 20% x
+    /// (100 - 23) = 15.40, OCI 20% x (50 - 1) = 9.80 (IAS 21.41).
+    #[test]
+    fn the_nci_bears_its_share_of_the_fair_value_depreciation() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let s = id("S");
+        j.post(
+            EliminationRule::FairValueDepreciation,
+            id("P"),
+            vec![s.clone()],
+            "depreciation".into(),
+            vec![
+                line(&acct("1300"), &s, None, d("-24")),
+                line(&acct("5000"), &s, None, d("23")),
+                line(&acct("9000"), &s, None, d("1")),
+            ],
+        );
+        let measured = ForNci {
+            pre_acquisition: BTreeMap::from([(s.clone(), d("500"))]),
+            fair_value_now: BTreeMap::from([(s.clone(), d("600"))]),
+            ..ForNci::default()
+        };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(
+            lines(entry),
+            [("3900".into(), "S".into(), "-185.2".into()), ("3200".into(), "S".into(), "185.2".into())]
+        );
+        let r = &rows[0];
+        assert_eq!((r.profit, r.oci, r.equity), (d("15.4"), d("9.8"), d("185.2")));
+    }
+
+    /// S (80%) with a revaluation gain of 40 in OCI on 9100, which the chart puts in the
+    /// revaluation surplus 3400, besides the translation difference 50 on 9000 (to the
+    /// translation reserve). Equity 600 + 100 + 100 + 50 + 40 = 890 less 500 at
+    /// acquisition: 390, NCI 20% = 78. Of it, 20% x 40 = 8 leaves the revaluation
+    /// surplus and 70 retained earnings (which carry the translation reserve's part).
+    #[test]
+    fn the_nci_share_of_a_named_reserve_leaves_that_reserve() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let mut surplus = w.chart.iter().find(|a| a.account == acct("3300")).cloned().unwrap_or_else(|| panic!("3300"));
+        surplus.account = acct("3400");
+        let mut gains = w.chart.iter().find(|a| a.account == acct("9000")).cloned().unwrap_or_else(|| panic!("9000"));
+        gains.account = acct("9100");
+        gains.reserve = Some(acct("3400"));
+        w.chart.extend([surplus, gains]);
+        let bal = balances(&[
+            ("S", "3000", None, "-600"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-300"),
+            ("S", "5000", None, "200"),
+            ("S", "9000", None, "-50"),
+            ("S", "9100", None, "-40"),
+        ]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        let measured = ForNci { pre_acquisition: BTreeMap::from([(id("S"), d("500"))]), ..ForNci::default() };
+        let rows = post(&mut j, &cx, &measured);
+        let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
+        assert_eq!(
+            lines(entry),
+            [
+                ("3900".into(), "S".into(), "-78".into()),
+                ("3200".into(), "S".into(), "70".into()),
+                ("3400".into(), "S".into(), "8".into())
+            ]
+        );
+        assert_eq!(rows[0].oci, d("18"));
     }
 }

@@ -4,14 +4,19 @@
 //! The seller bears it (upstream it is shared with the seller's NCI, `nci.rs`;
 //! downstream it is borne by the parent): what was eliminated at the opening is charged
 //! to retained earnings, the change of the year to cost of sales, and the exchange
-//! difference on the opening part to OCI.
+//! difference on the opening part to OCI. Under `policies.deferred_tax` the entry also
+//! recognises the deferred tax asset on the elimination (IAS 12.19: the group's
+//! carrying amount of the inventory falls below its tax base), at the buyer's rate (the
+//! buyer holds the goods and recovers them, IAS 12.47; common practice), with the same
+//! split between retained earnings, tax expense of the year and OCI.
 
 use std::collections::BTreeMap;
 
 use rust_decimal::Decimal;
 
 use super::context::Context;
-use super::journal::{EliminationRule, Journal, line};
+use super::fair_value::DeferredTax;
+use super::journal::{EliminationRule, EntryLine, Journal, line};
 use crate::findings::{Finding, Rule};
 use crate::model::{EntityId, InventoryProfit, Period, RoleAccounts};
 use crate::money;
@@ -54,7 +59,13 @@ pub fn missing_accounts(roles: &RoleAccounts, items: &[InventoryProfit], period:
 
 /// Posts one entry per seller and buyer, both consolidated; raises the missing
 /// settings as a finding instead.
-pub fn post(j: &mut Journal, cx: &Context, items: &[InventoryProfit], findings: &mut Vec<Finding>) {
+pub fn post(
+    j: &mut Journal,
+    cx: &Context,
+    items: &[InventoryProfit],
+    tax: Option<&DeferredTax>,
+    findings: &mut Vec<Finding>,
+) {
     let (Some(inventory), Some(cogs)) = (&cx.roles.inventory, &cx.roles.cost_of_sales) else {
         findings.extend(missing_accounts(cx.roles, items, cx.period));
         return;
@@ -79,6 +90,15 @@ pub fn post(j: &mut Journal, cx: &Context, items: &[InventoryProfit], findings: 
         };
         let change = urp_now - urp_open_now;
         let fx = urp_open_now - urp_open_then;
+        let mut lines = vec![
+            line(inventory, buyer, Some(seller), -urp_now),
+            line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then),
+            line(cogs, seller, Some(buyer), change),
+            line(&cx.roles.translation_difference, seller, Some(buyer), fx),
+        ];
+        if let Some((tax, t)) = tax.and_then(|x| Some((x, x.rate(buyer)?))) {
+            lines.extend(deferred_tax_lines(cx, tax, t, (seller, buyer), (urp_now, urp_open_then, urp_open_now)));
+        }
         j.post(
             EliminationRule::UnrealisedProfit,
             cx.lcp(seller, buyer),
@@ -89,14 +109,30 @@ pub fn post(j: &mut Journal, cx: &Context, items: &[InventoryProfit], findings: 
                 now.margin_rate,
                 money::format_amount(urp_now, cx.minor)
             ),
-            vec![
-                line(inventory, buyer, Some(seller), -urp_now),
-                line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then),
-                line(cogs, seller, Some(buyer), change),
-                line(&cx.roles.translation_difference, seller, Some(buyer), fx),
-            ],
+            lines,
         );
     }
+}
+
+/// The deferred tax asset on an elimination of unrealised profit: rate `t` times each
+/// part, in the buyer's books' currency as translated, mirrored on the seller's side
+/// (retained earnings for the opening, tax income of the year for the change, OCI for
+/// the exchange difference on the opening part), so that the NCI of an upstream seller
+/// shares the profit net of tax.
+fn deferred_tax_lines(
+    cx: &Context,
+    tax: &DeferredTax,
+    t: Decimal,
+    (seller, buyer): (&EntityId, &EntityId),
+    (now, open_then, open_now): (Decimal, Decimal, Decimal),
+) -> Vec<EntryLine> {
+    let (now, open_then, open_now) = (cx.round(now * t), cx.round(open_then * t), cx.round(open_now * t));
+    vec![
+        line(&tax.account, buyer, Some(seller), now),
+        line(&cx.roles.retained_earnings, seller, Some(buyer), -open_then),
+        line(&tax.expense, seller, Some(buyer), -(now - open_now)),
+        line(&cx.roles.translation_difference, seller, Some(buyer), -(open_now - open_then)),
+    ]
 }
 
 #[cfg(test)]
@@ -133,7 +169,7 @@ mod tests {
         let items = [count("2025-12", "1000", "0.2"), count("2026-05", "600", "0.25"), count("2026-07", "1", "0.5")];
         let mut j = Journal::default();
         let mut findings = Vec::new();
-        post(&mut j, &cx, &items, &mut findings);
+        post(&mut j, &cx, &items, None, &mut findings);
         assert!(findings.is_empty());
         assert_eq!(
             lines(&j.entries[0]),
@@ -156,9 +192,39 @@ mod tests {
         cx.roles = &roles;
         let mut j = Journal::default();
         let mut findings = Vec::new();
-        post(&mut j, &cx, &[count("2026-05", "600", "0.25")], &mut findings);
+        post(&mut j, &cx, &[count("2026-05", "600", "0.25")], None, &mut findings);
         assert!(j.entries.is_empty());
         assert_eq!(findings.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::SettingInvalid]);
         assert!(missing_accounts(&roles, &[count("2026-07", "600", "0.25")], p("2026-06")).is_none());
+    }
+
+    /// The same counts with deferred tax at the buyer S's 25% (IAS 12.19): the asset
+    /// 25% x 60 = 15 on S (2500); the opening 25% x 100 = 25 credited to P's retained
+    /// earnings; tax expense 25% x (60 - 80) = -5 reversed: +5; OCI 25% x -20 mirrored:
+    /// +5. 15 - 25 + 5 + 5 = 0. The profit eliminated net of tax is 75%.
+    #[test]
+    fn deferred_tax_on_the_elimination_at_the_buyers_rate() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "1", "2020-01-01")], p("2026-06"));
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let tax = DeferredTax {
+            rates: std::collections::BTreeMap::from([(id("S"), d("0.25")), (id("P"), d("0.4"))]),
+            account: acct("2500"),
+            expense: acct("8000"),
+        };
+        let items = [count("2025-12", "1000", "0.2"), count("2026-05", "600", "0.25")];
+        let mut j = Journal::default();
+        let mut findings = Vec::new();
+        post(&mut j, &cx, &items, Some(&tax), &mut findings);
+        assert_eq!(
+            lines(&j.entries[0])[4..],
+            [
+                ("2500".into(), "S".into(), "15".into()),
+                ("3200".into(), "P".into(), "-25".into()),
+                ("8000".into(), "P".into(), "5".into()),
+                ("9000".into(), "P".into(), "5".into())
+            ]
+        );
     }
 }

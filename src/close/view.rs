@@ -8,8 +8,8 @@
 //! period end.
 //!
 //! The statements' arithmetic: in the balance sheet the year's profit is shown in
-//! retained earnings and its OCI in the translation reserve, where they will be closed
-//! at year end ([`balance_sheet_amounts`]); the attribution of the view's profit and OCI
+//! retained earnings and its OCI in the reserve of each OCI account (the translation
+//! reserve unless the chart names another), where they will be closed at year end ([`balance_sheet_amounts`]); the attribution of the view's profit and OCI
 //! between the owners of the parent and the NCI (IFRS 10.B94, IAS 1.81B); and the proof
 //! `balance_sheet_balances`.
 
@@ -67,6 +67,21 @@ impl<'a> Chart<'a> {
         self.statement(a).is_some_and(|s| s != Statement::BalanceSheet)
     }
 
+    /// The equity reserve an OCI account accumulates into: its `reserve` in the chart,
+    /// else the translation reserve (IAS 1.106(d): each component of equity).
+    pub fn reserve_of<'r>(&'r self, a: &GroupAccount, roles: &'r RoleAccounts) -> &'r GroupAccount {
+        self.by_account.get(a).and_then(|d| d.reserve.as_ref()).unwrap_or(&roles.translation_reserve)
+    }
+
+    /// The OCI of `amounts` by the reserve it accumulates into (debit positive).
+    pub fn oci_by_reserve(&self, amounts: &Amounts, roles: &RoleAccounts) -> Amounts {
+        let mut out = Amounts::new();
+        for (a, v) in amounts.iter().filter(|(a, _)| self.statement(a) == Some(Statement::Oci)) {
+            *out.entry(self.reserve_of(a, roles).clone()).or_default() += *v;
+        }
+        out
+    }
+
     /// The sum of `amounts` on the accounts of statement `st`.
     pub fn sum(&self, amounts: &Amounts, st: Statement) -> Decimal {
         amounts.iter().filter(|(a, _)| self.statement(a) == Some(st)).map(|(_, v)| *v).sum()
@@ -74,14 +89,17 @@ impl<'a> Chart<'a> {
 }
 
 /// The balance sheet's amounts: the group trial balance with the year's profit or loss
-/// added to retained earnings and its OCI to the translation reserve (the flow accounts
-/// keep their amounts; a balance-sheet layout does not show them).
+/// added to retained earnings and its OCI to the reserve each OCI account accumulates
+/// into, the translation reserve unless the chart names another (the flow accounts keep
+/// their amounts; a balance-sheet layout does not show them).
 pub fn balance_sheet_amounts(group: &Amounts, chart: &Chart, roles: &RoleAccounts) -> Amounts {
     let mut out = group.clone();
     let profit = chart.sum(group, Statement::ProfitOrLoss);
-    let oci = chart.sum(group, Statement::Oci);
     *out.entry(roles.retained_earnings.clone()).or_default() += profit;
-    *out.entry(roles.translation_reserve.clone()).or_default() += oci;
+    out.entry(roles.translation_reserve.clone()).or_default();
+    for (reserve, oci) in chart.oci_by_reserve(group, roles) {
+        *out.entry(reserve).or_default() += oci;
+    }
     out
 }
 
@@ -155,4 +173,30 @@ pub fn view_figures(close: &Close, base: Option<&Close>, chart: &Chart, roles: &
     let attribution = attribution(close, base, &flows, chart);
     let check = balance_sheet_balances(close, chart, &attribution);
     ViewFigures { flows, balance_sheet, attribution, check }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::close::context::fixture::{acct, chart, d, roles};
+
+    /// Profit 100 (revenue 300 credit, cost 200 debit) into retained earnings; OCI of
+    /// 9000 (no reserve named: the translation reserve 3300) credit 50, and of 9100
+    /// (reserve 3400) credit 40 into the revaluation surplus, each apart.
+    #[test]
+    fn oci_goes_to_the_reserve_its_account_names() {
+        let mut accounts = chart();
+        let mut gains = accounts.iter().find(|a| a.account == acct("9000")).cloned().unwrap_or_else(|| panic!("9000"));
+        gains.account = acct("9100");
+        gains.reserve = Some(acct("3400"));
+        accounts.push(gains);
+        let chart = Chart::new(&accounts);
+        let group: Amounts = [("4000", "-300"), ("5000", "200"), ("9000", "-50"), ("9100", "-40"), ("3200", "-10")]
+            .into_iter()
+            .map(|(a, v)| (acct(a), d(v)))
+            .collect();
+        let bs = balance_sheet_amounts(&group, &chart, &roles());
+        let at = |a: &str| bs.get(&acct(a)).copied().unwrap_or_default();
+        assert_eq!((at("3200"), at("3300"), at("3400")), (d("-110"), d("-50"), d("-40")));
+    }
 }

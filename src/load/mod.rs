@@ -8,8 +8,12 @@ pub mod adjustments;
 mod cash_flow_lines;
 pub mod daily;
 mod documents;
+mod fair_values;
+mod impairments;
 mod ledger;
 pub mod machine;
+mod ownership;
+pub mod plans;
 mod settings;
 pub mod table;
 
@@ -127,9 +131,18 @@ pub struct Dataset {
     pub historical_rates: Vec<HistoricalRate>,
     pub acquisitions: Vec<Acquisition>,
     pub inventory_profits: Vec<InventoryProfit>,
+    /// Fair value adjustments of acquired subsidiaries (optional
+    /// `fair_value_adjustments.csv`).
+    pub uplifts: Vec<Uplift>,
+    /// Goodwill impairments by month (optional `goodwill_impairments.csv`).
+    pub impairments: Vec<GoodwillImpairment>,
+    /// Income tax rates per entity (optional `tax_rates.csv`).
+    pub tax_rates: Vec<TaxRate>,
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// Shares bought and sold (optional `ownership_changes.csv`).
+    pub ownership_changes: Vec<OwnershipChange>,
     /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
     /// `close::topside`.
     pub group_adjustments: adjustments::GroupAdjustments,
@@ -234,8 +247,13 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
+    let uplifts = fair_values::load_uplifts(root, &ent_dir.join(FAIR_VALUES_FILE), &mut f, &mut inputs);
+    let impairments = impairments::load_impairments(root, &ent_dir.join(IMPAIRMENTS_FILE), &mut f, &mut inputs);
+    let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let ownership_changes =
+        ownership::load_ownership_changes(root, &ent_dir.join(ownership::OWNERSHIP_CHANGES_FILE), &mut f, &mut inputs);
     let group_adjustments = adjustments::load_group_adjustments(
         root,
         &ent_dir.join(adjustments::GROUP_ADJUSTMENTS_FILE),
@@ -267,8 +285,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             historical_rates,
             acquisitions,
             inventory_profits,
+            uplifts,
+            impairments,
+            tax_rates,
             segment_accounts,
             net_investments,
+            ownership_changes,
             group_adjustments,
             cash_flow_lines,
             accepted_differences,
@@ -462,6 +484,13 @@ fn unknown_folder_finding(name: &str, known: &BTreeMap<EntityId, Currency>) -> F
     }
 }
 
+/// The fair value adjustments of acquired subsidiaries, with their useful lives.
+pub const FAIR_VALUES_FILE: &str = "fair_value_adjustments.csv";
+/// Goodwill impairments with the month each is recognised in.
+pub const IMPAIRMENTS_FILE: &str = "goodwill_impairments.csv";
+/// Income tax rates per entity, for deferred tax on consolidation adjustments.
+pub const TAX_RATES_FILE: &str = "tax_rates.csv";
+
 /// The files tessera reads directly under `entities/` (besides the entity folders).
 pub const ENTITY_FILES: &[&str] = &[
     "group.toml",
@@ -471,10 +500,14 @@ pub const ENTITY_FILES: &[&str] = &[
     "layouts.csv",
     "acquisitions.csv",
     "inventory_profit.csv",
+    FAIR_VALUES_FILE,
+    IMPAIRMENTS_FILE,
+    TAX_RATES_FILE,
     "segment_accounts.csv",
     "net_investment.csv",
     "cash_flow_lines.csv",
     crate::intercompany::ACCEPTED_FILE,
+    ownership::OWNERSHIP_CHANGES_FILE,
     adjustments::GROUP_ADJUSTMENTS_FILE,
 ];
 
@@ -1001,7 +1034,7 @@ fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
 fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<AccountDef> {
     let spec = Spec {
         required: &["account", "name", "statement", "class", "basis"],
-        optional: &["ic_kind", "non_current"],
+        optional: &["ic_kind", "non_current", "reserve"],
         prefixes: &[],
     };
     let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
@@ -1099,6 +1132,7 @@ fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
             basis,
             ic_kind: t.get("ic_kind", row),
             non_current,
+            reserve: t.get("reserve", row).map(GroupAccount::new),
             source: Source::line(&t.file, line),
         });
     }

@@ -30,7 +30,8 @@ struct RawSettings {
 
 const PLAUSIBILITY_KEYS: &[&str] = &["rate_move", "sign_months"];
 
-const POLICY_KEYS: &[&str] = &["rounding", "income_translation", "ifric16", "significant_influence"];
+const POLICY_KEYS: &[&str] =
+    &["rounding", "income_translation", "ifric16", "significant_influence", "goodwill_impairment_rate", "deferred_tax"];
 const ROLE_KEYS: &[&str] = &[
     "retained_earnings",
     "translation_reserve",
@@ -44,6 +45,8 @@ const ROLE_KEYS: &[&str] = &[
     "cost_of_sales",
     "goodwill_impairment",
     "bargain_purchase_gain",
+    "deferred_tax",
+    "deferred_tax_expense",
 ];
 const IC_KEYS: &[&str] = &["tolerance_absolute", "tolerance_relative", "timing_window_days", "timing"];
 const SEGMENT_KEYS: &[&str] = &[
@@ -318,11 +321,37 @@ fn parse_policies(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) ->
             }
         },
     };
+    let goodwill_impairment_rate = match pol("goodwill_impairment_rate").as_deref() {
+        None | Some("closing") => Some(ImpairmentRate::Closing),
+        Some("average") => Some(ImpairmentRate::Average),
+        Some(other) => {
+            bad(
+                "policies.goodwill_impairment_rate",
+                format!("\"{other}\" is not a rate"),
+                "use \"closing\" or \"average\" (the rate of the month the impairment is recognised in)",
+            );
+            None
+        }
+    };
+    let deferred_tax = match pol("deferred_tax").as_deref() {
+        None | Some("off") => Some(false),
+        Some("recognise") => Some(true),
+        Some(other) => {
+            bad(
+                "policies.deferred_tax",
+                format!("\"{other}\" is not a choice"),
+                "use \"recognise\" (deferred tax on the consolidation adjustments) or \"off\"",
+            );
+            None
+        }
+    };
     Some(Policies {
         rounding: rounding?,
         income_translation: income?,
         ifric16: ifric16?,
         significant_influence: significant_influence?,
+        goodwill_impairment_rate: goodwill_impairment_rate?,
+        deferred_tax: deferred_tax?,
     })
 }
 
@@ -374,6 +403,8 @@ fn parse_role_accounts(raw: &RawSettings, file: &str, findings: &mut Vec<Finding
         cost_of_sales: raw.accounts.get("cost_of_sales").map(|a| GroupAccount::new(a.trim())),
         goodwill_impairment: raw.accounts.get("goodwill_impairment").map(|a| GroupAccount::new(a.trim())),
         bargain_purchase_gain: raw.accounts.get("bargain_purchase_gain").map(|a| GroupAccount::new(a.trim())),
+        deferred_tax: raw.accounts.get("deferred_tax").map(|a| GroupAccount::new(a.trim())),
+        deferred_tax_expense: raw.accounts.get("deferred_tax_expense").map(|a| GroupAccount::new(a.trim())),
     })
 }
 

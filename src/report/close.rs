@@ -40,6 +40,17 @@ pub struct StatementLine {
 pub struct StatementOut {
     pub statement: String,
     pub lines: Vec<StatementLine>,
+    /// The layout's ratio lines, in percent (`None` when the denominator is zero).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub ratios: Vec<RatioOut>,
+}
+
+/// One ratio line of a statement, in percent.
+#[derive(Debug, Clone, Serialize)]
+pub struct RatioOut {
+    pub line: String,
+    pub label: String,
+    pub percent: Option<Decimal>,
 }
 
 /// Lays a statement out from account amounts (debit positive).
@@ -58,7 +69,13 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
             prior_year: None,
         })
         .collect();
-    StatementOut { statement: st.statement.clone(), lines }
+    let ratios = st
+        .ratios
+        .iter()
+        .zip(st.evaluate_ratios(amounts))
+        .map(|(r, (_, percent))| RatioOut { line: r.line.clone(), label: r.label.clone(), percent })
+        .collect();
+    StatementOut { statement: st.statement.clone(), lines, ratios }
 }
 
 /// Sets each line's prior-year comparative from the same statement laid out on the
@@ -116,6 +133,9 @@ pub struct Statements {
     /// The statement of cash flows (IAS 7), when the group classifies its accounts.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub cash_flows: Option<crate::cash_flows::CashFlows>,
+    /// The comparison asked with `--compare`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub comparison: Option<crate::compare::Comparison>,
     /// The prior year's comparison (IAS 1.38), when the data folder holds it.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub prior_year: Option<PriorYearOut>,
@@ -266,6 +286,42 @@ pub fn statement_prior_rows(r: &CloseReport<'_>, key: &str) -> Option<Vec<Decima
     Some(rows)
 }
 
+/// One statement as a terminal table: its lines, the prior year's column when the close
+/// has one, and its ratios; labels and amounts at the widths `(width, amounts)`.
+fn statement_text(r: &CloseReport<'_>, key: &str, title: &str, minor: u32, (width, amounts): (usize, usize)) -> String {
+    let mut out = String::new();
+    let prior = statement_prior_rows(r, key);
+    let rows: Vec<Vec<String>> = statement_rows(r, key)
+        .into_iter()
+        .enumerate()
+        .map(|(i, (label, v, _))| {
+            let mut row = vec![format!("{label:<width$}"), format!("{:>amounts$}", format_amount(v, minor))];
+            if let Some(p) = &prior {
+                row.push(format!("{:>amounts$}", format_amount(p[i], minor)));
+            }
+            row
+        })
+        .collect();
+    let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
+    out.push('\n');
+    match (&prior, &r.statements.prior_year) {
+        (Some(_), Some(p)) => {
+            let before = format!("{:>amounts$}", amount_heading(key, r.view, &p.period, &r.currency));
+            out.push_str(&super::text_table(
+                &[&format!("{title:<width$}"), &heading, &before],
+                &rows,
+                &[false, true, true],
+            ));
+        }
+        _ => out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true])),
+    }
+    for x in &r.statements.laid_out[key].ratios {
+        let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+        out.push_str(&format!("{:<width$}   {p:>amounts$}\n", x.label));
+    }
+    out
+}
+
 fn table(r: &CloseReport<'_>, minor: u32) -> String {
     let mut out = String::new();
     if r.proof.status == "draft" {
@@ -299,33 +355,8 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         .max()
         .unwrap_or(18);
     for (key, title) in TITLES {
-        if !r.statements.laid_out.contains_key(key) {
-            continue;
-        }
-        let prior = statement_prior_rows(r, key);
-        let rows: Vec<Vec<String>> = statement_rows(r, key)
-            .into_iter()
-            .enumerate()
-            .map(|(i, (label, v, _))| {
-                let mut row = vec![format!("{label:<width$}"), format!("{:>amounts$}", format_amount(v, minor))];
-                if let Some(p) = &prior {
-                    row.push(format!("{:>amounts$}", format_amount(p[i], minor)));
-                }
-                row
-            })
-            .collect();
-        let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
-        out.push('\n');
-        match (&prior, &r.statements.prior_year) {
-            (Some(_), Some(p)) => {
-                let before = format!("{:>amounts$}", amount_heading(key, r.view, &p.period, &r.currency));
-                out.push_str(&super::text_table(
-                    &[&format!("{title:<width$}"), &heading, &before],
-                    &rows,
-                    &[false, true, true],
-                ));
-            }
-            _ => out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true])),
+        if r.statements.laid_out.contains_key(key) {
+            out.push_str(&statement_text(r, key, title, minor, (width, amounts)));
         }
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
@@ -335,6 +366,9 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
     }
     if let Some(cf) = &r.statements.cash_flows {
         out.push_str(&super::cash_flows::table(cf, minor));
+    }
+    if let Some(c) = &r.statements.comparison {
+        out.push_str(&super::compare::table(c, &r.currency, minor));
     }
     let mut by_rule: BTreeMap<&str, usize> = BTreeMap::new();
     for e in r.eliminations {
@@ -650,17 +684,29 @@ fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> R
 /// `statements.csv`: every laid-out line of every statement, in layout order, amounts
 /// as presented.
 fn write_statements(dir: &Path, file: &str, r: &CloseReport<'_>) -> Result<(), crate::Error> {
-    let mut out = super::CsvOut::new(&["statement", "line", "label", "total", "amount", "prior_year"]);
+    // The prior year's comparative (empty without one), then, with a comparison, its
+    // columns (empty on lines not compared).
+    let compared = r.statements.comparison.as_ref();
+    let mut header = vec!["statement", "line", "label", "total", "amount", "prior_year"];
+    if compared.is_some() {
+        header.extend(super::compare::STATEMENT_COLUMNS);
+    }
+    let mut out = super::CsvOut::new(&header);
     for (key, st) in &r.statements.laid_out {
         for l in &st.lines {
-            out.row(&[
+            let mut row = vec![
                 key.clone(),
                 l.line.clone(),
                 l.label.clone(),
                 l.total.to_string(),
                 crate::money::plain(l.amount),
                 l.prior_year.map(crate::money::plain).unwrap_or_default(),
-            ]);
+            ];
+            if let Some(c) = compared {
+                let line = c.statements.get(key).and_then(|ls| ls.iter().find(|x| x.line == l.line));
+                row.extend(super::compare::statement_cells(line));
+            }
+            out.row(&row);
         }
     }
     write_file(&dir.join(file), out.finish().as_bytes())?;
@@ -717,6 +763,9 @@ pub fn write_outputs(dir: &Path, r: &CloseReport<'_>, tables: &Tables<'_>) -> Re
     write_money_frame(dir, &name("contributions"), contributions_frame(contributions, tables)?, tables)?;
     write_money_frame(dir, &name("translated"), translated_frame(translated, tables)?, tables)?;
     write_statements(dir, &name("statements.csv"), r)?;
+    if let Some(c) = &r.statements.comparison {
+        super::compare::write_files(dir, c, &name)?;
+    }
     let nci = DataFrame::new(
         r.nci.len(),
         vec![

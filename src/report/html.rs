@@ -295,6 +295,9 @@ pub fn close_page(r: &CloseReport<'_>, extras: &Extras<'_>, minor: u32) -> Strin
         h.push_str(&cash_flow_table(cf, minor));
     }
     h.push_str("</section>");
+    if let Some(c) = &r.statements.comparison {
+        h.push_str(&super::compare::html(c, minor));
+    }
 
     if let Some((key, segments)) = extras.segments {
         h.push_str(&format!("<section><h2>Revenue and profit by {} segment</h2>", escape(key)));

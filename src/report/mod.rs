@@ -5,6 +5,7 @@
 pub mod bench;
 pub mod cash_flows;
 pub mod close;
+pub mod compare;
 pub mod findings;
 pub mod generate;
 pub mod html;

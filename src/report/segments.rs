@@ -31,9 +31,50 @@ pub struct SegmentsOut<'a> {
     pub scope: String,
     #[serde(flatten)]
     pub report: &'a SegmentReport,
+    /// The segments beside a comparison (`--compare`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub comparison: Option<ComparisonOut<'a>>,
     pub findings: &'a [Finding],
     pub proof: SegmentsProof<'a>,
     pub caution: &'static str,
+}
+
+/// The segments' flow figures beside a comparison.
+#[derive(Serialize)]
+pub struct ComparisonOut<'a> {
+    pub comparison: &'a str,
+    pub rows: &'a [crate::compare::walk::SegmentComparison],
+}
+
+/// The terminal table of a segment comparison.
+fn comparison_table(c: &ComparisonOut<'_>, minor: u32) -> String {
+    let rows: Vec<Vec<String>> = c
+        .rows
+        .iter()
+        .map(|r| {
+            vec![
+                r.segment.clone(),
+                r.line.clone(),
+                format_amount(r.actual, minor),
+                format_amount(r.comparison, minor),
+                format_amount(r.variance, minor),
+                r.variance_percent.map(|p| format!("{p:.1}%")).unwrap_or_default(),
+                match r.direction {
+                    Some("favourable") => "F".into(),
+                    Some(_) => "U".into(),
+                    None => String::new(),
+                },
+                format_amount(r.currency_effect, minor),
+            ]
+        })
+        .collect();
+    let mut out = format!("\nsegments against {}\n", c.comparison);
+    out.push_str(&super::text_table(
+        &["Segment", "Figure", "Actual", c.comparison, "Variance", "%", "F/U", "Currency effect"],
+        &rows,
+        &[false, false, true, true, true, true, false, true],
+    ));
+    out
 }
 
 /// One figure per row: section, line, column, amount (a plain decimal string).
@@ -71,6 +112,20 @@ fn csv(r: &SegmentsOut<'_>) -> String {
             c.country.clone(),
             crate::money::plain(c.non_current_assets),
         ]);
+    }
+    // A comparison: one row per segment, figure and column (`<segment> actual`, ...).
+    for c in r.comparison.iter().flat_map(|c| c.rows.iter().map(move |x| (c.comparison, x))) {
+        let (name, x) = c;
+        for (col, v) in [
+            ("actual", Some(x.actual)),
+            (name, Some(x.comparison)),
+            ("variance", Some(x.variance)),
+            ("variance_percent", x.variance_percent),
+            ("currency_effect", Some(x.currency_effect)),
+        ] {
+            let v = v.map(crate::money::plain).unwrap_or_default();
+            out.row(&["comparison".into(), x.line.clone(), format!("{} {col}", x.segment), v]);
+        }
     }
     out.finish()
 }
@@ -216,7 +271,13 @@ pub fn render(r: &SegmentsOut<'_>, minor: u32, format: Format) -> String {
     match format {
         Format::Json => to_json(r),
         Format::Csv => csv(r),
-        Format::Table => table(r, minor),
+        Format::Table => {
+            let mut text = table(r, minor);
+            if let Some(c) = &r.comparison {
+                text.push_str(&comparison_table(c, minor));
+            }
+            text
+        }
     }
 }
 

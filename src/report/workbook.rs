@@ -1,5 +1,5 @@
 //! The close workbook (`close.xlsx`): one sheet per statement laid out from the layouts,
-//! then the statement of changes in equity, the group trial balance, the elimination
+//! with `--compare` the statements beside the comparison and the walks, then the statement of changes in equity, the group trial balance, the elimination
 //! journal with account names and rule, the NCI schedule, the intercompany matching with
 //! who must act, the segment report, the translation reserve by operation and the proof. Every figure is a
 //! number cell taken from the close's own report, so that the workbook says exactly
@@ -59,6 +59,9 @@ pub fn close_workbook(
     minor: u32,
 ) -> Result<Vec<u8>, crate::Error> {
     let mut sheets = statement_sheets(r);
+    if let Some(c) = &r.statements.comparison {
+        sheets.extend(super::compare::sheets(c));
+    }
     let eq = &r.statements.changes_in_equity;
     let mut s = Sheet::new("Changes in equity");
     let mut head: Vec<&str> = vec!["Statement of changes in equity"];

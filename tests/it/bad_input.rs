@@ -65,6 +65,17 @@ fn flip_signs(f: &Folder, rel: &str) {
     });
 }
 
+/// The chart with `reserve` (its last column) set on `account`'s row.
+fn with_reserve(f: &Folder, account: &str, reserve: &str) {
+    assert!(
+        f.read("entities/accounts.csv").starts_with("account,name,statement,class,basis,ic_kind,non_current,reserve\n")
+    );
+    map_lines(f, "entities/accounts.csv", |_, l| match l.rsplit_once(',') {
+        Some((rest, _)) if l.starts_with(&format!("{account},")) => format!("{rest},{reserve}"),
+        _ => l.to_string(),
+    });
+}
+
 fn cases() -> Vec<Case> {
     vec![
         // --- the shape of a file ---------------------------------------------------
@@ -466,7 +477,7 @@ fn cases() -> Vec<Case> {
             mutate: |f| {
                 f.replace(
                     "entities/acquisitions.csv",
-                    "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+                    "GLF-BH,2026-04-01,1474070.400,fair_value,523047.134,1245350.320,3041415.90",
                     "GLF-BH,2026-04-01,999999999999999.999,fair_value,999999999999999.999,-999999999999999.999,999999999999999.99",
                 )
             },
@@ -609,6 +620,37 @@ fn cases() -> Vec<Case> {
             rule: Some("AccountInvalid"),
             code: 1,
         },
+        // --- the reserve an OCI account accumulates into (accounts.csv) ------------------
+        Case {
+            name: "an OCI account accumulating into an account not in the chart",
+            mutate: |f| with_reserve(f, "9000", "3999"),
+            rule: Some("AccountUnknown"),
+            code: 1,
+        },
+        Case {
+            name: "an OCI account accumulating into a liability",
+            mutate: |f| with_reserve(f, "9000", "2600"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "an OCI account accumulating into the NCI",
+            mutate: |f| with_reserve(f, "9000", "3900"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "a reserve named on a profit or loss account",
+            mutate: |f| with_reserve(f, "4000", "3300"),
+            rule: Some("AccountInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "the translation difference accumulating into the translation reserve, said aloud",
+            mutate: |f| with_reserve(f, "9000", "3300"),
+            rule: None,
+            code: 0,
+        },
         // --- top-side entries (group_adjustments.csv) ----------------------------------
         Case {
             name: "a top-side entry that does not balance",
@@ -725,7 +767,7 @@ fn extreme_values_within_the_limits_do_not_panic() {
     let f = Folder::demo();
     f.replace(
         "entities/acquisitions.csv",
-        "GLF-BH,2026-04-01,1474070.400,fair_value,497847.134,1185350.320,2894882.87",
+        "GLF-BH,2026-04-01,1474070.400,fair_value,523047.134,1245350.320,3041415.90",
         "GLF-BH,2026-04-01,9999999999999.999,fair_value,9999999999999.999,-9999999999999.999,9999999999999.99",
     );
     map_lines(&f, "rates/monthly.csv", |_, l| {

@@ -556,7 +556,7 @@ fn no_output_shows_a_negative_zero() {
 /// copy of a case folder per finding the close's rules raise.
 #[test]
 fn every_finding_of_the_close_is_listed_by_check() {
-    let broken: [(&str, &str, &str, &str, &str); 7] = [
+    let broken: [(&str, &str, &str, &str, &str); 13] = [
         (
             "foreign-subsidiary-fair-value-adjustment",
             "entities/acquisitions.csv",
@@ -593,6 +593,42 @@ fn every_finding_of_the_close_is_listed_by_check() {
             "inventory = \"1500\"\n",
             "",
             "SettingInvalid",
+        ),
+        (
+            "mid-year-acquisition-uplift-depreciation",
+            "entities/fair_value_adjustments.csv",
+            "S,1200,1200,24,5050",
+            "S,5050,1200,24,1200",
+            "AccountUnknown",
+        ),
+        (
+            "mid-year-acquisition-uplift-depreciation",
+            "entities/fair_value_adjustments.csv",
+            "\nS,1200",
+            "\nT,1200",
+            "AcquisitionMissing",
+        ),
+        ("mid-year-acquisition-uplift-deferred-tax", "entities/tax_rates.csv", "S,0.25,\n", "", "ValueMissing"),
+        (
+            "mid-year-acquisition-uplift-deferred-tax",
+            "entities/group.toml",
+            "deferred_tax = \"recognise\"\n",
+            "",
+            "ValueInvalid",
+        ),
+        (
+            "mid-year-acquisition-uplift-deferred-tax",
+            "entities/group.toml",
+            "deferred_tax = \"2700\"\n",
+            "",
+            "SettingInvalid",
+        ),
+        (
+            "foreign-goodwill-impairment-in-month-closing-rate",
+            "entities/goodwill_impairments.csv",
+            "S,2026-02,200",
+            "S,2019-12,200",
+            "ValueInvalid",
         ),
     ];
     for (case, file, from, to, rule) in broken {

@@ -25,38 +25,38 @@ fn round2(x: Decimal) -> Decimal {
 }
 
 #[derive(Debug, Clone)]
-struct Ent {
+pub(crate) struct Ent {
     /// Index of the parent (entity 0 is the group's parent and has none).
-    parent: usize,
+    pub(crate) parent: usize,
     /// Percentage of capital and votes the parent holds, 51..=100.
-    share: u32,
-    usd: bool,
+    pub(crate) share: u32,
+    pub(crate) usd: bool,
     /// Share capital, whole units (so that share x capital has two decimals).
-    capital: i64,
+    pub(crate) capital: i64,
     /// Historical rate of the share capital, USD per EUR x 10,000.
-    hist: i64,
+    pub(crate) hist: i64,
     /// Retained earnings brought forward, local cents (credit positive), and their
     /// translated amount.
-    retained: i64,
-    retained_presentation: i64,
+    pub(crate) retained: i64,
+    pub(crate) retained_presentation: i64,
     /// Goodwill paid, local cents.
-    goodwill: i64,
+    pub(crate) goodwill: i64,
     /// The parent's carrying amount of the investment, the parent's cents.
-    investment: i64,
-    revenue: i64,
-    expenses: i64,
+    pub(crate) investment: i64,
+    pub(crate) revenue: i64,
+    pub(crate) expenses: i64,
     /// NCI measured at fair value (full goodwill), at its share of the net assets plus
     /// this premium in local cents; otherwise at its share of the net assets.
-    nci_fair_value: Option<i64>,
+    pub(crate) nci_fair_value: Option<i64>,
 }
 
 #[derive(Debug, Clone)]
-struct Group {
-    ents: Vec<Ent>,
+pub(crate) struct Group {
+    pub(crate) ents: Vec<Ent>,
     /// USD per EUR x 10,000: closing 2025-12, closing 2026-01, average 2026-01.
-    rates: (i64, i64, i64),
+    pub(crate) rates: (i64, i64, i64),
     /// Intercompany (i, j, receivable cents, sales cents): i sells to j and is owed by j.
-    ic: Vec<(usize, usize, i64, i64)>,
+    pub(crate) ic: Vec<(usize, usize, i64, i64)>,
 }
 
 fn ent() -> impl Strategy<Value = Ent> {
@@ -82,7 +82,7 @@ fn ent() -> impl Strategy<Value = Ent> {
         })
 }
 
-fn group() -> impl Strategy<Value = Group> {
+pub(crate) fn group() -> impl Strategy<Value = Group> {
     (
         prop::collection::vec(ent(), 2..=5),
         any::<bool>(),
@@ -162,7 +162,7 @@ fn ledgers(g: &Group) -> Vec<(Rows, Rows)> {
     out
 }
 
-fn write(g: &Group) -> Folder {
+pub(crate) fn write(g: &Group) -> Folder {
     let f = Folder::empty();
     f.write("entities/group.toml", &settings("EUR", "E0", "half_away_from_zero", "periodic"));
     f.write("entities/accounts.csv", CHART);

@@ -30,6 +30,7 @@ const CASES: &[Case] = &[
     ("close-ytd-json", &["close", "--period", PERIOD, "--out", "OUT", "--format", "json"], &["/"]),
     ("close-month", &["close", "--period", PERIOD, "--view", "month", "--out", "OUT"], TRANSLATED),
     ("close-quarter", &["close", "--period", PERIOD, "--view", "qtd", "--out", "OUT"], TRANSLATED),
+    ("close-compare-budget", &["close", "--period", PERIOD, "--out", "OUT", "--compare", "budget"], TRANSLATED),
     ("close-subgroup", &["close", "--period", PERIOD, "--entity", "ALD-US", "--out", "OUT"], TRANSLATED),
     ("segments-business", &["segments", "--period", PERIOD, "--by", "business", "--out", "OUT"], &[]),
     ("segments-geography", &["segments", "--period", PERIOD, "--by", "geography", "--format", "json"], &[]),

@@ -46,10 +46,10 @@ impl Folder {
         Self { dir: tempfile::tempdir().expect("temp dir") }
     }
 
-    /// A copy of the bundled demo group.
+    /// A copy of the bundled demo group (its plans included).
     pub fn demo() -> Self {
         let f = Self::empty();
-        for sub in ["entities", "rates"] {
+        for sub in ["entities", "rates", "plans"] {
             copy_dir(&repo().join(sub), &f.path().join(sub));
         }
         f

@@ -1,0 +1,267 @@
+//! Rule `change_in_stake`: more or less of a subsidiary bought or sold with control kept
+//! (IFRS 10.23, B96): an equity transaction. No goodwill changes, no gain or loss; the
+//! NCI is adjusted to its new share and the difference from the consideration goes to
+//! the owners' equity.
+//!
+//! The rest of the close measures the subsidiary with the shares at the period end: the
+//! investment entry takes its NCI at acquisition at today's outside share (so goodwill
+//! moves with it) and leaves the consideration of the change in its residual, the
+//! translation reserve; the NCI rule shares all post-acquisition equity at today's NCI.
+//! Under NCI at its share of net assets the NCI balance that gives is the right one
+//! (its new share of the net assets); this rule puts the rest right:
+//!
+//! - goodwill back to its amount at acquisition (NCI at acquisition at the outside
+//!   share of the acquisition date, IFRS 3.19, 3.32);
+//! - the consideration out of the translation reserve, and the holder's own gain on
+//!   shares sold out of profit or loss;
+//! - the balance to retained earnings: the owners' side of the transaction
+//!   (consideration less the NCI's carrying amount transferred, B96) and the NCI's
+//!   share of the results before the change that the period-end share gave the owners;
+//! - the NCI row: the NCI's share of profit at the old share to the last month end
+//!   before the change (month granularity, as for a sale: `ownership`), at the new one
+//!   after.
+//!
+//! Which changes reach here (one currency, one holder, partial goodwill, no
+//! intercompany items) is decided by `ownership`; the rest is blocking.
+
+use polars::prelude::*;
+use rust_decimal::Decimal;
+
+use super::context::Context;
+use super::investment::Investments;
+use super::journal::{EliminationRule, Journal, line};
+use super::{Close, NciRow};
+use crate::load::Dataset;
+use crate::model::*;
+use crate::money;
+use crate::translate::Translated;
+
+/// The subsidiary before the change, as the close at the last month end at the old
+/// share shows it.
+pub struct Before<'a> {
+    pub change: &'a OwnershipChange,
+    pub last_month: Period,
+    /// The NCI share then.
+    pub nci_share: Decimal,
+    /// Its net assets in the group then (equity and the year's result, credit positive).
+    pub net_assets: Decimal,
+    /// Its profit and OCI of the year to then, credit positive.
+    pub profit: Decimal,
+    pub oci: Decimal,
+    /// The holder's investment in it then.
+    pub investment: Decimal,
+}
+
+/// What a change in stake did, for the statement of changes in equity.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct StakeChange {
+    pub entity: EntityId,
+    pub date: chrono::NaiveDate,
+    /// The NCI's carrying amount transferred to the owners (negative when the NCI grows).
+    pub nci_transferred: Decimal,
+    /// The consideration: paid negative, received positive.
+    pub cash: Decimal,
+}
+
+/// Runs the close at the last month end before the change, on the structure of that day.
+pub fn before<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> PolarsResult<Before<'a>> {
+    let last_month = crate::ownership::last_controlled_month(change.date);
+    let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+    let (s, _) = crate::structure::build(
+        &ids,
+        &ds.holdings,
+        &ds.settings.parent,
+        last_month.last_day(),
+        ds.settings.policies.significant_influence,
+    );
+    let nci_share = s.entity(&change.owned).map(|e| e.nci).unwrap_or_default();
+    let then: Close = super::close_at(ds, t, &s, last_month)?;
+    let e = &change.owned;
+    let chart: std::collections::BTreeMap<&GroupAccount, &AccountDef> =
+        ds.accounts.iter().map(|a| (&a.account, a)).collect();
+    let statement = |a: &GroupAccount| chart.get(a).map(|d| (d.statement, d.class));
+    let own = super::aggregate::balances(&then.contributions)?.remove(e).unwrap_or_default();
+    let mut b = Before {
+        change,
+        last_month,
+        nci_share,
+        net_assets: Decimal::ZERO,
+        profit: Decimal::ZERO,
+        oci: Decimal::ZERO,
+        investment: Decimal::ZERO,
+    };
+    let mut add = |a: &GroupAccount, v: Decimal| match statement(a) {
+        Some((Statement::ProfitOrLoss, _)) => b.profit -= v,
+        Some((Statement::Oci, _)) => b.oci -= v,
+        _ => {}
+    };
+    for ((a, _), v) in &own {
+        add(a, *v);
+    }
+    // Results before control are not the group's (IFRS 10.B88).
+    for x in then.journal.iter().filter(|x| x.rule == EliminationRule::PreAcquisitionResults) {
+        for l in x.lines.iter().filter(|l| &l.entity == e) {
+            add(&l.account, l.amount);
+        }
+    }
+    b.net_assets = -own
+        .iter()
+        .filter(|((a, _), _)| {
+            statement(a).is_some_and(|(st, c)| st != Statement::BalanceSheet || c == AccountClass::Equity)
+        })
+        .map(|(_, v)| *v)
+        .sum::<Decimal>();
+    b.investment = super::aggregate::balances(&then.contributions)?
+        .remove(&change.holder)
+        .unwrap_or_default()
+        .iter()
+        .filter(|((a, cp), _)| {
+            cp.as_ref() == Some(e) && chart.get(a).and_then(|d| d.ic_kind.as_deref()) == Some("investment")
+        })
+        .map(|(_, v)| *v)
+        .sum();
+    Ok(b)
+}
+
+/// Posts the entry of one change in stake and corrects the subsidiary's NCI row.
+pub fn post(
+    j: &mut Journal,
+    cx: &Context,
+    acquisitions: &[Acquisition],
+    holdings: &[Holding],
+    b: &Before,
+    invest: &Investments,
+    nci: &mut Vec<NciRow>,
+) -> Option<StakeChange> {
+    let c = b.change;
+    let (e, holder) = (&c.owned, &c.holder);
+    let s = cx.structure.entity(e)?;
+    let a = acquisitions.iter().rfind(|a| &a.owned == e && a.date < c.date)?;
+    let outside_at_acquisition = Decimal::ONE - crate::ownership::capital_share_on(holdings, holder, e, a.date);
+    let outside_now = Decimal::ONE - s.group_capital;
+    // One currency: the functional amounts are the presentation amounts.
+    let goodwill = cx.round((outside_at_acquisition - outside_now) * a.net_assets);
+    let investment_now: Decimal =
+        invest.get(e).into_iter().flatten().filter(|(h, _, _)| h == holder).map(|(_, _, x)| *x).sum();
+    let investment_change = investment_now - b.investment;
+    let cash = if c.share.is_sign_negative() { c.consideration } else { -c.consideration };
+    // The holder's own gain on shares sold: the proceeds less the investment's carrying
+    // amount sold (nothing for a purchase, whose price the investment carries).
+    let own_gain = cash + investment_change;
+    let nci_transferred = cx.round((b.nci_share - s.nci) * b.net_assets);
+    let mut lines = vec![
+        line(&cx.roles.goodwill, e, None, goodwill),
+        line(&cx.roles.translation_reserve, e, None, -investment_change),
+    ];
+    if let Some(acct) = &c.gain_account {
+        lines.push(line(acct, holder, Some(e), own_gain));
+    }
+    let rest: Decimal = lines.iter().map(|l| l.amount).sum();
+    lines.push(line(&cx.roles.retained_earnings, e, None, -rest));
+    j.post(
+        EliminationRule::ChangeInStake,
+        holder.clone(),
+        vec![holder.clone(), e.clone()],
+        format!(
+            "{holder} {} {} of {e} on {} for {}, control kept (IFRS 10.23, B96): NCI {} -> {}, its carrying amount {} transferred; goodwill at acquisition kept",
+            if c.share.is_sign_negative() { "sells" } else { "buys" },
+            c.share.abs().normalize(),
+            c.date,
+            money::format_amount(c.consideration, cx.minor),
+            b.nci_share.normalize(),
+            s.nci.normalize(),
+            money::format_amount(nci_transferred, cx.minor)
+        ),
+        lines,
+    );
+    // The NCI's share of the results to the last month end at the old share.
+    let extra_profit = cx.round((b.nci_share - s.nci) * b.profit);
+    let extra_oci = cx.round((b.nci_share - s.nci) * b.oci);
+    match nci.iter_mut().find(|r| &r.entity == e) {
+        Some(r) => {
+            r.profit += extra_profit;
+            r.oci += extra_oci;
+        }
+        None => nci.push(NciRow {
+            entity: e.clone(),
+            nci_share: s.nci,
+            profit: extra_profit,
+            oci: extra_oci,
+            equity: Decimal::ZERO,
+        }),
+    }
+    Some(StakeChange { entity: e.clone(), date: c.date, nci_transferred, cash })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::context::fixture::*;
+    use super::super::investment;
+    use super::*;
+
+    /// P bought 80% of S in 2021 for 400 (net assets 400, NCI at its share 80, goodwill
+    /// 80) and buys 10% more on 1 March 2026 for 90, when S's net assets are 700 and its
+    /// profit of the year 100. At the period end the investment entry took the NCI at
+    /// acquisition at 10% (goodwill 40) and left the 90 in the reserve. The entry: goodwill
+    /// +40 (back to 80), reserve -90, retained earnings +50 (the owners paid 90 for a
+    /// carrying amount of 70: 20; and 10% of the 300 earned before the change that the
+    /// period-end share gave them: 30). The NCI row gains 10% of the 100 made to February.
+    #[test]
+    fn goodwill_kept_the_consideration_to_equity_and_the_ncis_earlier_share() {
+        let mut before_change = holding("P", "S", "0.8", "2021-01-01");
+        before_change.valid_to = chrono::NaiveDate::from_ymd_opt(2026, 2, 28);
+        let holdings = vec![before_change, holding("P", "S", "0.9", "2026-03-01")];
+        let w = World::new(&["P", "S"], &holdings, p("2026-03"));
+        let cx = w.context(p("2026-03"), p("2026-01"), balances(&[("P", "1200", Some("S"), "490")]));
+        let invest = investment::investments(&cx);
+        let change = OwnershipChange {
+            date: chrono::NaiveDate::from_ymd_opt(2026, 3, 1).unwrap_or_default(),
+            holder: id("P"),
+            owned: id("S"),
+            share: d("0.1"),
+            consideration: d("90"),
+            fair_value_held: None,
+            costs: Decimal::ZERO,
+            gain_account: None,
+            note: String::new(),
+            source: Source::file("entities/ownership_changes.csv"),
+        };
+        let a = Acquisition {
+            owned: id("S"),
+            date: chrono::NaiveDate::from_ymd_opt(2021, 1, 1).unwrap_or_default(),
+            consideration: d("400"),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d("400"),
+            net_assets_presentation: d("400"),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::file("entities/acquisitions.csv"),
+        };
+        let b = Before {
+            change: &change,
+            last_month: p("2026-02"),
+            nci_share: d("0.2"),
+            net_assets: d("700"),
+            profit: d("100"),
+            oci: Decimal::ZERO,
+            investment: d("400"),
+        };
+        let mut nci =
+            vec![NciRow { entity: id("S"), nci_share: d("0.1"), profit: d("20"), oci: Decimal::ZERO, equity: d("80") }];
+        let mut j = Journal::default();
+        let done = post(&mut j, &cx, &[a], &holdings, &b, &invest, &mut nci);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1100".into(), "S".into(), "40".into()),
+                ("3300".into(), "S".into(), "-90".into()),
+                ("3200".into(), "S".into(), "50".into())
+            ]
+        );
+        assert_eq!(nci[0].profit, d("30"));
+        assert_eq!(done.map(|x| (x.nci_transferred, x.cash)), Some((d("70"), d("-90"))));
+    }
+}

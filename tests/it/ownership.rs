@@ -1,0 +1,439 @@
+//! Changes in ownership (`ownership_changes.csv`): what the close expresses (control
+//! obtained in stages, a loss of control, a change in stake; the case folders under
+//! tests/cases/ hold the worked figures) and what it refuses with a blocking finding
+//! rather than a wrong figure: a holding that ends without a row, a row holdings.csv
+//! contradicts, a change with what the rules do not handle yet. A property test sells a
+//! random subsidiary on a random day and checks the close against the sale worked
+//! naively from IFRS 10.25, B98.
+
+use std::path::Path;
+
+use proptest::prelude::Strategy;
+use proptest::strategy::Just;
+use serde_json::Value;
+
+use crate::support::{Folder, repo, run_json};
+
+const HOLDINGS: &str = "entities/holdings.csv";
+const CHANGES: &str = "entities/ownership_changes.csv";
+const HEADER: &str = "date,holder,owned,share,consideration,fair_value_held,costs,gain_account,note";
+
+fn check(f: &Folder, period: &str) -> (i32, Vec<Value>) {
+    let (code, v) = run_json(f.path(), &["check", "--period", period]);
+    (code, v["findings"].as_array().expect("findings").clone())
+}
+
+fn of_rule<'a>(findings: &'a [Value], rule: &str) -> Vec<&'a Value> {
+    findings.iter().filter(|f| f["rule"] == rule).collect()
+}
+
+fn copy_tree(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).expect("mkdir");
+    for e in std::fs::read_dir(from).expect("read dir") {
+        let p = e.expect("entry").path();
+        let target = to.join(p.file_name().expect("name"));
+        if p.is_dir() {
+            copy_tree(&p, &target);
+        } else {
+            std::fs::copy(&p, &target).expect("copy");
+        }
+    }
+}
+
+/// A copy of the step acquisition case folder.
+fn step_case() -> Folder {
+    let f = Folder::empty();
+    for sub in ["entities", "rates"] {
+        copy_tree(&repo().join("tests/cases/step-acquisition-investment").join(sub), &f.path().join(sub));
+    }
+    f
+}
+
+/// The demo sells NRD-SE on 1 July 2026 (the holding ends on 30 June). Without a row
+/// the close would drop NRD-SE for the whole year: blocking, at the holding's line.
+/// With the row, the loss of control is refused as not expressed yet, never closed.
+#[test]
+fn a_holding_that_ends_in_the_year_needs_a_row_and_a_loss_of_control_blocks() {
+    let f = Folder::demo();
+    f.replace(HOLDINGS, "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,,", "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,2026-06-30,");
+    let line = f.line_of(HOLDINGS, "ALD-NL,NRD-SE");
+    let (code, fs) = check(&f, "2026-12");
+    assert_eq!(code, 1);
+    let missing = of_rule(&fs, "OwnershipChangeMissing");
+    assert_eq!(missing.len(), 1, "{fs:#?}");
+    assert_eq!((missing[0]["file"].as_str(), missing[0]["line"].as_u64()), (Some(HOLDINGS), Some(line)));
+    assert_eq!(missing[0]["severity"], "blocking");
+    assert!(missing[0]["message"].as_str().unwrap().contains("2026-07-01"), "{:#}", missing[0]);
+    // Before the sale (June) nothing has ended yet.
+    let (_, june) = check(&f, "2026-06");
+    assert!(of_rule(&june, "OwnershipChangeMissing").is_empty(), "{june:#?}");
+
+    f.write(CHANGES, &format!("{HEADER}\n2026-07-01,ALD-NL,NRD-SE,-1.00,5000000,,,,sold\n"));
+    let (code, fs) = check(&f, "2026-12");
+    assert_eq!(code, 1);
+    assert!(of_rule(&fs, "OwnershipChangeMissing").is_empty(), "{fs:#?}");
+    // NRD-SE trades with the group and the demo has a statement of cash flows: what
+    // the derecognition does not handle yet is each named, at the row.
+    let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(unsupported.len(), 2, "{fs:#?}");
+    for why in ["intercompany items of NRD-SE", "statement of cash flows"] {
+        let x = unsupported.iter().find(|x| x["message"].as_str().unwrap().contains(why)).expect(why);
+        assert_eq!((x["file"].as_str(), x["line"].as_u64()), (Some(CHANGES), Some(2)));
+        assert!(x["message"].as_str().unwrap().contains("loss of control (IFRS 10.25"), "{x:#}");
+    }
+    // And the row lacks the account for the gain.
+    assert_eq!(of_rule(&fs, "ValueMissing").len(), 1, "{fs:#?}");
+    // The close refuses it too.
+    let out = tempfile::tempdir().unwrap();
+    let (code, _) = run_json(f.path(), &["close", "--period", "2026-12", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 1);
+}
+
+/// ALD-NL buys 10% more of ALD-US (80% to 90%) on 1 July 2026: control kept, an equity
+/// transaction (IFRS 10.23) the close does not post yet, so it blocks. A `share` that
+/// holdings.csv does not give is inconsistent, with both shares.
+#[test]
+fn a_change_in_stake_blocks_and_a_share_holdings_contradict_is_inconsistent() {
+    let f = Folder::demo();
+    f.replace(
+        HOLDINGS,
+        "ALD-NL,ALD-US,0.80,0.80,2015-01-01,,,,",
+        "ALD-NL,ALD-US,0.80,0.80,2015-01-01,2026-06-30,,,\nALD-NL,ALD-US,0.90,0.90,2026-07-01,,,,",
+    );
+    f.write(CHANGES, &format!("{HEADER}\n2026-07-01,ALD-NL,ALD-US,0.10,2500000,,,,\n"));
+    let (code, fs) = check(&f, "2026-12");
+    assert_eq!(code, 1);
+    // ALD-US holds BRW-US, trades with the group, keeps its books in USD, and the demo
+    // has a statement of cash flows, and its goodwill of 0 at 80% would be negative at
+    // 90%: each is a reason the change is not expressed yet.
+    let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
+    for why in ["multi-tier NCI", "intercompany items of ALD-US", "IAS 21.48C", "IAS 7.42A", "bargain purchase"] {
+        let x = unsupported.iter().find(|x| x["message"].as_str().unwrap().contains(why)).expect(why);
+        assert!(x["message"].as_str().unwrap().contains("without loss of control"), "{x:#}");
+    }
+    assert_eq!(unsupported.len(), 5, "{fs:#?}");
+    assert!(of_rule(&fs, "OwnershipChangeInconsistent").is_empty(), "{fs:#?}");
+
+    f.write(CHANGES, &format!("{HEADER}\n2026-07-01,ALD-NL,ALD-US,0.15,2500000,,,,\n"));
+    let (_, fs) = check(&f, "2026-12");
+    let x = of_rule(&fs, "OwnershipChangeInconsistent");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("0.9 - 0.8 = 0.1"), "{:#}", x[0]);
+}
+
+/// Control obtained in stages closes with the remeasurement gain in profit or loss
+/// (the case folder's figures are checked by `close::case_folders_...`). Without the
+/// row, the gain would sit in the translation reserve: blocking. With an associate
+/// held before (30%), IAS 28.22 is not posted: blocking.
+#[test]
+fn control_in_stages_needs_the_fair_value_held_and_an_investment_before() {
+    let f = step_case();
+    let (code, fs) = check(&f, "2026-01");
+    assert_eq!(code, 0, "{fs:#?}");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let entries: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "step_acquisition").collect();
+    assert_eq!(entries.len(), 1, "{:#}", v["eliminations"]);
+
+    f.remove(CHANGES);
+    let (code, fs) = check(&f, "2026-01");
+    assert_eq!(code, 1);
+    // Both the 10% holding that ended and the control obtained over a held entity.
+    let mut missing: Vec<(&str, u64)> = of_rule(&fs, "OwnershipChangeMissing")
+        .iter()
+        .map(|x| (x["file"].as_str().unwrap(), x["line"].as_u64().unwrap()))
+        .collect();
+    missing.sort();
+    assert_eq!(missing, [("entities/acquisitions.csv", 2), (HOLDINGS, 2)], "{fs:#?}");
+
+    let f = step_case();
+    f.replace(HOLDINGS, "P,S,0.1,0.1,2020-01-01,2025-12-31", "P,S,0.3,0.3,2020-01-01,2025-12-31");
+    f.replace(CHANGES, "2026-01-01,P,S,0.6,", "2026-01-01,P,S,0.4,");
+    let (code, fs) = check(&f, "2026-01");
+    assert_eq!(code, 1);
+    let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(unsupported.len(), 1, "{fs:#?}");
+    assert!(unsupported[0]["message"].as_str().unwrap().contains("IAS 28.22"), "{:#}", unsupported[0]);
+}
+
+/// A copy of a case folder.
+fn case(name: &str) -> Folder {
+    let f = Folder::empty();
+    for sub in ["entities", "rates"] {
+        copy_tree(&repo().join("tests/cases").join(name).join(sub), &f.path().join(sub));
+    }
+    f
+}
+
+fn amount(v: &Value) -> rust_decimal::Decimal {
+    v.as_str().and_then(|s| s.parse().ok()).unwrap_or_else(|| panic!("not a decimal: {v}"))
+}
+
+/// The month of the sale of the foreign operation (tests/cases/loss-of-control-foreign-
+/// operation, worked in its SOURCE.md): March closed S consolidated; April holds only
+/// the disposal: the gain 80 + reclassified reserve 48 in profit, the reclassification
+/// -48 in OCI (IAS 1.92-93), nothing attributable to the NCI, and the disposal row of
+/// the statement of changes in equity.
+#[test]
+fn the_month_of_a_sale_shows_the_gain_and_the_reclassification() {
+    let f = case("loss-of-control-foreign-operation");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) =
+        run_json(f.path(), &["close", "--period", "2026-04", "--view", "month", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    assert_eq!(v["proof"]["tied"], true, "{:#}", v["proof"]);
+    let a = &v["attribution"];
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    assert_eq!(
+        [amount(&a["profit"]), amount(&a["profit_nci"]), amount(&a["oci"]), amount(&a["oci_nci"])],
+        [d("128"), d("0"), d("-48"), d("0")],
+        "{a:#}"
+    );
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    let disposals = rows.iter().find(|r| r["row"] == "disposals").expect("a disposals row");
+    assert_eq!(amount(&disposals["amounts"]["NCI"]), d("-180"), "{disposals:#}");
+    let entries: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "loss_of_control").collect();
+    assert_eq!(entries.len(), 1, "{:#}", v["eliminations"]);
+
+    // The trace of the gain: P's own gain of 400 and the entry's lines, reconciled.
+    let (code, text) =
+        crate::support::run(&["trace", "--data", f.path().to_str().unwrap(), "--period", "2026-04", "4700"]);
+    assert_eq!(code, 0, "{text}");
+    assert!(text.contains("loss_of_control") && text.contains("(128.00)") && text.contains("reconciles"), "{text}");
+
+    // March, before the sale: S consolidated as usual, no disposal row.
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    assert!(rows.iter().all(|r| r["row"] != "disposals"), "{rows:#?}");
+    assert!(v["eliminations"].as_array().unwrap().iter().all(|e| e["rule"] != "loss_of_control"));
+}
+
+/// Without `fair_value_held` for the 10% kept, the sale of T (tests/cases/loss-of-
+/// control-retained-interest) blocks; with an associate kept (30%), the equity method's
+/// cost at fair value is not posted yet: blocking too.
+#[test]
+fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
+    let f = case("loss-of-control-retained-interest");
+    f.replace(CHANGES, ",700,100,,4700,", ",700,,,4700,");
+    let (code, fs) = check(&f, "2026-03");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "ValueMissing");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("keeps 0.1 of T"), "{:#}", x[0]);
+
+    let f = case("loss-of-control-retained-interest");
+    f.replace(HOLDINGS, "P,T,0.1,0.1,2026-03-15,", "P,T,0.3,0.3,2026-03-15,");
+    f.replace(CHANGES, "2026-03-15,P,T,-0.7,", "2026-03-15,P,T,-0.5,");
+    let (code, fs) = check(&f, "2026-03");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("method equity"), "{:#}", x[0]);
+}
+
+/// The purchase case turned into a sale (worked by hand like its SOURCE.md): P sells
+/// 10% of S for 100 on 1 March, keeping 70% and control. P's own books show a gain of
+/// 100 - 50 (10/80 of its cost 400): in the group no profit or loss (IFRS 10.23); the
+/// NCI grows by its carrying amount 10% x 700 = 70, the owners' equity by 100 - 70 = 30;
+/// goodwill stays 80; the NCI takes 20% of January and February (100) and 30% of March
+/// (100): 50; NCI at 31 March 30% x 800 = 240.
+#[test]
+fn a_stake_sold_with_control_kept_is_an_equity_transaction() {
+    let f = case("change-in-stake-purchase");
+    f.replace(HOLDINGS, "P,S,0.9,0.9,2026-03-01,", "P,S,0.7,0.7,2026-03-01,");
+    f.replace(CHANGES, "2026-03-01,P,S,0.1,90,,,,", "2026-03-01,P,S,-0.1,100,,,4700,");
+    f.replace(
+        "entities/P/tb-2026.movements.csv",
+        "2026-03,1000,-90,\n2026-03,1400,90,S\n",
+        "2026-03,1000,100,\n2026-03,1400,-50,S\n2026-03,4700,-50,\n",
+    );
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let tb = |a: &str| {
+        v["group_trial_balance"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["account"] == a)
+            .map(|r| amount(&r["amount"]))
+            .unwrap_or_default()
+    };
+    assert_eq!([tb("1100"), tb("3900"), tb("4700"), tb("3300")], [d("80"), d("-240"), d("0"), d("0")]);
+    let a = &v["attribution"];
+    assert_eq!([amount(&a["profit_nci"]), amount(&a["profit_owners"])], [d("50"), d("150")], "{a:#}");
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    let row = |id: &str| rows.iter().find(|r| r["row"] == id).unwrap_or_else(|| panic!("no row {id}"));
+    let t = &row("transactions_with_nci")["amounts"];
+    assert_eq!(
+        [amount(&t["RE"]), amount(&t["NCI"]), amount(&t["total_equity"])],
+        [d("30"), d("70"), d("100")],
+        "{t:#}"
+    );
+    let o = &row("other")["amounts"];
+    assert_eq!(amount(&o["total_equity"]), d("0"), "{o:#}");
+}
+
+/// A random sale of a subsidiary in one currency, for the property test below.
+#[derive(Debug, Clone)]
+struct Sale {
+    /// P's percentage of S, 51..=100.
+    share: u32,
+    /// The percentage P keeps (an investment: below 20 and below `share`).
+    kept: u32,
+    /// S's share capital (whole units) and retained earnings brought forward (cents).
+    capital: i64,
+    retained: i64,
+    goodwill: i64,
+    /// S's revenue (all in cash) of January to June, cents.
+    revenue: [i64; 6],
+    /// The sale's month (2..=6) and day (1..=28), proceeds and fair value kept, cents.
+    month: u32,
+    day: u32,
+    proceeds: i64,
+    fair_value: i64,
+}
+
+fn sale() -> impl Strategy<Value = Sale> {
+    (51u32..=100, 0u32..20, 100i64..10_000, 0i64..500_000, 0i64..100_000)
+        .prop_flat_map(|(share, kept, capital, retained, goodwill)| {
+            (
+                Just((share, kept.min(share - 1), capital, retained, goodwill)),
+                proptest::array::uniform6(0i64..100_000),
+                (2u32..=6, 1u32..=28, 0i64..10_000_000, 0i64..1_000_000),
+            )
+        })
+        .prop_map(|((share, kept, capital, retained, goodwill), revenue, (month, day, proceeds, fair_value))| Sale {
+            share,
+            kept,
+            capital,
+            retained,
+            goodwill,
+            revenue,
+            month,
+            day,
+            proceeds,
+            fair_value: if kept == 0 { 0 } else { fair_value },
+        })
+}
+
+fn cents(c: i64) -> rust_decimal::Decimal {
+    rust_decimal::Decimal::new(c, 2)
+}
+
+fn round2(x: rust_decimal::Decimal) -> rust_decimal::Decimal {
+    x.round_dp_with_strategy(2, rust_decimal::RoundingStrategy::MidpointAwayFromZero)
+}
+
+/// The data folder of a sale: P holds `share`% of S since 2020 (NCI at its share of net
+/// assets), sells on the day, books the proceeds, the investment's cost sold and its own
+/// gain on 4700, keeps `kept`%.
+fn write_sale(x: &Sale) -> Folder {
+    use crate::support::{CHART, LAYOUT, identity_mapping, settings};
+    let f = Folder::empty();
+    f.write("entities/group.toml", &settings("EUR", "P", "half_away_from_zero", "periodic"));
+    f.write("entities/accounts.csv", &format!("{CHART}4700,Gains on interests,profit_or_loss,income,average,,\n"));
+    f.write("entities/layouts.csv", &LAYOUT.replace("4000..4299,", "4000..4299 4700,"));
+    f.write("rates/monthly.csv", "period,currency,closing,average,quote\n");
+    f.write("entities/entities.csv", "entity,name,country,currency\nP,P NV,NL,EUR\nS,S BV,NL,EUR\n");
+    let share = rust_decimal::Decimal::new(x.share as i64, 2);
+    let kept = rust_decimal::Decimal::new(x.kept as i64, 2);
+    let date = format!("2026-{:02}-{:02}", x.month, x.day);
+    let day_before = chrono::NaiveDate::parse_from_str(&date, "%Y-%m-%d").unwrap().pred_opt().unwrap();
+    let mut holdings = format!(
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,S,{share},{share},2020-01-01,{day_before}\n"
+    );
+    if x.kept > 0 {
+        holdings.push_str(&format!("P,S,{kept},{kept},{date},\n"));
+    }
+    f.write("entities/holdings.csv", &holdings);
+    let capital = rust_decimal::Decimal::from(x.capital);
+    let cost = share * capital + cents(x.goodwill);
+    f.write(
+        "entities/acquisitions.csv",
+        &format!("owned,date,consideration,nci_measurement,nci_fair_value,net_assets,net_assets_presentation,impairment\nS,2020-01-01,{cost},share_of_net_assets,,{capital},{capital},0\n"),
+    );
+    let fair_value = if x.kept > 0 { cents(x.fair_value).to_string() } else { String::new() };
+    f.write(
+        "entities/ownership_changes.csv",
+        &format!("{HEADER}\n{date},P,S,-{},{},{fair_value},,4700,\n", share - kept, cents(x.proceeds)),
+    );
+    let kept_cost = round2(cost * kept / share);
+    f.write(
+        "entities/P/opening.csv",
+        &format!("account,amount,counterparty,amount_presentation\n1400,{cost},S,\n3000,-{cost},,-{cost}\n"),
+    );
+    let mut p = String::from("period,account,amount,counterparty\n");
+    for m in 1..=6 {
+        if m == x.month {
+            let gain = cents(x.proceeds) - (cost - kept_cost);
+            p.push_str(&format!(
+                "2026-{m:02},1000,{},\n2026-{m:02},1400,{},S\n2026-{m:02},4700,{},\n",
+                cents(x.proceeds),
+                kept_cost - cost,
+                -gain
+            ));
+        } else {
+            p.push_str(&format!("2026-{m:02},1000,0,\n"));
+        }
+    }
+    f.write("entities/P/tb-2026.movements.csv", &p);
+    let retained = cents(x.retained);
+    f.write(
+        "entities/S/opening.csv",
+        &format!(
+            "account,amount,counterparty,amount_presentation\n1000,{},,\n3000,-{capital},,-{capital}\n3200,{},,{}\n",
+            capital + retained,
+            -retained,
+            -retained
+        ),
+    );
+    let mut s = String::from("period,account,amount,counterparty\n");
+    for (i, r) in x.revenue.iter().enumerate() {
+        s.push_str(&format!("2026-{:02},1000,{},\n2026-{:02},4000,{},\n", i + 1, cents(*r), i + 1, -cents(*r)));
+    }
+    f.write("entities/S/tb-2026.movements.csv", &s);
+    for e in ["P", "S"] {
+        f.write(&format!("entities/{e}/mapping.csv"), &format!("{}4700,,4700\n", identity_mapping()));
+    }
+    f
+}
+
+proptest::proptest! {
+    #![proptest_config(proptest::prelude::ProptestConfig { cases: 12, ..proptest::prelude::ProptestConfig::default() })]
+
+    /// The close at June of a group that sold a subsidiary between February and June,
+    /// against the sale worked naively from IFRS 10.25, B98: S's results count to the
+    /// month end before the month of the sale (any day of it); the gain is proceeds +
+    /// fair value kept + NCI - net assets - goodwill; nothing of S is left but the
+    /// interest kept, at its fair value; the NCI took its share of S's results to then.
+    #[test]
+    fn a_random_sale_agrees_with_the_standard_worked_naively(x in sale()) {
+        let f = write_sale(&x);
+        let out = f.path().join("out");
+        let (code, v) = run_json(f.path(), &["close", "--period", "2026-06", "--out", out.to_str().unwrap()]);
+        proptest::prop_assert_eq!(code, 0, "{:#}", v["findings"]);
+        proptest::prop_assert_eq!(&v["proof"]["tied"], &Value::Bool(true), "{:#}", v["proof"]);
+        let share = rust_decimal::Decimal::new(x.share as i64, 2);
+        let outside = rust_decimal::Decimal::ONE - share;
+        let capital = rust_decimal::Decimal::from(x.capital);
+        let revenue_to_then: rust_decimal::Decimal = x.revenue[..(x.month as usize - 1)].iter().map(|r| cents(*r)).sum();
+        let net_assets = capital + cents(x.retained) + revenue_to_then;
+        let nci = outside * capital + round2(outside * (cents(x.retained) + revenue_to_then));
+        let gain = cents(x.proceeds) + cents(x.fair_value) + nci - net_assets - cents(x.goodwill);
+        let tb = |a: &str| -> rust_decimal::Decimal {
+            v["group_trial_balance"].as_array().unwrap().iter().find(|r| r["account"] == a).map(|r| amount(&r["amount"])).unwrap_or_default()
+        };
+        proptest::prop_assert_eq!(tb("4700"), -gain, "{:?}", x);
+        proptest::prop_assert_eq!(tb("4000"), -revenue_to_then);
+        proptest::prop_assert_eq!(tb("1000"), cents(x.proceeds));
+        proptest::prop_assert_eq!(tb("1400"), cents(x.fair_value));
+        proptest::prop_assert_eq!([tb("1100"), tb("3900"), tb("3300")], [rust_decimal::Decimal::ZERO; 3]);
+        proptest::prop_assert_eq!(amount(&v["attribution"]["profit_nci"]), round2(outside * revenue_to_then));
+    }
+}
