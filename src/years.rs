@@ -73,6 +73,16 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
     };
     ds.holdings.retain(|h| !later(h.valid_from));
     ds.acquisitions.retain(|a| !later(a.date));
+    ds.ownership_changes.retain(|c| !later(c.date));
+    ds.impairments.retain(|i| !later(i.period.first_day()));
+    // The fair value adjustments of an acquisition of a later year go with it.
+    let acquired_later: BTreeSet<&EntityId> = full
+        .acquisitions
+        .iter()
+        .filter(|a| later(a.date) && !ds.acquisitions.iter().any(|b| b.owned == a.owned))
+        .map(|a| &a.owned)
+        .collect();
+    ds.uplifts.retain(|u| !acquired_later.contains(&u.owned));
     // A top-side entry belongs to the year of its month (its first row's, so that an
     // entry whose rows disagree stays whole for validation to name): entries of another
     // year the folder holds are that year's.
