@@ -723,6 +723,24 @@ fn comparatives(
     let ob = c.opening_balances()?;
     let ds = &c.checked.ds;
     checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &ds.accounts, &ds.settings.accounts));
+    // The comparatives are only as good as the prior year's close: a blocking finding of
+    // its rules (an acquisition missing, say) fails the proof rather than passing unseen.
+    let blocking: Vec<String> = prior
+        .close
+        .findings
+        .iter()
+        .filter(|f| f.severity >= crate::findings::Severity::Blocking)
+        .map(|f| format!("{}: {}", f.rule, f.message))
+        .collect();
+    checks.push(crate::proof::Check::new(
+        "prior_year_close_has_no_blocking_findings",
+        blocking.is_empty(),
+        if blocking.is_empty() {
+            format!("the close of {} that the comparatives come from raises no blocking finding", prior.period())
+        } else {
+            blocking.join("; ")
+        },
+    ));
     let figures = prior.figures();
     for st in &c.checked.statements {
         let flows = st.statement == "profit_or_loss" || st.statement == "oci";

@@ -65,6 +65,8 @@ fn the_demo_2025_close_is_the_2026_opening_to_the_cent() {
     assert_eq!(code, 0, "{}", v["proof"]);
     let c = check(&v, "opening_is_prior_year_closing");
     assert_eq!(c["ok"], true, "{c}");
+    let c = check(&v, "prior_year_close_has_no_blocking_findings");
+    assert_eq!(c["ok"], true, "{c}");
     // Every entity but GLF-BH (acquired in 2026) delivered its 2026 opening beside the
     // 2025 trial balances, and each equals the 2025 close carried.
     assert!(findings_of(&v, "OpeningDiffersFromPriorClose").is_empty(), "{}", v["findings"]);
