@@ -108,7 +108,7 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
     Ok(exit_code(&findings))
 }
 
-/// The findings of every plan of the data folder (`plans/`), as `close --compare` would
+/// The findings of every plan of the data folder (`entities/plans/`), as `close --compare` would
 /// raise them, so that `check` lists them without closing.
 fn plan_findings(c: &Checked) -> Result<Vec<crate::findings::Finding>, Error> {
     let mut f = Vec::new();
@@ -784,7 +784,8 @@ fn compared(
     let mut f = Vec::new();
     let closed = match source {
         Source::PriorYear => {
-            f.extend(crate::compare::prior_year_findings(ds, scope.fiscal_start));
+            // The whole folder: the year closed's own dataset holds no other year.
+            f.extend(crate::compare::prior_year_findings(&c.checked.full, scope.fiscal_start));
             None
         }
         Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {

@@ -390,6 +390,11 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
             c.owned
         ));
     }
+    if uses_other_reserves(ds, &c.owned) {
+        why.push(
+            "it has OCI in a reserve other than the translation reserve (IFRS 10.B99 transfer not posted yet)".into(),
+        );
+    }
     if ds.cash_flow_lines.is_some() {
         why.push("the statement of cash flows has no disposal line yet (IAS 7.39-42)".into());
     }
@@ -449,6 +454,11 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     if ds.ownership_changes.iter().filter(|o| o.owned == c.owned && in_year(o.date)).count() > 1 {
         why.push(format!("{} changes hands more than once in the fiscal year", c.owned));
     }
+    if uses_other_reserves(ds, &c.owned) {
+        why.push(
+            "it has OCI in a reserve other than the translation reserve (its reattribution is not posted yet)".into(),
+        );
+    }
     if ds.cash_flow_lines.is_some() {
         why.push("the statement of cash flows has no line for transactions with the NCI yet (IAS 7.42A)".into());
     }
@@ -488,6 +498,38 @@ fn has_counterparty_lines(ds: &Dataset, e: &EntityId) -> bool {
             .map(|d| d.height() > 0)
             .unwrap_or(true)
     })
+}
+
+/// Whether an entity's deliveries use an OCI account that accumulates in a reserve other
+/// than the translation reserve, or such a reserve (a revaluation surplus, a hedging
+/// reserve): on a sale it is transferred within equity or reclassified by its own
+/// standard (IFRS 10.B99), and a change in stake reattributes it; neither is posted yet.
+fn uses_other_reserves(ds: &Dataset, e: &EntityId) -> bool {
+    let tr = &ds.settings.accounts.translation_reserve;
+    let mut other: BTreeSet<&GroupAccount> = BTreeSet::new();
+    for a in &ds.accounts {
+        if let Some(r) = a.reserve.as_ref().filter(|r| *r != tr) {
+            other.insert(r);
+            other.insert(&a.account);
+        }
+    }
+    if other.is_empty() {
+        return false;
+    }
+    let locals = |df: &DataFrame| -> Option<BTreeSet<String>> {
+        let d = df.clone().lazy().filter(col("entity").eq(lit(e.as_str()))).select([col("account")]).collect().ok()?;
+        Some(d.column("account").ok()?.str().ok()?.iter().flatten().map(String::from).collect())
+    };
+    let mapped = || -> Option<BTreeSet<String>> {
+        let d = ds.mappings.clone().lazy().filter(col("entity").eq(lit(e.as_str()))).collect().ok()?;
+        let (l, g) = (d.column("local_account").ok()?.str().ok()?, d.column("group_account").ok()?.str().ok()?);
+        let used: BTreeSet<String> = [&ds.ledger, &ds.opening].into_iter().filter_map(locals).flatten().collect();
+        Some(l.iter().zip(g.iter()).filter_map(|(l, g)| used.contains(l?).then(|| g.map(String::from))?).collect())
+    };
+    match mapped() {
+        None => true,
+        Some(groups) => groups.iter().any(|g| other.contains(&GroupAccount::new(g))),
+    }
 }
 
 /// Whether another entity's trial balances or opening balances name `e` on an account

@@ -47,7 +47,7 @@ pub const PLAN_BALANCE: &str = "~plan-balance";
 /// What a close is compared with (`--compare`).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Source {
-    /// `budget` or `forecast-<label>`: a plan folder under `plans/`.
+    /// `budget` or `forecast-<label>`: a plan folder under `entities/plans/`.
     Plan(String),
     /// The close of the same period of the prior fiscal year.
     PriorYear,

@@ -353,7 +353,8 @@ fn read_deliveries(
         let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
         let id = EntityId::new(&name);
         if !known.contains_key(&id) {
-            if name.starts_with('.') {
+            // `plans/` holds the budget and forecasts (load/plans.rs), not an entity.
+            if name.starts_with('.') || name == plans::PLANS_FOLDER {
                 continue;
             }
             f.push(unknown_folder_finding(&name, known).in_file(rel(root, &dir)));

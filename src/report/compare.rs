@@ -282,6 +282,33 @@ pub fn sheets(c: &Comparison) -> Vec<super::xlsx::Sheet> {
 }
 
 /// The page's section of a comparison: the statements beside it and the walks.
+/// The walk as a waterfall chart: one bar per kind of step (the table below it has
+/// every step by entity, segment and rule), in the order the walk takes them.
+fn waterfall(w: &Walk, name: &str, minor: u32) -> String {
+    let mut kinds: Vec<(String, Decimal)> = Vec::new();
+    for s in &w.steps {
+        let label = match s.step {
+            "currency" => "currency effect",
+            "scope" => "scope",
+            "operating" => "operating, constant currency",
+            "elimination" => "eliminations",
+            "nci" => "non-controlling interests",
+            other => other,
+        };
+        match kinds.iter_mut().find(|(l, _)| l == label) {
+            Some((_, v)) => *v += s.amount,
+            None => kinds.push((label.to_string(), s.amount)),
+        }
+    }
+    super::html::waterfall_chart(
+        &format!("Walk of {} from {name} to actual", w.label),
+        (name, w.comparison),
+        &kinds,
+        ("actual", w.actual),
+        minor,
+    )
+}
+
 pub fn html(c: &Comparison, minor: u32) -> String {
     use super::html::escape;
     let name = escape(&c.comparison);
@@ -320,6 +347,8 @@ pub fn html(c: &Comparison, minor: u32) -> String {
         h.push_str("</tbody></table>");
     }
     for w in &c.walks {
+        h.push_str(&format!("<h3>Walk of {} from {name} to actual</h3>", escape(&w.label)));
+        h.push_str(&waterfall(w, &c.comparison, minor));
         h.push_str(&format!(
             r#"<table class="statement walk"><thead><tr><th>Walk: {}</th><th class="amount"></th></tr></thead><tbody>"#,
             escape(&w.label)

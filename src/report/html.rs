@@ -149,6 +149,71 @@ pub fn bar_chart(title: &str, categories: &[String], series: &[Series<'_>], mino
     svg
 }
 
+/// A walk drawn as a horizontal waterfall: the starting figure as a bar from zero, each
+/// step as a bar floating from the running total before it to the one after it (up
+/// steps and down steps in their own colours), and the end figure as a bar from zero.
+/// Each bar's figure is printed beside it. The steps must add up to the end figure.
+pub fn waterfall_chart(
+    title: &str,
+    start: (&str, Decimal),
+    steps: &[(String, Decimal)],
+    end: (&str, Decimal),
+    minor: u32,
+) -> String {
+    let total: Decimal = start.1 + steps.iter().map(|(_, v)| *v).sum::<Decimal>();
+    assert_eq!(total, end.1, "the waterfall's steps add up to its end figure ({title})");
+    // Each row: label, bar from, bar to, class, printed figure.
+    let mut rows = vec![(start.0.to_string(), Decimal::ZERO, start.1, "total", start.1)];
+    let mut running = start.1;
+    for (label, v) in steps {
+        let class = if v.is_sign_negative() && !v.is_zero() { "down" } else { "up" };
+        rows.push((label.clone(), running, running + v, class, *v));
+        running += v;
+    }
+    rows.push((end.0.to_string(), Decimal::ZERO, end.1, "total", end.1));
+    let (mut most, mut least) = (Decimal::ZERO, Decimal::ZERO);
+    for (_, a, b, _, _) in &rows {
+        most = most.max(*a).max(*b);
+        least = least.min(*a).min(*b);
+    }
+    let span = most - least;
+    let at = |v: Decimal| LABEL_WIDTH + pixels(v - least, span, PLOT_WIDTH);
+    let height = rows.len() as i64 * (BAR_HEIGHT + 4) + 8;
+    let width = LABEL_WIDTH + PLOT_WIDTH + VALUE_WIDTH;
+    let mut svg = format!(
+        r#"<svg class="chart waterfall" role="img" viewBox="0 0 {width} {height}" width="{width}" height="{height}"><title>{}</title>"#,
+        escape(title)
+    );
+    for (i, (label, from, to, class, figure)) in rows.iter().enumerate() {
+        let y = 4 + i as i64 * (BAR_HEIGHT + 4);
+        let (left, right) = (at(*from.min(to)), at(*from.max(to)));
+        svg.push_str(&format!(
+            r#"<text class="category" x="{}" y="{}" text-anchor="end">{}</text><rect class="{class}" x="{left}" y="{y}" width="{}" height="{BAR_HEIGHT}"><title>{}: {}</title></rect><text class="value" x="{}" y="{}">{}</text>"#,
+            LABEL_WIDTH - 8,
+            y + BAR_HEIGHT - 4,
+            escape(label),
+            right - left,
+            escape(label),
+            format_amount(*figure, minor),
+            right + 4,
+            y + BAR_HEIGHT - 4,
+            format_amount(*figure, minor)
+        ));
+        // A connector from this bar's end to the next bar's start.
+        if i + 1 < rows.len() {
+            let x = at(*to);
+            svg.push_str(&format!(
+                r#"<line class="step" x1="{x}" y1="{}" x2="{x}" y2="{}"/>"#,
+                y + BAR_HEIGHT,
+                y + BAR_HEIGHT + 4
+            ));
+        }
+    }
+    let zero = at(Decimal::ZERO);
+    svg.push_str(&format!(r#"<line class="zero" x1="{zero}" y1="2" x2="{zero}" y2="{}"/></svg>"#, height - 2));
+    svg
+}
+
 const STYLE: &str = r#"
 body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; color: #1d232a; margin: 2em auto; max-width: 66em; padding: 0 1em; font-size: 14px; }
 h1 { font-size: 1.5em; margin-bottom: 0.2em; }
@@ -173,6 +238,10 @@ svg .revenue { fill: #3b6ea5; }
 svg .profit { fill: #d08a2c; }
 svg .difference { fill: #6a8f4e; }
 svg line.zero { stroke: #1d232a; stroke-width: 1; }
+svg .total { fill: #3b6ea5; }
+svg .up { fill: #1b6e3a; }
+svg .down { fill: #a0201c; }
+svg line.step { stroke: #4a5561; stroke-width: 1; stroke-dasharray: 2 2; }
 .caution { margin-top: 2em; padding: 0.8em 1em; border-left: 4px solid #d08a2c; background: #faf5ec; }
 .statements { display: block; }
 @media print {
@@ -429,6 +498,33 @@ mod tests {
     fn all_zero_draws_no_bar_and_no_division() {
         let svg = bar_chart("t", &["a".into()], &[Series { name: "s", class: "profit", values: vec![d("0")] }], 0);
         assert!(svg.starts_with("<svg") && svg.ends_with("</svg>"));
+    }
+
+    /// Budget 100, currency -30, scope +50, actual 120: the scale runs from 0 to 120
+    /// (each of 330 pixels is 4/11 of a unit), each step starts where the bar before it
+    /// ended, and down steps are drawn leftwards.
+    #[test]
+    fn a_waterfall_steps_from_bar_to_bar() {
+        let svg = waterfall_chart(
+            "walk",
+            ("budget", d("100")),
+            &[("currency".into(), d("-30")), ("scope".into(), d("50"))],
+            ("actual", d("120")),
+            2,
+        );
+        let spans =
+            |class: &str| -> Vec<(i64, i64)> { bars(&svg, class).into_iter().map(|(x, w)| (x, x + w)).collect() };
+        // 100 of 120 over 330 pixels = 275; 70 = 192.5 -> 193; 120 = 330.
+        assert_eq!(spans("total"), [(190, 465), (190, 520)]);
+        assert_eq!(spans("down"), [(383, 465)]);
+        assert_eq!(spans("up"), [(383, 520)]);
+        assert!(svg.contains(">(30.00)<") && svg.contains(">50.00<"), "{svg}");
+    }
+
+    #[test]
+    #[should_panic(expected = "add up")]
+    fn a_waterfall_that_does_not_add_up_is_a_bug() {
+        waterfall_chart("walk", ("budget", d("1")), &[], ("actual", d("2")), 2);
     }
 
     #[test]

@@ -213,8 +213,8 @@ fn the_month_of_a_sale_shows_the_gain_and_the_reclassification() {
 }
 
 /// Without `fair_value_held` for the 10% kept, the sale of T (tests/cases/loss-of-
-/// control-retained-interest) blocks; with an associate kept (30%), the equity method's
-/// cost at fair value is not posted yet: blocking too.
+/// control-retained-interest) blocks; so does a revaluation surplus of T, and an
+/// associate kept (30%), whose cost at fair value is not posted yet.
 #[test]
 fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
     let f = case("loss-of-control-retained-interest");
@@ -224,6 +224,21 @@ fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
     let x = of_rule(&fs, "ValueMissing");
     assert_eq!(x.len(), 1, "{fs:#?}");
     assert!(x[0]["message"].as_str().unwrap().contains("keeps 0.1 of T"), "{:#}", x[0]);
+
+    // A revaluation surplus of T (OCI in its own reserve): transferred within equity on
+    // a sale (IFRS 10.B99), which is not posted yet: blocking.
+    let f = case("loss-of-control-retained-interest");
+    let chart = f.read("entities/accounts.csv").replacen("non_current\n", "non_current,reserve\n", 1);
+    f.write(
+        "entities/accounts.csv",
+        &format!("{chart}3400,Revaluation surplus,balance_sheet,equity,historical,,,\n8200,Revaluation,oci,income,average,,,3400\n"),
+    );
+    f.append("entities/T/mapping.csv", "8200,,8200");
+    f.replace("entities/T/tb-2026.movements.csv", "2026-01,4000,-50,", "2026-01,4000,-40,\n2026-01,8200,-10,");
+    let (code, fs) = check(&f, "2026-03");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert!(x.iter().any(|x| x["message"].as_str().unwrap().contains("IFRS 10.B99")), "{fs:#?}");
 
     let f = case("loss-of-control-retained-interest");
     f.replace(HOLDINGS, "P,T,0.1,0.1,2026-03-15,", "P,T,0.3,0.3,2026-03-15,");

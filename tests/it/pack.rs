@@ -615,3 +615,47 @@ fn translate_shows_local_amounts_at_their_minor_unit() {
         }
     }
 }
+
+/// `close --compare budget`: the page draws each walk as a waterfall whose bars are the
+/// walk's comparison figure, one bar per kind of step and the actual figure, and it
+/// renders in Chromium without a console message.
+#[test]
+fn a_compared_close_draws_each_walk_as_a_waterfall() {
+    let f = Folder::demo();
+    let (code, close) = run_json(f.path(), &["close", "--period", "2026-12", "--out", "pack", "--compare", "budget"]);
+    assert_eq!(code, 0, "{close:#}");
+    let page = find_file(&f.path().join("pack/2026-12"), "close.html").expect("close.html");
+    let html = std::fs::read_to_string(&page).unwrap();
+    let walks = close["statements"]["comparison"]["walks"].as_array().unwrap();
+    assert!(walks.len() >= 2, "{walks:?}");
+    let charts: Vec<&str> = html.split("<svg class=\"chart waterfall\"").skip(1).collect();
+    assert_eq!(charts.len(), walks.len(), "one waterfall per walk");
+    for (svg, w) in charts.iter().zip(walks) {
+        let svg = &svg[..svg.find("</svg>").unwrap()];
+        let mut kinds: Vec<&str> = Vec::new();
+        for s in w["steps"].as_array().unwrap() {
+            let k = s["step"].as_str().unwrap();
+            if !kinds.contains(&k) {
+                kinds.push(k);
+            }
+        }
+        assert_eq!(
+            svg.matches("<rect ").count(),
+            kinds.len() + 2,
+            "{}: comparison, each kind of step, actual",
+            w["measure"]
+        );
+        for figure in [&w["comparison"], &w["actual"]] {
+            let shown = tessera::money::format_amount(json_amount(figure), 2);
+            assert!(svg.contains(&format!(">{shown}<")), "{} shows {shown}", w["measure"]);
+        }
+    }
+    let shot = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("close-compare-report.png");
+    let Some((dom, log)) = render_in_chromium(&page, &shot) else {
+        eprintln!("SKIPPED the browser check: /usr/bin/chromium is absent (apt-get install chromium)");
+        return;
+    };
+    assert_eq!(dom.matches("<svg class=\"chart waterfall\"").count(), walks.len());
+    let console: Vec<&str> = log.lines().filter(|l| l.contains("CONSOLE")).collect();
+    assert!(console.is_empty(), "console messages: {console:?}");
+}

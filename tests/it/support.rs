@@ -49,7 +49,7 @@ impl Folder {
     /// A copy of the bundled demo group (its plans included).
     pub fn demo() -> Self {
         let f = Self::empty();
-        for sub in ["entities", "rates", "plans"] {
+        for sub in ["entities", "rates"] {
             copy_dir(&repo().join(sub), &f.path().join(sub));
         }
         f
