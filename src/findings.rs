@@ -152,6 +152,9 @@ pub enum Rule {
     GroupAdjustmentInconsistent,
     /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
     ComparisonUnavailable,
+    /// The share of an equity-accounted investee's losses beyond the carrying amount is
+    /// not recognised (IAS 28.38-39): a warning that shows the amount.
+    AssociateLossesUnrecognised,
 }
 
 impl Rule {
@@ -166,7 +169,8 @@ impl Rule {
             | Rule::RateMoveImplausible
             | Rule::SignsFlipped
             | Rule::CounterpartyOnPlainAccount
-            | Rule::AcceptanceUnused => Severity::Warning,
+            | Rule::AcceptanceUnused
+            | Rule::AssociateLossesUnrecognised => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable

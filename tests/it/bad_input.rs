@@ -683,6 +683,41 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "an undated impairment of the associate's acquisition",
+            mutate: |f| {
+                f.replace(
+                    "entities/acquisitions.csv",
+                    "2678571.43,0,equity acquired",
+                    "2678571.43,50000,equity acquired",
+                )
+            },
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "unrealised profit on goods the parent sold to its associate",
+            mutate: |f| {
+                let text = f.read("entities/inventory_profit.csv")
+                    + "ALD-NL,HEL-CH,2026-12,100000.00,CHF,0.20,sold to the associate\n";
+                f.write("entities/inventory_profit.csv", &text);
+            },
+            rule: None,
+            code: 0,
+        },
+        Case {
+            name: "unrealised profit with the associate under the deferred tax policy",
+            mutate: |f| {
+                let text = f.read("entities/inventory_profit.csv")
+                    + "ALD-NL,HEL-CH,2026-12,100000.00,CHF,0.20,sold to the associate\n";
+                f.write("entities/inventory_profit.csv", &text);
+                let toml =
+                    f.read("entities/group.toml").replace("[policies]\n", "[policies]\ndeferred_tax = \"recognise\"\n");
+                f.write("entities/group.toml", &toml);
+            },
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
             name: "a top-side entry booked outside the fiscal year",
             mutate: |f| map_lines(f, TOPSIDE, |_, l| l.replace(",2026-11,", ",2027-01,")),
             rule: Some("PeriodOutsideYear"),
