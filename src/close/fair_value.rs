@@ -482,6 +482,7 @@ mod tests {
             ic_kind: None,
             non_current: true,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         });
         w
@@ -635,6 +636,7 @@ mod tests {
                 ic_kind: None,
                 non_current: false,
                 reserve: None,
+                monetary: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }

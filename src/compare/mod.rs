@@ -218,6 +218,7 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
         ic_kind: None,
         non_current: false,
         reserve: None,
+        monetary: None,
         source: crate::model::Source::file("(plan balancing line)"),
     });
     out.inventory_profits.clear();

@@ -76,6 +76,23 @@ fn with_reserve(f: &Folder, account: &str, reserve: &str) {
     });
 }
 
+/// BRW-MX made hyperinflationary from 2026-01 (IAS 29), with the index of every month
+/// from the year start in `rates/price_index.csv` but `skip`.
+fn hyperinflationary_mx(f: &Folder, skip: Option<&str>) {
+    f.replace("entities/entities.csv", "MX,MXN,Americas,Instruments,\n", "MX,MXN,Americas,Instruments,2026-01\n");
+    let mut text = String::from("currency,period,index\n");
+    for (i, m) in ["2025-12", "2026-01", "2026-02", "2026-03", "2026-04", "2026-05", "2026-06"]
+        .into_iter()
+        .chain(["2026-07", "2026-08", "2026-09", "2026-10", "2026-11", "2026-12"])
+        .enumerate()
+    {
+        if Some(m) != skip {
+            text.push_str(&format!("MXN,{m},{}\n", 100 + 5 * i));
+        }
+    }
+    f.write("rates/price_index.csv", &text);
+}
+
 fn cases() -> Vec<Case> {
     vec![
         // --- the shape of a file ---------------------------------------------------
@@ -739,6 +756,81 @@ fn cases() -> Vec<Case> {
             name: "a top-side row without its preparer",
             mutate: |f| f.replace(TOPSIDE, ",group reporting (M. Okafor)\n", ",\n"),
             rule: Some("ValueMissing"),
+            code: 1,
+        },
+        // --- IAS 29: price indices and the monetary classification ---------------------
+        Case {
+            name: "a price index of zero",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nMXN,2026-12,0\n"),
+            rule: Some("PriceIndexNotPositive"),
+            code: 1,
+        },
+        Case {
+            name: "a price index that is not a number",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nMXN,2026-12,12O.5\n"),
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "the same month's price index twice",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nARS,2026-12,120\nARS,2026-12,121\n"),
+            rule: Some("RowDuplicated"),
+            code: 1,
+        },
+        Case {
+            name: "price indices of a currency no entity restates",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nARS,2026-11,110\nARS,2026-12,121\n"),
+            rule: Some("PriceIndexUnused"),
+            code: 0,
+        },
+        Case {
+            name: "a hyperinflationary entity's price index lacks a month",
+            mutate: |f| hyperinflationary_mx(f, Some("2026-07")),
+            rule: Some("PriceIndexMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity without the index of the year start",
+            mutate: |f| hyperinflationary_mx(f, Some("2025-12")),
+            rule: Some("PriceIndexMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity and a chart that says nothing of monetary items",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("MonetaryClassMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity and no account for the net monetary position",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("SettingInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "an acquired hyperinflationary entity",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity in the presentation currency",
+            mutate: |f| {
+                f.replace("entities/entities.csv", "NL,EUR,Europe,Corporate,\n", "NL,EUR,Europe,Corporate,2026-01\n")
+            },
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
+            name: "a monetary flag on an equity account",
+            mutate: |f| {
+                map_lines(f, "entities/accounts.csv", |i, l| match i {
+                    0 => format!("{l},monetary"),
+                    _ if l.starts_with("3200,") => format!("{l},true"),
+                    _ => format!("{l},"),
+                })
+            },
+            rule: Some("ValueInvalid"),
             code: 1,
         },
     ]
