@@ -570,7 +570,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
         Err(code) => return Ok(code),
     };
     let (comparison, compare_findings) = match &compare {
-        Some(source) => match compare_close(&c, source, format, out)? {
+        Some(source) => match compare_close(&c, source, view, format, out)? {
             Ok((x, f)) => (Some(x), f),
             Err(code) => return Ok(code),
         },
@@ -775,6 +775,7 @@ type ComparedClose = (crate::compare::Compared, Vec<crate::load::InputFile>, Vec
 fn compared(
     c: &ClosedPeriod,
     source: &crate::compare::Source,
+    view: crate::cli::View,
     format: Format,
     out: &mut dyn Write,
 ) -> Result<Result<ComparedClose, i32>, Error> {
@@ -785,8 +786,20 @@ fn compared(
     let closed = match source {
         Source::PriorYear => {
             // The whole folder: the year closed's own dataset holds no other year.
-            f.extend(crate::compare::prior_year_findings(&c.checked.full, scope.fiscal_start));
-            None
+            let full = &c.checked.full;
+            f.extend(crate::compare::prior_year_findings(full, scope.fiscal_start));
+            let a = Actuals {
+                ds,
+                mapped: &c.checked.mapped,
+                structure: c.structure(),
+                fiscal_start: scope.fiscal_start,
+                period: scope.period,
+                base_period: c.base.as_ref().map(|b| b.period),
+            };
+            match f.is_empty() {
+                true => crate::compare::compare_prior_year(&a, full, view, &c.root)?.map(|x| (x, Vec::new())),
+                false => None,
+            }
         }
         Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {
             None => None,
@@ -822,10 +835,11 @@ fn compared(
 fn compare_close(
     c: &ClosedPeriod,
     source: &crate::compare::Source,
+    view: crate::cli::View,
     format: Format,
     out: &mut dyn Write,
 ) -> Result<Result<(crate::compare::Comparison, Vec<crate::findings::Finding>), i32>, Error> {
-    Ok(match compared(c, source, format, out)? {
+    Ok(match compared(c, source, view, format, out)? {
         Ok((x, inputs, f)) => {
             let mut cmp =
                 crate::compare::comparison(&c.checked.ds, &c.checked.statements, (&c.close, c.base.as_ref()), &x)?;
@@ -961,7 +975,7 @@ pub fn segments(data: &Path, ask: SegmentsRequest<'_>, format: Format, out: &mut
     }
     let (rep, mut findings) = segment_report(&c, settings, &key, entities)?;
     let comparison = match &compare {
-        Some(source) => match compared(&c, source, format, out)? {
+        Some(source) => match compared(&c, source, view, format, out)? {
             Ok((x, _, f)) => {
                 findings.extend(f);
                 let (cr, _) = segment_report_of(&c, (&x.close, x.base.as_ref()), settings, &key, entities)?;

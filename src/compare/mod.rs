@@ -72,26 +72,71 @@ impl Source {
     }
 }
 
-/// The prior year as a comparison: a blocking finding while the folder holds no
-/// delivery of the prior fiscal year.
+/// The prior year as a comparison is a blocking finding while the folder holds no
+/// trial balance of the prior fiscal year.
 pub fn prior_year_findings(ds: &Dataset, fiscal_start: Period) -> Vec<Finding> {
     let prior_start = fiscal_start.plus_months(-12);
-    let has_prior = ds.periods().iter().any(|p| *p >= prior_start && *p < fiscal_start);
-    let message = if has_prior {
-        format!(
-            "the folder holds months of the prior fiscal year (from {prior_start}), but a comparison with the prior year is not supported yet"
-        )
-    } else {
-        format!("the folder holds no prior year: no trial balance of the fiscal year from {prior_start}")
-    };
+    if crate::years::holds_prior_year(ds, fiscal_start) {
+        return Vec::new();
+    }
     vec![
         Finding::new(
             Rule::ComparisonUnavailable,
-            message,
+            format!("the folder holds no prior year: no trial balance of the fiscal year from {prior_start}"),
             "compare with budget or forecast-NAME, or add the prior year's deliveries to the data folder",
         )
         .severity(Severity::Blocking),
     ]
+}
+
+/// The prior year's rates moved a year on: each month of the prior fiscal year's
+/// closing, average and year-to-date average rates, as the rates of the same month of
+/// the year closed. The month before the year (the opening's closing rate) keeps its
+/// actual rate, as a plan's does.
+pub fn prior_year_rates(full: &Dataset, fiscal_start: Period) -> Vec<MonthlyRate> {
+    let prior_start = fiscal_start.plus_months(-12);
+    full.rates
+        .iter()
+        .filter(|r| r.period >= prior_start && r.period < fiscal_start)
+        .map(|r| MonthlyRate { period: r.period.plus_months(12), ..r.clone() })
+        .collect()
+}
+
+/// The prior year as the comparison of the actuals `a` (IAS 1.38): the same view a year
+/// earlier (`years::prior_year_close`, on the prior year's own data), and the actuals
+/// closed at the prior year's rates of the same months (constant currency). Every
+/// entity of the folder is "planned": an entity in one year and not the other is
+/// scope. `None` when the folder holds no prior year (see [`prior_year_findings`]).
+pub fn compare_prior_year(
+    a: &Actuals<'_>,
+    full: &Dataset,
+    view: crate::cli::View,
+    root: &EntityId,
+) -> PolarsResult<Option<Compared>> {
+    let _span = tracing::info_span!("compare", plan = "prior-year").entered();
+    let Some(prior) = crate::years::prior_year_close(full, a.period, view, root)? else { return Ok(None) };
+    let (at_rates, at_rates_base) = close_at_rates(a, &prior_year_rates(full, a.fiscal_start))?;
+    Ok(Some(Compared {
+        name: "prior-year".into(),
+        close: prior.close,
+        base: prior.base,
+        at_rates,
+        at_rates_base,
+        planned: full.entities.iter().map(|e| e.id.clone()).collect(),
+    }))
+}
+
+/// The actuals of `a` closed at `rates` in place of the actual ones (constant
+/// currency), with the base close of a month or quarter view.
+fn close_at_rates(a: &Actuals<'_>, rates: &[MonthlyRate]) -> PolarsResult<(Close, Option<Close>)> {
+    let ds = with_rates(a.ds, rates);
+    let t = crate::translate::translate(&ds, a.mapped, a.fiscal_start, a.period)?;
+    let c = crate::close::close_at(&ds, &t, a.structure, a.period)?;
+    let b = match a.base_period {
+        Some(p) => Some(crate::close::close_at(&ds, &t, &structure_at(&ds, a.structure, p), p)?),
+        None => None,
+    };
+    Ok((c, b))
 }
 
 /// A comparison closed: its close (and base close for a month or quarter view), the
@@ -165,7 +210,7 @@ pub fn compare_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<(Option<C
         x.severity = Severity::Warning;
         x
     }));
-    let (at_rates, at_rates_base) = close_of(&with_rates(a.ds, &plan.rates), a.mapped)?;
+    let (at_rates, at_rates_base) = close_at_rates(a, &plan.rates)?;
     Ok((
         Some(Compared {
             name: plan.name.clone(),

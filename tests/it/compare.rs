@@ -219,14 +219,39 @@ fn currency_effect_and_walk_on_two_entities_by_hand() {
     assert_eq!(exp["direction"], Value::Null);
 }
 
+/// `--compare prior-year` on the demo, which holds fiscal 2025: in every view the
+/// comparison column of each line is the statement's own prior-year comparative (the
+/// same view a year earlier, `years::prior_year_close`), the walks add up, and GLF-BH,
+/// acquired in 2026, is the scope step. The actuals at the prior year's rates differ
+/// from the actuals (the demo's rates moved), so there is a currency step.
+#[test]
+fn prior_year_is_a_comparison_like_a_plan() {
+    let f = Folder::demo();
+    for (period, view) in [("2026-12", "ytd"), ("2026-06", "month"), ("2026-09", "qtd")] {
+        let out = f.path().join("out");
+        let (code, v) = run_json(
+            f.path(),
+            &["close", "--period", period, "--view", view, "--out", out.to_str().unwrap(), "--compare", "prior-year"],
+        );
+        assert_eq!(code, 0, "{view}: {v:#}");
+        assert_walks_add_up(&v);
+        let compared = &v["statements"]["comparison"]["statements"]["profit_or_loss"];
+        let lines = v["statements"]["profit_or_loss"]["lines"].as_array().expect("lines");
+        for (c, l) in compared.as_array().expect("compared lines").iter().zip(lines) {
+            assert_eq!(c["line"], l["line"]);
+            assert_eq!(d(&c["comparison"]), d(&l["prior_year"]), "{view} {}", l["line"]);
+            assert_eq!(d(&c["actual"]), d(&l["amount"]), "{view} {}", l["line"]);
+        }
+        let w = walks(&v);
+        let (_, steps, _) = &w["profit_owners"];
+        assert!(steps.iter().any(|s| s.0 == "scope" && s.1 == "GLF-BH"), "{view}: {steps:?}");
+        assert!(steps.iter().any(|s| s.0 == "currency" && !s.2.is_zero()), "{view}: {steps:?}");
+    }
+}
+
 #[test]
 fn prior_year_without_one_is_a_blocking_finding() {
-    // The demo holds its prior year 2025; a comparison with it is not built yet.
     let f = Folder::demo();
-    let (code, v) = close_json(&f, "2026-12", "prior-year");
-    assert_eq!(code, 1);
-    let text = v.to_string();
-    assert!(text.contains("ComparisonUnavailable") && text.contains("not supported yet"), "{v:#}");
     // Without 2025's deliveries (and with the 2026 opening as opening.csv) there is no
     // prior year at all.
     for e in std::fs::read_dir(f.path().join("entities")).expect("entities") {
