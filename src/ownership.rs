@@ -405,9 +405,9 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     out
 }
 
-/// A change in stake with control kept is expressed when the subsidiary and the holder
-/// keep their books in the presentation currency (the reattribution of a translation
-/// reserve, IAS 21.48C, is not posted yet), the holder holds it alone before and after
+/// A change in stake with control kept is expressed when the holder keeps its books in
+/// the presentation currency (a foreign subsidiary's translation reserve is
+/// reattributed, IAS 21.48C, by `change_in_stake`), the holder holds it alone before and after
 /// and has no NCI of its own, it holds no other entity, names no counterparty and is
 /// named by no other entity but for the investment in it, its acquisition measured the
 /// NCI at its share of net assets without a fair value adjustment, it changes hands once
@@ -417,9 +417,9 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     let before_day = c.date.pred_opt().unwrap_or(c.date);
     let pres = ds.settings.presentation_currency;
     let mut why: Vec<String> = Vec::new();
-    if [&c.holder, &c.owned].into_iter().any(|e| ds.entity(e).is_some_and(|x| x.currency != pres)) {
+    if ds.entity(&c.holder).is_some_and(|x| x.currency != pres) {
         why.push(format!(
-            "the holder or the subsidiary keeps its books in another currency than {pres}: reattributing the translation reserve (IAS 21.48C) is not posted yet"
+            "the holder keeps its books in another currency than {pres}: the exchange difference on its investment in the subsidiary across the change is not split yet (IAS 21.48C is posted for a holder in {pres})"
         ));
     }
     let holders_after: BTreeSet<&EntityId> = ds
