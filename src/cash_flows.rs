@@ -822,6 +822,7 @@ mod tests {
             ic_kind: None,
             non_current: false,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         }
     }

@@ -129,7 +129,7 @@ pub enum Command {
         /// every output is marked draft and lists the exceptions (exit code 1).
         #[arg(long)]
         draft: bool,
-        /// Compare with `budget`, `forecast-NAME` (a folder under plans/) or
+        /// Compare with `budget`, `forecast-NAME` (a folder under entities/plans/) or
         /// `prior-year`: variance columns, the currency effect and the profit walk.
         #[arg(long, value_parser = crate::compare::Source::parse)]
         compare: Option<crate::compare::Source>,

@@ -99,7 +99,7 @@ pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn 
     Ok(exit_code(&findings))
 }
 
-/// The findings of every plan of the data folder (`plans/`), as `close --compare` would
+/// The findings of every plan of the data folder (`entities/plans/`), as `close --compare` would
 /// raise them, so that `check` lists them without closing.
 fn plan_findings(c: &Checked) -> Result<Vec<crate::findings::Finding>, Error> {
     let mut f = Vec::new();

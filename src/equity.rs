@@ -15,7 +15,10 @@
 //!   retained earnings column);
 //! - dividends: the direct movements of retained earnings in the books of the entities
 //!   consolidated at both dates, less the intragroup dividends eliminated against them
-//!   (IFRS 10.B86), the NCI's share of a subsidiary's dividend in the NCI column;
+//!   (IFRS 10.B86), the NCI's share of a subsidiary's dividend in the NCI column; not
+//!   of a hyperinflationary entity, whose retained earnings are restated and translated
+//!   at the closing rate (IAS 29.25, IAS 21.42), so that all of its movement, a
+//!   dividend included, is among the other movements;
 //! - changes from acquisitions: the NCI recognised at acquisition of a subsidiary first
 //!   consolidated in the period (IFRS 3.19);
 //! - other movements: what remains of each column's movement.
@@ -234,7 +237,11 @@ pub fn changes_in_equity(
     let before = contributing(opening)?;
     let after = contributing(closing)?;
     let nci_share: BTreeMap<&EntityId, Decimal> = closing.nci.iter().map(|r| (&r.entity, r.nci_share)).collect();
-    for e in before.intersection(&after) {
+    // A hyperinflationary entity's retained earnings move also by their restatement and
+    // their translation at the closing rate (IAS 29.25, IAS 21.42(a)), which are no
+    // dividends: its movement stays in other movements.
+    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|h| h <= closing.period);
+    for e in before.intersection(&after).filter(|e| !hyper(e)) {
         let key = (e.clone(), roles.retained_earnings.clone());
         let own = -(c_close.get(&key).copied().unwrap_or_default() - c_open.get(&key).copied().unwrap_or_default());
         add(&mut dividends, re, own);
@@ -476,6 +483,7 @@ mod tests {
             ic_kind: None,
             non_current: false,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         }
     }

@@ -144,8 +144,24 @@ pub enum Rule {
     GroupAdjustmentScopeInvalid,
     /// The rows of one top-side entry disagree on its period, scope, reason or preparer.
     GroupAdjustmentInconsistent,
+    /// A month the IAS 29 restatement of a hyperinflationary entity needs has no price
+    /// index in `rates/price_index.csv`.
+    PriceIndexMissing,
+    /// A price index of zero or below: no restatement factor can come from it.
+    PriceIndexNotPositive,
+    /// Price indices of a currency no hyperinflationary entity reports in.
+    PriceIndexUnused,
+    /// An asset or liability account of a hyperinflationary entity that the chart does not
+    /// classify as monetary or non-monetary (IAS 29.12-14).
+    MonetaryClassMissing,
+    /// A hyperinflationary entity with an acquisition record: eliminating its restated
+    /// equity at acquisition is a rule the close does not support yet.
+    RestatementUnsupported,
     /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
     ComparisonUnavailable,
+    /// The share of an equity-accounted investee's losses beyond the carrying amount is
+    /// not recognised (IAS 28.38-39): a warning that shows the amount.
+    AssociateLossesUnrecognised,
 }
 
 impl Rule {
@@ -160,7 +176,9 @@ impl Rule {
             | Rule::RateMoveImplausible
             | Rule::SignsFlipped
             | Rule::CounterpartyOnPlainAccount
-            | Rule::AcceptanceUnused => Severity::Warning,
+            | Rule::AcceptanceUnused
+            | Rule::PriceIndexUnused
+            | Rule::AssociateLossesUnrecognised => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable

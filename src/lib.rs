@@ -25,6 +25,7 @@ pub mod progress;
 pub mod proof;
 pub mod rates;
 pub mod report;
+pub mod restate;
 pub mod segments;
 pub mod stages;
 pub mod structure;

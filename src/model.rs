@@ -246,6 +246,10 @@ pub struct RoleAccounts {
     /// consolidation adjustments; needed only under `policies.deferred_tax`.
     pub deferred_tax: Option<GroupAccount>,
     pub deferred_tax_expense: Option<GroupAccount>,
+    /// Profit or loss account for the gain or loss on the net monetary position of a
+    /// hyperinflationary entity (IAS 29.27-28); needed only when an entity has
+    /// `hyperinflationary_from`.
+    pub net_monetary_position: Option<GroupAccount>,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -491,6 +495,10 @@ pub struct AccountDef {
     /// For an OCI account, the equity reserve its amounts accumulate into (revaluation,
     /// hedging, ...); `None` is the translation reserve (`accounts.translation_reserve`).
     pub reserve: Option<GroupAccount>,
+    /// For an asset or liability, whether it is a monetary item (IAS 29.12: money held
+    /// and items to be received or paid in money); `None` when the chart does not say.
+    /// Needed for the IAS 29 restatement of a hyperinflationary entity (`restate`).
+    pub monetary: Option<bool>,
     pub source: Source,
 }
 
@@ -672,5 +680,16 @@ pub struct TaxRate {
     pub entity: EntityId,
     /// A share: 0.25 for 25%.
     pub rate: Decimal,
+    pub source: Source,
+}
+
+/// A general price index of a hyperinflationary currency at the end of a month, from
+/// `rates/price_index.csv` (IAS 29.11, 29.37: the same index for every entity reporting
+/// in that currency).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct PriceIndex {
+    pub currency: Currency,
+    pub period: Period,
+    pub index: rust_decimal::Decimal,
     pub source: Source,
 }

@@ -1071,6 +1071,7 @@ mod tests {
             ic_kind: None,
             non_current,
             reserve: None,
+            monetary: None,
             source: Source::file("accounts.csv"),
         }
     }

@@ -10,8 +10,8 @@
 //!   (21.39b, 21.40);
 //! - historical (equity): the amount brought forward, plus each movement x the rate of
 //!   its date from rates/historical.csv (dividends at the rate of their date);
-//! - hyperinflationary entities, from the period declared: every balance x closing
-//!   (21.42).
+//! - hyperinflationary entities, from the period declared: every balance, restated
+//!   first by `restate` (IAS 29), x closing (21.42(a)).
 //!
 //! Each translated balance is rounded once, to the presentation currency's minor unit,
 //! with the group's rounding mode; the residue lands in the translation difference
@@ -51,7 +51,8 @@ pub fn join_args(how: JoinType) -> JoinArgs {
 pub struct Translated {
     /// One row per grain and period (opening month included): entity, group_account,
     /// counterparty, txn_currency, period_index, basis, amount_local, balance_local,
-    /// txn_amount, rate, quote, rate_kind, balance_presentation, amount_presentation.
+    /// restatement_local (the part of balance_local that is IAS 29 restatement), txn_amount,
+    /// rate, quote, rate_kind, balance_presentation, amount_presentation.
     pub lines: DataFrame,
     /// entity, period_index, translation_difference (presentation currency, debit
     /// positive): minus the sum of the entity's translated movements of the month. For
@@ -81,7 +82,11 @@ pub struct Explanation {
     pub on_profit: Decimal,
     /// Other equity movements x (closing - their rate).
     pub on_equity_movements: Decimal,
-    /// All at closing for a hyperinflationary entity (IAS 21.42).
+    /// A hyperinflationary entity (IAS 21.42(a)): every balance, restated (IAS 29), is
+    /// translated at the closing rate, and the restated balances sum to zero (the net
+    /// monetary position balances them), so the difference is the translated balances of
+    /// the month before, negated: in the first month all at closing, what earlier rates
+    /// left (the reserve so far); later, the month before's rounding only.
     pub on_hyperinflation: Decimal,
     /// Rounding of the translated lines, and of the components above to the minor unit.
     pub rounding: Decimal,
@@ -199,7 +204,8 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
     let grain: Vec<Expr> = GRAIN.iter().map(|c| col(*c)).collect();
     let mut keys = grain.clone();
     keys.push(col("period_index"));
-    let mov = mapped.movements(fiscal_start, last)?.lazy();
+    // IAS 21.42(a): a hyperinflationary entity is restated (IAS 29) before translation.
+    let mov = crate::restate::restate(ds, mapped.movements(fiscal_start, last)?, fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
         vec![Column::new("period_index".into(), (p0..=pn).collect::<Vec<i32>>())],
@@ -236,7 +242,17 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         )
         .join(opening_presentation(ds)?, grain.clone(), grain.clone(), join_args(JoinType::Left))
         .sort(by_gid(), SortMultipleOptions::default())
-        .with_column(col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local")))
+        .with_columns([
+            col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
+            // The part of the local balance that is IAS 29 restatement, for the audit trail
+            // (cumulated only when some entity is restated: a zero column otherwise).
+            if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
+                col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
+            } else {
+                zero.clone()
+            }
+            .alias("restatement_local"),
+        ]))
 }
 
 /// Which amount of each row is translated at which rate: the rate kind (unit,
@@ -330,6 +346,7 @@ fn presentation_balances(g: LazyFrame, minor: usize) -> PolarsResult<LazyFrame> 
         col("currency"),
         col("amount_local"),
         col("balance_local"),
+        col("restatement_local"),
         col("txn_amount"),
         col("rate"),
         col("quote_used").alias("quote"),
@@ -414,7 +431,11 @@ fn explain(
         let mut comps = [Decimal::ZERO; 4];
         if entity.currency != pres {
             if hyper {
-                comps[3] = total;
+                comps[3] = -by
+                    .range((e.clone(), i32::MIN)..(e.clone(), p))
+                    .flat_map(|(_, m)| m.values())
+                    .map(|c| c.2)
+                    .sum::<Decimal>();
             } else if let (Some(cn), Some(cb)) = (c_now, c_before) {
                 comps[0] = cn.apply(na_before) - cb.apply(na_before);
                 // Profit at closing minus profit as translated, the latter unrounded:

@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Generates the demo's plans: plans/budget/ and plans/forecast-q3/ (docs/demo.md, Plans).
+"""Generates the demo's plans: entities/plans/budget/ and entities/plans/forecast-q3/ (docs/demo.md, Plans).
 
 Reads the demo's deliveries (entities/, rates/, as docs/demo/make_demo.py writes them) and
 writes each plan in the format of docs/formats.md (Plans): one movements file per entity in
@@ -119,8 +119,8 @@ def main(argv=None):
             if fv != 0:
                 forecast.append([p, loc, str(fv), cp])
         if budget:
-            write(os.path.join(root, "plans", "budget", f"{e}.csv"), header, budget, written)
-        write(os.path.join(root, "plans", "forecast-q3", f"{e}.csv"), header, forecast, written)
+            write(os.path.join(root, "entities", "plans", "budget", f"{e}.csv"), header, budget, written)
+        write(os.path.join(root, "entities", "plans", "forecast-q3", f"{e}.csv"), header, forecast, written)
     rate_header = ["period", "currency", "closing", "average", "quote", "source"]
     budget_rates, forecast_rates = [], []
     for p in PERIODS:
@@ -133,9 +133,9 @@ def main(argv=None):
             else:
                 june = by[("2026-06", c)]["closing"]
                 forecast_rates.append([p, c, june, june, "units_per_presentation", "forecast rate: closing 2026-06"])
-    write(os.path.join(root, "plans", "budget", "rates.csv"), rate_header, budget_rates, written)
-    write(os.path.join(root, "plans", "forecast-q3", "rates.csv"), rate_header, forecast_rates, written)
-    print(f"wrote {len(written)} files under {os.path.join(root, 'plans')}")
+    write(os.path.join(root, "entities", "plans", "budget", "rates.csv"), rate_header, budget_rates, written)
+    write(os.path.join(root, "entities", "plans", "forecast-q3", "rates.csv"), rate_header, forecast_rates, written)
+    print(f"wrote {len(written)} files under {os.path.join(root, 'entities', 'plans')}")
     return 0
 
 

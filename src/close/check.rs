@@ -5,7 +5,8 @@
 //! `GoodwillNegative`) and the role accounts a rule needs (`SettingInvalid`). The rules
 //! raise them through the same functions (`investment::findings`,
 //! `equity_method::acquisition_missing`, `unrealised_profit::missing_accounts`,
-//! `fair_value::findings` for the fair value adjustments).
+//! `fair_value::findings` for the fair value adjustments, `equity_method::findings` for
+//! what the equity method cannot express).
 
 use std::collections::{BTreeMap, BTreeSet};
 
@@ -48,6 +49,7 @@ pub fn data_findings(
     let when = (period, fiscal_start);
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
+    out.extend(equity_method::findings(ds, &method_of, period));
     Ok(out)
 }
 

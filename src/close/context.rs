@@ -163,6 +163,7 @@ pub mod fixture {
             ic_kind: ic_kind.map(String::from),
             non_current: false,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         }
     }
@@ -217,6 +218,7 @@ pub mod fixture {
             bargain_purchase_gain: None,
             deferred_tax: None,
             deferred_tax_expense: None,
+            net_monetary_position: None,
         }
     }
 

@@ -1,8 +1,35 @@
 //! Rule `equity_method`: an associate or joint venture is not aggregated; its holder
-//! carries it at cost plus its share of the post-acquisition results (IAS 28.10). The
-//! entry brings the investment up by the share of profit of the year (to the share of
-//! result), of OCI (to the holder's OCI) and of earlier years' movements (to retained
-//! earnings).
+//! carries it at cost plus its share of the post-acquisition results (IAS 28.10). Per
+//! investee the rule posts, in entries of the same rule:
+//!
+//! - the share of profit and OCI from the month significant influence begins (IAS
+//!   28.32: from the acquisition date). The acquisition month counts as a whole month,
+//!   whatever the day (2026-04-15 counts from April), as for a subsidiary
+//!   (`pre_acquisition.rs`): an investee acquired in the fiscal year contributes its
+//!   results since the end of the month before, nothing before and no earlier years;
+//! - the share after the fair value adjustments inside the investee (IAS 28.32(b)):
+//!   `fair_value_adjustments.csv` (and the undepreciated `fair_value_adjustment` of the
+//!   acquisition) name them. They are inside the cost, not separately recognised; their
+//!   depreciation of the year (at the investee's expense rates, as for a subsidiary,
+//!   `fair_value.rs`) reduces the share of profit, earlier years' reduce retained
+//!   earnings, and their exchange difference (IAS 21.47) is in the share of OCI. Goodwill
+//!   stays inside the carrying amount, neither recognised nor amortised (IAS 28.32(a));
+//! - dividends received from the investee reduce the investment, not profit (IAS 28.10):
+//!   the holder's dividend income naming it is reversed against the investment;
+//! - losses beyond the carrying amount (cost at the acquisition date's rate plus the
+//!   share since) are not recognised: the investment stops at zero, the unrecognised
+//!   share is shown in the entry and as a warning, and profits are recognised again only
+//!   once they cover it (IAS 28.38-39); the same figures from the start of the
+//!   acquisition make the tracking carry from year to year;
+//! - impairment of the investment as a whole (IAS 28.40-43), by month from
+//!   `goodwill_impairments.csv`, at its month's rate fixed once, in the share of result
+//!   of the year it is recognised in (retained earnings in later years), not allocated to
+//!   goodwill (IAS 28.42);
+//! - unrealised profit on goods between the group and the investee, eliminated to the
+//!   extent of the investor's interest (IAS 28.28, [`unrealised_lines`], posted from
+//!   `unrealised_profit.rs`).
+//!
+//! [`findings`] names what the rule cannot express (blocking); `check` raises the same.
 
 use std::collections::BTreeMap;
 
@@ -11,24 +38,74 @@ use rust_decimal::Decimal;
 
 use super::aggregate::aggregate_one;
 use super::context::Context;
-use super::journal::{EliminationRule, Journal, line};
-use crate::findings::{Finding, Rule};
+use super::fair_value::{ExpenseRates, depreciated_to};
+use super::impairment::Dated;
+use super::journal::{EliminationRule, EntryLine, Journal, line};
+use crate::findings::{Finding, Rule, Severity};
 use crate::load::Dataset;
 use crate::model::*;
 use crate::money;
+use crate::structure::EntityStructure;
 use crate::translate::Translated;
 
-/// An investee's own translated balances by group account, at the period and at the
-/// opening (it is not aggregated, so they are read one by one).
-pub type Investees = BTreeMap<EntityId, (BTreeMap<GroupAccount, Decimal>, BTreeMap<GroupAccount, Decimal>)>;
+type Accounts = BTreeMap<GroupAccount, Decimal>;
+
+/// An investee's own translated balances by group account (it is not aggregated, so
+/// they are read one by one).
+#[derive(Debug, Default, Clone)]
+pub struct Investee {
+    /// At the period.
+    pub own: Accounts,
+    /// At the month end before the fiscal year.
+    pub opening: Accounts,
+    /// At the month end before the acquisition month, for an acquisition in the fiscal
+    /// year after its first month (its results before significant influence); else empty.
+    pub before: Accounts,
+}
+
+/// The investees by entity.
+pub type Investees = BTreeMap<EntityId, Investee>;
+
+/// When the investor's share counts from, for a close: the acquisition's month.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Start {
+    /// Acquired before the fiscal year: earlier years' share in retained earnings.
+    BeforeYear,
+    /// Acquired in the fiscal year, in this month, at or before the period.
+    InYear(Period),
+    /// Acquired after the period: nothing to post yet.
+    Later,
+}
+
+fn start_of(cx: &Context, a: &Acquisition) -> Start {
+    let m = Period::of_date(a.date);
+    if m < cx.fiscal_start {
+        Start::BeforeYear
+    } else if m <= cx.period {
+        Start::InYear(m)
+    } else {
+        Start::Later
+    }
+}
+
+/// The last acquisition record of each entity (the last wins, as in the investment rule).
+fn last_records(acquisitions: &[Acquisition]) -> BTreeMap<&EntityId, &Acquisition> {
+    acquisitions.iter().map(|a| (&a.owned, a)).collect()
+}
 
 /// The balances of every equity-accounted investee with an acquisition record.
 pub fn investees(ds: &Dataset, t: &Translated, cx: &Context, acquisitions: &[Acquisition]) -> PolarsResult<Investees> {
+    let acq = last_records(acquisitions);
     let mut out = Investees::new();
-    for e in cx.of_method(Method::Equity).filter(|e| acquisitions.iter().any(|a| a.owned == e.id)) {
+    for e in cx.of_method(Method::Equity) {
+        let Some(a) = acq.get(&e.id) else { continue };
+        let before = match start_of(cx, a) {
+            Start::InYear(m) if m > cx.fiscal_start => aggregate_one(ds, t, &e.id, m.prev())?,
+            _ => Accounts::new(),
+        };
         let own = aggregate_one(ds, t, &e.id, cx.period)?;
         let opening = aggregate_one(ds, t, &e.id, cx.fiscal_start.prev())?;
-        out.insert(e.id.clone(), (own, opening));
+        out.insert(e.id.clone(), Investee { own, opening, before });
     }
     Ok(out)
 }
@@ -44,61 +121,508 @@ pub fn acquisition_missing(e: &EntityId) -> Finding {
     .entity(e)
 }
 
-/// Posts one entry per equity-accounted investee.
+/// What the rule reads besides the investees' balances.
+pub struct Inputs<'a> {
+    /// The fair value adjustments of every acquisition (`fair_value::all_uplifts`).
+    pub uplifts: &'a [Uplift],
+    /// The impairments by month (`impairment::dated`), for investees of the investment.
+    pub impairments: &'a BTreeMap<EntityId, Vec<Dated>>,
+    pub rates: &'a ExpenseRates,
+}
+
+/// `x` of the investee's currency `fc` at the acquisition date's rate, as the
+/// acquisition row implies it (`net_assets_presentation / net_assets`), rounded; `None`
+/// when it cannot be derived (net assets 0 in a foreign currency, or beyond exact
+/// arithmetic: [`findings`]).
+fn at_acquisition(cx: &Context, fc: Currency, a: &Acquisition, x: Decimal) -> Option<Decimal> {
+    if fc == cx.presentation {
+        return Some(cx.round(x));
+    }
+    if a.net_assets.is_zero() {
+        return None;
+    }
+    x.checked_mul(a.net_assets_presentation)?.checked_div(a.net_assets).map(|v| cx.round(v))
+}
+
+/// The investee's fair value adjustments in the presentation currency at 100%: the
+/// change brought forward (earlier years' depreciation and exchange difference, to
+/// retained earnings), this year's depreciation (an expense, positive) and this year's
+/// exchange difference (OCI, a gain positive).
+#[derive(Debug, Default, Clone, Copy, PartialEq, Eq)]
+struct UpliftParts {
+    prior: Decimal,
+    expense: Decimal,
+    fx: Decimal,
+}
+
+/// Each adjustment is in the cost at the acquisition date's rate; its net amount (less
+/// the depreciation to date) is at the closing rate (IAS 21.47), the year's
+/// depreciation at the investee's expense rates; the rest of the change is exchange
+/// difference. In the presentation currency the exchange parts are zero.
+fn uplift_parts(
+    cx: &Context,
+    rates: &ExpenseRates,
+    fc: Currency,
+    a: &Acquisition,
+    uplifts: &[Uplift],
+) -> Option<UpliftParts> {
+    let acquired = Period::of_date(a.date);
+    let start = start_of(cx, a);
+    let mut out = UpliftParts::default();
+    for u in uplifts.iter().filter(|u| u.owned == a.owned) {
+        let dep = |m: Period| depreciated_to(u, acquired, m, fc.minor_unit(), cx.mode);
+        let at_acq = at_acquisition(cx, fc, a, u.amount)?;
+        let now = cx.at_closing(fc, u.amount - dep(cx.period), cx.period)?;
+        let first = if acquired > cx.fiscal_start { acquired } else { cx.fiscal_start };
+        let expense = rates.expense_of_year(cx, fc, u, acquired, first);
+        let base = match start {
+            Start::BeforeYear => {
+                let open = cx.fiscal_start.prev();
+                let opening = cx.at_closing(fc, u.amount - dep(open), open)?;
+                out.prior += opening - at_acq;
+                opening
+            }
+            Start::InYear(_) => at_acq,
+            Start::Later => continue,
+        };
+        out.expense += expense;
+        out.fx += now - base + expense;
+    }
+    Some(out)
+}
+
+/// The investor's share after IAS 28.38-39: the cumulative share since acquisition does
+/// not take the carrying amount (`cost` plus it) below zero.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Capped {
+    /// Earlier years' share recognised.
+    pub prior: Decimal,
+    /// This year's share of profit recognised.
+    pub profit: Decimal,
+    /// Losses not recognised at the opening and at the period (positive).
+    pub unrecognised_open: Decimal,
+    pub unrecognised: Decimal,
+}
+
+/// The share recognised of `prior` (earlier years), `profit`, `oci` and the year's
+/// `dividends` received, for an investment of `cost`: both the opening and the closing
+/// cumulative shares are floored at `-cost`. OCI and dividends are taken in full; the
+/// floor moves the share of profit, so that a profit first covers the losses not
+/// recognised before it is recognised (IAS 28.39).
+pub fn cap_losses(cost: Decimal, prior: Decimal, profit: Decimal, oci: Decimal, dividends: Decimal) -> Capped {
+    let floor = -cost.max(Decimal::ZERO);
+    let prior_rec = prior.max(floor);
+    let cumulative = prior + profit + oci - dividends;
+    let cumulative_rec = cumulative.max(floor);
+    let year = cumulative_rec - prior_rec;
+    Capped {
+        prior: prior_rec,
+        profit: year - oci + dividends,
+        unrecognised_open: prior_rec - prior,
+        unrecognised: cumulative_rec - cumulative,
+    }
+}
+
+/// The dividends the consolidated entities received from `e` this year: receiver,
+/// account (of kind `dividend`, profit or loss) and the income (a credit, positive).
+fn dividends_received(cx: &Context, e: &EntityId) -> Vec<(EntityId, GroupAccount, Decimal)> {
+    let mut out = Vec::new();
+    for (receiver, accts) in &cx.balances {
+        for ((acct, cp), amount) in accts {
+            if cp.as_ref() == Some(e) && cx.kind_of(acct) == Some("dividend") && cx.is_flow(acct) && !amount.is_zero() {
+                out.push((receiver.clone(), acct.clone(), -*amount));
+            }
+        }
+    }
+    out
+}
+
+/// The holder an entry about `e` is posted in: its first direct holder.
+fn holder_of(cx: &Context, e: &EntityStructure) -> EntityId {
+    e.direct_holders.first().map(|h| h.owner.clone()).unwrap_or_else(|| cx.structure.parent().clone())
+}
+
+/// Posts the entries of each equity-accounted investee.
 pub fn post(
     j: &mut Journal,
     cx: &Context,
     acquisitions: &[Acquisition],
     investees: &Investees,
+    inputs: &Inputs,
     findings: &mut Vec<Finding>,
 ) {
-    let roles = cx.roles;
-    let none = (BTreeMap::new(), BTreeMap::new());
-    // The last record of an investee wins, as in the investment rule.
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = last_records(acquisitions);
+    let none = Investee::default();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else {
             findings.push(acquisition_missing(&e.id));
             continue;
         };
-        let share = e.effective_interest;
-        let (own, opening) = investees.get(&e.id).unwrap_or(&none);
-        let sum_where = |m: &BTreeMap<GroupAccount, Decimal>, f: &dyn Fn(&AccountDef) -> bool| -> Decimal {
-            m.iter().filter(|(a, _)| cx.chart.get(a).is_some_and(|d| f(d))).map(|(_, v)| *v).sum()
-        };
-        let profit = -sum_where(own, &|d| d.statement == Statement::ProfitOrLoss);
-        let oci = -sum_where(own, &|d| d.statement == Statement::Oci);
-        let equity_open = -sum_where(opening, &|d| d.class == AccountClass::Equity);
-        let prior = equity_open - a.net_assets_presentation;
-        let r = |x: Decimal| cx.round(x * share);
-        let (sp, so, spr) = (r(profit), r(oci), r(prior));
-        let holder = e.direct_holders.first().map(|h| h.owner.clone()).unwrap_or_else(|| cx.structure.parent().clone());
-        j.post(
-            EliminationRule::EquityMethod,
-            holder.clone(),
-            vec![holder.clone(), e.id.clone()],
-            format!(
-                "share {} of {}: profit {}, OCI {}, prior years {}",
-                share.normalize(),
-                e.id,
-                money::format_amount(sp, cx.minor),
-                money::format_amount(so, cx.minor),
-                money::format_amount(spr, cx.minor)
-            ),
-            vec![
-                line(&roles.equity_investments, &holder, Some(&e.id), sp + so + spr),
-                line(&roles.equity_result, &holder, Some(&e.id), -sp),
-                line(&roles.translation_difference, &holder, Some(&e.id), -so),
-                line(&roles.retained_earnings, &holder, Some(&e.id), -spr),
-            ],
-        );
+        if start_of(cx, a) == Start::Later {
+            continue;
+        }
+        let carrying = post_share(j, cx, e, a, investees.get(&e.id).unwrap_or(&none), inputs, findings);
+        if let Some(rows) = inputs.impairments.get(&e.id) {
+            findings.extend(post_impairment(j, cx, e, rows, carrying));
+        }
     }
+}
+
+/// The share of results, after the fair value adjustments, the dividends received and
+/// the floor of IAS 28.38-39, in one entry; returns the carrying amount it leaves (cost
+/// plus the share since acquisition less the dividends), `None` when it posts nothing.
+fn post_share(
+    j: &mut Journal,
+    cx: &Context,
+    e: &EntityStructure,
+    a: &Acquisition,
+    inv: &Investee,
+    inputs: &Inputs,
+    findings: &mut Vec<Finding>,
+) -> Option<Decimal> {
+    let roles = cx.roles;
+    let fc = cx.currencies.get(&e.id).copied().unwrap_or(cx.presentation);
+    let (Some(up), Some(cost)) =
+        (uplift_parts(cx, inputs.rates, fc, a, inputs.uplifts), at_acquisition(cx, fc, a, a.consideration))
+    else {
+        // `findings` raises the blocking finding for the acquisition row.
+        return None;
+    };
+    let sum_where = |m: &Accounts, f: &dyn Fn(&AccountDef) -> bool| -> Decimal {
+        m.iter().filter(|(a, _)| cx.chart.get(a).is_some_and(|d| f(d))).map(|(_, v)| *v).sum()
+    };
+    let pl = |m: &Accounts| -sum_where(m, &|d| d.statement == Statement::ProfitOrLoss);
+    let oci = |m: &Accounts| -sum_where(m, &|d| d.statement == Statement::Oci);
+    let (profit, oci_year, prior) = match start_of(cx, a) {
+        Start::BeforeYear => {
+            let equity_open = -sum_where(&inv.opening, &|d| d.class == AccountClass::Equity);
+            (pl(&inv.own), oci(&inv.own), equity_open - a.net_assets_presentation + at_acq_uplifts(cx, fc, a, inputs))
+        }
+        _ => (pl(&inv.own) - pl(&inv.before), oci(&inv.own) - oci(&inv.before), Decimal::ZERO),
+    };
+    let share = e.effective_interest;
+    let r = |x: Decimal| cx.round(x * share);
+    let (sp, so, spr) = (r(profit - up.expense), r(oci_year + up.fx), r(prior + up.prior));
+    let dividends = dividends_received(cx, &e.id);
+    let div: Decimal = dividends.iter().map(|d| d.2).sum();
+    let c = cap_losses(cost, spr, sp, so, div);
+    let holder = holder_of(cx, e);
+    let mut lines = vec![
+        line(&roles.equity_investments, &holder, Some(&e.id), c.prior + c.profit + so - div),
+        line(&roles.equity_result, &holder, Some(&e.id), -c.profit),
+        line(&roles.translation_difference, &holder, Some(&e.id), -so),
+        line(&roles.retained_earnings, &holder, Some(&e.id), -c.prior),
+    ];
+    lines.extend(dividends.iter().map(|(receiver, acct, x)| line(acct, receiver, Some(&e.id), *x)));
+    let m = |x: Decimal| money::format_amount(x, cx.minor);
+    let from = match start_of(cx, a) {
+        Start::InYear(month) => format!(" from {month}"),
+        _ => String::new(),
+    };
+    let mut text = format!(
+        "share {} of {}{from}: profit {}, OCI {}, prior years {}",
+        share.normalize(),
+        e.id,
+        m(c.profit),
+        m(so),
+        m(c.prior)
+    );
+    if !up.expense.is_zero() {
+        text.push_str(&format!(" (after fair value depreciation {} at 100%)", m(up.expense)));
+    }
+    if !div.is_zero() {
+        text.push_str(&format!("; dividends received {} off the investment", m(div)));
+    }
+    if !c.unrecognised.is_zero() || !c.unrecognised_open.is_zero() {
+        text.push_str(&format!("; losses not recognised {} (opening {})", m(c.unrecognised), m(c.unrecognised_open)));
+        findings.push(losses_unrecognised(&e.id, cx.period, cost, spr + sp + so - div, c.unrecognised));
+    }
+    j.post(EliminationRule::EquityMethod, holder.clone(), vec![holder, e.id.clone()], text, lines);
+    Some(cost + c.prior + c.profit + so - div)
+}
+
+/// The fair value adjustments at the acquisition date's rate: the investee's books at
+/// acquisition are `net_assets_presentation` less them (0 where one cannot be derived:
+/// its finding blocks the close).
+fn at_acq_uplifts(cx: &Context, fc: Currency, a: &Acquisition, inputs: &Inputs) -> Decimal {
+    inputs.uplifts.iter().filter(|u| u.owned == a.owned).filter_map(|u| at_acquisition(cx, fc, a, u.amount)).sum()
+}
+
+/// The warning that shows the losses not recognised (IAS 28.39).
+fn losses_unrecognised(e: &EntityId, period: Period, cost: Decimal, share: Decimal, unrecognised: Decimal) -> Finding {
+    Finding::new(
+        Rule::AssociateLossesUnrecognised,
+        format!(
+            "{e}: the share since acquisition {share} against a cost of {cost} would take the investment below zero; losses of {unrecognised} are not recognised (IAS 28.38)"
+        ),
+        "nothing to correct: later profits are recognised only once they cover the unrecognised losses (IAS 28.39); long-term interests in the investee (IAS 28.38) are not modelled",
+    )
+    .entity(e)
+    .period(period)
+    .severity(Severity::Warning)
+}
+
+/// The impairments of the investment as a whole to the period (IAS 28.40-43), each at
+/// its month's fixed rate: the year's in the share of result, earlier years' in retained
+/// earnings, against the investment. They are posted as given; impairments beyond the
+/// `carrying` amount left by the share (an investment below zero) are a warning.
+fn post_impairment(
+    j: &mut Journal,
+    cx: &Context,
+    e: &EntityStructure,
+    rows: &[Dated],
+    carrying: Option<Decimal>,
+) -> Option<Finding> {
+    let (mut year, mut prior) = (Decimal::ZERO, Decimal::ZERO);
+    for d in rows {
+        let x = d.at_rate(cx, d.amount);
+        if d.in_year { year += x } else { prior += x }
+    }
+    if year.is_zero() && prior.is_zero() {
+        return None;
+    }
+    let holder = holder_of(cx, e);
+    let roles = cx.roles;
+    j.post(
+        EliminationRule::EquityMethod,
+        holder.clone(),
+        vec![holder.clone(), e.id.clone()],
+        format!(
+            "impairment of the investment in {}: this year {}, earlier years {} (IAS 28.40-43)",
+            e.id,
+            money::format_amount(year, cx.minor),
+            money::format_amount(prior, cx.minor)
+        ),
+        vec![
+            line(&roles.equity_investments, &holder, Some(&e.id), -(year + prior)),
+            line(&roles.equity_result, &holder, Some(&e.id), year),
+            line(&roles.retained_earnings, &holder, Some(&e.id), prior),
+        ],
+    );
+    let carrying = carrying?;
+    (year + prior > carrying).then(|| {
+        let m = |x: Decimal| money::format_amount(x, cx.minor);
+        Finding::new(
+            Rule::ValueInvalid,
+            format!(
+                "{}: impairments of the investment to date {} exceed its carrying amount {} before them: the investment is {} (IAS 28.40-43)",
+                e.id,
+                m(year + prior),
+                m(carrying),
+                m(carrying - year - prior)
+            ),
+            "check the impairments in goodwill_impairments.csv: an impairment takes the investment to its recoverable amount, at least zero",
+        )
+        .entity(&e.id)
+        .period(cx.period)
+        .severity(Severity::Warning)
+    })
+}
+
+/// One side of goods between the group and an investee (IAS 28.28).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Direction {
+    /// The group sold to the investee, which holds the goods.
+    Downstream,
+    /// The investee sold to the group, which holds the goods.
+    Upstream,
+}
+
+/// The entry lines that eliminate the investor's share of unrealised profit on goods
+/// between consolidated entity `group` and investee `investee` (held by `holder`):
+/// `now` the share at the period's closing rate, `open_then` and `open_now` the share
+/// counted at the opening at the opening and the period's closing rates. Downstream the
+/// seller's cost of sales bears it and the investment holds it (the goods are inside
+/// the investee); upstream the group's inventory is reduced and the share of result
+/// bears it. The opening part is in retained earnings, its exchange difference in OCI.
+pub fn unrealised_lines(
+    cx: &Context,
+    dir: Direction,
+    (group, investee, holder): (&EntityId, &EntityId, &EntityId),
+    (now, open_then, open_now): (Decimal, Decimal, Decimal),
+) -> Option<Vec<EntryLine>> {
+    let roles = cx.roles;
+    let (inventory, cogs) = (roles.inventory.as_ref()?, roles.cost_of_sales.as_ref()?);
+    let (change, fx) = (now - open_now, open_now - open_then);
+    Some(match dir {
+        Direction::Downstream => vec![
+            line(&roles.equity_investments, holder, Some(investee), -now),
+            line(&roles.retained_earnings, group, Some(investee), open_then),
+            line(cogs, group, Some(investee), change),
+            line(&roles.translation_difference, group, Some(investee), fx),
+        ],
+        Direction::Upstream => vec![
+            line(inventory, group, Some(investee), -now),
+            line(&roles.retained_earnings, holder, Some(investee), open_then),
+            line(&roles.equity_result, holder, Some(investee), change),
+            line(&roles.translation_difference, holder, Some(investee), fx),
+        ],
+    })
+}
+
+/// The investee of an `inventory_profit.csv` pair and the direction, when one side is
+/// consolidated and the other equity-accounted; `None` otherwise.
+pub fn investee_pair<'a>(
+    cx: &Context<'a>,
+    seller: &EntityId,
+    buyer: &EntityId,
+) -> Option<(&'a EntityStructure, Direction)> {
+    let equity = |x: &EntityId| cx.of_method(Method::Equity).find(|e| &e.id == x);
+    if cx.consolidated.contains(seller) {
+        equity(buyer).map(|e| (e, Direction::Downstream))
+    } else if cx.consolidated.contains(buyer) {
+        equity(seller).map(|e| (e, Direction::Upstream))
+    } else {
+        None
+    }
+}
+
+/// Posts the elimination of `investee_pair`'s unrealised profit (amounts of
+/// [`unrealised_lines`]).
+pub fn post_unrealised(
+    j: &mut Journal,
+    cx: &Context,
+    (e, dir): (&EntityStructure, Direction),
+    group: &EntityId,
+    amounts: (Decimal, Decimal, Decimal),
+    text: String,
+) {
+    let holder = holder_of(cx, e);
+    let Some(lines) = unrealised_lines(cx, dir, (group, &e.id, &holder), amounts) else { return };
+    j.post(EliminationRule::EquityMethod, holder.clone(), vec![group.clone(), e.id.clone()], text, lines);
+}
+
+/// What the equity method cannot express, for a close at `period` (blocking): the
+/// undated `impairment` of an investee's acquisition (give it by month), an NCI fair
+/// value for an investee (it has no NCI), an acquisition
+/// row whose date's rate cannot be derived, unrealised profit on goods between an
+/// investee and an entity the group does not consolidate, and unrealised profit with an
+/// investee under the deferred tax policy (its deferred tax is not modelled).
+pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, period: Period) -> Vec<Finding> {
+    let equity = |e: &EntityId| method_of(e) == Some(Method::Equity);
+    let consolidated = |e: &EntityId| matches!(method_of(e), Some(Method::Full | Method::Proportionate));
+    let mut out = Vec::new();
+    for (_, a) in last_records(&ds.acquisitions).into_iter().filter(|(e, _)| equity(e)) {
+        let at = |message: String, action: &str| {
+            Finding::new(Rule::ValueInvalid, message, action).at(&a.source).entity(&a.owned)
+        };
+        if a.nci_fair_value.is_some_and(|x| !x.is_zero()) {
+            out.push(at(
+                format!("{}: `nci_fair_value` {} given for an equity-accounted investee, which has no NCI in the group", a.owned, a.nci_fair_value.unwrap_or_default()),
+                "leave `nci_fair_value` empty for an associate or joint venture; its goodwill is inside the investment (IAS 28.32(a))",
+            ));
+        }
+        if !a.impairment.is_zero() || !a.impairment_year.is_zero() {
+            out.push(at(
+                format!("{}: an undated `impairment` {} of an equity-accounted investment", a.owned, a.impairment),
+                "give the impairment of the investment (IAS 28.40-43) by month in goodwill_impairments.csv and leave `impairment` and `impairment_year` empty",
+            ));
+        }
+        let foreign = ds.entity(&a.owned).is_some_and(|x| x.currency != ds.settings.presentation_currency);
+        let too_large = |x: Decimal| {
+            x.checked_mul(a.net_assets_presentation)
+                .is_none_or(|p| p.abs() >= Decimal::from_i128_with_scale(10i128.pow(27), 0))
+        };
+        if foreign && (a.net_assets.is_zero() || too_large(a.consideration)) {
+            out.push(at(
+                format!("{}: the acquisition date's rate cannot be derived from `net_assets` {} and `net_assets_presentation` {} (for the cost {})", a.owned, a.net_assets, a.net_assets_presentation, a.consideration),
+                "give the net assets at acquisition in both currencies, so that the cost and the fair value adjustments are at the acquisition date's rate",
+            ));
+        }
+    }
+    let tax = ds.settings.policies.deferred_tax;
+    for ip in ds.inventory_profits.iter().filter(|x| x.period <= period) {
+        let (s, b) = (&ip.seller, &ip.buyer);
+        if !equity(s) && !equity(b) {
+            continue;
+        }
+        let at = |message: String, action: &str| {
+            Finding::new(Rule::ValueInvalid, message, action)
+                .at(&ip.source)
+                .entity(if equity(s) { s } else { b })
+                .period(ip.period)
+        };
+        if !(consolidated(s) || consolidated(b)) {
+            out.push(at(
+                format!("unrealised profit of {s} on goods held by {b}: neither is consolidated"),
+                "only goods between the group and an equity-accounted investee are eliminated (IAS 28.28); remove the row",
+            ));
+        } else if tax {
+            out.push(at(
+                format!("unrealised profit between {s} and {b} under `policies.deferred_tax`: the deferred tax on an investee's elimination is not supported"),
+                "post the elimination and its tax as a top-side entry, or close without the deferred tax policy",
+            ));
+        }
+    }
+    out
 }
 
 #[cfg(test)]
 mod tests {
     use super::super::context::fixture::*;
     use super::*;
+    use crate::load::{Quote, Rate};
+
+    fn usd() -> Currency {
+        Currency::parse("USD").unwrap_or_else(|| panic!("USD"))
+    }
+
+    fn two() -> Rate {
+        Rate { value: d("2"), quote: Quote::UnitsPerPresentation }
+    }
+
+    /// Averages of 2 USD per EUR for every month of 2025 and 2026, as the closing rates
+    /// of the fixture.
+    fn rates() -> ExpenseRates {
+        ExpenseRates {
+            average: p("2025-01").through(&p("2026-12")).into_iter().map(|m| ((usd(), m), two())).collect(),
+            policy: Some(IncomeTranslation::Periodic),
+            ..ExpenseRates::default()
+        }
+    }
+
+    /// A's acquisition: `consideration` and net assets USD 800 (EUR 400 at the
+    /// acquisition date's 2 USD per EUR).
+    fn acquired(date: &str, consideration: &str) -> Acquisition {
+        Acquisition {
+            owned: id("A"),
+            date: chrono::NaiveDate::parse_from_str(date, "%Y-%m-%d").unwrap_or_default(),
+            consideration: d(consideration),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d("800"),
+            net_assets_presentation: d("400"),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::file("entities/acquisitions.csv"),
+        }
+    }
+
+    fn world() -> World {
+        World::new(&["P", "A"], &[holding("P", "A", "0.3", "2020-01-01")], p("2026-06"))
+    }
+
+    fn run(
+        cx: &Context,
+        a: &Acquisition,
+        inv: Investee,
+        uplifts: &[Uplift],
+        dated: &[Dated],
+    ) -> (Journal, Vec<Finding>) {
+        let rates = rates();
+        let impairments = BTreeMap::from([(id("A"), dated.to_vec())]);
+        let inputs = Inputs { uplifts, impairments: &impairments, rates: &rates };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        post(&mut j, cx, std::slice::from_ref(a), &Investees::from([(id("A"), inv)]), &inputs, &mut found);
+        (j, found)
+    }
+
+    fn rows(x: &[(&str, &str)]) -> Accounts {
+        x.iter().map(|(a, v)| (acct(a), d(v))).collect()
+    }
 
     /// P holds 30% of associate A since 2020 (IAS 28.5: significant influence). Net
     /// assets at acquisition EUR 400. At the opening A's equity was 300 capital + 200
@@ -107,28 +631,15 @@ mod tests {
     /// P's shares 30 and 6. The investment goes up by 30 + 6 + 30 = 66 (IAS 28.10).
     #[test]
     fn cost_plus_the_share_of_post_acquisition_results() {
-        let w = World::new(&["P", "A"], &[holding("P", "A", "0.3", "2020-01-01")], p("2026-06"));
+        let w = world();
         let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
-        let a = Acquisition {
-            owned: id("A"),
-            date: chrono::NaiveDate::from_ymd_opt(2020, 1, 1).unwrap_or_default(),
-            consideration: d("120"),
-            nci_measurement: NciMeasurement::ShareOfNetAssets,
-            nci_fair_value: None,
-            net_assets: d("400"),
-            net_assets_presentation: d("400"),
-            impairment: Decimal::ZERO,
-            impairment_year: Decimal::ZERO,
-            fair_value_adjustment: Decimal::ZERO,
-            fair_value_account: None,
-            source: Source::file("entities/acquisitions.csv"),
+        let a = acquired("2020-01-01", "240");
+        let inv = Investee {
+            own: rows(&[("4000", "-100"), ("9000", "-20")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-200")]),
+            before: Accounts::new(),
         };
-        let own = BTreeMap::from([(acct("4000"), d("-100")), (acct("9000"), d("-20"))]);
-        let opening = BTreeMap::from([(acct("3000"), d("-300")), (acct("3200"), d("-200"))]);
-        let investees = Investees::from([(id("A"), (own, opening))]);
-        let mut j = Journal::default();
-        let mut found = Vec::new();
-        post(&mut j, &cx, std::slice::from_ref(&a), &investees, &mut found);
+        let (j, found) = run(&cx, &a, inv.clone(), &[], &[]);
         assert!(found.is_empty());
         assert_eq!(
             lines(&j.entries[0]),
@@ -139,9 +650,222 @@ mod tests {
                 ("3200".into(), "P".into(), "-30".into())
             ]
         );
-        let mut j = Journal::default();
-        post(&mut j, &cx, &[], &investees, &mut found);
+        let rates = rates();
+        let none = BTreeMap::new();
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates };
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post(&mut j, &cx, &[], &Investees::from([(id("A"), inv)]), &inputs, &mut found);
         assert!(j.entries.is_empty());
         assert_eq!(found.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::AcquisitionMissing]);
+    }
+
+    /// A (USD, 2 USD per EUR at every month end and on average) is acquired on
+    /// 2026-04-15: April counts whole. At June A's year to date is revenue EUR 150 and
+    /// OCI 20; at March (the month before) 60 and 5: since acquisition profit 90 and OCI
+    /// 15. A plant uplift of USD 120 over 60 months: USD 6 for April to June, EUR 3 at
+    /// the averages. P's 30%: profit (90 - 3) x 0.3 = 26.10; OCI 15 x 0.3 = 4.50 (the
+    /// uplift's exchange difference is 57 - 60 + 3 = 0 at unchanged rates); no prior
+    /// years (the opening equity before the acquisition is not P's). The dividend of
+    /// EUR 10 P received from A in June is taken off the investment and out of income
+    /// (IAS 28.10): investment 26.10 + 4.50 - 10 = 20.60.
+    #[test]
+    fn from_the_acquisition_month_after_the_uplift_less_dividends() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), balances(&[("P", "7400", Some("A"), "-10")]));
+        let a = acquired("2026-04-15", "240");
+        let inv = Investee {
+            own: rows(&[("4000", "-150"), ("9000", "-20")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-900")]),
+            before: rows(&[("4000", "-60"), ("9000", "-5")]),
+        };
+        let plant = Uplift {
+            owned: id("A"),
+            account: acct("1500"),
+            amount: d("120"),
+            life_months: Some(60),
+            expense_account: Some(acct("5000")),
+            deferred_tax: false,
+            source: Source::file("entities/fair_value_adjustments.csv"),
+        };
+        let (j, found) = run(&cx, &a, inv, &[plant], &[]);
+        assert!(found.is_empty());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "20.6".into()),
+                ("4900".into(), "P".into(), "-26.1".into()),
+                ("9000".into(), "P".into(), "-4.5".into()),
+                ("7400".into(), "P".into(), "10".into())
+            ]
+        );
+        // Acquired in the fiscal year's first month (2026-01-20): the whole year to date,
+        // 30% x 150 = 45 and 30% x 20 = 6, and still no earlier years.
+        let a_jan = acquired("2026-01-20", "240");
+        let inv = Investee {
+            own: rows(&[("4000", "-150"), ("9000", "-20")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-900")]),
+            before: Accounts::new(),
+        };
+        let cx_jan = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let (j, _) = run(&cx_jan, &a_jan, inv, &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "51".into()),
+                ("4900".into(), "P".into(), "-45".into()),
+                ("9000".into(), "P".into(), "-6".into())
+            ]
+        );
+        // Closed at March, before the acquisition: nothing.
+        let cx = w.context(p("2026-03"), p("2026-01"), Default::default());
+        let (j, _) = run(&cx, &a, Investee::default(), &[], &[]);
+        assert!(j.entries.is_empty());
+    }
+
+    /// A (USD) acquired on 2025-07-01 with a plant uplift of USD 120 over 60 months, EUR
+    /// 60 at the acquisition date's rate (EUR 400 for USD 800). By the opening six
+    /// months are depreciated (USD 12): the net USD 108 at the opening's 2 USD per EUR
+    /// is 54, so earlier years lose 60 - 54 = 6 (A's own books are as at acquisition:
+    /// equity 340 = 400 less the uplift). This year six months more (USD 12) at averages
+    /// of 2: an expense of 6; the net USD 96 at June's closing rate of 2.5 is 38.40, so
+    /// the exchange difference is 38.40 - 54 + 6 = -9.60 (IAS 21.47). P's 30%: prior
+    /// -1.80, profit -1.80, OCI -2.88; the investment -6.48 = 30% x (38.40 - 60).
+    #[test]
+    fn a_foreign_investees_uplift_at_the_closing_rate() {
+        let w = world();
+        let mut cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        cx.closing.insert((usd(), p("2026-06")), Rate { value: d("2.5"), quote: Quote::UnitsPerPresentation });
+        let a = acquired("2025-07-01", "240");
+        let inv = Investee { opening: rows(&[("3000", "-340")]), ..Investee::default() };
+        let plant = Uplift {
+            owned: id("A"),
+            account: acct("1500"),
+            amount: d("120"),
+            life_months: Some(60),
+            expense_account: Some(acct("5000")),
+            deferred_tax: false,
+            source: Source::file("entities/fair_value_adjustments.csv"),
+        };
+        let (j, found) = run(&cx, &a, inv, &[plant], &[]);
+        assert!(found.is_empty());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "-6.48".into()),
+                ("4900".into(), "P".into(), "1.8".into()),
+                ("9000".into(), "P".into(), "2.88".into()),
+                ("3200".into(), "P".into(), "1.8".into())
+            ]
+        );
+    }
+
+    /// Cost USD 240 = EUR 120 at the acquisition date's rate. Earlier years: opening
+    /// equity 300 against net assets 400, P's 30% = -30. This year a loss of 500: -150.
+    /// The cumulative -180 would take the investment of 120 below zero: -120 is
+    /// recognised, of it -90 this year, and 60 is not (IAS 28.38), shown as a warning.
+    #[test]
+    fn losses_stop_at_zero_and_are_shown() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let a = acquired("2020-01-01", "240");
+        let inv = Investee {
+            own: rows(&[("5000", "500")]),
+            opening: rows(&[("3000", "-400"), ("3200", "100")]),
+            before: Accounts::new(),
+        };
+        let (j, found) = run(&cx, &a, inv, &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "-120".into()),
+                ("4900".into(), "P".into(), "90".into()),
+                ("3200".into(), "P".into(), "30".into())
+            ]
+        );
+        assert!(j.entries[0].description.contains("losses not recognised 60.00"), "{}", j.entries[0].description);
+        assert_eq!(
+            found.iter().map(|f| (f.rule, f.severity)).collect::<Vec<_>>(),
+            [(Rule::AssociateLossesUnrecognised, Severity::Warning)]
+        );
+    }
+
+    /// Three years of an investment of 100: a share of -80 brought forward and -50 this
+    /// year recognises -20 (30 unrecognised); the next year +20 covers 20 of the 30 and
+    /// recognises nothing (10 left); the year after +30 covers the 10 and recognises 20
+    /// (IAS 28.39).
+    #[test]
+    fn profits_resume_only_after_the_unrecognised_losses_are_covered() {
+        let z = Decimal::ZERO;
+        let c = cap_losses(d("100"), d("-80"), d("-50"), z, z);
+        assert_eq!((c.prior, c.profit, c.unrecognised_open, c.unrecognised), (d("-80"), d("-20"), z, d("30")));
+        let c = cap_losses(d("100"), d("-130"), d("20"), z, z);
+        assert_eq!((c.prior, c.profit, c.unrecognised_open, c.unrecognised), (d("-100"), z, d("30"), d("10")));
+        let c = cap_losses(d("100"), d("-110"), d("30"), z, z);
+        assert_eq!((c.prior, c.profit, c.unrecognised_open, c.unrecognised), (d("-100"), d("20"), d("10"), z));
+        // OCI and dividends are taken in full; profit absorbs the floor.
+        let c = cap_losses(d("100"), d("-90"), d("-30"), d("5"), d("2"));
+        assert_eq!((c.prior, c.profit, c.unrecognised), (d("-90"), d("-13"), d("17")));
+    }
+
+    /// Impairments of the investment of USD 50 in 2026-02 (this year) and USD 20 in
+    /// 2025-11 (last year), each at 2 USD per EUR: 25 in the share of result, 10 in
+    /// retained earnings, 35 off the investment (IAS 28.40-43).
+    #[test]
+    fn impairment_of_the_investment_as_a_whole() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let a = acquired("2020-01-01", "240");
+        let dated = [
+            Dated { period: p("2025-11"), amount: d("20"), rate: Some(two()), in_year: false },
+            Dated { period: p("2026-02"), amount: d("50"), rate: Some(two()), in_year: true },
+        ];
+        let inv = Investee { opening: rows(&[("3000", "-400")]), ..Investee::default() };
+        let (j, found) = run(&cx, &a, inv.clone(), &[], &dated);
+        assert!(found.is_empty());
+        // The share entry has no amount (no results since acquisition) and is not posted.
+        assert_eq!(j.entries.len(), 1);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "-35".into()),
+                ("4900".into(), "P".into(), "25".into()),
+                ("3200".into(), "P".into(), "10".into())
+            ]
+        );
+        // USD 300 more in March (EUR 150) takes the investment of EUR 120 below zero
+        // (120 - 185 = -65): a warning with the figures.
+        let more = Dated { period: p("2026-03"), amount: d("300"), rate: Some(two()), in_year: true };
+        let (_, found) = run(&cx, &a, inv, &[], &[dated[0].clone(), dated[1].clone(), more]);
+        assert_eq!(
+            found.iter().map(|f| (f.rule, f.severity)).collect::<Vec<_>>(),
+            [(Rule::ValueInvalid, Severity::Warning)]
+        );
+        assert!(found[0].message.contains("185.00 exceed its carrying amount 120.00"), "{}", found[0].message);
+    }
+
+    /// P's share of unrealised profit now 30, at the opening 20 (24 at today's rate).
+    /// Downstream (P sold to A): the investment -30, P's retained earnings +20, cost of
+    /// sales +6, OCI +4. Upstream (A sold to P): P's inventory -30, the share of result
+    /// bears the change.
+    #[test]
+    fn unrealised_profit_with_an_investee_both_ways() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let amounts = (d("30"), d("20"), d("24"));
+        let who = (&id("P"), &id("A"), &id("P"));
+        let got = |dir| {
+            unrealised_lines(&cx, dir, who, amounts)
+                .unwrap_or_default()
+                .iter()
+                .map(|l| (l.account.to_string(), l.amount.normalize().to_string()))
+                .collect::<Vec<_>>()
+        };
+        let s = |a: &str, x: &str| (a.to_string(), x.to_string());
+        // The lines before the journal drops those of no amount.
+        assert_eq!(got(Direction::Downstream), [s("1300", "-30"), s("3200", "20"), s("5000", "6"), s("9000", "4")]);
+        assert_eq!(got(Direction::Upstream), [s("1500", "-30"), s("3200", "20"), s("4900", "6"), s("9000", "4")]);
+        assert_eq!(investee_pair(&cx, &id("P"), &id("A")).map(|x| x.1), Some(Direction::Downstream));
+        assert_eq!(investee_pair(&cx, &id("A"), &id("P")).map(|x| x.1), Some(Direction::Upstream));
+        assert!(investee_pair(&cx, &id("A"), &id("A")).is_none());
     }
 }

@@ -246,7 +246,14 @@ impl ExpenseRates {
 
     /// This fiscal year's depreciation of `u` in the presentation currency, from
     /// `first` (the later of the fiscal year's start and the acquisition month).
-    fn expense_of_year(&self, cx: &Context, fc: Currency, u: &Uplift, acquired: Period, first: Period) -> Decimal {
+    pub(crate) fn expense_of_year(
+        &self,
+        cx: &Context,
+        fc: Currency,
+        u: &Uplift,
+        acquired: Period,
+        first: Period,
+    ) -> Decimal {
         let minor = fc.minor_unit();
         let to = |m: Period| depreciated_to(u, acquired, m, minor, cx.mode);
         if self.policy == Some(IncomeTranslation::YearToDate) {
@@ -288,11 +295,13 @@ pub fn findings(
         };
         match method_of(&u.owned) {
             // Not consolidated (or outside the scope closed): nothing to post.
-            Some(Method::Full | Method::None) | None => {}
+            // An equity-accounted investee's adjustments reduce the share of its result
+            // (IAS 28.32(b), `equity_method.rs`).
+            Some(Method::Full | Method::Equity | Method::None) | None => {}
             Some(m) => out.push(at(
                 Rule::ValueInvalid,
                 format!("{}: a fair value adjustment on {} of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", u.owned, u.account, m.as_str()),
-                "remove the row; the share of an investee's result after its fair value adjustments (IAS 28.32) is not supported yet",
+                "remove the row; fair value adjustments of a joint operation's share are not supported",
             )),
         }
         if statement_of(&u.account) != Some(Statement::BalanceSheet) {
@@ -473,6 +482,7 @@ mod tests {
             ic_kind: None,
             non_current: true,
             reserve: None,
+            monetary: None,
             source: Source::file("entities/accounts.csv"),
         });
         w
@@ -588,7 +598,11 @@ mod tests {
             };
         assert!(rules(plant("1200", Some(60)), &a, &full, &no).is_empty());
         assert_eq!(rules(plant("1200", Some(60)), &[], &full, &no), [Rule::AcquisitionMissing]);
-        assert_eq!(rules(plant("1200", Some(60)), &a, &equity, &no), [Rule::ValueInvalid]);
+        // An investee's adjustments reduce the share of its result (`equity_method.rs`);
+        // a joint operation's are not supported.
+        assert!(rules(plant("1200", Some(60)), &a, &equity, &no).is_empty());
+        let proportionate = |_: &EntityId| Some(Method::Proportionate);
+        assert_eq!(rules(plant("1200", Some(60)), &a, &proportionate, &no), [Rule::ValueInvalid]);
         assert_eq!(rules(plant("1200", Some(60)), &a, &full, &yes), [Rule::ValueInvalid]);
         assert!(rules(plant("1200", None), &a, &full, &yes).is_empty(), "land of a hyperinflationary entity is held");
         let mut u = plant("1200", Some(60));
@@ -622,6 +636,7 @@ mod tests {
                 ic_kind: None,
                 non_current: false,
                 reserve: None,
+                monetary: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }

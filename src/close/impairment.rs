@@ -7,7 +7,9 @@
 //! at the closing rate (IAS 21.47); the rest of its movement is exchange difference in
 //! OCI. The older `impairment` and `impairment_year` columns of `acquisitions.csv`
 //! (undated, at the closing rate of every close) still work for an acquisition without
-//! rows here.
+//! rows here. The rows of an equity-accounted investee are the impairment of the
+//! investment as a whole (IAS 28.40-43), posted by `equity_method.rs` at the same fixed
+//! rate.
 
 use std::collections::BTreeMap;
 
@@ -105,11 +107,12 @@ pub fn findings(
             ));
             continue;
         };
-        if let Some(m @ (Method::Equity | Method::Proportionate)) = method_of(&r.owned) {
+        let investee = method_of(&r.owned) == Some(Method::Equity);
+        if let Some(m @ Method::Proportionate) = method_of(&r.owned) {
             out.push(at(
                 Rule::ValueInvalid,
-                format!("{}: a goodwill impairment by month of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", r.owned, m.as_str()),
-                "give the impairment of an equity-accounted investment in `impairment` of acquisitions.csv (IAS 28.40-43)",
+                format!("{}: a goodwill impairment by month of an entity consolidated by the {} method: only subsidiaries consolidated in full and equity-accounted investees are supported", r.owned, m.as_str()),
+                "post the impairment of a joint operation's share as a top-side entry",
             ));
         }
         if !a.impairment.is_zero() {
@@ -129,7 +132,8 @@ pub fn findings(
         if r.period > period {
             continue;
         }
-        if r.period >= fiscal_start && roles.goodwill_impairment.is_none() {
+        // An investee's impairment is in the share of its result (`equity_method.rs`).
+        if r.period >= fiscal_start && roles.goodwill_impairment.is_none() && !investee {
             out.push(at(
                 Rule::SettingInvalid,
                 format!(
@@ -205,8 +209,12 @@ mod tests {
         assert_eq!(rules(&[row("2026-02")], &[acquired("50")], &roles, &rate), [Rule::ValueInvalid]);
         assert_eq!(rules(&[row("2025-05")], &[acquired("0")], &roles, &rate), [Rule::ValueInvalid]);
         assert_eq!(rules(&[row("2026-02")], &[acquired("0")], &roles, &no_rate), [Rule::RateMissing]);
-        let equity = |_: &EntityId| Some(Method::Equity);
-        let found = findings(&[row("2026-02")], &[acquired("0")], when, &roles, &rate, &equity);
+        let proportionate = |_: &EntityId| Some(Method::Proportionate);
+        let found = findings(&[row("2026-02")], &[acquired("0")], when, &roles, &rate, &proportionate);
         assert_eq!(found.iter().map(|f| f.rule).collect::<Vec<_>>(), [Rule::ValueInvalid]);
+        // An investee's impairment of the investment needs no goodwill account.
+        roles.goodwill_impairment = None;
+        let equity = |_: &EntityId| Some(Method::Equity);
+        assert!(findings(&[row("2026-02")], &[acquired("0")], when, &roles, &rate, &equity).is_empty());
     }
 }

@@ -894,6 +894,7 @@ mod tests {
                 ic_kind: None,
                 non_current: true,
                 reserve: None,
+                monetary: None,
                 source: Source::file("entities/accounts.csv"),
             });
         }

@@ -106,6 +106,12 @@ fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper)
 }
 
+/// The findings of the equity method for the close's structure.
+fn equity_method_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
+    let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    equity_method::findings(ds, &method_of, cx.period)
+}
+
 /// The findings of `goodwill_impairments.csv` for the close.
 fn impairment_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let has_rate = |e: &EntityId, p: Period| impairment_rate_known(ds, e, p);
@@ -184,7 +190,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
-    equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &mut findings);
+    let inputs = equity_method::Inputs { uplifts: &uplifts, impairments: &records.impairments, rates: &rates };
+    equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &inputs, &mut findings);
+    findings.extend(equity_method_findings(ds, &cx));
     topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 

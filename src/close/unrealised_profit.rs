@@ -9,12 +9,18 @@
 //! carrying amount of the inventory falls below its tax base), at the buyer's rate (the
 //! buyer holds the goods and recovers them, IAS 12.47; common practice), with the same
 //! split between retained earnings, tax expense of the year and OCI.
+//!
+//! Goods between the group and an equity-accounted investee are eliminated to the extent
+//! of the investor's interest only (IAS 28.28), in an entry of rule `equity_method`
+//! (`equity_method::unrealised_lines`: downstream against the investment, upstream
+//! against the share of result).
 
 use std::collections::BTreeMap;
 
 use rust_decimal::Decimal;
 
 use super::context::Context;
+use super::equity_method;
 use super::fair_value::DeferredTax;
 use super::journal::{EliminationRule, EntryLine, Journal, line};
 use crate::findings::{Finding, Rule};
@@ -71,16 +77,22 @@ pub fn post(
         return;
     };
     for ((seller, buyer), (now, open)) in &latest_counts(items, cx.period, cx.fiscal_start) {
-        if !cx.consolidated.contains(seller) || !cx.consolidated.contains(buyer) {
-            continue;
-        }
+        // With an equity-accounted investee on one side, the investor's share only
+        // (IAS 28.28); pairs the group does not consolidate are findings of
+        // `equity_method::findings`.
+        let investee = equity_method::investee_pair(cx, seller, buyer);
+        let share = match investee {
+            Some((e, _)) if tax.is_none() => e.effective_interest,
+            None if cx.consolidated.contains(seller) && cx.consolidated.contains(buyer) => Decimal::ONE,
+            _ => continue,
+        };
         let Some(bc) = cx.currencies.get(buyer).copied() else { continue };
         let urp_now_fc = if now.period < cx.fiscal_start && open.is_none() {
             Decimal::ZERO
         } else {
-            now.inventory_amount * now.margin_rate
+            now.inventory_amount * now.margin_rate * share
         };
-        let urp_open_fc = open.map(|o| o.inventory_amount * o.margin_rate).unwrap_or_default();
+        let urp_open_fc = open.map(|o| o.inventory_amount * o.margin_rate * share).unwrap_or_default();
         let (Some(urp_now), Some(urp_open_then), Some(urp_open_now)) = (
             cx.at_closing(bc, urp_now_fc, cx.period),
             cx.at_closing(bc, urp_open_fc, cx.fiscal_start.prev()),
@@ -88,6 +100,19 @@ pub fn post(
         ) else {
             continue;
         };
+        if let Some(pair) = investee {
+            let group = if pair.1 == equity_method::Direction::Downstream { seller } else { buyer };
+            let text = format!(
+                "share {} of the profit of {seller} on goods held by {buyer}: {bc} {} x {} x {} = {} (IAS 28.28)",
+                share.normalize(),
+                now.inventory_amount,
+                now.margin_rate,
+                share.normalize(),
+                money::format_amount(urp_now, cx.minor)
+            );
+            equity_method::post_unrealised(j, cx, pair, group, (urp_now, urp_open_then, urp_open_now), text);
+            continue;
+        }
         let change = urp_now - urp_open_now;
         let fx = urp_open_now - urp_open_then;
         let mut lines = vec![
@@ -160,6 +185,30 @@ mod tests {
     /// opening elimination); cost of sales 60 - 80 = -20 (less unrealised profit than
     /// at the opening); OCI 80 - 100 = -20 (the exchange loss on the opening part).
     /// -60 + 100 - 20 - 20 = 0.
+    /// P sells to its 30% associate A (USD), which holds USD 1,000 of P's goods at a 20%
+    /// margin: USD 200 unrealised, of which P's interest USD 60 (IAS 28.28), EUR 30 at 2
+    /// USD per EUR, charged to P's cost of sales and off the investment in A. With the
+    /// deferred tax policy the pair is left to its finding (`equity_method::findings`).
+    #[test]
+    fn downstream_to_an_associate_to_the_extent_of_the_interest() {
+        let w = World::new(&["P", "A"], &[holding("P", "A", "0.3", "2020-01-01")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let items = [InventoryProfit { buyer: id("A"), ..count("2026-05", "1000", "0.2") }];
+        let mut j = Journal::default();
+        let mut findings = Vec::new();
+        post(&mut j, &cx, &items, None, &mut findings);
+        assert!(findings.is_empty());
+        assert_eq!(j.entries[0].rule, EliminationRule::EquityMethod);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "-30".into()), ("5000".into(), "P".into(), "30".into())]
+        );
+        let tax = DeferredTax { account: acct("1700"), expense: acct("8100"), rates: Default::default() };
+        let mut j = Journal::default();
+        post(&mut j, &cx, &items, Some(&tax), &mut findings);
+        assert!(j.entries.is_empty());
+    }
+
     #[test]
     fn downstream_with_an_opening_count_and_a_rate_change() {
         let w = World::new(&["P", "S"], &[holding("P", "S", "1", "2020-01-01")], p("2026-06"));

@@ -47,7 +47,7 @@ pub const PLAN_BALANCE: &str = "~plan-balance";
 /// What a close is compared with (`--compare`).
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum Source {
-    /// `budget` or `forecast-<label>`: a plan folder under `plans/`.
+    /// `budget` or `forecast-<label>`: a plan folder under `entities/plans/`.
     Plan(String),
     /// The close of the same period of the prior fiscal year.
     PriorYear,
@@ -218,6 +218,7 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
         ic_kind: None,
         non_current: false,
         reserve: None,
+        monetary: None,
         source: crate::model::Source::file("(plan balancing line)"),
     });
     out.inventory_profits.clear();

@@ -14,6 +14,7 @@ mod ledger;
 pub mod machine;
 mod ownership;
 pub mod plans;
+mod price_index;
 mod settings;
 pub mod table;
 
@@ -128,6 +129,9 @@ pub struct Dataset {
     pub opening: DataFrame,
     pub rates: Vec<MonthlyRate>,
     pub historical_rates: Vec<HistoricalRate>,
+    /// General price indices of hyperinflationary currencies (optional
+    /// `rates/price_index.csv`, IAS 29), checked against the close by `restate::findings`.
+    pub price_indices: Vec<PriceIndex>,
     pub acquisitions: Vec<Acquisition>,
     pub inventory_profits: Vec<InventoryProfit>,
     /// Fair value adjustments of acquired subsidiaries (optional
@@ -241,6 +245,8 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let pres = settings.as_ref().map(|s| s.presentation_currency);
     let rates = load_rates(root, &rates_dir.join("monthly.csv"), pres, &mut f, &mut inputs);
     let historical_rates = load_historical(root, &rates_dir.join("historical.csv"), &mut f, &mut inputs);
+    let price_indices =
+        price_index::load_price_indices(root, &rates_dir.join(price_index::PRICE_INDEX_FILE), &mut f, &mut inputs);
     let acquisitions = load_acquisitions(root, &ent_dir.join("acquisitions.csv"), &mut f, &mut inputs);
     let inventory_profits = load_inventory_profits(root, &ent_dir.join("inventory_profit.csv"), &mut f, &mut inputs);
     let uplifts = fair_values::load_uplifts(root, &ent_dir.join(FAIR_VALUES_FILE), &mut f, &mut inputs);
@@ -279,6 +285,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             opening,
             rates,
             historical_rates,
+            price_indices,
             acquisitions,
             inventory_profits,
             uplifts,
@@ -348,7 +355,8 @@ fn read_deliveries(
         let name = dir.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
         let id = EntityId::new(&name);
         if !known.contains_key(&id) {
-            if name.starts_with('.') {
+            // `plans/` holds the budget and forecasts (load/plans.rs), not an entity.
+            if name.starts_with('.') || name == plans::PLANS_FOLDER {
                 continue;
             }
             f.push(unknown_folder_finding(&name, known).in_file(rel(root, &dir)));
@@ -507,7 +515,7 @@ pub const ENTITY_FILES: &[&str] = &[
 ];
 
 /// The files tessera reads under `rates/`.
-pub const RATE_FILES: &[&str] = &["monthly.csv", "historical.csv"];
+pub const RATE_FILES: &[&str] = &["monthly.csv", "historical.csv", price_index::PRICE_INDEX_FILE];
 
 /// The fixed file names of an entity folder (trial balances are named by pattern).
 const DELIVERY_FILES: &[&str] = &["mapping.csv", "opening.csv", DOCUMENTS_FILE];
@@ -1029,7 +1037,7 @@ fn load_holdings(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
 fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Vec<InputFile>) -> Vec<AccountDef> {
     let spec = Spec {
         required: &["account", "name", "statement", "class", "basis"],
-        optional: &["ic_kind", "non_current", "reserve"],
+        optional: &["ic_kind", "non_current", "reserve", "monetary"],
         prefixes: &[],
     };
     let Some(t) = open_table(root, path, &spec, f, inputs) else { return Vec::new() };
@@ -1128,6 +1136,7 @@ fn load_accounts(root: &Path, path: &Path, f: &mut Vec<Finding>, inputs: &mut Ve
             ic_kind: t.get("ic_kind", row),
             non_current,
             reserve: t.get("reserve", row).map(GroupAccount::new),
+            monetary: price_index::parse_monetary(&t, row, class, f),
             source: Source::line(&t.file, line),
         });
     }

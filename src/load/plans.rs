@@ -1,4 +1,4 @@
-//! Reads one plan (the budget or a named forecast) from `plans/<name>/`: one file of
+//! Reads one plan (the budget or a named forecast) from `entities/plans/<name>/`: one file of
 //! monthly movements per entity (`<ENTITY>.csv`, the trial balance's columns, local
 //! accounts) and the plan's own rates (`rates.csv`, the shape of `rates/monthly.csv`).
 //! The movements are parsed by the trial balance's own parser, so an amount in a plan
@@ -16,7 +16,9 @@ use crate::findings::{Finding, Rule, Severity};
 use crate::model::{Currency, EntityId};
 
 /// The folder under the data folder that holds the plans.
-pub const PLANS_DIR: &str = "plans";
+pub const PLANS_DIR: &str = "entities/plans";
+/// The folder's name inside `entities/`, which no entity may take.
+pub const PLANS_FOLDER: &str = "plans";
 /// The plan's rates inside its folder.
 pub const PLAN_RATES_FILE: &str = "rates.csv";
 
@@ -43,8 +45,8 @@ pub fn is_plan_name(name: &str) -> bool {
             .is_some_and(|l| !l.is_empty() && l.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_'))
 }
 
-/// The plans of the data folder (`plans/<name>/` with a plan's name), sorted; a folder
-/// under `plans/` that names no plan is a warning.
+/// The plans of the data folder (`entities/plans/<name>/` with a plan's name), sorted; a folder
+/// under `entities/plans/` that names no plan is a warning.
 pub fn plan_names(root: &Path, f: &mut Vec<Finding>) -> Vec<String> {
     let dir = root.join(PLANS_DIR);
     let mut names: Vec<String> = std::fs::read_dir(&dir)
@@ -62,8 +64,10 @@ pub fn plan_names(root: &Path, f: &mut Vec<Finding>) -> Vec<String> {
             f.push(
                 Finding::new(
                     Rule::FileUnknown,
-                    format!("folder `{n}` under plans/ is neither budget nor forecast-<label>, and is not read"),
-                    "rename it budget or forecast-<label>, or move it out of plans/",
+                    format!(
+                        "folder `{n}` under entities/plans/ is neither budget nor forecast-<label>, and is not read"
+                    ),
+                    "rename it budget or forecast-<label>, or move it out of entities/plans/",
                 )
                 .in_file(rel(root, &dir.join(n)))
                 .severity(Severity::Warning),
@@ -74,7 +78,7 @@ pub fn plan_names(root: &Path, f: &mut Vec<Finding>) -> Vec<String> {
     names
 }
 
-/// Reads `plans/<name>/` of the data folder `ds.root`. `None` (with a finding) when the
+/// Reads `entities/plans/<name>/` of the data folder `ds.root`. `None` (with a finding) when the
 /// folder or its rates are missing.
 pub fn load_plan(ds: &Dataset, name: &str, f: &mut Vec<Finding>) -> Option<PlanInput> {
     let _span = tracing::info_span!("load_plan", plan = name).entered();

@@ -45,6 +45,7 @@ const ROLE_KEYS: &[&str] = &[
     "cost_of_sales",
     "goodwill_impairment",
     "bargain_purchase_gain",
+    "net_monetary_position",
     "deferred_tax",
     "deferred_tax_expense",
 ];
@@ -405,6 +406,7 @@ fn parse_role_accounts(raw: &RawSettings, file: &str, findings: &mut Vec<Finding
         bargain_purchase_gain: raw.accounts.get("bargain_purchase_gain").map(|a| GroupAccount::new(a.trim())),
         deferred_tax: raw.accounts.get("deferred_tax").map(|a| GroupAccount::new(a.trim())),
         deferred_tax_expense: raw.accounts.get("deferred_tax_expense").map(|a| GroupAccount::new(a.trim())),
+        net_monetary_position: raw.accounts.get("net_monetary_position").map(|a| GroupAccount::new(a.trim())),
     })
 }
 

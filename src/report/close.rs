@@ -556,6 +556,7 @@ fn translated_frame(df: &DataFrame, t: &Tables<'_>) -> PolarsResult<DataFrame> {
             col("basis"),
             col("amount_local"),
             col("balance_local"),
+            col("restatement_local"),
             col("txn_amount"),
             col("rate"),
             col("quote"),
@@ -589,7 +590,7 @@ fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> R
             continue;
         }
         exprs.push(match n {
-            "amount_local" | "balance_local" if has("minor_local") => {
+            "amount_local" | "balance_local" | "restatement_local" if has("minor_local") => {
                 text_at_minor(n, "minor_local", &minors, col(n).cast(DataType::String))
             }
             // A line with no transaction currency has no transaction amount.

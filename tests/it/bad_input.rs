@@ -76,6 +76,23 @@ fn with_reserve(f: &Folder, account: &str, reserve: &str) {
     });
 }
 
+/// BRW-MX made hyperinflationary from 2026-01 (IAS 29), with the index of every month
+/// from the year start in `rates/price_index.csv` but `skip`.
+fn hyperinflationary_mx(f: &Folder, skip: Option<&str>) {
+    f.replace("entities/entities.csv", "MX,MXN,Americas,Instruments,\n", "MX,MXN,Americas,Instruments,2026-01\n");
+    let mut text = String::from("currency,period,index\n");
+    for (i, m) in ["2025-12", "2026-01", "2026-02", "2026-03", "2026-04", "2026-05", "2026-06"]
+        .into_iter()
+        .chain(["2026-07", "2026-08", "2026-09", "2026-10", "2026-11", "2026-12"])
+        .enumerate()
+    {
+        if Some(m) != skip {
+            text.push_str(&format!("MXN,{m},{}\n", 100 + 5 * i));
+        }
+    }
+    f.write("rates/price_index.csv", &text);
+}
+
 fn cases() -> Vec<Case> {
     vec![
         // --- the shape of a file ---------------------------------------------------
@@ -683,6 +700,41 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "an undated impairment of the associate's acquisition",
+            mutate: |f| {
+                f.replace(
+                    "entities/acquisitions.csv",
+                    "2678571.43,0,equity acquired",
+                    "2678571.43,50000,equity acquired",
+                )
+            },
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "unrealised profit on goods the parent sold to its associate",
+            mutate: |f| {
+                let text = f.read("entities/inventory_profit.csv")
+                    + "ALD-NL,HEL-CH,2026-12,100000.00,CHF,0.20,sold to the associate\n";
+                f.write("entities/inventory_profit.csv", &text);
+            },
+            rule: None,
+            code: 0,
+        },
+        Case {
+            name: "unrealised profit with the associate under the deferred tax policy",
+            mutate: |f| {
+                let text = f.read("entities/inventory_profit.csv")
+                    + "ALD-NL,HEL-CH,2026-12,100000.00,CHF,0.20,sold to the associate\n";
+                f.write("entities/inventory_profit.csv", &text);
+                let toml =
+                    f.read("entities/group.toml").replace("[policies]\n", "[policies]\ndeferred_tax = \"recognise\"\n");
+                f.write("entities/group.toml", &toml);
+            },
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
             name: "a top-side entry booked outside the fiscal year",
             mutate: |f| map_lines(f, TOPSIDE, |_, l| l.replace(",2026-11,", ",2027-01,")),
             rule: Some("PeriodOutsideYear"),
@@ -704,6 +756,81 @@ fn cases() -> Vec<Case> {
             name: "a top-side row without its preparer",
             mutate: |f| f.replace(TOPSIDE, ",group reporting (M. Okafor)\n", ",\n"),
             rule: Some("ValueMissing"),
+            code: 1,
+        },
+        // --- IAS 29: price indices and the monetary classification ---------------------
+        Case {
+            name: "a price index of zero",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nMXN,2026-12,0\n"),
+            rule: Some("PriceIndexNotPositive"),
+            code: 1,
+        },
+        Case {
+            name: "a price index that is not a number",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nMXN,2026-12,12O.5\n"),
+            rule: Some("ValueInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "the same month's price index twice",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nARS,2026-12,120\nARS,2026-12,121\n"),
+            rule: Some("RowDuplicated"),
+            code: 1,
+        },
+        Case {
+            name: "price indices of a currency no entity restates",
+            mutate: |f| f.write("rates/price_index.csv", "currency,period,index\nARS,2026-11,110\nARS,2026-12,121\n"),
+            rule: Some("PriceIndexUnused"),
+            code: 0,
+        },
+        Case {
+            name: "a hyperinflationary entity's price index lacks a month",
+            mutate: |f| hyperinflationary_mx(f, Some("2026-07")),
+            rule: Some("PriceIndexMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity without the index of the year start",
+            mutate: |f| hyperinflationary_mx(f, Some("2025-12")),
+            rule: Some("PriceIndexMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity and a chart that says nothing of monetary items",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("MonetaryClassMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity and no account for the net monetary position",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("SettingInvalid"),
+            code: 1,
+        },
+        Case {
+            name: "an acquired hyperinflationary entity",
+            mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity in the presentation currency",
+            mutate: |f| {
+                f.replace("entities/entities.csv", "NL,EUR,Europe,Corporate,\n", "NL,EUR,Europe,Corporate,2026-01\n")
+            },
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
+            name: "a monetary flag on an equity account",
+            mutate: |f| {
+                map_lines(f, "entities/accounts.csv", |i, l| match i {
+                    0 => format!("{l},monetary"),
+                    _ if l.starts_with("3200,") => format!("{l},true"),
+                    _ => format!("{l},"),
+                })
+            },
+            rule: Some("ValueInvalid"),
             code: 1,
         },
     ]

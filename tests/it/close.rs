@@ -631,6 +631,24 @@ fn every_finding_of_the_close_is_listed_by_check() {
             "ValueInvalid",
         ),
     ];
+    // The equity method: an undated impairment of an investee, never posted, and an NCI
+    // fair value of an investee, which has no NCI.
+    let broken = broken.into_iter().chain([
+        (
+            "associate-losses-beyond-the-investment",
+            "entities/acquisitions.csv",
+            "1000,1000,0",
+            "1000,1000,50",
+            "ValueInvalid",
+        ),
+        (
+            "associate-losses-beyond-the-investment",
+            "entities/acquisitions.csv",
+            "share_of_net_assets,,1000",
+            "fair_value,70,1000",
+            "ValueInvalid",
+        ),
+    ]);
     for (case, file, from, to, rule) in broken {
         let f = Folder::empty();
         let src = repo().join("tests/cases").join(case);
@@ -647,7 +665,9 @@ fn every_finding_of_the_close_is_listed_by_check() {
         let listed: Vec<_> = checked["findings"].as_array().into_iter().flatten().map(key).collect();
         let found: Vec<_> = closed["findings"].as_array().into_iter().flatten().map(key).collect();
         assert!(found.iter().any(|k| k.0 == format!("{rule:?}")), "{case}: the close raises no {rule}: {closed:#}");
-        for k in &found {
+        // The losses of an investee not recognised (IAS 28.39) are a figure of the close,
+        // shown as a warning, not a problem of the data that check could see.
+        for k in found.iter().filter(|k| k.0 != "\"AssociateLossesUnrecognised\"") {
             assert!(listed.contains(k), "{case}: check does not list {k:?}; it lists {listed:?}");
         }
     }

@@ -162,11 +162,11 @@ fn currency_effect_and_walk_on_two_entities_by_hand() {
         "period,account,amount,counterparty\n2026-01,4000,-1100.00,\n2026-01,5000,440.00,\n2026-01,1000,660.00,\n",
     );
     f.write(
-        "plans/budget/rates.csv",
+        "entities/plans/budget/rates.csv",
         "period,currency,closing,average,quote\n2026-01,USD,1.0000,1.0000,units_per_presentation\n",
     );
-    f.write("plans/budget/E0.csv", "period,account,amount\n2026-01,4000,-450.00\n");
-    f.write("plans/budget/E1.csv", "period,account,amount\n2026-01,4000,-1000.00\n2026-01,5000,400.00\n");
+    f.write("entities/plans/budget/E0.csv", "period,account,amount\n2026-01,4000,-450.00\n");
+    f.write("entities/plans/budget/E1.csv", "period,account,amount\n2026-01,4000,-1000.00\n2026-01,5000,400.00\n");
     let (code, v) = close_json(&f, "2026-01", "budget");
     assert_eq!(code, 0, "{v:#}");
     let cmp = &v["statements"]["comparison"];
@@ -231,12 +231,12 @@ fn prior_year_without_one_is_a_blocking_finding() {
 #[test]
 fn a_plans_bad_rows_are_findings_all_in_one_run() {
     let f = Folder::demo();
-    f.append("plans/budget/ALD-UK.csv", "2026-02,99999,100.00,");
-    f.append("plans/budget/ALD-UK.csv", "2027-01,4000,-100.00,");
-    let dup = f.read("plans/budget/ALD-NL.csv").lines().nth(1).unwrap().to_string();
-    f.append("plans/budget/ALD-NL.csv", &dup);
-    f.write("plans/budget/XYZ.csv", "period,account,amount\n");
-    f.replace("plans/budget/rates.csv", "2026-03,USD,", "2026-03,USX,");
+    f.append("entities/plans/budget/ALD-UK.csv", "2026-02,99999,100.00,");
+    f.append("entities/plans/budget/ALD-UK.csv", "2027-01,4000,-100.00,");
+    let dup = f.read("entities/plans/budget/ALD-NL.csv").lines().nth(1).unwrap().to_string();
+    f.append("entities/plans/budget/ALD-NL.csv", &dup);
+    f.write("entities/plans/budget/XYZ.csv", "period,account,amount\n");
+    f.replace("entities/plans/budget/rates.csv", "2026-03,USD,", "2026-03,USX,");
     let (code, v) = close_json(&f, "2026-12", "budget");
     assert_eq!(code, 1, "{v:#}");
     let rules: Vec<String> = v["findings"]
@@ -254,8 +254,8 @@ fn a_plans_bad_rows_are_findings_all_in_one_run() {
     let (code, c) = run_json(f.path(), &["check", "--period", "2026-12"]);
     assert_eq!(code, 1, "{c:#}");
     let unmapped = c["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "AccountUnmapped").expect("unmapped");
-    assert_eq!(unmapped["file"], "plans/budget/ALD-UK.csv");
-    assert_eq!(unmapped["line"].as_u64(), Some(f.line_of("plans/budget/ALD-UK.csv", "2026-02,99999")));
+    assert_eq!(unmapped["file"], "entities/plans/budget/ALD-UK.csv");
+    assert_eq!(unmapped["line"].as_u64(), Some(f.line_of("entities/plans/budget/ALD-UK.csv", "2026-02,99999")));
     let rules: Vec<&str> = c["findings"].as_array().unwrap().iter().map(|x| x["rule"].as_str().unwrap()).collect();
     for rule in ["PeriodOutsideYear", "RowDuplicated", "EntityUnknown", "RateMissing", "CurrencyUnknown"] {
         assert!(rules.contains(&rule), "check: {rule} missing in {rules:?}");
@@ -278,7 +278,7 @@ proptest! {
         plan_rate in 8_000i64..16_000,
     ) {
         let f = crate::close_oracle::write(&g);
-        f.write("plans/budget/rates.csv", &format!(
+        f.write("entities/plans/budget/rates.csv", &format!(
             "period,currency,closing,average,quote\n2026-01,USD,{r},{r},units_per_presentation\n", r = Decimal::new(plan_rate, 4)));
         let k = Decimal::new(scale, 2);
         for (i, e) in g.ents.iter().enumerate() {
@@ -296,7 +296,7 @@ proptest! {
                     text.push_str(&format!("2026-01,5100,{},E{a}\n", Decimal::new(sales, 2)));
                 }
             }
-            f.write(&format!("plans/budget/E{i}.csv"), &text);
+            f.write(&format!("entities/plans/budget/E{i}.csv"), &text);
         }
         let (code, v) = close_json(&f, "2026-01", "budget");
         prop_assert_eq!(code, 0, "{:#}", v);
@@ -415,9 +415,9 @@ fn currency_effect_is_zero_for_a_plan_at_the_actual_rates_all_year() {
         .filter(|l| l.starts_with("period") || l.starts_with("2026-"))
         .map(|l| format!("{l}\n"))
         .collect();
-    f.write("plans/forecast-same/rates.csv", &rates);
+    f.write("entities/plans/forecast-same/rates.csv", &rates);
     for e in ["ALD-NL", "ALD-UK", "ALD-US", "BRW-MX", "BRW-US", "HEL-CH", "KIS-JP", "NRD-SE", "WSL-PL"] {
-        f.write(&format!("plans/forecast-same/{e}.csv"), &f.read(&format!("plans/budget/{e}.csv")));
+        f.write(&format!("entities/plans/forecast-same/{e}.csv"), &f.read(&format!("entities/plans/budget/{e}.csv")));
     }
     let (code, v) = close_json(&f, "2026-12", "forecast-same");
     assert_eq!(code, 0, "{v:#}");

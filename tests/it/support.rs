@@ -49,7 +49,7 @@ impl Folder {
     /// A copy of the bundled demo group (its plans included).
     pub fn demo() -> Self {
         let f = Self::empty();
-        for sub in ["entities", "rates", "plans"] {
+        for sub in ["entities", "rates"] {
             copy_dir(&repo().join(sub), &f.path().join(sub));
         }
         f
@@ -163,6 +163,30 @@ equity_changes,TR,Translation reserve,3300,,credit_positive
 equity_changes,NCI,Non-controlling interests,3900,,credit_positive
 equity_changes,TOT,Total equity,,SC RE TR NCI,credit_positive
 ";
+
+/// `CHART` ready for an IAS 29 restatement: a `monetary` column (cash, receivables,
+/// payables and loans monetary; goodwill, investments and inventory not: IAS 29.12-14)
+/// and account 5150 for the gain or loss on the net monetary position, inside the
+/// layout's expenses.
+pub fn ias29_chart() -> String {
+    let mut out = String::new();
+    for (i, l) in CHART.lines().enumerate() {
+        let monetary = match l.split(',').next().unwrap_or_default() {
+            _ if i == 0 => "monetary",
+            "1000" | "1550" | "2550" | "2600" | "1600" => "true",
+            "1100" | "1300" | "1400" | "1500" => "false",
+            _ => "",
+        };
+        out.push_str(&format!("{l},{monetary}\n"));
+    }
+    out.push_str("5150,Gain or loss on the net monetary position,profit_or_loss,expense,average,,,\n");
+    out
+}
+
+/// `settings` naming account 5150 for the net monetary position (IAS 29.28).
+pub fn ias29_settings(settings: &str) -> String {
+    settings.replacen("[accounts]\n", "[accounts]\nnet_monetary_position = \"5150\"\n", 1)
+}
 
 pub fn settings(presentation: &str, parent: &str, rounding: &str, income: &str) -> String {
     format!(

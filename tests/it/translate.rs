@@ -1,6 +1,6 @@
 //! Translation (IAS 21) against published examples, policies and a property test.
 
-use crate::support::{CHART, Folder, LAYOUT, identity_mapping, run_json, settings};
+use crate::support::{CHART, Folder, LAYOUT, ias29_chart, ias29_settings, identity_mapping, run_json, settings};
 
 /// A parent in EUR and one wholly owned subsidiary in `ccy`, with the given opening
 /// balance, one month of movements and rates (units of `ccy` per EUR).
@@ -29,6 +29,12 @@ fn build_through(c: &Case, hyper_from: &str, months: &[&str]) -> Folder {
         tb.push_str(&format!("{m},1000,0.00\n"));
     }
     f.write("entities/P/tb-2026-01.movements.csv", &tb);
+    if !hyper_from.is_empty() {
+        // What the IAS 29 restatement needs besides the price index: the chart's
+        // monetary column and the net monetary position's account.
+        f.write("entities/accounts.csv", &ias29_chart());
+        f.write("entities/group.toml", &ias29_settings(&settings("EUR", "P", c.rounding, c.income)));
+    }
     f
 }
 
@@ -234,13 +240,17 @@ fn rounding_ties_at_half_in_both_modes() {
 
 /// A hyperinflationary subsidiary (IAS 21.42(a)): from the first hyperinflationary period
 /// every item, equity and income included, is translated at the closing rate, after the
-/// IAS 29 restatement (which the entity delivers; tessera translates). Invented ARS
-/// figures, by hand: opening cash 1,000 and share capital 1,000 brought forward at
-/// EUR 80.00; ARS per EUR 10 at the opening, 20 at January's close, 15 average.
-/// January revenue 400: cash 1,400 / 20 = 70.00; share capital -1,000 / 20 = -50.00;
-/// revenue -400 / 20 = -20.00 (not -400 / 15 = -26.67). The month's translated movements:
-/// (70.00 - 100.00) + (-50.00 + 80.00) - 20.00 = -20.00, so the translation difference is
-/// +20.00 debit, -20.00 gains positive, all of it the hyperinflation line.
+/// IAS 29 restatement. Invented ARS figures, worked by hand: opening cash 1,000 and share
+/// capital 1,000 brought forward at EUR 80.00; ARS per EUR 10 at the opening, 20 at
+/// January's close, 15 average; price index 100 at the opening, 125 at January's end.
+/// Restated (IAS 29.12, 29.25-28): cash 1,400 kept; share capital 1,000 x 1.25 = 1,250;
+/// January revenue 400 as recorded; the net monetary asset of 1,000 held while prices
+/// rose 25% loses 250 (1,400 - 1,250 - 400 = -250, balanced by a debit of 250).
+/// Translated at 20: cash 70.00, share capital -62.50, revenue -20.00 (not -400 / 15 =
+/// -26.67), the loss 12.50. The month's translated movements: (70.00 - 100.00) +
+/// (-62.50 + 80.00) - 20.00 + 12.50 = -20.00, so the translation difference is +20.00
+/// debit, -20.00 gains positive, all of it the hyperinflation line: the translated
+/// balances of the month before (100.00 - 80.00 = 20.00) released.
 #[test]
 fn hyperinflationary_entity_at_closing_rate_throughout() {
     let f = build_through(
@@ -257,19 +267,60 @@ fn hyperinflationary_entity_at_closing_rate_throughout() {
         "2026-01",
         &["2026-01"],
     );
+    f.write("rates/price_index.csv", "currency,period,index\nARS,2025-12,100\nARS,2026-01,125\n");
     let (code, r) = run_json(f.path(), &["translate", "--period", "2026-01"]);
     assert_eq!(code, 0, "{r:#}");
     assert_eq!(r["proof"]["tied"], true);
     let s = entity(&r, "S");
     assert_eq!(dec(&line(s, "1000")["balance_presentation"]), "70.00");
-    assert_eq!(dec(&line(s, "3000")["balance_presentation"]), "-50.00");
+    assert_eq!(dec(&line(s, "3000")["balance_presentation"]), "-62.50");
+    assert_eq!(dec(&line(s, "3000")["balance_local"]), "-1250.00");
+    assert_eq!(dec(&line(s, "5150")["balance_local"]), "250.00");
+    assert_eq!(dec(&line(s, "5150")["balance_presentation"]), "12.50");
     assert_eq!(line(s, "3000")["rate_kind"], "closing");
     assert_eq!(dec(&line(s, "4000")["balance_presentation"]), "-20.00");
     assert_eq!(line(s, "4000")["rate_kind"], "closing");
     let m = &s["month"];
     assert_eq!(dec(&m["on_hyperinflation"]), "-20.00");
+    assert_eq!(dec(&m["rounding"]), "0.00");
     assert_eq!(dec(&m["total"]), "-20.00");
     assert_eq!(dec(&m["on_profit"]), "0.00");
+}
+
+/// The explanation of a hyperinflationary entity's translation difference, on the case
+/// `hyperinflation-begins-mid-year-ias29` (worked by hand in its SOURCE.md from IAS
+/// 21.39-42 and IAS 29): January, before hyperinflation, splits as usual into (30.00) on
+/// the opening net assets and (3.30) on profit; February, restated and all at closing,
+/// releases January's translated balances: a gain of 33.30, the cause `hyperinflation`.
+#[test]
+fn hyperinflation_beginning_in_the_year_releases_the_earlier_translation() {
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/hyperinflation-begins-mid-year-ias29");
+    let (code, r) = run_json(&dir, &["translate", "--period", "2026-02"]);
+    assert_eq!(code, 0, "{r:#}");
+    assert_eq!(r["proof"]["tied"], true);
+    let p = entity(&r, "P");
+    let (m, y) = (&p["month"], &p["year_to_date"]);
+    assert_eq!(dec(&m["on_hyperinflation"]), "33.30");
+    assert_eq!(dec(&m["on_opening_net_assets"]), "0.00");
+    assert_eq!(dec(&m["rounding"]), "0.00");
+    assert_eq!(dec(&m["total"]), "33.30");
+    assert_eq!(dec(&y["on_opening_net_assets"]), "-30.00");
+    assert_eq!(dec(&y["on_profit"]), "-3.30");
+    assert_eq!(dec(&y["total"]), "0.00");
+    assert_eq!(dec(&line(p, "1200")["balance_local"]), "2200.00");
+    // The audit trail (translated.csv): land restated by 121/110 in February, the
+    // restatement beside the balance; the gain on the net monetary position all of it.
+    let out = tempfile::tempdir().expect("temp dir");
+    let (code, _) = run_json(&dir, &["close", "--period", "2026-02", "--out", out.path().to_str().expect("utf-8")]);
+    assert_eq!(code, 0);
+    let csv = std::fs::read_to_string(out.path().join("2026-02/group/ytd/translated.csv")).expect("translated.csv");
+    assert!(csv.starts_with("entity,group_account,account_name,counterparty,txn_currency,period,basis,amount_local,balance_local,restatement_local,"), "{csv}");
+    assert!(csv.contains("\nP,1200,Land,,,2026-02,closing,200.00,2200.00,200.00,"), "{csv}");
+    assert!(csv.contains("\nP,1200,Land,,,2026-01,closing,0.00,2000.00,0.00,"), "{csv}");
+    assert!(
+        csv.contains("\nP,5100,Gain or loss on the net monetary position,,,2026-02,average,-17.00,-17.00,-17.00,"),
+        "{csv}"
+    );
 }
 
 /// The three-tier group of IFRIC 16's reasoning (an ultimate parent, an intermediate

@@ -5,7 +5,9 @@
 //! src/translate.rs: closing-basis balances at the month's closing rate, income and
 //! expense at the month's average (periodic) or the year-to-date amount at the
 //! year-to-date average, equity brought forward plus each movement at its historical
-//! rate, everything at closing from the first hyperinflationary month (IAS 21.42), each
+//! rate, everything at closing from the first hyperinflationary month (IAS 21.42), after
+//! a restatement by a flat price index (IAS 29 with a factor of 1, so that the oracle
+//! needs no restatement of its own and the engine's restatement path still runs), each
 //! translated balance rounded once to the presentation currency's minor unit. From the
 //! oracle's own lines it computes the translation difference of every entity and month
 //! and checks the formula identity (IAS 21.39c, 21.41; docs/domain, Translation):
@@ -26,7 +28,7 @@ use std::str::FromStr;
 use proptest::prelude::*;
 use rust_decimal::{Decimal, RoundingStrategy};
 
-use crate::support::{CHART, Folder, LAYOUT, identity_mapping, settings};
+use crate::support::{Folder, LAYOUT, ias29_chart, ias29_settings, identity_mapping, settings};
 use tessera::model::Period;
 
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -225,15 +227,21 @@ fn build(c: &Case) -> Folder {
     let f = Folder::empty();
     let rounding = if c.even { "half_even" } else { "half_away_from_zero" };
     let income = if c.ytd { "year_to_date" } else { "periodic" };
-    f.write("entities/group.toml", &settings("EUR", "P", rounding, income));
+    f.write("entities/group.toml", &ias29_settings(&settings("EUR", "P", rounding, income)));
     let mut ents = String::from("entity,name,country,currency,hyperinflationary_from\nP,Parent,NL,EUR,\n");
     let mut hold = String::from("owner,owned,capital_share,voting_share,valid_from\n");
     let mut rates = String::from("period,currency,closing,average,average_ytd,quote\n");
     let mut hist = String::from("entity,account,period,rate,quote\n");
+    let mut index = String::from("currency,period,index\n");
     for (s, id) in c.subs.iter().zip(IDS) {
         let hyper = s.hyper_from.map(|m| MONTHS[m]).unwrap_or("");
         ents.push_str(&format!("{id},Sub {id},US,{},{hyper}\n", s.currency));
         hold.push_str(&format!("P,{id},1,1,2020-01-01\n"));
+        if s.hyper_from.is_some() {
+            for m in MONTHS {
+                index.push_str(&format!("{},{m},100\n", s.currency));
+            }
+        }
         for (m, r) in s.rates.iter().enumerate() {
             // One direction per currency and month: the closing rate's.
             let q = r.closing.quote();
@@ -258,7 +266,7 @@ fn build(c: &Case) -> Folder {
     }
     f.write("entities/entities.csv", &ents);
     f.write("entities/holdings.csv", &hold);
-    f.write("entities/accounts.csv", CHART);
+    f.write("entities/accounts.csv", &ias29_chart());
     f.write("entities/layouts.csv", LAYOUT);
     f.write("entities/P/mapping.csv", &identity_mapping());
     f.write("entities/P/opening.csv", "account,amount,amount_presentation\n1000,100.00,\n3000,-100.00,-100.00\n");
@@ -269,6 +277,7 @@ fn build(c: &Case) -> Folder {
     f.write("entities/P/tb-2026-q1.movements.csv", &tb);
     f.write("rates/monthly.csv", &rates);
     f.write("rates/historical.csv", &hist);
+    f.write("rates/price_index.csv", &index);
     f
 }
 
@@ -401,8 +410,13 @@ fn check_case(c: &Case) -> Result<(), TestCaseError> {
             prop_assert_eq!(x[4], total);
             prop_assert_eq!(x[0] + x[1] + x[2] + x[3] + x[5], total);
             if s.hyper_from.is_some_and(|h| m >= h) {
-                // IAS 21.42: every item at closing, the whole difference is the restatement's.
-                prop_assert_eq!(x[5], total);
+                // IAS 21.42: every item at closing. The restated balances sum to zero, so
+                // the difference is the translated balances of the month before, released,
+                // and the rounding of this month's.
+                let before: Decimal = ACCOUNTS.iter().map(|(a, _)| want[&(*a, m - 1)]).sum();
+                let now: Decimal = ACCOUNTS.iter().map(|(a, _)| want[&(*a, m)]).sum();
+                prop_assert_eq!(x[5], -before, "on hyperinflation {} {}", id, MONTHS[m]);
+                prop_assert_eq!(x[3], now, "rounding {} {}", id, MONTHS[m]);
                 continue;
             }
             prop_assert_eq!(x[5], Decimal::ZERO);
