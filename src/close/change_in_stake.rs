@@ -288,7 +288,10 @@ mod tests {
         let mut cx = w.context(p("2026-03"), p("2026-01"), balances(&[("P", "1200", Some("S"), "490")]));
         let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
         for (m, r) in rates {
-            cx.closing.insert((usd, p(m)), crate::load::Rate { value: d(r), quote: crate::load::Quote::UnitsPerPresentation });
+            cx.closing.insert(
+                (usd, p(m)),
+                crate::load::Rate { value: d(r), quote: crate::load::Quote::UnitsPerPresentation },
+            );
         }
         let invest = investment::investments(&cx);
         let (change, a) = purchase();
