@@ -410,8 +410,9 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
 /// reattributed, IAS 21.48C, by `change_in_stake`), the holder holds it alone before and after
 /// and has no NCI of its own, it holds no other entity, names no counterparty and is
 /// named by no other entity but for the investment in it, its acquisition measured the
-/// NCI at its share of net assets without a fair value adjustment, it changes hands once
-/// in the year, and the group has no statement of cash flows (IAS 7.42A is not built).
+/// NCI at its share of net assets without a fair value adjustment, no other change of it
+/// in the year has the same last month end before it (each change is posted at its own),
+/// and the group has no statement of cash flows (IAS 7.42A is not built).
 fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
@@ -451,8 +452,18 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     }
     let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
     let in_year = |d: NaiveDate| Period::of_date(d).fiscal_year_start(ds.settings.fiscal_year_start) == year;
-    if ds.ownership_changes.iter().filter(|o| o.owned == c.owned && in_year(o.date)).count() > 1 {
-        why.push(format!("{} changes hands more than once in the fiscal year", c.owned));
+    // Several changes in the year are posted one by one, each at the close of the last
+    // month end before it: two in the same month would share that close.
+    let month = last_controlled_month(c.date);
+    if ds
+        .ownership_changes
+        .iter()
+        .any(|o| o.owned == c.owned && o.date != c.date && in_year(o.date) && last_controlled_month(o.date) == month)
+    {
+        why.push(format!(
+            "{} changes hands more than once with the same last month end before the change ({month})",
+            c.owned
+        ));
     }
     if uses_other_reserves(ds, &c.owned) {
         why.push(

@@ -22,6 +22,11 @@
 //!   before the change (month granularity, as for a sale: `ownership`), at the new one
 //!   after.
 //!
+//! Several changes of one subsidiary in the year are posted one by one, each measured
+//! at the close of the last month end before it and from its share before to its share
+//! after (the next change's share before, or the period end's): the goodwill moved and
+//! the NCI's shares add up over the changes to what the period-end share needs.
+//!
 //! A foreign subsidiary's translation reserve is reattributed between the owners and
 //! the NCI, never reclassified to profit or loss (IAS 21.48C): the close carries the
 //! reserve gross and the NCI rule takes the NCI's share of it at the period-end share,
@@ -131,13 +136,14 @@ pub fn before<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> 
     Ok(b)
 }
 
-/// Posts the entry of one change in stake and corrects the subsidiary's NCI row.
+/// Posts the entry of one change in stake (`b`, with the next change of the subsidiary
+/// in the year, if any) and corrects the subsidiary's NCI row.
 pub fn post(
     j: &mut Journal,
     cx: &Context,
     acquisitions: &[Acquisition],
     holdings: &[Holding],
-    b: &Before,
+    (b, next): (&Before, Option<&Before>),
     invest: &Investments,
     nci: &mut Vec<NciRow>,
 ) -> Option<StakeChange> {
@@ -145,13 +151,19 @@ pub fn post(
     let (e, holder) = (&c.owned, &c.holder);
     let s = cx.structure.entity(e)?;
     let a = acquisitions.iter().rfind(|a| &a.owned == e && a.date < c.date)?;
-    let outside_at_acquisition = Decimal::ONE - crate::ownership::capital_share_on(holdings, holder, e, a.date);
-    let outside_now = Decimal::ONE - s.group_capital;
+    // Each change of the year moves goodwill by its own change of the outside share;
+    // over the year's changes these add up to the acquisition's outside share less the
+    // period end's, which the investment entry measured.
+    let share_on = |day| crate::ownership::capital_share_on(holdings, holder, e, day);
+    let outside_before = Decimal::ONE - share_on(c.date.pred_opt().unwrap_or(a.date));
+    let outside_after = Decimal::ONE - share_on(c.date);
+    // After this change and up to the next one of the year (or the period end).
+    let nci_after = next.map_or(s.nci, |n| n.nci_share);
     let fc = cx.currencies.get(e).copied().unwrap_or(cx.presentation);
-    let g = goodwill_moved(cx, a, fc, (outside_at_acquisition - outside_now) * a.net_assets)?;
+    let g = goodwill_moved(cx, a, fc, (outside_before - outside_after) * a.net_assets)?;
     let investment_now: Decimal =
         invest.get(e).into_iter().flatten().filter(|(h, _, _)| h == holder).map(|(_, _, x)| *x).sum();
-    let investment_change = investment_now - b.investment;
+    let investment_change = next.map_or(investment_now, |n| n.investment) - b.investment;
     // The consideration is in the subsidiary's currency (ownership_changes.csv), at the
     // closing rate of the last month end at the old share, as for a sale (month
     // granularity; the holder keeps its books in the presentation currency).
@@ -160,7 +172,7 @@ pub fn post(
     // The holder's own gain on shares sold: the proceeds less the investment's carrying
     // amount sold (nothing for a purchase, whose price the investment carries).
     let own_gain = cash + investment_change;
-    let nci_transferred = cx.round((b.nci_share - s.nci) * b.net_assets);
+    let nci_transferred = cx.round((b.nci_share - nci_after) * b.net_assets);
     // Goodwill at the closing rate (IAS 21.47): the part moved since the opening is the
     // year's exchange difference (OCI), the part before it sits in the reserve; the
     // consideration leaves the reserve where the investment entry left it. The NCI's
@@ -189,14 +201,14 @@ pub fn post(
             c.date,
             money::format_amount(c.consideration, cx.minor),
             b.nci_share.normalize(),
-            s.nci.normalize(),
+            nci_after.normalize(),
             money::format_amount(nci_transferred, cx.minor)
         ),
         lines,
     );
     // The NCI's share of the results to the last month end at the old share.
-    let extra_profit = cx.round((b.nci_share - s.nci) * b.profit);
-    let extra_oci = cx.round((b.nci_share - s.nci) * b.oci);
+    let extra_profit = cx.round((b.nci_share - nci_after) * b.profit);
+    let extra_oci = cx.round((b.nci_share - nci_after) * b.oci);
     match nci.iter_mut().find(|r| &r.entity == e) {
         Some(r) => {
             r.profit += extra_profit;
@@ -307,7 +319,7 @@ mod tests {
         let mut nci =
             vec![NciRow { entity: id("S"), nci_share: d("0.1"), profit: d("20"), oci: Decimal::ZERO, equity: d("80") }];
         let mut j = Journal::default();
-        let done = post(&mut j, &cx, &[a], &holdings, &b, &invest, &mut nci);
+        let done = post(&mut j, &cx, &[a], &holdings, (&b, None), &invest, &mut nci);
         (j, nci, done)
     }
 

@@ -505,3 +505,62 @@ fn a_stake_of_a_foreign_operation_sold_with_control_kept_reclassifies_nothing() 
     let o = &row("other")["amounts"];
     assert_eq!(amount(&o["total_equity"]), d("0"), "{o:#}");
 }
+
+/// Two changes in stake of S in one year (tests/cases/change-in-stake-purchase with a
+/// second step, worked by hand from IFRS 10.23, B94 and B96): P buys 10% (80% to 90%)
+/// on 1 February for 80 and 5% more (to 95%) on 1 March for 40. S's net assets: 650 at
+/// 31 January, 700 at 28 February, 800 at 31 March. First change: the NCI's carrying
+/// amount 20% x 650 = 130, half of it (65) transferred, paid 80: -15 in retained
+/// earnings. Then the NCI 65 + 10% x February's 50 = 70 = 10% x 700, half of it (35)
+/// transferred, paid 40: -5. NCI at 31 March 35 + 5% x March's 100 = 40 = 5% x 800;
+/// its profit 20% x 50 + 10% x 50 + 5% x 100 = 20; goodwill stays 80.
+#[test]
+fn two_changes_in_stake_in_a_year_each_at_its_own_share() {
+    let f = case("change-in-stake-purchase");
+    f.write(
+        HOLDINGS,
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,S,0.8,0.8,2021-01-01,2026-01-31\nP,S,0.9,0.9,2026-02-01,2026-02-28\nP,S,0.95,0.95,2026-03-01,\n",
+    );
+    f.write(CHANGES, &format!("{HEADER}\n2026-02-01,P,S,0.1,80,,,,\n2026-03-01,P,S,0.05,40,,,,\n"));
+    f.write(
+        "entities/P/tb-2026.movements.csv",
+        "period,account,amount,counterparty\n2026-01,1000,0,\n2026-02,1000,-80,\n2026-02,1400,80,S\n2026-03,1000,-40,\n2026-03,1400,40,S\n",
+    );
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let tb = |a: &str| {
+        v["group_trial_balance"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["account"] == a)
+            .map(|r| amount(&r["amount"]))
+            .unwrap_or_default()
+    };
+    assert_eq!([tb("1000"), tb("1100"), tb("3900"), tb("3200")], [d("880"), d("80"), d("-40"), d("-120")]);
+    let a = &v["attribution"];
+    assert_eq!([amount(&a["profit_nci"]), amount(&a["profit_owners"])], [d("20"), d("180")], "{a:#}");
+    let rows = v["statements"]["changes_in_equity"]["rows"].as_array().unwrap();
+    let row = |id: &str| rows.iter().find(|r| r["row"] == id).unwrap_or_else(|| panic!("no row {id}"));
+    let t = &row("transactions_with_nci")["amounts"];
+    assert_eq!(
+        [amount(&t["RE"]), amount(&t["NCI"]), amount(&t["total_equity"])],
+        [d("-20"), d("-100"), d("-120")],
+        "{t:#}"
+    );
+    let o = &row("other")["amounts"];
+    assert_eq!(amount(&o["total_equity"]), d("0"), "{o:#}");
+
+    // Two changes with the same last month end before them (1 and 15 March) block.
+    f.write(
+        HOLDINGS,
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,S,0.8,0.8,2021-01-01,2026-02-28\nP,S,0.9,0.9,2026-03-01,2026-03-14\nP,S,0.95,0.95,2026-03-15,\n",
+    );
+    f.write(CHANGES, &format!("{HEADER}\n2026-03-01,P,S,0.1,80,,,,\n2026-03-15,P,S,0.05,40,,,,\n"));
+    let (_, fs) = check(&f, "2026-03");
+    let x = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(x.len(), 2, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("same last month end"), "{:#}", x[0]);
+}
