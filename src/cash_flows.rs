@@ -34,9 +34,35 @@
 //! account: what a subsidiary pays outside the group goes to its non-controlling
 //! shareholders (IAS 7.31, 7.34: dividends paid to NCI in financing).
 //!
-//! Not supported: disposals of subsidiaries (an entity consolidated at the opening but not
-//! at the closing fails the proof, never a guess), changes in ownership without loss of
-//! control (IAS 7.42A), and the direct method.
+//! A change in stake with control kept (`change_in_stake`) in the view is a transaction
+//! with the NCI, in financing at the consideration paid or received (IAS 7.42A): the
+//! holder's flows on its investment in the subsidiary and the non-cash movements of the
+//! entries the change moves (the subsidiary's `investment_and_goodwill` and
+//! `change_in_stake`, but their profit or loss part, which stays in profit before tax: the
+//! holder's own gain on shares sold and its reversal) go to one line of their own; that
+//! line must equal the consideration of the changes in the view, or the proof names the
+//! difference.
+//!
+//! A subsidiary sold in the view (`loss_of_control`, in the closing's year to date and not
+//! the opening's) is consolidated to its last month end: its flows count to then (its
+//! results in operating activities, its working capital), and from then on it is one
+//! investing line, the proceeds net of the cash and cash equivalents it held (IAS
+//! 7.39-42): the holder's flows on its investment in it, and the movement of every entry
+//! about it (the opening's, the `loss_of_control` entry that derecognises its balances)
+//! but their profit or loss part and its cash. Its cash derecognised is part of the change
+//! in cash; the gain on disposal stays in profit before tax and is taken out on a line of
+//! its own (a non-cash item, IAS 7.18(b)), against the disposal line. The disposal line
+//! must be the proceeds less the cash disposed, or the proof names the difference (a
+//! profit or loss elimination about the subsidiary other than the gain, say).
+//!
+//! Dividends from equity-accounted investees (the holder's income on a `dividend`
+//! account naming one) stay in operating activities, or, under
+//! `policies.associate_dividends = "investing"`, are taken out of operating and shown in
+//! investing (IAS 7.31-33, 7.38); the share of their results is reversed as non-cash.
+//!
+//! Not supported: a subsidiary acquired and sold in the same view, an entity consolidated
+//! at the opening but not at the closing other than by a sale (each fails the proof, never
+//! a guess), and the direct method.
 //!
 //! The proof `cash_flows_reconcile` checks that opening cash plus the statement's net
 //! change plus the exchange line equals closing cash, to the cent, with the cash
@@ -51,6 +77,7 @@ use std::collections::{BTreeMap, BTreeSet};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
+use crate::close::loss_of_control::Disposal;
 use crate::close::{Close, EliminationRule};
 use crate::load::{Dataset, Quote};
 use crate::map_accounts::period_index;
@@ -128,6 +155,24 @@ pub const FAIR_VALUE_DEPRECIATION: &str = "fair_value_depreciation";
 const FAIR_VALUE_DEPRECIATION_LABEL: &str = "Depreciation of fair value adjustments";
 pub const SHARE_OF_ASSOCIATES: &str = "share_of_associates";
 pub const UNCLASSIFIED: &str = "unclassified";
+/// Dividends received from equity-accounted investees under the policy `investing`
+/// (IAS 7.31-33): taken out of profit before tax in operating, shown in investing.
+pub const ASSOCIATE_DIVIDEND_INCOME: &str = "associate_dividend_income";
+const ASSOCIATE_DIVIDEND_INCOME_LABEL: &str = "Dividends from associates and joint ventures (in investing)";
+pub const ASSOCIATE_DIVIDENDS: &str = "dividends_from_associates";
+const ASSOCIATE_DIVIDENDS_LABEL: &str = "Dividends received from associates and joint ventures";
+/// Not a line: the journal's movement on the cash of a subsidiary sold.
+const CASH_DISPOSED: &str = "cash_disposed";
+/// Changes in ownership interests in subsidiaries that do not result in a loss of control
+/// (IAS 7.42A), in financing.
+pub const NCI_TRANSACTIONS: &str = "transactions_with_nci";
+const NCI_TRANSACTIONS_LABEL: &str = "Changes in ownership interests in subsidiaries without loss of control";
+/// Disposals of subsidiaries, net of the cash disposed of (IAS 7.39-42), in investing.
+pub const DISPOSALS: &str = "disposal_of_subsidiaries";
+const DISPOSALS_LABEL: &str = "Disposal of subsidiaries net of cash disposed of";
+/// The gain or loss on disposal, taken out of profit before tax (non-cash).
+pub const GAIN_ON_DISPOSAL: &str = "gain_on_disposal";
+const GAIN_ON_DISPOSAL_LABEL: &str = "Gain or loss on disposal of subsidiaries";
 const ACQUISITIONS_LABEL: &str = "Acquisition of subsidiaries net of cash acquired";
 
 /// One line of the statement, cash in positive.
@@ -180,6 +225,23 @@ pub struct CashFlows {
     pub cash_opening: Decimal,
     pub cash_closing: Decimal,
     pub acquisitions: Vec<Acquisition>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub disposals: Vec<DisposalFlow>,
+}
+
+/// A subsidiary sold in the view (IAS 7.40).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
+pub struct DisposalFlow {
+    pub entity: EntityId,
+    pub date: chrono::NaiveDate,
+    /// The last month end consolidated.
+    pub last_month: Period,
+    /// The proceeds, at the closing rate of the last month end consolidated.
+    pub proceeds: Decimal,
+    /// Its cash and cash equivalents then, derecognised.
+    pub cash_disposed: Decimal,
+    /// The gain (positive) or loss on disposal, the reclassified reserve included.
+    pub gain: Decimal,
 }
 
 /// Parts of one (entity, account, counterparty) movement in the view.
@@ -207,6 +269,10 @@ enum Treatment {
     /// The release of their deferred tax: non-cash and no part of profit before tax, so
     /// the whole entry (tax income against the liability) nets to zero on that line.
     FairValueTax,
+    /// The entries a change in stake in the view moves (IAS 7.42A).
+    NciTransaction,
+    /// The entries about a subsidiary sold in the view (IAS 7.39-42).
+    Disposal,
 }
 
 /// The statement of cash flows between `opening` (the close at the end of the month
@@ -232,10 +298,10 @@ pub fn cash_flows(
 
     // Who is consolidated at each end, and from which month each entity's flows count.
     let members_of = members(s, opening, closing, &mut problems)?;
-    let Members { start, share, acquired } = &members_of;
+    let Members { start, share, acquired, end } = &members_of;
 
     // The translated movement, flow and balance acquired per (entity, account, counterparty).
-    let mut parts = translated_parts(ds, t, start, acquired, closing.period)?;
+    let mut parts = translated_parts(ds, t, (start, end), acquired, closing.period)?;
     add_translation_differences(ds, t, &members_of, closing.period, &mut parts)?;
 
     // The consolidated movement of each contribution, and its split.
@@ -250,6 +316,9 @@ pub fn cash_flows(
     let mut unclassified: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
     let investment_kind = |a: &GroupAccount| chart.get(a).and_then(|d| d.ic_kind.as_deref()) == Some("investment");
     let nci_line = class.get(&roles.non_controlling_interest).map(|d| d.line.clone());
+    let stakes = stake_changes_in_view(opening, closing);
+    let sold = disposals_in_view(opening, closing);
+    let mut cash_disposed: BTreeMap<EntityId, Decimal> = BTreeMap::new();
     for key in keys {
         let (e, a, cp) = key;
         let d = delta.get(key).copied().unwrap_or_default();
@@ -284,15 +353,35 @@ pub fn cash_flows(
             add(ACQUISITIONS, flow);
             continue;
         }
+        // What the holder paid or received for shares with control kept (IAS 7.42A), the
+        // carrying amount of an investment sold (with the disposal, IAS 7.40).
+        if let Some(line) = cp.as_ref().and_then(|c| changed_line(c, &stakes, &sold))
+            && investment_kind(a)
+        {
+            add(line, flow);
+            continue;
+        }
         route(&chart, &class, nci_line.as_deref(), root, e, a, flow, &mut add, &mut unclassified);
+        if cp.as_ref().is_some_and(|c| dividend_in_investing(ds, s, &chart, c, a)) {
+            add(ASSOCIATE_DIVIDEND_INCOME, -flow);
+            add(ASSOCIATE_DIVIDENDS, flow);
+        }
     }
 
     // The elimination journal's movement between the two closes.
-    for (own, e, a, x) in journal_lines(opening, closing, acquired, &chart, &class, &mut problems) {
+    for (own, e, a, x) in journal_lines(opening, closing, (acquired, &stakes, &sold), &chart, &class, &mut problems) {
         match own {
+            // The cash of a subsidiary sold, derecognised: part of the change in cash.
+            Some(CASH_DISPOSED) => *cash_disposed.entry(e).or_default() -= x,
             Some(line) => add(line, x),
             None => route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified),
         }
+    }
+    for d in sold.values() {
+        // The gain stays in profit before tax and is taken out as non-cash; the proceeds
+        // are in the disposal line (IAS 7.18(b), 7.39).
+        add(GAIN_ON_DISPOSAL, d.gain + d.reserve_recycled);
+        add(DISPOSALS, -(d.gain + d.reserve_recycled));
     }
     problems.extend(
         unclassified
@@ -305,6 +394,9 @@ pub fn cash_flows(
     // where they belong.
     let exchange_total = -exchange_components(&on_line, lines);
     let sections = sections(lines, &on_line, minor);
+    check_nci_transactions(&stakes, &on_line, minor, &mut problems);
+    let disposals = disposal_flows(&sold, &cash_disposed, minor);
+    check_disposals(&disposals, &on_line, minor, &mut problems);
     let net_change: Decimal = sections.iter().map(|s| s.total).sum();
 
     // The cash balances from the two roll-ups, the second path of the proof.
@@ -332,17 +424,20 @@ pub fn cash_flows(
         cash_opening: shown(minor, cash_opening),
         cash_closing: shown(minor, cash_closing),
         acquisitions,
+        disposals,
     };
     Ok((cf, checks))
 }
 
 /// The entities consolidated at the closing: the first month their flows count from,
-/// their share (proportionate consolidation), and which are first consolidated in the
-/// view. An entity consolidated only at the opening is a disposal: not supported.
+/// their share (proportionate consolidation), which are first consolidated in the view,
+/// and, for the subsidiaries sold in the year, the last month end consolidated. An entity
+/// consolidated only at the opening and not sold is not supported.
 struct Members {
     start: BTreeMap<EntityId, Period>,
     share: BTreeMap<EntityId, Decimal>,
     acquired: BTreeSet<EntityId>,
+    end: BTreeMap<EntityId, Period>,
 }
 
 fn members(s: &GroupStructure, opening: &Close, closing: &Close, problems: &mut Vec<String>) -> PolarsResult<Members> {
@@ -351,12 +446,19 @@ fn members(s: &GroupStructure, opening: &Close, closing: &Close, problems: &mut 
     let after = contributing(closing)?;
     for e in before.difference(&after) {
         problems.push(format!(
-            "{e} is consolidated at {} but not at {}: disposals of subsidiaries are not supported by the statement of cash flows (IAS 7.39-42)",
+            "{e} is consolidated at {} but not at {} without a sale in the year: the statement of cash flows does not present it (IAS 7.39-42)",
             opening.period, closing.period
         ));
     }
-    let mut m = Members { start: BTreeMap::new(), share: BTreeMap::new(), acquired: BTreeSet::new() };
+    let end: BTreeMap<EntityId, Period> = closing.disposals.iter().map(|d| (d.entity.clone(), d.last_month)).collect();
+    let mut m = Members { start: BTreeMap::new(), share: BTreeMap::new(), acquired: BTreeSet::new(), end };
     for e in &after {
+        if m.end.contains_key(e) && !before.contains(e) {
+            problems.push(format!(
+                "{e} is first consolidated and sold in the view {}..{}: the statement of cash flows does not present both (IAS 7.39-42)",
+                first, closing.period
+            ));
+        }
         let info = s.entity(e);
         let from = if before.contains(e) {
             first
@@ -390,7 +492,7 @@ fn add_translation_differences(
         let (Some(e), Some(month)) = (&ent[i], idx[i]) else { continue };
         let e = EntityId::new(e);
         let Some(from) = m.start.get(&e) else { continue };
-        if month > period_index(last) {
+        if month > period_index(last) || m.end.get(&e).is_some_and(|p| month > period_index(*p)) {
             continue;
         }
         let account = if month == p0 { &roles.translation_reserve } else { &roles.translation_difference };
@@ -426,13 +528,20 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
             push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
             push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
             push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
+            push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+            push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
         }
     }
     push(Section::Operating, PROFIT_BEFORE_TAX, "Profit before tax", &mut order);
     push(Section::Operating, GOODWILL_IMPAIRMENT, "Impairment of goodwill", &mut order);
     push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
+    push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+    push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
+    push(Section::Investing, DISPOSALS, DISPOSALS_LABEL, &mut order);
+    push(Section::Investing, ASSOCIATE_DIVIDENDS, ASSOCIATE_DIVIDENDS_LABEL, &mut order);
+    push(Section::Financing, NCI_TRANSACTIONS, NCI_TRANSACTIONS_LABEL, &mut order);
     push(Section::Operating, UNCLASSIFIED, "Accounts without a cash flow line", &mut order);
     order
 }
@@ -441,7 +550,18 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
 /// each line's components) and totals.
 fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) -> Vec<SectionFlows> {
     let order = line_order(lines);
-    let fixed = [GOODWILL_IMPAIRMENT, FAIR_VALUE_DEPRECIATION, SHARE_OF_ASSOCIATES, ACQUISITIONS, UNCLASSIFIED];
+    let fixed = [
+        GOODWILL_IMPAIRMENT,
+        FAIR_VALUE_DEPRECIATION,
+        SHARE_OF_ASSOCIATES,
+        GAIN_ON_DISPOSAL,
+        ASSOCIATE_DIVIDEND_INCOME,
+        ACQUISITIONS,
+        DISPOSALS,
+        ASSOCIATE_DIVIDENDS,
+        NCI_TRANSACTIONS,
+        UNCLASSIFIED,
+    ];
     let mut sections = Vec::new();
     for section in [Section::Operating, Section::Investing, Section::Financing] {
         let mut out = Vec::new();
@@ -494,6 +614,120 @@ fn prove(
         },
     );
     vec![reconcile, covered]
+}
+
+/// The subsidiaries whose stake changed with control kept in the view (in the closing's
+/// year to date, not in the opening's), each with its consideration (received positive).
+fn stake_changes_in_view(opening: &Close, closing: &Close) -> BTreeMap<EntityId, Decimal> {
+    let mut out: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    for x in closing.stake_changes.iter().filter(|x| !opening.stake_changes.contains(x)) {
+        *out.entry(x.entity.clone()).or_default() += x.cash;
+    }
+    out
+}
+
+/// Whether a flow on `a` naming `c` is a dividend from an equity-accounted investee to be
+/// shown in investing (`policies.associate_dividends`, IAS 7.31-33): the holder's income
+/// on a `dividend` account. Under `operating` it stays in profit before tax, where the
+/// share of the investee's result is reversed on its own line.
+fn dividend_in_investing(
+    ds: &Dataset,
+    s: &GroupStructure,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
+    c: &EntityId,
+    a: &GroupAccount,
+) -> bool {
+    ds.settings.policies.associate_dividends == DividendsReceived::Investing
+        && chart
+            .get(a)
+            .is_some_and(|d| d.statement == Statement::ProfitOrLoss && d.ic_kind.as_deref() == Some("dividend"))
+        && s.entity(c).is_some_and(|x| x.method == Method::Equity)
+}
+
+/// The line of a holder's flows on its investment in `c` when its ownership changed in
+/// the view: a change in stake (IAS 7.42A) or a sale (IAS 7.39-42).
+fn changed_line(
+    c: &EntityId,
+    stakes: &BTreeMap<EntityId, Decimal>,
+    sold: &BTreeMap<EntityId, Disposal>,
+) -> Option<&'static str> {
+    if stakes.contains_key(c) {
+        Some(NCI_TRANSACTIONS)
+    } else if sold.contains_key(c) {
+        Some(DISPOSALS)
+    } else {
+        None
+    }
+}
+
+/// The subsidiaries sold in the view (in the closing's year to date, not the opening's).
+fn disposals_in_view(opening: &Close, closing: &Close) -> BTreeMap<EntityId, Disposal> {
+    closing.disposals.iter().filter(|d| !opening.disposals.contains(d)).map(|d| (d.entity.clone(), d.clone())).collect()
+}
+
+/// The subsidiaries sold in the view as the statement shows them.
+fn disposal_flows(
+    sold: &BTreeMap<EntityId, Disposal>,
+    cash_disposed: &BTreeMap<EntityId, Decimal>,
+    minor: u32,
+) -> Vec<DisposalFlow> {
+    sold.values()
+        .map(|d| DisposalFlow {
+            entity: d.entity.clone(),
+            date: d.date,
+            last_month: d.last_month,
+            proceeds: shown(minor, d.proceeds),
+            cash_disposed: shown(minor, cash_disposed.get(&d.entity).copied().unwrap_or_default()),
+            gain: shown(minor, d.gain + d.reserve_recycled),
+        })
+        .collect()
+}
+
+/// The disposal line must be the proceeds less the cash disposed of (IAS 7.40-42):
+/// anything else on it (a profit or loss elimination about the subsidiary other than the
+/// gain, proceeds booked at another figure than the sale's row) is named.
+fn check_disposals(
+    disposals: &[DisposalFlow],
+    on_line: &BTreeMap<String, Decimal>,
+    minor: u32,
+    problems: &mut Vec<String>,
+) {
+    let shown_line = shown(minor, -on_line.get(DISPOSALS).copied().unwrap_or_default());
+    let expected = shown(minor, disposals.iter().map(|d| d.proceeds - d.cash_disposed).sum());
+    if shown_line != expected {
+        let each: Vec<String> = disposals
+            .iter()
+            .map(|d| format!("{} {} - {}", d.entity, money::plain(d.proceeds), money::plain(d.cash_disposed)))
+            .collect();
+        problems.push(format!(
+            "the disposals of subsidiaries come to {} but the proceeds less the cash disposed of are {} ({})",
+            money::plain(shown_line),
+            money::plain(expected),
+            if each.is_empty() { "none in the view".to_string() } else { each.join(", ") }
+        ));
+    }
+}
+
+/// The line of the transactions with the NCI must be the consideration of the changes in
+/// the view (IAS 7.42A): anything else on it (another flow on the investment, an
+/// impairment of the subsidiary's goodwill in the view) is named, never shown as cash.
+fn check_nci_transactions(
+    stakes: &BTreeMap<EntityId, Decimal>,
+    on_line: &BTreeMap<String, Decimal>,
+    minor: u32,
+    problems: &mut Vec<String>,
+) {
+    let shown_line = shown(minor, -on_line.get(NCI_TRANSACTIONS).copied().unwrap_or_default());
+    let consideration = shown(minor, stakes.values().copied().sum());
+    if shown_line != consideration {
+        let who: Vec<String> = stakes.keys().map(|e| e.to_string()).collect();
+        problems.push(format!(
+            "the transactions with the NCI come to {} but the consideration of the changes in stake in the view ({}) is {}",
+            money::plain(shown_line),
+            if who.is_empty() { "none".to_string() } else { who.join(", ") },
+            money::plain(consideration)
+        ));
+    }
 }
 
 /// The subsidiaries acquired in the view: (consideration paid, cash acquired) each.
@@ -626,25 +860,34 @@ fn split_movement(
 fn journal_lines(
     opening: &Close,
     closing: &Close,
-    acquired: &BTreeSet<EntityId>,
+    (acquired, stakes, sold): (&BTreeSet<EntityId>, &BTreeMap<EntityId, Decimal>, &BTreeMap<EntityId, Disposal>),
     chart: &BTreeMap<&GroupAccount, &AccountDef>,
     class: &BTreeMap<&GroupAccount, &LineDef>,
     problems: &mut Vec<String>,
 ) -> Vec<(Option<&'static str>, EntityId, GroupAccount, Decimal)> {
     let mut out = Vec::new();
-    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired) {
+    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired, stakes, sold) {
         let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
+        let cash = class.get(&a).is_some_and(|d| d.section == Section::Cash);
         let own = match treatment {
+            // A sold subsidiary's profit or loss (the gain included) stays in profit
+            // before tax by account; its cash derecognised is the cash disposed of.
+            Treatment::Disposal if pl => None,
+            Treatment::Disposal if cash => Some(CASH_DISPOSED),
+            Treatment::Disposal => Some(DISPOSALS),
             Treatment::Acquisition => Some(ACQUISITIONS),
             // The profit or loss part stays in profit before tax; the rest of the entry,
             // which is its non-cash other side, is added back on a line of its own.
-            Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue if pl => Some(PROFIT_BEFORE_TAX),
+            Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue | Treatment::NciTransaction if pl => {
+                Some(PROFIT_BEFORE_TAX)
+            }
             Treatment::Goodwill => Some(GOODWILL_IMPAIRMENT),
             Treatment::FairValue | Treatment::FairValueTax => Some(FAIR_VALUE_DEPRECIATION),
             Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
+            Treatment::NciTransaction => Some(NCI_TRANSACTIONS),
             Treatment::ByAccount => None,
         };
-        if own.is_none() && class.get(&a).is_some_and(|d| d.section == Section::Cash) {
+        if own.is_none() && cash {
             problems.push(format!("an elimination entry moves cash account {a} of {e}: {}", money::plain(x)));
         }
         out.push((own, e, a, x));
@@ -657,11 +900,14 @@ fn journal_movements(
     opening: &Close,
     closing: &Close,
     acquired: &BTreeSet<EntityId>,
+    stakes: &BTreeMap<EntityId, Decimal>,
+    sold: &BTreeMap<EntityId, Disposal>,
 ) -> BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> {
     let mut out: BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> = BTreeMap::new();
     for (c, sign) in [(closing, Decimal::ONE), (opening, Decimal::NEGATIVE_ONE)] {
         for entry in &c.journal {
             let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
+            let stake_changed = entry.entities.iter().any(|e| stakes.contains_key(e));
             let treatment = match entry.rule {
                 // A step acquisition's remeasurement gain is not cash: with the
                 // acquisition it nets to nothing on the acquisition line.
@@ -672,6 +918,12 @@ fn journal_movements(
                 {
                     Treatment::Acquisition
                 }
+                // The change moves the investment, the NCI at acquisition and the
+                // goodwill the investment entry measures; `change_in_stake` puts them
+                // right: together they are the transaction with the NCI.
+                EliminationRule::InvestmentAndGoodwill | EliminationRule::ChangeInStake if stake_changed => {
+                    Treatment::NciTransaction
+                }
                 EliminationRule::InvestmentAndGoodwill => Treatment::Goodwill,
                 EliminationRule::FairValueDepreciation => Treatment::FairValue,
                 EliminationRule::FairValueDeferredTax => Treatment::FairValueTax,
@@ -679,6 +931,11 @@ fn journal_movements(
                 _ => Treatment::ByAccount,
             };
             for l in &entry.lines {
+                // A line about a subsidiary sold in the view (its own, or its holder's
+                // naming it) is part of the disposal, whatever the entry.
+                let about_sold =
+                    sold.contains_key(&l.entity) || l.counterparty.as_ref().is_some_and(|c| sold.contains_key(c));
+                let treatment = if about_sold { Treatment::Disposal } else { treatment };
                 *out.entry((treatment, l.entity.clone(), l.account.clone())).or_default() += sign * l.amount;
             }
         }
@@ -693,7 +950,7 @@ fn journal_movements(
 fn translated_parts(
     ds: &Dataset,
     t: &Translated,
-    start: &BTreeMap<EntityId, Period>,
+    (start, end): (&BTreeMap<EntityId, Period>, &BTreeMap<EntityId, Period>),
     acquired: &BTreeSet<EntityId>,
     last: Period,
 ) -> PolarsResult<BTreeMap<Key, Parts>> {
@@ -705,6 +962,11 @@ fn translated_parts(
             Column::new("entity".into(), start.keys().map(|e| e.to_string()).collect::<Vec<_>>()),
             Column::new("start_index".into(), start.values().map(|p| period_index(*p)).collect::<Vec<_>>()),
             Column::new("acquired".into(), start.keys().map(|e| acquired.contains(e)).collect::<Vec<_>>()),
+            // A subsidiary sold counts to its last month end consolidated.
+            Column::new(
+                "end_index".into(),
+                start.keys().map(|e| period_index(end.get(e).copied().unwrap_or(last))).collect::<Vec<_>>(),
+            ),
             Column::new(
                 "hyper_index".into(),
                 start
@@ -734,7 +996,7 @@ fn translated_parts(
         .clone()
         .lazy()
         .join(members.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Inner))
-        .filter(col("period_index").lt_eq(lit(p_last)));
+        .filter(col("period_index").lt_eq(lit(p_last)).and(col("period_index").lt_eq(col("end_index"))));
     // The view's months: the flow of a closing-basis row is its local movement at the
     // month's average (IAS 7.25-27), of a hyperinflationary entity's row at the closing
     // rate (IAS 21.42); every other row is a flow as translated.

@@ -264,6 +264,9 @@ pub struct Policies {
     /// Deferred tax on the consolidation adjustments (IAS 12.19, 12.66): fair value
     /// adjustments and unrealised profit in inventory. Off unless asked for.
     pub deferred_tax: bool,
+    /// Where the statement of cash flows shows dividends received from equity-accounted
+    /// investees (IAS 7.31, 7.33).
+    pub associate_dividends: DividendsReceived,
 }
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -692,4 +695,17 @@ pub struct PriceIndex {
     pub period: Period,
     pub index: rust_decimal::Decimal,
     pub source: Source,
+}
+
+/// The section of dividends received from associates and joint ventures in the
+/// statement of cash flows (`policies.associate_dividends`): IAS 7.31 asks for a
+/// classification applied consistently, IAS 7.33 allows operating or investing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum DividendsReceived {
+    /// In operating activities, with the profit they come from (the default: they stay
+    /// in profit before tax as the holder books them).
+    #[default]
+    Operating,
+    /// In investing activities, as a return on the investment.
+    Investing,
 }

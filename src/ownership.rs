@@ -395,8 +395,8 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
             "it has OCI in a reserve other than the translation reserve (IFRS 10.B99 transfer not posted yet)".into(),
         );
     }
-    if ds.cash_flow_lines.is_some() {
-        why.push("the statement of cash flows has no disposal line yet (IAS 7.39-42)".into());
+    if ds.cash_flow_lines.is_some() && acquired_in_year_of(ds, c) {
+        why.push("it was acquired in the fiscal year of the sale: the statement of cash flows does not present both (IAS 7.39-42)".into());
     }
     let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
     out.extend(gain_account_findings(ds, c));
@@ -410,9 +410,9 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
 /// reattributed, IAS 21.48C, by `change_in_stake`), the holder holds it alone before and after
 /// and has no NCI of its own, it holds no other entity, names no counterparty and is
 /// named by no other entity but for the investment in it, its acquisition measured the
-/// NCI at its share of net assets without a fair value adjustment, no other change of it
-/// in the year has the same last month end before it (each change is posted at its own),
-/// and the group has no statement of cash flows (IAS 7.42A is not built).
+/// NCI at its share of net assets without a fair value adjustment, and no other change
+/// of it in the year has the same last month end before it (each change is posted at
+/// its own; the statement of cash flows shows it in financing, IAS 7.42A).
 fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
@@ -469,9 +469,6 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
         why.push(
             "it has OCI in a reserve other than the translation reserve (its reattribution is not posted yet)".into(),
         );
-    }
-    if ds.cash_flow_lines.is_some() {
-        why.push("the statement of cash flows has no line for transactions with the NCI yet (IAS 7.42A)".into());
     }
     let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
     if c.share.is_sign_negative() {
@@ -794,6 +791,13 @@ pub fn changes_in_stake(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
                 && agreement(ds, c).is_empty()
         })
         .collect()
+}
+
+/// Whether the subsidiary sold in `c` was acquired in the fiscal year of the sale: the
+/// statement of cash flows presents an acquisition or a disposal in a view, not both.
+fn acquired_in_year_of(ds: &Dataset, c: &OwnershipChange) -> bool {
+    let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
+    ds.acquisitions.iter().any(|a| a.owned == c.owned && a.date <= c.date && Period::of_date(a.date) >= year)
 }
 
 #[cfg(test)]

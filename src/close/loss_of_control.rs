@@ -76,6 +76,8 @@ pub struct Disposal {
     /// Proceeds + fair value retained + NCI - net assets - goodwill (a gain positive),
     /// before the reclassification.
     pub gain: Decimal,
+    /// The proceeds at the closing rate of the last month end consolidated.
+    pub proceeds: Decimal,
 }
 
 /// Runs the close at the last month end the group controlled the subsidiary sold in
@@ -262,6 +264,7 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         reserve_recycled: recycled,
         reserve_nci,
         gain,
+        proceeds,
     })
 }
 

@@ -30,8 +30,15 @@ struct RawSettings {
 
 const PLAUSIBILITY_KEYS: &[&str] = &["rate_move", "sign_months"];
 
-const POLICY_KEYS: &[&str] =
-    &["rounding", "income_translation", "ifric16", "significant_influence", "goodwill_impairment_rate", "deferred_tax"];
+const POLICY_KEYS: &[&str] = &[
+    "rounding",
+    "income_translation",
+    "ifric16",
+    "significant_influence",
+    "goodwill_impairment_rate",
+    "deferred_tax",
+    "associate_dividends",
+];
 const ROLE_KEYS: &[&str] = &[
     "retained_earnings",
     "translation_reserve",
@@ -346,6 +353,18 @@ fn parse_policies(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) ->
             None
         }
     };
+    let associate_dividends = match pol("associate_dividends").as_deref() {
+        None | Some("operating") => Some(DividendsReceived::Operating),
+        Some("investing") => Some(DividendsReceived::Investing),
+        Some(other) => {
+            bad(
+                "policies.associate_dividends",
+                format!("\"{other}\" is not a section"),
+                "use \"operating\" or \"investing\" (IAS 7.31-33)",
+            );
+            None
+        }
+    };
     Some(Policies {
         rounding: rounding?,
         income_translation: income?,
@@ -353,6 +372,7 @@ fn parse_policies(raw: &RawSettings, file: &str, findings: &mut Vec<Finding>) ->
         significant_influence: significant_influence?,
         goodwill_impairment_rate: goodwill_impairment_rate?,
         deferred_tax: deferred_tax?,
+        associate_dividends: associate_dividends?,
     })
 }
 

@@ -114,6 +114,17 @@ pub fn table(cf: &CashFlows, minor: u32) -> String {
             format_amount(a.cash_acquired, minor)
         ));
     }
+    for x in &cf.disposals {
+        out.push_str(&format!(
+            "  disposal of {} ({}, consolidated to {}): proceeds {}, cash disposed of {}, gain {} (IAS 7.40)\n",
+            x.entity,
+            x.date,
+            x.last_month,
+            format_amount(x.proceeds, minor),
+            format_amount(x.cash_disposed, minor),
+            format_amount(x.gain, minor)
+        ));
+    }
     out
 }
 

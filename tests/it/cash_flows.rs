@@ -522,3 +522,308 @@ fn demo_ties_under_other_policies_and_hyperinflation() {
         }
     }
 }
+
+/// The lines of the change-in-stake case's chart (tests/cases/change-in-stake-purchase).
+const STAKE_LINES: &str = "account,section,line,label,against
+4000,operating,profit_before_tax,Profit before tax,
+4100,operating,profit_before_tax,Profit before tax,
+4200,operating,profit_before_tax,Profit before tax,
+4700,operating,profit_before_tax,Profit before tax,
+4900,operating,profit_before_tax,Profit before tax,
+5000,operating,profit_before_tax,Profit before tax,
+5100,operating,profit_before_tax,Profit before tax,
+6950,operating,profit_before_tax,Profit before tax,
+1500,operating,inventories,Decrease (increase) in inventories,
+1550,operating,intragroup,Intragroup balances,
+2550,operating,intragroup,Intragroup balances,
+1600,operating,intragroup,Intragroup balances,
+2600,operating,intragroup,Intragroup balances,
+1300,investing,associates,Investments in associates,
+1400,investing,acquisition_of_subsidiaries,Acquisition of subsidiaries net of cash acquired,
+3000,financing,shares,Proceeds from issue of shares,
+3200,financing,dividends,Dividends paid,
+3900,financing,dividends_nci,Dividends paid to non-controlling interests,
+1100,exchange,translation,Translation,
+3300,exchange,translation,Translation,
+8100,exchange,translation,Translation,
+1000,cash,cash,Cash,
+";
+
+/// A copy of the case folder `name` with the lines above.
+fn stake_case(name: &str) -> Folder {
+    fn copy(from: &Path, to: &Path) {
+        std::fs::create_dir_all(to).expect("mkdir");
+        for e in std::fs::read_dir(from).expect("read dir") {
+            let p = e.expect("entry").path();
+            let target = to.join(p.file_name().expect("name"));
+            if p.is_dir() { copy(&p, &target) } else { std::fs::copy(&p, &target).map(|_| ()).expect("copy") }
+        }
+    }
+    let f = Folder::empty();
+    for sub in ["entities", "rates"] {
+        copy(&crate::support::repo().join("tests/cases").join(name).join(sub), &f.path().join(sub));
+    }
+    f.write("entities/cash_flow_lines.csv", STAKE_LINES);
+    f
+}
+
+/// The section totals and the net change of a statement.
+fn totals(v: &Value) -> [Decimal; 4] {
+    let cf = &v["statements"]["cash_flows"];
+    let s = cf["sections"].as_array().expect("sections");
+    [dec(&s[0]["total"]), dec(&s[1]["total"]), dec(&s[2]["total"]), dec(&cf["net_change"])]
+}
+
+/// Worked by hand from IAS 7.42A (cash flows from changes in ownership interests in a
+/// subsidiary that do not result in a loss of control are financing activities) on the
+/// case tests/cases/change-in-stake-purchase (its SOURCE.md, IFRS 10.23, B96): P buys
+/// another 10% of S from the NCI on 1 March 2026 for 90 in cash, S earns 200 in cash in
+/// the quarter (50, 50, 100). Group cash: P 200 + S 600 = 800 at 31 December, P 110 +
+/// S 800 = 910 at 31 March; at 28 February P 200 + S 700 = 900.
+/// - year to March: operating 200 (profit before tax, no working capital), investing 0,
+///   financing -90 on the NCI line: net change 110 = 910 - 800;
+/// - the month of March: operating 100, financing -90: net change 10 = 910 - 900;
+/// - February (before the change): operating 50, no NCI line.
+///   The purchase is not an acquisition (investing) and its non-cash side (the NCI's
+///   carrying amount 70, retained earnings -20) is no cash flow.
+#[test]
+fn change_in_stake_purchase_in_financing_ias7_42a() {
+    let f = stake_case("change-in-stake-purchase");
+    for (period, view, pbt, nci, net) in [
+        ("2026-03", "ytd", "200", Some("-90"), "110"),
+        ("2026-03", "month", "100", Some("-90"), "10"),
+        ("2026-02", "month", "50", None, "50"),
+    ] {
+        let v = close(f.path(), period, view, &[]);
+        let l = lines(&v);
+        assert_eq!(l.get("profit_before_tax"), Some(&d(pbt)), "{period} {view}: {l:?}");
+        assert_eq!(l.get("transactions_with_nci"), nci.map(d).as_ref(), "{period} {view}: {l:?}");
+        let fin = nci.map(d).unwrap_or_default();
+        assert_eq!(totals(&v), [d(pbt), d("0"), fin, d(net)], "{period} {view}: {l:?}");
+        assert_eq!(l.get("acquisition_of_subsidiaries").copied().unwrap_or_default(), d("0"), "{period} {view}");
+    }
+}
+
+/// The same case turned into a sale with control kept (as tests/it/ownership.rs does):
+/// P sells 10% of S for 100 on 1 March, books cash +100, investment -50 (10/80 of its
+/// cost 400) and a gain of 50 on 4700, which the close reverses (IFRS 10.23). Worked by
+/// hand from IAS 7.42A: profit before tax 200 (S's 200; P's gain 50 and its reversal -50
+/// cancel), financing +100 received from the NCI; cash 800 -> P 300 + S 800 = 1,100, net
+/// change 300.
+#[test]
+fn change_in_stake_sale_in_financing_ias7_42a() {
+    let f = stake_case("change-in-stake-purchase");
+    f.replace("entities/holdings.csv", "P,S,0.9,0.9,2026-03-01,", "P,S,0.7,0.7,2026-03-01,");
+    f.replace("entities/ownership_changes.csv", "2026-03-01,P,S,0.1,90,,,,", "2026-03-01,P,S,-0.1,100,,,4700,");
+    f.replace(
+        "entities/P/tb-2026.movements.csv",
+        "2026-03,1000,-90,\n2026-03,1400,90,S\n",
+        "2026-03,1000,100,\n2026-03,1400,-50,S\n2026-03,4700,-50,\n",
+    );
+    let v = close(f.path(), "2026-03", "ytd", &[]);
+    let l = lines(&v);
+    assert_eq!(l.get("profit_before_tax"), Some(&d("200")), "{l:?}");
+    assert_eq!(l.get("transactions_with_nci"), Some(&d("100")), "{l:?}");
+    assert_eq!(totals(&v), [d("200"), d("0"), d("100"), d("300")], "{l:?}");
+}
+
+/// The disposal's lines of a statement: (profit before tax, gain taken out, disposal).
+fn disposal_lines(v: &Value) -> [Decimal; 3] {
+    let l = lines(v);
+    let get = |id: &str| l.get(id).copied().unwrap_or_default();
+    [get("profit_before_tax"), get("gain_on_disposal"), get("disposal_of_subsidiaries")]
+}
+
+/// Worked by hand from IAS 7.39-42 (the aggregate cash flows from losing control of a
+/// subsidiary are investing, net of the cash and cash equivalents disposed of) and
+/// IAS 7.18(b)/20 (the indirect method adjusts profit for non-cash items and for items
+/// whose cash effects are investing) on tests/cases/loss-of-control-retained-interest
+/// (its SOURCE.md: T sold on 15 March, consolidated to 28 February, proceeds 700, gain
+/// 160, 10% kept at fair value 100). T is given inventory: its February earnings of 50
+/// are bought in stock rather than kept in cash, so that at 28 February it holds cash 650
+/// and inventory 50. By hand, year to March:
+/// - operating: profit before tax 100 (revenue) + 160 (gain) = 260, the gain taken out
+///   -160, the increase in inventories to 28 February -50: 50;
+/// - investing: proceeds 700 less the cash disposed of 650 = 50 (the inventory derecognised
+///   and the interest kept at 100 are no cash flow);
+/// - cash: P 100 + T 600 = 700 at the opening, P 800 at 31 March: net change 100 = 50 + 50.
+///
+/// Month of March (opening: the February close, cash P 100 + T 650 = 750): profit before
+/// tax 160, gain -160, disposal 50, net change 50.
+#[test]
+fn disposal_net_of_cash_disposed_ias7_39_42() {
+    let f = stake_case("loss-of-control-retained-interest");
+    f.replace("entities/T/tb-2026.movements.csv", "2026-02,1000,50,", "2026-02,1500,50,");
+    let v = close(f.path(), "2026-03", "ytd", &[]);
+    assert_eq!(disposal_lines(&v), [d("260"), d("-160"), d("50")], "{:#}", v["statements"]["cash_flows"]);
+    assert_eq!(lines(&v).get("inventories"), Some(&d("-50")));
+    assert_eq!(totals(&v), [d("50"), d("50"), d("0"), d("100")]);
+    let x = &v["statements"]["cash_flows"]["disposals"][0];
+    assert_eq!(
+        [dec(&x["proceeds"]), dec(&x["cash_disposed"]), dec(&x["gain"])],
+        [d("700"), d("650"), d("160")],
+        "{x:#}"
+    );
+
+    let v = close(f.path(), "2026-03", "month", &[]);
+    assert_eq!(disposal_lines(&v), [d("160"), d("-160"), d("50")], "{:#}", v["statements"]["cash_flows"]);
+    assert_eq!(totals(&v), [d("0"), d("50"), d("0"), d("50")]);
+
+    // February, before the sale: no disposal line, T's flows as usual.
+    let v = close(f.path(), "2026-02", "ytd", &[]);
+    assert_eq!(disposal_lines(&v), [d("100"), d("0"), d("0")]);
+}
+
+/// Worked by hand from IAS 7.39-42, 7.28 and IAS 21.48 on tests/cases/loss-of-control-
+/// foreign-operation (its SOURCE.md: S, USD, consolidated to 31 March, sold on 1 April
+/// for EUR 900; gain 80 + reserve reclassified 48 = 128). Year to April:
+/// - operating: profit before tax 120 (January's USD 300 at 2.5) + 128 = 248, the gain
+///   (the reclassified reserve with it: non-cash) taken out -128: 120;
+/// - investing: proceeds 900 less S's cash at 31 March USD 1,800 / 2.0 = 900: 0;
+/// - the effect of exchange rate changes on cash held (IAS 7.28): S's cash USD 1,500 at
+///   2.5 = 600 plus its flow 120 is 720 at the rates of the flows, 900 at 31 March: 180;
+/// - cash: P 100 + S 600 = 700 at the opening, P 1,000 at 30 April: 700 + 120 + 0 + 180.
+#[test]
+fn disposal_of_a_foreign_operation_ias7_28_40() {
+    let f = stake_case("loss-of-control-foreign-operation");
+    let v = close(f.path(), "2026-04", "ytd", &[]);
+    let cf = &v["statements"]["cash_flows"];
+    assert_eq!(disposal_lines(&v), [d("248"), d("-128"), d("0")], "{cf:#}");
+    assert_eq!(totals(&v), [d("120"), d("0"), d("0"), d("120")], "{cf:#}");
+    assert_eq!([dec(&cf["exchange"]["total"]), dec(&cf["exchange"]["on_cash"])], [d("180"), d("180")], "{cf:#}");
+    assert_eq!([dec(&cf["cash_opening"]), dec(&cf["cash_closing"])], [d("700"), d("1000")]);
+    let x = &cf["disposals"][0];
+    assert_eq!(
+        [dec(&x["proceeds"]), dec(&x["cash_disposed"]), dec(&x["gain"])],
+        [d("900"), d("900"), d("128")],
+        "{x:#}"
+    );
+}
+
+/// A subsidiary acquired and sold in the same fiscal year is refused when the group has a
+/// statement of cash flows (it presents an acquisition or a disposal in a view, not both),
+/// and only then.
+#[test]
+fn a_subsidiary_acquired_and_sold_in_the_year_blocks_with_a_statement() {
+    let f = stake_case("loss-of-control-retained-interest");
+    f.replace("entities/acquisitions.csv", "T,2021-01-01,", "T,2026-01-01,");
+    f.replace("entities/holdings.csv", "P,T,0.8,0.8,2021-01-01,", "P,T,0.8,0.8,2026-01-01,");
+    let why = "acquired in the fiscal year of the sale";
+    let blocked = |f: &Folder| -> bool {
+        let (_, v) = run_json(f.path(), &["check", "--period", "2026-03"]);
+        v["findings"].as_array().expect("findings").iter().any(|x| {
+            x["rule"] == "OwnershipChangeUnsupported" && x["message"].as_str().is_some_and(|m| m.contains(why))
+        })
+    };
+    assert!(blocked(&f));
+    f.remove("entities/cash_flow_lines.csv");
+    assert!(!blocked(&f));
+}
+
+/// A group of `P` and its associate `A` (30%, equity method, IAS 28.5) in the chart of
+/// the case folders, with `policy` for dividends from associates.
+fn associate_group(policy: Option<&str>) -> Folder {
+    let f = stake_case("change-in-stake-purchase");
+    f.remove("entities/ownership_changes.csv");
+    std::fs::remove_dir_all(f.path().join("entities/S")).expect("remove S");
+    if let Some(p) = policy {
+        f.replace("entities/group.toml", "[policies]\n", &format!("[policies]\nassociate_dividends = \"{p}\"\n"));
+    }
+    f.write("entities/entities.csv", "entity,name,country,currency\nP,P Ltd,GB,EUR\nA,A SA,FR,EUR\n");
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,A,0.3,0.3,2020-01-01,\n",
+    );
+    f.write(
+        "entities/acquisitions.csv",
+        "owned,date,consideration,nci_measurement,nci_fair_value,net_assets,net_assets_presentation,impairment,note\nA,2020-01-01,150,share_of_net_assets,,500,500,0,30%\n",
+    );
+    f.write(
+        "entities/P/opening.csv",
+        "account,amount,counterparty,amount_presentation\n1000,1000,,\n1300,150,A,\n3000,-1150,,-1150\n",
+    );
+    f.write(
+        "entities/P/tb-2026.movements.csv",
+        "period,account,amount,counterparty\n2026-01,1000,12,\n2026-01,4200,-12,A\n",
+    );
+    f.write("entities/A/mapping.csv", &f.read("entities/P/mapping.csv"));
+    f.write("entities/A/opening.csv", "account,amount,counterparty,amount_presentation\n1000,500,,\n3000,-500,,-500\n");
+    f.write(
+        "entities/A/tb-2026.movements.csv",
+        "period,account,amount,counterparty\n2026-01,1000,60,\n2026-01,4000,-100,\n2026-01,3200,40,\n",
+    );
+    f
+}
+
+/// Worked by hand from IAS 7.31-33 (dividends received are classified consistently as
+/// operating or investing), IAS 7.37-38 (an investment accounted for by the equity
+/// method: the statement shows the cash flows between the investor and the investee,
+/// dividends) and IAS 28.10: P holds 30% of A; in January A earns 100 in cash and pays a
+/// dividend of 40, P receives 12 in cash and books it as dividend income. Group cash
+/// 1,000 -> 1,012, net change 12, with the share of A's result (30) no cash (its
+/// reversal and profit before tax together leave the dividend, 12, in operating):
+/// - policy `operating` (the default, and explicitly): operating 12, investing 0;
+/// - policy `investing`: the dividend taken out of operating (-12) and shown in
+///   investing (+12): operating 0, investing 12.
+#[test]
+fn dividends_from_an_associate_under_both_policies_ias7_31_33() {
+    for (policy, operating, investing) in
+        [(None, "12", "0"), (Some("operating"), "12", "0"), (Some("investing"), "0", "12")]
+    {
+        let f = associate_group(policy);
+        let v = close(f.path(), "2026-01", "ytd", &[]);
+        let l = lines(&v);
+        let get = |id: &str| l.get(id).copied().unwrap_or_default();
+        assert_eq!(totals(&v), [d(operating), d(investing), d("0"), d("12")], "{policy:?}: {l:?}");
+        assert_eq!(get("share_of_associates") + get("profit_before_tax"), d("12"), "{policy:?}: {l:?}");
+        assert_eq!(get("dividends_from_associates"), d(investing), "{policy:?}: {l:?}");
+        assert_eq!(get("associate_dividend_income"), -d(investing), "{policy:?}: {l:?}");
+    }
+    let f = associate_group(Some("financing"));
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1);
+    assert!(v["findings"].as_array().expect("findings").iter().any(|x| x["rule"] == "SettingInvalid"), "{v:#}");
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 6, ..ProptestConfig::default() })]
+
+    /// Random sales of T on tests/cases/loss-of-control-retained-interest (the proceeds,
+    /// how much of January's and February's earnings T holds as inventory rather than
+    /// cash): in every view of March the statement ties, the disposal line is the
+    /// proceeds less T's cash at 28 February and the gain taken out is the case's gain
+    /// worked by hand, proceeds + 100 + 140 - 700 - 80 (IFRS 10.B98; IAS 7.39-42).
+    #[test]
+    fn random_disposals_tie_net_of_cash_disposed(proceeds in 0i64..200_000, stock in (0i64..=5_000, 0i64..=5_000)) {
+        let f = stake_case("loss-of-control-retained-interest");
+        let p = Decimal::new(proceeds, 2);
+        let (s1, s2) = (Decimal::new(stock.0, 2), Decimal::new(stock.1, 2));
+        f.replace("entities/ownership_changes.csv", ",700,100,", &format!(",{p},100,"));
+        f.replace(
+            "entities/P/tb-2026.movements.csv",
+            "2026-03,1000,700,\n2026-03,1400,-350,T\n2026-03,4700,-350,\n",
+            &format!("2026-03,1000,{p},\n2026-03,1400,-350,T\n2026-03,4700,{},\n", d("350") - p),
+        );
+        f.replace(
+            "entities/T/tb-2026.movements.csv",
+            "2026-01,1000,50,\n",
+            &format!("2026-01,1000,{},\n2026-01,1500,{s1},\n", d("50") - s1),
+        );
+        f.replace(
+            "entities/T/tb-2026.movements.csv",
+            "2026-02,1000,50,\n",
+            &format!("2026-02,1000,{},\n2026-02,1500,{s2},\n", d("50") - s2),
+        );
+        let cash_disposed = d("700") - s1 - s2;
+        let gain = p + d("100") + d("140") - d("700") - d("80");
+        for view in ["month", "qtd", "ytd"] {
+            let v = close(f.path(), "2026-03", view, &[]);
+            let l = lines(&v);
+            let get = |id: &str| l.get(id).copied().unwrap_or_default();
+            prop_assert_eq!(get("disposal_of_subsidiaries"), p - cash_disposed, "{} {:?}", view, l);
+            prop_assert_eq!(get("gain_on_disposal"), -gain, "{} {:?}", view, l);
+        }
+        let v = close(f.path(), "2026-03", "ytd", &[]);
+        prop_assert_eq!(totals(&v), [d("100") - s1 - s2, p - cash_disposed, d("0"), p - d("600")]);
+    }
+}
