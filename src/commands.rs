@@ -40,7 +40,10 @@ fn pick_period(ds: &Dataset, asked: Option<Period>) -> Result<Period, Error> {
 /// A loaded, mapped and validated data folder, with what validation built on its way:
 /// the group structure at the period end and the resolved layouts.
 pub struct Checked {
+    /// The fiscal year of the period: its trial balances and its opening balances.
     pub ds: Dataset,
+    /// The whole data folder, every fiscal year it holds (for the prior-year close).
+    pub full: Dataset,
     pub scope: Scope,
     pub mapped: Mapped,
     pub structure: crate::structure::GroupStructure,
@@ -66,9 +69,15 @@ pub fn load_checked(data: &Path, period: Option<Period>) -> Result<(Option<Check
         Err(e) => return Err(e),
     };
     let scope = Scope::new(period, ds.settings.fiscal_year_start);
+    // The year closed: its months, and each entity's opening carried from the year
+    // before where the folder holds it.
+    let full = ds;
+    let mut carried = Vec::new();
+    let ds = crate::years::year_dataset(&full, scope.fiscal_start, &mut carried)?;
+    findings.extend(carried);
     let mapped = map_accounts(&ds, scope.fiscal_start)?;
     let crate::validate::Validated { structure, statements } = validate(&ds, &mapped, scope, &mut findings)?;
-    Ok((Some(Checked { ds, scope, mapped, structure, statements }), findings))
+    Ok((Some(Checked { ds, full, scope, mapped, structure, statements }), findings))
 }
 
 pub fn check(data: &Path, period: Option<Period>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
@@ -603,6 +612,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     )?;
     checks.push(equity_check);
     let cash_flows = cash_flow_statement(&c, opening, &mut checks)?;
+    let prior_year = comparatives(&c, view, &mut out_statements, &mut checks)?;
     let exceptions = exceptions(&c);
     let tied = crate::proof::tied(&checks) && exceptions.is_empty();
     let mut shown = shown_findings(&c, &exceptions);
@@ -635,17 +645,10 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
             laid_out: out_statements,
             changes_in_equity: report::close::equity_changes_out(&equity_changes),
             cash_flows,
+            prior_year,
             comparison,
         },
-        attribution: report::close::Attribution {
-            profit: figures.attribution.profit,
-            profit_owners: figures.attribution.profit_owners(),
-            profit_nci: figures.attribution.profit_nci,
-            oci: figures.attribution.oci,
-            oci_owners: figures.attribution.oci_owners(),
-            oci_nci: figures.attribution.oci_nci,
-            result_in_equity: figures.attribution.result_in_equity,
-        },
+        attribution: attribution_out(&figures.attribution),
         eliminations: &c.close.journal,
         nci: &c.close.nci,
         translation_reserves: &c.close.reserves,
@@ -671,6 +674,99 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     Ok(if tied { 0 } else { 1 })
 }
 
+/// The report's attribution from the view's.
+fn attribution_out(a: &crate::close::view::Attribution) -> report::close::Attribution {
+    report::close::Attribution {
+        profit: a.profit,
+        profit_owners: a.profit_owners(),
+        profit_nci: a.profit_nci,
+        oci: a.oci,
+        oci_owners: a.oci_owners(),
+        oci_nci: a.oci_nci,
+        result_in_equity: a.result_in_equity,
+    }
+}
+
+/// The prior year's comparatives (IAS 1.38), when the data folder holds that year: each
+/// statement line's `prior_year` from the close of the same view a year earlier
+/// (`years::prior_year_close`), its attribution and statement of changes in equity; and
+/// the proof that the group's closing balances of the prior year are this year's
+/// opening (`opening_is_prior_year_closing`).
+fn comparatives(
+    c: &ClosedPeriod,
+    view: crate::cli::View,
+    laid_out: &mut std::collections::BTreeMap<String, report::close::StatementOut>,
+    checks: &mut Vec<crate::proof::Check>,
+) -> Result<Option<report::close::PriorYearOut>, Error> {
+    let _span = tracing::info_span!("comparatives").entered();
+    let scope = c.checked.scope;
+    let full = &c.checked.full;
+    if !crate::years::holds_prior_year(full, scope.fiscal_start) {
+        return Ok(None);
+    }
+    let year_end = scope.fiscal_start.plus_months(11);
+    let Some(prior) = crate::years::prior_year_close(full, scope.period, view, &c.root)? else { return Ok(None) };
+    // The carried balances: the prior year's close at its last month against this
+    // year's opening.
+    let computed;
+    let prior_end = if prior.period() == scope.fiscal_start.prev() {
+        &prior.close
+    } else {
+        match crate::years::prior_year_close(full, year_end, crate::cli::View::Ytd, &c.root)? {
+            Some(p) => {
+                computed = p;
+                &computed.close
+            }
+            None => return Ok(None),
+        }
+    };
+    let ob = c.opening_balances()?;
+    let ds = &c.checked.ds;
+    checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &ds.accounts, &ds.settings.accounts));
+    // The comparatives are only as good as the prior year's close: a blocking finding of
+    // its rules (an acquisition missing, say) fails the proof rather than passing unseen.
+    let blocking: Vec<String> = prior
+        .close
+        .findings
+        .iter()
+        .filter(|f| f.severity >= crate::findings::Severity::Blocking)
+        .map(|f| format!("{}: {}", f.rule, f.message))
+        .collect();
+    checks.push(crate::proof::Check::new(
+        "prior_year_close_has_no_blocking_findings",
+        blocking.is_empty(),
+        if blocking.is_empty() {
+            format!("the close of {} that the comparatives come from raises no blocking finding", prior.period())
+        } else {
+            blocking.join("; ")
+        },
+    ));
+    let figures = prior.figures();
+    for st in &c.checked.statements {
+        let flows = st.statement == "profit_or_loss" || st.statement == "oci";
+        let amounts = if flows { &figures.flows } else { &figures.balance_sheet };
+        if let Some(out) = laid_out.get_mut(&st.statement) {
+            report::close::with_prior_year(out, &report::close::lay_out(st, amounts));
+        }
+    }
+    let opening = prior.opening()?;
+    let view_start = prior.base.as_ref().map(|b| b.period.next()).unwrap_or(prior.translated.fiscal_start);
+    let (equity_changes, _) = crate::equity::changes_in_equity(
+        &prior.ds,
+        &crate::equity::components(&c.checked.statements, &prior.ds.accounts),
+        &opening,
+        &prior.close,
+        &figures.attribution,
+        c.translated.minor,
+        (format!("Balance at {}", view_start.first_day()), format!("Balance at {}", prior.period().last_day())),
+    )?;
+    Ok(Some(report::close::PriorYearOut {
+        period: prior.period().to_string(),
+        attribution: attribution_out(&figures.attribution),
+        changes_in_equity: report::close::equity_changes_out(&equity_changes),
+    }))
+}
+
 /// A close's comparison closed (`--compare`), with the comparison's input files and the
 /// warnings of its inputs; when its findings block, they are written to `out` and the
 /// exit code (at least 1) comes back as `Err`.
@@ -688,7 +784,8 @@ fn compared(
     let mut f = Vec::new();
     let closed = match source {
         Source::PriorYear => {
-            f.extend(crate::compare::prior_year_findings(ds, scope.fiscal_start));
+            // The whole folder: the year closed's own dataset holds no other year.
+            f.extend(crate::compare::prior_year_findings(&c.checked.full, scope.fiscal_start));
             None
         }
         Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {

@@ -130,6 +130,12 @@ pub enum Rule {
     SegmentsExternalRevenueShort,
     /// An account that moves has no line in cash_flow_lines.csv (IAS 7).
     CashFlowLineMissing,
+    /// An entity's delivered opening of a fiscal year differs from its closing of the
+    /// year before, with profit or loss closed into retained earnings.
+    OpeningDiffersFromPriorClose,
+    /// An entity's opening cannot be derived from its prior-year close (no local
+    /// account maps to retained earnings, or the prior year cannot be translated).
+    OpeningNotDerivable,
     /// A holding ends or a previously held entity comes under control during the year
     /// without a row of ownership_changes.csv to say what was paid, received or held.
     OwnershipChangeMissing,

@@ -32,6 +32,7 @@ pub mod structure;
 pub mod trace;
 pub mod translate;
 pub mod validate;
+pub mod years;
 
 /// Errors that stop a run. Problems in the user's data are not errors but findings.
 #[derive(Debug, thiserror::Error)]

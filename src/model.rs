@@ -579,6 +579,26 @@ pub struct NetInvestment {
     pub source: Source,
 }
 
+/// What a fiscal year's close brings forward from the prior year's close in the same
+/// data folder, besides the balances (`years`): amounts that a rule counts from the
+/// opening of the first year the folder holds, so that the close at a year end and the
+/// close of the next year's opening agree. Empty for the first year.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct BroughtForward {
+    /// Per holder: the exchange differences of the earlier years held on its eliminated
+    /// investments in subsidiaries. The NCI rule takes them out of the holder's
+    /// post-acquisition equity, as it takes out the year's.
+    pub investment_fx: std::collections::BTreeMap<EntityId, Decimal>,
+    /// Per holder and investee: the holder's share of the investee's OCI of the earlier
+    /// years held (equity method, IAS 28.10): in the translation reserve, where it
+    /// accumulated, not in retained earnings.
+    pub equity_method_oci: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
+    /// Per foreign operation: its translation reserve at the prior year end (IFRIC 16.17,
+    /// gains positive), brought forward as the operation's own rather than as each
+    /// entity's translated opening has it (the two differ under the step-by-step method).
+    pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
+}
+
 /// A change in a holder's share of an entity on one date, from
 /// `entities/ownership_changes.csv`: shares bought or sold, what was paid or received,
 /// and the fair value of the interest held before (a step acquisition, IFRS 3.42) or

@@ -128,6 +128,57 @@ def build_rates() -> dict:
 
 RATES = build_rates()
 
+# ---------------------------------------------------------------------------------------
+# The prior fiscal year 2025 (comparatives, IAS 1.38): a plain year that ends exactly in
+# the 2026 opening balances
+# ---------------------------------------------------------------------------------------
+
+PRIOR_PERIODS = [f"2025-{m:02d}" for m in range(1, 12)]  # 2025-12 is the opening above
+PRIOR_OPENING = "2024-12"
+PRIOR_YEAR_START = "2026-01"  # the year whose opening the prior year must end in
+PRIOR_YEAR_ENTITIES = {"ALD-NL", "ALD-UK", "ALD-US", "BRW-US", "BRW-MX", "KIS-JP", "NRD-SE",
+                       "HEL-CH", "WSL-PL"}  # every entity but GLF-BH, acquired in 2026
+# Month-end closing rates 2024-11 .. 2025-10 (2025-11 and 2025-12 are in CLOSING). Invented.
+CLOSING_PRIOR = {
+    "USD": "1.0560 1.0390 1.0350 1.0420 1.0820 1.1380 1.1350 1.1710 1.1680 1.1620 1.1730 1.1540",
+    "GBP": "0.83210 0.82920 0.83640 0.82810 0.83560 0.85190 0.84870 0.85320 0.86570 0.86740 0.87260 0.87580",
+    "JPY": "158.20 162.74 160.86 158.02 160.55 161.89 163.04 163.64 168.86 172.50 173.76 175.60",
+    "MXN": "21.5400 21.5504 21.3800 21.2800 21.4600 21.3320 21.8910 22.2220 21.8920 21.5830 21.4400 21.2740",
+    "SEK": "11.5280 11.4590 11.2350 11.1420 10.8645 10.9035 10.8940 11.0420 11.1780 11.0900 10.9310 11.1220",
+    "CHF": "0.9300 0.9412 0.9413 0.9377 0.9550 0.9350 0.9367 0.9336 0.9432 0.9374 0.9355 0.9299",
+    "PLN": "4.3150 4.2750 4.2133 4.1940 4.1840 4.2610 4.2740 4.2423 4.2685 4.2610 4.2645 4.2520",
+}
+
+
+def build_prior_rates() -> None:
+    """Adds 2024-12 .. 2025-11 to RATES (same averaging as build_rates; no year-to-date
+    average: the demo translates income month by month)."""
+    months = ["2024-11"] + [PRIOR_OPENING] + PRIOR_PERIODS
+    for ccy, text in CLOSING_PRIOR.items():
+        closes = [D(v) for v in text.split()] + [D(CLOSING[ccy].split()[0])]
+        assert len(closes) == len(months), ccy
+        for i in range(1, len(months)):
+            tilt = D((i * 5) % 7 - 3) / D(10000)
+            avg = ((closes[i - 1] + closes[i]) / 2 * (1 + tilt / 10)).quantize(
+                D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
+            RATES[ccy][months[i]] = {"closing": closes[i], "average": avg}
+    for p in [PRIOR_OPENING] + PRIOR_PERIODS:
+        u = RATES["USD"][p]
+        RATES["BHD"][p] = {
+            k: (BHD_PER_USD * u[k]).quantize(D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
+            for k in ("closing", "average")}
+    # Year-to-date averages of 2025, as build_rates does for 2026.
+    for ccy in RATES:
+        acc = []
+        for p in PRIOR_PERIODS + [OPENING_PERIOD]:
+            acc.append(RATES[ccy][p]["average"])
+            RATES[ccy][p]["average_ytd"] = (sum(acc) / len(acc)).quantize(
+                D(1).scaleb(-RATE_DECIMALS), rounding=ROUND_HALF_UP)
+        RATES[ccy][PRIOR_OPENING]["average_ytd"] = None
+
+
+build_prior_rates()
+
 
 def rate(ccy: str, period: str, kind: str) -> Decimal:
     """Units of ccy per 1 EUR."""
@@ -1280,6 +1331,10 @@ assets = "TA"
 liabilities = "NCL CL"
 unallocated = ["Corporate"]           # segment values that are not operating segments
 country_materiality = "0.10"          # foreign countries shown on their own from 10%
+
+[plausibility]                        # warnings the close shows (docs/formats.md)
+rate_move = "0.25"                    # a closing rate moving more than 25% in a month
+sign_months = 2                       # earlier months agreeing on the sign of income
 '''
 
 
@@ -1305,6 +1360,114 @@ def tb_rows(entity, book, period=None, with_presentation=False, keys=None):
         rows.append(row)
     assert sum((D(r[2 if period else 1]) for r in rows), D(0)) == 0, (entity, period)
     return rows
+
+
+def prior_year(entity, opening_2026):
+    """The fiscal year 2025 of one entity: twelve months of plain trading (sales, cost of
+    sales, staff, rent, other expenses, all settled in cash; no intercompany flows, no
+    dividends), and the 2025 opening worked back from the 2026 opening: every balance less
+    the year's movements, retained earnings less the year's profit. Returns the opening
+    book (with the translated retained earnings brought into 2025), and the movements by
+    month."""
+    chart = CHARTS[entity]
+    loc = lambda sem: (chart[sem][0], "", "")  # noqa: E731
+    cash26 = opening_2026.get(loc("cash"), [D(0)])[0]
+    # The year's profit is a share of the gross margin, lower where the 2026 cash could not
+    # have come from a smaller balance a year before.
+    for keep in (D("0.12"), D("0.08"), D("0.05"), D("0.03"), D("0.01")):
+        months = trade_months(entity, keep)
+        revalue(entity, opening_2026, months)
+        cash_in = sum(b.get(loc("cash"), [D(0)])[0] for b in months.values())
+        if cash26 - cash_in > 0:
+            break
+    # Work the 2025 opening back from the 2026 opening.
+    return work_back(entity, opening_2026, months)
+
+
+def trade_months(entity, keep):
+    """The twelve months of 2025 of one entity, keeping `keep` of the gross margin as
+    profit (a holding company without sales: its costs only)."""
+    ccy = CCY[entity]
+    chart = CHARTS[entity]
+    p = P[entity]
+    loc = lambda sem: (chart[sem][0], "", "")  # noqa: E731
+    months = {}
+    for i, period in enumerate(PRIOR_PERIODS + ["2025-12"]):
+        book: dict = {}
+
+        def post(sem, amount, book=book):
+            if amount:
+                row = book.setdefault(loc(sem), [D(0), D(0)])
+                row[0] += amount
+
+        rev = q(p["rev"] * SEASON[i] * D("0.93"), ccy)
+        cogs = q(rev * p.get("cogs_ratio", D(0)), ccy) if "cogs_purch" in chart else D(0)
+        margin = rev - cogs
+        if rev:
+            staff, rent = q(margin * D("0.45"), ccy), q(margin * D("0.08"), ccy)
+            opex = q(margin * (D("0.47") - keep), ccy)
+        else:  # a holding company: costs only
+            staff, rent, opex = (q(p[k] * D("0.97"), ccy) for k in ("staff", "rent", "opex"))
+        post("rev_ext", -rev) if rev else None
+        post("cogs_purch", cogs)
+        post("wages", staff)
+        post("rent", rent)
+        post("opex", opex)
+        post("cash", rev - cogs - staff - rent - opex)
+        assert sum(v[0] for v in book.values()) == 0, (entity, period)
+        months[period] = book
+    return months
+
+
+def revalue(entity, opening_2026, months):
+    """Month-end revaluation of the foreign-currency items of the 2026 opening through
+    2025 (IAS 21.23: monetary items at the closing rate), against the local exchange gain
+    or loss account. The amount at each month end is the transaction amount at the
+    month's closing cross rate; December ends in the 2026 opening amount."""
+    ccy = CCY[entity]
+    for k, (amount26, tamt) in sorted(opening_2026.items()):
+        loc_, cp, tccy = k
+        if not tccy:
+            continue
+        before = q(tamt * cross(ccy, tccy, PRIOR_OPENING, "closing"), ccy)
+        for period, book in months.items():
+            now = amount26 if period == "2025-12" else q(tamt * cross(ccy, tccy, period, "closing"), ccy)
+            move = now - before
+            before = now
+            if not move:
+                continue
+            fx = CHARTS[entity]["fx_gain" if move > 0 else "fx_loss"][0]
+            for key, amount in ((k, move), ((fx, "", ""), -move)):
+                row = book.setdefault(key, [D(0), D(0)])
+                row[0] += amount
+
+
+def work_back(entity, opening_2026, months):
+    """The 2025 opening: the 2026 opening less the year's movements, retained earnings
+    less the year's profit; and that profit translated as the engine does."""
+    ccy = CCY[entity]
+    chart = CHARTS[entity]
+    loc = lambda sem: (chart[sem][0], "", "")  # noqa: E731
+    opening = {k: [v[0], v[1]] for k, v in opening_2026.items()}
+    profit_local = D(0)
+    profit_eur = D(0)
+    for period, book in months.items():
+        by_group: dict = {}
+        for k, (amount, _) in book.items():
+            g = next(v[2] for v in chart.values() if v[0] == k[0])
+            if ACC[g]["statement"] != "balance_sheet":
+                profit_local += amount
+                by_group[g] = by_group.get(g, D(0)) + amount
+            else:
+                opening.setdefault(k, [D(0), D(0)])[0] -= amount
+        # Translated as the engine does: each month's movement per group account at the
+        # month's average, rounded once (half away from zero).
+        for g, amount in by_group.items():
+            profit_eur += q(amount / rate(ccy, period, "average"), "EUR")
+    re_key = loc("retained")
+    opening[re_key][0] -= profit_local
+    assert opening[loc("cash")][0] > 0, (entity, "cash at the 2025 opening")
+    return opening, months, profit_eur
 
 
 def inventory_profit(snapshots):
@@ -1413,10 +1576,28 @@ def main(argv=None):
         assert not unused, f"{e}: chart accounts never used {sorted(unused)}"
         w.csv(f"entities/{e}/mapping.csv", ["local_account", "local_name", "group_account"],
               [[loc, name, grp] for loc, (name, grp) in sorted(mapping.items())])
-        w.csv(f"entities/{e}/opening.csv",
-              ["account", "amount", "counterparty", "txn_currency", "txn_amount", "amount_presentation"],
-              tb_rows(e, snapshots[e][OPENING_PERIOD], with_presentation=True))
+        opening_header = ["account", "amount", "counterparty", "txn_currency", "txn_amount",
+                          "amount_presentation"]
         header = ["period", "account", "amount", "counterparty", "txn_currency", "txn_amount"]
+        if e in PRIOR_YEAR_ENTITIES:
+            # The prior year 2025: opening.csv is its opening; the 2026 opening is
+            # delivered beside it as opening-2026-01.csv, which tessera checks against
+            # the 2025 close.
+            rows26 = tb_rows(e, snapshots[e][OPENING_PERIOD], with_presentation=True)
+            w.csv(f"entities/{e}/opening-{PRIOR_YEAR_START}.csv", opening_header, rows26)
+            opening25, months25, profit_eur = prior_year(e, snapshots[e][OPENING_PERIOD])
+            rows = tb_rows(e, opening25, with_presentation=True)
+            re_local = CHARTS[e]["retained"][0]
+            re26 = next(D(r[5]) for r in rows26 if r[0] == re_local)
+            for row in rows:
+                if row[0] == re_local:  # the translated retained earnings of 2026 less 2025's result
+                    row[5] = fmt(re26 - profit_eur, "EUR")
+            w.csv(f"entities/{e}/opening.csv", opening_header, rows)
+            for period, book in months25.items():
+                w.csv(f"entities/{e}/tb-{period}.movements.csv", header, tb_rows(e, book, period))
+        else:
+            w.csv(f"entities/{e}/opening.csv", opening_header,
+                  tb_rows(e, snapshots[e][OPENING_PERIOD], with_presentation=True))
         seen: set = set(snapshots[e][OPENING_PERIOD])
         for period in PERIODS:
             if e in BALANCES_DELIVERY:
@@ -1440,7 +1621,7 @@ def main(argv=None):
           group_adjustments())
 
     rate_rows = []
-    for period in ALL_PERIODS:
+    for period in [PRIOR_OPENING] + PRIOR_PERIODS + ALL_PERIODS:
         for ccy in sorted(RATES):
             r = RATES[ccy][period]
             rate_rows.append([period, ccy, f"{r['closing']}", f"{r['average']}",

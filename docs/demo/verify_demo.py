@@ -78,6 +78,34 @@ def amount(text: str, ccy: str, where: str) -> Decimal:
     return value
 
 
+def check_prior_year(e, folder, opening_2026, gmap, accounts, parse) -> None:
+    """The prior year 2025: its opening plus its twelve months, profit or loss closed into
+    retained earnings, must be the 2026 opening, local account by local account."""
+    rows = parse(os.path.join(folder, "opening.csv"), False)
+    for m in range(1, 13):
+        path = os.path.join(folder, f"tb-2025-{m:02d}.movements.csv")
+        if not os.path.exists(path):
+            fail(f"{e}: no delivery for 2025-{m:02d}")
+            return
+        rows += [(OPENING, *x[1:]) for x in parse(path, False)]
+    closing: dict = {}
+    result = D(0)
+    for x in rows:
+        if accounts[x[2]]["statement"] != "balance_sheet":
+            result += x[5]
+            continue
+        k = (x[1], x[3])
+        closing[k] = closing.get(k, D(0)) + x[5]
+    retained = min(loc for loc, g in gmap.items() if g == "3200")
+    closing[(retained, "")] = closing.get((retained, ""), D(0)) + result
+    given: dict = {}
+    for x in opening_2026:
+        given[(x[1], x[3])] = given.get((x[1], x[3]), D(0)) + x[5]
+    for k in set(closing) | set(given):
+        if closing.get(k, D(0)) != given.get(k, D(0)):
+            fail(f"{e}: 2026 opening {k} is {given.get(k, D(0))}, the 2025 closing {closing.get(k, D(0))}")
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser()
     here = os.path.dirname(os.path.abspath(__file__))
@@ -202,7 +230,7 @@ def main(argv=None) -> int:
             if g not in accounts:
                 fail(f"{e}: {loc} maps to unknown group account {g}")
         files = sorted(os.listdir(folder))
-        kinds = {f.split(".")[1] for f in files if f.startswith("tb-")}
+        kinds = {f.split(".")[1] for f in files if f.startswith("tb-2026")}
         if len(kinds) != 1:
             fail(f"{e}: mixes movements and balances deliveries")
         used: set[str] = set()
@@ -250,7 +278,12 @@ def main(argv=None) -> int:
                 fail(f"{e}/{os.path.basename(path)}: rows sum to {total}, not zero")
             return out
 
-        opening = parse(os.path.join(folder, "opening.csv"), False)
+        # The 2026 opening: delivered beside the prior year 2025 as opening-2026-01.csv
+        # (opening.csv is then the 2025 opening), else opening.csv.
+        dated = os.path.join(folder, "opening-2026-01.csv")
+        opening = parse(dated if os.path.exists(dated) else os.path.join(folder, "opening.csv"), False)
+        if os.path.exists(dated):
+            check_prior_year(e, folder, opening, gmap[e], accounts, parse)
         for x in opening:
             if accounts[x[2]]["statement"] != "balance_sheet":
                 fail(f"{e}: opening holds a {accounts[x[2]]['statement']} account {x[1]}")

@@ -39,6 +39,8 @@ pub struct Context<'a> {
     pub full: BTreeSet<EntityId>,
     /// The consolidated entities' contributions at `period`.
     pub balances: Balances,
+    /// What the prior year's close in the same folder brings forward.
+    pub brought_forward: &'a BroughtForward,
 }
 
 impl<'a> Context<'a> {
@@ -68,6 +70,7 @@ impl<'a> Context<'a> {
             consolidated: of_method(&[Method::Full, Method::Proportionate]),
             full: of_method(&[Method::Full]),
             balances,
+            brought_forward: &ds.brought_forward,
         }
     }
 
@@ -136,6 +139,13 @@ pub mod fixture {
     use super::*;
     use crate::load::Quote;
     use chrono::NaiveDate;
+
+    /// Nothing brought forward: the fixture's year is the first.
+    static NOTHING_BROUGHT_FORWARD: BroughtForward = BroughtForward {
+        investment_fx: BTreeMap::new(),
+        equity_method_oci: BTreeMap::new(),
+        operation_reserves: BTreeMap::new(),
+    };
 
     pub fn d(s: &str) -> Decimal {
         s.parse().unwrap_or_else(|_| panic!("bad decimal {s}"))
@@ -295,6 +305,7 @@ pub mod fixture {
                 consolidated: of_method(&[Method::Full, Method::Proportionate]),
                 full: of_method(&[Method::Full]),
                 balances,
+                brought_forward: &NOTHING_BROUGHT_FORWARD,
             }
         }
     }

@@ -307,12 +307,19 @@ fn post_share(
     let div: Decimal = dividends.iter().map(|d| d.2).sum();
     let c = cap_losses(cost, spr, sp, so, div);
     let holder = holder_of(cx, e);
+    // The share of OCI of the earlier years the folder holds stays in the translation
+    // reserve where the year-end close put it (IAS 28.10), not in retained earnings.
+    let oci_before =
+        cx.brought_forward.equity_method_oci.get(&(holder.clone(), e.id.clone())).copied().unwrap_or_default();
     let mut lines = vec![
         line(&roles.equity_investments, &holder, Some(&e.id), c.prior + c.profit + so - div),
         line(&roles.equity_result, &holder, Some(&e.id), -c.profit),
         line(&roles.translation_difference, &holder, Some(&e.id), -so),
-        line(&roles.retained_earnings, &holder, Some(&e.id), -c.prior),
+        line(&roles.retained_earnings, &holder, Some(&e.id), -(c.prior - oci_before)),
     ];
+    if !oci_before.is_zero() {
+        lines.push(line(&roles.translation_reserve, &holder, Some(&e.id), -oci_before));
+    }
     lines.extend(dividends.iter().map(|(receiver, acct, x)| line(acct, receiver, Some(&e.id), *x)));
     let m = |x: Decimal| money::format_amount(x, cx.minor);
     let from = match start_of(cx, a) {

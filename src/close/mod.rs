@@ -209,7 +209,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
             change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, (b, next), &invest, &mut nci)
         })
         .collect();
-    let brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
+    let mut brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
+    // The reserve per operation at the prior year end, where the folder holds that year.
+    brought_forward.extend(ds.brought_forward.operation_reserves.iter().map(|(e, v)| (e.clone(), *v)));
     let reserves = reserves::reserves(&cx, &brought_forward, &year_parts, ds.settings.policies.ifric16);
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();

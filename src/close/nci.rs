@@ -83,8 +83,16 @@ fn post_one(
     // (the investment rule): its NCI's share of that exchange exposure is already in
     // the subsidiaries' effective NCI, so it is not part of the holder's own equity.
     let holder_fx = of(&m.investment_fx);
-    let post =
-        equity_total + of(&m.fair_value_now) - unrealised - topside - depreciation - of(&m.pre_acquisition) - holder_fx;
+    // The same exchange difference of the earlier years the folder holds, carried from
+    // the prior year's close, so that the NCI at a year end is the next year's opening.
+    let holder_fx_before = cx.brought_forward.investment_fx.get(&e.id).copied().unwrap_or_default();
+    let post = equity_total + of(&m.fair_value_now)
+        - unrealised
+        - topside
+        - depreciation
+        - of(&m.pre_acquisition)
+        - holder_fx
+        - holder_fx_before;
     let nci_post = cx.round(post * e.nci);
     // No adjustment for the holder's investments in its own subsidiaries: each
     // subsidiary's NCI at acquisition is its direct outside share (or fair value), and

@@ -48,6 +48,12 @@ pub fn delivery_kind(name: &str) -> Option<&'static str> {
     None
 }
 
+/// The first month of the fiscal year a later year's opening balance file is for:
+/// `opening-2026-01.csv` is the opening of the fiscal year starting 2026-01.
+pub fn opening_year(name: &str) -> Option<crate::model::Period> {
+    name.strip_prefix("opening-")?.strip_suffix(".csv")?.parse().ok()
+}
+
 pub(super) const NUMBER: &str = r"^-?[0-9]+(\.[0-9]+)?$";
 const PERIOD: &str = r"^[0-9]{4}-(0[1-9]|1[0-2])$";
 
@@ -392,7 +398,14 @@ pub fn build_opening(
 ) -> DataFrame {
     let tables = tables.into_iter().map(|(e, t)| (e.to_string(), "opening".to_string(), t)).collect();
     let cols = ["account", "amount", "counterparty", "txn_currency", "txn_amount", "amount_presentation"];
-    let result = stack(tables, &cols).and_then(|raw| parse_rows(raw, false, &["amount_presentation"], currencies, f));
+    let result = stack(tables, &cols)
+        .and_then(|raw| parse_rows(raw, false, &["amount_presentation"], currencies, f))
+        .and_then(|df| {
+            // A later year's opening carries its year in the file name (`opening_year`).
+            df.lazy()
+                .with_column(col("file").str().extract(lit(r"/opening-([0-9]{4}-[0-9]{2})\.csv$"), 1).alias("period"))
+                .collect()
+        });
     match result {
         Ok(df) => df,
         Err(e) => {

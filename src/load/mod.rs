@@ -124,8 +124,9 @@ pub struct Dataset {
     pub mappings: DataFrame,
     /// Trial balance rows: see `ledger::LEDGER_COLUMNS`.
     pub ledger: DataFrame,
-    /// Opening balances: the ledger columns (period null, kind "opening") plus
-    /// amount_presentation.
+    /// Opening balances: the ledger columns (kind "opening") plus amount_presentation;
+    /// `period` is null for `opening.csv` and the first month of the fiscal year for a
+    /// later year's `opening-<YYYY-MM>.csv` (`years` picks each year's rows).
     pub opening: DataFrame,
     pub rates: Vec<MonthlyRate>,
     pub historical_rates: Vec<HistoricalRate>,
@@ -162,6 +163,9 @@ pub struct Dataset {
     /// pair has document detail.
     pub documented_entities: BTreeSet<EntityId>,
     pub inputs: Vec<InputFile>,
+    /// What the close brings forward from the prior year's close in the same folder
+    /// (`years::year_dataset` fills it; empty as loaded).
+    pub brought_forward: BroughtForward,
 }
 
 impl Dataset {
@@ -301,6 +305,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             documents,
             documented_entities: documented,
             inputs,
+            brought_forward: BroughtForward::default(),
         }),
         findings,
     )
@@ -373,7 +378,7 @@ fn read_deliveries(
                 if let Some(t) = take(&file, inputs, f) {
                     d.mapping_tables.push((id.clone(), t));
                 }
-            } else if fname == "opening.csv" {
+            } else if fname == "opening.csv" || ledger::opening_year(&fname).is_some() {
                 if let Some(t) = take(&file, inputs, f) {
                     d.opening_tables.push((id.clone(), t));
                 }
@@ -447,7 +452,7 @@ fn plan_reads(
             let fname = file.file_name().map(|s| s.to_string_lossy().to_string()).unwrap_or_default();
             let spec = if fname == "mapping.csv" {
                 &ledger::MAPPING_SPEC
-            } else if fname == "opening.csv" {
+            } else if fname == "opening.csv" || ledger::opening_year(&fname).is_some() {
                 &ledger::OPENING_SPEC
             } else if ledger::delivery_kind(&fname).is_some() {
                 &ledger::LEDGER_SPEC

@@ -30,6 +30,10 @@ pub struct StatementLine {
     /// Whether the layout shows this line debit positive (assets, expenses).
     #[serde(skip)]
     pub debit_positive: bool,
+    /// The comparative of the prior year (IAS 1.38), as presented, when the data folder
+    /// holds it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub prior_year: Option<Decimal>,
 }
 
 #[derive(Debug, Clone, Serialize)]
@@ -62,6 +66,7 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
             amount: l.presentation.show(v),
             total: matches!(l.body, LineBody::Total(_)),
             debit_positive: l.presentation == crate::layout::Presentation::DebitPositive,
+            prior_year: None,
         })
         .collect();
     let ratios = st
@@ -71,6 +76,15 @@ pub fn lay_out(st: &ResolvedStatement, amounts: &BTreeMap<GroupAccount, Decimal>
         .map(|(r, (_, percent))| RatioOut { line: r.line.clone(), label: r.label.clone(), percent })
         .collect();
     StatementOut { statement: st.statement.clone(), lines, ratios }
+}
+
+/// Sets each line's prior-year comparative from the same statement laid out on the
+/// prior year's amounts (one layout, so the lines correspond one to one).
+pub fn with_prior_year(out: &mut StatementOut, prior: &StatementOut) {
+    for (l, p) in out.lines.iter_mut().zip(&prior.lines) {
+        debug_assert_eq!(l.line, p.line);
+        l.prior_year = Some(p.amount);
+    }
 }
 
 /// The statement of changes in equity as output: columns by component, rows by
@@ -122,6 +136,18 @@ pub struct Statements {
     /// The comparison asked with `--compare`.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub comparison: Option<crate::compare::Comparison>,
+    /// The prior year's comparison (IAS 1.38), when the data folder holds it.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub prior_year: Option<PriorYearOut>,
+}
+
+/// What a close shows of the prior year besides each line's `prior_year`: the period
+/// compared with, the attribution and the prior year's statement of changes in equity.
+#[derive(Serialize)]
+pub struct PriorYearOut {
+    pub period: String,
+    pub attribution: Attribution,
+    pub changes_in_equity: EquityChangesOut,
 }
 
 #[derive(Serialize)]
@@ -245,6 +271,57 @@ pub fn statement_rows(r: &CloseReport<'_>, key: &str) -> Vec<(String, Decimal, b
     rows
 }
 
+/// The prior-year comparatives of `statement_rows(r, key)`, row by row, when the close
+/// has them.
+pub fn statement_prior_rows(r: &CloseReport<'_>, key: &str) -> Option<Vec<Decimal>> {
+    let prior = r.statements.prior_year.as_ref()?;
+    let st = r.statements.laid_out.get(key)?;
+    let a = &prior.attribution;
+    let mut rows: Vec<Decimal> = st.lines.iter().map(|l| l.prior_year.unwrap_or_default()).collect();
+    rows.extend(match key {
+        "profit_or_loss" => vec![a.profit_owners, a.profit_nci],
+        "oci" => vec![a.oci_owners, a.oci_nci],
+        _ => vec![a.result_in_equity],
+    });
+    Some(rows)
+}
+
+/// One statement as a terminal table: its lines, the prior year's column when the close
+/// has one, and its ratios; labels and amounts at the widths `(width, amounts)`.
+fn statement_text(r: &CloseReport<'_>, key: &str, title: &str, minor: u32, (width, amounts): (usize, usize)) -> String {
+    let mut out = String::new();
+    let prior = statement_prior_rows(r, key);
+    let rows: Vec<Vec<String>> = statement_rows(r, key)
+        .into_iter()
+        .enumerate()
+        .map(|(i, (label, v, _))| {
+            let mut row = vec![format!("{label:<width$}"), format!("{:>amounts$}", format_amount(v, minor))];
+            if let Some(p) = &prior {
+                row.push(format!("{:>amounts$}", format_amount(p[i], minor)));
+            }
+            row
+        })
+        .collect();
+    let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
+    out.push('\n');
+    match (&prior, &r.statements.prior_year) {
+        (Some(_), Some(p)) => {
+            let before = format!("{:>amounts$}", amount_heading(key, r.view, &p.period, &r.currency));
+            out.push_str(&super::text_table(
+                &[&format!("{title:<width$}"), &heading, &before],
+                &rows,
+                &[false, true, true],
+            ));
+        }
+        _ => out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true])),
+    }
+    for x in &r.statements.laid_out[key].ratios {
+        let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+        out.push_str(&format!("{:<width$}   {p:>amounts$}\n", x.label));
+    }
+    out
+}
+
 fn table(r: &CloseReport<'_>, minor: u32) -> String {
     let mut out = String::new();
     if r.proof.status == "draft" {
@@ -267,27 +344,26 @@ fn table(r: &CloseReport<'_>, minor: u32) -> String {
         .iter()
         .flat_map(|(key, _)| {
             let heading = amount_heading(key, r.view, &r.period, &r.currency).chars().count();
-            statement_rows(r, key).into_iter().map(|(_, v, _)| format_amount(v, minor).len()).chain([heading])
+            let prior = statement_prior_rows(r, key).unwrap_or_default();
+            statement_rows(r, key)
+                .into_iter()
+                .map(|(_, v, _)| v)
+                .chain(prior)
+                .map(|v| format_amount(v, minor).len())
+                .chain([heading])
         })
         .max()
         .unwrap_or(18);
     for (key, title) in TITLES {
-        if !r.statements.laid_out.contains_key(key) {
-            continue;
-        }
-        let rows: Vec<Vec<String>> = statement_rows(r, key)
-            .into_iter()
-            .map(|(label, v, _)| vec![format!("{label:<width$}"), format!("{:>amounts$}", format_amount(v, minor))])
-            .collect();
-        let heading = format!("{:>amounts$}", amount_heading(key, r.view, &r.period, &r.currency));
-        out.push('\n');
-        out.push_str(&super::text_table(&[&format!("{title:<width$}"), &heading], &rows, &[false, true]));
-        for x in &r.statements.laid_out[key].ratios {
-            let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
-            out.push_str(&format!("{:<width$}   {p:>amounts$}\n", x.label));
+        if r.statements.laid_out.contains_key(key) {
+            out.push_str(&statement_text(r, key, title, minor, (width, amounts)));
         }
     }
     out.push_str(&equity_table(&r.statements.changes_in_equity, minor));
+    if let Some(p) = &r.statements.prior_year {
+        out.push_str(&format!("\nPrior year: changes in equity to {}", p.period));
+        out.push_str(&equity_table(&p.changes_in_equity, minor));
+    }
     if let Some(cf) = &r.statements.cash_flows {
         out.push_str(&super::cash_flows::table(cf, minor));
     }
@@ -609,17 +685,24 @@ fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> R
 /// `statements.csv`: every laid-out line of every statement, in layout order, amounts
 /// as presented.
 fn write_statements(dir: &Path, file: &str, r: &CloseReport<'_>) -> Result<(), crate::Error> {
-    // With a comparison, its columns follow the amount (empty on lines not compared).
+    // The prior year's comparative (empty without one), then, with a comparison, its
+    // columns (empty on lines not compared).
     let compared = r.statements.comparison.as_ref();
-    let mut header = vec!["statement", "line", "label", "total", "amount"];
+    let mut header = vec!["statement", "line", "label", "total", "amount", "prior_year"];
     if compared.is_some() {
         header.extend(super::compare::STATEMENT_COLUMNS);
     }
     let mut out = super::CsvOut::new(&header);
     for (key, st) in &r.statements.laid_out {
         for l in &st.lines {
-            let mut row =
-                vec![key.clone(), l.line.clone(), l.label.clone(), l.total.to_string(), crate::money::plain(l.amount)];
+            let mut row = vec![
+                key.clone(),
+                l.line.clone(),
+                l.label.clone(),
+                l.total.to_string(),
+                crate::money::plain(l.amount),
+                l.prior_year.map(crate::money::plain).unwrap_or_default(),
+            ];
             if let Some(c) = compared {
                 let line = c.statements.get(key).and_then(|ls| ls.iter().find(|x| x.line == l.line));
                 row.extend(super::compare::statement_cells(line));

@@ -7,7 +7,7 @@
 use rust_decimal::Decimal;
 use rust_decimal::prelude::ToPrimitive;
 
-use super::close::{CloseReport, TITLES, amount_heading, statement_rows};
+use super::close::{CloseReport, TITLES, amount_heading, statement_prior_rows, statement_rows};
 use crate::money::format_amount;
 
 /// What the page shows besides the close's own report.
@@ -253,8 +253,16 @@ svg line.step { stroke: #4a5561; stroke-width: 1; stroke-dasharray: 2 2; }
 "#;
 
 fn statement_table(r: &CloseReport<'_>, key: &str, title: &str, minor: u32) -> String {
+    // The prior year's column (IAS 1.38), when the close has one.
+    let prior = statement_prior_rows(r, key).zip(r.statements.prior_year.as_ref());
+    let prior_heading = prior
+        .as_ref()
+        .map(|(_, p)| {
+            format!(r#"<th class="amount">{}</th>"#, escape(&amount_heading(key, r.view, &p.period, &r.currency)))
+        })
+        .unwrap_or_default();
     let mut t = format!(
-        r#"<table class="statement" id="{key}"><thead><tr><th>{}</th><th class="amount">{}</th></tr></thead><tbody>"#,
+        r#"<table class="statement" id="{key}"><thead><tr><th>{}</th><th class="amount">{}</th>{prior_heading}</tr></thead><tbody>"#,
         escape(title),
         escape(&amount_heading(key, r.view, &r.period, &r.currency))
     );
@@ -268,8 +276,12 @@ fn statement_table(r: &CloseReport<'_>, key: &str, title: &str, minor: u32) -> S
             "item"
         };
         let row_class = if total { r#" class="total""# } else { "" };
+        let before = prior
+            .as_ref()
+            .map(|(rows, _)| format!(r#"<td class="amount">{}</td>"#, format_amount(rows[i], minor)))
+            .unwrap_or_default();
         t.push_str(&format!(
-            r#"<tr{row_class}><td class="{class}">{}</td><td class="amount">{}</td></tr>"#,
+            r#"<tr{row_class}><td class="{class}">{}</td><td class="amount">{}</td>{before}</tr>"#,
             escape(label.trim()),
             format_amount(amount, minor)
         ));

@@ -10,7 +10,7 @@ use std::str::FromStr;
 
 use rust_decimal::Decimal;
 
-use super::close::{CloseReport, TITLES, amount_heading, statement_rows};
+use super::close::{CloseReport, TITLES, amount_heading, statement_prior_rows, statement_rows};
 use super::xlsx::{Cell, Sheet, workbook};
 use crate::model::GroupAccount;
 
@@ -22,6 +22,34 @@ fn amount_of(v: &serde_json::Value) -> Decimal {
     v.as_str().and_then(|s| Decimal::from_str(s).ok()).unwrap_or_default()
 }
 
+/// The sheets of the statements of profit or loss, OCI and financial position, each
+/// with the prior year's column (IAS 1.38) when the close has one.
+fn statement_sheets(r: &CloseReport<'_>) -> Vec<Sheet> {
+    let mut sheets = Vec::new();
+    for ((key, title), (_, sheet_name)) in TITLES.iter().zip(STATEMENT_SHEETS) {
+        if !r.statements.laid_out.contains_key(*key) {
+            continue;
+        }
+        let mut s = Sheet::new(sheet_name);
+        // The prior year's column (IAS 1.38), when the close has one.
+        let prior = statement_prior_rows(r, key).zip(r.statements.prior_year.as_ref());
+        let now = amount_heading(key, r.view, &r.period, &r.currency);
+        match &prior {
+            Some((_, p)) => s.header(&[title, &now, &amount_heading(key, r.view, &p.period, &r.currency)]),
+            None => s.header(&[title, &now]),
+        }
+        for (i, (label, amount, total)) in statement_rows(r, key).into_iter().enumerate() {
+            let mut cells = vec![Cell::Text(label), Cell::Amount(amount)];
+            if let Some((rows, _)) = &prior {
+                cells.push(Cell::Amount(rows[i]));
+            }
+            if total { s.bold_row(cells) } else { s.row(cells) }
+        }
+        sheets.push(s);
+    }
+    sheets
+}
+
 /// The workbook's bytes for a close; `matching` adds the intercompany sheets.
 pub fn close_workbook(
     r: &CloseReport<'_>,
@@ -30,19 +58,7 @@ pub fn close_workbook(
     segments: Option<&crate::segments::SegmentReport>,
     minor: u32,
 ) -> Result<Vec<u8>, crate::Error> {
-    let mut sheets = Vec::new();
-    for ((key, title), (_, sheet_name)) in TITLES.iter().zip(STATEMENT_SHEETS) {
-        if !r.statements.laid_out.contains_key(*key) {
-            continue;
-        }
-        let mut s = Sheet::new(sheet_name);
-        s.header(&[title, &amount_heading(key, r.view, &r.period, &r.currency)]);
-        for (label, amount, total) in statement_rows(r, key) {
-            let cells = vec![Cell::Text(label), Cell::Amount(amount)];
-            if total { s.bold_row(cells) } else { s.row(cells) }
-        }
-        sheets.push(s);
-    }
+    let mut sheets = statement_sheets(r);
     if let Some(c) = &r.statements.comparison {
         sheets.extend(super::compare::sheets(c));
     }

@@ -293,7 +293,10 @@ fn demo_opening_cash() -> Decimal {
             .filter(|l| l.rsplit(',').next() == Some("1800"))
             .filter_map(|l| l.split(',').next())
             .collect();
-        let opening = std::fs::read_to_string(root.join(format!("entities/{e}/opening.csv"))).expect("opening");
+        // The 2026 opening: beside the demo's prior year 2025 it is opening-2026-01.csv.
+        let dated = root.join(format!("entities/{e}/opening-2026-01.csv"));
+        let path = if dated.exists() { dated } else { root.join(format!("entities/{e}/opening.csv")) };
+        let opening = std::fs::read_to_string(path).expect("opening");
         let local: Decimal = opening
             .lines()
             .skip(1)

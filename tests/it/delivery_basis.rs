@@ -36,7 +36,10 @@ fn add(into: &mut Balances, text: &str) {
 fn to_balances(f: &Folder, entity: &str, months: &[u32]) {
     let dir = format!("entities/{entity}");
     let mut running: Balances = BTreeMap::new();
-    add(&mut running, &f.read(&format!("{dir}/opening.csv")));
+    // The 2026 opening: beside the demo's prior year 2025 it is opening-2026-01.csv.
+    let dated = format!("{dir}/opening-2026-01.csv");
+    let opening = if f.path().join(&dated).exists() { dated } else { format!("{dir}/opening.csv") };
+    add(&mut running, &f.read(&opening));
     let mut snapshots: BTreeMap<u32, Balances> = BTreeMap::new();
     for m in 1..=12u32 {
         add(&mut running, &f.read(&format!("{dir}/tb-2026-{m:02}.movements.csv")));

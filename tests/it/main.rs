@@ -39,7 +39,9 @@
 //!   every change the close cannot express yet refused with a blocking finding;
 //! - `translate`: IAS 21 translation against published examples, policies end to end,
 //!   IFRIC 16 on a three-tier group;
-//! - `translate_oracle`: the translation against a naive row-by-row oracle (property test).
+//! - `translate_oracle`: the translation against a naive row-by-row oracle (property test);
+//! - `years`: several fiscal years in one folder: the year-end close carried into the next
+//!   opening, a delivered opening that differs, the prior-year comparatives.
 
 mod bad_input;
 mod cash_flows;
@@ -62,3 +64,4 @@ mod structure;
 mod support;
 mod translate;
 mod translate_oracle;
+mod years;

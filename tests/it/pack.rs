@@ -209,6 +209,10 @@ fn check_workbook(wb: &Value, close: &Value, matching: &Value, segments: &Value)
             assert_eq!(number(&row[1]), json_amount(&line["amount"]), "{sheet} {}", line["label"]);
             assert_eq!(row[1].2, amount_format, "{sheet}: thousands separators, negatives in parentheses");
             assert_eq!(row[1].3, line["total"].as_bool().unwrap(), "{sheet} {}: bold = subtotal", line["label"]);
+            // The prior year's comparative (IAS 1.38) in the third column, when there is one.
+            if let Some(prior) = line.get("prior_year") {
+                assert_eq!(number(&row[2]), json_amount(prior), "{sheet} {} prior year", line["label"]);
+            }
         }
     }
     let a = &close["attribution"];

@@ -1,0 +1,194 @@
+//! Several fiscal years in one data folder: the year-end close carried into the next
+//! year's opening to the cent (the demo's 2025 into 2026, and the hand-worked case
+//! `tests/cases/year-end-carried-forward`), a delivered opening that differs from the
+//! prior-year close as a finding with its arithmetic, and the comparatives (IAS 1.38)
+//! equal to a close of the prior year run on its own.
+
+use std::collections::BTreeMap;
+
+use crate::support::{Folder, repo, run_json};
+
+/// A copy of a case folder under `tests/cases/`.
+fn case(name: &str) -> Folder {
+    let f = Folder::empty();
+    for sub in ["entities", "rates"] {
+        copy(&repo().join("tests/cases").join(name).join(sub), &f.path().join(sub));
+    }
+    f
+}
+
+fn copy(from: &std::path::Path, to: &std::path::Path) {
+    std::fs::create_dir_all(to).expect("mkdir");
+    for e in std::fs::read_dir(from).expect("read dir") {
+        let e = e.expect("entry");
+        if e.path().is_dir() {
+            copy(&e.path(), &to.join(e.file_name()));
+        } else {
+            std::fs::copy(e.path(), to.join(e.file_name())).expect("copy");
+        }
+    }
+}
+
+/// The proof check `name` of a close's JSON.
+fn check<'a>(v: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    v["proof"]["checks"]
+        .as_array()
+        .expect("checks")
+        .iter()
+        .find(|c| c["name"] == name)
+        .unwrap_or_else(|| panic!("no check {name} in {}", v["proof"]["checks"]))
+}
+
+/// The findings of rule `rule` in a JSON report.
+fn findings_of<'a>(v: &'a serde_json::Value, rule: &str) -> Vec<&'a serde_json::Value> {
+    v["findings"].as_array().map(|a| a.iter().filter(|f| f["rule"] == rule).collect()).unwrap_or_default()
+}
+
+/// Every statement line's amount and prior-year amount, by statement and line id.
+fn lines(v: &serde_json::Value) -> BTreeMap<(String, String), (String, Option<String>)> {
+    let mut out = BTreeMap::new();
+    for st in ["profit_or_loss", "oci", "balance_sheet"] {
+        for l in v["statements"][st]["lines"].as_array().expect("lines") {
+            let id = l["line"].as_str().expect("id").to_string();
+            let amount = l["amount"].as_str().expect("amount").to_string();
+            let prior = l["prior_year"].as_str().map(String::from);
+            out.insert((st.to_string(), id), (amount, prior));
+        }
+    }
+    out
+}
+
+#[test]
+fn the_demo_2025_close_is_the_2026_opening_to_the_cent() {
+    let demo = Folder::demo();
+    let (code, v) = run_json(demo.path(), &["close", "--period", "2026-12", "--out", "out"]);
+    assert_eq!(code, 0, "{}", v["proof"]);
+    let c = check(&v, "opening_is_prior_year_closing");
+    assert_eq!(c["ok"], true, "{c}");
+    let c = check(&v, "prior_year_close_has_no_blocking_findings");
+    assert_eq!(c["ok"], true, "{c}");
+    // Every entity but GLF-BH (acquired in 2026) delivered its 2026 opening beside the
+    // 2025 trial balances, and each equals the 2025 close carried.
+    assert!(findings_of(&v, "OpeningDiffersFromPriorClose").is_empty(), "{}", v["findings"]);
+}
+
+#[test]
+fn a_year_end_close_carried_reproduces_the_worked_opening() {
+    // The case's opening-2026-01.csv files are worked by hand (SOURCE.md): no difference.
+    let f = case("year-end-carried-forward");
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", "out"]);
+    assert_eq!(code, 0, "{v}");
+    assert!(findings_of(&v, "OpeningDiffersFromPriorClose").is_empty(), "{}", v["findings"]);
+    assert_eq!(check(&v, "opening_is_prior_year_closing")["ok"], true);
+    // S's reserve brought forward is its 2025 translation difference, by hand 37.33.
+    let s = v["translation_reserves"].as_array().expect("reserves").iter().find(|r| r["operation"] == "S").expect("S");
+    assert_eq!(s["brought_forward"], "37.33");
+    // The 2026 opening is the carried one, not opening.csv (the 2025 opening): the same
+    // close without the delivered 2026 openings gives the same figures.
+    f.remove("entities/P/opening-2026-01.csv");
+    f.remove("entities/S/opening-2026-01.csv");
+    let (code, w) = run_json(f.path(), &["close", "--period", "2026-01", "--out", "out"]);
+    assert_eq!(code, 0);
+    assert_eq!(v["group_trial_balance"], w["group_trial_balance"]);
+}
+
+#[test]
+fn a_delivered_opening_that_differs_from_the_prior_close_is_a_finding_with_the_difference() {
+    let f = case("year-end-carried-forward");
+    // S books USD 1.00 more cash into its opening, and its retained earnings to balance.
+    f.replace("entities/S/opening-2026-01.csv", "1000,1120.00,,", "1000,1121.00,,");
+    f.replace("entities/S/opening-2026-01.csv", "3200,-120.00,,-96.00", "3200,-121.00,,-96.50");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v}");
+    let found = findings_of(&v, "OpeningDiffersFromPriorClose");
+    let text: Vec<String> = found.iter().map(|f| f["message"].as_str().unwrap_or_default().to_string()).collect();
+    assert_eq!(found.len(), 3, "{text:#?}");
+    let cash = found.iter().find(|f| f["account"] == "1000").expect("the cash finding");
+    assert_eq!(cash["entity"], "S");
+    assert_eq!(cash["file"], "entities/S/opening-2026-01.csv");
+    assert_eq!(cash["line"], 2);
+    assert!(cash["message"].as_str().unwrap().contains("difference 1,121.00 - 1,120.00 = 1.00"), "{cash}");
+    let re = found.iter().find(|f| f["account"] == "3200" && f["message"].as_str().unwrap().contains("gives account"));
+    let re = re.expect("the retained earnings finding");
+    // The arithmetic names the balance and the result closed into it.
+    assert!(
+        re["message"]
+            .as_str()
+            .unwrap()
+            .contains("the balance 0.00 plus the year's profit or loss and OCI closed into retained earnings (120.00)"),
+        "{re}"
+    );
+    assert!(re["message"].as_str().unwrap().contains("difference (121.00) - (120.00) = (1.00)"), "{re}");
+    let pres = found.iter().find(|f| f["message"].as_str().unwrap().contains("amount_presentation")).expect("pres");
+    assert!(pres["message"].as_str().unwrap().contains("(96.50) - (96.00) = (0.50)"), "{pres}");
+}
+
+#[test]
+fn the_prior_year_columns_equal_a_close_of_the_prior_year_on_its_own() {
+    let demo = Folder::demo();
+    for (period, prior, view) in
+        [("2026-12", "2025-12", "ytd"), ("2026-03", "2025-03", "month"), ("2026-06", "2025-06", "qtd")]
+    {
+        let (code, now) = run_json(demo.path(), &["close", "--period", period, "--view", view, "--out", "out"]);
+        assert_eq!(code, 0, "{period} {view}");
+        let (code, then) = run_json(demo.path(), &["close", "--period", prior, "--view", view, "--out", "out"]);
+        assert_eq!(code, 0, "{prior} {view}: {}", then["findings"]);
+        let (now, then_lines) = (lines(&now), lines(&then));
+        assert_eq!(now.len(), then_lines.len());
+        for (key, (_, prior_amount)) in &now {
+            let (amount, _) = &then_lines[key];
+            assert_eq!(prior_amount.as_deref(), Some(amount.as_str()), "{period} {view} {key:?}");
+        }
+        // The 2025 close has no prior year in the folder: no comparative at all.
+        assert!(then["statements"]["prior_year"].is_null());
+        assert!(then_lines.values().all(|(_, p)| p.is_none()));
+    }
+    let (_, now) = run_json(demo.path(), &["close", "--period", "2026-12", "--out", "out"]);
+    let (_, then) = run_json(demo.path(), &["close", "--period", "2025-12", "--out", "out"]);
+    assert_eq!(now["statements"]["prior_year"]["changes_in_equity"], then["statements"]["changes_in_equity"]);
+    assert_eq!(now["statements"]["prior_year"]["period"], "2025-12");
+}
+
+#[test]
+fn a_prior_year_with_blocking_findings_is_named_when_its_close_is_carried() {
+    // Without June 2025's USD rate the 2025 close, and so the carried 2026 opening, is
+    // short: the check of 2026 says so instead of carrying it silently.
+    let f = case("year-end-carried-forward");
+    f.replace("rates/monthly.csv", "2025-06,USD,1.25,1.25,units_per_presentation\n", "");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v}");
+    let found = findings_of(&v, "OpeningNotDerivable");
+    assert_eq!(found.len(), 1, "{}", v["findings"]);
+    let text = found[0]["message"].as_str().unwrap_or_default();
+    assert!(text.contains("the fiscal year starting 2025-01 has"), "{text}");
+    assert!(found[0]["action"].as_str().unwrap_or_default().contains("tessera check --period 2025-12"));
+}
+
+#[test]
+fn the_reserve_per_operation_is_carried_under_both_ifric16_methods() {
+    // IFRIC 16.17: under the step-by-step method part of an entity's difference belongs
+    // to its intermediate parent's operation; the reserve each operation holds at the
+    // 2025 year end is what 2026 brings forward for it (GLF-BH, acquired in 2026, brings
+    // forward its own opening's).
+    for method in ["direct", "step_by_step"] {
+        let demo = Folder::demo();
+        demo.replace("entities/group.toml", "ifric16 = \"direct\"", &format!("ifric16 = \"{method}\""));
+        let (code, then) = run_json(demo.path(), &["close", "--period", "2025-12", "--out", "out"]);
+        assert_eq!(code, 0, "{method}");
+        let (code, now) = run_json(demo.path(), &["close", "--period", "2026-12", "--out", "out"]);
+        assert_eq!(code, 0, "{method}: {}", now["proof"]);
+        let reserve: BTreeMap<String, String> = then["translation_reserves"]
+            .as_array()
+            .expect("reserves")
+            .iter()
+            .map(|r| (r["operation"].as_str().unwrap().to_string(), r["reserve"].as_str().unwrap().to_string()))
+            .collect();
+        assert!(reserve.len() >= 6, "{method}: {reserve:?}");
+        for r in now["translation_reserves"].as_array().expect("reserves") {
+            let op = r["operation"].as_str().unwrap();
+            if op != "GLF-BH" {
+                assert_eq!(r["brought_forward"].as_str(), reserve.get(op).map(String::as_str), "{method} {op}");
+            }
+        }
+    }
+}
