@@ -405,21 +405,22 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     out
 }
 
-/// A change in stake with control kept is expressed when the subsidiary and the holder
-/// keep their books in the presentation currency (the reattribution of a translation
-/// reserve, IAS 21.48C, is not posted yet), the holder holds it alone before and after
+/// A change in stake with control kept is expressed when the holder keeps its books in
+/// the presentation currency (a foreign subsidiary's translation reserve is
+/// reattributed, IAS 21.48C, by `change_in_stake`), the holder holds it alone before and after
 /// and has no NCI of its own, it holds no other entity, names no counterparty and is
 /// named by no other entity but for the investment in it, its acquisition measured the
-/// NCI at its share of net assets without a fair value adjustment, it changes hands once
-/// in the year (the statement of cash flows shows it in financing, IAS 7.42A).
+/// NCI at its share of net assets without a fair value adjustment, and no other change
+/// of it in the year has the same last month end before it (each change is posted at
+/// its own; the statement of cash flows shows it in financing, IAS 7.42A).
 fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
     let pres = ds.settings.presentation_currency;
     let mut why: Vec<String> = Vec::new();
-    if [&c.holder, &c.owned].into_iter().any(|e| ds.entity(e).is_some_and(|x| x.currency != pres)) {
+    if ds.entity(&c.holder).is_some_and(|x| x.currency != pres) {
         why.push(format!(
-            "the holder or the subsidiary keeps its books in another currency than {pres}: reattributing the translation reserve (IAS 21.48C) is not posted yet"
+            "the holder keeps its books in another currency than {pres}: the exchange difference on its investment in the subsidiary across the change is not split yet (IAS 21.48C is posted for a holder in {pres})"
         ));
     }
     let holders_after: BTreeSet<&EntityId> = ds
@@ -451,8 +452,18 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     }
     let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
     let in_year = |d: NaiveDate| Period::of_date(d).fiscal_year_start(ds.settings.fiscal_year_start) == year;
-    if ds.ownership_changes.iter().filter(|o| o.owned == c.owned && in_year(o.date)).count() > 1 {
-        why.push(format!("{} changes hands more than once in the fiscal year", c.owned));
+    // Several changes in the year are posted one by one, each at the close of the last
+    // month end before it: two in the same month would share that close.
+    let month = last_controlled_month(c.date);
+    if ds
+        .ownership_changes
+        .iter()
+        .any(|o| o.owned == c.owned && o.date != c.date && in_year(o.date) && last_controlled_month(o.date) == month)
+    {
+        why.push(format!(
+            "{} changes hands more than once with the same last month end before the change ({month})",
+            c.owned
+        ));
     }
     if uses_other_reserves(ds, &c.owned) {
         why.push(

@@ -11,7 +11,8 @@
 //! (its new share of the net assets); this rule puts the rest right:
 //!
 //! - goodwill back to its amount at acquisition (NCI at acquisition at the outside
-//!   share of the acquisition date, IFRS 3.19, 3.32);
+//!   share of the acquisition date, IFRS 3.19, 3.32), at the closing rate for a foreign
+//!   subsidiary (IAS 21.47), its exchange difference of the year in OCI;
 //! - the consideration out of the translation reserve, and the holder's own gain on
 //!   shares sold out of profit or loss;
 //! - the balance to retained earnings: the owners' side of the transaction
@@ -21,8 +22,20 @@
 //!   before the change (month granularity, as for a sale: `ownership`), at the new one
 //!   after.
 //!
-//! Which changes reach here (one currency, one holder, partial goodwill, no
-//! intercompany items) is decided by `ownership`; the rest is blocking.
+//! Several changes of one subsidiary in the year are posted one by one, each measured
+//! at the close of the last month end before it and from its share before to its share
+//! after (the next change's share before, or the period end's): the goodwill moved and
+//! the NCI's shares add up over the changes to what the period-end share needs.
+//!
+//! A foreign subsidiary's translation reserve is reattributed between the owners and
+//! the NCI, never reclassified to profit or loss (IAS 21.48C): the close carries the
+//! reserve gross and the NCI rule takes the NCI's share of it at the period-end share,
+//! so after the change the owners' share is the new one, and a later disposal
+//! reclassifies that share (IAS 21.48).
+//!
+//! Which changes reach here (a holder in the presentation currency, one holder,
+//! partial goodwill, no intercompany items) is decided by `ownership`; the rest is
+//! blocking.
 
 use polars::prelude::*;
 use rust_decimal::Decimal;
@@ -123,13 +136,14 @@ pub fn before<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> 
     Ok(b)
 }
 
-/// Posts the entry of one change in stake and corrects the subsidiary's NCI row.
+/// Posts the entry of one change in stake (`b`, with the next change of the subsidiary
+/// in the year, if any) and corrects the subsidiary's NCI row.
 pub fn post(
     j: &mut Journal,
     cx: &Context,
     acquisitions: &[Acquisition],
     holdings: &[Holding],
-    b: &Before,
+    (b, next): (&Before, Option<&Before>),
     invest: &Investments,
     nci: &mut Vec<NciRow>,
 ) -> Option<StakeChange> {
@@ -137,22 +151,40 @@ pub fn post(
     let (e, holder) = (&c.owned, &c.holder);
     let s = cx.structure.entity(e)?;
     let a = acquisitions.iter().rfind(|a| &a.owned == e && a.date < c.date)?;
-    let outside_at_acquisition = Decimal::ONE - crate::ownership::capital_share_on(holdings, holder, e, a.date);
-    let outside_now = Decimal::ONE - s.group_capital;
-    // One currency: the functional amounts are the presentation amounts.
-    let goodwill = cx.round((outside_at_acquisition - outside_now) * a.net_assets);
+    // Each change of the year moves goodwill by its own change of the outside share;
+    // over the year's changes these add up to the acquisition's outside share less the
+    // period end's, which the investment entry measured.
+    let share_on = |day| crate::ownership::capital_share_on(holdings, holder, e, day);
+    let outside_before = Decimal::ONE - share_on(c.date.pred_opt().unwrap_or(a.date));
+    let outside_after = Decimal::ONE - share_on(c.date);
+    // After this change and up to the next one of the year (or the period end).
+    let nci_after = next.map_or(s.nci, |n| n.nci_share);
+    let fc = cx.currencies.get(e).copied().unwrap_or(cx.presentation);
+    let g = goodwill_moved(cx, a, fc, (outside_before - outside_after) * a.net_assets)?;
     let investment_now: Decimal =
         invest.get(e).into_iter().flatten().filter(|(h, _, _)| h == holder).map(|(_, _, x)| *x).sum();
-    let investment_change = investment_now - b.investment;
-    let cash = if c.share.is_sign_negative() { c.consideration } else { -c.consideration };
+    let investment_change = next.map_or(investment_now, |n| n.investment) - b.investment;
+    // The consideration is in the subsidiary's currency (ownership_changes.csv), at the
+    // closing rate of the last month end at the old share, as for a sale (month
+    // granularity; the holder keeps its books in the presentation currency).
+    let consideration = cx.at_closing(fc, c.consideration, b.last_month)?;
+    let cash = if c.share.is_sign_negative() { consideration } else { -consideration };
     // The holder's own gain on shares sold: the proceeds less the investment's carrying
     // amount sold (nothing for a purchase, whose price the investment carries).
     let own_gain = cash + investment_change;
-    let nci_transferred = cx.round((b.nci_share - s.nci) * b.net_assets);
+    let nci_transferred = cx.round((b.nci_share - nci_after) * b.net_assets);
+    // Goodwill at the closing rate (IAS 21.47): the part moved since the opening is the
+    // year's exchange difference (OCI), the part before it sits in the reserve; the
+    // consideration leaves the reserve where the investment entry left it. The NCI's
+    // share of the operation's reserve follows its new share through the NCI rule,
+    // which takes it at the period-end share: the reserve is reattributed, not
+    // reclassified (IAS 21.48C).
     let mut lines = vec![
-        line(&cx.roles.goodwill, e, None, goodwill),
-        line(&cx.roles.translation_reserve, e, None, -investment_change),
+        line(&cx.roles.goodwill, e, None, g.closing),
+        line(&cx.roles.translation_difference, e, None, g.opening - g.closing),
+        line(&cx.roles.translation_reserve, e, None, g.historical - g.opening - investment_change),
     ];
+    lines.retain(|l| !(l.amount.is_zero() && l.account == cx.roles.translation_difference));
     if let Some(acct) = &c.gain_account {
         lines.push(line(acct, holder, Some(e), own_gain));
     }
@@ -169,14 +201,14 @@ pub fn post(
             c.date,
             money::format_amount(c.consideration, cx.minor),
             b.nci_share.normalize(),
-            s.nci.normalize(),
+            nci_after.normalize(),
             money::format_amount(nci_transferred, cx.minor)
         ),
         lines,
     );
     // The NCI's share of the results to the last month end at the old share.
-    let extra_profit = cx.round((b.nci_share - s.nci) * b.profit);
-    let extra_oci = cx.round((b.nci_share - s.nci) * b.oci);
+    let extra_profit = cx.round((b.nci_share - nci_after) * b.profit);
+    let extra_oci = cx.round((b.nci_share - nci_after) * b.oci);
     match nci.iter_mut().find(|r| &r.entity == e) {
         Some(r) => {
             r.profit += extra_profit;
@@ -193,33 +225,48 @@ pub fn post(
     Some(StakeChange { entity: e.clone(), date: c.date, nci_transferred, cash })
 }
 
+/// The goodwill a change in stake moves back to its amount at acquisition (in the
+/// subsidiary's currency `moved_fc`), in the presentation currency: at the acquisition
+/// date's rate, at the opening of the year (the acquisition date's rate when acquired in
+/// the year) and at the closing rate. One currency: three times the same amount.
+struct Moved {
+    historical: Decimal,
+    opening: Decimal,
+    closing: Decimal,
+}
+
+fn goodwill_moved(cx: &Context, a: &Acquisition, fc: Currency, moved_fc: Decimal) -> Option<Moved> {
+    let historical = if fc == cx.presentation || a.net_assets.is_zero() {
+        cx.round(moved_fc)
+    } else {
+        cx.round(moved_fc * a.net_assets_presentation / a.net_assets)
+    };
+    let opening = if Period::of_date(a.date) >= cx.fiscal_start {
+        historical
+    } else {
+        cx.at_closing(fc, moved_fc, cx.fiscal_start.prev())?
+    };
+    Some(Moved { historical, opening, closing: cx.at_closing(fc, moved_fc, cx.period)? })
+}
+
 #[cfg(test)]
 mod tests {
     use super::super::context::fixture::*;
     use super::super::investment;
     use super::*;
 
-    /// P bought 80% of S in 2021 for 400 (net assets 400, NCI at its share 80, goodwill
-    /// 80) and buys 10% more on 1 March 2026 for 90, when S's net assets are 700 and its
-    /// profit of the year 100. At the period end the investment entry took the NCI at
-    /// acquisition at 10% (goodwill 40) and left the 90 in the reserve. The entry: goodwill
-    /// +40 (back to 80), reserve -90, retained earnings +50 (the owners paid 90 for a
-    /// carrying amount of 70: 20; and 10% of the 300 earned before the change that the
-    /// period-end share gave them: 30). The NCI row gains 10% of the 100 made to February.
-    #[test]
-    fn goodwill_kept_the_consideration_to_equity_and_the_ncis_earlier_share() {
-        let mut before_change = holding("P", "S", "0.8", "2021-01-01");
-        before_change.valid_to = chrono::NaiveDate::from_ymd_opt(2026, 2, 28);
-        let holdings = vec![before_change, holding("P", "S", "0.9", "2026-03-01")];
-        let w = World::new(&["P", "S"], &holdings, p("2026-03"));
-        let cx = w.context(p("2026-03"), p("2026-01"), balances(&[("P", "1200", Some("S"), "490")]));
-        let invest = investment::investments(&cx);
+    /// The change, the acquisition and the subsidiary before it of the tests below. S
+    /// keeps its books in USD (the fixture's rate: 2 USD per EUR). P bought 80% of S in
+    /// 2021 for USD 800 (net assets USD 800, EUR 400 at 2; NCI at its share USD 160,
+    /// goodwill USD 160) and buys 10% more on 1 March 2026 for USD 180 (EUR 90 at the
+    /// 28 February rate), when S's net assets are EUR 700 and its profit of the year 100.
+    fn purchase() -> (OwnershipChange, Acquisition) {
         let change = OwnershipChange {
             date: chrono::NaiveDate::from_ymd_opt(2026, 3, 1).unwrap_or_default(),
             holder: id("P"),
             owned: id("S"),
             share: d("0.1"),
-            consideration: d("90"),
+            consideration: d("180"),
             fair_value_held: None,
             costs: Decimal::ZERO,
             gain_account: None,
@@ -229,10 +276,10 @@ mod tests {
         let a = Acquisition {
             owned: id("S"),
             date: chrono::NaiveDate::from_ymd_opt(2021, 1, 1).unwrap_or_default(),
-            consideration: d("400"),
+            consideration: d("800"),
             nci_measurement: NciMeasurement::ShareOfNetAssets,
             nci_fair_value: None,
-            net_assets: d("400"),
+            net_assets: d("800"),
             net_assets_presentation: d("400"),
             impairment: Decimal::ZERO,
             impairment_year: Decimal::ZERO,
@@ -240,6 +287,26 @@ mod tests {
             fair_value_account: None,
             source: Source::file("entities/acquisitions.csv"),
         };
+        (change, a)
+    }
+
+    /// Posts the purchase at 31 March with `rates` (month, USD per EUR) over the
+    /// fixture's 2 at every month end.
+    fn post_purchase(rates: &[(&str, &str)]) -> (Journal, Vec<NciRow>, Option<StakeChange>) {
+        let mut before_change = holding("P", "S", "0.8", "2021-01-01");
+        before_change.valid_to = chrono::NaiveDate::from_ymd_opt(2026, 2, 28);
+        let holdings = vec![before_change, holding("P", "S", "0.9", "2026-03-01")];
+        let w = World::new(&["P", "S"], &holdings, p("2026-03"));
+        let mut cx = w.context(p("2026-03"), p("2026-01"), balances(&[("P", "1200", Some("S"), "490")]));
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        for (m, r) in rates {
+            cx.closing.insert(
+                (usd, p(m)),
+                crate::load::Rate { value: d(r), quote: crate::load::Quote::UnitsPerPresentation },
+            );
+        }
+        let invest = investment::investments(&cx);
+        let (change, a) = purchase();
         let b = Before {
             change: &change,
             last_month: p("2026-02"),
@@ -252,7 +319,19 @@ mod tests {
         let mut nci =
             vec![NciRow { entity: id("S"), nci_share: d("0.1"), profit: d("20"), oci: Decimal::ZERO, equity: d("80") }];
         let mut j = Journal::default();
-        let done = post(&mut j, &cx, &[a], &holdings, &b, &invest, &mut nci);
+        let done = post(&mut j, &cx, &[a], &holdings, (&b, None), &invest, &mut nci);
+        (j, nci, done)
+    }
+
+    /// At one rate throughout: at the period end the investment entry took the NCI at
+    /// acquisition at 10% (goodwill USD 80) and left the EUR 90 in the reserve. The
+    /// entry: goodwill +40 (USD 80 at 2, back to USD 160), reserve -90, retained earnings
+    /// +50 (the owners paid 90 for a carrying amount of 70: 20; and 10% of the 300
+    /// earned before the change that the period-end share gave them: 30); no exchange
+    /// difference. The NCI row gains 10% of the 100 made to February (IFRS 10.B96).
+    #[test]
+    fn goodwill_kept_the_consideration_to_equity_and_the_ncis_earlier_share() {
+        let (j, nci, done) = post_purchase(&[]);
         assert_eq!(
             lines(&j.entries[0]),
             [
@@ -262,6 +341,29 @@ mod tests {
             ]
         );
         assert_eq!(nci[0].profit, d("30"));
+        assert_eq!(done.map(|x| (x.nci_transferred, x.cash)), Some((d("70"), d("-90"))));
+    }
+
+    /// The same with the dollar moving: 2.5 per EUR at the opening, 1.6 at 31 March (2
+    /// at acquisition and at 28 February). The goodwill put back, USD 80, is 40 at the
+    /// acquisition rate, 32 at the opening, 50 at the closing rate (IAS 21.47): +50 on
+    /// goodwill, its 18 of the year in OCI (credit), its 8 before the year in the
+    /// reserve, where the investment entry had measured the exchange difference on the
+    /// smaller goodwill. Retained earnings take the same 50 as at one rate: B96's
+    /// difference is measured at the date, and nothing reaches profit or loss (IAS
+    /// 21.48C: the reserve is re-attributed, not reclassified).
+    #[test]
+    fn a_foreign_subsidiarys_goodwill_at_the_closing_rate_and_no_reclassification() {
+        let (j, _, done) = post_purchase(&[("2025-12", "2.5"), ("2026-03", "1.6")]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1100".into(), "S".into(), "50".into()),
+                ("9000".into(), "S".into(), "-18".into()),
+                ("3300".into(), "S".into(), "-82".into()),
+                ("3200".into(), "S".into(), "50".into())
+            ]
+        );
         assert_eq!(done.map(|x| (x.nci_transferred, x.cash)), Some((d("70"), d("-90"))));
     }
 }

@@ -200,7 +200,14 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
     let stake_changes: Vec<change_in_stake::StakeChange> = stakes
         .iter()
-        .filter_map(|b| change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, b, &invest, &mut nci))
+        .filter_map(|b| {
+            // The next change of the same subsidiary in the year, if any (IFRS 10.B96 per change).
+            let next = stakes
+                .iter()
+                .filter(|n| n.change.owned == b.change.owned && n.change.date > b.change.date)
+                .min_by_key(|n| n.change.date);
+            change_in_stake::post(&mut j, &cx, &ds.acquisitions, &ds.holdings, (b, next), &invest, &mut nci)
+        })
         .collect();
     let mut brought_forward = crate::translate::brought_forward(t, fiscal_start)?;
     // The reserve per operation at the prior year end, where the folder holds that year.
