@@ -40,10 +40,10 @@
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
+use super::NciRow;
 use super::context::Context;
 use super::investment::Investments;
 use super::journal::{EliminationRule, Journal, line};
-use super::{Close, NciRow};
 use crate::load::Dataset;
 use crate::model::*;
 use crate::money;
@@ -78,17 +78,8 @@ pub struct StakeChange {
 
 /// Runs the close at the last month end before the change, on the structure of that day.
 pub fn before<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> PolarsResult<Before<'a>> {
-    let last_month = crate::ownership::last_controlled_month(change.date);
-    let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let (s, _) = crate::structure::build(
-        &ids,
-        &ds.holdings,
-        &ds.settings.parent,
-        last_month.last_day(),
-        ds.settings.policies.significant_influence,
-    );
+    let (last_month, s, then) = super::close_before_change(ds, t, change)?;
     let nci_share = s.entity(&change.owned).map(|e| e.nci).unwrap_or_default();
-    let then: Close = super::close_at(ds, t, &s, last_month)?;
     let e = &change.owned;
     let chart: std::collections::BTreeMap<&GroupAccount, &AccountDef> =
         ds.accounts.iter().map(|a| (&a.account, a)).collect();

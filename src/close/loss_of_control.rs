@@ -32,10 +32,10 @@ use chrono::NaiveDate;
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
+use super::NciRow;
 use super::aggregate::EntityBalances;
 use super::context::Context;
 use super::journal::{EliminationRule, EntryLine, Journal, line};
-use super::{Close, NciRow};
 use crate::findings::{Finding, Rule};
 use crate::load::Dataset;
 use crate::model::*;
@@ -83,16 +83,7 @@ pub struct Disposal {
 /// Runs the close at the last month end the group controlled the subsidiary sold in
 /// `change`, on the structure of that day, and keeps its part.
 pub fn at_last_month<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> PolarsResult<AtLastMonth<'a>> {
-    let last_month = crate::ownership::last_controlled_month(change.date);
-    let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
-    let (s, _) = crate::structure::build(
-        &ids,
-        &ds.holdings,
-        &ds.settings.parent,
-        last_month.last_day(),
-        ds.settings.policies.significant_influence,
-    );
-    let then: Close = super::close_at(ds, t, &s, last_month)?;
+    let (last_month, _, then) = super::close_before_change(ds, t, change)?;
     let e = &change.owned;
     let contributions = then.contributions.clone().lazy().filter(col("entity").eq(lit(e.as_str()))).collect()?;
     let balances = super::aggregate::balances(&contributions)?.remove(e).unwrap_or_default();

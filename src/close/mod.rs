@@ -146,6 +146,27 @@ pub struct Close {
     pub stake_changes: Vec<change_in_stake::StakeChange>,
 }
 
+/// The close at the last month end before an ownership change (the month rule of
+/// `ownership::last_controlled_month`), on the group's structure of that day: what a
+/// sale (`loss_of_control`) and a change in stake (`change_in_stake`) carry from.
+pub fn close_before_change(
+    ds: &Dataset,
+    t: &Translated,
+    change: &OwnershipChange,
+) -> PolarsResult<(Period, GroupStructure, Close)> {
+    let last_month = crate::ownership::last_controlled_month(change.date);
+    let ids: Vec<EntityId> = ds.entities.iter().map(|e| e.id.clone()).collect();
+    let (s, _) = crate::structure::build(
+        &ids,
+        &ds.holdings,
+        &ds.settings.parent,
+        last_month.last_day(),
+        ds.settings.policies.significant_influence,
+    );
+    let then = close_at(ds, t, &s, last_month)?;
+    Ok((last_month, s, then))
+}
+
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
