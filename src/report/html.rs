@@ -286,6 +286,15 @@ fn statement_table(r: &CloseReport<'_>, key: &str, title: &str, minor: u32) -> S
             format_amount(amount, minor)
         ));
     }
+    // The layout's ratio lines (margins), in percent of the statement's own lines.
+    let blank = if prior.is_some() { "<td></td>" } else { "" };
+    for x in r.statements.laid_out.get(key).map(|s| s.ratios.as_slice()).unwrap_or_default() {
+        let p = x.percent.map(|p| format!("{p:.1}%")).unwrap_or_else(|| "n/a".into());
+        t.push_str(&format!(
+            r#"<tr class="ratio"><td class="note">{}</td><td class="amount">{p}</td>{blank}</tr>"#,
+            escape(&x.label)
+        ));
+    }
     t.push_str("</tbody></table>");
     t
 }

@@ -45,6 +45,11 @@ fn statement_sheets(r: &CloseReport<'_>) -> Vec<Sheet> {
             }
             if total { s.bold_row(cells) } else { s.row(cells) }
         }
+        // The layout's ratio lines (margins), in percent of the statement's own lines.
+        for x in &r.statements.laid_out[*key].ratios {
+            let value = x.percent.map(Cell::Percent).unwrap_or_else(|| Cell::from("n/a"));
+            s.row(vec![Cell::Text(x.label.clone()), value]);
+        }
         sheets.push(s);
     }
     sheets

@@ -22,6 +22,9 @@ pub enum Cell {
     Amount(Decimal),
     /// Any other number (a rate, a share, a count), shown as it is.
     Number(Decimal),
+    /// A percentage given in percent (`44.6` for 44.6%): stored as the fraction
+    /// (0.446) and shown with one decimal and the percent sign.
+    Percent(Decimal),
 }
 
 impl From<&str> for Cell {
@@ -97,6 +100,7 @@ fn build(sheets: &[Sheet], decimals: u32) -> Result<Vec<u8>, XlsxError> {
         amount,
         number: Format::new(),
         number_bold: Format::new().set_bold(),
+        percent: Format::new().set_num_format("0.0%"),
     };
     let mut book = Workbook::new();
     book.set_properties(&reproducible_properties()?);
@@ -116,6 +120,7 @@ struct Formats {
     amount_bold: Format,
     number: Format,
     number_bold: Format,
+    percent: Format,
 }
 
 fn write_sheet(ws: &mut Worksheet, sheet: &Sheet, decimals: u32, f: &Formats) -> Result<(), XlsxError> {
@@ -142,6 +147,13 @@ fn write_sheet(ws: &mut Worksheet, sheet: &Sheet, decimals: u32, f: &Formats) ->
                 Cell::Empty => {}
                 Cell::Text(t) => {
                     ws.write_string_with_format(rn, cn, t, text_format)?;
+                }
+                Cell::Percent(p) => {
+                    let fraction = (*p / Decimal::ONE_HUNDRED).round_dp(6).normalize();
+                    match exact_double(fraction) {
+                        Some(x) => ws.write_number_with_format(rn, cn, x, &f.percent)?,
+                        None => ws.write_string_with_format(rn, cn, format!("{p:.1}%"), text_format)?,
+                    };
                 }
                 Cell::Amount(d) | Cell::Number(d) => {
                     let format = if matches!(cell, Cell::Amount(_)) { amount_format } else { number_format };
@@ -179,6 +191,7 @@ fn shown_width(c: &Cell, decimals: u32) -> usize {
         Cell::Text(t) => t.chars().count(),
         Cell::Amount(d) => crate::money::format_amount(*d, decimals).chars().count() + 1,
         Cell::Number(d) => d.normalize().to_string().len(),
+        Cell::Percent(p) => format!("{p:.1}%").len(),
     }
 }
 

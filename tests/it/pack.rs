@@ -215,8 +215,17 @@ fn check_workbook(wb: &Value, close: &Value, matching: &Value, segments: &Value)
             }
         }
     }
-    let a = &close["attribution"];
+    // Ratio lines (margins) below the statement: numbers in percent format, the
+    // fraction of the close's percent.
+    let ratios = close["statements"]["profit_or_loss"]["ratios"].as_array().expect("the demo's margins");
     let pl = sheet_rows(wb, "Profit or loss");
+    for x in ratios {
+        let row = pl.iter().find(|r| r[0].1 == x["label"].as_str().unwrap()).expect("ratio row");
+        assert_eq!(row[1].2, "0.0%", "{}", x["label"]);
+        let want = (json_amount(&x["percent"]) / Decimal::ONE_HUNDRED).round_dp(6).normalize();
+        assert_eq!(number(&row[1]), want, "{}", x["label"]);
+    }
+    let a = &close["attribution"];
     let n = close["statements"]["profit_or_loss"]["lines"].as_array().unwrap().len();
     assert_eq!(number(&pl[n][1]), json_amount(&a["profit_owners"]));
     assert_eq!(number(&pl[n + 1][1]), json_amount(&a["profit_nci"]));
@@ -493,6 +502,11 @@ fn a_close_writes_its_files_workbook_and_report() {
     let html = std::fs::read_to_string(dir.join("close.html")).unwrap();
     for external in ["src=\"http", "href=\"http", "<script", "<link", "@import", "url("] {
         assert!(!html.contains(external), "the page refers outside itself: {external}");
+    }
+    for x in close["statements"]["profit_or_loss"]["ratios"].as_array().unwrap() {
+        let p: Decimal = json_amount(&x["percent"]);
+        let row = format!(r#"<td class="note">{}</td><td class="amount">{p:.1}%</td>"#, x["label"].as_str().unwrap());
+        assert!(html.contains(&row), "the page shows the ratio line {row}");
     }
     let shot = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("close-report.png");
     let Some((dom, log)) = render_in_chromium(&dir.join("close.html"), &shot) else {
