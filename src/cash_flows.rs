@@ -306,67 +306,31 @@ pub fn cash_flows(
 
     // The consolidated movement of each contribution, and its split.
     let delta = contribution_movements(opening, closing)?;
-    let keys: BTreeSet<&Key> = delta.keys().chain(parts.keys()).collect();
-    // Component -> line: every amount below is a movement (debit positive); a line shows
-    // minus the sum of its components (a debit to an asset is cash spent).
-    let mut on_line: BTreeMap<String, Decimal> = BTreeMap::new();
-    let mut add = |line: &str, x: Decimal| *on_line.entry(line.to_string()).or_default() += x;
-    let mut fx_cash = Decimal::ZERO;
-    let mut acq_by: BTreeMap<EntityId, (Decimal, Decimal)> = BTreeMap::new();
-    let mut unclassified: BTreeMap<GroupAccount, Decimal> = BTreeMap::new();
-    let investment_kind = |a: &GroupAccount| chart.get(a).and_then(|d| d.ic_kind.as_deref()) == Some("investment");
-    let nci_line = class.get(&roles.non_controlling_interest).map(|d| d.line.clone());
     let stakes = stake_changes_in_view(opening, closing);
     let sold = disposals_in_view(opening, closing);
-    let mut cash_disposed: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    let r = Routing {
+        ds,
+        s,
+        chart: &chart,
+        class: &class,
+        nci_line: class.get(&roles.non_controlling_interest).map(|d| d.line.clone()),
+        root,
+        acquired,
+        stakes: &stakes,
+        sold: &sold,
+    };
+    let mut tally = Tally::default();
+    let keys: BTreeSet<&Key> = delta.keys().chain(parts.keys()).collect();
     for key in keys {
-        let (e, a, cp) = key;
         let d = delta.get(key).copied().unwrap_or_default();
         let p = parts.get(key).copied().unwrap_or_default();
-        let k = share.get(e).copied().unwrap_or(Decimal::ONE);
+        let k = share.get(&key.0).copied().unwrap_or(Decimal::ONE);
         let (fx, acq) = split_movement(key, d, p, k, (minor, mode), &mut problems);
-        let flow = d - fx - acq;
-        let def = class.get(a);
-        let section = def.map(|x| x.section);
-        let is_cash = section == Some(Section::Cash);
-        if acquired.contains(e) {
-            // The cash acquired is part of the change in cash; the other balances
-            // acquired are the acquisition line (IAS 7.40-42).
-            let slot = acq_by.entry(e.clone()).or_default();
-            if is_cash {
-                slot.1 += acq;
-            } else {
-                add(ACQUISITIONS, acq);
-            }
-        }
-        if is_cash {
-            fx_cash += fx;
-            continue;
-        }
-        add(Section::Exchange.as_str(), fx);
-        if let Some(c) = cp
-            && acquired.contains(c)
-            && investment_kind(a)
-        {
-            // The consideration a holder paid for a subsidiary acquired in the view.
-            acq_by.entry(c.clone()).or_default().0 += flow;
-            add(ACQUISITIONS, flow);
-            continue;
-        }
-        // What the holder paid or received for shares with control kept (IAS 7.42A), the
-        // carrying amount of an investment sold (with the disposal, IAS 7.40).
-        if let Some(line) = cp.as_ref().and_then(|c| changed_line(c, &stakes, &sold))
-            && investment_kind(a)
-        {
-            add(line, flow);
-            continue;
-        }
-        route(&chart, &class, nci_line.as_deref(), root, e, a, flow, &mut add, &mut unclassified);
-        if cp.as_ref().is_some_and(|c| dividend_in_investing(ds, s, &chart, c, a)) {
-            add(ASSOCIATE_DIVIDEND_INCOME, -flow);
-            add(ASSOCIATE_DIVIDENDS, flow);
-        }
+        r.contribution(key, d - fx - acq, fx, acq, &mut tally);
     }
+    let Tally { mut on_line, fx_cash, acq_by, mut unclassified, mut cash_disposed } = tally;
+    let mut add = |line: &str, x: Decimal| *on_line.entry(line.to_string()).or_default() += x;
+    let nci_line = r.nci_line.clone();
 
     // The elimination journal's movement between the two closes.
     for (own, e, a, x) in journal_lines(opening, closing, (acquired, &stakes, &sold), &chart, &class, &mut problems) {
@@ -427,6 +391,91 @@ pub fn cash_flows(
         disposals,
     };
     Ok((cf, checks))
+}
+
+/// What the statement's components add up to: each line's movement (debit positive: a
+/// line shows minus the sum of its components), the exchange difference on cash held,
+/// each acquisition's consideration and cash acquired, the movements no line
+/// classifies, and the cash of each subsidiary sold.
+#[derive(Default)]
+struct Tally {
+    on_line: BTreeMap<String, Decimal>,
+    fx_cash: Decimal,
+    acq_by: BTreeMap<EntityId, (Decimal, Decimal)>,
+    unclassified: BTreeMap<GroupAccount, Decimal>,
+    cash_disposed: BTreeMap<EntityId, Decimal>,
+}
+
+impl Tally {
+    fn add(&mut self, line: &str, x: Decimal) {
+        *self.on_line.entry(line.to_string()).or_default() += x;
+    }
+}
+
+/// What routing a movement to its line reads: the chart and the classification, the
+/// NCI's line, the group's root, and the group events of the view.
+struct Routing<'a> {
+    ds: &'a Dataset,
+    s: &'a GroupStructure,
+    chart: &'a BTreeMap<&'a GroupAccount, &'a AccountDef>,
+    class: &'a BTreeMap<&'a GroupAccount, &'a LineDef>,
+    nci_line: Option<String>,
+    root: &'a EntityId,
+    acquired: &'a BTreeSet<EntityId>,
+    stakes: &'a BTreeMap<EntityId, Decimal>,
+    sold: &'a BTreeMap<EntityId, Disposal>,
+}
+
+impl Routing<'_> {
+    fn investment_kind(&self, a: &GroupAccount) -> bool {
+        self.chart.get(a).and_then(|d| d.ic_kind.as_deref()) == Some("investment")
+    }
+
+    /// One contribution's movement, split into its flow, its exchange difference `fx`
+    /// and the balance acquired `acq`, onto the lines.
+    fn contribution(&self, key: &Key, flow: Decimal, fx: Decimal, acq: Decimal, t: &mut Tally) {
+        let (e, a, cp) = key;
+        let is_cash = self.class.get(a).is_some_and(|x| x.section == Section::Cash);
+        if self.acquired.contains(e) {
+            // The cash acquired is part of the change in cash; the other balances
+            // acquired are the acquisition line (IAS 7.40-42).
+            if is_cash {
+                t.acq_by.entry(e.clone()).or_default().1 += acq;
+            } else {
+                t.acq_by.entry(e.clone()).or_default();
+                t.add(ACQUISITIONS, acq);
+            }
+        }
+        if is_cash {
+            t.fx_cash += fx;
+            return;
+        }
+        t.add(Section::Exchange.as_str(), fx);
+        if let Some(c) = cp
+            && self.acquired.contains(c)
+            && self.investment_kind(a)
+        {
+            // The consideration a holder paid for a subsidiary acquired in the view.
+            t.acq_by.entry(c.clone()).or_default().0 += flow;
+            t.add(ACQUISITIONS, flow);
+            return;
+        }
+        // What the holder paid or received for shares with control kept (IAS 7.42A), the
+        // carrying amount of an investment sold (with the disposal, IAS 7.40).
+        if let Some(line) = cp.as_ref().and_then(|c| changed_line(c, self.stakes, self.sold))
+            && self.investment_kind(a)
+        {
+            t.add(line, flow);
+            return;
+        }
+        let Tally { on_line, unclassified, .. } = t;
+        let mut add = |line: &str, x: Decimal| *on_line.entry(line.to_string()).or_default() += x;
+        route(self.chart, self.class, self.nci_line.as_deref(), self.root, e, a, flow, &mut add, unclassified);
+        if cp.as_ref().is_some_and(|c| dividend_in_investing(self.ds, self.s, self.chart, c, a)) {
+            t.add(ASSOCIATE_DIVIDEND_INCOME, -flow);
+            t.add(ASSOCIATE_DIVIDENDS, flow);
+        }
+    }
 }
 
 /// The entities consolidated at the closing: the first month their flows count from,
