@@ -156,6 +156,48 @@ fn journal_sum(c: &Close, account: &GroupAccount, rule: Option<EliminationRule>,
         .sum()
 }
 
+/// The dividends row: direct movements of retained earnings in the books of entities
+/// consolidated at both dates (the NCI bearing its share of a subsidiary's dividend),
+/// less the intragroup ones the close eliminated against them.
+fn dividends_row(
+    ds: &crate::load::Dataset,
+    (opening, closing): (&Close, &Close),
+    (c_open, c_close): (&Contributions, &Contributions),
+    (before, after): (&BTreeSet<EntityId>, &BTreeSet<EntityId>),
+    (re, nci): (Option<usize>, Option<usize>),
+    n: usize,
+    minor: u32,
+) -> Vec<Decimal> {
+    let roles = &ds.settings.accounts;
+    let mut dividends = vec![Decimal::ZERO; n];
+    let mut add = |at: Option<usize>, x: Decimal| {
+        if let Some(i) = at {
+            dividends[i] += x;
+        }
+    };
+    let nci_share: BTreeMap<&EntityId, Decimal> = closing.nci.iter().map(|r| (&r.entity, r.nci_share)).collect();
+    // A hyperinflationary entity's retained earnings move also by their restatement and
+    // their translation at the closing rate (IAS 29.25, IAS 21.42(a)), which are no
+    // dividends: its movement stays in other movements.
+    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|h| h <= closing.period);
+    for e in before.intersection(after).filter(|e| !hyper(e)) {
+        let key = (e.clone(), roles.retained_earnings.clone());
+        let own = -(c_close.get(&key).copied().unwrap_or_default() - c_open.get(&key).copied().unwrap_or_default());
+        add(re, own);
+        if let Some(share) = nci_share.get(e) {
+            let part = money::round(own * *share, minor, ds.settings.policies.rounding);
+            add(re, -part);
+            add(nci, part);
+        }
+    }
+    add(
+        re,
+        -(journal_sum(closing, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)
+            - journal_sum(opening, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)),
+    );
+    dividends
+}
+
 /// The statement of changes in equity between the `opening` close (the start of the
 /// view's period) and the `closing` one, with its proof.
 pub fn changes_in_equity(
@@ -169,7 +211,6 @@ pub fn changes_in_equity(
 ) -> PolarsResult<(EquityChanges, Check)> {
     let _span = tracing::info_span!("changes_in_equity", period = %closing.period).entered();
     let roles = &ds.settings.accounts;
-    let mode = ds.settings.policies.rounding;
     let chart = Chart::new(&ds.accounts);
     let balance_sheet_equity_accounts: BTreeSet<GroupAccount> = ds
         .accounts
@@ -198,7 +239,6 @@ pub fn changes_in_equity(
 
     let mut profit = vec![Decimal::ZERO; n];
     let mut oci = vec![Decimal::ZERO; n];
-    let mut dividends = vec![Decimal::ZERO; n];
     let mut acquisitions = vec![Decimal::ZERO; n];
     let add = |row: &mut Vec<Decimal>, at: Option<usize>, x: Decimal| {
         if let Some(i) = at {
@@ -232,32 +272,9 @@ pub fn changes_in_equity(
     add(&mut oci, re, -view.oci_nci + nci_from_reserves);
     add(&mut oci, nci, view.oci_nci);
 
-    // Dividends: direct movements of retained earnings in the books of entities
-    // consolidated at both dates; intragroup ones are eliminated against them.
     let before = contributing(opening)?;
     let after = contributing(closing)?;
-    let nci_share: BTreeMap<&EntityId, Decimal> = closing.nci.iter().map(|r| (&r.entity, r.nci_share)).collect();
-    // A hyperinflationary entity's retained earnings move also by their restatement and
-    // their translation at the closing rate (IAS 29.25, IAS 21.42(a)), which are no
-    // dividends: its movement stays in other movements.
-    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|h| h <= closing.period);
-    for e in before.intersection(&after).filter(|e| !hyper(e)) {
-        let key = (e.clone(), roles.retained_earnings.clone());
-        let own = -(c_close.get(&key).copied().unwrap_or_default() - c_open.get(&key).copied().unwrap_or_default());
-        add(&mut dividends, re, own);
-        // The NCI bears its share of a subsidiary's dividend.
-        if let Some(share) = nci_share.get(e) {
-            let part = money::round(own * *share, minor, mode);
-            add(&mut dividends, re, -part);
-            add(&mut dividends, nci, part);
-        }
-    }
-    add(
-        &mut dividends,
-        re,
-        -(journal_sum(closing, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)
-            - journal_sum(opening, &roles.retained_earnings, Some(EliminationRule::IntragroupDividend), None)),
-    );
+    let dividends = dividends_row(ds, (opening, closing), (&c_open, &c_close), (&before, &after), (re, nci), n, minor);
     // Acquisitions: the NCI at acquisition of each subsidiary first consolidated.
     for e in after.difference(&before) {
         let x = -journal_sum(
