@@ -783,19 +783,20 @@ fn compared(
     let ds = &c.checked.ds;
     let scope = c.checked.scope;
     let mut f = Vec::new();
+    // The actuals the comparison is run beside.
+    let a = Actuals {
+        ds,
+        mapped: &c.checked.mapped,
+        structure: c.structure(),
+        fiscal_start: scope.fiscal_start,
+        period: scope.period,
+        base_period: c.base.as_ref().map(|b| b.period),
+    };
     let closed = match source {
         Source::PriorYear => {
             // The whole folder: the year closed's own dataset holds no other year.
             let full = &c.checked.full;
             f.extend(crate::compare::prior_year_findings(full, scope.fiscal_start));
-            let a = Actuals {
-                ds,
-                mapped: &c.checked.mapped,
-                structure: c.structure(),
-                fiscal_start: scope.fiscal_start,
-                period: scope.period,
-                base_period: c.base.as_ref().map(|b| b.period),
-            };
             match f.is_empty() {
                 true => crate::compare::compare_prior_year(&a, full, view, &c.root)?.map(|x| (x, Vec::new())),
                 false => None,
@@ -804,14 +805,6 @@ fn compared(
         Source::Plan(name) => match crate::load::plans::load_plan(ds, name, &mut f) {
             None => None,
             Some(plan) => {
-                let a = Actuals {
-                    ds,
-                    mapped: &c.checked.mapped,
-                    structure: c.structure(),
-                    fiscal_start: scope.fiscal_start,
-                    period: scope.period,
-                    base_period: c.base.as_ref().map(|b| b.period),
-                };
                 let (x, more) = crate::compare::compare_plan(&a, &plan)?;
                 f.extend(more);
                 x.map(|x| (x, plan.inputs))
