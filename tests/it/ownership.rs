@@ -172,6 +172,12 @@ fn amount(v: &Value) -> rust_decimal::Decimal {
     v.as_str().and_then(|s| s.parse().ok()).unwrap_or_else(|| panic!("not a decimal: {v}"))
 }
 
+/// The group trial balance's amount on account `a` of a close's JSON (zero when absent).
+fn tb_amount(v: &Value, a: &str) -> rust_decimal::Decimal {
+    let rows = v["group_trial_balance"].as_array().unwrap_or_else(|| panic!("no group trial balance: {v:#}"));
+    rows.iter().find(|r| r["account"] == a).map(|r| amount(&r["amount"])).unwrap_or_default()
+}
+
 /// The month of the sale of the foreign operation (tests/cases/loss-of-control-foreign-
 /// operation, worked in its SOURCE.md): March closed S consolidated; April holds only
 /// the disposal: the gain 80 + reclassified reserve 48 in profit, the reclassification
@@ -271,15 +277,7 @@ fn a_stake_sold_with_control_kept_is_an_equity_transaction() {
     let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
     assert_eq!(code, 0, "{:#}", v["findings"]);
     let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
-    let tb = |a: &str| {
-        v["group_trial_balance"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .find(|r| r["account"] == a)
-            .map(|r| amount(&r["amount"]))
-            .unwrap_or_default()
-    };
+    let tb = |a: &str| tb_amount(&v, a);
     assert_eq!([tb("1100"), tb("3900"), tb("4700"), tb("3300")], [d("80"), d("-240"), d("0"), d("0")]);
     let a = &v["attribution"];
     assert_eq!([amount(&a["profit_nci"]), amount(&a["profit_owners"])], [d("50"), d("150")], "{a:#}");
@@ -442,9 +440,7 @@ proptest::proptest! {
         let net_assets = capital + cents(x.retained) + revenue_to_then;
         let nci = outside * capital + round2(outside * (cents(x.retained) + revenue_to_then));
         let gain = cents(x.proceeds) + cents(x.fair_value) + nci - net_assets - cents(x.goodwill);
-        let tb = |a: &str| -> rust_decimal::Decimal {
-            v["group_trial_balance"].as_array().unwrap().iter().find(|r| r["account"] == a).map(|r| amount(&r["amount"])).unwrap_or_default()
-        };
+        let tb = |a: &str| tb_amount(&v, a);
         proptest::prop_assert_eq!(tb("4700"), -gain, "{:?}", x);
         proptest::prop_assert_eq!(tb("4000"), -revenue_to_then);
         proptest::prop_assert_eq!(tb("1000"), cents(x.proceeds));
@@ -478,15 +474,7 @@ fn a_stake_of_a_foreign_operation_sold_with_control_kept_reclassifies_nothing() 
     let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
     assert_eq!(code, 0, "{:#}", v["findings"]);
     let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
-    let tb = |a: &str| {
-        v["group_trial_balance"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .find(|r| r["account"] == a)
-            .map(|r| amount(&r["amount"]))
-            .unwrap_or_default()
-    };
+    let tb = |a: &str| tb_amount(&v, a);
     assert_eq!(
         [tb("1000"), tb("1100"), tb("3900"), tb("4700"), tb("8100")],
         [d("1750"), d("125"), d("-375"), d("0"), d("-475")]
@@ -529,15 +517,7 @@ fn two_changes_in_stake_in_a_year_each_at_its_own_share() {
     let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
     assert_eq!(code, 0, "{:#}", v["findings"]);
     let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
-    let tb = |a: &str| {
-        v["group_trial_balance"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .find(|r| r["account"] == a)
-            .map(|r| amount(&r["amount"]))
-            .unwrap_or_default()
-    };
+    let tb = |a: &str| tb_amount(&v, a);
     assert_eq!([tb("1000"), tb("1100"), tb("3900"), tb("3200")], [d("880"), d("80"), d("-40"), d("-120")]);
     let a = &v["attribution"];
     assert_eq!([amount(&a["profit_nci"]), amount(&a["profit_owners"])], [d("20"), d("180")], "{a:#}");
