@@ -24,6 +24,7 @@ use crate::findings::{Finding, Rule, Severity};
 use crate::map_accounts::period_index;
 use crate::model::*;
 use crate::money::{self, column_decimals};
+use crate::restate::AcquisitionUnit;
 use crate::structure::EntityStructure;
 use crate::translate::Translated;
 
@@ -45,6 +46,9 @@ pub struct Records<'r> {
     pub uplifts: &'r [Uplift],
     /// The goodwill impairments by month, per entity (`impairment::dated`).
     pub impairments: BTreeMap<EntityId, Vec<Dated>>,
+    /// The IAS 29 restatement of each acquired hyperinflationary subsidiary
+    /// (`restate::acquisition_units`).
+    pub units: BTreeMap<EntityId, AcquisitionUnit>,
 }
 
 /// What the NCI rule (`nci.rs`) reads of this one, per subsidiary (or per holder).
@@ -355,6 +359,9 @@ struct Acquired<'c, 'a> {
     /// Its goodwill impairments by month; empty when the record's undated columns hold
     /// them.
     dated: Vec<Dated>,
+    /// A hyperinflationary subsidiary's restatement: `a` and `uplifts` are then in the
+    /// unit of the period end ([`restated`]).
+    unit: Option<AcquisitionUnit>,
 }
 
 /// One fair value adjustment in the entry: account, amount in the subsidiary's
@@ -415,8 +422,12 @@ impl Acquired<'_, '_> {
         let hist = self.at_hist(gross_fc);
         if self.dated.is_empty() {
             let now = self.to_pres(gross_fc, cx.period);
-            let year = self.opening_period().map(|p0| now - self.to_pres(gross_fc, p0)).unwrap_or(now - hist);
-            return (year, now - hist);
+            let year =
+                self.opening_period().map(|p0| now - self.to_pres(self.at_opening(gross_fc), p0)).unwrap_or(now - hist);
+            // Restated goodwill is carried at the restated amount at the closing rate, as
+            // the NCI at acquisition is: nothing of it is left at an earlier rate.
+            let to_date = if self.unit.is_some() { Decimal::ZERO } else { now - hist };
+            return (year, to_date);
         }
         let now = self.to_pres(gross_fc - share * a.impairment, cx.period);
         let to_date = now - hist + self.impairment_pres(share, false);
@@ -428,6 +439,13 @@ impl Acquired<'_, '_> {
             None => to_date,
         };
         (year, to_date)
+    }
+
+    /// An amount of the acquisition as the opening carried it: for a restated
+    /// subsidiary, taken back from the period end's unit to the opening's (IAS 29.24-25
+    /// restates it anew at every period end); otherwise unchanged.
+    fn at_opening(&self, x: Decimal) -> Decimal {
+        self.unit.map_or(x, |u| u.back_to_opening(x))
     }
 
     /// The month before the fiscal year, when the subsidiary was held then.
@@ -484,8 +502,13 @@ pub fn post(
                 ..a
             }
         };
+        let unit = records.units.get(&e.id).copied();
+        let (a, uplifts) = match &unit {
+            Some(u) => restated(cx, u, fc, a, uplifts),
+            None => (a, uplifts),
+        };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let sub = Acquired { cx, e, a, fc, m, uplifts, dated };
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit };
         post_one(j, &sub, invest, months, &mut nci);
     }
     nci
@@ -506,6 +529,38 @@ fn net_of_deferred_tax(a: Acquisition, uplifts: &[Uplift]) -> Acquisition {
         net_assets_presentation: a.net_assets_presentation + tax_fc * a.net_assets_presentation / a.net_assets,
         ..a
     }
+}
+
+/// A hyperinflationary subsidiary's acquisition and fair value adjustments in the unit of
+/// the period end: every amount of the acquisition date is non-monetary (equity at
+/// acquisition, IAS 29.24-25; goodwill, which IAS 21.47 makes an asset of the foreign
+/// operation and which is restated like its other non-monetary assets, the policy
+/// applied here and common practice; the NCI at acquisition, a share of those net
+/// assets or their fair value; the fair value adjustments, IAS 29.15) and is restated by
+/// the index change since the acquisition month, each rounded once in the functional
+/// currency. The equity at acquisition the entry removes is then the restated amount at
+/// the closing rate (IAS 21.42(a)), not the acquisition date's translation.
+fn restated(
+    cx: &Context,
+    unit: &AcquisitionUnit,
+    fc: Currency,
+    a: Acquisition,
+    uplifts: Vec<Uplift>,
+) -> (Acquisition, Vec<Uplift>) {
+    let minor = fc.minor_unit();
+    let r = |x: Decimal| unit.now(x, minor, cx.mode);
+    let net_assets = r(a.net_assets);
+    let restated = Acquisition {
+        consideration: r(a.consideration),
+        nci_fair_value: a.nci_fair_value.map(r),
+        net_assets,
+        net_assets_presentation: cx.at_closing(fc, net_assets, cx.period).unwrap_or_default(),
+        impairment: r(a.impairment),
+        impairment_year: r(a.impairment_year),
+        fair_value_adjustment: r(a.fair_value_adjustment),
+        ..a
+    };
+    (restated, uplifts.into_iter().map(|u| Uplift { amount: r(u.amount), ..u }).collect())
 }
 
 /// The entry of one subsidiary.
@@ -655,7 +710,7 @@ fn exchange_difference_lines(
     let fva_fx_year: Decimal = fva
         .iter()
         .map(|(_, fc, hist, now)| match opening_period {
-            Some(p0) => *now - sub.to_pres(*fc, p0),
+            Some(p0) => *now - sub.to_pres(sub.at_opening(*fc), p0),
             None => *now - *hist,
         })
         .sum();
@@ -842,7 +897,11 @@ mod tests {
         let mut rates = super::super::fair_value::ExpenseRates::default();
         let invest = investments(&cx);
         let close = |rates: &super::super::fair_value::ExpenseRates| {
-            let records = Records { uplifts: &[], impairments: super::super::impairment::dated(&cx, &rows, rates) };
+            let records = Records {
+                uplifts: &[],
+                impairments: super::super::impairment::dated(&cx, &rows, rates),
+                units: BTreeMap::new(),
+            };
             let mut j = Journal::default();
             let mut found = Vec::new();
             let nci = post(&mut j, &cx, std::slice::from_ref(&a), &invest, &Default::default(), &records, &mut found);
@@ -917,7 +976,7 @@ mod tests {
             expense: acct("8000"),
         };
         let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
-        let records = Records { uplifts: &all, impairments: BTreeMap::new() };
+        let records = Records { uplifts: &all, impairments: BTreeMap::new(), units: BTreeMap::new() };
         let mut j = Journal::default();
         let mut found = Vec::new();
         let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);
