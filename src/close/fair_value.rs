@@ -22,6 +22,11 @@
 //!   the entry is this year's exchange difference on the depreciation, in OCI (IAS
 //!   21.39c).
 //!
+//! A hyperinflationary subsidiary's adjustment is restated by the index since the
+//! acquisition month and depreciated on the restated amount, the year's charge and the
+//! depreciation to date at the closing rate (IAS 29.15, 29.26, IAS 21.42(a);
+//! [`post_restated`]).
+//!
 //! The entry is the subsidiary's own: the NCI bears its share of the expense and of the
 //! exchange difference (`nci.rs`, IAS 21.41). [`findings`] lists what the adjustments
 //! lack; `check` raises the same.

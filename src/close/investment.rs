@@ -5,7 +5,9 @@
 //! purchase gain (IFRS 3.34), the fair value adjustments (IFRS 3.18) and the NCI at
 //! acquisition (IFRS 3.19) in the same entry. The exchange differences (on goodwill, on
 //! the fair value adjustment, on the holders' translated investments) close the entry:
-//! this year's part to OCI, the part brought forward to the reserve.
+//! this year's part to OCI, the part brought forward to the reserve. A hyperinflationary
+//! subsidiary's acquisition amounts are first restated from the acquisition month
+//! ([`restated`], IAS 29.24-25) and so are at the closing rate (IAS 21.42(a)).
 //!
 //! The entry is built in named steps: [`measure`] (goodwill and bargain in the
 //! subsidiary's currency), [`findings`] (what the acquisition record lacks, raised by
