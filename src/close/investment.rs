@@ -998,4 +998,51 @@ mod tests {
         assert_eq!(lines(&j.entries[0]), want);
         assert_eq!(nci.fair_value_now.get(&id("S")), Some(&d("75")));
     }
+
+    /// The same acquisition of S, hyperinflationary, with the NCI at its fair value USD
+    /// 300 (full goodwill, IFRS 3.19), restated from the acquisition month's index 100
+    /// to 150 now (IAS 29.24-25; 120 at the opening). Restated: consideration 1,500, net
+    /// assets 1,500, NCI 450, goodwill 1,500 + 450 - 1,500 = 450; the NCI's part of
+    /// goodwill 450 - 20% x 1,500 = 150. At 3 USD per EUR now (2 at the opening), all at
+    /// the closing rate (IAS 21.42(a)): equity at acquisition 500, goodwill 150, NCI 150.
+    /// The year's exchange difference on goodwill: 150 less the opening's 450 x 120/150 =
+    /// 360 at 2 = 180: a loss of 30 (9000 +30); the NCI's part 50 - 120 / 2 = -10. The
+    /// residual of the entry before it, -500 + 600 - 100 + 150 - 150 = 0, so the reserve
+    /// takes -30. Lines: 1200 P -500, 3000 S +600, 3200 S -100, 1100 S +150, 3900 S -150,
+    /// 9000 S +30, 3300 S -30. Worked by hand.
+    #[test]
+    fn a_hyperinflationary_subsidiary_is_eliminated_on_its_restated_acquisition() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("3"), quote: Quote::UnitsPerPresentation });
+        let invest = investments(&cx);
+        let unit = AcquisitionUnit { then: d("100"), now: d("150"), opening: Some(d("120")) };
+        let records = Records { units: BTreeMap::from([(id("S"), unit)]), ..Records::default() };
+        let a = Acquisition {
+            nci_measurement: NciMeasurement::FairValue,
+            nci_fair_value: Some(d("300")),
+            ..acquisition("1000", "1000", "500")
+        };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[a], &invest, &Default::default(), &records, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1200".into(), "P".into(), "-500".into()),
+                ("3000".into(), "S".into(), "600".into()),
+                ("3200".into(), "S".into(), "-100".into()),
+                ("1100".into(), "S".into(), "150".into()),
+                ("3900".into(), "S".into(), "-150".into()),
+                ("9000".into(), "S".into(), "30".into()),
+                ("3300".into(), "S".into(), "-30".into())
+            ]
+        );
+        assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+        assert_eq!(nci.nci_goodwill_oci.get(&id("S")), Some(&d("-10")));
+    }
 }
