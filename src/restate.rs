@@ -431,14 +431,13 @@ pub fn findings(
 
 /// What the close cannot restate of a hyperinflationary entity `e` with an acquisition
 /// record, in a close of the fiscal year from `fiscal_start` to `last`. Supported: a
-/// subsidiary consolidated in full, acquired before the fiscal year, its equity at
-/// acquisition, goodwill, NCI at acquisition and fair value adjustments restated from
-/// the acquisition month ([`AcquisitionUnit`]), which needs that month's index (a missing
-/// one is `PriceIndexMissing`). Blocking (`RestatementUnsupported`): an entity
-/// equity-accounted or consolidated proportionately, an acquisition in the fiscal year
-/// (its results before control and goodwill's first exchange difference would have to be
-/// measured on restated amounts), a goodwill impairment, a change in ownership in the
-/// year.
+/// subsidiary consolidated in full, its equity at acquisition, goodwill, NCI at
+/// acquisition and fair value adjustments restated from the acquisition month
+/// ([`AcquisitionUnit`]), which needs that month's index (a missing one is
+/// `PriceIndexMissing`); acquired in the fiscal year, its results before control restated
+/// on too. Blocking (`RestatementUnsupported`): an entity equity-accounted or consolidated
+/// proportionately, an acquisition in a fiscal year in which hyperinflation begins
+/// after its start, a goodwill impairment, a change in ownership in the year.
 fn acquisition_findings(
     ds: &Dataset,
     e: &Entity,
@@ -467,9 +466,13 @@ fn acquisition_findings(
         ))),
         Some(Method::Full) | Some(Method::None) | None => {}
     }
-    if Period::of_date(a.date) >= fiscal_start {
+    // Acquired in the year: its results before control are moved from the restated
+    // balances of the month before control, which are in that month's unit only when
+    // the whole year is restated (`close/pre_acquisition.rs`).
+    if Period::of_date(a.date) >= fiscal_start && e.hyperinflationary_from.is_some_and(|h| h > fiscal_start) {
         out.push(unsupported(format!(
-            "it is acquired in the fiscal year from {fiscal_start}: its results before control and goodwill's first exchange difference would have to be measured on restated amounts (IAS 29.24-26)"
+            "it is acquired in the fiscal year from {fiscal_start} and hyperinflationary only from {} of it: its results before control would have to be restated partly from the month they were recorded and partly from the start of hyperinflation",
+            e.hyperinflationary_from.map(|h| h.to_string()).unwrap_or_default()
         )));
     }
     let impaired = !a.impairment.is_zero() || ds.impairments.iter().any(|i| i.owned == e.id);
@@ -823,19 +826,23 @@ mod tests {
         assert_eq!(units.get(&s), Some(&AcquisitionUnit { then: d("80"), now: d("120"), opening: Some(d("100")) }));
         let full = |_: &EntityId| Some(Method::Full);
         let e = ds.entity(&s).unwrap().clone();
-        let rules = |ds: &Dataset, m: &dyn Fn(&EntityId) -> Option<Method>| -> Vec<Rule> {
-            acquisition_findings(ds, &e, (p("2026-01"), p("2026-02")), m).iter().map(|f| f.rule).collect()
+        let rules_of = |ds: &Dataset, e: &Entity, m: &dyn Fn(&EntityId) -> Option<Method>| -> Vec<Rule> {
+            acquisition_findings(ds, e, (p("2026-01"), p("2026-02")), m).iter().map(|f| f.rule).collect()
         };
+        let rules = |ds: &Dataset, m: &dyn Fn(&EntityId) -> Option<Method>| rules_of(ds, &e, m);
         assert_eq!(rules(&ds, &full), []);
         let equity = |_: &EntityId| Some(Method::Equity);
         assert_eq!(rules(&ds, &equity), [Rule::RestatementUnsupported]);
         ds.acquisitions[0].impairment = d("10");
         assert_eq!(rules(&ds, &full), [Rule::RestatementUnsupported]);
         ds.acquisitions[0].impairment = Decimal::ZERO;
-        // Acquired in the year: its month's index (2026-01's) is there, the rule blocks.
+        // Acquired in the year (its month's index, 2026-01's, is there): supported when
+        // the whole year is restated, blocking when hyperinflation begins after its start.
         let july = ds.acquisitions[0].date;
         ds.acquisitions[0].date = chrono::NaiveDate::from_ymd_opt(2026, 2, 1).unwrap();
-        assert_eq!(rules(&ds, &full), [Rule::RestatementUnsupported]);
+        assert_eq!(rules(&ds, &full), []);
+        let later = Entity { hyperinflationary_from: Some(p("2026-02")), ..e.clone() };
+        assert_eq!(rules_of(&ds, &later, &full), [Rule::RestatementUnsupported]);
         ds.acquisitions[0].date = july;
         // Without the acquisition month's index nothing is restated, and the close blocks.
         ds.price_indices.retain(|x| x.period != p("2025-06"));

@@ -362,8 +362,11 @@ struct Acquired<'c, 'a> {
     /// them.
     dated: Vec<Dated>,
     /// A hyperinflationary subsidiary's restatement: `a` and `uplifts` are then in the
-    /// unit of the period end ([`restated`]).
+    /// unit of the period end ([`restated`]), and `recorded` holds the record's net
+    /// assets in its currency and in the presentation currency (the acquisition date's
+    /// rate).
     unit: Option<AcquisitionUnit>,
+    recorded: Option<(Decimal, Decimal)>,
 }
 
 /// One fair value adjustment in the entry: account, amount in the subsidiary's
@@ -424,8 +427,10 @@ impl Acquired<'_, '_> {
         let hist = self.at_hist(gross_fc);
         if self.dated.is_empty() {
             let now = self.to_pres(gross_fc, cx.period);
-            let year =
-                self.opening_period().map(|p0| now - self.to_pres(self.at_opening(gross_fc), p0)).unwrap_or(now - hist);
+            let year = self
+                .opening_period()
+                .map(|p0| now - self.to_pres(self.at_opening(gross_fc), p0))
+                .unwrap_or_else(|| now - self.at_acquisition(gross_fc));
             // Restated goodwill is carried at the restated amount at the closing rate, as
             // the NCI at acquisition is: nothing of it is left at an earlier rate.
             let to_date = if self.unit.is_some() { Decimal::ZERO } else { now - hist };
@@ -441,6 +446,16 @@ impl Acquired<'_, '_> {
             None => to_date,
         };
         (year, to_date)
+    }
+
+    /// An amount of the acquisition at the acquisition date's rate: for a restated
+    /// subsidiary taken back from the period end's unit to the acquisition's first (the
+    /// amount the group recognised on that date); otherwise [`Self::at_hist`].
+    fn at_acquisition(&self, x: Decimal) -> Decimal {
+        match (self.unit, self.recorded) {
+            (Some(u), Some((na, na_pres))) if !na.is_zero() => self.cx.round(x * u.then * na_pres / (u.now * na)),
+            _ => self.at_hist(x),
+        }
     }
 
     /// An amount of the acquisition as the opening carried it: for a restated
@@ -505,12 +520,13 @@ pub fn post(
             }
         };
         let unit = records.units.get(&e.id).copied();
+        let recorded = unit.map(|_| (a.net_assets, a.net_assets_presentation));
         let (a, uplifts) = match &unit {
             Some(u) => restated(cx, u, fc, a, uplifts),
             None => (a, uplifts),
         };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit };
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit, recorded };
         post_one(j, &sub, invest, months, &mut nci);
     }
     nci
@@ -711,9 +727,9 @@ fn exchange_difference_lines(
     // subsidiary's other net assets are (`nci.rs`).
     let fva_fx_year: Decimal = fva
         .iter()
-        .map(|(_, fc, hist, now)| match opening_period {
+        .map(|(_, fc, _, now)| match opening_period {
             Some(p0) => *now - sub.to_pres(sub.at_opening(*fc), p0),
-            None => *now - *hist,
+            None => *now - sub.at_acquisition(*fc),
         })
         .sum();
     if !fva_fx_year.is_zero() {

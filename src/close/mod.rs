@@ -184,7 +184,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         s,
         pre_acquisition::months_needed(&cx).into_iter().chain(net_investment::months_needed(&cx, &ds.net_investments)),
     )?;
-    pre_acquisition::post(&mut j, &cx, &before);
+    let units = crate::restate::acquisition_units(ds, period, fiscal_start);
+    pre_acquisition::post(&mut j, &cx, &pre_acquisition::restated(&cx, t, &units, &before)?);
     intercompany::post(&mut j, &cx);
     dividends::post(&mut j, &cx);
     let operations = crate::translate::reserves_by_operation(ds, t, &s.immediate_parents())?;
@@ -197,7 +198,6 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let months = investment::investment_months(t, &cx, &invest)?;
     let rates = fair_value::ExpenseRates::of(ds);
     let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
-    let units = crate::restate::acquisition_units(ds, period, fiscal_start);
     let records =
         investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates), units };
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);

@@ -3,17 +3,28 @@
 //! the group's profit; they are moved from income and expense (translation difference
 //! included) into pre-acquisition retained earnings, which the investment entry then
 //! eliminates.
+//!
+//! A hyperinflationary subsidiary's results before control are, in the close, restated
+//! into the unit of the period end and at its closing rate like the rest of its figures
+//! (IAS 29.26, IAS 21.42(a)), not as the month end before control showed them: the
+//! amounts moved are that month end's restated balances, restated on by the index since
+//! it ([`restated`]).
 
 use std::collections::BTreeMap;
 
 use chrono::NaiveDate;
+use polars::prelude::*;
 use rust_decimal::Decimal;
 
 use super::aggregate::{Balances, EntityBalances};
 use super::context::Context;
 use super::journal::{EliminationRule, Journal, line};
-use crate::model::{Method, Period};
+use crate::map_accounts::period_index;
+use crate::model::{EntityId, GroupAccount, Method, Period};
+use crate::money::{self, column_decimals};
+use crate::restate::AcquisitionUnit;
 use crate::structure::EntityStructure;
+use crate::translate::Translated;
 
 /// The subsidiaries that came under control during this fiscal year, up to the period:
 /// each with its control date and the month end before it, whose balances hold its
@@ -51,6 +62,61 @@ pub fn post(j: &mut Journal, cx: &Context, before: &BTreeMap<Period, Balances>) 
             lines,
         );
     }
+}
+
+/// `before` with each hyperinflationary subsidiary acquired this year (one with a unit in
+/// `units`) in the unit of the period end: every line of its balances at the month end
+/// before control that the translated lines hold in its currency (its results, restated
+/// into that month's unit by `restate`) is restated on by the index since that month
+/// (the acquisition month of `units`, index `then`) to the period's (`now`), rounded once
+/// in its currency, and taken at the period's closing rate (IAS 29.26, IAS 21.42(a)). Its
+/// translation difference before control, an amount of the presentation currency that
+/// the later months leave as it was, is moved as it stands.
+pub fn restated(
+    cx: &Context,
+    t: &Translated,
+    units: &BTreeMap<EntityId, AcquisitionUnit>,
+    before: &BTreeMap<Period, Balances>,
+) -> PolarsResult<BTreeMap<Period, Balances>> {
+    let mut out = before.clone();
+    for (e, _, month) in acquired_this_year(cx) {
+        let (Some(unit), Some(fc)) = (units.get(&e.id), cx.currencies.get(&e.id).copied()) else { continue };
+        let Some(own) = out.get_mut(&month).and_then(|b| b.get_mut(&e.id)) else { continue };
+        let local = local_balances(t, &e.id, month)?;
+        for (key, amount) in own.iter_mut() {
+            if let Some(x) = local.get(key) {
+                let now = unit.now(*x, fc.minor_unit(), cx.mode);
+                *amount = cx.at_closing(fc, now, cx.period).unwrap_or_default();
+            }
+        }
+    }
+    Ok(out)
+}
+
+/// One entity's balances in its own currency at the end of `month`, by group account and
+/// counterparty, from the translated lines (restated where it is hyperinflationary).
+fn local_balances(
+    t: &Translated,
+    e: &EntityId,
+    month: Period,
+) -> PolarsResult<BTreeMap<(GroupAccount, Option<EntityId>), Decimal>> {
+    let df = t
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("entity").eq(lit(e.as_str())).and(col("period_index").eq(lit(period_index(month)))))
+        .group_by([col("group_account"), col("counterparty")])
+        .agg([col("balance_local").sum()])
+        .collect()?;
+    let acct = money::column_strings(&df, "group_account")?;
+    let cp = money::column_strings(&df, "counterparty")?;
+    let bal = column_decimals(df.column("balance_local")?)?;
+    Ok((0..df.height())
+        .filter_map(|i| {
+            let a = acct[i].as_ref()?;
+            Some(((GroupAccount::new(a), cp[i].as_ref().map(EntityId::new)), bal[i].unwrap_or_default()))
+        })
+        .collect())
 }
 
 /// The month ends whose balances [`post`] reads.

@@ -814,15 +814,16 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
-            name: "a hyperinflationary entity acquired in the year",
+            name: "a hyperinflationary entity acquired in a year whose start was not yet hyperinflationary",
             mutate: |f| {
                 f.replace(
                     "entities/entities.csv",
                     "BH,BHD,Middle East,Sensors,\n",
-                    "BH,BHD,Middle East,Sensors,2026-01\n",
+                    "BH,BHD,Middle East,Sensors,2026-02\n",
                 );
                 // Every index the restatement needs is there (the acquisition month
-                // 2026-03 included): only the acquisition in the year blocks.
+                // 2026-03 included): only hyperinflation beginning in the year of the
+                // acquisition, after its start, blocks.
                 let rows: String = (1..=12).map(|m| format!("BHD,2026-{m:02},100\n")).collect();
                 f.write("rates/price_index.csv", &format!("currency,period,index\nBHD,2025-12,100\n{rows}"));
             },
