@@ -162,4 +162,61 @@ mod tests {
         let cx = w.context(p("2026-06"), p("2026-01"), Balances::new());
         assert!(acquired_this_year(&cx).is_empty());
     }
+
+    /// S, hyperinflationary, is bought on 1 February 2026 (the acquisition month is
+    /// January, index 125; February's index is 150). January's restated results in its
+    /// own currency: revenue 250 (a credit) and a loss of 100 on the net monetary
+    /// position; its translation difference to January, EUR 0.50, is a presentation
+    /// amount. Restated on by 150/125 and at February's 0.06 EUR per unit (IAS 29.26, IAS
+    /// 21.42(a)): revenue -300 x 0.06 = -18.00, the loss 120 x 0.06 = 7.20; the
+    /// difference stays 0.50. The entry: 4000 +18, 5100 -7.20, 9000 -0.50 and retained
+    /// earnings -10.30; 18 - 7.20 - 0.50 - 10.30 = 0. Worked by hand
+    /// (tests/cases/hyperinflationary-subsidiary-acquired-mid-year-ias29 has the same
+    /// restatement). Without a unit the balances are as January showed them.
+    #[test]
+    fn a_hyperinflationary_subsidiarys_results_before_control_are_restated_on() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.75", "2026-02-01")], p("2026-02"));
+        let mut cx = w.context(p("2026-02"), p("2026-01"), Balances::new());
+        let usd = crate::model::Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        let rate = crate::load::Rate { value: d("0.06"), quote: crate::load::Quote::PresentationPerUnit };
+        cx.closing.insert((usd, p("2026-02")), rate);
+        let january = period_index(p("2026-01"));
+        let dt = crate::money::amount_dtype();
+        let rows = DataFrame::new(
+            2,
+            vec![
+                Column::new("entity".into(), ["S", "S"]),
+                Column::new("group_account".into(), ["4000", "5100"]),
+                Column::new("counterparty".into(), [None::<&str>, None]),
+                Column::new("period_index".into(), [january, january]),
+                Column::new("balance_local".into(), ["-250.000", "100.000"]).strict_cast(&dt).unwrap(),
+            ],
+        )
+        .unwrap();
+        let t = Translated {
+            lines: rows,
+            differences: DataFrame::empty(),
+            explanations: Vec::new(),
+            minor: 2,
+            fiscal_start: p("2026-01"),
+        };
+        let before = BTreeMap::from([(
+            p("2026-01"),
+            balances(&[("S", "4000", None, "-20.00"), ("S", "5100", None, "8.00"), ("S", "9000", None, "0.50")]),
+        )]);
+        let unit = AcquisitionUnit { then: d("125"), now: d("150"), opening: Some(d("100")) };
+        let units = BTreeMap::from([(id("S"), unit)]);
+        let mut j = Journal::default();
+        post(&mut j, &cx, &restated(&cx, &t, &units, &before).unwrap());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("4000".into(), "S".into(), "18".into()),
+                ("5100".into(), "S".into(), "-7.2".into()),
+                ("9000".into(), "S".into(), "-0.5".into()),
+                ("3200".into(), "S".into(), "-10.3".into())
+            ]
+        );
+        assert_eq!(restated(&cx, &t, &BTreeMap::new(), &before).unwrap(), before);
+    }
 }
