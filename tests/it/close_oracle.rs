@@ -276,13 +276,15 @@ fn build(
     Group { ents, rates, later_rates, ic }
 }
 
-/// Makes a subsidiary's figures fit its event: NCI at its share of the net assets (the
-/// close blocks a change of a subsidiary with full goodwill); an acquired one in whole
+/// Makes a subsidiary's figures fit its event: NCI at its share of the net assets for a
+/// sale or a change in stake (the close blocks them under full goodwill); an acquired one in whole
 /// units without losses, so that the net assets acquired are positive and a share of
 /// them has cents only; a kept interest below the share sold; a new share that differs,
 /// with goodwill at the new share not negative (a bargain purchase the close blocks).
 fn fit_event(e: &mut Ent) {
-    e.nci_fair_value = None;
+    if !matches!(e.event, Some(Event::Acquired { .. })) {
+        e.nci_fair_value = None;
+    }
     match &mut e.event {
         Some(Event::Acquired { .. }) => {
             let unit = |x: i64| x / 100 * 100;
@@ -496,7 +498,7 @@ fn structure_rows(g: &Group, i: usize) -> (String, String, String) {
         }
     };
     let (basis, fair_value) = match e.nci_fair_value {
-        Some(premium) => ("fair_value", ((Decimal::ONE - share) * r.net_assets + cents(premium)).to_string()),
+        Some(premium) => ("fair_value", round2((Decimal::ONE - share) * r.net_assets + cents(premium)).to_string()),
         None => ("share_of_net_assets", String::new()),
     };
     let acquisition = format!(
@@ -818,7 +820,7 @@ fn held(w: &Work, c: usize, want: &mut Expected) {
 /// acquisition's rate, goodwill = consideration + NCI at its share of the net assets -
 /// net assets (IFRS 3.19, 3.32) at the closing rate, its exchange difference since the
 /// acquisition in OCI (IAS 21.47), the NCI at its share of the net assets at
-/// acquisition and of what they earned since.
+/// acquisition (or at its fair value: full goodwill) and of what they earned since.
 fn acquired(w: &Work, c: usize, k: usize, led: &(Rows, Vec<Rows>), want: &mut Expected) {
     let (g, e) = (w.g, &w.g.ents[c]);
     let r = record(g, c);
@@ -829,19 +831,25 @@ fn acquired(w: &Work, c: usize, k: usize, led: &(Rows, Vec<Rows>), want: &mut Ex
             want.add(a, -*x);
         }
     }
-    let goodwill = r.consideration + outside * r.net_assets - r.net_assets;
-    let goodwill_now = e.at(goodwill, g.closing(g.months()));
+    // Under full goodwill the NCI's premium over its share of the net assets is its part
+    // of goodwill (IFRS 3.19), and that part's exchange difference since the acquisition
+    // is the NCI's OCI (IAS 21.41).
+    let premium = e.nci_fair_value.map(cents).unwrap_or_default();
+    let now = g.closing(g.months());
+    let goodwill = r.consideration + outside * r.net_assets + premium - r.net_assets;
+    let goodwill_now = e.at(goodwill, now);
     let goodwill_then = r.at_acquisition(e.usd, goodwill);
-    let nci_acquisition = r.at_acquisition(e.usd, outside * r.net_assets);
+    let nci_acquisition = r.at_acquisition(e.usd, outside * r.net_assets + premium);
+    let nci_goodwill_fx = e.at(premium, now) - r.at_acquisition(e.usd, premium);
     want.add("1400", -w.translated[0][&("1400".to_string(), Some(c))]);
     want.add("3000", -w.translated[c][&("3000".to_string(), None)]);
     want.add("1100", goodwill_now);
     want.add("8100", -(goodwill_now - goodwill_then));
     let nci_post = round2(outside * (w.equity_post[c] - r.net_assets_presentation));
-    want.add("3900", -(nci_acquisition + nci_post));
-    want.nci += nci_acquisition + nci_post;
+    want.add("3900", -(nci_acquisition + nci_post + nci_goodwill_fx));
+    want.nci += nci_acquisition + nci_post + nci_goodwill_fx;
     want.profit_nci += round2(outside * (w.profit[c] - profit(&before)));
-    want.oci_nci += round2(outside * (w.oci[c] - oci(&before)));
+    want.oci_nci += round2(outside * (w.oci[c] - oci(&before))) + nci_goodwill_fx;
 }
 
 /// A subsidiary sold in month `k` (IFRS 10.25, B97-B99): the group's to the month end
