@@ -10,10 +10,11 @@
 //! must agree to the cent.
 //!
 //! A second property test closes a quarter (January to March, each month's results at
-//! its average rate, IAS 21.39(b), 21.40) in which subsidiaries of the parent change
-//! hands: one acquired during the year (its results from its acquisition month, those
-//! before it part of the net assets acquired, IFRS 10.B88, IFRS 3.32), one sold (its
-//! results to the month end before the sale's month; gain or loss = proceeds + fair
+//! its average rate, IAS 21.39(b), 21.40) in which subsidiaries held by the parent or by
+//! a wholly owned subsidiary of it change hands: one acquired during the year (its
+//! results from its acquisition month, those before it part of the net assets acquired,
+//! IFRS 10.B88, IFRS 3.32, the NCI at its share or at fair value, IFRS 3.19), one sold
+//! (its results to the month end before the sale's month; gain or loss = proceeds + fair
 //! value retained + NCI derecognised - net assets - goodwill, IFRS 10.25, B98; the
 //! owners' share of its exchange differences reclassified, IAS 21.48, the NCI's
 //! derecognised, 21.48B), one whose stake changes with control kept (an equity
@@ -21,8 +22,8 @@
 //! IFRS 10.23, B96; the NCI's share of results at the old share to the month end before
 //! and at the new one after, B94; the reserve re-attributed, IAS 21.48C). Every account
 //! but the owners' retained earnings and translation reserve must agree to the cent
-//! (those two as a sum: where the standard leaves the split to the preparer), and so
-//! must group profit, its attribution, NCI, equity and total assets.
+//! (those two as a sum: the standard leaves the owners' equity account to the preparer),
+//! and so must group profit, its attribution, NCI, equity and total assets.
 
 use std::collections::BTreeMap;
 
@@ -43,17 +44,18 @@ fn pct(x: u32) -> Decimal {
     Decimal::new(x as i64, 2)
 }
 
-/// What happens during the year to a subsidiary the parent holds directly (month 1 is
-/// January; the day is 1 to 28). Amounts are cents of the subsidiary's currency.
+/// What happens during the year to a subsidiary of the parent or of a wholly owned EUR
+/// subsidiary of it, its holder (month 1 is January; the day is 1 to 28). Amounts are
+/// cents of the subsidiary's currency.
 #[derive(Debug, Clone)]
 pub(crate) enum Event {
-    /// The parent obtains control on the day, buying its `share` for that share of the
+    /// The holder obtains control on the day, buying its `share` for that share of the
     /// net assets at the month end before plus goodwill (IFRS 3.32).
     Acquired { month: usize, day: u32 },
-    /// The parent sells it on the day for `proceeds`, keeping `kept`% (an investment,
+    /// The holder sells it on the day for `proceeds`, keeping `kept`% (an investment,
     /// below 20%) worth `fair_value`.
     Sold { month: usize, day: u32, kept: u32, proceeds: i64, fair_value: i64 },
-    /// The parent's share becomes `to`% (51 or more: control kept) on the day, bought or
+    /// The holder's share becomes `to`% (51 or more: control kept) on the day, bought or
     /// sold for `consideration`.
     Stake { month: usize, day: u32, to: u32, consideration: i64 },
 }
@@ -208,7 +210,7 @@ pub(crate) fn group() -> impl Strategy<Value = Group> {
         .prop_map(|(ents, two_currencies, rates, ic)| build(ents, two_currencies, (rates, Vec::new()), ic))
 }
 
-/// Groups closing January to March, with subsidiaries of the parent acquired, sold or
+/// Groups closing January to March, with subsidiaries acquired, sold or
 /// changing stake during the quarter.
 pub(crate) fn group_in_year() -> impl Strategy<Value = Group> {
     let month = || (0i64..10_000_000, 0i64..8_000_000);
@@ -240,17 +242,26 @@ fn build(
 ) -> Group {
     // Entity 0 is the EUR parent; each other entity hangs below an earlier one that is
     // the parent or its direct subsidiary (at most two tiers). A subsidiary that changes
-    // hands is the parent's own and holds nothing: the close expresses a change by a
-    // holder in the presentation currency without NCI of its own, of a subsidiary
-    // without subsidiaries (src/ownership.rs blocks the others).
+    // hands holds nothing and is held by the parent or a wholly owned EUR subsidiary of
+    // it: the close expresses a change by a holder in the presentation currency without
+    // NCI of its own, of a subsidiary without subsidiaries (src/ownership.rs blocks the
+    // others).
     let mut depth = vec![0usize; ents.len()];
     ents[0].usd = false;
     ents[0].event = None;
     for i in 1..ents.len() {
         ents[i].usd &= two_currencies;
         if ents[i].event.is_some() {
-            ents[i].parent = 0;
-            depth[i] = 1;
+            // Held by the parent or by a wholly owned EUR subsidiary of it.
+            let holders: Vec<usize> =
+                (0..i).filter(|&k| k == 0 || (depth[k] == 1 && !ents[k].usd && ents[k].event.is_none())).collect();
+            let h = holders[ents[i].parent % holders.len()];
+            if h != 0 {
+                ents[h].share = 100;
+                ents[h].nci_fair_value = None;
+            }
+            ents[i].parent = h;
+            depth[i] = depth[h] + 1;
             fit_event(&mut ents[i]);
             continue;
         }
@@ -317,7 +328,7 @@ fn id(i: usize) -> String {
 }
 
 /// A subsidiary's acquisition as acquisitions.csv gives it (amounts in its currency),
-/// and its cost in the parent's books (EUR).
+/// and its cost in its holder's books (EUR).
 struct Record {
     date: chrono::NaiveDate,
     consideration: Decimal,
@@ -370,7 +381,7 @@ fn record(g: &Group, c: usize) -> Record {
     r
 }
 
-/// What the parent books for a subsidiary's event in the event's month (besides cash),
+/// What the holder books for a subsidiary's event in the event's month (besides cash),
 /// its own gain, and its investment after: consideration and proceeds at the closing
 /// rate of the month end before (the month the close measures the change at); a sale
 /// takes the cost of the shares sold out of the investment pro rata.
@@ -445,7 +456,9 @@ fn ledgers(g: &Group) -> Vec<(Rows, Vec<Rows>)> {
             }
         }
         for k in 1..g.ents.len() {
-            if let (0, Some(b)) = (i, booking(g, k)) {
+            if g.ents[k].parent == i
+                && let Some(b) = booking(g, k)
+            {
                 months[g.ents[k].event.as_ref().map_or(1, Event::month) - 1].extend(b.rows);
             }
         }
@@ -488,13 +501,13 @@ fn structure_rows(g: &Group, i: usize) -> (String, String, String) {
                 fv = cents(*fair_value).to_string();
             }
             let sold = pct(e.share - kept);
-            (h, format!("{},E0,{},-{sold},{},{fv},,4700,sold\n", ev.day(), id(i), cents(*proceeds)))
+            (h, format!("{},{},{},-{sold},{},{fv},,4700,sold\n", ev.day(), id(e.parent), id(i), cents(*proceeds)))
         }
         Some(ev @ Event::Stake { to: new, consideration, .. }) => {
             let h = holding(share, &from, &day_before()) + &holding(pct(*new), &ev.day().to_string(), &to);
             let gain = if *new < e.share { "4700" } else { "" };
             let change = pct(*new) - share;
-            (h, format!("{},E0,{},{change},{},,,{gain},stake\n", ev.day(), id(i), cents(*consideration)))
+            (h, format!("{},{},{},{change},{},,,{gain},stake\n", ev.day(), id(e.parent), id(i), cents(*consideration)))
         }
     };
     let (basis, fair_value) = match e.nci_fair_value {
@@ -841,7 +854,7 @@ fn acquired(w: &Work, c: usize, k: usize, led: &(Rows, Vec<Rows>), want: &mut Ex
     let goodwill_then = r.at_acquisition(e.usd, goodwill);
     let nci_acquisition = r.at_acquisition(e.usd, outside * r.net_assets + premium);
     let nci_goodwill_fx = e.at(premium, now) - r.at_acquisition(e.usd, premium);
-    want.add("1400", -w.translated[0][&("1400".to_string(), Some(c))]);
+    want.add("1400", -w.translated[e.parent][&("1400".to_string(), Some(c))]);
     want.add("3000", -w.translated[c][&("3000".to_string(), None)]);
     want.add("1100", goodwill_now);
     want.add("8100", -(goodwill_now - goodwill_then));
@@ -977,7 +990,7 @@ proptest! {
 proptest! {
     #![proptest_config(ProptestConfig { cases: 16, ..ProptestConfig::default() })]
 
-    /// A quarter in which subsidiaries of the parent are acquired, sold or change stake.
+    /// A quarter in which subsidiaries are acquired, sold or change stake.
     #[test]
     fn a_quarter_with_acquisitions_sales_and_changes_in_stake_agrees(g in group_in_year()) {
         agree(&g, "2026-03")?;
