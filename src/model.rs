@@ -597,6 +597,12 @@ pub struct BroughtForward {
     /// gains positive), brought forward as the operation's own rather than as each
     /// entity's translated opening has it (the two differ under the step-by-step method).
     pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
+    /// Per subsidiary and named reserve (an equity account that the `reserve` column of
+    /// the chart names, other than the translation reserve): the reserve's balance at
+    /// acquisition that the investment entry of the prior year end eliminated, in the
+    /// presentation currency (a credit negative). The reserve carried into a later year
+    /// also holds the OCI since acquisition, which is the group's (IFRS 10.B94).
+    pub reserves_at_acquisition: std::collections::BTreeMap<(EntityId, GroupAccount), Decimal>,
 }
 
 /// A change in a holder's share of an entity on one date, from
