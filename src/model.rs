@@ -579,6 +579,18 @@ pub struct NetInvestment {
     pub source: Source,
 }
 
+/// A holder's long-term interest in an equity-accounted investee that in substance forms
+/// part of its net investment (IAS 28.38), from `entities/long_term_interests.csv`: the
+/// holder's balance on `account` naming the investee as counterparty (a long-term loan,
+/// say). Losses beyond the investment reduce it, in the order of the file's rows.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LongTermInterest {
+    pub holder: EntityId,
+    pub investee: EntityId,
+    pub account: GroupAccount,
+    pub source: Source,
+}
+
 /// What a fiscal year's close brings forward from the prior year's close in the same
 /// data folder, besides the balances (`years`): amounts that a rule counts from the
 /// opening of the first year the folder holds, so that the close at a year end and the

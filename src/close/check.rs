@@ -50,6 +50,7 @@ pub fn data_findings(
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
     out.extend(equity_method::findings(ds, &method_of, period));
+    out.extend(equity_method::long_term_findings(ds, &method_of));
     Ok(out)
 }
 
