@@ -341,7 +341,7 @@ fn translated_carried(t: &crate::translate::Translated, end: Period) -> PolarsRe
 /// Each entity's opening of the year after `prior` (a one-year dataset starting
 /// `start`): the closing balances, the result closed into retained earnings (the OCI of
 /// an account whose `reserve` names an equity account other than the translation
-/// reserve into that reserve: [`closes_into`]), the historical carrying amounts carried.
+/// reserve into that reserve: `close_targets`), the historical carrying amounts carried.
 pub fn derive_opening(
     prior: &Dataset,
     t: &crate::translate::Translated,

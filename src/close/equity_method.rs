@@ -14,10 +14,14 @@
 //!   `fair_value.rs`) reduces the share of profit, earlier years' reduce retained
 //!   earnings, and their exchange difference (IAS 21.47) is in the share of OCI. Goodwill
 //!   stays inside the carrying amount, neither recognised nor amortised (IAS 28.32(a));
+//!   a bargain purchase (the share of the net assets above the cost) is income in the
+//!   share of result of the period of acquisition (IAS 28.32(b), `bargain_purchase`);
 //! - dividends received from the investee reduce the investment, not profit (IAS 28.10):
 //!   the holder's dividend income naming it is reversed against the investment;
 //! - losses beyond the carrying amount (cost at the acquisition date's rate plus the
-//!   share since) are not recognised: the investment stops at zero, the unrecognised
+//!   share since) first reduce the long-term interests that form part of the net
+//!   investment (`long_term_interests.csv`, IAS 28.38, `split_over_interests`); beyond
+//!   them they are not recognised: the net investment stops at zero, the unrecognised
 //!   share is shown in the entry and as a warning, and profits are recognised again only
 //!   once they cover it (IAS 28.38-39); the same figures from the start of the
 //!   acquisition make the tracking carry from year to year;
@@ -318,6 +322,8 @@ fn post_share(
     let share = e.effective_interest;
     let r = |x: Decimal| cx.round(x * share);
     let (sp, so, spr) = (r(profit - up.expense), r(oci_year + up.fx), r(prior + up.prior));
+    let bargain = bargain_purchase(cx, fc, a, share, inputs.uplifts);
+    let (sp, spr) = if let Start::InYear(_) = start_of(cx, a) { (sp + bargain, spr) } else { (sp, spr + bargain) };
     let dividends = dividends_received(cx, &e.id);
     let div: Decimal = dividends.iter().map(|d| d.2).sum();
     let interests = inputs.long_term.get(&e.id).map(Vec::as_slice).unwrap_or_default();
@@ -358,6 +364,13 @@ fn post_share(
     if !div.is_zero() {
         text.push_str(&format!("; dividends received {} off the investment", m(div)));
     }
+    if !bargain.is_zero() {
+        text.push_str(&format!(
+            "; bargain purchase {} in the share of result of {} (IAS 28.32(b))",
+            m(bargain),
+            a.date
+        ));
+    }
     let absorbed: Decimal = to_interests.iter().sum();
     if !absorbed.is_zero() {
         text.push_str(&format!("; losses applied to long-term interests {} (IAS 28.38)", m(-absorbed)));
@@ -369,6 +382,23 @@ fn post_share(
     }
     j.post(EliminationRule::EquityMethod, holder.clone(), vec![holder, e.id.clone()], text, lines);
     Some(cost + to_investment)
+}
+
+/// A bargain purchase of an investee (IAS 28.32(b)): the excess of the investor's
+/// `share` of the net fair value of the identifiable net assets (`net_assets`, less the
+/// deferred tax on its fair value adjustments, as for a subsidiary, IAS 12.19) over the
+/// cost, at the acquisition date's rate; 0 when the cost is not below it. It is income
+/// in the share of the investee's result of the period of acquisition: the caller puts
+/// it in the year's share when the acquisition is in the fiscal year, in the earlier
+/// years' (retained earnings) after. The carrying amount includes it, so the floor of
+/// IAS 28.38 needs no change.
+fn bargain_purchase(cx: &Context, fc: Currency, a: &Acquisition, share: Decimal, uplifts: &[Uplift]) -> Decimal {
+    let tax: Decimal = uplifts.iter().filter(|u| u.owned == a.owned && u.deferred_tax).map(|u| u.amount).sum();
+    let excess = (a.net_assets + tax) * share - a.consideration;
+    if excess <= Decimal::ZERO {
+        return Decimal::ZERO;
+    }
+    at_acquisition(cx, fc, a, excess).unwrap_or_default()
 }
 
 /// One long-term interest in an investee as the close reads it (IAS 28.38): the
@@ -1020,6 +1050,40 @@ mod tests {
             ]
         );
         assert!(found[0].message.contains("losses of 10.00 are not recognised"), "{}", found[0].message);
+    }
+
+    /// A bargain purchase (IAS 28.32(b)): 30% of net assets USD 800 = USD 240 against a
+    /// cost of USD 200: an excess of USD 40, EUR 20 at the acquisition date's 2 USD per
+    /// EUR (400 / 800). Bought on 2026-04-15, it is income of the year in the share of
+    /// result, beside 30% x 90 = 27 of profit since; bought in 2020, it is in the
+    /// earlier years' share (retained earnings) with 30% x (500 - 400) = 30.
+    #[test]
+    fn a_bargain_purchase_of_an_investee_is_income_of_the_year_of_acquisition() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let inv = Investee {
+            own: rows(&[("4000", "-150")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-200")]),
+            before: rows(&[("4000", "-60")]),
+        };
+        let (j, _) = run(&cx, &acquired("2026-04-15", "200"), inv.clone(), &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "47".into()), ("4900".into(), "P".into(), "-47".into())]
+        );
+        assert!(j.entries[0].description.contains("bargain purchase 20.00"), "{}", j.entries[0].description);
+        let inv = Investee { before: Accounts::new(), ..inv };
+        let (j, _) = run(&cx, &acquired("2020-01-01", "200"), inv, &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "95".into()),
+                ("4900".into(), "P".into(), "-45".into()),
+                ("3200".into(), "P".into(), "-50".into())
+            ]
+        );
+        // At or above the share of the net assets there is no bargain.
+        assert_eq!(bargain_purchase(&cx, usd(), &acquired("2020-01-01", "240"), d("0.3"), &[]), Decimal::ZERO);
     }
 
     /// Impairments of the investment of USD 50 in 2026-02 (this year) and USD 20 in
