@@ -305,6 +305,22 @@ pub fn findings(
     out
 }
 
+/// A proportionately consolidated entity (a joint operation, IFRS 11.20) that a
+/// consolidated entity holds on an investment account: the close takes the group's share
+/// of its lines but has no entry eliminating the holder's investment against that share
+/// of its equity at acquisition (IFRS 11.21A applies IFRS 3 to the share acquired), so
+/// both would count. Blocking; `check` raises it too.
+pub fn joint_operation_held(e: &EntityId) -> Finding {
+    Finding::new(
+        Rule::ValueInvalid,
+        format!(
+            "{e} is consolidated proportionately (a joint operation, IFRS 11.20) and held on an investment account, but the close does not eliminate an investment in a joint operation against its share of the equity: the two would both be counted"
+        ),
+        "book the holder's interest in the joint operation on an account that is not of kind `investment` and post its elimination against the share of the equity at acquisition (with any goodwill or fair value adjustment of the share, IFRS 11.21A) in group_adjustments.csv, or declare the arrangement as it is (a joint venture is equity-accounted, IFRS 11.24)",
+    )
+    .entity(e)
+}
+
 fn acquisition_missing(e: &EntityId) -> Finding {
     Finding::new(
         Rule::AcquisitionMissing,
@@ -488,6 +504,9 @@ pub fn post(
         let sub = Acquired { cx, e, a, fc, m, uplifts, dated };
         post_one(j, &sub, invest, months, &mut nci);
     }
+    found.extend(
+        cx.of_method(Method::Proportionate).filter(|e| invest.contains_key(&e.id)).map(|e| joint_operation_held(&e.id)),
+    );
     nci
 }
 

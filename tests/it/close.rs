@@ -738,3 +738,30 @@ fn a_long_term_interest_on_an_equity_account_is_a_finding() {
         assert!(found["message"].as_str().unwrap().contains("not an asset account"), "{found:#}");
     }
 }
+
+/// A joint operation (IFRS 11.20) held on an investment account: the close takes the
+/// group's share of its lines but does not eliminate the investment against that share
+/// of its equity, so the close blocks rather than count both (checked in `check` too).
+#[test]
+fn an_investment_in_a_joint_operation_blocks() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/goodwill-share-of-net-assets");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from,arrangement\nP,S,0.5,0.5,2020-01-01,joint_operation\n",
+    );
+    let out = f.path().join("out");
+    let close = ["close", "--period", "2026-01", "--out", out.to_str().unwrap()];
+    for args in [&close[..], &["check", "--period", "2026-01"]] {
+        let (code, v) = run_json(f.path(), args);
+        assert_eq!(code, 1, "{}: {v:#}", args[0]);
+        let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "ValueInvalid");
+        let found = found.unwrap_or_else(|| panic!("{}: no ValueInvalid: {v:#}", args[0]));
+        assert_eq!(found["severity"], "blocking", "{found:#}");
+        assert_eq!(found["entity"], "S", "{found:#}");
+        assert!(found["message"].as_str().unwrap().contains("joint operation"), "{found:#}");
+    }
+}
