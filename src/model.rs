@@ -611,8 +611,10 @@ pub struct BroughtForward {
     pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
     /// Per subsidiary and named reserve (an equity account that the `reserve` column of
     /// the chart names, other than the translation reserve): the reserve's balance at
-    /// acquisition that the investment entry of the prior year end eliminated, in the
-    /// presentation currency (a credit negative). The reserve carried into a later year
+    /// acquisition that the investment entry of the prior year end eliminated, with the
+    /// OCI before control that the pre-acquisition entry moved out of the year's results
+    /// (an acquisition in that year), in the presentation currency (a credit negative).
+    /// The reserve carried into a later year
     /// also holds the OCI since acquisition, which is the group's (IFRS 10.B94).
     pub reserves_at_acquisition: std::collections::BTreeMap<(EntityId, GroupAccount), Decimal>,
 }

@@ -486,14 +486,32 @@ fn brought_forward(
     out.operation_reserves = close.reserves.iter().map(|r| (r.operation.clone(), r.reserve)).collect();
     // The named reserves' balances at acquisition, as the year end's investment entries
     // eliminated them (investment.rs): the part of each reserve that is not the group's.
-    let named: BTreeSet<&GroupAccount> =
-        prior.accounts.iter().filter_map(|a| a.reserve.as_ref()).filter(|r| **r != roles.translation_reserve).collect();
-    for e in close.journal.iter().filter(|e| e.rule == crate::close::EliminationRule::InvestmentAndGoodwill) {
-        for l in e.lines.iter().filter(|l| named.contains(&l.account) && l.counterparty.is_none()) {
-            // The entry debits the reserve with its credit balance at acquisition.
-            out.reserves_at_acquisition.insert((l.entity.clone(), l.account.clone()), -l.amount);
+    // A subsidiary acquired in that year also had OCI of the year before control on the
+    // accounts accumulating into the reserve, moved to equity at acquisition
+    // (pre_acquisition.rs, IFRS 10.B88); its books close it into the reserve, so it is
+    // part of the reserve at acquisition too.
+    let reserve_of: BTreeMap<&GroupAccount, &GroupAccount> = prior
+        .accounts
+        .iter()
+        .filter_map(|a| Some((&a.account, a.reserve.as_ref().filter(|r| **r != roles.translation_reserve)?)))
+        .collect();
+    let named: BTreeSet<&GroupAccount> = reserve_of.values().copied().collect();
+    let mut at_acquisition: BTreeMap<(EntityId, GroupAccount), Decimal> = BTreeMap::new();
+    for e in &close.journal {
+        for l in e.lines.iter().filter(|l| l.counterparty.is_none()) {
+            let reserve = match e.rule {
+                crate::close::EliminationRule::InvestmentAndGoodwill if named.contains(&l.account) => &l.account,
+                crate::close::EliminationRule::PreAcquisitionResults => match reserve_of.get(&l.account) {
+                    Some(r) => *r,
+                    None => continue,
+                },
+                _ => continue,
+            };
+            // Both entries debit a credit balance to take it out of the group's.
+            *at_acquisition.entry((l.entity.clone(), reserve.clone())).or_default() -= l.amount;
         }
     }
+    out.reserves_at_acquisition.extend(at_acquisition);
     for e in &close.journal {
         for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
             let Some(cp) = &l.counterparty else { continue };
