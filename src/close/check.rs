@@ -39,6 +39,9 @@ pub fn data_findings(
         let a = acq.get(&e.id).copied();
         out.extend(investment::findings(e, a, held.contains(&e.id), currency, fiscal_start, roles, &statement_of));
     }
+    for e in s.entities().iter().filter(|e| e.method == Method::Proportionate && held.contains(&e.id)) {
+        out.push(investment::joint_operation_held(&e.id));
+    }
     for e in s.entities().iter().filter(|e| e.method == Method::Equity && !acq.contains_key(&e.id)) {
         out.push(equity_method::acquisition_missing(&e.id));
     }
@@ -50,6 +53,7 @@ pub fn data_findings(
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
     out.extend(equity_method::findings(ds, &method_of, period));
+    out.extend(equity_method::long_term_findings(ds, &method_of));
     Ok(out)
 }
 

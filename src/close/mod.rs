@@ -109,7 +109,9 @@ fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
 /// The findings of the equity method for the close's structure.
 fn equity_method_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
-    equity_method::findings(ds, &method_of, cx.period)
+    let mut out = equity_method::findings(ds, &method_of, cx.period);
+    out.extend(equity_method::long_term_findings(ds, &method_of));
+    out
 }
 
 /// The findings of `goodwill_impairments.csv` for the close.
@@ -214,7 +216,13 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
-    let inputs = equity_method::Inputs { uplifts: &uplifts, impairments: &records.impairments, rates: &rates };
+    let long_term = equity_method::long_term_interests(ds, t, &cx)?;
+    let inputs = equity_method::Inputs {
+        uplifts: &uplifts,
+        impairments: &records.impairments,
+        rates: &rates,
+        long_term: &long_term,
+    };
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &inputs, &mut findings);
     findings.extend(equity_method_findings(ds, &cx));
     topside::post(&mut j, &cx, &ds.group_adjustments);
