@@ -46,8 +46,7 @@ pub fn data_findings(
         out.push(equity_method::acquisition_missing(&e.id));
     }
     let method_of = |e: &EntityId| s.entities().iter().find(|x| &x.id == e).map(|x| x.method);
-    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= period);
-    out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper));
+    out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of));
     let has_rate = |e: &EntityId, p: Period| super::impairment_rate_known(ds, e, p);
     let when = (period, fiscal_start);
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));

@@ -102,8 +102,7 @@ pub struct OperationReserveRow {
 fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
-    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= cx.period);
-    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper)
+    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of)
 }
 
 /// The findings of the equity method for the close's structure.
@@ -190,7 +189,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         s,
         pre_acquisition::months_needed(&cx).into_iter().chain(net_investment::months_needed(&cx, &ds.net_investments)),
     )?;
-    pre_acquisition::post(&mut j, &cx, &before);
+    let units = crate::restate::acquisition_units(ds, period, fiscal_start);
+    pre_acquisition::post(&mut j, &cx, &pre_acquisition::restated(&cx, t, &units, &before)?);
     intercompany::post(&mut j, &cx);
     dividends::post(&mut j, &cx);
     let operations = crate::translate::reserves_by_operation(ds, t, &s.immediate_parents())?;
@@ -204,12 +204,12 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let rates = fair_value::ExpenseRates::of(ds);
     let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
     let records =
-        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
+        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates), units };
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
     findings.extend(fair_value_findings(ds, &cx));
     findings.extend(impairment_findings(ds, &cx));
     findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
-    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
+    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, (&rates, &records.units));
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
     step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
