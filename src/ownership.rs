@@ -264,8 +264,8 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
     }
 }
 
-/// A step acquisition is expressed when the interest held before was an investment (not
-/// equity-accounted or a joint operation: IAS 28.22 reclassification is not posted),
+/// A step acquisition is expressed when the interest held before was an investment or
+/// an associate (or joint venture) meeting [`associate_needs`] (not a joint operation),
 /// held by the row's holder alone, in the presentation currency (its carrying amount is
 /// then the holder's translated investment exactly), with its fair value given and, in
 /// the fiscal year of the acquisition, a profit or loss account for the gain.
@@ -277,11 +277,14 @@ fn step_acquisition_needs(
 ) -> Vec<Finding> {
     let c = x.change;
     let mut out = Vec::new();
-    if x.method_before != Method::None {
-        out.push(unsupported(format!(
-            "the interest held before was accounted for by the method {}; reclassifying its share of OCI and results (IAS 28.22) is not posted yet",
-            x.method_before.as_str()
-        )));
+    match x.method_before {
+        Method::None => {}
+        Method::Equity if this_year => out.extend(associate_needs(ds, x).into_iter().map(unsupported)),
+        Method::Equity => {}
+        m => out.push(unsupported(format!(
+            "the interest held before was accounted for by the method {}; derecognising its share of each line is not posted yet",
+            m.as_str()
+        ))),
     }
     if x.group_holders_before.iter().any(|h| h != &c.holder) {
         out.push(unsupported(format!(
@@ -329,6 +332,49 @@ fn step_acquisition_needs(
         out.extend(gain_account_findings(ds, c));
     }
     out
+}
+
+/// What a step acquisition from an associate or joint venture needs in the fiscal year
+/// of control, besides what every step acquisition needs: the close runs the equity
+/// method to the month end before control (`close::step_acquisition`) and reclassifies
+/// the investor's share of the associate's OCI, the translation reserve to profit or
+/// loss (IAS 28.22(c)). Each reason it cannot is returned.
+fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
+    let c = x.change;
+    let mut why = Vec::new();
+    let year_first = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start).first_day();
+    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date < c.date) {
+        None => why.push(format!(
+            "acquisitions.csv has no row for the acquisition of the associate before {}: its cost and net assets then are where the equity method up to control starts (IAS 28.32)",
+            c.date
+        )),
+        Some(a) => {
+            let foreign = ds.entity(&c.owned).is_some_and(|e| e.currency != ds.settings.presentation_currency);
+            if foreign && a.date < year_first {
+                why.push(format!(
+                    "the associate is a foreign operation held since {}, before the fiscal year of control: the close keeps the investor's share of its exchange differences of earlier years in retained earnings, so the amount to reclassify to profit or loss (IAS 28.22(c), IAS 21.48) is not known",
+                    a.date
+                ));
+            }
+            if !a.fair_value_adjustment.is_zero() || ds.uplifts.iter().any(|u| u.owned == c.owned) {
+                why.push("fair value adjustments inside the associate and those of the business combination are not told apart yet (fair_value_adjustments.csv names the entity, not the acquisition)".into());
+            }
+        }
+    }
+    if ds.impairments.iter().any(|i| i.owned == c.owned) {
+        why.push("goodwill_impairments.csv names it: an impairment of the associate and one of the subsidiary's goodwill are not told apart yet".into());
+    }
+    if uses_other_reserves(ds, &c.owned) {
+        why.push("it has OCI in a reserve other than the translation reserve (a revaluation surplus): the transfer of the investor's share to retained earnings (IAS 28.22(c), IAS 16.41) is not posted yet".into());
+    }
+    if has_counterparty_lines(ds, &c.owned)
+        || is_named_by_others(ds, &c.owned)
+        || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
+        || ds.net_investments.iter().any(|n| n.entity == c.owned || n.counterparty == c.owned)
+    {
+        why.push("dividends, unrealised profit or other items between the group and the associate before control are not split between the equity method and the consolidation yet".into());
+    }
+    why
 }
 
 /// The last month end consolidated for a subsidiary whose control ends on `date` (the

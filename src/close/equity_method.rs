@@ -88,14 +88,19 @@ fn start_of(cx: &Context, a: &Acquisition) -> Start {
     }
 }
 
-/// The last acquisition record of each entity (the last wins, as in the investment rule).
-fn last_records(acquisitions: &[Acquisition]) -> BTreeMap<&EntityId, &Acquisition> {
-    acquisitions.iter().map(|a| (&a.owned, a)).collect()
+/// The last acquisition record of each entity dated by `until` (the last wins, as in
+/// the investment rule), else its last record. An associate that later becomes a
+/// subsidiary has two records (IFRS 3.41-42): closed before the control date, the
+/// equity method starts from the associate's.
+fn last_records(acquisitions: &[Acquisition], until: chrono::NaiveDate) -> BTreeMap<&EntityId, &Acquisition> {
+    let mut out: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    out.extend(acquisitions.iter().filter(|a| a.date <= until).map(|a| (&a.owned, a)));
+    out
 }
 
 /// The balances of every equity-accounted investee with an acquisition record.
 pub fn investees(ds: &Dataset, t: &Translated, cx: &Context, acquisitions: &[Acquisition]) -> PolarsResult<Investees> {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let mut out = Investees::new();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else { continue };
@@ -251,7 +256,7 @@ pub fn post(
     inputs: &Inputs,
     findings: &mut Vec<Finding>,
 ) {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let none = Investee::default();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else {
@@ -509,7 +514,7 @@ pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, p
     let equity = |e: &EntityId| method_of(e) == Some(Method::Equity);
     let consolidated = |e: &EntityId| matches!(method_of(e), Some(Method::Full | Method::Proportionate));
     let mut out = Vec::new();
-    for (_, a) in last_records(&ds.acquisitions).into_iter().filter(|(e, _)| equity(e)) {
+    for (_, a) in last_records(&ds.acquisitions, period.last_day()).into_iter().filter(|(e, _)| equity(e)) {
         let at = |message: String, action: &str| {
             Finding::new(Rule::ValueInvalid, message, action).at(&a.source).entity(&a.owned)
         };

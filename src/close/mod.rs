@@ -207,7 +207,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
-    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let associates = associates_before(ds, t, &steps, period, fiscal_start)?;
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest, &associates);
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
@@ -255,6 +256,26 @@ fn sold_in_year<'a>(
     crate::ownership::losses_of_control(ds, scope)
         .into_iter()
         .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The step acquisitions of the fiscal year to `period` from an associate or joint
+/// venture, each with the equity method at the month end before control.
+fn associates_before<'a>(
+    ds: &Dataset,
+    t: &Translated,
+    steps: &[&'a OwnershipChange],
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    steps
+        .iter()
+        .filter(|c| c.date >= fiscal_start.first_day())
+        .filter(|c| crate::ownership::classify(ds, c).method_before == Method::Equity)
+        .map(|c| step_acquisition::associate_before(ds, t, c))
         .collect()
 }
 

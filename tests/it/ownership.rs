@@ -125,7 +125,8 @@ fn a_change_in_stake_blocks_and_a_share_holdings_contradict_is_inconsistent() {
 /// Control obtained in stages closes with the remeasurement gain in profit or loss
 /// (the case folder's figures are checked by `close::case_folders_...`). Without the
 /// row, the gain would sit in the translation reserve: blocking. With an associate
-/// held before (30%), IAS 28.22 is not posted: blocking.
+/// held before (30%) and no acquisition row of it, the equity method to control has no
+/// start: blocking.
 #[test]
 fn control_in_stages_needs_the_fair_value_held_and_an_investment_before() {
     let f = step_case();
@@ -156,7 +157,8 @@ fn control_in_stages_needs_the_fair_value_held_and_an_investment_before() {
     assert_eq!(code, 1);
     let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
     assert_eq!(unsupported.len(), 1, "{fs:#?}");
-    assert!(unsupported[0]["message"].as_str().unwrap().contains("IAS 28.22"), "{:#}", unsupported[0]);
+    let message = unsupported[0]["message"].as_str().unwrap();
+    assert!(message.contains("no row for the acquisition of the associate before 2026-01-01"), "{message}");
 }
 
 /// A copy of a case folder.
@@ -542,4 +544,66 @@ fn two_changes_in_stake_in_a_year_each_at_its_own_share() {
     let x = of_rule(&fs, "OwnershipChangeUnsupported");
     assert_eq!(x.len(), 2, "{fs:#?}");
     assert!(x[0]["message"].as_str().unwrap().contains("same last month end"), "{:#}", x[0]);
+}
+
+/// Control obtained over the associate of tests/cases/step-acquisition-from-associate
+/// (worked in its SOURCE.md) and the month rule: the equity method runs to the month
+/// end before the month of control, full consolidation from that month. Closed at
+/// March, S is an associate: investment 180 at cost, share since acquisition 90, of
+/// profit 45 and of OCI 45 (IAS 28.10). Control on 15 April gives the figures of 1
+/// April. Control on 1 May runs the equity method through April: share of profit
+/// 30% x (150 + USD 160 / 1.6) = 75, of OCI 45, carrying amount 180 + 120 = 300; net
+/// assets USD 1,440 (EUR 900), NCI 30% x 1,440 = USD 432 (EUR 270), goodwill USD 1,200 +
+/// 432 - 1,440 = 192 (EUR 120); gains 350 - 300 = 50 + 45 reclassified (IFRS 3.42, IAS
+/// 28.22(c)); no revenue of the group's own from S in May and June.
+#[test]
+fn control_over_an_associate_follows_the_month_rule() {
+    let out = tempfile::tempdir().unwrap();
+    let close = |f: &Folder, period: &str| {
+        let (code, v) = run_json(f.path(), &["close", "--period", period, "--out", out.path().to_str().unwrap()]);
+        assert_eq!(code, 0, "{:#}", v["findings"]);
+        assert_eq!(v["proof"]["tied"], true, "{:#}", v["proof"]);
+        v
+    };
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let tb = |v: &Value, accounts: &[&str]| accounts.iter().map(|a| tb_amount(v, a)).collect::<Vec<_>>();
+    let f = case("step-acquisition-from-associate");
+    let v = close(&f, "2026-03");
+    assert_eq!(tb(&v, &["1300", "1400", "4900", "8100"]), [d("90"), d("180"), d("-45"), d("-45")]);
+
+    let moved = |to: &str, last: &str| {
+        let f = case("step-acquisition-from-associate");
+        f.replace(HOLDINGS, "2026-01-01,2026-03-31", &format!("2026-01-01,{last}"));
+        f.replace(HOLDINGS, "0.7,0.7,2026-04-01,", &format!("0.7,0.7,{to},"));
+        f.replace("entities/acquisitions.csv", "S,2026-04-01,", &format!("S,{to},"));
+        f.replace(CHANGES, "2026-04-01,P,S,", &format!("{to},P,S,"));
+        f
+    };
+    let accounts = ["1100", "3900", "4000", "4700", "4900", "8100"];
+    let v = close(&moved("2026-04-15", "2026-04-14"), "2026-06");
+    assert_eq!(tb(&v, &accounts), [d("190"), d("-270"), d("-100"), d("-125"), d("-45"), d("0")]);
+
+    let may = moved("2026-05-01", "2026-04-30");
+    may.replace("entities/acquisitions.csv", ",1280,800,", ",1440,900,");
+    let v = close(&may, "2026-06");
+    assert_eq!(tb(&v, &accounts), [d("120"), d("-270"), d("0"), d("-95"), d("-75"), d("0")]);
+    let step: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "step_acquisition").collect();
+    assert!(step[0]["description"].as_str().unwrap().contains("equity method to 2026-04"), "{:#}", step[0]);
+}
+
+/// A foreign associate held since before the fiscal year of control: the close keeps
+/// the investor's share of its exchange differences of earlier years in retained
+/// earnings, so what IAS 28.22(c) reclassifies is not known: blocking, not a guess.
+#[test]
+fn control_over_a_foreign_associate_of_earlier_years_blocks() {
+    let f = case("step-acquisition-from-associate");
+    f.replace(HOLDINGS, "0.3,0.3,2026-01-01,", "0.3,0.3,2025-07-01,");
+    f.replace("entities/acquisitions.csv", "S,2026-01-01,", "S,2025-07-01,");
+    let (code, fs) = check(&f, "2026-06");
+    assert_eq!(code, 1);
+    let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
+    assert_eq!(unsupported.len(), 1, "{fs:#?}");
+    let message = unsupported[0]["message"].as_str().unwrap();
+    assert!(message.contains("held since 2025-07-01, before the fiscal year of control"), "{message}");
 }
