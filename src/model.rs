@@ -729,3 +729,18 @@ pub enum DividendsReceived {
     /// In investing activities, as a return on the investment.
     Investing,
 }
+
+/// Each entity's acquisition record for a close at `until`: the last dated on or before
+/// it, else its last (a record of a later date still names the entity for the findings).
+/// An entity has two records when an associate becomes a subsidiary (IFRS 3.41-42) or a
+/// subsidiary sold becomes an associate (IFRS 10.25(b)): each close uses the one of its
+/// time.
+pub fn acquisition_records(
+    acquisitions: &[Acquisition],
+    until: NaiveDate,
+) -> std::collections::BTreeMap<&EntityId, &Acquisition> {
+    let mut out: std::collections::BTreeMap<&EntityId, &Acquisition> =
+        acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    out.extend(acquisitions.iter().filter(|a| a.date <= until).map(|a| (&a.owned, a)));
+    out
+}

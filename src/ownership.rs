@@ -16,7 +16,7 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
-use chrono::NaiveDate;
+use chrono::{Datelike, NaiveDate};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
@@ -253,6 +253,9 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
             "the NCI is measured on the effective interest at the period end over all the equity earned since acquisition, so a change of an earlier year would misstate it".into(),
         )],
         ChangeKind::ChangeInStake => change_in_stake_needs(ds, x, &unsupported),
+        ChangeKind::LossOfControl if !this_year && x.method_after == Method::Equity => vec![unsupported(
+            "an associate retained after a loss of control of an earlier year: its cost, the fair value at that date (IFRS 10.25(b)), is not carried into later years yet (the holder's books keep its remaining cost)".into(),
+        )],
         ChangeKind::LossOfControl if !this_year => Vec::new(),
         ChangeKind::LossOfControl => loss_of_control_needs(ds, x, &unsupported),
         ChangeKind::NotControlled if !this_year => Vec::new(),
@@ -377,6 +380,41 @@ fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
     why
 }
 
+/// What a loss of control with an associate (or joint venture) retained needs: the
+/// retained interest at fair value is the associate's cost on initial recognition (IFRS
+/// 10.25(b), B98(b)(iii), IAS 28.32), equity-accounted from the month of `date`. So
+/// acquisitions.csv has the associate's row on `date`, its `consideration` the fair
+/// value retained and its net assets those of the day (where the equity method
+/// starts); `date` is the first day of a month (the month rule consolidates to the
+/// last month end controlled and the equity method counts its first month whole: a
+/// date within a month would count that month in both); and the group has no statement
+/// of cash flows (the non-cash interest retained is not presented yet).
+fn retained_associate_needs(ds: &Dataset, c: &OwnershipChange) -> Vec<String> {
+    let mut why = Vec::new();
+    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date == c.date) {
+        None => why.push(format!(
+            "the interest retained is an associate but acquisitions.csv has no row for {} on {}: its cost (the fair value retained, IFRS 10.25(b)) and net assets that day are where the equity method starts (IAS 28.32)",
+            c.owned, c.date
+        )),
+        Some(a) if Some(a.consideration) != c.fair_value_held => why.push(format!(
+            "the associate retained has `consideration` {} in acquisitions.csv but `fair_value_held` {}: its cost on initial recognition is the fair value retained (IFRS 10.25(b), B98(b)(iii))",
+            a.consideration,
+            c.fair_value_held.map(|v| v.to_string()).unwrap_or_else(|| "empty".into())
+        )),
+        Some(_) => {}
+    }
+    if c.date.day() != 1 {
+        why.push(format!(
+            "control is lost on {} with an associate retained, within a month: the month would be both part of what is sold and equity-accounted (give the first day of a month)",
+            c.date
+        ));
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the interest retained is an associate and the group has a statement of cash flows, which does not present a disposal with a non-cash interest retained yet".into());
+    }
+    why
+}
+
 /// The last month end consolidated for a subsidiary whose control ends on `date` (the
 /// first day without it): the last month end on or before the day before. A month's
 /// results belong to the group when it controls the entity at that month's end, as for
@@ -392,9 +430,10 @@ pub fn last_controlled_month(date: NaiveDate) -> Period {
 /// the row's holder alone (in the presentation currency, without NCI of its own), holds
 /// no entity itself, has no intercompany line, no net investment item and no inventory
 /// count inside the group, was acquired with NCI at its share of net assets and no fair
-/// value adjustment, keeps at most an investment (not an associate or joint
-/// arrangement), delivered every month it is consolidated for, and the group has no
-/// statement of cash flows (its disposal line, IAS 7.39-42, is not built yet).
+/// value adjustment, keeps at most an investment or an associate meeting
+/// [`retained_associate_needs`] (not a joint operation), delivered every month it is
+/// consolidated for, and was not acquired in the fiscal year of the sale where the group
+/// has a statement of cash flows.
 fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
@@ -415,11 +454,13 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     if ds.entity(&c.holder).is_some_and(|e| e.currency != ds.settings.presentation_currency) {
         why.push("the holder's functional currency is not the presentation currency".into());
     }
-    if matches!(x.method_after, Method::Equity | Method::Proportionate) {
-        why.push(format!(
-            "the interest retained is accounted for by the method {} (its cost at fair value, IFRS 10.B98(b)(iii), is not posted yet)",
-            x.method_after.as_str()
-        ));
+    match x.method_after {
+        Method::Equity => why.extend(retained_associate_needs(ds, c)),
+        Method::Proportionate => why.push(
+            "the interest retained is a joint operation (the group's share of each line from the date is not posted yet)"
+                .into(),
+        ),
+        _ => {}
     }
     if ds.holdings.iter().any(|h| h.owner == c.owned && h.is_valid_on(before_day) && !h.capital_share.is_zero()) {
         why.push(format!("{} holds shares of other entities (a sub-group disposal)", c.owned));
@@ -843,7 +884,7 @@ pub fn changes_in_stake(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
 /// statement of cash flows presents an acquisition or a disposal in a view, not both.
 fn acquired_in_year_of(ds: &Dataset, c: &OwnershipChange) -> bool {
     let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
-    ds.acquisitions.iter().any(|a| a.owned == c.owned && a.date <= c.date && Period::of_date(a.date) >= year)
+    ds.acquisitions.iter().any(|a| a.owned == c.owned && a.date < c.date && Period::of_date(a.date) >= year)
 }
 
 #[cfg(test)]

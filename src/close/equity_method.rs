@@ -88,14 +88,11 @@ fn start_of(cx: &Context, a: &Acquisition) -> Start {
     }
 }
 
-/// The last acquisition record of each entity dated by `until` (the last wins, as in
-/// the investment rule), else its last record. An associate that later becomes a
-/// subsidiary has two records (IFRS 3.41-42): closed before the control date, the
-/// equity method starts from the associate's.
+/// The acquisition record of each entity for a close at `until` ([`acquisition_records`]):
+/// closed before control, an associate that becomes a subsidiary starts from the
+/// associate's record; after a loss of control, an associate retained from its own.
 fn last_records(acquisitions: &[Acquisition], until: chrono::NaiveDate) -> BTreeMap<&EntityId, &Acquisition> {
-    let mut out: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
-    out.extend(acquisitions.iter().filter(|a| a.date <= until).map(|a| (&a.owned, a)));
-    out
+    acquisition_records(acquisitions, until)
 }
 
 /// The balances of every equity-accounted investee with an acquisition record.
@@ -768,6 +765,41 @@ mod tests {
                 ("9000".into(), "P".into(), "2.88".into()),
                 ("3200".into(), "P".into(), "1.8".into())
             ]
+        );
+    }
+
+    /// An entity with two records (a subsidiary of 2021 sold on 1 April 2026, an
+    /// associate retained from that date, IFRS 10.25(b)): a close at June takes the
+    /// associate's, so the share counts from April (IAS 28.32): revenue since March
+    /// 150 - 60 = 90, 30% = 27, and no earlier years. A close at March, before the
+    /// associate's date, takes the record of its time.
+    #[test]
+    fn the_record_of_the_closes_time() {
+        let w = world();
+        let both = [acquired("2021-01-01", "400"), acquired("2026-04-01", "240")];
+        let inv = Investee {
+            own: rows(&[("4000", "-150")]),
+            opening: rows(&[("3000", "-400")]),
+            before: rows(&[("4000", "-60")]),
+        };
+        let rates = rates();
+        let none = BTreeMap::new();
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates };
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post(&mut j, &cx, &both, &Investees::from([(id("A"), inv.clone())]), &inputs, &mut found);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "27".into()), ("4900".into(), "P".into(), "-27".into())]
+        );
+        assert!(j.entries[0].description.contains("from 2026-04"), "{}", j.entries[0].description);
+        assert_eq!(
+            acquisition_records(&both, p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[0].date)
+        );
+        assert_eq!(
+            acquisition_records(&both[1..], p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
         );
     }
 

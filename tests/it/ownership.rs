@@ -223,7 +223,8 @@ fn the_month_of_a_sale_shows_the_gain_and_the_reclassification() {
 
 /// Without `fair_value_held` for the 10% kept, the sale of T (tests/cases/loss-of-
 /// control-retained-interest) blocks; so does a revaluation surplus of T, and an
-/// associate kept (30%), whose cost at fair value is not posted yet.
+/// associate kept (30%) on 15 March, without its acquisitions.csv row (its cost at fair
+/// value) and within a month (March would be both sold and equity-accounted).
 #[test]
 fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
     let f = case("loss-of-control-retained-interest");
@@ -255,8 +256,43 @@ fn a_retained_interest_needs_its_fair_value_and_may_not_be_an_associate() {
     let (code, fs) = check(&f, "2026-03");
     assert_eq!(code, 1);
     let x = of_rule(&fs, "OwnershipChangeUnsupported");
+    let messages: Vec<&str> = x.iter().map(|x| x["message"].as_str().unwrap()).collect();
+    assert_eq!(messages.len(), 2, "{fs:#?}");
+    for want in ["acquisitions.csv has no row for T on 2026-03-15", "within a month"] {
+        assert!(messages.iter().any(|m| m.contains(want)), "{want}: {messages:#?}");
+    }
+}
+
+/// The associate kept after the sale of tests/cases/loss-of-control-retained-associate
+/// (worked in its SOURCE.md): closed at March T is still a subsidiary (goodwill 80, NCI
+/// 152); April alone shows the gain 112 and the share of the associate's April profit
+/// 12 (IAS 28.10, from the month of the date), and none of T's revenue. An associate
+/// row whose cost is not the fair value retained blocks (IFRS 10.25(b)).
+#[test]
+fn an_associate_retained_is_equity_accounted_from_the_month_of_the_sale() {
+    let out = tempfile::tempdir().unwrap();
+    let f = case("loss-of-control-retained-associate");
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let close = |args: &[&str]| {
+        let mut all = vec!["close", "--out", out.path().to_str().unwrap()];
+        all.extend_from_slice(args);
+        let (code, v) = run_json(f.path(), &all);
+        assert_eq!(code, 0, "{:#}", v["findings"]);
+        v
+    };
+    let v = close(&["--period", "2026-03"]);
+    assert_eq!([tb_amount(&v, "1100"), tb_amount(&v, "3900"), tb_amount(&v, "1300")], [d("80"), d("-152"), d("0")]);
+    let v = close(&["--period", "2026-04", "--view", "month"]);
+    let a = &v["attribution"];
+    assert_eq!([amount(&a["profit"]), amount(&a["profit_nci"])], [d("124"), d("0")], "{a:#}");
+    assert_eq!([tb_amount(&v, "4700"), tb_amount(&v, "4900"), tb_amount(&v, "1400")], [d("-112"), d("-12"), d("300")]);
+
+    f.replace("entities/acquisitions.csv", "T,2026-04-01,300,", "T,2026-04-01,290,");
+    let (code, fs) = check(&f, "2026-06");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "OwnershipChangeUnsupported");
     assert_eq!(x.len(), 1, "{fs:#?}");
-    assert!(x[0]["message"].as_str().unwrap().contains("method equity"), "{:#}", x[0]);
+    assert!(x[0]["message"].as_str().unwrap().contains("`consideration` 290"), "{:#}", x[0]);
 }
 
 /// The purchase case turned into a sale (worked by hand like its SOURCE.md): P sells
