@@ -643,3 +643,24 @@ fn control_over_a_foreign_associate_of_earlier_years_blocks() {
     let message = unsupported[0]["message"].as_str().unwrap();
     assert!(message.contains("held since 2025-07-01, before the fiscal year of control"), "{message}");
 }
+
+/// The foreign operation of tests/cases/loss-of-control-foreign-operation-over-years
+/// (worked in its SOURCE.md): the 2025 close of the same folder holds the first year of
+/// the reserve, 220 (the NCI's 44), which the 2026 sale reclassifies with the year's
+/// 300 (IAS 21.48): the reserve of the operation at March is 520, the owners' 416
+/// recycled, the NCI's 104 derecognised (IAS 21.48B).
+#[test]
+fn a_reserve_of_two_years_is_reclassified_on_the_sale() {
+    let f = case("loss-of-control-foreign-operation-over-years");
+    let out = tempfile::tempdir().unwrap();
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2025-12", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    assert_eq!([tb_amount(&v, "8100"), amount(&v["attribution"]["oci_nci"])], [d("-220"), d("44")]);
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-04", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let sold: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "loss_of_control").collect();
+    let text = sold[0]["description"].as_str().unwrap();
+    assert!(text.contains("reclassified 416.00") && text.contains("NCI's share 104.00"), "{text}");
+}
