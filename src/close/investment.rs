@@ -63,6 +63,11 @@ pub struct ForNci {
     /// This fiscal year's exchange difference on each holder's eliminated investments in
     /// subsidiaries, per holder.
     pub investment_fx: BTreeMap<EntityId, Decimal>,
+    /// The NCI at acquisition in the presentation currency, credit positive: what the
+    /// statement of changes in equity shows on acquisition, before the later movements
+    /// the same entry carries (the NCI's part of full goodwill's exchange difference and
+    /// impairment, which are its OCI and profit).
+    pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
 }
 
 /// The investment lines of the balances: accounts of kind `investment` naming the
@@ -528,6 +533,7 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
         lines.push(line(acct, &e.id, None, -sub.at_hist(sub.m.bargain_fc)));
     }
     lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
+    nci.nci_at_acquisition.insert(e.id.clone(), nci_pres);
     let impairment_year_pres = impairment_lines(sub, impairment_pres, &mut lines);
     exchange_difference_lines(sub, &fva, &holders_fx_year, &mut lines, nci);
     if a.nci_measurement == NciMeasurement::FairValue {

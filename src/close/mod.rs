@@ -144,6 +144,9 @@ pub struct Close {
     pub disposals: Vec<loss_of_control::Disposal>,
     /// Changes in stake with control kept in the fiscal year to the period.
     pub stake_changes: Vec<change_in_stake::StakeChange>,
+    /// The NCI at acquisition of each subsidiary the investment rule eliminated, credit
+    /// positive (`investment::ForNci::nci_at_acquisition`).
+    pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
 }
 
 /// The close at the last month end before an ownership change (the month rule of
@@ -238,7 +241,19 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals, stake_changes })
+    let nci_at_acquisition = for_nci.nci_at_acquisition;
+    Ok(Close {
+        period,
+        contributions,
+        journal: j.entries,
+        group,
+        nci,
+        reserves,
+        findings,
+        disposals,
+        stake_changes,
+        nci_at_acquisition,
+    })
 }
 
 /// The subsidiaries sold in the fiscal year to `period` (none for the close of the
