@@ -346,7 +346,7 @@ fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
     let c = x.change;
     let mut why = Vec::new();
     let year_first = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start).first_day();
-    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date < c.date) {
+    match ds.acquisitions.iter().filter(|a| a.owned == c.owned && a.date < c.date).max_by_key(|a| a.date) {
         None => why.push(format!(
             "acquisitions.csv has no row for the acquisition of the associate before {}: its cost and net assets then are where the equity method up to control starts (IAS 28.32)",
             c.date

@@ -801,6 +801,12 @@ mod tests {
             acquisition_records(&both[1..], p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
             Some(both[1].date)
         );
+        // The order of the file does not matter: the latest dated by the period.
+        let reversed = [both[1].clone(), both[0].clone()];
+        assert_eq!(
+            acquisition_records(&reversed, p("2026-06").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
+        );
     }
 
     /// Cost USD 240 = EUR 120 at the acquisition date's rate. Earlier years: opening

@@ -664,3 +664,31 @@ fn a_reserve_of_two_years_is_reclassified_on_the_sale() {
     let text = sold[0]["description"].as_str().unwrap();
     assert!(text.contains("reclassified 416.00") && text.contains("NCI's share 104.00"), "{text}");
 }
+
+/// Control over an associate on the first day of the fiscal year: the equity method
+/// runs to the opening (the close of the opening balances). The step acquisition case
+/// with P's stake 30% since 2020 (an associate, cost 300, S's net assets then 800): at
+/// 31 December 2025 S's net assets are 1,000, P's share since 30% x 200 = 60 in
+/// retained earnings, carrying amount 360. On 1 January 2026 the 30% is worth 130: a
+/// loss of 130 - 360 = -230 (IFRS 3.42); goodwill 850 + 30% x 1,000 - 1,000 = 150.
+/// Group at January: cash (1,000 - 720) + 1,000 = 1,280, goodwill 150, share capital
+/// -1,300, retained earnings -60 (the equity method's earlier years, IAS 28.10), NCI
+/// -300, loss 230: 1,280 + 150 - 1,300 - 60 - 300 + 230 = 0.
+#[test]
+fn control_over_an_associate_on_the_first_day_of_the_year() {
+    let f = step_case();
+    f.write(
+        "entities/P/opening.csv",
+        "account,amount,counterparty,amount_presentation\n1000,1000,,\n1400,300,S,\n3000,-1300,,-1300\n",
+    );
+    f.replace(HOLDINGS, "P,S,0.1,0.1,2020-01-01,2025-12-31", "P,S,0.3,0.3,2020-01-01,2025-12-31");
+    f.replace(CHANGES, "2026-01-01,P,S,0.6,", "2026-01-01,P,S,0.4,");
+    f.append("entities/acquisitions.csv", "S,2020-01-01,300,share_of_net_assets,,800,800,0,30%: an associate");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-01", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let got: Vec<_> =
+        ["1000", "1100", "1400", "3000", "3200", "3900", "4700"].iter().map(|a| tb_amount(&v, a)).collect();
+    assert_eq!(got, [d("1280"), d("150"), d("0"), d("-1300"), d("-60"), d("-300"), d("230")]);
+}
