@@ -258,6 +258,7 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
         )],
         ChangeKind::LossOfControl if !this_year => Vec::new(),
         ChangeKind::LossOfControl => loss_of_control_needs(ds, x, &unsupported),
+        ChangeKind::NotControlled if is_associate_sale(x) => associate_sale_needs(ds, x, this_year, &unsupported),
         ChangeKind::NotControlled if !this_year => Vec::new(),
         ChangeKind::NotControlled => vec![unsupported(format!(
             "the entity is {} before and {} after; the equity method and the investments take the share at the period end for the whole year",
@@ -348,14 +349,14 @@ fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
     let year_first = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start).first_day();
     match ds.acquisitions.iter().filter(|a| a.owned == c.owned && a.date < c.date).max_by_key(|a| a.date) {
         None => why.push(format!(
-            "acquisitions.csv has no row for the acquisition of the associate before {}: its cost and net assets then are where the equity method up to control starts (IAS 28.32)",
+            "acquisitions.csv has no row for the acquisition of the associate before {}: its cost and net assets then are where the equity method to the date starts (IAS 28.32)",
             c.date
         )),
         Some(a) => {
             let foreign = ds.entity(&c.owned).is_some_and(|e| e.currency != ds.settings.presentation_currency);
             if foreign && a.date < year_first {
                 why.push(format!(
-                    "the associate is a foreign operation held since {}, before the fiscal year of control: the close keeps the investor's share of its exchange differences of earlier years in retained earnings, so the amount to reclassify to profit or loss (IAS 28.22(c), IAS 21.48) is not known",
+                    "the associate is a foreign operation held since {}, before the fiscal year of the change: the close keeps the investor's share of its exchange differences of earlier years in retained earnings, so the amount to reclassify to profit or loss (IAS 28.22(c), IAS 21.48) is not known",
                     a.date
                 ));
             }
@@ -378,6 +379,76 @@ fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
         why.push("dividends, unrealised profit or other items between the group and the associate before control are not split between the equity method and the consolidation yet".into());
     }
     why
+}
+
+/// A sale of (part of) an associate or joint venture that ends significant influence
+/// (IAS 28.22): equity-accounted the day before, at most an investment after.
+fn is_associate_sale(x: &Classified) -> bool {
+    x.method_before == Method::Equity && x.method_after == Method::None && x.change.share.is_sign_negative()
+}
+
+/// A sale of an associate ending significant influence is expressed (IAS 28.22(a)-(c),
+/// `equity_method::post_disposal`) when it meets [`associate_needs`], is held by the
+/// row's holder alone, in the presentation currency, without NCI of its own, the
+/// associate delivered every month to the last month end before the date, and the group
+/// has no statement of cash flows. In a later fiscal year nothing is left to post, but
+/// an investment retained (its fair value at the date is not carried into later years:
+/// the holder's books keep its remaining cost).
+fn associate_sale_needs(
+    ds: &Dataset,
+    x: &Classified,
+    this_year: bool,
+    unsupported: &dyn Fn(String) -> Finding,
+) -> Vec<Finding> {
+    let c = x.change;
+    let retained = capital_share_on(&ds.holdings, &c.holder, &c.owned, c.date);
+    if !this_year {
+        return if retained.is_zero() {
+            Vec::new()
+        } else {
+            vec![unsupported("an investment retained after the sale of an associate in an earlier year: its fair value at that date (IAS 28.22(b)) is not carried into later years yet".into())]
+        };
+    }
+    let mut why = associate_needs(ds, x);
+    if x.group_holders_before.iter().any(|h| h != &c.holder) {
+        why.push(format!("it was held by {}, not by {} alone", join(&x.group_holders_before), c.holder));
+    }
+    if !x.holder_nci.is_zero() {
+        why.push(format!("the holder {} has a non-controlling interest of its own", c.holder));
+    }
+    if ds.entity(&c.holder).is_some_and(|e| e.currency != ds.settings.presentation_currency) {
+        why.push("the holder's functional currency is not the presentation currency".into());
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the group has a statement of cash flows, which does not present the sale of an associate yet".into());
+    }
+    let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
+    out.extend(gain_account_findings(ds, c));
+    out.extend(retained_value_findings(ds, c));
+    out.extend(months_missing(ds, c));
+    out
+}
+
+fn join(ids: &BTreeSet<EntityId>) -> String {
+    ids.iter().map(EntityId::as_str).collect::<Vec<_>>().join(", ")
+}
+
+/// The rows the close posts as sales of an associate ending significant influence, in
+/// the fiscal year of `scope` up to its period.
+pub fn associate_sales(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
+    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
+    ds.ownership_changes
+        .iter()
+        .filter(|c| c.date >= year_first && c.date <= period_last && c.share.is_sign_negative())
+        .filter(|c| {
+            let x = classify(ds, c);
+            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
+            x.kind == ChangeKind::NotControlled
+                && is_associate_sale(&x)
+                && associate_sale_needs(ds, &x, true, &blocks).is_empty()
+                && agreement(ds, c).is_empty()
+        })
+        .collect()
 }
 
 /// What a loss of control with an associate (or joint venture) retained needs: the

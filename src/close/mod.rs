@@ -212,6 +212,9 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
     let associates = associates_before(ds, t, &steps, period, fiscal_start)?;
     step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest, &associates);
+    for sale in associates_sold(ds, t, period, fiscal_start)? {
+        equity_method::post_disposal(&mut j, &cx, &sale, &mut findings);
+    }
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
@@ -290,6 +293,24 @@ fn associates_before<'a>(
         .iter()
         .filter(|c| c.date >= fiscal_start.first_day())
         .filter(|c| crate::ownership::classify(ds, c).method_before == Method::Equity)
+        .map(|c| step_acquisition::associate_before(ds, t, c))
+        .collect()
+}
+
+/// The associates sold in the fiscal year to `period` (significant influence ended, IAS
+/// 28.22), each with the equity method at the last month end before the sale.
+fn associates_sold<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::associate_sales(ds, scope)
+        .into_iter()
         .map(|c| step_acquisition::associate_before(ds, t, c))
         .collect()
 }

@@ -641,7 +641,7 @@ fn control_over_a_foreign_associate_of_earlier_years_blocks() {
     let unsupported = of_rule(&fs, "OwnershipChangeUnsupported");
     assert_eq!(unsupported.len(), 1, "{fs:#?}");
     let message = unsupported[0]["message"].as_str().unwrap();
-    assert!(message.contains("held since 2025-07-01, before the fiscal year of control"), "{message}");
+    assert!(message.contains("held since 2025-07-01, before the fiscal year of the change"), "{message}");
 }
 
 /// The foreign operation of tests/cases/loss-of-control-foreign-operation-over-years
@@ -691,4 +691,37 @@ fn control_over_an_associate_on_the_first_day_of_the_year() {
     let got: Vec<_> =
         ["1000", "1100", "1400", "3000", "3200", "3900", "4700"].iter().map(|a| tb_amount(&v, a)).collect();
     assert_eq!(got, [d("1280"), d("150"), d("0"), d("-1300"), d("-60"), d("-300"), d("230")]);
+}
+
+/// The associate of tests/cases/associate-sold-investment-retained (worked in its
+/// SOURCE.md) sold whole instead: P sells its 30% on 1 April for USD 720 (EUR 450 at
+/// 1.6) and books cash 450, investment -180, gain 270. The group's gain is 450 - the
+/// carrying amount 270 = 180, and the share of OCI 45 is reclassified (IAS 28.22(b)-(c)):
+/// 225 in profit or loss, the share of profit 45 to March, nothing left of S. Keeping
+/// 10% without `fair_value_held` is `ValueMissing`.
+#[test]
+fn an_associate_sold_whole_and_one_kept_without_its_fair_value() {
+    let f = case("associate-sold-investment-retained");
+    f.write(
+        HOLDINGS,
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,S,0.3,0.3,2026-01-01,2026-03-31\n",
+    );
+    f.write(CHANGES, &format!("{HEADER}\n2026-04-01,P,S,-0.3,720,,,4700,the whole 30% sold\n"));
+    f.replace("entities/P/tb-2026.movements.csv", "2026-04,1000,300,", "2026-04,1000,450,");
+    f.replace("entities/P/tb-2026.movements.csv", "2026-04,1400,-120,S", "2026-04,1400,-180,S");
+    f.replace("entities/P/tb-2026.movements.csv", "2026-04,4700,-180,", "2026-04,4700,-270,");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-06", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let got: Vec<_> = ["1000", "1300", "1400", "4700", "4900", "8100"].iter().map(|a| tb_amount(&v, a)).collect();
+    assert_eq!(got, [d("1270"), d("0"), d("0"), d("-225"), d("-45"), d("0")]);
+
+    let f = case("associate-sold-investment-retained");
+    f.replace(CHANGES, ",-0.2,480,256,", ",-0.2,480,,");
+    let (code, fs) = check(&f, "2026-06");
+    assert_eq!(code, 1);
+    let x = of_rule(&fs, "ValueMissing");
+    assert_eq!(x.len(), 1, "{fs:#?}");
+    assert!(x[0]["message"].as_str().unwrap().contains("keeps 0.1 of S"), "{:#}", x[0]);
 }
