@@ -8,7 +8,7 @@
 //! `fair_value::findings` for the fair value adjustments, `equity_method::findings` for
 //! what the equity method cannot express).
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 
 use polars::prelude::*;
 
@@ -32,7 +32,7 @@ pub fn data_findings(
     let mut out: Vec<Finding> =
         unrealised_profit::missing_accounts(roles, &ds.inventory_profits, period).into_iter().collect();
     let held = held_as_investment(ds, s, mapped, period)?;
-    let acq: BTreeMap<&EntityId, &Acquisition> = ds.acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(&ds.acquisitions, period.last_day());
     let statement_of = |a: &GroupAccount| ds.account(a).map(|d| d.statement);
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(currency) = ds.entity(&e.id).map(|x| x.currency) else { continue };

@@ -504,7 +504,7 @@ pub fn post(
     records: &Records,
     found: &mut Vec<Finding>,
 ) -> ForNci {
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(acquisitions, cx.period.last_day());
     let mut nci = ForNci::default();
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
     for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {

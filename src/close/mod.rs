@@ -212,7 +212,11 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, (&rates, &records.units));
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
-    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let associates = associates_before(ds, t, &steps, period, fiscal_start)?;
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest, &associates);
+    for sale in associates_sold(ds, t, period, fiscal_start)? {
+        equity_method::post_disposal(&mut j, &cx, &sale, &mut findings);
+    }
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
@@ -278,6 +282,44 @@ fn sold_in_year<'a>(
     crate::ownership::losses_of_control(ds, scope)
         .into_iter()
         .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The step acquisitions of the fiscal year to `period` from an associate or joint
+/// venture, each with the equity method at the month end before control.
+fn associates_before<'a>(
+    ds: &Dataset,
+    t: &Translated,
+    steps: &[&'a OwnershipChange],
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    steps
+        .iter()
+        .filter(|c| c.date >= fiscal_start.first_day())
+        .filter(|c| crate::ownership::classify(ds, c).method_before == Method::Equity)
+        .map(|c| step_acquisition::associate_before(ds, t, c))
+        .collect()
+}
+
+/// The associates sold in the fiscal year to `period` (significant influence ended, IAS
+/// 28.22), each with the equity method at the last month end before the sale.
+fn associates_sold<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::associate_sales(ds, scope)
+        .into_iter()
+        .map(|c| step_acquisition::associate_before(ds, t, c))
         .collect()
 }
 
