@@ -306,7 +306,7 @@ pub fn findings(
             Some(m) => out.push(at(
                 Rule::ValueInvalid,
                 format!("{}: a fair value adjustment on {} of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", u.owned, u.account, m.as_str()),
-                "remove the row; fair value adjustments of a joint operation's share are not supported",
+                "remove the row; fair value adjustments of a joint operation's share are not supported: the close has no entry for the acquisition of a share in a joint operation (IFRS 11.21A) for them to belong to; post the adjustment and its depreciation in group_adjustments.csv",
             )),
         }
         if statement_of(&u.account) != Some(Statement::BalanceSheet) {

@@ -316,6 +316,22 @@ pub fn findings(
     out
 }
 
+/// A proportionately consolidated entity (a joint operation, IFRS 11.20) that a
+/// consolidated entity holds on an investment account: the close takes the group's share
+/// of its lines but has no entry eliminating the holder's investment against that share
+/// of its equity at acquisition (IFRS 11.21A applies IFRS 3 to the share acquired), so
+/// both would count. Blocking; `check` raises it too.
+pub fn joint_operation_held(e: &EntityId) -> Finding {
+    Finding::new(
+        Rule::ValueInvalid,
+        format!(
+            "{e} is consolidated proportionately (a joint operation, IFRS 11.20) and held on an investment account, but the close does not eliminate an investment in a joint operation against its share of the equity: the two would both be counted"
+        ),
+        "book the holder's interest in the joint operation on an account that is not of kind `investment` and post its elimination against the share of the equity at acquisition (with any goodwill or fair value adjustment of the share, IFRS 11.21A) in group_adjustments.csv, or declare the arrangement as it is (a joint venture is equity-accounted, IFRS 11.24)",
+    )
+    .entity(e)
+}
+
 fn acquisition_missing(e: &EntityId) -> Finding {
     Finding::new(
         Rule::AcquisitionMissing,
@@ -488,7 +504,7 @@ pub fn post(
     records: &Records,
     found: &mut Vec<Finding>,
 ) -> ForNci {
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(acquisitions, cx.period.last_day());
     let mut nci = ForNci::default();
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
     for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {
@@ -534,6 +550,9 @@ pub fn post(
         let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit, recorded };
         post_one(j, &sub, invest, months, &mut nci);
     }
+    found.extend(
+        cx.of_method(Method::Proportionate).filter(|e| invest.contains_key(&e.id)).map(|e| joint_operation_held(&e.id)),
+    );
     nci
 }
 
@@ -676,10 +695,10 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
     let mut capital = Decimal::ZERO;
-    for ((acct, cp), amount) in cx.balances_of(&e.id) {
-        if cx.is_equity(acct) && !reserves.contains(&acct) && !amount.is_zero() {
-            lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
-            capital += -*amount;
+    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id) {
+        if !reserves.contains(&&acct) && !amount.is_zero() {
+            lines.push(line(&acct, &e.id, cp.as_ref(), -amount));
+            capital += -amount;
         }
     }
     let fva_hist: Decimal = fva.iter().map(|x| x.2).sum();
@@ -687,6 +706,37 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     for (acct, _, _, now) in fva {
         lines.push(line(acct, &e.id, None, *now));
     }
+}
+
+/// The subsidiary's equity balances other than its results that the entry takes as
+/// equity at acquisition (account, counterparty, balance, a credit negative): each at its
+/// balance, except a named reserve (an equity account the chart's `reserve` column
+/// names, other than the translation reserve) whose balance at acquisition a prior
+/// year-end close brought forward. Such a reserve has since taken the subsidiary's OCI
+/// closed into it year by year (`years.rs`), which is post-acquisition: the group's,
+/// shared with the NCI (IFRS 10.B94, IAS 1.106(d)), not equity acquired. Without a
+/// prior year in the folder the reserve's balance is taken as it was at acquisition,
+/// as for share capital.
+fn at_acquisition_balances(cx: &Context, e: &EntityId) -> Vec<(GroupAccount, Option<EntityId>, Decimal)> {
+    let carried = &cx.brought_forward.reserves_at_acquisition;
+    let mut out: Vec<(GroupAccount, Option<EntityId>, Decimal)> = cx
+        .balances_of(e)
+        .filter(|((acct, _), _)| cx.is_equity(acct))
+        .map(|((acct, cp), amount)| {
+            let at_acquisition = match cp {
+                None => carried.get(&(e.clone(), acct.clone())).copied().unwrap_or(*amount),
+                Some(_) => *amount,
+            };
+            (acct.clone(), cp.clone(), at_acquisition)
+        })
+        .collect();
+    // A reserve brought forward that the subsidiary no longer shows a balance on.
+    for ((_, acct), amount) in carried.iter().filter(|((owned, _), _)| owned == e) {
+        if !out.iter().any(|(a, cp, _)| a == acct && cp.is_none()) {
+            out.push((acct.clone(), None, *amount));
+        }
+    }
+    out
 }
 
 /// Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill is
@@ -850,6 +900,42 @@ mod tests {
             ]
         );
         assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+    }
+
+    /// A named reserve (3400, the revaluation surplus an OCI account accumulates into)
+    /// holds USD-translated EUR 150 in S's books: 100 at acquisition, as the prior year
+    /// end's investment entry eliminated it (brought forward), and 50 of OCI since,
+    /// closed into it by S's books. Only the 100 is equity at acquisition (IFRS 3.32,
+    /// IFRS 10.B94): of the net assets 500, capital 300 + reserve 100 leave 100 from
+    /// retained earnings. Without the brought-forward amount (the folder's first year)
+    /// the reserve's whole balance is taken as at acquisition: 150, and 50 from
+    /// retained earnings.
+    #[test]
+    fn a_named_reserve_is_eliminated_at_its_balance_at_acquisition() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let mut surplus = w.chart[0].clone();
+        surplus.account = acct("3400");
+        surplus.statement = Statement::BalanceSheet;
+        surplus.class = AccountClass::Equity;
+        w.chart.push(surplus);
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-300"), ("S", "3400", None, "-150")]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let equity_lines = |cx: &Context| {
+            let mut j = Journal::default();
+            let records = Records::default();
+            let a = [acquisition("1000", "1000", "500")];
+            post(&mut j, cx, &a, &investments(cx), &Default::default(), &records, &mut Vec::new());
+            lines(&j.entries[0]).into_iter().filter(|l| l.0.starts_with('3') && l.0 != "3900").collect::<Vec<_>>()
+        };
+        let s = |a: &str, x: &str| (a.to_string(), "S".to_string(), x.to_string());
+        assert_eq!(equity_lines(&cx), [s("3000", "300"), s("3400", "150"), s("3200", "50")]);
+        let carried = BroughtForward {
+            reserves_at_acquisition: BTreeMap::from([((id("S"), acct("3400")), d("-100"))]),
+            ..BroughtForward::default()
+        };
+        let cx = Context { brought_forward: &carried, ..cx };
+        assert_eq!(equity_lines(&cx), [s("3000", "300"), s("3400", "100"), s("3200", "100")]);
     }
 
     /// Consideration 700 + NCI 200 - net assets 1,000 = -100: a bargain purchase
