@@ -203,7 +203,8 @@ impl AcquisitionUnit {
 /// period or the opening are missing is left out: `findings` blocks the close on them.
 pub fn acquisition_units(ds: &Dataset, period: Period, fiscal_start: Period) -> BTreeMap<EntityId, AcquisitionUnit> {
     let mut out = BTreeMap::new();
-    for a in &ds.acquisitions {
+    // The record of the close's time, where an entity has two (`acquisition_records`).
+    for a in acquisition_records(&ds.acquisitions, period.last_day()).into_values() {
         let Some(e) = ds.entity(&a.owned) else { continue };
         let Some(from) = e.hyperinflationary_from else { continue };
         if from > period || e.currency == ds.settings.presentation_currency {
@@ -444,7 +445,8 @@ fn acquisition_findings(
     (fiscal_start, last): (Period, Period),
     method_of: &dyn Fn(&EntityId) -> Option<Method>,
 ) -> Vec<Finding> {
-    let Some(a) = ds.acquisitions.iter().find(|a| a.owned == e.id) else { return Vec::new() };
+    let records = acquisition_records(&ds.acquisitions, last.last_day());
+    let Some(a) = records.get(&e.id).copied() else { return Vec::new() };
     let action = "close without the entity (or without `hyperinflationary_from`) and restate its contribution outside tessera until the close supports it";
     let unsupported = |why: String| {
         Finding::new(
