@@ -62,7 +62,8 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_counterparties(ds, mapped, &mut f)?;
     check_opening(ds, &mut f)?;
     check_rates(ds, mapped, scope, &mut f)?;
-    f.extend(crate::restate::findings(ds, mapped, scope.fiscal_start, scope.period)?);
+    let method_of = |e: &EntityId| structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    f.extend(crate::restate::findings(ds, mapped, scope.fiscal_start, scope.period, &method_of)?);
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
     check_group_adjustments(ds, &structure, scope, &mut f);
