@@ -1036,7 +1036,7 @@ mod tests {
         };
         let rates = rates();
         let none = BTreeMap::new();
-        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates };
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates, long_term: &LongTerms::new() };
         let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
         let (mut j, mut found) = (Journal::default(), Vec::new());
         post(&mut j, &cx, &both, &Investees::from([(id("A"), inv.clone())]), &inputs, &mut found);
