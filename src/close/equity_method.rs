@@ -660,21 +660,21 @@ pub fn post_disposal(
         lines.push(line(account, holder, Some(e), fair_value - remaining));
     }
     lines.push(line(gain_account, holder, Some(e), -adjustment));
-    lines.push(line(&cx.roles.translation_difference, holder, Some(e), share.oci));
-    lines.push(line(gain_account, holder, Some(e), -share.oci));
+    lines.extend(super::step_acquisition::reclassified(cx, c, gain_account, share.oci, before.revaluation));
     let m = |x: Decimal| money::format_amount(x, cx.minor);
     j.post(
         EliminationRule::EquityMethod,
         holder.clone(),
         vec![holder.clone(), e.clone()],
         format!(
-            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss (IAS 28.22(c))",
+            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss, {} of revaluation to retained earnings (IAS 28.22(c))",
             c.date,
             before.last_month,
             m(share.since),
             m(fair_value),
             m(adjustment),
-            m(share.oci)
+            m(share.oci - before.revaluation),
+            m(before.revaluation)
         ),
         lines,
     );
@@ -1091,6 +1091,7 @@ mod tests {
             change: &change,
             last_month: p("2026-03"),
             lines: vec![l("1300", "90"), l("4900", "-45"), l("9000", "-15"), l("3200", "-24"), l("3300", "-6")],
+            revaluation: Decimal::ZERO,
         };
         let (mut j, mut found) = (Journal::default(), Vec::new());
         post_disposal(&mut j, &cx, &before, &mut found);
