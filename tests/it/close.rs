@@ -765,3 +765,25 @@ fn an_investment_in_a_joint_operation_blocks() {
         assert!(found["message"].as_str().unwrap().contains("joint operation"), "{found:#}");
     }
 }
+
+/// A row of `reserves_at_acquisition.csv` on an account that is not a named reserve
+/// would eliminate something else as equity acquired: blocking, on its line.
+#[test]
+fn a_reserve_at_acquisition_on_an_account_that_is_not_a_named_reserve_is_a_finding() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/revaluation-reserve-given-at-acquisition");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.replace("entities/reserves_at_acquisition.csv", "S,3400,", "S,3000,");
+    let out = f.path().join("out");
+    let close = ["close", "--period", "2026-01", "--out", out.to_str().unwrap()];
+    for args in [&close[..], &["check", "--period", "2026-01"]] {
+        let (code, v) = run_json(f.path(), args);
+        assert_eq!(code, 1, "{}: {v:#}", args[0]);
+        let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "AccountInvalid");
+        let found = found.unwrap_or_else(|| panic!("{}: no AccountInvalid: {v:#}", args[0]));
+        assert_eq!(found["file"], "entities/reserves_at_acquisition.csv", "{found:#}");
+        assert_eq!(found["line"], 2, "{found:#}");
+    }
+}
