@@ -760,3 +760,25 @@ pub enum DividendsReceived {
     /// In investing activities, as a return on the investment.
     Investing,
 }
+
+/// Each entity's acquisition record for a close at `until`: the latest dated on or
+/// before it (of one date, the last in the file), else its last (a record of a later
+/// date still names the entity for the findings), whatever the order of the file.
+/// An entity has two records when an associate becomes a subsidiary (IFRS 3.41-42) or a
+/// subsidiary sold becomes an associate (IFRS 10.25(b)): each close uses the one of its
+/// time.
+pub fn acquisition_records(
+    acquisitions: &[Acquisition],
+    until: NaiveDate,
+) -> std::collections::BTreeMap<&EntityId, &Acquisition> {
+    let mut out: std::collections::BTreeMap<&EntityId, &Acquisition> =
+        acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let mut dated: std::collections::BTreeMap<&EntityId, &Acquisition> = std::collections::BTreeMap::new();
+    for a in acquisitions.iter().filter(|a| a.date <= until) {
+        if dated.get(&a.owned).is_none_or(|b| b.date <= a.date) {
+            dated.insert(&a.owned, a);
+        }
+    }
+    out.extend(dated);
+    out
+}

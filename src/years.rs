@@ -908,6 +908,7 @@ mod tests {
             findings: Vec::new(),
             disposals: Vec::new(),
             stake_changes: Vec::new(),
+            nci_at_acquisition: BTreeMap::new(),
         }
     }
 

@@ -92,14 +92,16 @@ fn start_of(cx: &Context, a: &Acquisition) -> Start {
     }
 }
 
-/// The last acquisition record of each entity (the last wins, as in the investment rule).
-fn last_records(acquisitions: &[Acquisition]) -> BTreeMap<&EntityId, &Acquisition> {
-    acquisitions.iter().map(|a| (&a.owned, a)).collect()
+/// The acquisition record of each entity for a close at `until` ([`acquisition_records`]):
+/// closed before control, an associate that becomes a subsidiary starts from the
+/// associate's record; after a loss of control, an associate retained from its own.
+fn last_records(acquisitions: &[Acquisition], until: chrono::NaiveDate) -> BTreeMap<&EntityId, &Acquisition> {
+    acquisition_records(acquisitions, until)
 }
 
 /// The balances of every equity-accounted investee with an acquisition record.
 pub fn investees(ds: &Dataset, t: &Translated, cx: &Context, acquisitions: &[Acquisition]) -> PolarsResult<Investees> {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let mut out = Investees::new();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else { continue };
@@ -270,7 +272,7 @@ pub fn post(
     inputs: &Inputs,
     findings: &mut Vec<Finding>,
 ) {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let none = Investee::default();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else {
@@ -606,6 +608,78 @@ fn post_impairment(
     })
 }
 
+/// Posts the sale of an associate (or joint venture) that ends significant influence
+/// (IAS 28.22), from the equity method at the last month end before the date
+/// (`step_acquisition::associate_before`, the month rule of a loss of control):
+///
+/// - its lines carried (share of profit and OCI of the year to then, earlier years), but
+///   the investment, which is derecognised (IAS 28.22(a));
+/// - an investment retained at its fair value (IAS 28.22(b)), at the closing rate of that
+///   month end, in place of the holder's remaining cost;
+/// - the holder's own gain (proceeds less the cost of the shares sold, in its books)
+///   adjusted to the group's: proceeds + fair value retained - the equity-method carrying
+///   amount (cost + the share since), on the row's `gain_account`;
+/// - the investor's share of the associate's OCI reclassified to profit or loss through
+///   OCI of the year, as if the associate had disposed of the related assets (IAS
+///   28.22(c), IAS 1.92-93).
+pub fn post_disposal(
+    j: &mut Journal,
+    cx: &Context,
+    before: &super::step_acquisition::AssociateBefore,
+    found: &mut Vec<Finding>,
+) {
+    let c = before.change;
+    let (e, holder) = (&c.owned, &c.holder);
+    // Without the account the finding of `ownership` blocks the close.
+    let Some(gain_account) = c.gain_account.as_ref() else { return };
+    let share = super::step_acquisition::equity_share(cx, &before.lines);
+    let fc = cx.currencies.get(e).copied().unwrap_or(cx.presentation);
+    let fair_value = cx.at_closing(fc, c.fair_value_held.unwrap_or_default(), before.last_month).unwrap_or_default();
+    let investment: Vec<(&GroupAccount, Decimal)> = cx
+        .balances_of(holder)
+        .filter(|((a, cp), _)| cp.as_ref() == Some(e) && cx.kind_of(a) == Some("investment"))
+        .map(|((a, _), v)| (a, *v))
+        .collect();
+    let remaining: Decimal = investment.iter().map(|x| x.1).sum();
+    let account = investment.first().map(|x| x.0.clone());
+    if account.is_none() && !fair_value.is_zero() {
+        found.push(
+            Finding::new(
+                Rule::OwnershipChangeUnsupported,
+                format!("sale of {e} by {} on {}: an interest is retained but {} has no investment line naming {e}", holder, c.date, holder),
+                "book the investment retained on an account of kind `investment` naming the entity, or correct `fair_value_held`",
+            )
+            .at(&c.source)
+            .entity(e),
+        );
+        return;
+    }
+    let adjustment = fair_value - remaining - share.since;
+    let mut lines = share.carried.clone();
+    if let Some(account) = &account {
+        lines.push(line(account, holder, Some(e), fair_value - remaining));
+    }
+    lines.push(line(gain_account, holder, Some(e), -adjustment));
+    lines.push(line(&cx.roles.translation_difference, holder, Some(e), share.oci));
+    lines.push(line(gain_account, holder, Some(e), -share.oci));
+    let m = |x: Decimal| money::format_amount(x, cx.minor);
+    j.post(
+        EliminationRule::EquityMethod,
+        holder.clone(),
+        vec![holder.clone(), e.clone()],
+        format!(
+            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss (IAS 28.22(c))",
+            c.date,
+            before.last_month,
+            m(share.since),
+            m(fair_value),
+            m(adjustment),
+            m(share.oci)
+        ),
+        lines,
+    );
+}
+
 /// One side of goods between the group and an investee (IAS 28.28).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Direction {
@@ -689,7 +763,7 @@ pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, p
     let equity = |e: &EntityId| method_of(e) == Some(Method::Equity);
     let consolidated = |e: &EntityId| matches!(method_of(e), Some(Method::Full | Method::Proportionate));
     let mut out = Vec::new();
-    for (_, a) in last_records(&ds.acquisitions).into_iter().filter(|(e, _)| equity(e)) {
+    for (_, a) in last_records(&ds.acquisitions, period.last_day()).into_iter().filter(|(e, _)| equity(e)) {
         let at = |message: String, action: &str| {
             Finding::new(Rule::ValueInvalid, message, action).at(&a.source).entity(&a.owned)
         };
@@ -944,6 +1018,108 @@ mod tests {
                 ("3200".into(), "P".into(), "1.8".into())
             ]
         );
+    }
+
+    /// An entity with two records (a subsidiary of 2021 sold on 1 April 2026, an
+    /// associate retained from that date, IFRS 10.25(b)): a close at June takes the
+    /// associate's, so the share counts from April (IAS 28.32): revenue since March
+    /// 150 - 60 = 90, 30% = 27, and no earlier years. A close at March, before the
+    /// associate's date, takes the record of its time.
+    #[test]
+    fn the_record_of_the_closes_time() {
+        let w = world();
+        let both = [acquired("2021-01-01", "400"), acquired("2026-04-01", "240")];
+        let inv = Investee {
+            own: rows(&[("4000", "-150")]),
+            opening: rows(&[("3000", "-400")]),
+            before: rows(&[("4000", "-60")]),
+        };
+        let rates = rates();
+        let none = BTreeMap::new();
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates, long_term: &LongTerms::new() };
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post(&mut j, &cx, &both, &Investees::from([(id("A"), inv.clone())]), &inputs, &mut found);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "27".into()), ("4900".into(), "P".into(), "-27".into())]
+        );
+        assert!(j.entries[0].description.contains("from 2026-04"), "{}", j.entries[0].description);
+        assert_eq!(
+            acquisition_records(&both, p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[0].date)
+        );
+        assert_eq!(
+            acquisition_records(&both[1..], p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
+        );
+        // The order of the file does not matter: the latest dated by the period.
+        let reversed = [both[1].clone(), both[0].clone()];
+        assert_eq!(
+            acquisition_records(&reversed, p("2026-06").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
+        );
+    }
+
+    /// P sells 20% of its 30% associate A (USD) on 1 April 2026 and keeps 10%, worth USD
+    /// 256 (EUR 128 at March's 2 USD per EUR). The equity method to March left the
+    /// investment 90 above cost: 30 of earlier years (24 in retained earnings, 6 of OCI
+    /// in the reserve), 45 share of profit, 15 share of OCI of the year. P's books keep
+    /// 60 of the cost. IAS 28.22: the retained interest from 60 to 128 (+68), the share
+    /// of 90 derecognised, the holder's gain adjusted by 128 - 60 - 90 = -22 (a debit of
+    /// 22); the share of OCI 6 + 15 = 21 reclassified through OCI to profit or loss:
+    /// -45 - 15 - 24 - 6 + 68 + 22 + 21 - 21 = 0. Nothing retained and no investment
+    /// line: the share 90 is derecognised against the gain alone.
+    #[test]
+    fn the_sale_of_an_associate_derecognises_the_share_and_reclassifies_its_oci() {
+        let w = World::new(&["P", "A"], &[holding("P", "A", "0.1", "2026-04-01")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), balances(&[("P", "1200", Some("A"), "60")]));
+        let change = OwnershipChange {
+            date: chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap_or_default(),
+            holder: id("P"),
+            owned: id("A"),
+            share: d("-0.2"),
+            consideration: d("480"),
+            fair_value_held: Some(d("256")),
+            costs: Decimal::ZERO,
+            gain_account: Some(acct("7300")),
+            note: String::new(),
+            source: Source::file("entities/ownership_changes.csv"),
+        };
+        let l = |a: &str, x: &str| line(&acct(a), &id("P"), Some(&id("A")), d(x));
+        let before = super::super::step_acquisition::AssociateBefore {
+            change: &change,
+            last_month: p("2026-03"),
+            lines: vec![l("1300", "90"), l("4900", "-45"), l("9000", "-15"), l("3200", "-24"), l("3300", "-6")],
+        };
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post_disposal(&mut j, &cx, &before, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        let s = |a: &str, x: &str| (a.to_string(), "P".to_string(), x.to_string());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                s("4900", "-45"),
+                s("9000", "-15"),
+                s("3200", "-24"),
+                s("3300", "-6"),
+                s("1200", "68"),
+                s("7300", "22"),
+                s("9000", "21"),
+                s("7300", "-21")
+            ]
+        );
+        let all = OwnershipChange { fair_value_held: None, share: d("-0.3"), ..change.clone() };
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let mut j = Journal::default();
+        post_disposal(
+            &mut j,
+            &cx,
+            &super::super::step_acquisition::AssociateBefore { change: &all, ..before },
+            &mut found,
+        );
+        assert!(found.is_empty(), "{found:?}");
+        assert!(lines(&j.entries[0]).contains(&s("7300", "90")), "{:?}", lines(&j.entries[0]));
     }
 
     /// Cost USD 240 = EUR 120 at the acquisition date's rate. Earlier years: opening

@@ -5,7 +5,9 @@
 //! purchase gain (IFRS 3.34), the fair value adjustments (IFRS 3.18) and the NCI at
 //! acquisition (IFRS 3.19) in the same entry. The exchange differences (on goodwill, on
 //! the fair value adjustment, on the holders' translated investments) close the entry:
-//! this year's part to OCI, the part brought forward to the reserve.
+//! this year's part to OCI, the part brought forward to the reserve. A hyperinflationary
+//! subsidiary's acquisition amounts are first restated from the acquisition month
+//! ([`restated`], IAS 29.24-25) and so are at the closing rate (IAS 21.42(a)).
 //!
 //! The entry is built in named steps: [`measure`] (goodwill and bargain in the
 //! subsidiary's currency), [`findings`] (what the acquisition record lacks, raised by
@@ -24,6 +26,7 @@ use crate::findings::{Finding, Rule, Severity};
 use crate::map_accounts::period_index;
 use crate::model::*;
 use crate::money::{self, column_decimals};
+use crate::restate::AcquisitionUnit;
 use crate::structure::EntityStructure;
 use crate::translate::Translated;
 
@@ -47,6 +50,9 @@ pub struct Records<'r> {
     pub impairments: BTreeMap<EntityId, Vec<Dated>>,
     /// The named reserves' balances at acquisition of `reserves_at_acquisition.csv`.
     pub reserves: &'r [ReserveAtAcquisition],
+    /// The IAS 29 restatement of each acquired hyperinflationary subsidiary
+    /// (`restate::acquisition_units`).
+    pub units: BTreeMap<EntityId, AcquisitionUnit>,
 }
 
 /// What the NCI rule (`nci.rs`) reads of this one, per subsidiary (or per holder).
@@ -65,6 +71,11 @@ pub struct ForNci {
     /// This fiscal year's exchange difference on each holder's eliminated investments in
     /// subsidiaries, per holder.
     pub investment_fx: BTreeMap<EntityId, Decimal>,
+    /// The NCI at acquisition in the presentation currency, credit positive: what the
+    /// statement of changes in equity shows on acquisition, before the later movements
+    /// the same entry carries (the NCI's part of full goodwill's exchange difference and
+    /// impairment, which are its OCI and profit).
+    pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
 }
 
 /// The investment lines of the balances: accounts of kind `investment` naming the
@@ -375,6 +386,12 @@ struct Acquired<'c, 'a> {
     dated: Vec<Dated>,
     /// Its named reserves' balances at acquisition given in `reserves_at_acquisition.csv`.
     reserves: Vec<ReserveAtAcquisition>,
+    /// A hyperinflationary subsidiary's restatement: `a` and `uplifts` are then in the
+    /// unit of the period end ([`restated`]), and `recorded` holds the record's net
+    /// assets in its currency and in the presentation currency (the acquisition date's
+    /// rate).
+    unit: Option<AcquisitionUnit>,
+    recorded: Option<(Decimal, Decimal)>,
 }
 
 /// One fair value adjustment in the entry: account, amount in the subsidiary's
@@ -435,8 +452,14 @@ impl Acquired<'_, '_> {
         let hist = self.at_hist(gross_fc);
         if self.dated.is_empty() {
             let now = self.to_pres(gross_fc, cx.period);
-            let year = self.opening_period().map(|p0| now - self.to_pres(gross_fc, p0)).unwrap_or(now - hist);
-            return (year, now - hist);
+            let year = self
+                .opening_period()
+                .map(|p0| now - self.to_pres(self.at_opening(gross_fc), p0))
+                .unwrap_or_else(|| now - self.at_acquisition(gross_fc));
+            // Restated goodwill is carried at the restated amount at the closing rate, as
+            // the NCI at acquisition is: nothing of it is left at an earlier rate.
+            let to_date = if self.unit.is_some() { Decimal::ZERO } else { now - hist };
+            return (year, to_date);
         }
         let now = self.to_pres(gross_fc - share * a.impairment, cx.period);
         let to_date = now - hist + self.impairment_pres(share, false);
@@ -448,6 +471,23 @@ impl Acquired<'_, '_> {
             None => to_date,
         };
         (year, to_date)
+    }
+
+    /// An amount of the acquisition at the acquisition date's rate: for a restated
+    /// subsidiary taken back from the period end's unit to the acquisition's first (the
+    /// amount the group recognised on that date); otherwise [`Self::at_hist`].
+    fn at_acquisition(&self, x: Decimal) -> Decimal {
+        match (self.unit, self.recorded) {
+            (Some(u), Some((na, na_pres))) if !na.is_zero() => self.cx.round(x * u.then * na_pres / (u.now * na)),
+            _ => self.at_hist(x),
+        }
+    }
+
+    /// An amount of the acquisition as the opening carried it: for a restated
+    /// subsidiary, taken back from the period end's unit to the opening's (IAS 29.24-25
+    /// restates it anew at every period end); otherwise unchanged.
+    fn at_opening(&self, x: Decimal) -> Decimal {
+        self.unit.map_or(x, |u| u.back_to_opening(x))
     }
 
     /// The month before the fiscal year, when the subsidiary was held then.
@@ -468,7 +508,7 @@ pub fn post(
     records: &Records,
     found: &mut Vec<Finding>,
 ) -> ForNci {
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(acquisitions, cx.period.last_day());
     let mut nci = ForNci::default();
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
     for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {
@@ -504,9 +544,15 @@ pub fn post(
                 ..a
             }
         };
+        let unit = records.units.get(&e.id).copied();
+        let recorded = unit.map(|_| (a.net_assets, a.net_assets_presentation));
+        let (a, uplifts) = match &unit {
+            Some(u) => restated(cx, u, fc, a, uplifts),
+            None => (a, uplifts),
+        };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
         let reserves = records.reserves.iter().filter(|r| r.owned == e.id).cloned().collect();
-        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, reserves };
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, reserves, unit, recorded };
         post_one(j, &sub, invest, months, &mut nci);
     }
     found.extend(
@@ -532,6 +578,38 @@ fn net_of_deferred_tax(a: Acquisition, uplifts: &[Uplift]) -> Acquisition {
     }
 }
 
+/// A hyperinflationary subsidiary's acquisition and fair value adjustments in the unit of
+/// the period end: every amount of the acquisition date is non-monetary (equity at
+/// acquisition, IAS 29.24-25; goodwill, which IAS 21.47 makes an asset of the foreign
+/// operation and which is restated like its other non-monetary assets, the policy
+/// applied here and common practice; the NCI at acquisition, a share of those net
+/// assets or their fair value; the fair value adjustments, IAS 29.15) and is restated by
+/// the index change since the acquisition month, each rounded once in the functional
+/// currency. The equity at acquisition the entry removes is then the restated amount at
+/// the closing rate (IAS 21.42(a)), not the acquisition date's translation.
+fn restated(
+    cx: &Context,
+    unit: &AcquisitionUnit,
+    fc: Currency,
+    a: Acquisition,
+    uplifts: Vec<Uplift>,
+) -> (Acquisition, Vec<Uplift>) {
+    let minor = fc.minor_unit();
+    let r = |x: Decimal| unit.now(x, minor, cx.mode);
+    let net_assets = r(a.net_assets);
+    let restated = Acquisition {
+        consideration: r(a.consideration),
+        nci_fair_value: a.nci_fair_value.map(r),
+        net_assets,
+        net_assets_presentation: cx.at_closing(fc, net_assets, cx.period).unwrap_or_default(),
+        impairment: r(a.impairment),
+        impairment_year: r(a.impairment_year),
+        fair_value_adjustment: r(a.fair_value_adjustment),
+        ..a
+    };
+    (restated, uplifts.into_iter().map(|u| Uplift { amount: r(u.amount), ..u }).collect())
+}
+
 /// The entry of one subsidiary.
 fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &InvestmentMonths, nci: &mut ForNci) {
     let (cx, e, a) = (sub.cx, sub.e, &sub.a);
@@ -552,6 +630,7 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
         lines.push(line(acct, &e.id, None, -sub.at_hist(sub.m.bargain_fc)));
     }
     lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
+    nci.nci_at_acquisition.insert(e.id.clone(), nci_pres);
     let impairment_year_pres = impairment_lines(sub, impairment_pres, &mut lines);
     exchange_difference_lines(sub, &fva, &holders_fx_year, &mut lines, nci);
     if a.nci_measurement == NciMeasurement::FairValue {
@@ -758,9 +837,9 @@ fn exchange_difference_lines(
     // subsidiary's other net assets are (`nci.rs`).
     let fva_fx_year: Decimal = fva
         .iter()
-        .map(|(_, fc, hist, now)| match opening_period {
-            Some(p0) => *now - sub.to_pres(*fc, p0),
-            None => *now - *hist,
+        .map(|(_, fc, _, now)| match opening_period {
+            Some(p0) => *now - sub.to_pres(sub.at_opening(*fc), p0),
+            None => *now - sub.at_acquisition(*fc),
         })
         .sum();
     if !fva_fx_year.is_zero() {
@@ -996,6 +1075,7 @@ mod tests {
                 uplifts: &[],
                 impairments: super::super::impairment::dated(&cx, &rows, rates),
                 reserves: &[],
+                units: BTreeMap::new(),
             };
             let mut j = Journal::default();
             let mut found = Vec::new();
@@ -1071,7 +1151,7 @@ mod tests {
             expense: acct("8000"),
         };
         let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
-        let records = Records { uplifts: &all, impairments: BTreeMap::new(), reserves: &[] };
+        let records = Records { uplifts: &all, impairments: BTreeMap::new(), reserves: &[], units: BTreeMap::new() };
         let mut j = Journal::default();
         let mut found = Vec::new();
         let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);
@@ -1090,5 +1170,52 @@ mod tests {
         .collect();
         assert_eq!(lines(&j.entries[0]), want);
         assert_eq!(nci.fair_value_now.get(&id("S")), Some(&d("75")));
+    }
+
+    /// The same acquisition of S, hyperinflationary, with the NCI at its fair value USD
+    /// 300 (full goodwill, IFRS 3.19), restated from the acquisition month's index 100
+    /// to 150 now (IAS 29.24-25; 120 at the opening). Restated: consideration 1,500, net
+    /// assets 1,500, NCI 450, goodwill 1,500 + 450 - 1,500 = 450; the NCI's part of
+    /// goodwill 450 - 20% x 1,500 = 150. At 3 USD per EUR now (2 at the opening), all at
+    /// the closing rate (IAS 21.42(a)): equity at acquisition 500, goodwill 150, NCI 150.
+    /// The year's exchange difference on goodwill: 150 less the opening's 450 x 120/150 =
+    /// 360 at 2 = 180: a loss of 30 (9000 +30); the NCI's part 50 - 120 / 2 = -10. The
+    /// residual of the entry before it, -500 + 600 - 100 + 150 - 150 = 0, so the reserve
+    /// takes -30. Lines: 1200 P -500, 3000 S +600, 3200 S -100, 1100 S +150, 3900 S -150,
+    /// 9000 S +30, 3300 S -30. Worked by hand.
+    #[test]
+    fn a_hyperinflationary_subsidiary_is_eliminated_on_its_restated_acquisition() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("3"), quote: Quote::UnitsPerPresentation });
+        let invest = investments(&cx);
+        let unit = AcquisitionUnit { then: d("100"), now: d("150"), opening: Some(d("120")) };
+        let records = Records { units: BTreeMap::from([(id("S"), unit)]), ..Records::default() };
+        let a = Acquisition {
+            nci_measurement: NciMeasurement::FairValue,
+            nci_fair_value: Some(d("300")),
+            ..acquisition("1000", "1000", "500")
+        };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[a], &invest, &Default::default(), &records, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1200".into(), "P".into(), "-500".into()),
+                ("3000".into(), "S".into(), "600".into()),
+                ("3200".into(), "S".into(), "-100".into()),
+                ("1100".into(), "S".into(), "150".into()),
+                ("3900".into(), "S".into(), "-150".into()),
+                ("9000".into(), "S".into(), "30".into()),
+                ("3300".into(), "S".into(), "-30".into())
+            ]
+        );
+        assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+        assert_eq!(nci.nci_goodwill_oci.get(&id("S")), Some(&d("-10")));
     }
 }
