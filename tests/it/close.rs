@@ -737,6 +737,17 @@ fn a_long_term_interest_on_an_equity_account_is_a_finding() {
         assert_eq!(found["line"], 2, "{found:#}");
         assert!(found["message"].as_str().unwrap().contains("not an asset account"), "{found:#}");
     }
+    // An investee whose ownership changes: the close does not carry the long-term
+    // interest through a sale or a step to control, so the row blocks.
+    f.replace("entities/long_term_interests.csv", "P,L,3000,", "P,L,1650,");
+    f.write("entities/ownership_changes.csv", "date,holder,owned,share,consideration\n2026-01-15,P,L,-0.1,50\n");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v:#}");
+    let found = v["findings"].as_array().unwrap().iter().find(|x| {
+        x["file"] == "entities/long_term_interests.csv"
+            && x["message"].as_str().unwrap().contains("change in ownership")
+    });
+    assert!(found.is_some(), "{v:#}");
 }
 
 /// A joint operation (IFRS 11.20) held on an investment account: the close takes the
