@@ -700,9 +700,18 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
     let mut capital = Decimal::ZERO;
-    let given: Vec<(GroupAccount, Decimal)> =
-        sub.reserves.iter().map(|r| (r.account.clone(), sub.at_hist(r.amount))).collect();
-    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id, &given) {
+    // A restated subsidiary (IAS 29) carries its equity at acquisition in the unit of
+    // each period end, which neither a historical amount nor one brought forward is:
+    // its reserves stay at their balances (a row for it is `reserve_findings`').
+    let none = BTreeMap::new();
+    let (given, carried): (Vec<(GroupAccount, Decimal)>, _) = match sub.unit {
+        Some(_) => (Vec::new(), &none),
+        None => (
+            sub.reserves.iter().map(|r| (r.account.clone(), sub.at_hist(r.amount))).collect(),
+            &cx.brought_forward.reserves_at_acquisition,
+        ),
+    };
+    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id, &given, carried) {
         if !reserves.contains(&&acct) && !amount.is_zero() {
             lines.push(line(&acct, &e.id, cp.as_ref(), -amount));
             capital += -amount;
@@ -729,8 +738,8 @@ fn at_acquisition_balances(
     cx: &Context,
     e: &EntityId,
     given: &[(GroupAccount, Decimal)],
+    carried: &BTreeMap<(EntityId, GroupAccount), Decimal>,
 ) -> Vec<(GroupAccount, Option<EntityId>, Decimal)> {
-    let carried = &cx.brought_forward.reserves_at_acquisition;
     let known = |acct: &GroupAccount| {
         given.iter().find(|(a, _)| a == acct).map(|x| x.1).or_else(|| carried.get(&(e.clone(), acct.clone())).copied())
     };
@@ -758,7 +767,8 @@ fn at_acquisition_balances(
 /// What `reserves_at_acquisition.csv` gives that the close cannot use (blocking): a row
 /// for an entity without an acquisition record, on an account that is not a named
 /// reserve (an equity account an OCI account's `reserve` names, other than the
-/// translation reserve), or given twice. `check` raises the same.
+/// translation reserve), given twice, or of a hyperinflationary entity. `check` raises
+/// the same.
 pub fn reserve_findings(ds: &crate::load::Dataset) -> Vec<Finding> {
     let tr = &ds.settings.accounts.translation_reserve;
     let named: BTreeSet<&GroupAccount> =
@@ -775,6 +785,14 @@ pub fn reserve_findings(ds: &crate::load::Dataset) -> Vec<Finding> {
             ))
         } else if !seen.insert((&r.owned, &r.account)) {
             Some((Rule::ValueInvalid, "the row is given twice".to_string()))
+        } else if ds.entity(&r.owned).is_some_and(|x| x.hyperinflationary_from.is_some()) {
+            Some((
+                Rule::ValueInvalid,
+                format!(
+                    "{} has a hyperinflationary functional currency: its equity at acquisition is restated (IAS 29), and a reserve's balance given at acquisition is not supported for it",
+                    r.owned
+                ),
+            ))
         } else {
             None
         };
