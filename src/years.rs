@@ -714,7 +714,7 @@ fn compare_delivered(full: &Dataset, d: &Derived, delivered: &DataFrame, start: 
             format!("its closing balance of the fiscal year starting {prior_year} is {}", fmt(closing))
         } else {
             format!(
-                "its closing balance of the fiscal year starting {prior_year} is {}: the balance {} plus the year's profit or loss and OCI closed into retained earnings {}",
+                "its closing balance of the fiscal year starting {prior_year} is {}: the balance {} plus the year's profit or loss and OCI closed into it {}",
                 fmt(closing),
                 fmt(closing - closed),
                 fmt(closed)
