@@ -499,7 +499,8 @@ fn split_over_interests(cost: Decimal, change: Decimal, interests: &[LongTerm]) 
 
 /// What `long_term_interests.csv` names that the close cannot use (blocking): a holder
 /// that is not consolidated, an investee that is not equity-accounted at the period, an
-/// account that is not a balance-sheet asset of the chart, and a row given twice.
+/// account that is not a balance-sheet asset of the chart, a row given twice, and an
+/// investee whose ownership changes (`ownership_changes.csv`: not carried through).
 pub fn long_term_findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>) -> Vec<Finding> {
     let mut out = Vec::new();
     let mut seen = std::collections::BTreeSet::new();
@@ -512,6 +513,13 @@ pub fn long_term_findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<
             Some(format!("{} is not an asset account of entities/accounts.csv", r.account))
         } else if !seen.insert((&r.holder, &r.investee, &r.account)) {
             Some("the row is given twice".to_string())
+        } else if ds.ownership_changes.iter().any(|c| c.owned == r.investee) {
+            // A sale or a step to control carries the equity method's entry over
+            // (`step_acquisition.rs`) without the reduction of the long-term interest.
+            Some(format!(
+                "{} has a change in ownership in ownership_changes.csv, which the close does not carry a long-term interest through",
+                r.investee
+            ))
         } else {
             None
         };
