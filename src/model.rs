@@ -628,6 +628,14 @@ pub struct BroughtForward {
     /// The reserve carried into a later year
     /// also holds the OCI since acquisition, which is the group's (IFRS 10.B94).
     pub reserves_at_acquisition: std::collections::BTreeMap<(EntityId, GroupAccount), Decimal>,
+    /// Per subsidiary: its own translation reserve at acquisition (a credit negative),
+    /// the part of the reserve in its books that is equity acquired (IFRS 3.32, IFRS
+    /// 10.B86(b)), not the group's (IAS 21.48: only the exchange differences since
+    /// control are the operation's reserve): the reserve in its opening of the
+    /// acquisition year plus its exchange differences of that year before control. Its
+    /// books carry it on in their reserve year after year, so the investment entry of
+    /// every later year eliminates it again.
+    pub translation_reserve_at_acquisition: std::collections::BTreeMap<EntityId, Decimal>,
 }
 
 /// A change in a holder's share of an entity on one date, from

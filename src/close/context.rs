@@ -146,6 +146,7 @@ pub mod fixture {
         equity_method_oci: BTreeMap::new(),
         operation_reserves: BTreeMap::new(),
         reserves_at_acquisition: BTreeMap::new(),
+        translation_reserve_at_acquisition: BTreeMap::new(),
     };
 
     pub fn d(s: &str) -> Decimal {

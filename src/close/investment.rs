@@ -717,10 +717,38 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
             capital += -amount;
         }
     }
+    // The subsidiary's own translation reserve at acquisition is equity acquired like
+    // its capital (IFRS 3.32, IFRS 10.B86(b)): the group's reserve for the operation
+    // starts at control (IAS 21.48).
+    let reserve = translation_reserve_at_acquisition(sub);
+    if !reserve.is_zero() {
+        lines.push(line(&roles.translation_reserve, &e.id, None, -reserve));
+        capital += -reserve;
+    }
     let fva_hist: Decimal = fva.iter().map(|x| x.2).sum();
     lines.push(line(&roles.retained_earnings, &e.id, None, sub.a.net_assets_presentation - fva_hist - capital));
     for (acct, _, _, now) in fva {
         lines.push(line(acct, &e.id, None, *now));
+    }
+}
+
+/// The subsidiary's own translation reserve at acquisition (a credit negative). Acquired
+/// in this fiscal year, its opening is before control, and its translation reserve then
+/// is all of it: within the year the reserve account holds only the difference brought
+/// forward (the year's differences are OCI, and those before control the
+/// pre-acquisition entry moves into equity at acquisition, IFRS 10.B88). Acquired
+/// before, the amount the prior year's close carried (`years.rs`); a single-year folder
+/// delivers the opening of a subsidiary held at the opening with its reserve as the
+/// group's.
+fn translation_reserve_at_acquisition(sub: &Acquired) -> Decimal {
+    let (cx, e) = (sub.cx, &sub.e.id);
+    if sub.opening_period().is_none() {
+        cx.balances_of(e)
+            .filter(|((a, cp), _)| *a == cx.roles.translation_reserve && cp.is_none())
+            .map(|(_, v)| *v)
+            .sum()
+    } else {
+        cx.brought_forward.translation_reserve_at_acquisition.get(e).copied().unwrap_or_default()
     }
 }
 

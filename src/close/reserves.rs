@@ -11,24 +11,38 @@ use rust_decimal::Decimal;
 
 use super::OperationReserveRow;
 use super::context::Context;
-use crate::model::{EntityId, Ifric16Method};
+use crate::model::{EntityId, Ifric16Method, Period};
 use crate::money;
 use crate::translate::OperationReserve;
 
 /// The reserve per operation consolidated in full: brought forward (`translate::brought_forward`) plus this year's
 /// parts (`year_parts`, see `ifric16::parts_of_year`). A part whose entity or operation
 /// is not consolidated in full stays where it arose.
+///
+/// An operation that came under control in this fiscal year brings nothing forward,
+/// and an entity's parts of the months before its control month are not counted: the
+/// exchange differences before control are part of the equity acquired (IFRS 3.32,
+/// IFRS 10.B86(b)); only those since control are reclassified on disposal (IAS
+/// 21.48). The acquisition month counts whole, as for its results (`pre_acquisition`).
 pub fn reserves(
     cx: &Context,
     brought_forward: &BTreeMap<EntityId, Decimal>,
     year_parts: &[&OperationReserve],
     method: Ifric16Method,
 ) -> Vec<OperationReserveRow> {
+    let control_month = |e: &EntityId| {
+        cx.structure.entity(e).and_then(|s| s.controlled_from).map(Period::of_date).filter(|m| *m >= cx.fiscal_start)
+    };
     let mut by_operation: BTreeMap<EntityId, (Decimal, Decimal)> = BTreeMap::new();
     for e in &cx.full {
-        by_operation.insert(e.clone(), (brought_forward.get(e).copied().unwrap_or_default(), Decimal::ZERO));
+        let bf = if control_month(e).is_some() {
+            Decimal::new(0, cx.minor)
+        } else {
+            brought_forward.get(e).copied().unwrap_or_default()
+        };
+        by_operation.insert(e.clone(), (bf, Decimal::ZERO));
     }
-    for r in year_parts {
+    for r in year_parts.iter().filter(|r| control_month(&r.entity).is_none_or(|m| r.period >= m)) {
         let op = if cx.full.contains(&r.entity) && cx.full.contains(&r.operation) { &r.operation } else { &r.entity };
         if let Some(slot) = by_operation.get_mut(op) {
             slot.1 += r.amount;

@@ -768,3 +768,70 @@ fn a_revaluation_surplus_of_an_associate_goes_to_retained_earnings_on_control() 
     let want = ["172.5", "22.5", "7.5", "-277.5", "-117.5", "-45", "-7.5", "0"].map(d);
     assert_eq!(got, want);
 }
+
+/// Acquired and sold in the same year, with a translation reserve of its own from before
+/// control. Worked by hand from IFRS 3.32, IFRS 10.B86(b), B98 and IAS 21.48 on
+/// tests/cases/mid-year-acquisition-opening-translation-reserve (S's own reserve of 100
+/// at the opening, before control) without the plant uplift. P buys 75% of S on 10
+/// February 2026 for USD 8,000 (EUR 4,000) when S's net assets are USD 8,300 (EUR
+/// 4,150 at 2.00; all rates 2.00). NCI is 25% x 8,300 = USD 2,075 (EUR 1,037.50);
+/// goodwill is 8,000 plus 2,075 less 8,300 = USD 1,775 (EUR 887.50). P sells the 75% on
+/// 10 March for USD 9,000 (EUR 4,500; P's own gain is 4,500 less 4,000 = 500, on 4700).
+/// S is consolidated to 28 February: net assets USD 8,900 (EUR 4,450), NCI 1,037.50
+/// plus 25% x 300 = 1,112.50. The gain (IFRS 10.B98) is 4,500 plus 1,112.50 less 4,450
+/// less 887.50 = 275. The reserve S brought into the group was equity acquired; the
+/// group's reserve for S since control is 0 (flat rates), so nothing is reclassified
+/// (IAS 21.48): 4700 shows the gain of 275, not 275 plus 75% of 100.
+#[test]
+fn a_subsidiary_bought_and_sold_in_the_year_reclassifies_no_reserve_from_before_control() {
+    let f = case("mid-year-acquisition-opening-translation-reserve");
+    f.write("entities/fair_value_adjustments.csv", "owned,account,amount,useful_life_months,expense_account,note\n");
+    f.write(
+        "entities/acquisitions.csv",
+        "owned,date,consideration,nci_measurement,nci_fair_value,net_assets,net_assets_presentation,impairment\n\
+         S,2026-02-10,8000,share_of_net_assets,,8300,4150,0\n",
+    );
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from,valid_to\nP,S,0.75,0.75,2026-02-10,2026-03-09\n",
+    );
+    f.write(
+        "entities/ownership_changes.csv",
+        "date,holder,owned,share,consideration,fair_value_held,costs,gain_account,note\n\
+         2026-03-10,P,S,-0.75,9000,,,4700,the whole 75% sold for USD 9000 (EUR 4500)\n",
+    );
+    let accounts = std::fs::read_to_string(f.path().join("entities/accounts.csv")).unwrap();
+    f.write(
+        "entities/accounts.csv",
+        &format!("{accounts}4700,Gains on interests disposed of,profit_or_loss,income,average,,\n"),
+    );
+    for e in ["P", "S"] {
+        let mapping = std::fs::read_to_string(f.path().join(format!("entities/{e}/mapping.csv"))).unwrap();
+        f.write(&format!("entities/{e}/mapping.csv"), &format!("{mapping}4700,,4700\n"));
+    }
+    f.write(
+        "entities/P/tb-2026-03.movements.csv",
+        "period,account,amount,counterparty\n2026-03,1000,4500,\n2026-03,1400,-4000,S\n2026-03,4700,-500,\n",
+    );
+    f.write(
+        "entities/layouts.csv",
+        &std::fs::read_to_string(repo().join("tests/cases/loss-of-control-foreign-operation/entities/layouts.csv"))
+            .unwrap(),
+    );
+    f.write(
+        "rates/monthly.csv",
+        "period,currency,closing,average,quote\n2025-12,USD,2.00,2.00,units_per_presentation\n\
+         2026-01,USD,2.00,2.00,units_per_presentation\n2026-02,USD,2.00,2.00,units_per_presentation\n\
+         2026-03,USD,2.00,2.00,units_per_presentation\n",
+    );
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-03", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    assert_eq!(v["proof"]["tied"], true, "{:#}", v["proof"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    assert_eq!([tb_amount(&v, "4700"), tb_amount(&v, "3300"), tb_amount(&v, "8100")], [d("-275"), d("0"), d("0")]);
+    let sold: Vec<&Value> =
+        v["eliminations"].as_array().unwrap().iter().filter(|e| e["rule"] == "loss_of_control").collect();
+    let text = sold[0]["description"].as_str().unwrap();
+    assert!(text.contains("gain 275.00") && text.contains("reclassified 0.00"), "{text}");
+}
