@@ -513,6 +513,7 @@ fn brought_forward(
         }
     }
     out.reserves_at_acquisition.extend(at_acquisition);
+    out.translation_reserve_at_acquisition.extend(translation_reserves_at_acquisition(prior, &close, prior_end)?);
     for e in &close.journal {
         for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
             let Some(cp) = &l.counterparty else { continue };
@@ -527,6 +528,47 @@ fn brought_forward(
                 }
                 _ => {}
             }
+        }
+    }
+    Ok(out)
+}
+
+/// The own translation reserve at acquisition (a credit negative) of each subsidiary
+/// acquired in the year ending `prior_end`: the reserve of its opening, which the
+/// investment entry eliminated (investment.rs), plus its exchange differences of the year
+/// before control, which the pre-acquisition entry moved to equity at acquisition
+/// (pre_acquisition.rs, IFRS 10.B88). Its books close both into the reserve the next
+/// opening carries, so the next years' investment entries eliminate this amount again
+/// (IFRS 3.32; IAS 21.48: the group's reserve starts at control).
+fn translation_reserves_at_acquisition(
+    prior: &Dataset,
+    close: &Close,
+    prior_end: Period,
+) -> PolarsResult<BTreeMap<EntityId, Decimal>> {
+    let roles = &prior.settings.accounts;
+    let start = prior_end.fiscal_year_start(prior.settings.fiscal_year_start);
+    let acquired: BTreeSet<&EntityId> = prior
+        .acquisitions
+        .iter()
+        .filter(|a| (start..=prior_end).contains(&Period::of_date(a.date)))
+        .map(|a| &a.owned)
+        .collect();
+    let balances = crate::close::aggregate::balances(&close.contributions)?;
+    let mut out: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    for e in acquired {
+        let own = balances.get(e).and_then(|b| b.get(&(roles.translation_reserve.clone(), None)));
+        let before_control: Decimal = close
+            .journal
+            .iter()
+            .filter(|x| x.rule == crate::close::EliminationRule::PreAcquisitionResults)
+            .flat_map(|x| x.lines.iter())
+            .filter(|l| &l.entity == e && l.counterparty.is_none() && l.account == roles.translation_difference)
+            .map(|l| l.amount)
+            .sum();
+        // The pre-acquisition entry reverses the difference: its line is minus it.
+        let at_acquisition = own.copied().unwrap_or_default() - before_control;
+        if !at_acquisition.is_zero() {
+            out.insert(e.clone(), at_acquisition);
         }
     }
     Ok(out)

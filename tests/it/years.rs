@@ -168,8 +168,9 @@ fn a_prior_year_with_blocking_findings_is_named_when_its_close_is_carried() {
 fn the_reserve_per_operation_is_carried_under_both_ifric16_methods() {
     // IFRIC 16.17: under the step-by-step method part of an entity's difference belongs
     // to its intermediate parent's operation; the reserve each operation holds at the
-    // 2025 year end is what 2026 brings forward for it (GLF-BH, acquired in 2026, brings
-    // forward its own opening's).
+    // 2025 year end is what 2026 brings forward for it. GLF-BH, acquired in 2026, brings
+    // forward nothing: the reserve of its own opening is from before control, equity
+    // acquired (IFRS 3.32), not the operation's (IAS 21.48).
     for method in ["direct", "step_by_step"] {
         let demo = Folder::demo();
         demo.replace("entities/group.toml", "ifric16 = \"direct\"", &format!("ifric16 = \"{method}\""));
@@ -186,7 +187,9 @@ fn the_reserve_per_operation_is_carried_under_both_ifric16_methods() {
         assert!(reserve.len() >= 6, "{method}: {reserve:?}");
         for r in now["translation_reserves"].as_array().expect("reserves") {
             let op = r["operation"].as_str().unwrap();
-            if op != "GLF-BH" {
+            if op == "GLF-BH" {
+                assert_eq!(r["brought_forward"].as_str(), Some("0.00"), "{method} {op}");
+            } else {
                 assert_eq!(r["brought_forward"].as_str(), reserve.get(op).map(String::as_str), "{method} {op}");
             }
         }
@@ -214,4 +217,60 @@ fn oci_of_a_named_reserve_is_carried_into_the_reserve() {
         ),
         "{found:#?}"
     );
+}
+
+/// The year after a mid-year acquisition, in the same folder: the case
+/// tests/cases/mid-year-acquisition-opening-translation-reserve (worked in its
+/// SOURCE.md: S brings a reserve of its own of 100, a gain, from before control) run on
+/// to January 2027, without the plant uplift (net assets acquired USD 8,300, EUR 4,150),
+/// the rate flat at 2.50 from March 2026 and no further transactions. S's opening of 2027 is carried from its 2026 close: its
+/// own reserve is the balancing figure, the 100 from before control plus its exchange
+/// differences of 2026 (a loss of 890). The 100 is still equity acquired (IFRS 3.32,
+/// IFRS 10.B86(b)), so the investment entry of 2027 eliminates it again, and the group
+/// is that of tests/cases/mid-year-acquisition-uplift-depreciation run on the same way
+/// (the same S with its retained earnings at 1,500 and no reserve of its own): the
+/// same reserve and retained earnings (a difference of 100 between them was the
+/// defect). The reserve of S's operation brought forward is its 2026 reserve, -890
+/// (gains positive, SOURCE.md step 2), with nothing from before control.
+#[test]
+fn the_reserve_from_before_control_stays_eliminated_in_the_next_year() {
+    let run_on = |name: &str| {
+        let f = case(name);
+        let mut rates = std::fs::read_to_string(f.path().join("rates/monthly.csv")).unwrap();
+        let mut months: Vec<String> = (4..=12).map(|m| format!("2026-{m:02}")).collect();
+        months.push("2027-01".into());
+        for m in &months {
+            rates.push_str(&format!("{m},USD,2.50,2.50,units_per_presentation\n"));
+            for e in ["P", "S"] {
+                let text = format!("period,account,amount,counterparty\n{m},1000,0,\n");
+                f.write(&format!("entities/{e}/tb-{m}.movements.csv"), &text);
+            }
+        }
+        f.write("rates/monthly.csv", &rates);
+        f.write(
+            "entities/fair_value_adjustments.csv",
+            "owned,account,amount,useful_life_months,expense_account,note\n",
+        );
+        f.write(
+            "entities/acquisitions.csv",
+            "owned,date,consideration,nci_measurement,nci_fair_value,net_assets,net_assets_presentation,impairment\n\
+             S,2026-02-10,8000,share_of_net_assets,,8300,4150,0\n",
+        );
+        let (code, v) = run_json(f.path(), &["close", "--period", "2027-01", "--out", "out"]);
+        assert_eq!(code, 0, "{name}: {:#}", v["findings"]);
+        assert_eq!(v["proof"]["tied"], true, "{name}: {:#}", v["proof"]);
+        v
+    };
+    let tb = |v: &serde_json::Value, a: &str| -> String {
+        let rows = v["group_trial_balance"].as_array().unwrap();
+        rows.iter().find(|r| r["account"] == a).map(|r| r["amount"].as_str().unwrap().to_string()).unwrap_or_default()
+    };
+    let with_reserve = run_on("mid-year-acquisition-opening-translation-reserve");
+    let without = run_on("mid-year-acquisition-uplift-depreciation");
+    for a in ["3200", "3300", "3900"] {
+        assert_eq!(tb(&with_reserve, a), tb(&without, a), "{a}");
+    }
+    let rows = with_reserve["translation_reserves"].as_array().unwrap();
+    let s = rows.iter().find(|r| r["operation"] == "S").expect("S");
+    assert_eq!(s["brought_forward"].as_str(), Some("-890.00"), "{s}");
 }
