@@ -227,10 +227,6 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         .unique(None, UniqueKeepStrategy::Any)
         .sort(GRAIN.to_vec(), SortMultipleOptions::default().with_nulls_last(true))
         .with_row_index("gid", None);
-    // The grid is in (gid, period) order by construction (a cross join keeps its left
-    // side's order, each grain with every month), and every join below keeps the
-    // grid's order, so the running sums need no sort of the whole grid.
-    let grid = grains.cross_join(periods.lazy(), None);
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
     let left = |nulls_equal: bool| {
@@ -239,25 +235,40 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         a.maintain_order = MaintainOrderJoin::Left;
         a
     };
-
-    Ok(grid
-        .join(mov, keys.clone(), keys.clone(), left(true))
-        .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
+    // What belongs to a grain whatever the month (its account's basis, its entity's
+    // currency, its opening in the presentation currency) is joined once per grain,
+    // before the grain meets its months.
+    let grains = grains
         .join(chart, [col("group_account")], [col("group_account")], left(false))
         .join(entity_frame(ds)?.lazy(), [col("entity")], [col("entity")], left(false))
-        .join(
-            rate_frame(ds)?.lazy(),
-            [col("currency"), col("period_index")],
-            [col("currency"), col("period_index")],
-            left(false),
-        )
-        .join(
+        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), left(true));
+    // The grid is in (gid, period) order by construction (a cross join keeps its left
+    // side's order, each grain with every month), and every join keeps its left side's
+    // order, so the running sums need no sort of the whole grid.
+    let grid = grains.cross_join(periods.lazy(), None);
+    let grid = grid.join(mov, keys.clone(), keys.clone(), left(true)).join(
+        rate_frame(ds)?.lazy(),
+        [col("currency"), col("period_index")],
+        [col("currency"), col("period_index")],
+        left(false),
+    );
+    // Most groups have few historical rates or none: without any, no join.
+    let grid = if ds.historical_rates.is_empty() {
+        grid.with_columns([
+            lit(NULL).cast(DataType::Decimal(38, RATE_SCALE)).alias("rate_historical"),
+            lit(NULL).cast(DataType::String).alias("quote_historical"),
+        ])
+    } else {
+        grid.join(
             historical_frame(ds)?.lazy(),
             [col("entity"), col("group_account"), col("period_index")],
             [col("entity"), col("group_account"), col("period_index")],
             left(false),
         )
-        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), left(true))
+    };
+
+    Ok(grid
+        .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
         .with_columns([
             col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
             // The part of the local balance that is IAS 29 restatement, for the audit trail
