@@ -346,6 +346,8 @@ pub struct ClosedPeriod {
     /// The intercompany matching the close's gate ran on (what `match` reports and the
     /// close posts), shown again in the workbook and the page.
     pub matching: crate::intercompany::Matching,
+    /// The close of the opening balances, once computed (see `opening_balances`).
+    opening: std::sync::OnceLock<crate::close::Close>,
 }
 
 /// [`run_close`] for a command: when findings stop the close they are written to `out`
@@ -375,12 +377,17 @@ impl ClosedPeriod {
     }
 
     /// The close of the opening balances (the month before the fiscal year), for a view
-    /// from the fiscal year's start; computed on demand because only the statement of
-    /// changes in equity needs it.
-    pub fn opening_balances(&self) -> Result<crate::close::Close, Error> {
+    /// from the fiscal year's start: computed on demand (only the statement of changes
+    /// in equity, the cash flows and the comparatives' proof need it), and once per
+    /// command, as all three start from the same close.
+    pub fn opening_balances(&self) -> Result<&crate::close::Close, Error> {
+        if let Some(c) = self.opening.get() {
+            return Ok(c);
+        }
         let ds = &self.checked.ds;
         let p0 = self.checked.scope.fiscal_start.prev();
-        Ok(crate::close::close_at(ds, &self.translated, &structure_at(ds, &self.root, p0), p0)?)
+        let close = crate::close::close_at(ds, &self.translated, &structure_at(ds, &self.root, p0), p0)?;
+        Ok(self.opening.get_or_init(|| close))
     }
 }
 
@@ -476,6 +483,7 @@ pub fn run_close(
         draft,
         set_aside,
         matching,
+        opening: std::sync::OnceLock::new(),
     }))
 }
 
@@ -596,13 +604,9 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     // The statement of changes in equity (IAS 1.106): from the opening close of the
     // view to its closing one, with its own proof.
     let view_start = c.base.as_ref().map(|b| b.period.next()).unwrap_or(scope.fiscal_start);
-    let computed;
     let opening = match &c.base {
         Some(b) => b,
-        None => {
-            computed = c.opening_balances()?;
-            &computed
-        }
+        None => c.opening_balances()?,
     };
     let (equity_changes, equity_check) = crate::equity::changes_in_equity(
         ds,
@@ -725,7 +729,7 @@ fn comparatives(
     };
     let ob = c.opening_balances()?;
     let ds = &c.checked.ds;
-    checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &ds.accounts, &ds.settings.accounts));
+    checks.push(crate::years::opening_is_prior_closing(prior_end, ob, &ds.accounts, &ds.settings.accounts));
     // The comparatives are only as good as the prior year's close: a blocking finding of
     // its rules (an acquisition missing, say) fails the proof rather than passing unseen.
     let blocking: Vec<String> = prior
