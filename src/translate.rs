@@ -187,9 +187,20 @@ fn translate_rows(lf: LazyFrame, minor: usize, mode: RoundingMode) -> LazyFrame 
 /// translation (rounded once), the balances in the presentation currency, and the
 /// translation difference of each entity and month with its explanation.
 pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<Translated> {
+    translate_movements(ds, mapped.movements(fiscal_start, last)?, fiscal_start, last)
+}
+
+/// [`translate`] from the movement frame itself (`Mapped::movements` of the same months),
+/// so that a caller may let the mapped lines go before translating.
+pub fn translate_movements(
+    ds: &Dataset,
+    movements: DataFrame,
+    fiscal_start: Period,
+    last: Period,
+) -> PolarsResult<Translated> {
     let _span = tracing::info_span!("translate", period = %last).entered();
     let minor = ds.settings.presentation_currency.minor_unit() as usize;
-    let g = grid(ds, mapped, fiscal_start, last)?;
+    let g = grid(ds, movements, fiscal_start, last)?;
     let g = choose_rates(ds, g, period_index(fiscal_start.prev()));
     let g = translate_rows(g, minor, ds.settings.policies.rounding);
     let lines = presentation_balances(g, minor)?.collect()?;
@@ -207,14 +218,14 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
 
 /// Every grain (entity, account, counterparty, transaction currency) by every month of
 /// the year, with its movement, local balance, basis, entity, rates and opening amount.
-fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
+fn grid(ds: &Dataset, movements: DataFrame, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
     let p0 = period_index(fiscal_start.prev());
     let pn = period_index(last);
     let grain: Vec<Expr> = GRAIN.iter().map(|c| col(*c)).collect();
     let mut keys = grain.clone();
     keys.push(col("period_index"));
     // IAS 21.42(a): a hyperinflationary entity is restated (IAS 29) before translation.
-    let mov = crate::restate::restate(ds, mapped.movements(fiscal_start, last)?, fiscal_start, last)?.lazy();
+    let mov = crate::restate::restate(ds, movements, fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
         vec![Column::new("period_index".into(), (p0..=pn).collect::<Vec<i32>>())],
@@ -267,19 +278,17 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         )
     };
 
-    Ok(grid
-        .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
-        .with_columns([
-            col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
-            // The part of the local balance that is IAS 29 restatement, for the audit trail
-            // (cumulated only when some entity is restated: a zero column otherwise).
-            if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
-                col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
-            } else {
-                zero.clone()
-            }
-            .alias("restatement_local"),
-        ]))
+    Ok(grid.with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")]).with_columns([
+        col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
+        // The part of the local balance that is IAS 29 restatement, for the audit trail
+        // (cumulated only when some entity is restated: a zero column otherwise).
+        if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
+            col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
+        } else {
+            zero.clone()
+        }
+        .alias("restatement_local"),
+    ]))
 }
 
 /// Which amount of each row is translated at which rate: the rate kind (unit,
