@@ -281,7 +281,8 @@ pub enum Command {
     )]
     Bench {
         /// Sizes to run: XS (40 entities, 3 months), S (300 entities, 1 month), M (300
-        /// entities, 12 months), L (2,000 entities, 12 months, 1M document lines).
+        /// entities, 12 months), L (2,000 entities, 12 months, 1M document lines), XL
+        /// (5,000 entities x 1,000 accounts x 12 months, about 60M rows).
         #[arg(long, value_delimiter = ',', default_value = "S,M")]
         sizes: Vec<String>,
         /// Input formats of the trial balances: csv, parquet.
