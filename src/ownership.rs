@@ -344,8 +344,9 @@ pub fn last_controlled_month(date: NaiveDate) -> Period {
 
 /// A loss of control is expressed when the subsidiary was consolidated in full, held by
 /// the row's holder alone (in the presentation currency, without NCI of its own), holds
-/// no entity itself, has no intercompany line, no net investment item and no inventory
-/// count inside the group, was acquired with NCI at its share of net assets and no fair
+/// no entity itself, has no net investment item and no inventory count inside the
+/// group (its intercompany balances and transactions are, `loss_of_control::pairs`),
+/// was acquired with NCI at its share of net assets and no fair
 /// value adjustment, keeps at most an investment (not an associate or joint
 /// arrangement), delivered every month it is consolidated for, and the group has no
 /// statement of cash flows (its disposal line, IAS 7.39-42, is not built yet).
@@ -383,12 +384,6 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
         || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
     {
         why.push("net_investment.csv or inventory_profit.csv names it".into());
-    }
-    if has_counterparty_lines(ds, &c.owned) || is_named_by_others(ds, &c.owned) {
-        why.push(format!(
-            "its trial balances name counterparties, or others name it beyond their investment: intercompany items of {} are not eliminated up to the date yet",
-            c.owned
-        ));
     }
     if uses_other_reserves(ds, &c.owned) {
         why.push(

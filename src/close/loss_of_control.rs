@@ -35,7 +35,7 @@ use rust_decimal::Decimal;
 use super::NciRow;
 use super::aggregate::EntityBalances;
 use super::context::Context;
-use super::journal::{EliminationRule, EntryLine, Journal, line};
+use super::journal::{EliminationRule, Entry, EntryLine, Journal, line};
 use crate::findings::{Finding, Rule};
 use crate::load::Dataset;
 use crate::model::*;
@@ -51,8 +51,11 @@ pub struct AtLastMonth<'a> {
     /// The same as balances by account and counterparty.
     pub balances: EntityBalances,
     /// The lines of that close's journal about it: its own, and the other entities'
-    /// lines naming it.
+    /// lines naming it, but for its intercompany pairs.
     pub lines: Vec<(EliminationRule, EntryLine)>,
+    /// That close's intercompany entries between it and the rest of the group, whole
+    /// (difference lines included): see [`pairs`].
+    pub pairs: Vec<Entry>,
     /// Its translation reserve then (IFRIC 16.17), before the NCI's share.
     pub reserve: Decimal,
     /// Its NCI share then, and the NCI's share of its profit and OCI of the year.
@@ -87,16 +90,19 @@ pub fn at_last_month<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChan
     let e = &change.owned;
     let contributions = then.contributions.clone().lazy().filter(col("entity").eq(lit(e.as_str()))).collect()?;
     let balances = super::aggregate::balances(&contributions)?.remove(e).unwrap_or_default();
+    let is_pair = |x: &Entry| x.rule == EliminationRule::Intercompany && x.entities.contains(e);
+    let pairs = then.journal.iter().filter(|x| is_pair(x)).cloned().collect();
     let lines = then
         .journal
         .iter()
+        .filter(|x| !is_pair(x))
         .flat_map(|x| x.lines.iter().map(move |l| (x.rule, l)))
         .filter(|(_, l)| &l.entity == e || l.counterparty.as_ref() == Some(e))
         .map(|(r, l)| (r, l.clone()))
         .collect();
     let reserve = then.reserves.iter().filter(|r| &r.operation == e).map(|r| r.reserve).sum();
     let nci = then.nci.iter().find(|r| &r.entity == e).cloned();
-    Ok(AtLastMonth { change, last_month, contributions, balances, lines, reserve, nci })
+    Ok(AtLastMonth { change, last_month, contributions, balances, lines, pairs, reserve, nci })
 }
 
 /// The group's carrying amounts at the last month end, in the presentation currency.
@@ -113,6 +119,41 @@ struct Carrying {
     investment_account: Option<GroupAccount>,
     /// The lines carried into the entry.
     carried: Vec<EntryLine>,
+    /// The intercompany balance pairs with it no longer eliminated.
+    third_party: usize,
+}
+
+/// What becomes of the intercompany entries of the close at the last month end between
+/// the subsidiary sold and the rest of the group. A pair of income and expense (fees,
+/// sales, interest, with its difference) is carried whole: those months' transactions
+/// were within the group and stay eliminated. A pair of balances is not carried: its
+/// side in the subsidiary's books is derecognised with its other assets and
+/// liabilities (IFRS 10.B98(a)(i)), and the side the group keeps is a balance with a
+/// third party from the date, no longer eliminated (after the month of the sale the
+/// close does not pair it, `intercompany.rs`). An entry mixing the two is not split.
+fn pairs(cx: &Context, sold: &AtLastMonth, k: &mut Carrying) -> Result<(), String> {
+    let difference = &cx.roles.intercompany_difference;
+    let balance = |a: &GroupAccount| {
+        cx.chart.get(a).is_some_and(|d| matches!(d.class, AccountClass::Asset | AccountClass::Liability))
+    };
+    for x in &sold.pairs {
+        let own = x.lines.iter().filter(|l| &l.account != difference || l.counterparty.is_some());
+        let (mut balances, mut flows) = (0, 0);
+        for l in own {
+            if balance(&l.account) { balances += 1 } else { flows += 1 }
+        }
+        match (balances, flows) {
+            (_, 0) => k.third_party += 1,
+            (0, _) => k.carried.extend(x.lines.iter().cloned()),
+            _ => {
+                return Err(format!(
+                    "its intercompany entry {} at {} ({}) mixes balances and income or expense",
+                    x.id, sold.last_month, x.description
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 fn carrying(cx: &Context, sold: &AtLastMonth) -> Result<Carrying, String> {
@@ -121,6 +162,7 @@ fn carrying(cx: &Context, sold: &AtLastMonth) -> Result<Carrying, String> {
         cx.chart.get(a).is_some_and(|d| matches!(d.class, AccountClass::Asset | AccountClass::Liability))
     };
     let mut k = Carrying::default();
+    pairs(cx, sold, &mut k)?;
     for ((a, _), v) in &sold.balances {
         if asset_or_liability(a) {
             k.net_assets += *v;
@@ -228,12 +270,20 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         return None;
     }
     let gain = proceeds + fair_value + k.nci - k.net_assets - k.goodwill;
+    let third_party = if k.third_party == 0 {
+        String::new()
+    } else {
+        format!(
+            "; its intercompany balances at {} ({} pairs) stay as balances with a third party",
+            sold.last_month, k.third_party
+        )
+    };
     j.post(
         EliminationRule::LossOfControl,
         holder.clone(),
         vec![holder.clone(), e.clone()],
         format!(
-            "{e} sold by {holder} on {}, consolidated to {}: proceeds {} + fair value retained {} + NCI {} - net assets {} - goodwill {} = gain {} (IFRS 10.B98); translation reserve reclassified {} (IAS 21.48), NCI's share {} derecognised (IAS 21.48B)",
+            "{e} sold by {holder} on {}, consolidated to {}: proceeds {} + fair value retained {} + NCI {} - net assets {} - goodwill {} = gain {} (IFRS 10.B98); translation reserve reclassified {} (IAS 21.48), NCI's share {} derecognised (IAS 21.48B){third_party}",
             c.date,
             sold.last_month,
             money::format_amount(proceeds, cx.minor),
@@ -317,6 +367,7 @@ mod tests {
                 (EliminationRule::NonControllingInterest, l("3900", "S", None, "-60")),
                 (EliminationRule::NonControllingInterest, l("3200", "S", None, "60")),
             ],
+            pairs: Vec::new(),
             reserve: Decimal::ZERO,
             nci: Some(NciRow {
                 entity: id("S"),
@@ -380,6 +431,7 @@ mod tests {
             contributions: DataFrame::empty(),
             balances: own.get(&id("S")).cloned().unwrap_or_default(),
             lines: Vec::new(),
+            pairs: Vec::new(),
             reserve: d("60"),
             nci: Some(NciRow { entity: id("S"), nci_share: d("0.2"), profit: d("24"), oci: d("36"), equity: d("180") }),
         };
@@ -390,5 +442,105 @@ mod tests {
         for want in [("9000", "S", "48"), ("7300", "P", "-48"), ("3300", "S", "12"), ("3200", "S", "-12")] {
             assert!(l.contains(&(want.0.into(), want.1.into(), want.2.into())), "{want:?} not in {l:?}");
         }
+    }
+    /// P (EUR) holds all of S (USD, 2 USD per EUR) and sells it on 1 April 2026 for
+    /// USD 1,200 (EUR 600); S is consolidated to 31 March. S then had inventory 600 and
+    /// owed P 100 on trade (net assets 500), capital 300, retained earnings 100 and
+    /// revenue 100, 40 of it sales to P, which P booked as 38 (a difference of 2). The
+    /// close at March eliminated P's investment 300 against S's capital, the trade
+    /// balances 100 and the sales with the difference. By IFRS 10.B98 the gain is
+    /// 600 - 500 = 100; P's own gain (600 - 300 = 300) is reduced by 200. The trade pair
+    /// is not carried: S's payable leaves with S's net assets, P's receivable is then a
+    /// balance with a third party. The sales pair of January to March is carried whole
+    /// (difference line included). The entry: inventory -600, payable +100, capital
+    /// +300, the sales pair +40 - 38 - 2, the gain +200; it sums to 0.
+    #[test]
+    fn intercompany_balances_with_the_subsidiary_sold_become_third_party_balances() {
+        let w = World::new(&["P", "S"], &[], p("2026-12"));
+        let cx = w.context(p("2026-12"), p("2026-01"), balances(&[("P", "1650", Some("S"), "100")]));
+        let change = OwnershipChange {
+            date: chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap_or_default(),
+            holder: id("P"),
+            owned: id("S"),
+            share: d("-1"),
+            consideration: d("1200"),
+            fair_value_held: None,
+            costs: Decimal::ZERO,
+            gain_account: Some(acct("7300")),
+            note: String::new(),
+            source: Source::file("entities/ownership_changes.csv"),
+        };
+        let own = balances(&[
+            ("S", "1500", None, "600"),
+            ("S", "2450", Some("P"), "-100"),
+            ("S", "3000", None, "-300"),
+            ("S", "3200", None, "-100"),
+            ("S", "4000", None, "-60"),
+            ("S", "4100", Some("P"), "-40"),
+        ]);
+        let l = |a: &str, e: &str, cp: Option<&str>, v: &str| line(&acct(a), &id(e), cp.map(id).as_ref(), d(v));
+        let entry = |id: &str, lines: Vec<EntryLine>| Entry {
+            id: id.into(),
+            rule: EliminationRule::Intercompany,
+            posted_at: super::super::context::fixture::id("P"),
+            entities: vec![super::super::context::fixture::id("P"), super::super::context::fixture::id("S")],
+            description: String::new(),
+            lines,
+        };
+        let sold = AtLastMonth {
+            change: &change,
+            last_month: p("2026-03"),
+            contributions: DataFrame::empty(),
+            balances: own.get(&id("S")).cloned().unwrap_or_default(),
+            lines: vec![
+                (EliminationRule::InvestmentAndGoodwill, l("1200", "P", Some("S"), "-300")),
+                (EliminationRule::InvestmentAndGoodwill, l("3000", "S", None, "300")),
+            ],
+            pairs: vec![
+                entry("E0001", vec![l("1650", "P", Some("S"), "-100"), l("2450", "S", Some("P"), "100")]),
+                entry(
+                    "E0002",
+                    vec![l("4100", "S", Some("P"), "40"), l("5100", "P", Some("S"), "-38"), l("6950", "P", None, "-2")],
+                ),
+            ],
+            reserve: Decimal::ZERO,
+            nci: None,
+        };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let disposal = post(&mut j, &cx, &sold, &mut found).unwrap_or_else(|| panic!("no disposal: {found:?}"));
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!((disposal.gain, disposal.proceeds), (d("100"), d("600")));
+        let mut got = lines(&j.entries[0]);
+        got.sort();
+        let mut want: Vec<(String, String, String)> = [
+            ("1500", "S", "-600"),
+            ("2450", "S", "100"),
+            ("3000", "S", "300"),
+            ("4100", "S", "40"),
+            ("5100", "P", "-38"),
+            ("6950", "P", "-2"),
+            ("7300", "P", "200"),
+        ]
+        .iter()
+        .map(|(a, e, v)| ((*a).into(), (*e).into(), (*v).into()))
+        .collect();
+        want.sort();
+        assert_eq!(got, want);
+        assert!(
+            j.entries[0].description.contains("(1 pairs) stay as balances with a third party"),
+            "{}",
+            j.entries[0].description
+        );
+
+        // An intercompany entry mixing a balance and income is not split: blocking.
+        let mixed = AtLastMonth {
+            pairs: vec![entry("E0003", vec![l("1650", "P", Some("S"), "-40"), l("4100", "S", Some("P"), "40")])],
+            ..sold
+        };
+        let mut found = Vec::new();
+        assert!(post(&mut Journal::default(), &cx, &mixed, &mut found).is_none());
+        assert_eq!(found.len(), 1, "{found:?}");
+        assert!(found[0].message.contains("mixes balances and income or expense"), "{found:?}");
     }
 }
