@@ -915,7 +915,7 @@ fn journal_lines(
     problems: &mut Vec<String>,
 ) -> Vec<(Option<&'static str>, EntityId, GroupAccount, Decimal)> {
     let mut out = Vec::new();
-    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired, stakes, sold) {
+    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired, stakes, sold, chart) {
         let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
         let cash = class.get(&a).is_some_and(|d| d.section == Section::Cash);
         let own = match treatment {
@@ -951,7 +951,9 @@ fn journal_movements(
     acquired: &BTreeSet<EntityId>,
     stakes: &BTreeMap<EntityId, Decimal>,
     sold: &BTreeMap<EntityId, Disposal>,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
 ) -> BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> {
+    let flow = |a: &GroupAccount| chart.get(a).is_some_and(|d| d.statement != Statement::BalanceSheet);
     let mut out: BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> = BTreeMap::new();
     for (c, sign) in [(closing, Decimal::ONE), (opening, Decimal::NEGATIVE_ONE)] {
         for entry in &c.journal {
@@ -979,11 +981,23 @@ fn journal_movements(
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };
+            // A pair of balances with a subsidiary sold in the view, eliminated before the
+            // sale and not after (`loss_of_control::pairs`): its lines and difference
+            // move by account, as they did in the months before, so that the months add
+            // up to the year (the subsidiary's side of it leaves in the sale's entry).
+            let balances_with_sold = entry.rule == EliminationRule::Intercompany
+                && entry.entities.iter().any(|e| sold.contains_key(e))
+                && entry.lines.iter().all(|l| l.counterparty.is_none() || !flow(&l.account));
             for l in &entry.lines {
                 // A line about a subsidiary sold in the view (its own, or its holder's
-                // naming it) is part of the disposal, whatever the entry.
-                let about_sold =
-                    sold.contains_key(&l.entity) || l.counterparty.as_ref().is_some_and(|c| sold.contains_key(c));
+                // naming it) is part of the disposal, whatever the entry; but for its
+                // pairs of balances (above) and its intragroup dividends of the months
+                // consolidated, which stay eliminated by account like any other (the
+                // payer's retained earnings, where its own movement is, and the
+                // receiver's income).
+                let about_sold = entry.rule != EliminationRule::IntragroupDividend
+                    && !balances_with_sold
+                    && (sold.contains_key(&l.entity) || l.counterparty.as_ref().is_some_and(|c| sold.contains_key(c)));
                 let treatment = if about_sold { Treatment::Disposal } else { treatment };
                 *out.entry((treatment, l.entity.clone(), l.account.clone())).or_default() += sign * l.amount;
             }

@@ -56,6 +56,9 @@ pub struct AtLastMonth<'a> {
     /// That close's intercompany entries between it and the rest of the group, whole
     /// (difference lines included): see [`pairs`].
     pub pairs: Vec<Entry>,
+    /// That close's intragroup dividends it paid or received, whole: posted again as
+    /// they were (the months consolidated stay eliminated), beside the entry of the sale.
+    pub dividends: Vec<Entry>,
     /// Its translation reserve then (IFRIC 16.17), before the NCI's share.
     pub reserve: Decimal,
     /// Its NCI share then, and the NCI's share of its profit and OCI of the year.
@@ -90,19 +93,20 @@ pub fn at_last_month<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChan
     let e = &change.owned;
     let contributions = then.contributions.clone().lazy().filter(col("entity").eq(lit(e.as_str()))).collect()?;
     let balances = super::aggregate::balances(&contributions)?.remove(e).unwrap_or_default();
-    let is_pair = |x: &Entry| x.rule == EliminationRule::Intercompany && x.entities.contains(e);
-    let pairs = then.journal.iter().filter(|x| is_pair(x)).cloned().collect();
+    let of_rule = |x: &Entry, r: EliminationRule| x.rule == r && x.entities.contains(e);
+    let whole = |r: EliminationRule| -> Vec<Entry> { then.journal.iter().filter(|x| of_rule(x, r)).cloned().collect() };
+    let (pairs, dividends) = (whole(EliminationRule::Intercompany), whole(EliminationRule::IntragroupDividend));
     let lines = then
         .journal
         .iter()
-        .filter(|x| !is_pair(x))
+        .filter(|x| !of_rule(x, EliminationRule::Intercompany) && !of_rule(x, EliminationRule::IntragroupDividend))
         .flat_map(|x| x.lines.iter().map(move |l| (x.rule, l)))
         .filter(|(_, l)| &l.entity == e || l.counterparty.as_ref() == Some(e))
         .map(|(r, l)| (r, l.clone()))
         .collect();
     let reserve = then.reserves.iter().filter(|r| &r.operation == e).map(|r| r.reserve).sum();
     let nci = then.nci.iter().find(|r| &r.entity == e).cloned();
-    Ok(AtLastMonth { change, last_month, contributions, balances, lines, pairs, reserve, nci })
+    Ok(AtLastMonth { change, last_month, contributions, balances, lines, pairs, dividends, reserve, nci })
 }
 
 /// The group's carrying amounts at the last month end, in the presentation currency.
@@ -121,12 +125,14 @@ struct Carrying {
     carried: Vec<EntryLine>,
     /// The intercompany balance pairs with it no longer eliminated.
     third_party: usize,
+    /// Its intercompany pairs of income and expense, posted again whole.
+    flow_pairs: Vec<Entry>,
 }
 
 /// What becomes of the intercompany entries of the close at the last month end between
 /// the subsidiary sold and the rest of the group. A pair of income and expense (fees,
-/// sales, interest, with its difference) is carried whole: those months' transactions
-/// were within the group and stay eliminated. A pair of balances is not carried: its
+/// sales, interest, with its difference) is posted again whole, as the entry it was:
+/// those months' transactions were within the group and stay eliminated. A pair of balances is not carried: its
 /// side in the subsidiary's books is derecognised with its other assets and
 /// liabilities (IFRS 10.B98(a)(i)), and the side the group keeps is a balance with a
 /// third party from the date, no longer eliminated (after the month of the sale the
@@ -144,7 +150,7 @@ fn pairs(cx: &Context, sold: &AtLastMonth, k: &mut Carrying) -> Result<(), Strin
         }
         match (balances, flows) {
             (_, 0) => k.third_party += 1,
-            (0, _) => k.carried.extend(x.lines.iter().cloned()),
+            (0, _) => k.flow_pairs.push(x.clone()),
             _ => {
                 return Err(format!(
                     "its intercompany entry {} at {} ({}) mixes balances and income or expense",
@@ -273,10 +279,8 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
     let third_party = if k.third_party == 0 {
         String::new()
     } else {
-        format!(
-            "; its intercompany balances at {} ({} pairs) stay as balances with a third party",
-            sold.last_month, k.third_party
-        )
+        let pairs = if k.third_party == 1 { "1 pair".to_string() } else { format!("{} pairs", k.third_party) };
+        format!("; its intercompany balances at {} ({pairs}) stay as balances with a third party", sold.last_month)
     };
     j.post(
         EliminationRule::LossOfControl,
@@ -297,6 +301,18 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         ),
         lines,
     );
+    // The pairs of income and expense and the dividends of the months consolidated stay
+    // eliminated, each its own entry as it was, so that they read (and are classified,
+    // by segment and in the statement of cash flows) as what they are.
+    for x in k.flow_pairs.iter().chain(&sold.dividends) {
+        j.post(
+            x.rule,
+            x.posted_at.clone(),
+            x.entities.clone(),
+            format!("{}: of the months to {}, before the sale of {e}", x.description, sold.last_month),
+            x.lines.clone(),
+        );
+    }
     Some(Disposal {
         entity: e.clone(),
         date: c.date,
@@ -368,6 +384,7 @@ mod tests {
                 (EliminationRule::NonControllingInterest, l("3200", "S", None, "60")),
             ],
             pairs: Vec::new(),
+            dividends: Vec::new(),
             reserve: Decimal::ZERO,
             nci: Some(NciRow {
                 entity: id("S"),
@@ -432,6 +449,7 @@ mod tests {
             balances: own.get(&id("S")).cloned().unwrap_or_default(),
             lines: Vec::new(),
             pairs: Vec::new(),
+            dividends: Vec::new(),
             reserve: d("60"),
             nci: Some(NciRow { entity: id("S"), nci_share: d("0.2"), profit: d("24"), oci: d("36"), equity: d("180") }),
         };
@@ -451,9 +469,9 @@ mod tests {
     /// balances 100 and the sales with the difference. By IFRS 10.B98 the gain is
     /// 600 - 500 = 100; P's own gain (600 - 300 = 300) is reduced by 200. The trade pair
     /// is not carried: S's payable leaves with S's net assets, P's receivable is then a
-    /// balance with a third party. The sales pair of January to March is carried whole
-    /// (difference line included). The entry: inventory -600, payable +100, capital
-    /// +300, the sales pair +40 - 38 - 2, the gain +200; it sums to 0.
+    /// balance with a third party. The sales pair of January to March is posted again
+    /// whole (difference line included). The entry: inventory -600, payable +100,
+    /// capital +300, the gain +200; it sums to 0.
     #[test]
     fn intercompany_balances_with_the_subsidiary_sold_become_third_party_balances() {
         let w = World::new(&["P", "S"], &[], p("2026-12"));
@@ -496,6 +514,7 @@ mod tests {
                 (EliminationRule::InvestmentAndGoodwill, l("1200", "P", Some("S"), "-300")),
                 (EliminationRule::InvestmentAndGoodwill, l("3000", "S", None, "300")),
             ],
+            dividends: Vec::new(),
             pairs: vec![
                 entry("E0001", vec![l("1650", "P", Some("S"), "-100"), l("2450", "S", Some("P"), "100")]),
                 entry(
@@ -511,24 +530,27 @@ mod tests {
         let disposal = post(&mut j, &cx, &sold, &mut found).unwrap_or_else(|| panic!("no disposal: {found:?}"));
         assert!(found.is_empty(), "{found:?}");
         assert_eq!((disposal.gain, disposal.proceeds), (d("100"), d("600")));
+        assert_eq!(j.entries.len(), 2, "the sale, and the sales pair posted again");
+        assert_eq!(j.entries[1].rule, EliminationRule::Intercompany);
+        assert_eq!(
+            lines(&j.entries[1]),
+            [
+                ("4100".into(), "S".into(), "40".into()),
+                ("5100".into(), "P".into(), "-38".into()),
+                ("6950".into(), "P".into(), "-2".into())
+            ]
+        );
         let mut got = lines(&j.entries[0]);
         got.sort();
-        let mut want: Vec<(String, String, String)> = [
-            ("1500", "S", "-600"),
-            ("2450", "S", "100"),
-            ("3000", "S", "300"),
-            ("4100", "S", "40"),
-            ("5100", "P", "-38"),
-            ("6950", "P", "-2"),
-            ("7300", "P", "200"),
-        ]
-        .iter()
-        .map(|(a, e, v)| ((*a).into(), (*e).into(), (*v).into()))
-        .collect();
+        let mut want: Vec<(String, String, String)> =
+            [("1500", "S", "-600"), ("2450", "S", "100"), ("3000", "S", "300"), ("7300", "P", "200")]
+                .iter()
+                .map(|(a, e, v)| ((*a).into(), (*e).into(), (*v).into()))
+                .collect();
         want.sort();
         assert_eq!(got, want);
         assert!(
-            j.entries[0].description.contains("(1 pairs) stay as balances with a third party"),
+            j.entries[0].description.contains("(1 pair) stay as balances with a third party"),
             "{}",
             j.entries[0].description
         );

@@ -49,15 +49,16 @@ fn step_case() -> Folder {
     f
 }
 
-/// The demo sells NRD-SE on 1 July 2026 (the holding ends on 30 June). Without a row
-/// the close would drop NRD-SE for the whole year: blocking, at the holding's line.
-/// With the row, its intercompany items are no obstacle (they are eliminated to the end
-/// of June and are with a third party after); the row lacks the account for the gain.
+/// The demo sells NRD-SE on 1 October 2026 (the holding ends on 30 September). Without
+/// its row the close would drop NRD-SE for the whole year: blocking, at the holding's
+/// line. Its intercompany items are no obstacle (eliminated to the end of September, with
+/// a third party after); without the account for the gain the row is incomplete.
 #[test]
 fn a_holding_that_ends_in_the_year_needs_a_row_and_a_loss_of_control_needs_its_gain_account() {
     let f = Folder::demo();
+    let row = f.read(CHANGES).lines().nth(1).expect("the demo's sale").to_string();
+    assert!(row.starts_with("2026-10-01,ALD-NL,NRD-SE,-1.00,") && row.contains(",7500,"), "{row}");
     f.write(CHANGES, &format!("{HEADER}\n"));
-    f.replace(HOLDINGS, "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,,", "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,2026-06-30,");
     let line = f.line_of(HOLDINGS, "ALD-NL,NRD-SE");
     let (code, fs) = check(&f, "2026-12");
     assert_eq!(code, 1);
@@ -65,12 +66,12 @@ fn a_holding_that_ends_in_the_year_needs_a_row_and_a_loss_of_control_needs_its_g
     assert_eq!(missing.len(), 1, "{fs:#?}");
     assert_eq!((missing[0]["file"].as_str(), missing[0]["line"].as_u64()), (Some(HOLDINGS), Some(line)));
     assert_eq!(missing[0]["severity"], "blocking");
-    assert!(missing[0]["message"].as_str().unwrap().contains("2026-07-01"), "{:#}", missing[0]);
-    // Before the sale (June) nothing has ended yet.
-    let (_, june) = check(&f, "2026-06");
-    assert!(of_rule(&june, "OwnershipChangeMissing").is_empty(), "{june:#?}");
+    assert!(missing[0]["message"].as_str().unwrap().contains("2026-10-01"), "{:#}", missing[0]);
+    // Before the sale (September) nothing has ended yet.
+    let (_, september) = check(&f, "2026-09");
+    assert!(of_rule(&september, "OwnershipChangeMissing").is_empty(), "{september:#?}");
 
-    f.write(CHANGES, &format!("{HEADER}\n2026-07-01,ALD-NL,NRD-SE,-1.00,5000000,,,,sold\n"));
+    f.write(CHANGES, &format!("{HEADER}\n{}\n", row.replace(",7500,", ",,")));
     let (code, fs) = check(&f, "2026-12");
     assert_eq!(code, 1);
     assert!(of_rule(&fs, "OwnershipChangeMissing").is_empty(), "{fs:#?}");
