@@ -253,7 +253,7 @@ GROUP_ACCOUNTS = [
     ("7300", "Foreign exchange gains", "profit_or_loss", "income", "average", "", ""),
     ("7350", "Foreign exchange losses", "profit_or_loss", "expense", "average", "", ""),
     ("7400", "Dividend income from group entities", "profit_or_loss", "income", "average", "dividend", ""),
-    ("7500", "Gains and losses on disposal of subsidiaries", "profit_or_loss", "income", "average", "", ""),
+    ("7500", "Gains and losses on changes in ownership", "profit_or_loss", "income", "average", "", ""),
     ("8000", "Income tax expense", "profit_or_loss", "expense", "average", "", ""),
     ("9000", "Exchange differences on translating foreign operations", "oci", "income", "average", "", ""),
     ("9100", "Gains on property revaluation", "oci", "income", "average", "", ""),
@@ -363,6 +363,8 @@ HOLDINGS = [
     ("BRW-US", "BRW-MX", "0.70", "0.70", "2019-02-01"),
     ("ALD-NL", "KIS-JP", "0.10", "0.10", "2018-10-01"),
     ("ALD-US", "KIS-JP", "0.70", "0.70", "2018-10-01"),
+    # Control in stages (docs/demo.md): 15% held since 2023, 45% more bought on 2026-04-01.
+    ("ALD-NL", "GLF-BH", "0.15", "0.15", "2023-07-01", "2026-03-31"),
     ("ALD-NL", "GLF-BH", "0.60", "0.60", "2026-04-01"),
     ("ALD-NL", "NRD-SE", "1.00", "1.00", "2014-05-01", NRD_SALE_VALID_TO),
     ("ALD-NL", "HEL-CH", "0.30", "0.30", "2019-07-01"),
@@ -834,7 +836,9 @@ LOAN_EUR = D("20000000.00")  # ALD-NL to ALD-US, EUR, 4.00% a year, interest pai
 LOAN_RATE = D("0.04")
 LOAN_REPAYMENT = ("2026-06", D("2000000.00"))  # repaid on 2026-06-30
 ACQ_LOAN = ("2026-04", D("3000000.00"), D("0.045"))  # ALD-NL bank loan to fund GLF-BH
-GLF_CONSIDERATION = D("3600000.00")  # paid by ALD-NL on 2026-04-01 for 60%
+GLF_CONSIDERATION = D("2700000.00")  # paid by ALD-NL on 2026-04-01 for 45% more (control)
+GLF_HELD_COST = D("600000.00")  # ALD-NL's 15% bought in 2023, an investment at cost
+GLF_HELD_FAIR_VALUE = D("900000.00")  # the 15% at 2026-04-01: 15/60 of the price paid
 
 # Investments at cost in the investor's books (investor currency). The founded or
 # capitalised subsidiaries carry exactly their share of share capital and premium at the
@@ -854,6 +858,7 @@ def investments() -> list[tuple[str, str, str, Decimal]]:
         ("ALD-NL", "KIS-JP", "invest_sub", D("2350000.00")),
         ("ALD-NL", "NRD-SE", "invest_sub", sc_sp("NRD-SE")),
         ("ALD-NL", "HEL-CH", "invest_assoc", D("3100000.00")),
+        ("ALD-NL", "GLF-BH", "invest_sub", GLF_HELD_COST),
         # WSL-PL's capital at the 2021 rate of 0.8580 GBP per EUR.
         ("ALD-UK", "WSL-PL", "invest_sub", q(sc_sp("WSL-PL") * D("0.8580"), "GBP")),
         ("ALD-US", "BRW-US", "invest_sub", D("26000000.00")),
@@ -893,6 +898,14 @@ DELIBERATE = dict(
     fx_fee=dict(buyer="ALD-UK", period="2026-12", buyer_rate=D("0.8400")),
     fx_loan=dict(entity="ALD-US", period="2026-08", rate_period="2026-07"),
 )
+
+
+def in_bhd(eur: Decimal) -> Decimal:
+    """A euro amount of GLF-BH's acquisition in BHD at the 2026-03 closing rate, as
+    acquisitions.csv has it."""
+    x = eur * rate("BHD", "2026-03", "closing")
+    assert x == q(x, "BHD"), x
+    return x
 
 
 def nrd_sale_consideration() -> Decimal:
@@ -1206,7 +1219,7 @@ def simulate():
         if period == ACQ_LOAN[0]:
             L["ALD-NL"].post([("cash", ACQ_LOAN[1]), ("bank_loan", -ACQ_LOAN[1])], "acquisition loan drawn")
             L["ALD-NL"].post([("invest_sub", GLF_CONSIDERATION, "GLF-BH"), ("cash", -GLF_CONSIDERATION)],
-                             "acquisition of 60% of GLF-BH")
+                             "acquisition of 45% more of GLF-BH: control")
         if period == NRD_SALE["period"]:
             cost = L["ALD-NL"].balance("invest_sub", NRD_SALE["entity"])[0]
             gain = NRD_SALE["proceeds"] - cost
@@ -1591,7 +1604,11 @@ def main(argv=None):
     w.csv("entities/ownership_changes.csv",
           ["date", "holder", "owned", "share", "consideration", "fair_value_held", "costs", "gain_account",
            "note"],
-          [[NRD_SALE["date"], "ALD-NL", NRD_SALE["entity"], "-1.00", fmt(nrd_sale_consideration(), "SEK"), "", "",
+          [["2026-04-01", "ALD-NL", "GLF-BH", "0.45", fmt(in_bhd(GLF_CONSIDERATION), "BHD"),
+            fmt(in_bhd(GLF_HELD_FAIR_VALUE), "BHD"), "", NRD_SALE["gain_account"],
+            f"45% more for EUR {GLF_CONSIDERATION}: control; the 15% held since 2023 worth EUR {GLF_HELD_FAIR_VALUE}"
+            " (BHD at the 2026-03 closing rate)"],
+           [NRD_SALE["date"], "ALD-NL", NRD_SALE["entity"], "-1.00", fmt(nrd_sale_consideration(), "SEK"), "", "",
             NRD_SALE["gain_account"],
             f"all of NRD-SE sold for EUR {NRD_SALE['proceeds']} received on the day (SEK at the 2026-09 closing rate)"]])
     w.csv("entities/accounts.csv",

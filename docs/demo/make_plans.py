@@ -108,9 +108,12 @@ def main(argv=None):
     currencies = sorted({r["currency"] for r in rates})
     written = []
     header = ["period", "account", "amount", "counterparty"]
-    # Entities sold in the year: the last month they deliver.
-    sold = {h["owned"]: h["valid_to"][:7] for h in read(os.path.join(root, "entities", "holdings.csv"))
-            if h["valid_to"] and h["valid_to"][:7] in PERIODS}
+    # Entities sold in the year (every holding of them ends, the last in the year): the
+    # last month they deliver.
+    ends = defaultdict(list)
+    for h in read(os.path.join(root, "entities", "holdings.csv")):
+        ends[h["owned"]].append(h["valid_to"])
+    sold = {o: max(v)[:7] for o, v in ends.items() if all(v) and max(v)[:7] in PERIODS}
     for e, ccy in sorted(entities.items()):
         mapping, moves = pl_movements(root, e, pl_accounts)
         # The plans were made before the sale: a sold entity's months after its last one,

@@ -222,9 +222,14 @@ def main(argv=None) -> int:
     last_month: dict[str, str] = {}
     for h in holdings:
         if h["valid_to"] and h["valid_to"][:7] in PERIODS:
-            last_month[h["owned"]] = h["valid_to"][:7]
-            if not any(c["owned"] == h["owned"] and c["holder"] == h["owner"] and D(c["share"]) < 0 for c in changes):
-                fail(f"holding {h['owner']}->{h['owned']} ends on {h['valid_to']} without a sale in ownership_changes.csv")
+            y, m, d = (int(x) for x in h["valid_to"].split("-"))
+            nxt = f"{y}-{m + 1:02d}-01" if d == calendar.monthrange(y, m)[1] and m < 12 else None
+            if not any(c["owned"] == h["owned"] and c["holder"] == h["owner"] and c["date"] == nxt for c in changes):
+                fail(f"holding {h['owner']}->{h['owned']} ends on {h['valid_to']} without a row in ownership_changes.csv")
+    for owned in {h["owned"] for h in holdings}:
+        ends = [h["valid_to"] for h in holdings if h["owned"] == owned]
+        if all(ends) and max(ends)[:7] in PERIODS:
+            last_month[owned] = max(ends)[:7]  # sold: every holding of it ends in the year
 
     def periods_of(e: str) -> list[str]:
         return [p for p in PERIODS if p <= last_month.get(e, PERIODS[-1])]

@@ -281,7 +281,8 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput, fiscal_start: Period) -> Pol
 /// year, so the plan's close does not sell it (it would derecognise the planned net
 /// assets with no proceeds): the holder's holding runs on as it was the day before the
 /// sale, a holding from the date is left out, and so is the sale's row. The comparison
-/// then shows the sale as a scope effect (`comparison`).
+/// then shows the sale as a scope effect (`comparison`). Control obtained in stages is
+/// left out of the plan's close as well (below).
 fn keep_sold(out: &mut Dataset, plan: &PlanInput, fiscal_start: Period) {
     let year_first = fiscal_start.first_day();
     let sold: Vec<OwnershipChange> = out
@@ -300,6 +301,17 @@ fn keep_sold(out: &mut Dataset, plan: &PlanInput, fiscal_start: Period) {
         }
     }
     out.ownership_changes.retain(|c| !sold.contains(c));
+    // A plan holds income and expense only, not the holder's purchase: the
+    // remeasurement of an interest held before control (IFRS 3.42) would be measured
+    // against an investment the plan never paid for. It is a fact of the actuals, and the
+    // walk shows it as the step `step_acquisition`.
+    let steps: Vec<OwnershipChange> = out
+        .ownership_changes
+        .iter()
+        .filter(|c| crate::ownership::classify(out, c).kind == crate::ownership::ChangeKind::StepAcquisition)
+        .cloned()
+        .collect();
+    out.ownership_changes.retain(|c| !steps.contains(c));
 }
 
 /// The subsidiaries the actuals sell in the fiscal year to the period.
