@@ -116,8 +116,12 @@ pub fn at_last_month<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChan
 struct Carrying {
     /// Assets less liabilities in the subsidiary's contribution.
     net_assets: Decimal,
-    /// Goodwill (and any other asset the journal adds for it).
+    /// Goodwill (all of it, the NCI's part too where the NCI was measured at fair
+    /// value).
     goodwill: Decimal,
+    /// The other assets and liabilities the journal adds for it: its fair value
+    /// adjustments less their depreciation and deferred tax (IFRS 10.B98(a)(i)).
+    adjustments: Decimal,
     /// The NCI in it (credit positive).
     nci: Decimal,
     /// The holder's investment eliminated then, and its account.
@@ -178,8 +182,10 @@ fn carrying(cx: &Context, sold: &AtLastMonth) -> Result<Carrying, String> {
     }
     for (rule, l) in &sold.lines {
         if &l.entity == e {
-            if asset_or_liability(&l.account) {
+            if l.account == cx.roles.goodwill {
                 k.goodwill += l.amount;
+            } else if asset_or_liability(&l.account) {
+                k.adjustments += l.amount;
             } else if l.account == cx.roles.non_controlling_interest {
                 k.nci -= l.amount;
             } else {
@@ -252,7 +258,7 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
     let nci_share = sold.nci.as_ref().map(|n| n.nci_share).unwrap_or_default();
     let reserve_nci = cx.round(sold.reserve * nci_share);
     let recycled = gross - reserve_nci;
-    let adjustment = fair_value + k.nci - k.net_assets - k.goodwill + k.investment - investment_now;
+    let adjustment = fair_value + k.nci - k.net_assets - k.goodwill - k.adjustments + k.investment - investment_now;
     let mut lines: Vec<EntryLine> = Vec::new();
     for ((a, cp), v) in &sold.balances {
         if cx.chart.get(a).is_some_and(|d| matches!(d.class, AccountClass::Asset | AccountClass::Liability)) {
@@ -277,7 +283,13 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         )));
         return None;
     }
-    let gain = proceeds + fair_value + k.nci - k.net_assets - k.goodwill;
+    let gain = proceeds + fair_value + k.nci - k.net_assets - k.goodwill - k.adjustments;
+    // Shown only where there are any, so that the usual description stays as it was.
+    let adjusted = if k.adjustments.is_zero() {
+        String::new()
+    } else {
+        format!(" - fair value adjustments {}", money::format_amount(k.adjustments, cx.minor))
+    };
     let third_party = if k.third_party == 0 {
         String::new()
     } else {
@@ -289,7 +301,7 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         holder.clone(),
         vec![holder.clone(), e.clone()],
         format!(
-            "{e} sold by {holder} on {}, consolidated to {}: proceeds {} + fair value retained {} + NCI {} - net assets {} - goodwill {} = gain {} (IFRS 10.B98); translation reserve reclassified {} (IAS 21.48), NCI's share {} derecognised (IAS 21.48B){third_party}",
+            "{e} sold by {holder} on {}, consolidated to {}: proceeds {} + fair value retained {} + NCI {} - net assets {} - goodwill {}{adjusted} = gain {} (IFRS 10.B98); translation reserve reclassified {} (IAS 21.48), NCI's share {} derecognised (IAS 21.48B){third_party}",
             c.date,
             sold.last_month,
             money::format_amount(proceeds, cx.minor),
@@ -566,5 +578,83 @@ mod tests {
         assert!(post(&mut Journal::default(), &cx, &mixed, &mut found).is_none());
         assert_eq!(found.len(), 1, "{found:?}");
         assert!(found[0].message.contains("mixes balances and income or expense"), "{found:?}");
+    }
+    /// NCI at fair value and a fair value adjustment (IFRS 10.B98(a)). P (EUR) bought
+    /// 60% of S (USD, 2 USD per EUR) for 300 when S's share capital was 400 and its
+    /// inventory was worth 50 more than its books: net assets 450, NCI at fair value
+    /// 300, goodwill 300 + 300 - 450 = 150, all of it in the group (the NCI's part
+    /// too). By 28 February 10 of the uplift is expensed, and the NCI holds 40% of the
+    /// post-acquisition equity 200 + 100 - 10 = 290: 116, so the NCI is 300 + 116 =
+    /// 416. P sells all of it on 15 March for USD 1,200 (EUR 600). S's own net assets
+    /// 700; the group derecognises them, goodwill 150 whole, the uplift's 50 - 10 = 40
+    /// and the NCI 416: gain 600 + 416 - 700 - 150 - 40 = 126. P's own gain (600 - 300
+    /// = 300) is reduced by 174: 416 - 700 - 150 - 40 + 300 = -174. The entry:
+    /// inventory -700, the carried capital +400, expense +10 and retained earnings +116,
+    /// the gain +174; it sums to 0.
+    #[test]
+    fn nci_at_fair_value_and_a_fair_value_adjustment_leave_with_the_subsidiary() {
+        let w = World::new(&["P", "S"], &[], p("2026-03"));
+        let cx = w.context(p("2026-03"), p("2026-01"), super::super::aggregate::Balances::default());
+        let change = OwnershipChange {
+            date: chrono::NaiveDate::from_ymd_opt(2026, 3, 15).unwrap_or_default(),
+            holder: id("P"),
+            owned: id("S"),
+            share: d("-0.6"),
+            consideration: d("1200"),
+            fair_value_held: None,
+            costs: Decimal::ZERO,
+            gain_account: Some(acct("7300")),
+            note: String::new(),
+            source: Source::file("entities/ownership_changes.csv"),
+        };
+        let own = balances(&[
+            ("S", "1500", None, "700"),
+            ("S", "3000", None, "-400"),
+            ("S", "3200", None, "-200"),
+            ("S", "4000", None, "-100"),
+        ]);
+        let l = |a: &str, e: &str, cp: Option<&str>, v: &str| line(&acct(a), &id(e), cp.map(id).as_ref(), d(v));
+        let sold = AtLastMonth {
+            change: &change,
+            last_month: p("2026-02"),
+            contributions: DataFrame::empty(),
+            balances: own.get(&id("S")).cloned().unwrap_or_default(),
+            lines: vec![
+                (EliminationRule::InvestmentAndGoodwill, l("1200", "P", Some("S"), "-300")),
+                (EliminationRule::InvestmentAndGoodwill, l("3000", "S", None, "400")),
+                (EliminationRule::InvestmentAndGoodwill, l("1100", "S", None, "150")),
+                (EliminationRule::InvestmentAndGoodwill, l("1500", "S", None, "50")),
+                (EliminationRule::InvestmentAndGoodwill, l("3900", "S", None, "-300")),
+                (EliminationRule::FairValueDepreciation, l("5000", "S", None, "10")),
+                (EliminationRule::FairValueDepreciation, l("1500", "S", None, "-10")),
+                (EliminationRule::NonControllingInterest, l("3900", "S", None, "-116")),
+                (EliminationRule::NonControllingInterest, l("3200", "S", None, "116")),
+            ],
+            pairs: Vec::new(),
+            dividends: Vec::new(),
+            reserve: Decimal::ZERO,
+            nci: None,
+        };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let disposal = post(&mut j, &cx, &sold, &mut found).unwrap_or_else(|| panic!("no disposal: {found:?}"));
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!((disposal.nci_derecognised, disposal.gain), (d("416"), d("126")));
+        let mut got = lines(&j.entries[0]);
+        got.sort();
+        let mut want: Vec<(String, String, String)> = [
+            ("1500", "S", "-700"),
+            ("3000", "S", "400"),
+            ("5000", "S", "10"),
+            ("3200", "S", "116"),
+            ("7300", "P", "174"),
+        ]
+        .iter()
+        .map(|(a, e, v)| ((*a).into(), (*e).into(), (*v).into()))
+        .collect();
+        want.sort();
+        assert_eq!(got, want);
+        let text = &j.entries[0].description;
+        assert!(text.contains("- goodwill 150.00 - fair value adjustments 40.00 = gain 126.00"), "{text}");
     }
 }
