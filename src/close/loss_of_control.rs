@@ -284,18 +284,7 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         return None;
     }
     let gain = proceeds + fair_value + k.nci - k.net_assets - k.goodwill - k.adjustments;
-    // Shown only where there are any, so that the usual description stays as it was.
-    let adjusted = if k.adjustments.is_zero() {
-        String::new()
-    } else {
-        format!(" - fair value adjustments {}", money::format_amount(k.adjustments, cx.minor))
-    };
-    let third_party = if k.third_party == 0 {
-        String::new()
-    } else {
-        let pairs = if k.third_party == 1 { "1 pair".to_string() } else { format!("{} pairs", k.third_party) };
-        format!("; its intercompany balances at {} ({pairs}) stay as balances with a third party", sold.last_month)
-    };
+    let (adjusted, third_party) = described(cx, sold, &k);
     j.post(
         EliminationRule::LossOfControl,
         holder.clone(),
@@ -315,18 +304,7 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         ),
         lines,
     );
-    // The pairs of income and expense and the dividends of the months consolidated stay
-    // eliminated, each its own entry as it was, so that they read (and are classified,
-    // by segment and in the statement of cash flows) as what they are.
-    for x in k.flow_pairs.iter().chain(&sold.dividends) {
-        j.post(
-            x.rule,
-            x.posted_at.clone(),
-            x.entities.clone(),
-            format!("{}: of the months to {}, before the sale of {e}", x.description, sold.last_month),
-            x.lines.clone(),
-        );
-    }
+    repost(j, sold, &k);
     Some(Disposal {
         entity: e.clone(),
         date: c.date,
@@ -337,6 +315,40 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         gain,
         proceeds,
     })
+}
+
+/// The parts of the entry's description shown only where there are any (so that the
+/// usual description stays as it was): the fair value adjustments derecognised, and the
+/// intercompany balance pairs left with a third party.
+fn described(cx: &Context, sold: &AtLastMonth, k: &Carrying) -> (String, String) {
+    let adjusted = if k.adjustments.is_zero() {
+        String::new()
+    } else {
+        format!(" - fair value adjustments {}", money::format_amount(k.adjustments, cx.minor))
+    };
+    let third_party = if k.third_party == 0 {
+        String::new()
+    } else {
+        let pairs = if k.third_party == 1 { "1 pair".to_string() } else { format!("{} pairs", k.third_party) };
+        format!("; its intercompany balances at {} ({pairs}) stay as balances with a third party", sold.last_month)
+    };
+    (adjusted, third_party)
+}
+
+/// The pairs of income and expense and the dividends of the months consolidated stay
+/// eliminated, each its own entry as it was, so that they read (and are classified, by
+/// segment and in the statement of cash flows) as what they are.
+fn repost(j: &mut Journal, sold: &AtLastMonth, k: &Carrying) {
+    let e = &sold.change.owned;
+    for x in k.flow_pairs.iter().chain(&sold.dividends) {
+        j.post(
+            x.rule,
+            x.posted_at.clone(),
+            x.entities.clone(),
+            format!("{}: of the months to {}, before the sale of {e}", x.description, sold.last_month),
+            x.lines.clone(),
+        );
+    }
 }
 
 /// The NCI row of a subsidiary sold: its share of profit and OCI to the date, no NCI in
