@@ -393,6 +393,11 @@ fn demo_acquisition_and_nci_dividend() {
     // (its remeasurement is no cash flow, IAS 7.39-40).
     assert_eq!(acq["consideration"], "2700000.00", "paid in cash on 2026-04-01 (docs/demo.md)");
     assert_eq!(lines(&v)["acquisition_of_subsidiaries"], dec(&acq["cash_acquired"]) - d("2700000.00"));
+    // The remeasurement of the 15% held, 900,000 - 600,000, is in profit before tax
+    // (which equals that of profit or loss) and taken out as non-cash (IFRS 3.42).
+    assert_eq!(lines(&v)["remeasurement_gain"], d("-300000.00"));
+    let pbt = v["statements"]["profit_or_loss"]["lines"].as_array().unwrap().iter().find(|l| l["line"] == "PBT");
+    assert_eq!(lines(&v)["profit_before_tax"], dec(&pbt.unwrap()["amount"]));
     let v = close(f.path(), "2026-10", "month", &[]);
     let rates = std::fs::read_to_string(crate::support::repo().join("rates/monthly.csv")).expect("rates");
     let average = rates
