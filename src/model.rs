@@ -591,6 +591,17 @@ pub struct LongTermInterest {
     pub source: Source,
 }
 
+/// A subsidiary's named reserve at the acquisition date, from
+/// `entities/reserves_at_acquisition.csv`: the reserve's balance then, in the
+/// subsidiary's functional currency, as in its books (a credit negative).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ReserveAtAcquisition {
+    pub owned: EntityId,
+    pub account: GroupAccount,
+    pub amount: Decimal,
+    pub source: Source,
+}
+
 /// What a fiscal year's close brings forward from the prior year's close in the same
 /// data folder, besides the balances (`years`): amounts that a rule counts from the
 /// opening of the first year the folder holds, so that the close at a year end and the

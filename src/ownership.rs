@@ -338,11 +338,12 @@ fn step_acquisition_needs(
     out
 }
 
-/// What a step acquisition from an associate or joint venture needs in the fiscal year
-/// of control, besides what every step acquisition needs: the close runs the equity
-/// method to the month end before control (`close::step_acquisition`) and reclassifies
-/// the investor's share of the associate's OCI, the translation reserve to profit or
-/// loss (IAS 28.22(c)). Each reason it cannot is returned.
+/// What a change that ends the equity method needs in its fiscal year (a step
+/// acquisition from an associate or joint venture, or its sale), besides what the kind
+/// of change needs: the close runs the equity method to the month end before the date
+/// (`close::step_acquisition::associate_before`) and reclassifies the investor's share
+/// of the associate's OCI, the translation reserve to profit or loss (IAS 28.22(c)).
+/// Each reason it cannot is returned.
 fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
     let c = x.change;
     let mut why = Vec::new();
@@ -368,15 +369,20 @@ fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
     if ds.impairments.iter().any(|i| i.owned == c.owned) {
         why.push("goodwill_impairments.csv names it: an impairment of the associate and one of the subsidiary's goodwill are not told apart yet".into());
     }
-    if uses_other_reserves(ds, &c.owned) {
-        why.push("it has OCI in a reserve other than the translation reserve (a revaluation surplus): the transfer of the investor's share to retained earnings (IAS 28.22(c), IAS 16.41) is not posted yet".into());
+    // A revaluation surplus of the year is transferred to retained earnings, not
+    // reclassified; the earlier years' share is in retained earnings already, unless the
+    // prior year's close in the folder brought it forward in the reserve, in one amount
+    // with the exchange differences.
+    let brought = ds.brought_forward.equity_method_oci.get(&(c.holder.clone(), c.owned.clone()));
+    if brought.is_some_and(|v| !v.is_zero()) && uses_other_reserves(ds, &c.owned) {
+        why.push("it has OCI in a reserve other than the translation reserve (a revaluation surplus), and the prior year's close brings forward the investor's share of its OCI in one amount: the part to retained earnings and the part to profit or loss (IAS 28.22(c)) are not told apart".into());
     }
     if has_counterparty_lines(ds, &c.owned)
         || is_named_by_others(ds, &c.owned)
         || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
         || ds.net_investments.iter().any(|n| n.entity == c.owned || n.counterparty == c.owned)
     {
-        why.push("dividends, unrealised profit or other items between the group and the associate before control are not split between the equity method and the consolidation yet".into());
+        why.push(format!("dividends, unrealised profit or other items between the group and the associate are not split at {} between the equity method and what follows yet", c.date));
     }
     why
 }
@@ -429,6 +435,7 @@ fn associate_sale_needs(
     out
 }
 
+/// Entity ids for a message: `A, B`.
 fn join(ids: &BTreeSet<EntityId>) -> String {
     ids.iter().map(EntityId::as_str).collect::<Vec<_>>().join(", ")
 }

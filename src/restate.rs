@@ -203,7 +203,8 @@ impl AcquisitionUnit {
 /// period or the opening are missing is left out: `findings` blocks the close on them.
 pub fn acquisition_units(ds: &Dataset, period: Period, fiscal_start: Period) -> BTreeMap<EntityId, AcquisitionUnit> {
     let mut out = BTreeMap::new();
-    for a in &ds.acquisitions {
+    // The record of the close's time, where an entity has two (`acquisition_records`).
+    for a in acquisition_records(&ds.acquisitions, period.last_day()).into_values() {
         let Some(e) = ds.entity(&a.owned) else { continue };
         let Some(from) = e.hyperinflationary_from else { continue };
         if from > period || e.currency == ds.settings.presentation_currency {
@@ -436,15 +437,16 @@ pub fn findings(
 /// ([`AcquisitionUnit`]), which needs that month's index (a missing one is
 /// `PriceIndexMissing`); acquired in the fiscal year, its results before control restated
 /// on too. Blocking (`RestatementUnsupported`): an entity equity-accounted or consolidated
-/// proportionately, an acquisition in a fiscal year in which hyperinflation begins
-/// after its start, a goodwill impairment, a change in ownership in the year.
+/// proportionately, hyperinflation beginning after the first month of the fiscal year, a
+/// goodwill impairment, a change in ownership in the year.
 fn acquisition_findings(
     ds: &Dataset,
     e: &Entity,
     (fiscal_start, last): (Period, Period),
     method_of: &dyn Fn(&EntityId) -> Option<Method>,
 ) -> Vec<Finding> {
-    let Some(a) = ds.acquisitions.iter().find(|a| a.owned == e.id) else { return Vec::new() };
+    let records = acquisition_records(&ds.acquisitions, last.last_day());
+    let Some(a) = records.get(&e.id).copied() else { return Vec::new() };
     let action = "close without the entity (or without `hyperinflationary_from`) and restate its contribution outside tessera until the close supports it";
     let unsupported = |why: String| {
         Finding::new(
@@ -466,13 +468,15 @@ fn acquisition_findings(
         ))),
         Some(Method::Full) | Some(Method::None) | None => {}
     }
-    // Acquired in the year: its results before control are moved from the restated
-    // balances of the month before control, which are in that month's unit only when
-    // the whole year is restated (`close/pre_acquisition.rs`).
-    if Period::of_date(a.date) >= fiscal_start && e.hyperinflationary_from.is_some_and(|h| h > fiscal_start) {
+    // Hyperinflation beginning after the year's first month: the entity's own equity is
+    // restated from the month before it began (its opening cannot carry the restatement
+    // from the dates the equity was contributed, IAS 29.34), while the equity at
+    // acquisition it is eliminated against is restated from the acquisition; and results
+    // before control in the year would be restated partly from their months and partly
+    // from the start of hyperinflation (`close/pre_acquisition.rs`).
+    if let Some(h) = e.hyperinflationary_from.filter(|h| *h > fiscal_start) {
         out.push(unsupported(format!(
-            "it is acquired in the fiscal year from {fiscal_start} and hyperinflationary only from {} of it: its results before control would have to be restated partly from the month they were recorded and partly from the start of hyperinflation",
-            e.hyperinflationary_from.map(|h| h.to_string()).unwrap_or_default()
+            "it is hyperinflationary only from {h}, after the start of the fiscal year from {fiscal_start}: its own equity is restated from then, its equity at acquisition from the acquisition (IAS 29.24-25, 29.34), and the two would not agree"
         )));
     }
     let impaired = !a.impairment.is_zero() || ds.impairments.iter().any(|i| i.owned == e.id);
@@ -837,28 +841,32 @@ mod tests {
         assert_eq!(rules(&ds, &full), [Rule::RestatementUnsupported]);
         ds.acquisitions[0].impairment = Decimal::ZERO;
         // Acquired in the year (its month's index, 2026-01's, is there): supported when
-        // the whole year is restated, blocking when hyperinflation begins after its start.
+        // the whole year is restated.
         let july = ds.acquisitions[0].date;
         ds.acquisitions[0].date = chrono::NaiveDate::from_ymd_opt(2026, 2, 1).unwrap();
         assert_eq!(rules(&ds, &full), []);
+        ds.acquisitions[0].date = july;
+        // Hyperinflation beginning after the year's first month blocks, whenever the
+        // entity was acquired: its own equity is restated from then only.
         let later = Entity { hyperinflationary_from: Some(p("2026-02")), ..e.clone() };
         assert_eq!(rules_of(&ds, &later, &full), [Rule::RestatementUnsupported]);
-        ds.acquisitions[0].date = july;
+        let at_the_start = Entity { hyperinflationary_from: Some(p("2026-01")), ..e.clone() };
+        assert_eq!(rules_of(&ds, &at_the_start, &full), []);
         // Without the acquisition month's index nothing is restated, and the close blocks.
         ds.price_indices.retain(|x| x.period != p("2025-06"));
         assert_eq!(rules(&ds, &full), [Rule::PriceIndexMissing]);
         assert!(acquisition_units(&ds, p("2026-02"), p("2026-01")).is_empty());
-        // Hyperinflationary only from 2026-02: the opening carried the acquisition as
-        // recorded.
+        // Hyperinflationary from 2026-01, the year's start: the opening (2025-12) carried
+        // the acquisition as recorded.
         ds.price_indices.push(PriceIndex {
             currency: e.currency,
             period: p("2025-06"),
             index: d("80"),
             source: Source::file("rates/price_index.csv"),
         });
-        ds.entities.iter_mut().filter(|x| x.id == s).for_each(|x| x.hyperinflationary_from = Some(p("2026-02")));
+        ds.entities.iter_mut().filter(|x| x.id == s).for_each(|x| x.hyperinflationary_from = Some(p("2026-01")));
         let units = acquisition_units(&ds, p("2026-02"), p("2026-01"));
         assert_eq!(units.get(&s).map(|u| u.opening), Some(None));
-        assert!(acquisition_units(&ds, p("2026-01"), p("2026-01")).is_empty(), "not yet hyperinflationary");
+        assert!(acquisition_units(&ds, p("2025-12"), p("2026-01")).is_empty(), "not yet hyperinflationary");
     }
 }

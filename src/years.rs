@@ -83,6 +83,7 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
         .map(|a| &a.owned)
         .collect();
     ds.uplifts.retain(|u| !acquired_later.contains(&u.owned));
+    ds.reserves_at_acquisition.retain(|r| !acquired_later.contains(&r.owned));
     // A top-side entry belongs to the year of its month (its first row's, so that an
     // entry whose rows disagree stays whole for validation to name): entries of another
     // year the folder holds are that year's.
@@ -713,7 +714,7 @@ fn compare_delivered(full: &Dataset, d: &Derived, delivered: &DataFrame, start: 
             format!("its closing balance of the fiscal year starting {prior_year} is {}", fmt(closing))
         } else {
             format!(
-                "its closing balance of the fiscal year starting {prior_year} is {}: the balance {} plus the year's profit or loss and OCI closed into retained earnings {}",
+                "its closing balance of the fiscal year starting {prior_year} is {}: the balance {} plus the year's profit or loss and OCI closed into it {}",
                 fmt(closing),
                 fmt(closing - closed),
                 fmt(closed)

@@ -39,6 +39,7 @@ pub fn data_findings(
         let a = acq.get(&e.id).copied();
         out.extend(investment::findings(e, a, held.contains(&e.id), currency, fiscal_start, roles, &statement_of));
     }
+    out.extend(investment::reserve_findings(ds));
     for e in s.entities().iter().filter(|e| e.method == Method::Proportionate && held.contains(&e.id)) {
         out.push(investment::joint_operation_held(&e.id));
     }

@@ -499,7 +499,8 @@ fn split_over_interests(cost: Decimal, change: Decimal, interests: &[LongTerm]) 
 
 /// What `long_term_interests.csv` names that the close cannot use (blocking): a holder
 /// that is not consolidated, an investee that is not equity-accounted at the period, an
-/// account that is not a balance-sheet asset of the chart, and a row given twice.
+/// account that is not a balance-sheet asset of the chart, a row given twice, and an
+/// investee whose ownership changes (`ownership_changes.csv`: not carried through).
 pub fn long_term_findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>) -> Vec<Finding> {
     let mut out = Vec::new();
     let mut seen = std::collections::BTreeSet::new();
@@ -512,6 +513,13 @@ pub fn long_term_findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<
             Some(format!("{} is not an asset account of entities/accounts.csv", r.account))
         } else if !seen.insert((&r.holder, &r.investee, &r.account)) {
             Some("the row is given twice".to_string())
+        } else if ds.ownership_changes.iter().any(|c| c.owned == r.investee) {
+            // A sale or a step to control carries the equity method's entry over
+            // (`step_acquisition.rs`) without the reduction of the long-term interest.
+            Some(format!(
+                "{} has a change in ownership in ownership_changes.csv, which the close does not carry a long-term interest through",
+                r.investee
+            ))
         } else {
             None
         };
@@ -660,21 +668,21 @@ pub fn post_disposal(
         lines.push(line(account, holder, Some(e), fair_value - remaining));
     }
     lines.push(line(gain_account, holder, Some(e), -adjustment));
-    lines.push(line(&cx.roles.translation_difference, holder, Some(e), share.oci));
-    lines.push(line(gain_account, holder, Some(e), -share.oci));
+    lines.extend(super::step_acquisition::reclassified(cx, c, gain_account, share.oci, before.revaluation));
     let m = |x: Decimal| money::format_amount(x, cx.minor);
     j.post(
         EliminationRule::EquityMethod,
         holder.clone(),
         vec![holder.clone(), e.clone()],
         format!(
-            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss (IAS 28.22(c))",
+            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss, {} of revaluation to retained earnings (IAS 28.22(c))",
             c.date,
             before.last_month,
             m(share.since),
             m(fair_value),
             m(adjustment),
-            m(share.oci)
+            m(share.oci - before.revaluation),
+            m(before.revaluation)
         ),
         lines,
     );
@@ -1091,6 +1099,7 @@ mod tests {
             change: &change,
             last_month: p("2026-03"),
             lines: vec![l("1300", "90"), l("4900", "-45"), l("9000", "-15"), l("3200", "-24"), l("3300", "-6")],
+            revaluation: Decimal::ZERO,
         };
         let (mut j, mut found) = (Journal::default(), Vec::new());
         post_disposal(&mut j, &cx, &before, &mut found);

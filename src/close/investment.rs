@@ -48,6 +48,8 @@ pub struct Records<'r> {
     pub uplifts: &'r [Uplift],
     /// The goodwill impairments by month, per entity (`impairment::dated`).
     pub impairments: BTreeMap<EntityId, Vec<Dated>>,
+    /// The named reserves' balances at acquisition of `reserves_at_acquisition.csv`.
+    pub reserves: &'r [ReserveAtAcquisition],
     /// The IAS 29 restatement of each acquired hyperinflationary subsidiary
     /// (`restate::acquisition_units`).
     pub units: BTreeMap<EntityId, AcquisitionUnit>,
@@ -382,6 +384,8 @@ struct Acquired<'c, 'a> {
     /// Its goodwill impairments by month; empty when the record's undated columns hold
     /// them.
     dated: Vec<Dated>,
+    /// Its named reserves' balances at acquisition given in `reserves_at_acquisition.csv`.
+    reserves: Vec<ReserveAtAcquisition>,
     /// A hyperinflationary subsidiary's restatement: `a` and `uplifts` are then in the
     /// unit of the period end ([`restated`]), and `recorded` holds the record's net
     /// assets in its currency and in the presentation currency (the acquisition date's
@@ -547,7 +551,8 @@ pub fn post(
             None => (a, uplifts),
         };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit, recorded };
+        let reserves = records.reserves.iter().filter(|r| r.owned == e.id).cloned().collect();
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, reserves, unit, recorded };
         post_one(j, &sub, invest, months, &mut nci);
     }
     found.extend(
@@ -695,7 +700,18 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
     let mut capital = Decimal::ZERO;
-    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id) {
+    // A restated subsidiary (IAS 29) carries its equity at acquisition in the unit of
+    // each period end, which neither a historical amount nor one brought forward is:
+    // its reserves stay at their balances (a row for it is `reserve_findings`').
+    let none = BTreeMap::new();
+    let (given, carried): (Vec<(GroupAccount, Decimal)>, _) = match sub.unit {
+        Some(_) => (Vec::new(), &none),
+        None => (
+            sub.reserves.iter().map(|r| (r.account.clone(), sub.at_hist(r.amount))).collect(),
+            &cx.brought_forward.reserves_at_acquisition,
+        ),
+    };
+    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id, &given, carried) {
         if !reserves.contains(&&acct) && !amount.is_zero() {
             lines.push(line(&acct, &e.id, cp.as_ref(), -amount));
             capital += -amount;
@@ -711,29 +727,85 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
 /// The subsidiary's equity balances other than its results that the entry takes as
 /// equity at acquisition (account, counterparty, balance, a credit negative): each at its
 /// balance, except a named reserve (an equity account the chart's `reserve` column
-/// names, other than the translation reserve) whose balance at acquisition a prior
-/// year-end close brought forward. Such a reserve has since taken the subsidiary's OCI
-/// closed into it year by year (`years.rs`), which is post-acquisition: the group's,
-/// shared with the NCI (IFRS 10.B94, IAS 1.106(d)), not equity acquired. Without a
-/// prior year in the folder the reserve's balance is taken as it was at acquisition,
-/// as for share capital.
-fn at_acquisition_balances(cx: &Context, e: &EntityId) -> Vec<(GroupAccount, Option<EntityId>, Decimal)> {
-    let carried = &cx.brought_forward.reserves_at_acquisition;
+/// names, other than the translation reserve) whose balance at acquisition is known:
+/// `given` by `reserves_at_acquisition.csv` (in the presentation currency at the
+/// acquisition date's rate), else brought forward from a prior year-end close. Such a
+/// reserve has since taken the subsidiary's OCI closed into it year by year
+/// (`years.rs`), which is post-acquisition: the group's, shared with the NCI (IFRS
+/// 10.B94, IAS 1.106(d)), not equity acquired. Otherwise the reserve's balance is taken
+/// as it was at acquisition, as for share capital.
+fn at_acquisition_balances(
+    cx: &Context,
+    e: &EntityId,
+    given: &[(GroupAccount, Decimal)],
+    carried: &BTreeMap<(EntityId, GroupAccount), Decimal>,
+) -> Vec<(GroupAccount, Option<EntityId>, Decimal)> {
+    let known = |acct: &GroupAccount| {
+        given.iter().find(|(a, _)| a == acct).map(|x| x.1).or_else(|| carried.get(&(e.clone(), acct.clone())).copied())
+    };
     let mut out: Vec<(GroupAccount, Option<EntityId>, Decimal)> = cx
         .balances_of(e)
         .filter(|((acct, _), _)| cx.is_equity(acct))
         .map(|((acct, cp), amount)| {
             let at_acquisition = match cp {
-                None => carried.get(&(e.clone(), acct.clone())).copied().unwrap_or(*amount),
+                None => known(acct).unwrap_or(*amount),
                 Some(_) => *amount,
             };
             (acct.clone(), cp.clone(), at_acquisition)
         })
         .collect();
-    // A reserve brought forward that the subsidiary no longer shows a balance on.
-    for ((_, acct), amount) in carried.iter().filter(|((owned, _), _)| owned == e) {
+    // A reserve known at acquisition that the subsidiary no longer shows a balance on.
+    let named = given.iter().map(|(a, _)| a).chain(carried.keys().filter(|(owned, _)| owned == e).map(|(_, a)| a));
+    for acct in named.collect::<BTreeSet<_>>() {
         if !out.iter().any(|(a, cp, _)| a == acct && cp.is_none()) {
-            out.push((acct.clone(), None, *amount));
+            out.push((acct.clone(), None, known(acct).unwrap_or_default()));
+        }
+    }
+    out
+}
+
+/// What `reserves_at_acquisition.csv` gives that the close cannot use (blocking): a row
+/// for an entity without an acquisition record, on an account that is not a named
+/// reserve (an equity account an OCI account's `reserve` names, other than the
+/// translation reserve), given twice, or of a hyperinflationary entity. `check` raises
+/// the same.
+pub fn reserve_findings(ds: &crate::load::Dataset) -> Vec<Finding> {
+    let tr = &ds.settings.accounts.translation_reserve;
+    let named: BTreeSet<&GroupAccount> =
+        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).filter(|r| *r != tr).collect();
+    let mut seen = BTreeSet::new();
+    let mut out = Vec::new();
+    for r in &ds.reserves_at_acquisition {
+        let problem = if !ds.acquisitions.iter().any(|a| a.owned == r.owned) {
+            Some((Rule::AcquisitionMissing, format!("{} has no row in entities/acquisitions.csv", r.owned)))
+        } else if !named.contains(&r.account) {
+            Some((
+                Rule::AccountInvalid,
+                format!("{} is not a reserve that the `reserve` column of entities/accounts.csv names", r.account),
+            ))
+        } else if !seen.insert((&r.owned, &r.account)) {
+            Some((Rule::ValueInvalid, "the row is given twice".to_string()))
+        } else if ds.entity(&r.owned).is_some_and(|x| x.hyperinflationary_from.is_some()) {
+            Some((
+                Rule::ValueInvalid,
+                format!(
+                    "{} has a hyperinflationary functional currency: its equity at acquisition is restated (IAS 29), and a reserve's balance given at acquisition is not supported for it",
+                    r.owned
+                ),
+            ))
+        } else {
+            None
+        };
+        if let Some((rule, problem)) = problem {
+            out.push(
+                Finding::new(
+                    rule,
+                    format!("reserve {} of {} at acquisition: {problem}", r.account, r.owned),
+                    "give one row per acquired subsidiary and named reserve (a revaluation surplus, say), with the reserve's balance at the acquisition date as in its books",
+                )
+                .at(&r.source)
+                .entity(&r.owned),
+            );
         }
     }
     out
@@ -909,7 +981,7 @@ mod tests {
     /// IFRS 10.B94): of the net assets 500, capital 300 + reserve 100 leave 100 from
     /// retained earnings. Without the brought-forward amount (the folder's first year)
     /// the reserve's whole balance is taken as at acquisition: 150, and 50 from
-    /// retained earnings.
+    /// retained earnings; `reserves_at_acquisition.csv` can give the 100 instead.
     #[test]
     fn a_named_reserve_is_eliminated_at_its_balance_at_acquisition() {
         let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
@@ -921,15 +993,25 @@ mod tests {
         let bal =
             balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-300"), ("S", "3400", None, "-150")]);
         let cx = w.context(p("2026-06"), p("2026-01"), bal);
-        let equity_lines = |cx: &Context| {
+        let equity_lines_given = |cx: &Context, given: &[ReserveAtAcquisition]| {
             let mut j = Journal::default();
-            let records = Records::default();
+            let records = Records { reserves: given, ..Records::default() };
             let a = [acquisition("1000", "1000", "500")];
             post(&mut j, cx, &a, &investments(cx), &Default::default(), &records, &mut Vec::new());
             lines(&j.entries[0]).into_iter().filter(|l| l.0.starts_with('3') && l.0 != "3900").collect::<Vec<_>>()
         };
+        let equity_lines = |cx: &Context| equity_lines_given(cx, &[]);
         let s = |a: &str, x: &str| (a.to_string(), "S".to_string(), x.to_string());
         assert_eq!(equity_lines(&cx), [s("3000", "300"), s("3400", "150"), s("3200", "50")]);
+        // Given in reserves_at_acquisition.csv as USD -200 in S's books: EUR 100 at the
+        // acquisition date's 2 USD per EUR (net assets 1,000 for 500).
+        let given = [ReserveAtAcquisition {
+            owned: id("S"),
+            account: acct("3400"),
+            amount: d("-200"),
+            source: Source::file("entities/reserves_at_acquisition.csv"),
+        }];
+        assert_eq!(equity_lines_given(&cx, &given), [s("3000", "300"), s("3400", "100"), s("3200", "100")]);
         let carried = BroughtForward {
             reserves_at_acquisition: BTreeMap::from([((id("S"), acct("3400")), d("-100"))]),
             ..BroughtForward::default()
@@ -1010,6 +1092,7 @@ mod tests {
             let records = Records {
                 uplifts: &[],
                 impairments: super::super::impairment::dated(&cx, &rows, rates),
+                reserves: &[],
                 units: BTreeMap::new(),
             };
             let mut j = Journal::default();
@@ -1086,7 +1169,7 @@ mod tests {
             expense: acct("8000"),
         };
         let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
-        let records = Records { uplifts: &all, impairments: BTreeMap::new(), units: BTreeMap::new() };
+        let records = Records { uplifts: &all, impairments: BTreeMap::new(), reserves: &[], units: BTreeMap::new() };
         let mut j = Journal::default();
         let mut found = Vec::new();
         let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);

@@ -203,10 +203,15 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let months = investment::investment_months(t, &cx, &invest)?;
     let rates = fair_value::ExpenseRates::of(ds);
     let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
-    let records =
-        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates), units };
+    let records = investment::Records {
+        uplifts: &uplifts,
+        impairments: impairment::dated(&cx, &ds.impairments, &rates),
+        reserves: &ds.reserves_at_acquisition,
+        units,
+    };
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
     findings.extend(fair_value_findings(ds, &cx));
+    findings.extend(investment::reserve_findings(ds));
     findings.extend(impairment_findings(ds, &cx));
     findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
     fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, (&rates, &records.units));

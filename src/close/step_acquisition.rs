@@ -19,26 +19,29 @@
 //! carries them (the share of profit to that month end, of OCI, of earlier years), so
 //! the carrying amount remeasured is the equity-method one: cost plus the share since
 //! significant influence (IFRS 3.42); and it reclassifies the investor's share of the
-//! associate's OCI as if the interest were disposed of (IAS 28.22(c)): the translation
-//! reserve part to profit or loss through OCI of the year (IAS 1.92-93), on the row's
-//! `gain_account`. In the years after, the same amounts are all in retained earnings:
-//! the entry is that of an investment held before.
+//! associate's OCI as if the interest were disposed of (IAS 28.22(c), [`reclassified`]):
+//! the translation reserve part to profit or loss through OCI of the year (IAS
+//! 1.92-93), on the row's `gain_account`, a revaluation surplus's part to retained
+//! earnings (IAS 16.41). In the years after, the same amounts are all in retained
+//! earnings: the entry is that of an investment held before.
 //!
 //! Which rows reach here is decided by `ownership` (an investment or an associate held
 //! before, by one holder in the presentation currency without NCI of its own); the
 //! rest is blocking.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 use polars::prelude::PolarsResult;
 use rust_decimal::Decimal;
 
+use super::aggregate::aggregate_one;
 use super::context::Context;
 use super::investment::Investments;
 use super::journal::{EliminationRule, EntryLine, Journal, line};
 use crate::load::Dataset;
 use crate::model::*;
 use crate::money;
+use crate::structure::GroupStructure;
 use crate::translate::Translated;
 
 /// An associate that becomes a subsidiary, as the equity method left it at the month
@@ -51,6 +54,10 @@ pub struct AssociateBefore<'a> {
     /// The lines of that close's equity method entries naming the associate (its
     /// investment line included).
     pub lines: Vec<EntryLine>,
+    /// The part of the year's share of OCI in those lines that accumulates in a reserve
+    /// other than the translation reserve (a revaluation surplus), a gain positive: IAS
+    /// 28.22(c) transfers it to retained earnings, it is not reclassified (IAS 16.41).
+    pub revaluation: Decimal,
 }
 
 /// Runs the close at the month end before the month of control in `change`, on the
@@ -61,7 +68,8 @@ pub fn associate_before<'a>(
     t: &Translated,
     change: &'a OwnershipChange,
 ) -> PolarsResult<AssociateBefore<'a>> {
-    let (last_month, _, then) = super::close_before_change(ds, t, change)?;
+    let (last_month, s, then) = super::close_before_change(ds, t, change)?;
+    let revaluation = revaluation_share(ds, t, &s, change, last_month)?;
     let lines = then
         .journal
         .iter()
@@ -70,7 +78,63 @@ pub fn associate_before<'a>(
         .filter(|l| l.counterparty.as_ref() == Some(&change.owned))
         .cloned()
         .collect();
-    Ok(AssociateBefore { change, last_month, lines })
+    Ok(AssociateBefore { change, last_month, lines, revaluation })
+}
+
+/// The investor's share of the associate's OCI of the year to `last_month` on accounts
+/// that accumulate in a reserve other than the translation reserve, on the base of the
+/// equity method (since the acquisition month when it is in the year; the year's
+/// opening balances hold no OCI), rounded once like the share it is part of.
+fn revaluation_share(
+    ds: &Dataset,
+    t: &Translated,
+    s: &GroupStructure,
+    change: &OwnershipChange,
+    last_month: Period,
+) -> PolarsResult<Decimal> {
+    let tr = &ds.settings.accounts.translation_reserve;
+    let other: BTreeSet<&GroupAccount> = ds
+        .accounts
+        .iter()
+        .filter(|a| a.statement == Statement::Oci && a.reserve.as_ref().is_some_and(|r| r != tr))
+        .map(|a| &a.account)
+        .collect();
+    let Some(e) = s.entity(&change.owned).filter(|_| !other.is_empty()) else { return Ok(Decimal::ZERO) };
+    let sum = |m: &BTreeMap<GroupAccount, Decimal>| -> Decimal {
+        m.iter().filter(|(a, _)| other.contains(a)).map(|(_, v)| *v).sum()
+    };
+    let own = sum(&aggregate_one(ds, t, &change.owned, last_month)?);
+    let fiscal_start = super::aggregate::year_start(ds, t, last_month);
+    let acquired = acquisition_records(&ds.acquisitions, last_month.last_day())
+        .get(&change.owned)
+        .map(|a| Period::of_date(a.date));
+    let before = match acquired {
+        Some(m) if m > fiscal_start && m <= last_month => sum(&aggregate_one(ds, t, &change.owned, m.prev())?),
+        _ => Decimal::ZERO,
+    };
+    Ok(money::round(-(own - before) * e.effective_interest, t.minor, ds.settings.policies.rounding))
+}
+
+/// The investor's share of the associate's OCI accounted for as if the associate had
+/// disposed of the related assets (IAS 28.22(c)): the exchange differences reclassified
+/// out of OCI of the year into profit or loss on `account` (IAS 21.48, IAS 1.92-93); a
+/// revaluation surplus transferred from the reserve it accumulated in with the year's
+/// OCI to retained earnings (IAS 16.41), never through profit or loss. `oci` is the
+/// whole share (gain positive), `revaluation` its revaluation part.
+pub fn reclassified(
+    cx: &Context,
+    c: &OwnershipChange,
+    account: &GroupAccount,
+    oci: Decimal,
+    revaluation: Decimal,
+) -> Vec<EntryLine> {
+    let (h, e) = (&c.holder, Some(&c.owned));
+    vec![
+        line(&cx.roles.translation_difference, h, e, oci - revaluation),
+        line(account, h, e, revaluation - oci),
+        line(&cx.roles.translation_reserve, h, e, revaluation),
+        line(&cx.roles.retained_earnings, h, e, -revaluation),
+    ]
 }
 
 /// The equity method's figures of an associate before control, in the presentation
@@ -168,6 +232,7 @@ pub fn post(
         let Some(account) = account else { continue };
         let associate = associates.iter().find(|x| x.change == *c).filter(|_| this_year);
         let share = associate.map(|x| equity_share(cx, &x.lines)).unwrap_or_default();
+        let revaluation = associate.map(|x| x.revaluation).unwrap_or_default();
         // The gain against the equity-method carrying amount: cost plus the share since
         // significant influence, which the carried lines put back where the equity
         // method had it (IFRS 3.42).
@@ -178,10 +243,7 @@ pub fn post(
             line(account, &c.holder, Some(&c.owned), r.costs),
         ];
         lines.extend(share.carried.iter().cloned());
-        // The share of OCI reclassified as if the interest were disposed of (IAS
-        // 28.22(c)): out of OCI of the year (IAS 1.92-93), into profit or loss.
-        lines.push(line(&cx.roles.translation_difference, &c.holder, Some(&c.owned), share.oci));
-        lines.push(line(account, &c.holder, Some(&c.owned), -share.oci));
+        lines.extend(reclassified(cx, c, account, share.oci, revaluation));
         let mut text = format!(
             "interest in {} held by {} before control on {} remeasured to fair value {} from {}",
             c.owned,
@@ -200,7 +262,11 @@ pub fn post(
         }
         text.push_str(&format!(": gain {} (IFRS 3.42)", m(gain)));
         if associate.is_some() {
-            text.push_str(&format!("; share of OCI {} reclassified to profit or loss (IAS 28.22(c))", m(share.oci)));
+            text.push_str(&format!(
+                "; share of OCI {} reclassified to profit or loss, {} of revaluation to retained earnings (IAS 28.22(c))",
+                m(share.oci - revaluation),
+                m(revaluation)
+            ));
         }
         if !r.costs.is_zero() {
             text.push_str(&format!(", acquisition costs {} expensed (IFRS 3.53)", m(r.costs)));
@@ -294,6 +360,7 @@ mod tests {
         let before = AssociateBefore {
             change: &c,
             last_month: p("2026-03"),
+            revaluation: Decimal::ZERO,
             lines: vec![l("1300", "40"), l("4900", "-12"), l("9000", "-8"), l("3200", "-14"), l("3300", "-6")],
         };
         let share = equity_share(&cx, &before.lines);
@@ -318,6 +385,14 @@ mod tests {
         assert!(
             j.entries[0].description.contains("from 140.00 (cost 100.00 + share since significant influence 40.00")
         );
+        // Had 4 of the 14 been a revaluation surplus, it would go to retained earnings,
+        // not to profit or loss (IAS 28.22(c), IAS 16.41): 10 reclassified, 4 moved.
+        let got: Vec<(String, String)> = reclassified(&cx, &c, &acct("7300"), d("14"), d("4"))
+            .iter()
+            .map(|l| (l.account.to_string(), l.amount.normalize().to_string()))
+            .collect();
+        let want = [("9000", "10"), ("7300", "-10"), ("3300", "4"), ("3200", "-4")];
+        assert_eq!(got, want.map(|(a, x)| (a.to_string(), x.to_string())));
         // Closed in 2027 the same amounts are all in retained earnings: the entry is that
         // of an investment held before.
         let w = World::new(&["P", "S"], &[holding("P", "S", "0.7", "2026-04-01")], p("2027-03"));

@@ -4,6 +4,7 @@
 //! run shows everything wrong with a delivery. It knows nothing about accounting rules
 //! beyond the shape of each file; `validate` checks the rules.
 
+mod acquired_reserves;
 pub mod adjustments;
 mod cash_flow_lines;
 pub mod daily;
@@ -149,6 +150,8 @@ pub struct Dataset {
     /// Long-term interests in equity-accounted investees (optional
     /// `long_term_interests.csv`, IAS 28.38), in the order they absorb losses.
     pub long_term_interests: Vec<LongTermInterest>,
+    /// Named reserves' balances at acquisition (optional `reserves_at_acquisition.csv`).
+    pub reserves_at_acquisition: Vec<ReserveAtAcquisition>,
     /// Shares bought and sold (optional `ownership_changes.csv`).
     pub ownership_changes: Vec<OwnershipChange>,
     /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
@@ -262,6 +265,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let reserves_at_acquisition = acquired_reserves::load_reserves_at_acquisition(
+        root,
+        &ent_dir.join(acquired_reserves::RESERVES_AT_ACQUISITION_FILE),
+        &mut f,
+        &mut inputs,
+    );
     let long_term_interests = long_term::load_long_term_interests(
         root,
         &ent_dir.join(long_term::LONG_TERM_INTERESTS_FILE),
@@ -308,6 +317,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             segment_accounts,
             net_investments,
             long_term_interests,
+            reserves_at_acquisition,
             ownership_changes,
             group_adjustments,
             cash_flow_lines,
@@ -529,6 +539,7 @@ pub const ENTITY_FILES: &[&str] = &[
     ownership::OWNERSHIP_CHANGES_FILE,
     adjustments::GROUP_ADJUSTMENTS_FILE,
     long_term::LONG_TERM_INTERESTS_FILE,
+    acquired_reserves::RESERVES_AT_ACQUISITION_FILE,
 ];
 
 /// The files tessera reads under `rates/`.

@@ -814,7 +814,7 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
-            name: "a hyperinflationary entity acquired in a year whose start was not yet hyperinflationary",
+            name: "an acquired entity hyperinflationary from after the start of the year",
             mutate: |f| {
                 f.replace(
                     "entities/entities.csv",
@@ -822,8 +822,8 @@ fn cases() -> Vec<Case> {
                     "BH,BHD,Middle East,Sensors,2026-02\n",
                 );
                 // Every index the restatement needs is there (the acquisition month
-                // 2026-03 included): only hyperinflation beginning in the year of the
-                // acquisition, after its start, blocks.
+                // 2026-03 included): only hyperinflation beginning after the year's
+                // first month blocks.
                 let rows: String = (1..=12).map(|m| format!("BHD,2026-{m:02},100\n")).collect();
                 f.write("rates/price_index.csv", &format!("currency,period,index\nBHD,2025-12,100\n{rows}"));
             },

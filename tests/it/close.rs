@@ -737,6 +737,17 @@ fn a_long_term_interest_on_an_equity_account_is_a_finding() {
         assert_eq!(found["line"], 2, "{found:#}");
         assert!(found["message"].as_str().unwrap().contains("not an asset account"), "{found:#}");
     }
+    // An investee whose ownership changes: the close does not carry the long-term
+    // interest through a sale or a step to control, so the row blocks.
+    f.replace("entities/long_term_interests.csv", "P,L,3000,", "P,L,1650,");
+    f.write("entities/ownership_changes.csv", "date,holder,owned,share,consideration\n2026-01-15,P,L,-0.1,50\n");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v:#}");
+    let found = v["findings"].as_array().unwrap().iter().find(|x| {
+        x["file"] == "entities/long_term_interests.csv"
+            && x["message"].as_str().unwrap().contains("change in ownership")
+    });
+    assert!(found.is_some(), "{v:#}");
 }
 
 /// A joint operation (IFRS 11.20) held on an investment account: the close takes the
@@ -763,5 +774,27 @@ fn an_investment_in_a_joint_operation_blocks() {
         assert_eq!(found["severity"], "blocking", "{found:#}");
         assert_eq!(found["entity"], "S", "{found:#}");
         assert!(found["message"].as_str().unwrap().contains("joint operation"), "{found:#}");
+    }
+}
+
+/// A row of `reserves_at_acquisition.csv` on an account that is not a named reserve
+/// would eliminate something else as equity acquired: blocking, on its line.
+#[test]
+fn a_reserve_at_acquisition_on_an_account_that_is_not_a_named_reserve_is_a_finding() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/revaluation-reserve-given-at-acquisition");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.replace("entities/reserves_at_acquisition.csv", "S,3400,", "S,3000,");
+    let out = f.path().join("out");
+    let close = ["close", "--period", "2026-01", "--out", out.to_str().unwrap()];
+    for args in [&close[..], &["check", "--period", "2026-01"]] {
+        let (code, v) = run_json(f.path(), args);
+        assert_eq!(code, 1, "{}: {v:#}", args[0]);
+        let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "AccountInvalid");
+        let found = found.unwrap_or_else(|| panic!("{}: no AccountInvalid: {v:#}", args[0]));
+        assert_eq!(found["file"], "entities/reserves_at_acquisition.csv", "{found:#}");
+        assert_eq!(found["line"], 2, "{found:#}");
     }
 }

@@ -726,3 +726,46 @@ fn an_associate_sold_whole_and_one_kept_without_its_fair_value() {
     assert_eq!(x.len(), 1, "{fs:#?}");
     assert!(x[0]["message"].as_str().unwrap().contains("keeps 0.1 of S"), "{:#}", x[0]);
 }
+
+/// The associate of tests/cases/step-acquisition-from-associate with a revaluation gain
+/// of USD 40 in March (an asset revalued, OCI on its own reserve, EUR 25 at 1.6):
+/// the share of it, 30% x 25 = 7.50, is OCI of the year while S is an associate and,
+/// on control, moves to retained earnings instead of profit or loss (IAS 28.22(c), IAS
+/// 16.41). Net assets on 1 April USD 1,320 (EUR 825): NCI 30% x 1,320 = USD 396 (EUR
+/// 247.50), goodwill USD 1,200 + 396 - 1,320 = 276 (EUR 172.50); carrying amount
+/// 180 + 45 + 45 + 7.50 = 277.50, gain 350 - 277.50 = 72.50 plus the exchange
+/// differences 45 reclassified: 117.50; OCI 52.50 - 45 = 7.50; the reserve 7.50 moved
+/// to retained earnings (3300 +7.50, 3200 30 - 7.50 = 22.50).
+#[test]
+fn a_revaluation_surplus_of_an_associate_goes_to_retained_earnings_on_control() {
+    let f = case("step-acquisition-from-associate");
+    // The chart with a `reserve` column: every row one field more.
+    let chart: String = f.read("entities/accounts.csv").lines().map(|l| format!("{l},\n")).collect();
+    let chart = chart.replacen("non_current,\n", "non_current,reserve\n", 1);
+    f.write(
+        "entities/accounts.csv",
+        &format!("{chart}3400,Revaluation surplus,balance_sheet,equity,historical,,,\n8200,Revaluation,oci,income,average,,,3400\n"),
+    );
+    let layouts = "entities/layouts.csv";
+    f.replace(
+        layouts,
+        "oci,OCI,Other comprehensive income,,FX,",
+        "oci,REV,Revaluation,8200,,credit_positive\noci,OCI,Other comprehensive income,,FX REV,",
+    );
+    f.replace(
+        layouts,
+        "equity_changes,TOT,Total equity,,SC RE TR NCI,",
+        "equity_changes,RS,Revaluation surplus,3400,,credit_positive\nequity_changes,TOT,Total equity,,SC RE TR RS NCI,",
+    );
+    f.append("entities/S/mapping.csv", "8200,,8200");
+    f.append("entities/S/tb-2026.movements.csv", "2026-03,1500,40,\n2026-03,8200,-40,");
+    f.replace("entities/acquisitions.csv", ",1280,800,", ",1320,825,");
+    let out = tempfile::tempdir().unwrap();
+    let (code, v) = run_json(f.path(), &["close", "--period", "2026-06", "--out", out.path().to_str().unwrap()]);
+    assert_eq!(code, 0, "{:#}", v["findings"]);
+    let d = |s: &str| s.parse::<rust_decimal::Decimal>().unwrap();
+    let accounts = ["1100", "3200", "3300", "3900", "4700", "4900", "8100", "8200"];
+    let got: Vec<_> = accounts.iter().map(|a| tb_amount(&v, a)).collect();
+    let want = ["172.5", "22.5", "7.5", "-277.5", "-117.5", "-45", "-7.5", "0"].map(d);
+    assert_eq!(got, want);
+}

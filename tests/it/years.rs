@@ -115,7 +115,7 @@ fn a_delivered_opening_that_differs_from_the_prior_close_is_a_finding_with_the_d
         re["message"]
             .as_str()
             .unwrap()
-            .contains("the balance 0.00 plus the year's profit or loss and OCI closed into retained earnings (120.00)"),
+            .contains("the balance 0.00 plus the year's profit or loss and OCI closed into it (120.00)"),
         "{re}"
     );
     assert!(re["message"].as_str().unwrap().contains("difference (121.00) - (120.00) = (1.00)"), "{re}");
@@ -191,4 +191,27 @@ fn the_reserve_per_operation_is_carried_under_both_ifric16_methods() {
             }
         }
     }
+}
+
+/// The OCI of an account whose `reserve` names a revaluation surplus is closed into the
+/// surplus, not retained earnings (IAS 16.41): S's delivered 2026 opening, with the 2025
+/// revaluation in its surplus, agrees with the carried one. An entity with such OCI but
+/// no local account mapped to the reserve cannot be carried: `OpeningNotDerivable`.
+#[test]
+fn oci_of_a_named_reserve_is_carried_into_the_reserve() {
+    let f = case("revaluation-reserve-carried-after-acquisition");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 0, "{v}");
+    assert!(findings_of(&v, "OpeningDiffersFromPriorClose").is_empty(), "{v}");
+    // S's local 3400 now maps to share capital: no local account of S maps to 3400.
+    f.replace("entities/S/mapping.csv", "3400,,3400", "3400,,3000");
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v}");
+    let found = findings_of(&v, "OpeningNotDerivable");
+    assert!(
+        found.iter().any(
+            |x| x["entity"] == "S" && x["message"].as_str().unwrap().contains("no local account of S maps to 3400")
+        ),
+        "{found:#?}"
+    );
 }
