@@ -125,6 +125,11 @@ pub enum Command {
         /// Also write every table as Parquet beside its CSV.
         #[arg(long)]
         parquet: bool,
+        /// Also write the translated lines (every grain and month of the year, the
+        /// translation's audit trail; large for a big group) as `translated.csv` or
+        /// `translated.parquet`: once, in the format named here.
+        #[arg(long, value_enum, value_name = "FORMAT")]
+        translated_lines: Option<TableFormat>,
         /// Close despite blocking findings, leaving out the deliveries they concern;
         /// every output is marked draft and lists the exceptions (exit code 1).
         #[arg(long)]
@@ -276,7 +281,8 @@ pub enum Command {
     )]
     Bench {
         /// Sizes to run: XS (40 entities, 3 months), S (300 entities, 1 month), M (300
-        /// entities, 12 months), L (2,000 entities, 12 months, 1M document lines).
+        /// entities, 12 months), L (2,000 entities, 12 months, 1M document lines), XL
+        /// (5,000 entities x 1,000 accounts x 12 months, about 60M rows).
         #[arg(long, value_delimiter = ',', default_value = "S,M")]
         sizes: Vec<String>,
         /// Input formats of the trial balances: csv, parquet.
@@ -302,6 +308,13 @@ pub enum Command {
         #[arg(value_enum)]
         shell: clap_complete::Shell,
     },
+}
+
+/// The format of a table written on request.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum TableFormat {
+    Csv,
+    Parquet,
 }
 
 /// Which months the income statement covers.
@@ -364,7 +377,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
             };
             crate::commands::match_intercompany(data, &ask, format, out)
         }
-        Command::Close { period, view, entity, out_dir, parquet, draft, compare, format } => {
+        Command::Close { period, view, entity, out_dir, parquet, translated_lines, draft, compare, format } => {
             let out_dir = under_data(data, &out_dir);
             crate::commands::close(
                 data,
@@ -375,6 +388,7 @@ pub fn run(cli: Cli, out: &mut dyn Write) -> Result<i32, Error> {
                     draft,
                     out_dir: &out_dir,
                     parquet,
+                    translated_lines,
                     compare,
                 },
                 format,

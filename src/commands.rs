@@ -558,13 +558,16 @@ pub struct CloseRequest<'a> {
     pub out_dir: &'a Path,
     /// Parquet twins of the CSV tables, only when asked.
     pub parquet: bool,
+    /// The translated lines (the translation's audit trail), written only when asked,
+    /// in the one format asked.
+    pub translated_lines: Option<crate::cli::TableFormat>,
     /// What to compare the close with (`--compare`), if anything.
     pub compare: Option<crate::compare::Source>,
 }
 
 pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
-    let CloseRequest { period, view, entity, draft, out_dir, parquet, compare } = ask;
+    let CloseRequest { period, view, entity, draft, out_dir, parquet, translated_lines, compare } = ask;
     let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
@@ -664,7 +667,7 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
         entity_minor: &entity_minor,
         minor,
         contributions: &c.close.contributions,
-        translated: &c.translated.lines,
+        translated: translated_lines.map(|f| (&c.translated.lines, f)),
         explanations: &c.translated.explanations,
         parquet,
     };

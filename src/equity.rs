@@ -275,15 +275,12 @@ pub fn changes_in_equity(
     let before = contributing(opening)?;
     let after = contributing(closing)?;
     let dividends = dividends_row(ds, (opening, closing), (&c_open, &c_close), (&before, &after), (re, nci), n, minor);
-    // Acquisitions: the NCI at acquisition of each subsidiary first consolidated.
+    // Acquisitions: the NCI at acquisition of each subsidiary first consolidated, as
+    // measured at the acquisition date; the later movements the investment entry posts
+    // to the NCI (its part of full goodwill's exchange difference and impairment) are
+    // in its OCI and profit rows already.
     for e in after.difference(&before) {
-        let x = -journal_sum(
-            closing,
-            &roles.non_controlling_interest,
-            Some(EliminationRule::InvestmentAndGoodwill),
-            Some(e),
-        );
-        add(&mut acquisitions, nci, x);
+        add(&mut acquisitions, nci, closing.nci_at_acquisition.get(e).copied().unwrap_or_default());
     }
     let disposals = disposals_row(opening, closing, n, (re, tr, nci));
     let with_nci = transactions_with_nci_row(opening, closing, n, (re, nci));

@@ -160,14 +160,18 @@ pub enum Rule {
     /// An asset or liability account of a hyperinflationary entity that the chart does not
     /// classify as monetary or non-monetary (IAS 29.12-14).
     MonetaryClassMissing,
-    /// A hyperinflationary entity with an acquisition record: eliminating its restated
-    /// equity at acquisition is a rule the close does not support yet.
+    /// A hyperinflationary entity the close cannot restate: in the presentation
+    /// currency, or acquired in a way `restate::acquisition_findings` names (in the
+    /// year, equity-accounted, impaired, its ownership changing).
     RestatementUnsupported,
     /// A comparison (`--compare`) the folder cannot provide: the prior year absent, say.
     ComparisonUnavailable,
     /// The share of an equity-accounted investee's losses beyond the carrying amount is
     /// not recognised (IAS 28.38-39): a warning that shows the amount.
     AssociateLossesUnrecognised,
+    /// An intercompany account of a hyperinflationary entity that the chart makes
+    /// non-monetary: its restatement shows as an intercompany difference (a warning).
+    IntercompanyItemRestated,
 }
 
 impl Rule {
@@ -184,7 +188,8 @@ impl Rule {
             | Rule::CounterpartyOnPlainAccount
             | Rule::AcceptanceUnused
             | Rule::PriceIndexUnused
-            | Rule::AssociateLossesUnrecognised => Severity::Warning,
+            | Rule::AssociateLossesUnrecognised
+            | Rule::IntercompanyItemRestated => Severity::Warning,
             Rule::SegmentMissing
             | Rule::SegmentBelowThresholds
             | Rule::SegmentReportable

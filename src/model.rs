@@ -579,6 +579,18 @@ pub struct NetInvestment {
     pub source: Source,
 }
 
+/// A holder's long-term interest in an equity-accounted investee that in substance forms
+/// part of its net investment (IAS 28.38), from `entities/long_term_interests.csv`: the
+/// holder's balance on `account` naming the investee as counterparty (a long-term loan,
+/// say). Losses beyond the investment reduce it, in the order of the file's rows.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LongTermInterest {
+    pub holder: EntityId,
+    pub investee: EntityId,
+    pub account: GroupAccount,
+    pub source: Source,
+}
+
 /// What a fiscal year's close brings forward from the prior year's close in the same
 /// data folder, besides the balances (`years`): amounts that a rule counts from the
 /// opening of the first year the folder holds, so that the close at a year end and the
@@ -597,6 +609,14 @@ pub struct BroughtForward {
     /// gains positive), brought forward as the operation's own rather than as each
     /// entity's translated opening has it (the two differ under the step-by-step method).
     pub operation_reserves: std::collections::BTreeMap<EntityId, Decimal>,
+    /// Per subsidiary and named reserve (an equity account that the `reserve` column of
+    /// the chart names, other than the translation reserve): the reserve's balance at
+    /// acquisition that the investment entry of the prior year end eliminated, with the
+    /// OCI before control that the pre-acquisition entry moved out of the year's results
+    /// (an acquisition in that year), in the presentation currency (a credit negative).
+    /// The reserve carried into a later year
+    /// also holds the OCI since acquisition, which is the group's (IFRS 10.B94).
+    pub reserves_at_acquisition: std::collections::BTreeMap<(EntityId, GroupAccount), Decimal>,
 }
 
 /// A change in a holder's share of an entity on one date, from
@@ -728,4 +748,26 @@ pub enum DividendsReceived {
     Operating,
     /// In investing activities, as a return on the investment.
     Investing,
+}
+
+/// Each entity's acquisition record for a close at `until`: the latest dated on or
+/// before it (of one date, the last in the file), else its last (a record of a later
+/// date still names the entity for the findings), whatever the order of the file.
+/// An entity has two records when an associate becomes a subsidiary (IFRS 3.41-42) or a
+/// subsidiary sold becomes an associate (IFRS 10.25(b)): each close uses the one of its
+/// time.
+pub fn acquisition_records(
+    acquisitions: &[Acquisition],
+    until: NaiveDate,
+) -> std::collections::BTreeMap<&EntityId, &Acquisition> {
+    let mut out: std::collections::BTreeMap<&EntityId, &Acquisition> =
+        acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let mut dated: std::collections::BTreeMap<&EntityId, &Acquisition> = std::collections::BTreeMap::new();
+    for a in acquisitions.iter().filter(|a| a.date <= until) {
+        if dated.get(&a.owned).is_none_or(|b| b.date <= a.date) {
+            dated.insert(&a.owned, a);
+        }
+    }
+    out.extend(dated);
+    out
 }

@@ -16,7 +16,7 @@
 
 use std::collections::{BTreeMap, BTreeSet};
 
-use chrono::NaiveDate;
+use chrono::{Datelike, NaiveDate};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
@@ -253,8 +253,12 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
             "the NCI is measured on the effective interest at the period end over all the equity earned since acquisition, so a change of an earlier year would misstate it".into(),
         )],
         ChangeKind::ChangeInStake => change_in_stake_needs(ds, x, &unsupported),
+        ChangeKind::LossOfControl if !this_year && x.method_after == Method::Equity => vec![unsupported(
+            "an associate retained after a loss of control of an earlier year: its cost, the fair value at that date (IFRS 10.25(b)), is not carried into later years yet (the holder's books keep its remaining cost)".into(),
+        )],
         ChangeKind::LossOfControl if !this_year => Vec::new(),
         ChangeKind::LossOfControl => loss_of_control_needs(ds, x, &unsupported),
+        ChangeKind::NotControlled if is_associate_sale(x) => associate_sale_needs(ds, x, this_year, &unsupported),
         ChangeKind::NotControlled if !this_year => Vec::new(),
         ChangeKind::NotControlled => vec![unsupported(format!(
             "the entity is {} before and {} after; the equity method and the investments take the share at the period end for the whole year",
@@ -264,8 +268,8 @@ fn supported(ds: &Dataset, x: &Classified, this_year: bool) -> Vec<Finding> {
     }
 }
 
-/// A step acquisition is expressed when the interest held before was an investment (not
-/// equity-accounted or a joint operation: IAS 28.22 reclassification is not posted),
+/// A step acquisition is expressed when the interest held before was an investment or
+/// an associate (or joint venture) meeting [`associate_needs`] (not a joint operation),
 /// held by the row's holder alone, in the presentation currency (its carrying amount is
 /// then the holder's translated investment exactly), with its fair value given and, in
 /// the fiscal year of the acquisition, a profit or loss account for the gain.
@@ -277,11 +281,14 @@ fn step_acquisition_needs(
 ) -> Vec<Finding> {
     let c = x.change;
     let mut out = Vec::new();
-    if x.method_before != Method::None {
-        out.push(unsupported(format!(
-            "the interest held before was accounted for by the method {}; reclassifying its share of OCI and results (IAS 28.22) is not posted yet",
-            x.method_before.as_str()
-        )));
+    match x.method_before {
+        Method::None => {}
+        Method::Equity if this_year => out.extend(associate_needs(ds, x).into_iter().map(unsupported)),
+        Method::Equity => {}
+        m => out.push(unsupported(format!(
+            "the interest held before was accounted for by the method {}; derecognising its share of each line is not posted yet",
+            m.as_str()
+        ))),
     }
     if x.group_holders_before.iter().any(|h| h != &c.holder) {
         out.push(unsupported(format!(
@@ -331,6 +338,154 @@ fn step_acquisition_needs(
     out
 }
 
+/// What a step acquisition from an associate or joint venture needs in the fiscal year
+/// of control, besides what every step acquisition needs: the close runs the equity
+/// method to the month end before control (`close::step_acquisition`) and reclassifies
+/// the investor's share of the associate's OCI, the translation reserve to profit or
+/// loss (IAS 28.22(c)). Each reason it cannot is returned.
+fn associate_needs(ds: &Dataset, x: &Classified) -> Vec<String> {
+    let c = x.change;
+    let mut why = Vec::new();
+    let year_first = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start).first_day();
+    match ds.acquisitions.iter().filter(|a| a.owned == c.owned && a.date < c.date).max_by_key(|a| a.date) {
+        None => why.push(format!(
+            "acquisitions.csv has no row for the acquisition of the associate before {}: its cost and net assets then are where the equity method to the date starts (IAS 28.32)",
+            c.date
+        )),
+        Some(a) => {
+            let foreign = ds.entity(&c.owned).is_some_and(|e| e.currency != ds.settings.presentation_currency);
+            if foreign && a.date < year_first {
+                why.push(format!(
+                    "the associate is a foreign operation held since {}, before the fiscal year of the change: the close keeps the investor's share of its exchange differences of earlier years in retained earnings, so the amount to reclassify to profit or loss (IAS 28.22(c), IAS 21.48) is not known",
+                    a.date
+                ));
+            }
+            if !a.fair_value_adjustment.is_zero() || ds.uplifts.iter().any(|u| u.owned == c.owned) {
+                why.push("fair value adjustments inside the associate and those of the business combination are not told apart yet (fair_value_adjustments.csv names the entity, not the acquisition)".into());
+            }
+        }
+    }
+    if ds.impairments.iter().any(|i| i.owned == c.owned) {
+        why.push("goodwill_impairments.csv names it: an impairment of the associate and one of the subsidiary's goodwill are not told apart yet".into());
+    }
+    if uses_other_reserves(ds, &c.owned) {
+        why.push("it has OCI in a reserve other than the translation reserve (a revaluation surplus): the transfer of the investor's share to retained earnings (IAS 28.22(c), IAS 16.41) is not posted yet".into());
+    }
+    if has_counterparty_lines(ds, &c.owned)
+        || is_named_by_others(ds, &c.owned)
+        || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
+        || ds.net_investments.iter().any(|n| n.entity == c.owned || n.counterparty == c.owned)
+    {
+        why.push("dividends, unrealised profit or other items between the group and the associate before control are not split between the equity method and the consolidation yet".into());
+    }
+    why
+}
+
+/// A sale of (part of) an associate or joint venture that ends significant influence
+/// (IAS 28.22): equity-accounted the day before, at most an investment after.
+fn is_associate_sale(x: &Classified) -> bool {
+    x.method_before == Method::Equity && x.method_after == Method::None && x.change.share.is_sign_negative()
+}
+
+/// A sale of an associate ending significant influence is expressed (IAS 28.22(a)-(c),
+/// `equity_method::post_disposal`) when it meets [`associate_needs`], is held by the
+/// row's holder alone, in the presentation currency, without NCI of its own, the
+/// associate delivered every month to the last month end before the date, and the group
+/// has no statement of cash flows. In a later fiscal year nothing is left to post, but
+/// an investment retained (its fair value at the date is not carried into later years:
+/// the holder's books keep its remaining cost).
+fn associate_sale_needs(
+    ds: &Dataset,
+    x: &Classified,
+    this_year: bool,
+    unsupported: &dyn Fn(String) -> Finding,
+) -> Vec<Finding> {
+    let c = x.change;
+    let retained = capital_share_on(&ds.holdings, &c.holder, &c.owned, c.date);
+    if !this_year {
+        return if retained.is_zero() {
+            Vec::new()
+        } else {
+            vec![unsupported("an investment retained after the sale of an associate in an earlier year: its fair value at that date (IAS 28.22(b)) is not carried into later years yet".into())]
+        };
+    }
+    let mut why = associate_needs(ds, x);
+    if x.group_holders_before.iter().any(|h| h != &c.holder) {
+        why.push(format!("it was held by {}, not by {} alone", join(&x.group_holders_before), c.holder));
+    }
+    if !x.holder_nci.is_zero() {
+        why.push(format!("the holder {} has a non-controlling interest of its own", c.holder));
+    }
+    if ds.entity(&c.holder).is_some_and(|e| e.currency != ds.settings.presentation_currency) {
+        why.push("the holder's functional currency is not the presentation currency".into());
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the group has a statement of cash flows, which does not present the sale of an associate yet".into());
+    }
+    let mut out: Vec<Finding> = why.into_iter().map(unsupported).collect();
+    out.extend(gain_account_findings(ds, c));
+    out.extend(retained_value_findings(ds, c));
+    out.extend(months_missing(ds, c));
+    out
+}
+
+fn join(ids: &BTreeSet<EntityId>) -> String {
+    ids.iter().map(EntityId::as_str).collect::<Vec<_>>().join(", ")
+}
+
+/// The rows the close posts as sales of an associate ending significant influence, in
+/// the fiscal year of `scope` up to its period.
+pub fn associate_sales(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
+    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
+    ds.ownership_changes
+        .iter()
+        .filter(|c| c.date >= year_first && c.date <= period_last && c.share.is_sign_negative())
+        .filter(|c| {
+            let x = classify(ds, c);
+            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
+            x.kind == ChangeKind::NotControlled
+                && is_associate_sale(&x)
+                && associate_sale_needs(ds, &x, true, &blocks).is_empty()
+                && agreement(ds, c).is_empty()
+        })
+        .collect()
+}
+
+/// What a loss of control with an associate (or joint venture) retained needs: the
+/// retained interest at fair value is the associate's cost on initial recognition (IFRS
+/// 10.25(b), B98(b)(iii), IAS 28.32), equity-accounted from the month of `date`. So
+/// acquisitions.csv has the associate's row on `date`, its `consideration` the fair
+/// value retained and its net assets those of the day (where the equity method
+/// starts); `date` is the first day of a month (the month rule consolidates to the
+/// last month end controlled and the equity method counts its first month whole: a
+/// date within a month would count that month in both); and the group has no statement
+/// of cash flows (the non-cash interest retained is not presented yet).
+fn retained_associate_needs(ds: &Dataset, c: &OwnershipChange) -> Vec<String> {
+    let mut why = Vec::new();
+    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date == c.date) {
+        None => why.push(format!(
+            "the interest retained is an associate but acquisitions.csv has no row for {} on {}: its cost (the fair value retained, IFRS 10.25(b)) and net assets that day are where the equity method starts (IAS 28.32)",
+            c.owned, c.date
+        )),
+        Some(a) if Some(a.consideration) != c.fair_value_held => why.push(format!(
+            "the associate retained has `consideration` {} in acquisitions.csv but `fair_value_held` {}: its cost on initial recognition is the fair value retained (IFRS 10.25(b), B98(b)(iii))",
+            a.consideration,
+            c.fair_value_held.map(|v| v.to_string()).unwrap_or_else(|| "empty".into())
+        )),
+        Some(_) => {}
+    }
+    if c.date.day() != 1 {
+        why.push(format!(
+            "control is lost on {} with an associate retained, within a month: the month would be both part of what is sold and equity-accounted (give the first day of a month)",
+            c.date
+        ));
+    }
+    if ds.cash_flow_lines.is_some() {
+        why.push("the interest retained is an associate and the group has a statement of cash flows, which does not present a disposal with a non-cash interest retained yet".into());
+    }
+    why
+}
+
 /// The last month end consolidated for a subsidiary whose control ends on `date` (the
 /// first day without it): the last month end on or before the day before. A month's
 /// results belong to the group when it controls the entity at that month's end, as for
@@ -346,9 +501,10 @@ pub fn last_controlled_month(date: NaiveDate) -> Period {
 /// the row's holder alone (in the presentation currency, without NCI of its own), holds
 /// no entity itself, has no intercompany line, no net investment item and no inventory
 /// count inside the group, was acquired with NCI at its share of net assets and no fair
-/// value adjustment, keeps at most an investment (not an associate or joint
-/// arrangement), delivered every month it is consolidated for, and the group has no
-/// statement of cash flows (its disposal line, IAS 7.39-42, is not built yet).
+/// value adjustment, keeps at most an investment or an associate meeting
+/// [`retained_associate_needs`] (not a joint operation), delivered every month it is
+/// consolidated for, and was not acquired in the fiscal year of the sale where the group
+/// has a statement of cash flows.
 fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
@@ -369,11 +525,13 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     if ds.entity(&c.holder).is_some_and(|e| e.currency != ds.settings.presentation_currency) {
         why.push("the holder's functional currency is not the presentation currency".into());
     }
-    if matches!(x.method_after, Method::Equity | Method::Proportionate) {
-        why.push(format!(
-            "the interest retained is accounted for by the method {} (its cost at fair value, IFRS 10.B98(b)(iii), is not posted yet)",
-            x.method_after.as_str()
-        ));
+    match x.method_after {
+        Method::Equity => why.extend(retained_associate_needs(ds, c)),
+        Method::Proportionate => why.push(
+            "the interest retained is a joint operation (the group's share of each line from the date is not posted yet)"
+                .into(),
+        ),
+        _ => {}
     }
     if ds.holdings.iter().any(|h| h.owner == c.owned && h.is_valid_on(before_day) && !h.capital_share.is_zero()) {
         why.push(format!("{} holds shares of other entities (a sub-group disposal)", c.owned));
@@ -797,7 +955,7 @@ pub fn changes_in_stake(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
 /// statement of cash flows presents an acquisition or a disposal in a view, not both.
 fn acquired_in_year_of(ds: &Dataset, c: &OwnershipChange) -> bool {
     let year = Period::of_date(c.date).fiscal_year_start(ds.settings.fiscal_year_start);
-    ds.acquisitions.iter().any(|a| a.owned == c.owned && a.date <= c.date && Period::of_date(a.date) >= year)
+    ds.acquisitions.iter().any(|a| a.owned == c.owned && a.date < c.date && Period::of_date(a.date) >= year)
 }
 
 #[cfg(test)]

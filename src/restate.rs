@@ -26,7 +26,13 @@
 //! presentation currency is never hyperinflationary here; a hyperinflationary entity in
 //! the presentation currency is a blocking finding), so the months before `f`
 //! and the figures brought forward in the presentation currency stay as they were.
-//! Restate knows nothing about files.
+//!
+//! An acquired hyperinflationary subsidiary's acquisition amounts (equity at acquisition,
+//! goodwill, the NCI at acquisition, the fair value adjustments) are non-monetary too:
+//! [`acquisition_units`] gives the close the indices to restate them from the
+//! acquisition month (IAS 29.24-25; for an acquisition before hyperinflation began, from
+//! the acquisition as well, IAS 29.34), and [`acquisition_findings`] blocks what the close
+//! cannot restate. Restate knows nothing about files.
 
 use std::collections::BTreeMap;
 
@@ -139,6 +145,83 @@ pub fn months(e: &Entity, fiscal_start: Period, last: Period) -> Option<(i32, i3
     let from = e.hyperinflationary_from?;
     let first = period_index(from).max(period_index(fiscal_start));
     (first <= period_index(last)).then_some((first - 1, period_index(last)))
+}
+
+/// The month end whose measuring unit an acquisition's amounts are expressed in: the
+/// month before the control month. The close consolidates whole months from the control
+/// month (`close/pre_acquisition.rs`), and the price index is a month-end index, so the
+/// acquisition is restated from the last index before the group's results begin (common
+/// practice with a monthly index; IAS 29.17 accepts an estimate where the exact date's
+/// index is not available).
+pub fn acquisition_month(a: &Acquisition) -> Period {
+    Period::of_date(a.date).prev()
+}
+
+/// The IAS 29 restatement of an acquired hyperinflationary subsidiary's acquisition
+/// amounts in one close: equity at acquisition, goodwill, the NCI at acquisition and the
+/// fair value adjustments, all non-monetary (IAS 29.12, 29.24-25), restated by the
+/// change in the general price index since the acquisition month and then translated at
+/// the closing rate like every other restated amount (IAS 21.42(a)).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct AcquisitionUnit {
+    /// The index at the end of the acquisition month ([`acquisition_month`]).
+    pub then: Decimal,
+    /// The index at the end of the close's period.
+    pub now: Decimal,
+    /// The index at the end of the month before the fiscal year (the opening), when the
+    /// entity was hyperinflationary then; `None` when it was not (the opening amounts
+    /// are the acquisition's as recorded).
+    pub opening: Option<Decimal>,
+}
+
+impl AcquisitionUnit {
+    /// `x` of the acquisition date in the unit of the period end, rounded once to the
+    /// functional currency's minor unit (IAS 29.24-25: restated by the index change since
+    /// the acquisition).
+    pub fn now(&self, x: Decimal, minor: u32, mode: RoundingMode) -> Decimal {
+        crate::money::round(x * self.now / self.then, minor, mode)
+    }
+
+    /// `x` of the acquisition date in the unit of the opening, rounded like [`Self::now`].
+    pub fn opening(&self, x: Decimal, minor: u32, mode: RoundingMode) -> Decimal {
+        match self.opening {
+            Some(i) => crate::money::round(x * i / self.then, minor, mode),
+            None => x,
+        }
+    }
+
+    /// An amount in the unit of the period end taken back to the unit of the opening
+    /// (unrounded: it is translated and rounded once by the caller).
+    pub fn back_to_opening(&self, x_now: Decimal) -> Decimal {
+        x_now * self.opening.unwrap_or(self.then) / self.now
+    }
+}
+
+/// The restatement of every acquired subsidiary that is hyperinflationary at `period`
+/// (and not in the presentation currency, which `findings` blocks), for a close of the
+/// fiscal year from `fiscal_start`. An entity whose indices at the acquisition month, the
+/// period or the opening are missing is left out: `findings` blocks the close on them.
+pub fn acquisition_units(ds: &Dataset, period: Period, fiscal_start: Period) -> BTreeMap<EntityId, AcquisitionUnit> {
+    let mut out = BTreeMap::new();
+    for a in &ds.acquisitions {
+        let Some(e) = ds.entity(&a.owned) else { continue };
+        let Some(from) = e.hyperinflationary_from else { continue };
+        if from > period || e.currency == ds.settings.presentation_currency {
+            continue;
+        }
+        let index =
+            |p: Period| ds.price_indices.iter().find(|x| x.currency == e.currency && x.period == p).map(|x| x.index);
+        let (Some(then), Some(now)) = (index(acquisition_month(a)), index(period)) else { continue };
+        let p0 = fiscal_start.prev();
+        let opening = if from <= p0 {
+            let Some(i) = index(p0) else { continue };
+            Some(i)
+        } else {
+            None
+        };
+        out.insert(a.owned.clone(), AcquisitionUnit { then, now, opening });
+    }
+    out
 }
 
 /// How the chart makes IAS 29 treat `account`: assets and liabilities by the chart's
@@ -263,13 +346,16 @@ fn rows_frame(rows: &[Row]) -> PolarsResult<DataFrame> {
 
 /// The findings of the IAS 29 inputs for a close of `fiscal_start..=last`: the net
 /// monetary position account, a missing index of a month the restatement needs, an
-/// unclassified asset or liability of a hyperinflationary entity (all blocking), and
-/// the indices of a currency no hyperinflationary entity uses (a warning).
+/// unclassified asset or liability of a hyperinflationary entity, what the close cannot
+/// restate of an acquired one ([`acquisition_findings`]; all blocking), and the indices
+/// of a currency no hyperinflationary entity uses (a warning). `method_of` is the
+/// structure's consolidation method at `last`.
 pub fn findings(
     ds: &Dataset,
     mapped: &crate::map_accounts::Mapped,
     fiscal_start: Period,
     last: Period,
+    method_of: &dyn Fn(&EntityId) -> Option<Method>,
 ) -> PolarsResult<Vec<Finding>> {
     let mut out = Vec::new();
     let hyper: Vec<(&Entity, i32, i32)> =
@@ -302,6 +388,7 @@ pub fn findings(
         }
     }
     out.extend(unclassified(ds, mapped, &hyper)?);
+    out.extend(intercompany_restated(ds, mapped, &hyper)?);
     for (e, _, _) in &hyper {
         if e.currency == ds.settings.presentation_currency {
             out.push(
@@ -318,20 +405,7 @@ pub fn findings(
                 .entity(&e.id),
             );
         }
-        if let Some(a) = ds.acquisitions.iter().find(|a| a.owned == e.id) {
-            out.push(
-                Finding::new(
-                    Rule::RestatementUnsupported,
-                    format!(
-                        "{} is hyperinflationary and acquired ({}): its equity at acquisition would have to be restated (IAS 29.24) and eliminated at the closing rate (IAS 21.42(a)), which the close does not support yet; it eliminates at the historical amount",
-                        e.id, a.date
-                    ),
-                    "close without the entity (or without `hyperinflationary_from`) and restate its contribution outside tessera until the close supports it",
-                )
-                .at(&a.source)
-                .entity(&e.id),
-            );
-        }
+        out.extend(acquisition_findings(ds, e, (fiscal_start, last), method_of));
     }
     let used: Vec<Currency> =
         ds.entities.iter().filter(|e| e.hyperinflationary_from.is_some()).map(|e| e.currency).collect();
@@ -353,6 +427,89 @@ pub fn findings(
         );
     }
     Ok(out)
+}
+
+/// What the close cannot restate of a hyperinflationary entity `e` with an acquisition
+/// record, in a close of the fiscal year from `fiscal_start` to `last`. Supported: a
+/// subsidiary consolidated in full, its equity at acquisition, goodwill, NCI at
+/// acquisition and fair value adjustments restated from the acquisition month
+/// ([`AcquisitionUnit`]), which needs that month's index (a missing one is
+/// `PriceIndexMissing`); acquired in the fiscal year, its results before control restated
+/// on too. Blocking (`RestatementUnsupported`): an entity equity-accounted or consolidated
+/// proportionately, an acquisition in a fiscal year in which hyperinflation begins
+/// after its start, a goodwill impairment, a change in ownership in the year.
+fn acquisition_findings(
+    ds: &Dataset,
+    e: &Entity,
+    (fiscal_start, last): (Period, Period),
+    method_of: &dyn Fn(&EntityId) -> Option<Method>,
+) -> Vec<Finding> {
+    let Some(a) = ds.acquisitions.iter().find(|a| a.owned == e.id) else { return Vec::new() };
+    let action = "close without the entity (or without `hyperinflationary_from`) and restate its contribution outside tessera until the close supports it";
+    let unsupported = |why: String| {
+        Finding::new(
+            Rule::RestatementUnsupported,
+            format!(
+                "{} is hyperinflationary and acquired ({}): {why}, which the close does not support yet",
+                e.id, a.date
+            ),
+            action,
+        )
+        .at(&a.source)
+        .entity(&e.id)
+    };
+    let mut out = Vec::new();
+    match method_of(&e.id) {
+        Some(m @ (Method::Equity | Method::Proportionate)) => out.push(unsupported(format!(
+            "it is consolidated by the {} method, and its restated figures (IAS 29.20) would have to be taken into that method",
+            m.as_str()
+        ))),
+        Some(Method::Full) | Some(Method::None) | None => {}
+    }
+    // Acquired in the year: its results before control are moved from the restated
+    // balances of the month before control, which are in that month's unit only when
+    // the whole year is restated (`close/pre_acquisition.rs`).
+    if Period::of_date(a.date) >= fiscal_start && e.hyperinflationary_from.is_some_and(|h| h > fiscal_start) {
+        out.push(unsupported(format!(
+            "it is acquired in the fiscal year from {fiscal_start} and hyperinflationary only from {} of it: its results before control would have to be restated partly from the month they were recorded and partly from the start of hyperinflation",
+            e.hyperinflationary_from.map(|h| h.to_string()).unwrap_or_default()
+        )));
+    }
+    let impaired = !a.impairment.is_zero() || ds.impairments.iter().any(|i| i.owned == e.id);
+    if impaired {
+        out.push(unsupported(
+            "its goodwill is impaired, and the impairment of restated goodwill (IAS 36 on IAS 29 amounts) would have to be measured in the unit of its month".into(),
+        ));
+    }
+    let year = fiscal_start.first_day()..=last.last_day();
+    if let Some(c) = ds.ownership_changes.iter().find(|c| c.owned == e.id && year.contains(&c.date)) {
+        out.push(unsupported(format!(
+            "its ownership changes on {}, and the change would have to be measured on restated amounts",
+            c.date
+        )));
+    }
+    let month = acquisition_month(a);
+    if !ds.price_indices.iter().any(|x| x.currency == e.currency && x.period == month) {
+        out.push(
+            Finding::new(
+                Rule::PriceIndexMissing,
+                format!(
+                    "{} is hyperinflationary and acquired on {}: its equity at acquisition, goodwill and fair value adjustments are restated from the {} price index at the end of {month} (IAS 29.24-25), and rates/price_index.csv has none",
+                    e.id,
+                    a.date,
+                    e.currency.code()
+                ),
+                format!(
+                    "add `{},{month},<index>` to rates/price_index.csv (IAS 29.37: a general price index)",
+                    e.currency.code()
+                ),
+            )
+            .in_file("rates/price_index.csv")
+            .entity(&e.id)
+            .period(month),
+        );
+    }
+    out
 }
 
 /// `accounts.net_monetary_position` is needed by a hyperinflationary entity and must be
@@ -378,6 +535,70 @@ fn nmp_account_finding(ds: &Dataset) -> Option<Finding> {
     }
 }
 
+/// The group accounts `e`'s trial balances use up to month `end`.
+fn used_accounts(mapped: &crate::map_accounts::Mapped, e: &Entity, end: i32) -> PolarsResult<Vec<String>> {
+    let used = mapped
+        .lines
+        .clone()
+        .lazy()
+        .filter(col("entity").eq(lit(e.id.as_str())).and(col("period_index").lt_eq(lit(end))))
+        .select([col("group_account")])
+        .unique(None, UniqueKeepStrategy::Any)
+        .collect()?;
+    Ok(column_strings(&used, "group_account")?.into_iter().flatten().collect())
+}
+
+/// The intercompany accounts a hyperinflationary entity uses that the chart makes
+/// non-monetary (an advance for goods or services, say; IAS 29.12-15), a warning: the
+/// entity's side is restated and the counterparty's is not, so the two sides agree in
+/// the transaction currency and differ once translated by the restatement, which
+/// matching classifies as `fx` and the close posts to the intercompany difference account
+/// in profit or loss (where it offsets the smaller loss on the net monetary position the
+/// restatement gave the entity). Monetary intercompany items are not restated (IAS
+/// 29.12) and match as they are. Investments are eliminated against equity, not matched.
+fn intercompany_restated(
+    ds: &Dataset,
+    mapped: &crate::map_accounts::Mapped,
+    hyper: &[(&Entity, i32, i32)],
+) -> PolarsResult<Vec<Finding>> {
+    let mut out = Vec::new();
+    let restated: Vec<&AccountDef> = ds
+        .accounts
+        .iter()
+        .filter(|a| {
+            a.ic_kind.as_deref().is_some_and(|k| k != "investment")
+                && matches!(a.class, AccountClass::Asset | AccountClass::Liability)
+                && a.monetary == Some(false)
+        })
+        .collect();
+    if restated.is_empty() {
+        return Ok(out);
+    }
+    for (e, base, end) in hyper {
+        let used = used_accounts(mapped, e, *end)?;
+        for a in restated.iter().filter(|a| used.iter().any(|u| u == a.account.as_str())) {
+            out.push(
+                Finding::new(
+                    Rule::IntercompanyItemRestated,
+                    format!(
+                        "{} is hyperinflationary from {}, and the intercompany account {} ({}) is not monetary: {}'s side is restated (IAS 29.15) and its counterparty's is not, so the pair differs by the restatement once translated; matching shows it as `fx` and the close posts it to the intercompany difference account",
+                        e.id,
+                        period_of_index(*base + 1),
+                        a.account,
+                        a.name,
+                        e.id,
+                    ),
+                    "if the item is to be received or paid in money, write `true` in the `monetary` column of entities/accounts.csv (IAS 29.12); an advance for goods or services is non-monetary and its difference is the restatement, not an exchange difference",
+                )
+                .at(&a.source)
+                .entity(&e.id)
+                .account(a.account.to_string()),
+            );
+        }
+    }
+    Ok(out)
+}
+
 /// The asset and liability accounts a hyperinflationary entity uses in the close's
 /// months that the chart does not classify as monetary or not (IAS 29.12-14).
 fn unclassified(
@@ -395,15 +616,7 @@ fn unclassified(
         return Ok(out);
     }
     for (e, base, end) in hyper {
-        let used = mapped
-            .lines
-            .clone()
-            .lazy()
-            .filter(col("entity").eq(lit(e.id.as_str())).and(col("period_index").lt_eq(lit(*end))))
-            .select([col("group_account")])
-            .unique(None, UniqueKeepStrategy::Any)
-            .collect()?;
-        let used: Vec<String> = column_strings(&used, "group_account")?.into_iter().flatten().collect();
+        let used = used_accounts(mapped, e, *end)?;
         for a in open.iter().filter(|a| used.iter().any(|u| u == a.account.as_str())) {
             out.push(
                 Finding::new(
@@ -558,5 +771,94 @@ mod tests {
         assert_eq!(months(&e, start, last), None);
         e.hyperinflationary_from = None;
         assert_eq!(months(&e, start, last), None);
+    }
+
+    #[test]
+    fn acquisition_amounts_are_restated_from_the_month_before_control() {
+        let date = |s: &str| chrono::NaiveDate::parse_from_str(s, "%Y-%m-%d").unwrap();
+        let mut a = Acquisition {
+            owned: EntityId::new("S"),
+            date: date("2025-07-01"),
+            consideration: d("1600"),
+            nci_measurement: NciMeasurement::ShareOfNetAssets,
+            nci_fair_value: None,
+            net_assets: d("1600"),
+            net_assets_presentation: d("320"),
+            impairment: Decimal::ZERO,
+            impairment_year: Decimal::ZERO,
+            fair_value_adjustment: Decimal::ZERO,
+            fair_value_account: None,
+            source: Source::line("entities/acquisitions.csv", 2),
+        };
+        // Control from July: the group's months begin there, the index is June's.
+        assert_eq!(acquisition_month(&a), "2025-06".parse().unwrap());
+        a.date = date("2025-07-31");
+        assert_eq!(acquisition_month(&a), "2025-06".parse().unwrap());
+        // Index 80 at acquisition, 100 at the opening, 120 now (IAS 29.24-25).
+        let u = AcquisitionUnit { then: d("80"), now: d("120"), opening: Some(d("100")) };
+        let half = RoundingMode::HalfAwayFromZero;
+        assert_eq!(u.now(d("1600"), 2, half), d("2400"));
+        assert_eq!(u.opening(d("1600"), 2, half), d("2000"));
+        assert_eq!(u.back_to_opening(d("480")), d("400"));
+        // Not yet hyperinflationary at the opening: the opening carried the amount as
+        // recorded.
+        let later = AcquisitionUnit { opening: None, ..u };
+        assert_eq!(later.opening(d("1600"), 2, half), d("1600"));
+        assert_eq!(later.back_to_opening(d("2400")), d("1600"));
+        // Rounded once, in the functional currency: 1 x 7/3 = 2.333... -> 2.33; JPY 0.
+        let odd = AcquisitionUnit { then: d("3"), now: d("7"), opening: None };
+        assert_eq!(odd.now(d("1"), 2, half), d("2.33"));
+        assert_eq!(odd.now(d("1"), 0, half), d("2"));
+    }
+
+    /// The case `hyperinflationary-subsidiary-acquired-ias29` (S in ARS, hyperinflationary
+    /// from 2025-01, acquired 2025-07-01; index 80 at 2025-06, 100 at 2025-12, 120 at
+    /// 2026-02) loaded, then broken one way at a time.
+    #[test]
+    fn an_acquired_subsidiary_is_restated_and_what_is_not_supported_blocks() {
+        let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/cases/hyperinflationary-subsidiary-acquired-ias29");
+        let (ds, found) = crate::load::load(&dir);
+        let mut ds = ds.unwrap_or_else(|| panic!("{found:?}"));
+        let p = |s: &str| s.parse::<Period>().unwrap();
+        let s = EntityId::new("S");
+        let units = acquisition_units(&ds, p("2026-02"), p("2026-01"));
+        assert_eq!(units.get(&s), Some(&AcquisitionUnit { then: d("80"), now: d("120"), opening: Some(d("100")) }));
+        let full = |_: &EntityId| Some(Method::Full);
+        let e = ds.entity(&s).unwrap().clone();
+        let rules_of = |ds: &Dataset, e: &Entity, m: &dyn Fn(&EntityId) -> Option<Method>| -> Vec<Rule> {
+            acquisition_findings(ds, e, (p("2026-01"), p("2026-02")), m).iter().map(|f| f.rule).collect()
+        };
+        let rules = |ds: &Dataset, m: &dyn Fn(&EntityId) -> Option<Method>| rules_of(ds, &e, m);
+        assert_eq!(rules(&ds, &full), []);
+        let equity = |_: &EntityId| Some(Method::Equity);
+        assert_eq!(rules(&ds, &equity), [Rule::RestatementUnsupported]);
+        ds.acquisitions[0].impairment = d("10");
+        assert_eq!(rules(&ds, &full), [Rule::RestatementUnsupported]);
+        ds.acquisitions[0].impairment = Decimal::ZERO;
+        // Acquired in the year (its month's index, 2026-01's, is there): supported when
+        // the whole year is restated, blocking when hyperinflation begins after its start.
+        let july = ds.acquisitions[0].date;
+        ds.acquisitions[0].date = chrono::NaiveDate::from_ymd_opt(2026, 2, 1).unwrap();
+        assert_eq!(rules(&ds, &full), []);
+        let later = Entity { hyperinflationary_from: Some(p("2026-02")), ..e.clone() };
+        assert_eq!(rules_of(&ds, &later, &full), [Rule::RestatementUnsupported]);
+        ds.acquisitions[0].date = july;
+        // Without the acquisition month's index nothing is restated, and the close blocks.
+        ds.price_indices.retain(|x| x.period != p("2025-06"));
+        assert_eq!(rules(&ds, &full), [Rule::PriceIndexMissing]);
+        assert!(acquisition_units(&ds, p("2026-02"), p("2026-01")).is_empty());
+        // Hyperinflationary only from 2026-02: the opening carried the acquisition as
+        // recorded.
+        ds.price_indices.push(PriceIndex {
+            currency: e.currency,
+            period: p("2025-06"),
+            index: d("80"),
+            source: Source::file("rates/price_index.csv"),
+        });
+        ds.entities.iter_mut().filter(|x| x.id == s).for_each(|x| x.hyperinflationary_from = Some(p("2026-02")));
+        let units = acquisition_units(&ds, p("2026-02"), p("2026-01"));
+        assert_eq!(units.get(&s).map(|u| u.opening), Some(None));
+        assert!(acquisition_units(&ds, p("2026-01"), p("2026-01")).is_empty(), "not yet hyperinflationary");
     }
 }

@@ -154,22 +154,32 @@ fn entity_frame(ds: &Dataset) -> PolarsResult<DataFrame> {
     )
 }
 
-/// `x` translated at `rate` quoted `quote`, rounded once: split by quote direction so
-/// that neither branch is evaluated on rows of the other (a product and a quotient
-/// overflow at different magnitudes).
-fn translate_rows(lf: LazyFrame, minor: usize, mode: RoundingMode) -> PolarsResult<LazyFrame> {
-    let mul = lf
-        .clone()
-        .filter(col("quote_used").eq(lit(Quote::PresentationPerUnit.as_str())))
-        .with_column(money::translate_multiply(col("x"), col("rate"), minor, mode).alias("translated"));
-    let div = lf
-        .clone()
-        .filter(col("quote_used").eq(lit(Quote::UnitsPerPresentation.as_str())))
-        .with_column(money::translate_divide(col("x"), col("rate"), minor, mode).alias("translated"));
-    let none = lf
-        .filter(col("quote_used").is_null())
-        .with_column(lit(NULL).cast(DataType::Decimal(38, minor)).alias("translated"));
-    concat([mul, div, none], UnionArgs::default())
+/// `x` translated at `rate` quoted `quote`, rounded once, in one pass that keeps the
+/// rows in their order (the running sums that follow need each grain's months in
+/// order). Each direction's arithmetic sees only its own rows' amounts and rates: the
+/// other rows get 0 at a rate of 1 there, so that neither a product nor a quotient is
+/// evaluated on a row of the other direction (they overflow at different magnitudes).
+fn translate_rows(lf: LazyFrame, minor: usize, mode: RoundingMode) -> LazyFrame {
+    let is_mul = col("quote_used").eq(lit(Quote::PresentationPerUnit.as_str()));
+    let is_div = col("quote_used").eq(lit(Quote::UnitsPerPresentation.as_str()));
+    let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
+    let one = decimal_lit(Decimal::ONE, RATE_SCALE);
+    let only = |on: &Expr, e: Expr, other: Expr| when(on.clone()).then(e).otherwise(other);
+    let mul = money::translate_multiply(
+        only(&is_mul, col("x"), zero.clone()),
+        only(&is_mul, col("rate"), one.clone()),
+        minor,
+        mode,
+    );
+    let div = money::translate_divide(only(&is_div, col("x"), zero), only(&is_div, col("rate"), one), minor, mode);
+    lf.with_column(
+        when(is_mul)
+            .then(mul)
+            .when(is_div)
+            .then(div)
+            .otherwise(lit(NULL).cast(DataType::Decimal(38, minor)))
+            .alias("translated"),
+    )
 }
 
 /// Translates every entity for the fiscal year through `scope_period`: the grid of
@@ -181,8 +191,7 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
     let minor = ds.settings.presentation_currency.minor_unit() as usize;
     let g = grid(ds, mapped, fiscal_start, last)?;
     let g = choose_rates(ds, g, period_index(fiscal_start.prev()));
-    // The plan so far feeds three branches (by quote direction): computed once.
-    let g = translate_rows(g.cache(), minor, ds.settings.policies.rounding)?;
+    let g = translate_rows(g, minor, ds.settings.policies.rounding);
     let lines = presentation_balances(g, minor)?.collect()?;
     let pzero = decimal_lit(Decimal::ZERO, minor);
     let differences = lines
@@ -218,30 +227,37 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         .unique(None, UniqueKeepStrategy::Any)
         .sort(GRAIN.to_vec(), SortMultipleOptions::default().with_nulls_last(true))
         .with_row_index("gid", None);
+    // The grid is in (gid, period) order by construction (a cross join keeps its left
+    // side's order, each grain with every month), and every join below keeps the
+    // grid's order, so the running sums need no sort of the whole grid.
     let grid = grains.cross_join(periods.lazy(), None);
-    let by_gid = || ["gid", "period_index"];
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
+    let left = |nulls_equal: bool| {
+        let mut a = JoinArgs::new(JoinType::Left);
+        a.nulls_equal = nulls_equal;
+        a.maintain_order = MaintainOrderJoin::Left;
+        a
+    };
 
     Ok(grid
-        .join(mov, keys.clone(), keys.clone(), join_args(JoinType::Left))
+        .join(mov, keys.clone(), keys.clone(), left(true))
         .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
-        .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Left))
-        .join(entity_frame(ds)?.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
+        .join(chart, [col("group_account")], [col("group_account")], left(false))
+        .join(entity_frame(ds)?.lazy(), [col("entity")], [col("entity")], left(false))
         .join(
             rate_frame(ds)?.lazy(),
             [col("currency"), col("period_index")],
             [col("currency"), col("period_index")],
-            JoinArgs::new(JoinType::Left),
+            left(false),
         )
         .join(
             historical_frame(ds)?.lazy(),
             [col("entity"), col("group_account"), col("period_index")],
             [col("entity"), col("group_account"), col("period_index")],
-            JoinArgs::new(JoinType::Left),
+            left(false),
         )
-        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), join_args(JoinType::Left))
-        .sort(by_gid(), SortMultipleOptions::default())
+        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), left(true))
         .with_columns([
             col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
             // The part of the local balance that is IAS 29 restatement, for the audit trail
@@ -316,15 +332,14 @@ fn choose_rates(ds: &Dataset, g: LazyFrame, p0: i32) -> LazyFrame {
 /// movement-translated rows cumulate. The columns of `Translated::lines`.
 fn presentation_balances(g: LazyFrame, minor: usize) -> PolarsResult<LazyFrame> {
     let kind = |k: &str| col("rate_kind").eq(lit(k));
-    let by_gid = || ["gid", "period_index"];
     let pzero = decimal_lit(Decimal::ZERO, minor);
     let cumulated = when(col("by_balance").or(kind("unit")))
         .then(pzero.clone())
         .otherwise(col("translated"))
         .cum_sum(false)
         .over([col("gid")])?;
+    // The rows are still in the grid's (gid, period) order (see `grid`).
     let g = g
-        .sort(by_gid(), SortMultipleOptions::default())
         .with_column(
             when(col("by_balance").or(kind("unit")))
                 .then(col("translated"))

@@ -62,7 +62,8 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     check_counterparties(ds, mapped, &mut f)?;
     check_opening(ds, &mut f)?;
     check_rates(ds, mapped, scope, &mut f)?;
-    f.extend(crate::restate::findings(ds, mapped, scope.fiscal_start, scope.period)?);
+    let method_of = |e: &EntityId| structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
+    f.extend(crate::restate::findings(ds, mapped, scope.fiscal_start, scope.period, &method_of)?);
     check_documents(ds, &mut f)?;
     check_net_investments(ds, &mut f);
     check_group_adjustments(ds, &structure, scope, &mut f);
@@ -451,9 +452,14 @@ fn check_missing_deliveries(
     // The close is complete only with every month of every entity it consolidates or
     // equity-accounts: a missing one is blocking. An entity outside the group at the
     // period end is only said to be missing.
-    // A subsidiary sold in the year has its months to the sale checked by `ownership`;
-    // its figures to then are in the close, so it is neither missing nor outside.
-    let sold: BTreeSet<&EntityId> = crate::ownership::losses_of_control(ds, scope).iter().map(|c| &c.owned).collect();
+    // A subsidiary (or an associate) sold in the year has its months to the sale
+    // checked by `ownership`; its figures to then are in the close, so it is neither
+    // missing nor outside.
+    let sold: BTreeSet<&EntityId> = crate::ownership::losses_of_control(ds, scope)
+        .iter()
+        .chain(crate::ownership::associate_sales(ds, scope).iter())
+        .map(|c| &c.owned)
+        .collect();
     for e in ds.entities.iter().filter(|e| !sold.contains(&e.id)) {
         let needed = in_scope(structure, &e.id);
         let sev = if needed { Severity::Blocking } else { Severity::Warning };

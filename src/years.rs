@@ -225,10 +225,11 @@ pub struct Derived {
     /// The entities whose opening is derived.
     pub entities: BTreeSet<EntityId>,
     /// entity, local account, counterparty -> closing balance, of which profit or loss
-    /// and OCI closed into it (retained earnings only).
+    /// and OCI closed into it (retained earnings and the named reserves only).
     pub local: BTreeMap<(EntityId, String, Option<String>), (Decimal, Decimal)>,
     /// entity, group account, counterparty -> translated carrying amount, of which the
-    /// translated result of the year (retained earnings only): historical basis only.
+    /// translated result of the year (retained earnings and the named reserves only):
+    /// historical basis only.
     pub presentation: BTreeMap<(EntityId, GroupAccount, Option<String>), (Decimal, Decimal)>,
     /// The year the opening is derived from (its first month).
     pub from_year: Period,
@@ -305,10 +306,13 @@ fn local_closing(prior: &Dataset, start: Period, entities: &BTreeSet<EntityId>) 
 }
 
 /// The translated carrying amounts at the prior year's end: per historical-basis grain
-/// (entity, group account, counterparty, transaction currency), and per entity the
-/// translated result of the year (every average-basis account: income, expense, OCI).
-type Carried =
-    (BTreeMap<(EntityId, GroupAccount, Option<String>, Option<String>), Decimal>, BTreeMap<EntityId, Decimal>);
+/// (entity, group account, counterparty, transaction currency), and per entity and group
+/// account the translated result of the year (every average-basis account: income,
+/// expense, OCI).
+type Carried = (
+    BTreeMap<(EntityId, GroupAccount, Option<String>, Option<String>), Decimal>,
+    BTreeMap<(EntityId, GroupAccount), Decimal>,
+);
 
 fn translated_carried(t: &crate::translate::Translated, end: Period) -> PolarsResult<Carried> {
     let df = t.lines.clone().lazy().filter(col("period_index").eq(lit(period_index(end)))).collect()?;
@@ -317,7 +321,7 @@ fn translated_carried(t: &crate::translate::Translated, end: Period) -> PolarsRe
         (s("entity")?, s("group_account")?, s("counterparty")?, s("txn_currency")?, s("basis")?);
     let v = column_decimals(df.column("balance_presentation")?)?;
     let mut grains = BTreeMap::new();
-    let mut result: BTreeMap<EntityId, Decimal> = BTreeMap::new();
+    let mut result: BTreeMap<(EntityId, GroupAccount), Decimal> = BTreeMap::new();
     for i in 0..df.height() {
         let (Some(entity), Some(account)) = (&e[i], &ga[i]) else { continue };
         let value = v[i].unwrap_or_default();
@@ -327,7 +331,7 @@ fn translated_carried(t: &crate::translate::Translated, end: Period) -> PolarsRe
                     .entry((EntityId::new(entity), GroupAccount::new(account), cp[i].clone(), txn[i].clone()))
                     .or_default() += value;
             }
-            Some("average") => *result.entry(EntityId::new(entity)).or_default() += value,
+            Some("average") => *result.entry((EntityId::new(entity), GroupAccount::new(account))).or_default() += value,
             _ => {}
         }
     }
@@ -335,8 +339,9 @@ fn translated_carried(t: &crate::translate::Translated, end: Period) -> PolarsRe
 }
 
 /// Each entity's opening of the year after `prior` (a one-year dataset starting
-/// `start`): the closing balances, the result closed into retained earnings, the
-/// historical carrying amounts carried.
+/// `start`): the closing balances, the result closed into retained earnings (the OCI of
+/// an account whose `reserve` names an equity account other than the translation
+/// reserve into that reserve: `close_targets`), the historical carrying amounts carried.
 pub fn derive_opening(
     prior: &Dataset,
     t: &crate::translate::Translated,
@@ -349,6 +354,7 @@ pub fn derive_opening(
     let historical: BTreeSet<&GroupAccount> =
         prior.accounts.iter().filter(|a| a.basis == Basis::Historical).map(|a| &a.account).collect();
     let retained_local = retained_earnings_accounts(prior, &roles.retained_earnings)?;
+    let named = named_reserve_accounts(prior)?;
     let next = start.plus_months(12);
     let closing = local_closing(prior, start, entities)?;
     let with_opening = entities_of(&prior.opening)?;
@@ -394,7 +400,8 @@ pub fn derive_opening(
         };
         d.entities.insert(e.clone());
         let mine: Vec<&Closing> = closing.iter().filter(|c| &c.entity == e).collect();
-        let flows: Decimal = mine.iter().filter(|c| c.flow).map(|c| c.amount).sum();
+        let (targets, unmapped) = close_targets(&named, e, (re_local, &roles.retained_earnings), &mine, &result);
+        findings.extend(unmapped.into_iter().map(|r| reserve_not_derivable(e, &r, next)));
         let mut own: Vec<Closing> = mine
             .iter()
             .filter(|c| !c.flow)
@@ -409,25 +416,31 @@ pub fn derive_opening(
                 txn_amount: c.txn_amount,
             })
             .collect();
-        let re_key = |c: &Closing| &c.account == re_local && c.counterparty.is_none() && c.txn_currency.is_none();
-        if !own.iter().any(re_key) {
-            own.push(Closing {
-                entity: e.clone(),
-                account: re_local.clone(),
-                counterparty: None,
-                txn_currency: None,
-                group_account: roles.retained_earnings.clone(),
-                flow: false,
-                amount: Decimal::ZERO,
-                txn_amount: Decimal::ZERO,
-            });
+        // The flows closed into a target (local, translated), on its plain grain.
+        let closed_into = |c: &Closing| -> Option<(Decimal, Decimal)> {
+            let (group, x, pres) = targets.get(&c.account)?;
+            (c.counterparty.is_none() && c.txn_currency.is_none() && *group == c.group_account).then_some((*x, *pres))
+        };
+        for (local, (group, _, _)) in &targets {
+            if !own.iter().any(|c| &c.account == local && c.counterparty.is_none() && c.txn_currency.is_none()) {
+                own.push(Closing {
+                    entity: e.clone(),
+                    account: local.clone(),
+                    counterparty: None,
+                    txn_currency: None,
+                    group_account: group.clone(),
+                    flow: false,
+                    amount: Decimal::ZERO,
+                    txn_amount: Decimal::ZERO,
+                });
+            }
         }
         own.sort_by(|a, b| {
             (&a.account, &a.counterparty, &a.txn_currency).cmp(&(&b.account, &b.counterparty, &b.txn_currency))
         });
         let mut carried_grains: BTreeSet<(GroupAccount, Option<String>, Option<String>)> = BTreeSet::new();
         for mut c in own {
-            let closed = if re_key(&c) { flows } else { Decimal::ZERO };
+            let (closed, year) = closed_into(&c).unwrap_or_default();
             c.amount += closed;
             let local = d.local.entry((e.clone(), c.account.clone(), c.counterparty.clone())).or_default();
             local.0 += c.amount;
@@ -440,7 +453,6 @@ pub fn derive_opening(
             {
                 let grain = (e.clone(), c.group_account.clone(), c.counterparty.clone(), c.txn_currency.clone());
                 let own = grains.get(&grain).copied().unwrap_or_default();
-                let year = if re_key(&c) { result.get(e).copied().unwrap_or_default() } else { Decimal::ZERO };
                 let p = d.presentation.entry((e.clone(), c.group_account.clone(), c.counterparty.clone())).or_default();
                 p.0 += own + year;
                 p.1 += year;
@@ -472,6 +484,34 @@ fn brought_forward(
     let mut out = prior.brought_forward.clone();
     // The reserve per operation is cumulative: the year end's replaces what came before.
     out.operation_reserves = close.reserves.iter().map(|r| (r.operation.clone(), r.reserve)).collect();
+    // The named reserves' balances at acquisition, as the year end's investment entries
+    // eliminated them (investment.rs): the part of each reserve that is not the group's.
+    // A subsidiary acquired in that year also had OCI of the year before control on the
+    // accounts accumulating into the reserve, moved to equity at acquisition
+    // (pre_acquisition.rs, IFRS 10.B88); its books close it into the reserve, so it is
+    // part of the reserve at acquisition too.
+    let reserve_of: BTreeMap<&GroupAccount, &GroupAccount> = prior
+        .accounts
+        .iter()
+        .filter_map(|a| Some((&a.account, a.reserve.as_ref().filter(|r| **r != roles.translation_reserve)?)))
+        .collect();
+    let named: BTreeSet<&GroupAccount> = reserve_of.values().copied().collect();
+    let mut at_acquisition: BTreeMap<(EntityId, GroupAccount), Decimal> = BTreeMap::new();
+    for e in &close.journal {
+        for l in e.lines.iter().filter(|l| l.counterparty.is_none()) {
+            let reserve = match e.rule {
+                crate::close::EliminationRule::InvestmentAndGoodwill if named.contains(&l.account) => &l.account,
+                crate::close::EliminationRule::PreAcquisitionResults => match reserve_of.get(&l.account) {
+                    Some(r) => *r,
+                    None => continue,
+                },
+                _ => continue,
+            };
+            // Both entries debit a credit balance to take it out of the group's.
+            *at_acquisition.entry((l.entity.clone(), reserve.clone())).or_default() -= l.amount;
+        }
+    }
+    out.reserves_at_acquisition.extend(at_acquisition);
     for e in &close.journal {
         for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
             let Some(cp) = &l.counterparty else { continue };
@@ -491,8 +531,86 @@ fn brought_forward(
     Ok(out)
 }
 
+/// Where one entity's flows of the year close, by local account: the group account,
+/// the local amount and the translated amount. The OCI of an account with a named
+/// reserve closes into it (IAS 16.41: a revaluation surplus stays in equity as such
+/// until it is realised; IAS 1.106(d): each component of equity carries its own
+/// balance), the rest into retained earnings. Reserves the entity has OCI for but no
+/// local account mapped to are returned apart (their OCI stays with retained earnings,
+/// and a finding blocks).
+type Targets = BTreeMap<String, (GroupAccount, Decimal, Decimal)>;
+
+/// The reserve each OCI account accumulates into (named in the chart, other than the
+/// translation reserve), and per entity and such reserve the first local account
+/// mapped to it.
+type NamedReserves = (BTreeMap<GroupAccount, GroupAccount>, BTreeMap<(EntityId, GroupAccount), String>);
+
+fn named_reserve_accounts(prior: &Dataset) -> PolarsResult<NamedReserves> {
+    let tr = &prior.settings.accounts.translation_reserve;
+    let reserve_of: BTreeMap<GroupAccount, GroupAccount> = prior
+        .accounts
+        .iter()
+        .filter_map(|a| Some((a.account.clone(), a.reserve.clone().filter(|r| r != tr)?)))
+        .collect();
+    let mut reserve_local = BTreeMap::new();
+    for r in reserve_of.values().collect::<BTreeSet<_>>() {
+        for (e, local) in retained_earnings_accounts(prior, r)? {
+            reserve_local.insert((e, r.clone()), local);
+        }
+    }
+    Ok((reserve_of, reserve_local))
+}
+
+fn close_targets(
+    (reserve_of, reserve_local): &NamedReserves,
+    e: &EntityId,
+    (re_local, re): (&str, &GroupAccount),
+    mine: &[&Closing],
+    result: &BTreeMap<(EntityId, GroupAccount), Decimal>,
+) -> (Targets, BTreeSet<GroupAccount>) {
+    let mut targets = Targets::new();
+    let mut unmapped = BTreeSet::new();
+    let target = |acct: &GroupAccount| -> (String, GroupAccount) {
+        match reserve_of.get(acct).and_then(|r| Some((reserve_local.get(&(e.clone(), r.clone()))?, r))) {
+            Some((local, r)) => (local.clone(), r.clone()),
+            None => (re_local.to_string(), re.clone()),
+        }
+    };
+    targets.insert(re_local.to_string(), (re.clone(), Decimal::ZERO, Decimal::ZERO));
+    for c in mine.iter().filter(|c| c.flow) {
+        if let Some(r) = reserve_of.get(&c.group_account)
+            && !reserve_local.contains_key(&(e.clone(), r.clone()))
+            && !c.amount.is_zero()
+        {
+            unmapped.insert(r.clone());
+        }
+        let (local, group) = target(&c.group_account);
+        targets.entry(local).or_insert((group, Decimal::ZERO, Decimal::ZERO)).1 += c.amount;
+    }
+    for ((_, acct), v) in result.iter().filter(|((x, _), _)| x == e) {
+        let (local, group) = target(acct);
+        targets.entry(local).or_insert((group, Decimal::ZERO, Decimal::ZERO)).2 += *v;
+    }
+    (targets, unmapped)
+}
+
+/// The finding for OCI of a named reserve with no local account to close into.
+fn reserve_not_derivable(e: &EntityId, reserve: &GroupAccount, next: Period) -> Finding {
+    Finding::new(
+        Rule::OpeningNotDerivable,
+        format!(
+            "{e}'s opening of {next} cannot be carried: its OCI of the year accumulates in the reserve {reserve} (the `reserve` column of entities/accounts.csv), but no local account of {e} maps to {reserve}"
+        ),
+        format!("map a local account of {e} to {reserve} in entities/{e}/mapping.csv, so that the reserve keeps its OCI (IAS 1.106(d))"),
+    )
+    .entity(e)
+    .period(next)
+    .severity(Severity::Blocking)
+}
+
 /// Per entity, the first local account (in account order) its mapping maps to
-/// retained earnings: where the year's result is closed.
+/// retained earnings (or to another equity account `re`): where the year's result is
+/// closed.
 fn retained_earnings_accounts(ds: &Dataset, re: &GroupAccount) -> PolarsResult<BTreeMap<EntityId, String>> {
     let m = &ds.mappings;
     let e = column_strings(m, "entity")?;
@@ -789,6 +907,7 @@ mod tests {
             findings: Vec::new(),
             disposals: Vec::new(),
             stake_changes: Vec::new(),
+            nci_at_acquisition: BTreeMap::new(),
         }
     }
 

@@ -151,7 +151,7 @@ pub fn post(
     // After this change and up to the next one of the year (or the period end).
     let nci_after = next.map_or(s.nci, |n| n.nci_share);
     let fc = cx.currencies.get(e).copied().unwrap_or(cx.presentation);
-    let g = goodwill_moved(cx, a, fc, (outside_before - outside_after) * a.net_assets)?;
+    let g = goodwill_moved(cx, a, fc, (goodwill_at(a, outside_before), goodwill_at(a, outside_after)))?;
     let investment_now: Decimal =
         invest.get(e).into_iter().flatten().filter(|(h, _, _)| h == holder).map(|(_, _, x)| *x).sum();
     let investment_change = next.map_or(investment_now, |n| n.investment) - b.investment;
@@ -216,28 +216,45 @@ pub fn post(
     Some(StakeChange { entity: e.clone(), date: c.date, nci_transferred, cash })
 }
 
-/// The goodwill a change in stake moves back to its amount at acquisition (in the
-/// subsidiary's currency `moved_fc`), in the presentation currency: at the acquisition
-/// date's rate, at the opening of the year (the acquisition date's rate when acquired in
-/// the year) and at the closing rate. One currency: three times the same amount.
+/// Goodwill in the subsidiary's currency with the NCI at acquisition at its share
+/// `outside` of the net assets (IFRS 3.19, 3.32), after impairment, as the investment
+/// entry measures it.
+fn goodwill_at(a: &Acquisition, outside: Decimal) -> Decimal {
+    a.consideration + outside * a.net_assets - a.net_assets - a.impairment
+}
+
+/// The goodwill a change in stake moves back towards its amount at acquisition, from
+/// goodwill at the share after the change (`after_fc`, in the subsidiary's currency) to
+/// goodwill at the share before it (`before_fc`), in the presentation currency: at the
+/// acquisition date's rate, at the opening of the year (the acquisition date's rate
+/// when acquired in the year) and at the closing rate. Each is the difference of the
+/// two goodwill amounts translated whole, so that over the year's changes the pieces
+/// telescope and the investment entry's goodwill (at the period end's share) plus them
+/// is goodwill at acquisition translated with one rounding (IAS 21.47), not a sum of
+/// pieces rounded each. One currency: three times the same amount.
 struct Moved {
     historical: Decimal,
     opening: Decimal,
     closing: Decimal,
 }
 
-fn goodwill_moved(cx: &Context, a: &Acquisition, fc: Currency, moved_fc: Decimal) -> Option<Moved> {
-    let historical = if fc == cx.presentation || a.net_assets.is_zero() {
-        cx.round(moved_fc)
-    } else {
-        cx.round(moved_fc * a.net_assets_presentation / a.net_assets)
+fn goodwill_moved(
+    cx: &Context,
+    a: &Acquisition,
+    fc: Currency,
+    (before_fc, after_fc): (Decimal, Decimal),
+) -> Option<Moved> {
+    let at_hist = |x: Decimal| {
+        if fc == cx.presentation || a.net_assets.is_zero() {
+            cx.round(x)
+        } else {
+            cx.round(x * a.net_assets_presentation / a.net_assets)
+        }
     };
-    let opening = if Period::of_date(a.date) >= cx.fiscal_start {
-        historical
-    } else {
-        cx.at_closing(fc, moved_fc, cx.fiscal_start.prev())?
-    };
-    Some(Moved { historical, opening, closing: cx.at_closing(fc, moved_fc, cx.period)? })
+    let at = |p: Period| Some(cx.at_closing(fc, before_fc, p)? - cx.at_closing(fc, after_fc, p)?);
+    let historical = at_hist(before_fc) - at_hist(after_fc);
+    let opening = if Period::of_date(a.date) >= cx.fiscal_start { historical } else { at(cx.fiscal_start.prev())? };
+    Some(Moved { historical, opening, closing: at(cx.period)? })
 }
 
 #[cfg(test)]
@@ -356,5 +373,25 @@ mod tests {
             ]
         );
         assert_eq!(done.map(|x| (x.nci_transferred, x.cash)), Some((d("70"), d("-90"))));
+    }
+
+    /// Goodwill is translated whole (IAS 21.47, one rounding). At 3 USD per EUR at 31
+    /// March, goodwill at acquisition, USD 160, is 53.33; the investment entry takes the
+    /// USD 80 of the period end's share at 26.67, so this entry adds 53.33 - 26.67 =
+    /// 26.66, not the USD 80 moved rounded on its own (26.67, making 53.34). At the
+    /// opening rate of 2 the same move is 80 - 40 = 40: the year's exchange difference
+    /// 40 - 26.66 = 13.34 in OCI; retained earnings take B96's 50 as at one rate.
+    #[test]
+    fn goodwill_moved_is_the_difference_of_goodwill_translated_whole() {
+        let (j, _, _) = post_purchase(&[("2026-03", "3")]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1100".into(), "S".into(), "26.66".into()),
+                ("9000".into(), "S".into(), "13.34".into()),
+                ("3300".into(), "S".into(), "-90".into()),
+                ("3200".into(), "S".into(), "50".into())
+            ]
+        );
     }
 }

@@ -8,7 +8,7 @@
 //! `fair_value::findings` for the fair value adjustments, `equity_method::findings` for
 //! what the equity method cannot express).
 
-use std::collections::{BTreeMap, BTreeSet};
+use std::collections::BTreeSet;
 
 use polars::prelude::*;
 
@@ -32,24 +32,27 @@ pub fn data_findings(
     let mut out: Vec<Finding> =
         unrealised_profit::missing_accounts(roles, &ds.inventory_profits, period).into_iter().collect();
     let held = held_as_investment(ds, s, mapped, period)?;
-    let acq: BTreeMap<&EntityId, &Acquisition> = ds.acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(&ds.acquisitions, period.last_day());
     let statement_of = |a: &GroupAccount| ds.account(a).map(|d| d.statement);
     for e in s.entities().iter().filter(|e| e.method == Method::Full && &e.id != s.parent()) {
         let Some(currency) = ds.entity(&e.id).map(|x| x.currency) else { continue };
         let a = acq.get(&e.id).copied();
         out.extend(investment::findings(e, a, held.contains(&e.id), currency, fiscal_start, roles, &statement_of));
     }
+    for e in s.entities().iter().filter(|e| e.method == Method::Proportionate && held.contains(&e.id)) {
+        out.push(investment::joint_operation_held(&e.id));
+    }
     for e in s.entities().iter().filter(|e| e.method == Method::Equity && !acq.contains_key(&e.id)) {
         out.push(equity_method::acquisition_missing(&e.id));
     }
     let method_of = |e: &EntityId| s.entities().iter().find(|x| &x.id == e).map(|x| x.method);
-    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= period);
-    out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper));
+    out.extend(fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of));
     let has_rate = |e: &EntityId, p: Period| super::impairment_rate_known(ds, e, p);
     let when = (period, fiscal_start);
     out.extend(impairment::findings(&ds.impairments, &ds.acquisitions, when, roles, &has_rate, &method_of));
     out.extend(fair_value::deferred_tax_findings(ds, period));
     out.extend(equity_method::findings(ds, &method_of, period));
+    out.extend(equity_method::long_term_findings(ds, &method_of));
     Ok(out)
 }
 

@@ -145,6 +145,7 @@ pub mod fixture {
         investment_fx: BTreeMap::new(),
         equity_method_oci: BTreeMap::new(),
         operation_reserves: BTreeMap::new(),
+        reserves_at_acquisition: BTreeMap::new(),
     };
 
     pub fn d(s: &str) -> Decimal {

@@ -14,10 +14,14 @@
 //!   `fair_value.rs`) reduces the share of profit, earlier years' reduce retained
 //!   earnings, and their exchange difference (IAS 21.47) is in the share of OCI. Goodwill
 //!   stays inside the carrying amount, neither recognised nor amortised (IAS 28.32(a));
+//!   a bargain purchase (the share of the net assets above the cost) is income in the
+//!   share of result of the period of acquisition (IAS 28.32(b), `bargain_purchase`);
 //! - dividends received from the investee reduce the investment, not profit (IAS 28.10):
 //!   the holder's dividend income naming it is reversed against the investment;
 //! - losses beyond the carrying amount (cost at the acquisition date's rate plus the
-//!   share since) are not recognised: the investment stops at zero, the unrecognised
+//!   share since) first reduce the long-term interests that form part of the net
+//!   investment (`long_term_interests.csv`, IAS 28.38, `split_over_interests`); beyond
+//!   them they are not recognised: the net investment stops at zero, the unrecognised
 //!   share is shown in the entry and as a warning, and profits are recognised again only
 //!   once they cover it (IAS 28.38-39); the same figures from the start of the
 //!   acquisition make the tracking carry from year to year;
@@ -88,14 +92,16 @@ fn start_of(cx: &Context, a: &Acquisition) -> Start {
     }
 }
 
-/// The last acquisition record of each entity (the last wins, as in the investment rule).
-fn last_records(acquisitions: &[Acquisition]) -> BTreeMap<&EntityId, &Acquisition> {
-    acquisitions.iter().map(|a| (&a.owned, a)).collect()
+/// The acquisition record of each entity for a close at `until` ([`acquisition_records`]):
+/// closed before control, an associate that becomes a subsidiary starts from the
+/// associate's record; after a loss of control, an associate retained from its own.
+fn last_records(acquisitions: &[Acquisition], until: chrono::NaiveDate) -> BTreeMap<&EntityId, &Acquisition> {
+    acquisition_records(acquisitions, until)
 }
 
 /// The balances of every equity-accounted investee with an acquisition record.
 pub fn investees(ds: &Dataset, t: &Translated, cx: &Context, acquisitions: &[Acquisition]) -> PolarsResult<Investees> {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let mut out = Investees::new();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else { continue };
@@ -128,6 +134,8 @@ pub struct Inputs<'a> {
     /// The impairments by month (`impairment::dated`), for investees of the investment.
     pub impairments: &'a BTreeMap<EntityId, Vec<Dated>>,
     pub rates: &'a ExpenseRates,
+    /// The long-term interests in each investee ([`long_term_interests`]).
+    pub long_term: &'a LongTerms,
 }
 
 /// `x` of the investee's currency `fc` at the acquisition date's rate, as the
@@ -211,9 +219,22 @@ pub struct Capped {
 /// recognised before it is recognised (IAS 28.39).
 pub fn cap_losses(cost: Decimal, prior: Decimal, profit: Decimal, oci: Decimal, dividends: Decimal) -> Capped {
     let floor = -cost.max(Decimal::ZERO);
-    let prior_rec = prior.max(floor);
+    cap_losses_at((floor, floor), prior, profit, oci, dividends)
+}
+
+/// [`cap_losses`] with the floor of the opening and of the period given apart: the net
+/// investment the losses may take to zero is the cost plus the long-term interests
+/// (IAS 28.38), whose balances can differ at the two dates.
+pub fn cap_losses_at(
+    (floor_open, floor_now): (Decimal, Decimal),
+    prior: Decimal,
+    profit: Decimal,
+    oci: Decimal,
+    dividends: Decimal,
+) -> Capped {
+    let prior_rec = prior.max(floor_open);
     let cumulative = prior + profit + oci - dividends;
-    let cumulative_rec = cumulative.max(floor);
+    let cumulative_rec = cumulative.max(floor_now);
     let year = cumulative_rec - prior_rec;
     Capped {
         prior: prior_rec,
@@ -251,7 +272,7 @@ pub fn post(
     inputs: &Inputs,
     findings: &mut Vec<Finding>,
 ) {
-    let acq = last_records(acquisitions);
+    let acq = last_records(acquisitions, cx.period.last_day());
     let none = Investee::default();
     for e in cx.of_method(Method::Equity) {
         let Some(a) = acq.get(&e.id) else {
@@ -303,16 +324,20 @@ fn post_share(
     let share = e.effective_interest;
     let r = |x: Decimal| cx.round(x * share);
     let (sp, so, spr) = (r(profit - up.expense), r(oci_year + up.fx), r(prior + up.prior));
+    let bargain = bargain_purchase(cx, fc, a, share, inputs.uplifts);
+    let (sp, spr) = if let Start::InYear(_) = start_of(cx, a) { (sp + bargain, spr) } else { (sp, spr + bargain) };
     let dividends = dividends_received(cx, &e.id);
     let div: Decimal = dividends.iter().map(|d| d.2).sum();
-    let c = cap_losses(cost, spr, sp, so, div);
+    let interests = inputs.long_term.get(&e.id).map(Vec::as_slice).unwrap_or_default();
+    let c = cap_losses_at(net_investment_floors(cost, interests), spr, sp, so, div);
+    let (to_investment, to_interests) = split_over_interests(cost, c.prior + c.profit + so - div, interests);
     let holder = holder_of(cx, e);
     // The share of OCI of the earlier years the folder holds stays in the translation
     // reserve where the year-end close put it (IAS 28.10), not in retained earnings.
     let oci_before =
         cx.brought_forward.equity_method_oci.get(&(holder.clone(), e.id.clone())).copied().unwrap_or_default();
     let mut lines = vec![
-        line(&roles.equity_investments, &holder, Some(&e.id), c.prior + c.profit + so - div),
+        line(&roles.equity_investments, &holder, Some(&e.id), to_investment),
         line(&roles.equity_result, &holder, Some(&e.id), -c.profit),
         line(&roles.translation_difference, &holder, Some(&e.id), -so),
         line(&roles.retained_earnings, &holder, Some(&e.id), -(c.prior - oci_before)),
@@ -321,6 +346,7 @@ fn post_share(
         lines.push(line(&roles.translation_reserve, &holder, Some(&e.id), -oci_before));
     }
     lines.extend(dividends.iter().map(|(receiver, acct, x)| line(acct, receiver, Some(&e.id), *x)));
+    lines.extend(interests.iter().zip(&to_interests).map(|(l, x)| line(&l.account, &l.holder, Some(&e.id), *x)));
     let m = |x: Decimal| money::format_amount(x, cx.minor);
     let from = match start_of(cx, a) {
         Start::InYear(month) => format!(" from {month}"),
@@ -340,12 +366,168 @@ fn post_share(
     if !div.is_zero() {
         text.push_str(&format!("; dividends received {} off the investment", m(div)));
     }
+    if !bargain.is_zero() {
+        text.push_str(&format!(
+            "; bargain purchase {} in the share of result of {} (IAS 28.32(b))",
+            m(bargain),
+            a.date
+        ));
+    }
+    let absorbed: Decimal = to_interests.iter().sum();
+    if !absorbed.is_zero() {
+        text.push_str(&format!("; losses applied to long-term interests {} (IAS 28.38)", m(-absorbed)));
+    }
     if !c.unrecognised.is_zero() || !c.unrecognised_open.is_zero() {
         text.push_str(&format!("; losses not recognised {} (opening {})", m(c.unrecognised), m(c.unrecognised_open)));
-        findings.push(losses_unrecognised(&e.id, cx.period, cost, spr + sp + so - div, c.unrecognised));
+        let net_investment = -net_investment_floors(cost, interests).1;
+        findings.push(losses_unrecognised(&e.id, cx.period, net_investment, spr + sp + so - div, c.unrecognised));
     }
     j.post(EliminationRule::EquityMethod, holder.clone(), vec![holder, e.id.clone()], text, lines);
-    Some(cost + c.prior + c.profit + so - div)
+    Some(cost + to_investment)
+}
+
+/// A bargain purchase of an investee (IAS 28.32(b)): the excess of the investor's
+/// `share` of the net fair value of the identifiable net assets (`net_assets`, less the
+/// deferred tax on its fair value adjustments, as for a subsidiary, IAS 12.19) over the
+/// cost, at the acquisition date's rate; 0 when the cost is not below it. It is income
+/// in the share of the investee's result of the period of acquisition: the caller puts
+/// it in the year's share when the acquisition is in the fiscal year, in the earlier
+/// years' (retained earnings) after. The carrying amount includes it, so the floor of
+/// IAS 28.38 needs no change.
+fn bargain_purchase(cx: &Context, fc: Currency, a: &Acquisition, share: Decimal, uplifts: &[Uplift]) -> Decimal {
+    let tax: Decimal = uplifts.iter().filter(|u| u.owned == a.owned && u.deferred_tax).map(|u| u.amount).sum();
+    let excess = (a.net_assets + tax) * share - a.consideration;
+    if excess <= Decimal::ZERO {
+        return Decimal::ZERO;
+    }
+    at_acquisition(cx, fc, a, excess).unwrap_or_default()
+}
+
+/// One long-term interest in an investee as the close reads it (IAS 28.38): the
+/// holder's balance on the account naming the investee, in the presentation currency,
+/// at the month end before the fiscal year and at the period (an asset, debit
+/// positive).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LongTerm {
+    pub holder: EntityId,
+    pub account: GroupAccount,
+    pub opening: Decimal,
+    pub now: Decimal,
+}
+
+/// The long-term interests by investee, in the order of `long_term_interests.csv`.
+pub type LongTerms = BTreeMap<EntityId, Vec<LongTerm>>;
+
+/// The long-term interests of `long_term_interests.csv` whose holder is consolidated
+/// and whose investee is equity-accounted (the others are [`long_term_findings`]). The
+/// balances are the holder's as booked, after any loss allowance it recognised under
+/// IFRS 9, which applies to them before IAS 28.38 does (IAS 28.14A).
+pub fn long_term_interests(ds: &Dataset, t: &Translated, cx: &Context) -> PolarsResult<LongTerms> {
+    let mut out = LongTerms::new();
+    for r in &ds.long_term_interests {
+        if !cx.consolidated.contains(&r.holder) || !cx.of_method(Method::Equity).any(|e| e.id == r.investee) {
+            continue;
+        }
+        let key = (r.account.clone(), Some(r.investee.clone()));
+        let now = cx.balances.get(&r.holder).and_then(|b| b.get(&key)).copied().unwrap_or_default();
+        let opening = balance_naming(t, &r.holder, &r.account, &r.investee, cx.fiscal_start.prev())?;
+        out.entry(r.investee.clone()).or_default().push(LongTerm {
+            holder: r.holder.clone(),
+            account: r.account.clone(),
+            opening,
+            now,
+        });
+    }
+    Ok(out)
+}
+
+/// The translated balance of `holder` on `account` naming `counterparty` at `period`.
+fn balance_naming(
+    t: &Translated,
+    holder: &EntityId,
+    account: &GroupAccount,
+    counterparty: &EntityId,
+    period: Period,
+) -> PolarsResult<Decimal> {
+    use polars::prelude::*;
+    let df = t
+        .lines
+        .clone()
+        .lazy()
+        .filter(
+            col("entity")
+                .eq(lit(holder.as_str()))
+                .and(col("group_account").eq(lit(account.as_str())))
+                .and(col("counterparty").eq(lit(counterparty.as_str())))
+                .and(col("period_index").eq(lit(crate::map_accounts::period_index(period)))),
+        )
+        .select([col("balance_presentation").sum()])
+        .collect()?;
+    Ok(money::column_decimals(df.column("balance_presentation")?)?.first().copied().flatten().unwrap_or_default())
+}
+
+/// The floors of the cumulative share at the opening and at the period: minus the net
+/// investment, the cost plus the long-term interests at each date (IAS 28.38).
+fn net_investment_floors(cost: Decimal, interests: &[LongTerm]) -> (Decimal, Decimal) {
+    let base = cost.max(Decimal::ZERO);
+    let open: Decimal = interests.iter().map(|l| l.opening.max(Decimal::ZERO)).sum();
+    let now: Decimal = interests.iter().map(|l| l.now.max(Decimal::ZERO)).sum();
+    (-(base + open), -(base + now))
+}
+
+/// The recognised change of the net investment since acquisition (`change`, a loss
+/// negative) split between the investment in the ordinary shares at `cost` and the
+/// long-term interests. Losses beyond the cost reduce the interests in the file's order,
+/// each to zero at most (IAS 28.38: in the reverse order of their seniority); as the
+/// split is of the cumulative change, later profits, once the losses not recognised are
+/// covered (IAS 28.39), restore the interests in the opposite order and the investment
+/// last. Returns the investment's change and each interest's (zero or a credit).
+fn split_over_interests(cost: Decimal, change: Decimal, interests: &[LongTerm]) -> (Decimal, Vec<Decimal>) {
+    let base = cost.max(Decimal::ZERO);
+    let mut beyond = (-(base + change)).max(Decimal::ZERO);
+    let to_investment = change + beyond;
+    let to_interests = interests
+        .iter()
+        .map(|l| {
+            let take = beyond.min(l.now.max(Decimal::ZERO));
+            beyond -= take;
+            -take
+        })
+        .collect();
+    (to_investment, to_interests)
+}
+
+/// What `long_term_interests.csv` names that the close cannot use (blocking): a holder
+/// that is not consolidated, an investee that is not equity-accounted at the period, an
+/// account that is not a balance-sheet asset of the chart, and a row given twice.
+pub fn long_term_findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>) -> Vec<Finding> {
+    let mut out = Vec::new();
+    let mut seen = std::collections::BTreeSet::new();
+    for r in &ds.long_term_interests {
+        let problem = if !matches!(method_of(&r.holder), Some(Method::Full | Method::Proportionate)) {
+            Some(format!("the holder {} is not consolidated", r.holder))
+        } else if method_of(&r.investee) != Some(Method::Equity) {
+            Some(format!("{} is not accounted for by the equity method", r.investee))
+        } else if !ds.account(&r.account).is_some_and(|a| a.class == AccountClass::Asset) {
+            Some(format!("{} is not an asset account of entities/accounts.csv", r.account))
+        } else if !seen.insert((&r.holder, &r.investee, &r.account)) {
+            Some("the row is given twice".to_string())
+        } else {
+            None
+        };
+        if let Some(problem) = problem {
+            out.push(
+                Finding::new(
+                    Rule::ValueInvalid,
+                    format!("long-term interest of {} in {} on {}: {problem}", r.holder, r.investee, r.account),
+                    "name a consolidated holder, an equity-accounted investee and the asset account of the holder's long-term loan or receivable naming it (IAS 28.38), once",
+                )
+                .at(&r.source)
+                .entity(&r.investee),
+            );
+        }
+    }
+    out
 }
 
 /// The fair value adjustments at the acquisition date's rate: the investee's books at
@@ -356,13 +538,13 @@ fn at_acq_uplifts(cx: &Context, fc: Currency, a: &Acquisition, inputs: &Inputs) 
 }
 
 /// The warning that shows the losses not recognised (IAS 28.39).
-fn losses_unrecognised(e: &EntityId, period: Period, cost: Decimal, share: Decimal, unrecognised: Decimal) -> Finding {
+fn losses_unrecognised(e: &EntityId, period: Period, net: Decimal, share: Decimal, unrecognised: Decimal) -> Finding {
     Finding::new(
         Rule::AssociateLossesUnrecognised,
         format!(
-            "{e}: the share since acquisition {share} against a cost of {cost} would take the investment below zero; losses of {unrecognised} are not recognised (IAS 28.38)"
+            "{e}: the share since acquisition {share} against a net investment of {net} (the cost and the long-term interests) would take it below zero; losses of {unrecognised} are not recognised (IAS 28.38)"
         ),
-        "nothing to correct: later profits are recognised only once they cover the unrecognised losses (IAS 28.39); long-term interests in the investee (IAS 28.38) are not modelled",
+        "nothing to correct: later profits are recognised only once they cover the unrecognised losses (IAS 28.39); a long-term interest in the investee that is part of the net investment (IAS 28.38) absorbs losses first when entities/long_term_interests.csv names it",
     )
     .entity(e)
     .period(period)
@@ -424,6 +606,78 @@ fn post_impairment(
         .period(cx.period)
         .severity(Severity::Warning)
     })
+}
+
+/// Posts the sale of an associate (or joint venture) that ends significant influence
+/// (IAS 28.22), from the equity method at the last month end before the date
+/// (`step_acquisition::associate_before`, the month rule of a loss of control):
+///
+/// - its lines carried (share of profit and OCI of the year to then, earlier years), but
+///   the investment, which is derecognised (IAS 28.22(a));
+/// - an investment retained at its fair value (IAS 28.22(b)), at the closing rate of that
+///   month end, in place of the holder's remaining cost;
+/// - the holder's own gain (proceeds less the cost of the shares sold, in its books)
+///   adjusted to the group's: proceeds + fair value retained - the equity-method carrying
+///   amount (cost + the share since), on the row's `gain_account`;
+/// - the investor's share of the associate's OCI reclassified to profit or loss through
+///   OCI of the year, as if the associate had disposed of the related assets (IAS
+///   28.22(c), IAS 1.92-93).
+pub fn post_disposal(
+    j: &mut Journal,
+    cx: &Context,
+    before: &super::step_acquisition::AssociateBefore,
+    found: &mut Vec<Finding>,
+) {
+    let c = before.change;
+    let (e, holder) = (&c.owned, &c.holder);
+    // Without the account the finding of `ownership` blocks the close.
+    let Some(gain_account) = c.gain_account.as_ref() else { return };
+    let share = super::step_acquisition::equity_share(cx, &before.lines);
+    let fc = cx.currencies.get(e).copied().unwrap_or(cx.presentation);
+    let fair_value = cx.at_closing(fc, c.fair_value_held.unwrap_or_default(), before.last_month).unwrap_or_default();
+    let investment: Vec<(&GroupAccount, Decimal)> = cx
+        .balances_of(holder)
+        .filter(|((a, cp), _)| cp.as_ref() == Some(e) && cx.kind_of(a) == Some("investment"))
+        .map(|((a, _), v)| (a, *v))
+        .collect();
+    let remaining: Decimal = investment.iter().map(|x| x.1).sum();
+    let account = investment.first().map(|x| x.0.clone());
+    if account.is_none() && !fair_value.is_zero() {
+        found.push(
+            Finding::new(
+                Rule::OwnershipChangeUnsupported,
+                format!("sale of {e} by {} on {}: an interest is retained but {} has no investment line naming {e}", holder, c.date, holder),
+                "book the investment retained on an account of kind `investment` naming the entity, or correct `fair_value_held`",
+            )
+            .at(&c.source)
+            .entity(e),
+        );
+        return;
+    }
+    let adjustment = fair_value - remaining - share.since;
+    let mut lines = share.carried.clone();
+    if let Some(account) = &account {
+        lines.push(line(account, holder, Some(e), fair_value - remaining));
+    }
+    lines.push(line(gain_account, holder, Some(e), -adjustment));
+    lines.push(line(&cx.roles.translation_difference, holder, Some(e), share.oci));
+    lines.push(line(gain_account, holder, Some(e), -share.oci));
+    let m = |x: Decimal| money::format_amount(x, cx.minor);
+    j.post(
+        EliminationRule::EquityMethod,
+        holder.clone(),
+        vec![holder.clone(), e.clone()],
+        format!(
+            "{e} sold by {holder} on {}, equity-accounted to {}: share since significant influence {} derecognised (IAS 28.22(a)), interest retained at fair value {} (IAS 28.22(b)), the holder's gain adjusted by {}; share of OCI {} reclassified to profit or loss (IAS 28.22(c))",
+            c.date,
+            before.last_month,
+            m(share.since),
+            m(fair_value),
+            m(adjustment),
+            m(share.oci)
+        ),
+        lines,
+    );
 }
 
 /// One side of goods between the group and an investee (IAS 28.28).
@@ -509,7 +763,7 @@ pub fn findings(ds: &Dataset, method_of: &dyn Fn(&EntityId) -> Option<Method>, p
     let equity = |e: &EntityId| method_of(e) == Some(Method::Equity);
     let consolidated = |e: &EntityId| matches!(method_of(e), Some(Method::Full | Method::Proportionate));
     let mut out = Vec::new();
-    for (_, a) in last_records(&ds.acquisitions).into_iter().filter(|(e, _)| equity(e)) {
+    for (_, a) in last_records(&ds.acquisitions, period.last_day()).into_iter().filter(|(e, _)| equity(e)) {
         let at = |message: String, action: &str| {
             Finding::new(Rule::ValueInvalid, message, action).at(&a.source).entity(&a.owned)
         };
@@ -620,7 +874,7 @@ mod tests {
     ) -> (Journal, Vec<Finding>) {
         let rates = rates();
         let impairments = BTreeMap::from([(id("A"), dated.to_vec())]);
-        let inputs = Inputs { uplifts, impairments: &impairments, rates: &rates };
+        let inputs = Inputs { uplifts, impairments: &impairments, rates: &rates, long_term: &LongTerms::new() };
         let mut j = Journal::default();
         let mut found = Vec::new();
         post(&mut j, cx, std::slice::from_ref(a), &Investees::from([(id("A"), inv)]), &inputs, &mut found);
@@ -659,7 +913,7 @@ mod tests {
         );
         let rates = rates();
         let none = BTreeMap::new();
-        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates };
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates, long_term: &LongTerms::new() };
         let (mut j, mut found) = (Journal::default(), Vec::new());
         post(&mut j, &cx, &[], &Investees::from([(id("A"), inv)]), &inputs, &mut found);
         assert!(j.entries.is_empty());
@@ -766,6 +1020,108 @@ mod tests {
         );
     }
 
+    /// An entity with two records (a subsidiary of 2021 sold on 1 April 2026, an
+    /// associate retained from that date, IFRS 10.25(b)): a close at June takes the
+    /// associate's, so the share counts from April (IAS 28.32): revenue since March
+    /// 150 - 60 = 90, 30% = 27, and no earlier years. A close at March, before the
+    /// associate's date, takes the record of its time.
+    #[test]
+    fn the_record_of_the_closes_time() {
+        let w = world();
+        let both = [acquired("2021-01-01", "400"), acquired("2026-04-01", "240")];
+        let inv = Investee {
+            own: rows(&[("4000", "-150")]),
+            opening: rows(&[("3000", "-400")]),
+            before: rows(&[("4000", "-60")]),
+        };
+        let rates = rates();
+        let none = BTreeMap::new();
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates, long_term: &LongTerms::new() };
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post(&mut j, &cx, &both, &Investees::from([(id("A"), inv.clone())]), &inputs, &mut found);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "27".into()), ("4900".into(), "P".into(), "-27".into())]
+        );
+        assert!(j.entries[0].description.contains("from 2026-04"), "{}", j.entries[0].description);
+        assert_eq!(
+            acquisition_records(&both, p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[0].date)
+        );
+        assert_eq!(
+            acquisition_records(&both[1..], p("2026-03").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
+        );
+        // The order of the file does not matter: the latest dated by the period.
+        let reversed = [both[1].clone(), both[0].clone()];
+        assert_eq!(
+            acquisition_records(&reversed, p("2026-06").last_day()).get(&id("A")).map(|a| a.date),
+            Some(both[1].date)
+        );
+    }
+
+    /// P sells 20% of its 30% associate A (USD) on 1 April 2026 and keeps 10%, worth USD
+    /// 256 (EUR 128 at March's 2 USD per EUR). The equity method to March left the
+    /// investment 90 above cost: 30 of earlier years (24 in retained earnings, 6 of OCI
+    /// in the reserve), 45 share of profit, 15 share of OCI of the year. P's books keep
+    /// 60 of the cost. IAS 28.22: the retained interest from 60 to 128 (+68), the share
+    /// of 90 derecognised, the holder's gain adjusted by 128 - 60 - 90 = -22 (a debit of
+    /// 22); the share of OCI 6 + 15 = 21 reclassified through OCI to profit or loss:
+    /// -45 - 15 - 24 - 6 + 68 + 22 + 21 - 21 = 0. Nothing retained and no investment
+    /// line: the share 90 is derecognised against the gain alone.
+    #[test]
+    fn the_sale_of_an_associate_derecognises_the_share_and_reclassifies_its_oci() {
+        let w = World::new(&["P", "A"], &[holding("P", "A", "0.1", "2026-04-01")], p("2026-06"));
+        let cx = w.context(p("2026-06"), p("2026-01"), balances(&[("P", "1200", Some("A"), "60")]));
+        let change = OwnershipChange {
+            date: chrono::NaiveDate::from_ymd_opt(2026, 4, 1).unwrap_or_default(),
+            holder: id("P"),
+            owned: id("A"),
+            share: d("-0.2"),
+            consideration: d("480"),
+            fair_value_held: Some(d("256")),
+            costs: Decimal::ZERO,
+            gain_account: Some(acct("7300")),
+            note: String::new(),
+            source: Source::file("entities/ownership_changes.csv"),
+        };
+        let l = |a: &str, x: &str| line(&acct(a), &id("P"), Some(&id("A")), d(x));
+        let before = super::super::step_acquisition::AssociateBefore {
+            change: &change,
+            last_month: p("2026-03"),
+            lines: vec![l("1300", "90"), l("4900", "-45"), l("9000", "-15"), l("3200", "-24"), l("3300", "-6")],
+        };
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post_disposal(&mut j, &cx, &before, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        let s = |a: &str, x: &str| (a.to_string(), "P".to_string(), x.to_string());
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                s("4900", "-45"),
+                s("9000", "-15"),
+                s("3200", "-24"),
+                s("3300", "-6"),
+                s("1200", "68"),
+                s("7300", "22"),
+                s("9000", "21"),
+                s("7300", "-21")
+            ]
+        );
+        let all = OwnershipChange { fair_value_held: None, share: d("-0.3"), ..change.clone() };
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let mut j = Journal::default();
+        post_disposal(
+            &mut j,
+            &cx,
+            &super::super::step_acquisition::AssociateBefore { change: &all, ..before },
+            &mut found,
+        );
+        assert!(found.is_empty(), "{found:?}");
+        assert!(lines(&j.entries[0]).contains(&s("7300", "90")), "{:?}", lines(&j.entries[0]));
+    }
+
     /// Cost USD 240 = EUR 120 at the acquisition date's rate. Earlier years: opening
     /// equity 300 against net assets 400, P's 30% = -30. This year a loss of 500: -150.
     /// The cumulative -180 would take the investment of 120 below zero: -120 is
@@ -812,6 +1168,98 @@ mod tests {
         // OCI and dividends are taken in full; profit absorbs the floor.
         let c = cap_losses(d("100"), d("-90"), d("-30"), d("5"), d("2"));
         assert_eq!((c.prior, c.profit, c.unrecognised), (d("-90"), d("-13"), d("17")));
+    }
+
+    /// IAS 28.38-39 with long-term interests: cost 100, a subordinated loan L1 of 50 and
+    /// a senior loan L2 of 30 (the file lists L1 first: it absorbs losses first). A
+    /// cumulative share of -170 takes the investment to zero, L1 to zero and L2 by 20;
+    /// a share of -200 takes everything to zero and leaves 20 unrecognised. A later
+    /// profit of 50 first covers the 20 (IAS 28.39), then restores L2 fully (its 30)
+    /// before L1; the investment comes back last.
+    #[test]
+    fn losses_run_through_the_long_term_interests_and_profits_restore_them_in_reverse() {
+        let z = Decimal::ZERO;
+        let loan = |a: &str, x: &str| LongTerm { holder: id("P"), account: acct(a), opening: d(x), now: d(x) };
+        let interests = [loan("1400", "50"), loan("1650", "30")];
+        assert_eq!(net_investment_floors(d("100"), &interests), (d("-180"), d("-180")));
+        assert_eq!(split_over_interests(d("100"), d("-170"), &interests), (d("-100"), vec![d("-50"), d("-20")]));
+        assert_eq!(split_over_interests(d("100"), d("-60"), &interests), (d("-60"), vec![z, z]));
+        let c = cap_losses_at((d("-180"), d("-180")), d("-150"), d("-50"), z, z);
+        assert_eq!((c.prior, c.profit, c.unrecognised), (d("-150"), d("-30"), d("20")));
+        assert_eq!(
+            split_over_interests(d("100"), c.prior + c.profit, &interests),
+            (d("-100"), vec![d("-50"), d("-30")])
+        );
+        let c = cap_losses_at((d("-180"), d("-180")), d("-200"), d("50"), z, z);
+        assert_eq!((c.prior, c.profit, c.unrecognised_open, c.unrecognised), (d("-180"), d("30"), d("20"), z));
+        assert_eq!(split_over_interests(d("100"), c.prior + c.profit, &interests), (d("-100"), vec![d("-50"), z]));
+    }
+
+    /// The entry with a long-term interest: the first test's associate after a loss
+    /// (cost USD 240 = EUR 120; earlier years -30; this year -150) and P's loan of 50 to
+    /// A on 1400 naming A. The investment takes -120, the loan -50; 10 is not recognised.
+    /// The share of result is -(120 + 50 - 30) = -140.
+    #[test]
+    fn the_loan_in_the_net_investment_absorbs_losses_beyond_the_investment() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let a = acquired("2020-01-01", "240");
+        let inv = Investee {
+            own: rows(&[("5000", "500")]),
+            opening: rows(&[("3000", "-400"), ("3200", "100")]),
+            before: Accounts::new(),
+        };
+        let rates = rates();
+        let none = BTreeMap::new();
+        let loan = LongTerm { holder: id("P"), account: acct("1400"), opening: d("50"), now: d("50") };
+        let long_term = LongTerms::from([(id("A"), vec![loan])]);
+        let inputs = Inputs { uplifts: &[], impairments: &none, rates: &rates, long_term: &long_term };
+        let (mut j, mut found) = (Journal::default(), Vec::new());
+        post(&mut j, &cx, std::slice::from_ref(&a), &Investees::from([(id("A"), inv)]), &inputs, &mut found);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "-120".into()),
+                ("4900".into(), "P".into(), "140".into()),
+                ("3200".into(), "P".into(), "30".into()),
+                ("1400".into(), "P".into(), "-50".into())
+            ]
+        );
+        assert!(found[0].message.contains("losses of 10.00 are not recognised"), "{}", found[0].message);
+    }
+
+    /// A bargain purchase (IAS 28.32(b)): 30% of net assets USD 800 = USD 240 against a
+    /// cost of USD 200: an excess of USD 40, EUR 20 at the acquisition date's 2 USD per
+    /// EUR (400 / 800). Bought on 2026-04-15, it is income of the year in the share of
+    /// result, beside 30% x 90 = 27 of profit since; bought in 2020, it is in the
+    /// earlier years' share (retained earnings) with 30% x (500 - 400) = 30.
+    #[test]
+    fn a_bargain_purchase_of_an_investee_is_income_of_the_year_of_acquisition() {
+        let w = world();
+        let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
+        let inv = Investee {
+            own: rows(&[("4000", "-150")]),
+            opening: rows(&[("3000", "-300"), ("3200", "-200")]),
+            before: rows(&[("4000", "-60")]),
+        };
+        let (j, _) = run(&cx, &acquired("2026-04-15", "200"), inv.clone(), &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [("1300".into(), "P".into(), "47".into()), ("4900".into(), "P".into(), "-47".into())]
+        );
+        assert!(j.entries[0].description.contains("bargain purchase 20.00"), "{}", j.entries[0].description);
+        let inv = Investee { before: Accounts::new(), ..inv };
+        let (j, _) = run(&cx, &acquired("2020-01-01", "200"), inv, &[], &[]);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1300".into(), "P".into(), "95".into()),
+                ("4900".into(), "P".into(), "-45".into()),
+                ("3200".into(), "P".into(), "-50".into())
+            ]
+        );
+        // At or above the share of the net assets there is no bargain.
+        assert_eq!(bargain_purchase(&cx, usd(), &acquired("2020-01-01", "240"), d("0.3"), &[]), Decimal::ZERO);
     }
 
     /// Impairments of the investment of USD 50 in 2026-02 (this year) and USD 20 in

@@ -22,6 +22,11 @@
 //!   the entry is this year's exchange difference on the depreciation, in OCI (IAS
 //!   21.39c).
 //!
+//! A hyperinflationary subsidiary's adjustment is restated by the index since the
+//! acquisition month and depreciated on the restated amount, the year's charge and the
+//! depreciation to date at the closing rate (IAS 29.15, 29.26, IAS 21.42(a);
+//! [`post_restated`]).
+//!
 //! The entry is the subsidiary's own: the NCI bears its share of the expense and of the
 //! exchange difference (`nci.rs`, IAS 21.41). [`findings`] lists what the adjustments
 //! lack; `check` raises the same.
@@ -37,6 +42,7 @@ use crate::load::{Dataset, Rate};
 use crate::map_accounts::period_index;
 use crate::model::*;
 use crate::money;
+use crate::restate::AcquisitionUnit;
 
 /// The deferred tax the close recognises on its consolidation adjustments (IAS 12.19,
 /// 12.66), when `policies.deferred_tax` asks for it and both accounts are named (the
@@ -266,15 +272,14 @@ impl ExpenseRates {
 /// What the adjustments of `fair_value_adjustments.csv` lack or say that the close
 /// cannot post, for a close at `period`: no acquisition row, an entity that is not
 /// consolidated in full (an equity-accounted investee's adjustments are not supported),
-/// accounts of the wrong statement, a depreciating adjustment of a hyperinflationary
-/// entity (IAS 29 restatement of the adjustment is not supported), an amount beyond
-/// exact arithmetic at the acquisition date's rate.
+/// accounts of the wrong statement, an amount beyond exact arithmetic at the acquisition
+/// date's rate. A hyperinflationary entity's adjustments are restated (`post`); what the
+/// close cannot restate of its acquisition, `restate::acquisition_findings` blocks.
 pub fn findings(
     uplifts: &[Uplift],
     acquisitions: &[Acquisition],
     method_of: &dyn Fn(&EntityId) -> Option<Method>,
     statement_of: &dyn Fn(&GroupAccount) -> Option<Statement>,
-    hyperinflationary: &dyn Fn(&EntityId) -> bool,
 ) -> Vec<Finding> {
     let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
     let mut out = Vec::new();
@@ -301,7 +306,7 @@ pub fn findings(
             Some(m) => out.push(at(
                 Rule::ValueInvalid,
                 format!("{}: a fair value adjustment on {} of an entity consolidated by the {} method: only subsidiaries consolidated in full are supported", u.owned, u.account, m.as_str()),
-                "remove the row; fair value adjustments of a joint operation's share are not supported",
+                "remove the row; fair value adjustments of a joint operation's share are not supported: the close has no entry for the acquisition of a share in a joint operation (IFRS 11.21A) for them to belong to; post the adjustment and its depreciation in group_adjustments.csv",
             )),
         }
         if statement_of(&u.account) != Some(Statement::BalanceSheet) {
@@ -318,13 +323,6 @@ pub fn findings(
                 Rule::AccountUnknown,
                 format!("{}: `expense_account` {x} is not a profit or loss account of entities/accounts.csv", u.owned),
                 "name the profit or loss group account the depreciation is charged to",
-            ));
-        }
-        if u.life_months.is_some() && hyperinflationary(&u.owned) {
-            out.push(at(
-                Rule::ValueInvalid,
-                format!("{}: a depreciating fair value adjustment of an entity with a hyperinflationary functional currency", u.owned),
-                "the restatement of the adjustment and its depreciation (IAS 29) is not supported; post it as a manual adjustment",
             ));
         }
         // The close takes the adjustment at the acquisition date's rate as
@@ -345,8 +343,14 @@ pub fn findings(
 
 /// The depreciating adjustments the close posts for: of acquisitions of subsidiaries
 /// consolidated in full, on a balance-sheet account, with a profit or loss expense
-/// account, and not of a hyperinflationary entity.
-fn postable<'u>(cx: &Context, rates: &ExpenseRates, a: &Acquisition, uplifts: &'u [Uplift]) -> Vec<&'u Uplift> {
+/// account, and not of a hyperinflationary entity unless its acquisition is restated
+/// (`units`; without it `restate::acquisition_findings` or a missing index blocks).
+fn postable<'u>(
+    cx: &Context,
+    (rates, units): (&ExpenseRates, &Units),
+    a: &Acquisition,
+    uplifts: &'u [Uplift],
+) -> Vec<&'u Uplift> {
     uplifts
         .iter()
         .filter(|u| {
@@ -354,21 +358,36 @@ fn postable<'u>(cx: &Context, rates: &ExpenseRates, a: &Acquisition, uplifts: &'
                 && u.life_months.is_some()
                 && cx.in_statement(&u.account, Statement::BalanceSheet)
                 && u.expense_account.as_ref().is_some_and(|x| cx.in_statement(x, Statement::ProfitOrLoss))
-                && rates.hyperinflationary.get(&u.owned).is_none_or(|from| *from > cx.period)
+                && (rates.hyperinflationary.get(&u.owned).is_none_or(|from| *from > cx.period)
+                    || units.contains_key(&u.owned))
         })
         .collect()
 }
 
+/// The IAS 29 restatement of each acquired hyperinflationary subsidiary
+/// (`restate::acquisition_units`).
+pub type Units = BTreeMap<EntityId, AcquisitionUnit>;
+
 /// Posts one entry per depreciating adjustment of each subsidiary consolidated in full
-/// with an acquisition record (the findings of [`findings`] are raised by the caller).
-pub fn post(j: &mut Journal, cx: &Context, acquisitions: &[Acquisition], uplifts: &[Uplift], rates: &ExpenseRates) {
+/// with an acquisition record (the findings of [`findings`] are raised by the caller);
+/// a hyperinflationary subsidiary's with its restatement (`units`, [`post_restated`]).
+pub fn post(
+    j: &mut Journal,
+    cx: &Context,
+    acquisitions: &[Acquisition],
+    uplifts: &[Uplift],
+    (rates, units): (&ExpenseRates, &Units),
+) {
     let full: BTreeSet<&EntityId> =
         cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()).map(|e| &e.id).collect();
     for a in acquisitions.iter().filter(|a| full.contains(&a.owned)) {
         let Some(e) = cx.structure.entities().iter().find(|e| e.id == a.owned) else { continue };
         let Some(fc) = cx.currencies.get(&a.owned).copied() else { continue };
-        for u in postable(cx, rates, a, uplifts) {
-            post_one(j, cx, rates, (e, a, fc), u);
+        for u in postable(cx, (rates, units), a, uplifts) {
+            match units.get(&a.owned) {
+                Some(unit) => post_restated(j, cx, unit, (e, a, fc), u),
+                None => post_one(j, cx, rates, (e, a, fc), u),
+            }
         }
     }
 }
@@ -416,6 +435,74 @@ fn post_one(
             e.id,
             u.account,
             money::format_amount(u.amount, minor),
+            money::format_amount(now_fc, minor)
+        ),
+        vec![
+            line(&u.account, &e.id, None, -now),
+            line(&cx.roles.retained_earnings, &e.id, None, opening),
+            line(expense_account, &e.id, None, expense),
+            line(&cx.roles.translation_difference, &e.id, None, fx),
+        ],
+    );
+}
+
+/// The depreciation of a hyperinflationary subsidiary's adjustment (IAS 29.15: the
+/// adjustment is a non-monetary item of the operation, IAS 21.47), restated by the index
+/// change since the acquisition month and depreciated on the restated amount:
+/// - to date: `restated amount x months elapsed / life`, at the closing rate (IAS
+///   21.42(a));
+/// - the year's expense: the year's months of the restated amount, all in the unit of
+///   the period end (IAS 29.26: expenses in the current unit; a charge on a restated
+///   cost is the restated charge), also at the closing rate;
+/// - earlier years', in retained earnings, as the opening carried them: on the amount
+///   restated to the opening's unit, at the opening's closing rate;
+/// - the rest, the restatement and translation of the earlier years' depreciation in
+///   the year, is OCI, as the gross adjustment's is in the investment entry (the policy
+///   applied: the combined effect is an exchange difference, IAS 21.41; from memory,
+///   the IFRS Interpretations Committee's March 2020 agenda decision reads the same).
+fn post_restated(
+    j: &mut Journal,
+    cx: &Context,
+    unit: &AcquisitionUnit,
+    (e, a, fc): (&crate::structure::EntityStructure, &Acquisition, Currency),
+    u: &Uplift,
+) {
+    let (Some(expense_account), Some(life)) = (&u.expense_account, u.life_months) else { return };
+    let acquired = Period::of_date(a.date);
+    let minor = fc.minor_unit();
+    let now_u = Uplift { amount: unit.now(u.amount, minor, cx.mode), ..u.clone() };
+    let to = |x: &Uplift, m: Period| depreciated_to(x, acquired, m, minor, cx.mode);
+    let closing = |x: Decimal, p: Period| cx.at_closing(fc, x, p).unwrap_or_default();
+    let now_fc = to(&now_u, cx.period);
+    let now = closing(now_fc, cx.period);
+    let p0 = cx.fiscal_start.prev();
+    let (opening, expense) = if cx.period < cx.translated_from {
+        (now, Decimal::ZERO)
+    } else {
+        let opening_u = Uplift { amount: unit.opening(u.amount, minor, cx.mode), ..u.clone() };
+        (closing(to(&opening_u, p0), p0), closing(now_fc - to(&now_u, p0), cx.period))
+    };
+    let fx = now - opening - expense;
+    let rule =
+        if u.deferred_tax { EliminationRule::FairValueDeferredTax } else { EliminationRule::FairValueDepreciation };
+    j.post(
+        rule,
+        cx.parent_of(e),
+        vec![e.id.clone()],
+        format!(
+            "{} of {} on {}, restated (IAS 29): {fc} {} over {life} months from {acquired}, {fc} {} in the unit of {} ({} / {}), {fc} {} to date",
+            if u.deferred_tax {
+                "release of the deferred tax on the fair value adjustment (IAS 12.19)"
+            } else {
+                "depreciation of the fair value adjustment"
+            },
+            e.id,
+            u.account,
+            money::format_amount(u.amount, minor),
+            money::format_amount(now_u.amount, minor),
+            cx.period,
+            unit.now.normalize(),
+            unit.then.normalize(),
             money::format_amount(now_fc, minor)
         ),
         vec![
@@ -528,7 +615,7 @@ mod tests {
         cx.closing.insert((usd(), p("2026-06")), rate("2.5"));
         let r = rates(&[("2026-04", "2"), ("2026-05", "2.5"), ("2026-06", "4")]);
         let mut j = Journal::default();
-        post(&mut j, &cx, &[acquired("2026-04-15")], &[plant("1200", Some(60))], &r);
+        post(&mut j, &cx, &[acquired("2026-04-15")], &[plant("1200", Some(60))], (&r, &Units::new()));
         assert_eq!(j.entries.len(), 1);
         assert_eq!(j.entries[0].rule, EliminationRule::FairValueDepreciation);
         assert_eq!(
@@ -556,7 +643,8 @@ mod tests {
         let mut r = rates(&[("2026-01", "2"), ("2026-02", "2"), ("2026-03", "2.5")]);
         let post_lines = |r: &ExpenseRates| {
             let mut j = Journal::default();
-            post(&mut j, &cx, &[acquired("2025-10-01")], &[plant("1200", Some(12)), plant("700", None)], r);
+            let units = Units::new();
+            post(&mut j, &cx, &[acquired("2025-10-01")], &[plant("1200", Some(12)), plant("700", None)], (r, &units));
             assert_eq!(j.entries.len(), 1, "land is not depreciated");
             lines(&j.entries[0])
         };
@@ -579,7 +667,8 @@ mod tests {
 
     /// What the file's rows lack: no acquisition, an equity-accounted investee, a
     /// plant account that is profit or loss, an expense account on the balance sheet,
-    /// a depreciating adjustment of a hyperinflationary entity. A clean row has none.
+    /// A clean row has none, a hyperinflationary entity's too (its adjustments are
+    /// restated, `post_restated`).
     #[test]
     fn findings_name_what_an_adjustment_lacks() {
         let statement = |a: &GroupAccount| match a.as_str() {
@@ -589,25 +678,20 @@ mod tests {
         };
         let full = |_: &EntityId| Some(Method::Full);
         let equity = |_: &EntityId| Some(Method::Equity);
-        let no = |_: &EntityId| false;
-        let yes = |_: &EntityId| true;
         let a = [acquired("2026-04-01")];
-        let rules =
-            |u: Uplift, acq: &[Acquisition], m: &dyn Fn(&EntityId) -> Option<Method>, h: &dyn Fn(&EntityId) -> bool| {
-                findings(&[u], acq, m, &statement, h).iter().map(|f| f.rule).collect::<Vec<_>>()
-            };
-        assert!(rules(plant("1200", Some(60)), &a, &full, &no).is_empty());
-        assert_eq!(rules(plant("1200", Some(60)), &[], &full, &no), [Rule::AcquisitionMissing]);
+        let rules = |u: Uplift, acq: &[Acquisition], m: &dyn Fn(&EntityId) -> Option<Method>| {
+            findings(&[u], acq, m, &statement).iter().map(|f| f.rule).collect::<Vec<_>>()
+        };
+        assert!(rules(plant("1200", Some(60)), &a, &full).is_empty());
+        assert_eq!(rules(plant("1200", Some(60)), &[], &full), [Rule::AcquisitionMissing]);
         // An investee's adjustments reduce the share of its result (`equity_method.rs`);
         // a joint operation's are not supported.
-        assert!(rules(plant("1200", Some(60)), &a, &equity, &no).is_empty());
+        assert!(rules(plant("1200", Some(60)), &a, &equity).is_empty());
         let proportionate = |_: &EntityId| Some(Method::Proportionate);
-        assert_eq!(rules(plant("1200", Some(60)), &a, &proportionate, &no), [Rule::ValueInvalid]);
-        assert_eq!(rules(plant("1200", Some(60)), &a, &full, &yes), [Rule::ValueInvalid]);
-        assert!(rules(plant("1200", None), &a, &full, &yes).is_empty(), "land of a hyperinflationary entity is held");
+        assert_eq!(rules(plant("1200", Some(60)), &a, &proportionate), [Rule::ValueInvalid]);
         let mut u = plant("1200", Some(60));
         (u.account, u.expense_account) = (acct("5000"), Some(acct("1600")));
-        assert_eq!(rules(u, &a, &full, &no), [Rule::AccountUnknown, Rule::AccountUnknown]);
+        assert_eq!(rules(u, &a, &full), [Rule::AccountUnknown, Rule::AccountUnknown]);
     }
 
     /// Deferred tax at 25% on the plant uplift of `the_year_of_acquisition...`: a
@@ -649,7 +733,7 @@ mod tests {
         assert_eq!(all.len(), 2);
         assert_eq!((all[1].amount, all[1].deferred_tax, all[1].life_months), (d("-300"), true, Some(60)));
         let mut j = Journal::default();
-        post(&mut j, &cx, &a, &all, &r);
+        post(&mut j, &cx, &a, &all, (&r, &Units::new()));
         assert_eq!(j.entries.len(), 2);
         assert_eq!(j.entries[1].rule, EliminationRule::FairValueDeferredTax);
         assert_eq!(
@@ -662,5 +746,43 @@ mod tests {
         );
         let no_rate = DeferredTax { rates: BTreeMap::new(), ..tax };
         assert_eq!(all_uplifts(&a, &[plant("1200", Some(60))], Some(&no_rate)).len(), 1);
+    }
+
+    /// A hyperinflationary subsidiary's plant uplift of 160, 20 months' life from
+    /// 2025-07, restated from the acquisition month's index 80 (IAS 29.15): 200 at the
+    /// opening (index 100), 240 at 2026-02 (index 120); EUR per unit 0.10 at the
+    /// opening, 0.05 now (IAS 21.42(a)). To date 240 x 8/20 = 96 x 0.05 = 4.80 off the
+    /// asset; earlier years' as the opening carried them, 200 x 6/20 = 60 x 0.10 = 6.00;
+    /// the year's expense on the restated amount, 240 x 2/20 = 24 x 0.05 = 1.20; OCI
+    /// 4.80 - 6.00 - 1.20 = -2.40. Worked by hand (tests/cases/
+    /// hyperinflationary-subsidiary-acquired-ias29 has the same figures). Without the
+    /// restatement the entity's depreciation is not posted (its finding blocks).
+    #[test]
+    fn a_restated_uplift_is_depreciated_on_its_restated_amount() {
+        let w = world("2025-07-01", "2026-02");
+        let mut cx = w.context(p("2026-02"), p("2026-01"), Default::default());
+        let per_unit = |x: &str| Rate { value: d(x), quote: Quote::PresentationPerUnit };
+        cx.closing.insert((usd(), p("2025-12")), per_unit("0.10"));
+        cx.closing.insert((usd(), p("2026-02")), per_unit("0.05"));
+        let unit = AcquisitionUnit { then: d("80"), now: d("120"), opening: Some(d("100")) };
+        let mut r = ExpenseRates::default();
+        r.hyperinflationary.insert(id("S"), p("2025-01"));
+        let a = [acquired("2025-07-01")];
+        let uplift = [plant("160", Some(20))];
+        let mut j = Journal::default();
+        post(&mut j, &cx, &a, &uplift, (&r, &Units::from([(id("S"), unit)])));
+        assert_eq!(j.entries.len(), 1);
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1600".into(), "S".into(), "-4.8".into()),
+                ("3200".into(), "S".into(), "6".into()),
+                ("5000".into(), "S".into(), "1.2".into()),
+                ("9000".into(), "S".into(), "-2.4".into())
+            ]
+        );
+        let mut j = Journal::default();
+        post(&mut j, &cx, &a, &uplift, (&r, &Units::new()));
+        assert!(j.entries.is_empty());
     }
 }

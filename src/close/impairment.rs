@@ -90,7 +90,7 @@ pub fn findings(
     has_rate: &dyn Fn(&EntityId, Period) -> bool,
     method_of: &dyn Fn(&EntityId) -> Option<Method>,
 ) -> Vec<Finding> {
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(acquisitions, period.last_day());
     let mut out = Vec::new();
     for r in rows {
         let at = |rule: Rule, message: String, action: &str| {

@@ -5,7 +5,9 @@
 //! purchase gain (IFRS 3.34), the fair value adjustments (IFRS 3.18) and the NCI at
 //! acquisition (IFRS 3.19) in the same entry. The exchange differences (on goodwill, on
 //! the fair value adjustment, on the holders' translated investments) close the entry:
-//! this year's part to OCI, the part brought forward to the reserve.
+//! this year's part to OCI, the part brought forward to the reserve. A hyperinflationary
+//! subsidiary's acquisition amounts are first restated from the acquisition month
+//! ([`restated`], IAS 29.24-25) and so are at the closing rate (IAS 21.42(a)).
 //!
 //! The entry is built in named steps: [`measure`] (goodwill and bargain in the
 //! subsidiary's currency), [`findings`] (what the acquisition record lacks, raised by
@@ -24,6 +26,7 @@ use crate::findings::{Finding, Rule, Severity};
 use crate::map_accounts::period_index;
 use crate::model::*;
 use crate::money::{self, column_decimals};
+use crate::restate::AcquisitionUnit;
 use crate::structure::EntityStructure;
 use crate::translate::Translated;
 
@@ -45,6 +48,9 @@ pub struct Records<'r> {
     pub uplifts: &'r [Uplift],
     /// The goodwill impairments by month, per entity (`impairment::dated`).
     pub impairments: BTreeMap<EntityId, Vec<Dated>>,
+    /// The IAS 29 restatement of each acquired hyperinflationary subsidiary
+    /// (`restate::acquisition_units`).
+    pub units: BTreeMap<EntityId, AcquisitionUnit>,
 }
 
 /// What the NCI rule (`nci.rs`) reads of this one, per subsidiary (or per holder).
@@ -63,6 +69,11 @@ pub struct ForNci {
     /// This fiscal year's exchange difference on each holder's eliminated investments in
     /// subsidiaries, per holder.
     pub investment_fx: BTreeMap<EntityId, Decimal>,
+    /// The NCI at acquisition in the presentation currency, credit positive: what the
+    /// statement of changes in equity shows on acquisition, before the later movements
+    /// the same entry carries (the NCI's part of full goodwill's exchange difference and
+    /// impairment, which are its OCI and profit).
+    pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
 }
 
 /// The investment lines of the balances: accounts of kind `investment` naming the
@@ -305,6 +316,22 @@ pub fn findings(
     out
 }
 
+/// A proportionately consolidated entity (a joint operation, IFRS 11.20) that a
+/// consolidated entity holds on an investment account: the close takes the group's share
+/// of its lines but has no entry eliminating the holder's investment against that share
+/// of its equity at acquisition (IFRS 11.21A applies IFRS 3 to the share acquired), so
+/// both would count. Blocking; `check` raises it too.
+pub fn joint_operation_held(e: &EntityId) -> Finding {
+    Finding::new(
+        Rule::ValueInvalid,
+        format!(
+            "{e} is consolidated proportionately (a joint operation, IFRS 11.20) and held on an investment account, but the close does not eliminate an investment in a joint operation against its share of the equity: the two would both be counted"
+        ),
+        "book the holder's interest in the joint operation on an account that is not of kind `investment` and post its elimination against the share of the equity at acquisition (with any goodwill or fair value adjustment of the share, IFRS 11.21A) in group_adjustments.csv, or declare the arrangement as it is (a joint venture is equity-accounted, IFRS 11.24)",
+    )
+    .entity(e)
+}
+
 fn acquisition_missing(e: &EntityId) -> Finding {
     Finding::new(
         Rule::AcquisitionMissing,
@@ -355,6 +382,12 @@ struct Acquired<'c, 'a> {
     /// Its goodwill impairments by month; empty when the record's undated columns hold
     /// them.
     dated: Vec<Dated>,
+    /// A hyperinflationary subsidiary's restatement: `a` and `uplifts` are then in the
+    /// unit of the period end ([`restated`]), and `recorded` holds the record's net
+    /// assets in its currency and in the presentation currency (the acquisition date's
+    /// rate).
+    unit: Option<AcquisitionUnit>,
+    recorded: Option<(Decimal, Decimal)>,
 }
 
 /// One fair value adjustment in the entry: account, amount in the subsidiary's
@@ -415,8 +448,14 @@ impl Acquired<'_, '_> {
         let hist = self.at_hist(gross_fc);
         if self.dated.is_empty() {
             let now = self.to_pres(gross_fc, cx.period);
-            let year = self.opening_period().map(|p0| now - self.to_pres(gross_fc, p0)).unwrap_or(now - hist);
-            return (year, now - hist);
+            let year = self
+                .opening_period()
+                .map(|p0| now - self.to_pres(self.at_opening(gross_fc), p0))
+                .unwrap_or_else(|| now - self.at_acquisition(gross_fc));
+            // Restated goodwill is carried at the restated amount at the closing rate, as
+            // the NCI at acquisition is: nothing of it is left at an earlier rate.
+            let to_date = if self.unit.is_some() { Decimal::ZERO } else { now - hist };
+            return (year, to_date);
         }
         let now = self.to_pres(gross_fc - share * a.impairment, cx.period);
         let to_date = now - hist + self.impairment_pres(share, false);
@@ -428,6 +467,23 @@ impl Acquired<'_, '_> {
             None => to_date,
         };
         (year, to_date)
+    }
+
+    /// An amount of the acquisition at the acquisition date's rate: for a restated
+    /// subsidiary taken back from the period end's unit to the acquisition's first (the
+    /// amount the group recognised on that date); otherwise [`Self::at_hist`].
+    fn at_acquisition(&self, x: Decimal) -> Decimal {
+        match (self.unit, self.recorded) {
+            (Some(u), Some((na, na_pres))) if !na.is_zero() => self.cx.round(x * u.then * na_pres / (u.now * na)),
+            _ => self.at_hist(x),
+        }
+    }
+
+    /// An amount of the acquisition as the opening carried it: for a restated
+    /// subsidiary, taken back from the period end's unit to the opening's (IAS 29.24-25
+    /// restates it anew at every period end); otherwise unchanged.
+    fn at_opening(&self, x: Decimal) -> Decimal {
+        self.unit.map_or(x, |u| u.back_to_opening(x))
     }
 
     /// The month before the fiscal year, when the subsidiary was held then.
@@ -448,7 +504,7 @@ pub fn post(
     records: &Records,
     found: &mut Vec<Finding>,
 ) -> ForNci {
-    let acq: BTreeMap<&EntityId, &Acquisition> = acquisitions.iter().map(|a| (&a.owned, a)).collect();
+    let acq = acquisition_records(acquisitions, cx.period.last_day());
     let mut nci = ForNci::default();
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
     for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {
@@ -484,10 +540,19 @@ pub fn post(
                 ..a
             }
         };
+        let unit = records.units.get(&e.id).copied();
+        let recorded = unit.map(|_| (a.net_assets, a.net_assets_presentation));
+        let (a, uplifts) = match &unit {
+            Some(u) => restated(cx, u, fc, a, uplifts),
+            None => (a, uplifts),
+        };
         let m = measure(e, &a, cx.fiscal_start, cx.roles);
-        let sub = Acquired { cx, e, a, fc, m, uplifts, dated };
+        let sub = Acquired { cx, e, a, fc, m, uplifts, dated, unit, recorded };
         post_one(j, &sub, invest, months, &mut nci);
     }
+    found.extend(
+        cx.of_method(Method::Proportionate).filter(|e| invest.contains_key(&e.id)).map(|e| joint_operation_held(&e.id)),
+    );
     nci
 }
 
@@ -506,6 +571,38 @@ fn net_of_deferred_tax(a: Acquisition, uplifts: &[Uplift]) -> Acquisition {
         net_assets_presentation: a.net_assets_presentation + tax_fc * a.net_assets_presentation / a.net_assets,
         ..a
     }
+}
+
+/// A hyperinflationary subsidiary's acquisition and fair value adjustments in the unit of
+/// the period end: every amount of the acquisition date is non-monetary (equity at
+/// acquisition, IAS 29.24-25; goodwill, which IAS 21.47 makes an asset of the foreign
+/// operation and which is restated like its other non-monetary assets, the policy
+/// applied here and common practice; the NCI at acquisition, a share of those net
+/// assets or their fair value; the fair value adjustments, IAS 29.15) and is restated by
+/// the index change since the acquisition month, each rounded once in the functional
+/// currency. The equity at acquisition the entry removes is then the restated amount at
+/// the closing rate (IAS 21.42(a)), not the acquisition date's translation.
+fn restated(
+    cx: &Context,
+    unit: &AcquisitionUnit,
+    fc: Currency,
+    a: Acquisition,
+    uplifts: Vec<Uplift>,
+) -> (Acquisition, Vec<Uplift>) {
+    let minor = fc.minor_unit();
+    let r = |x: Decimal| unit.now(x, minor, cx.mode);
+    let net_assets = r(a.net_assets);
+    let restated = Acquisition {
+        consideration: r(a.consideration),
+        nci_fair_value: a.nci_fair_value.map(r),
+        net_assets,
+        net_assets_presentation: cx.at_closing(fc, net_assets, cx.period).unwrap_or_default(),
+        impairment: r(a.impairment),
+        impairment_year: r(a.impairment_year),
+        fair_value_adjustment: r(a.fair_value_adjustment),
+        ..a
+    };
+    (restated, uplifts.into_iter().map(|u| Uplift { amount: r(u.amount), ..u }).collect())
 }
 
 /// The entry of one subsidiary.
@@ -528,6 +625,7 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
         lines.push(line(acct, &e.id, None, -sub.at_hist(sub.m.bargain_fc)));
     }
     lines.push(line(&roles.non_controlling_interest, &e.id, None, -nci_pres));
+    nci.nci_at_acquisition.insert(e.id.clone(), nci_pres);
     let impairment_year_pres = impairment_lines(sub, impairment_pres, &mut lines);
     exchange_difference_lines(sub, &fva, &holders_fx_year, &mut lines, nci);
     if a.nci_measurement == NciMeasurement::FairValue {
@@ -597,10 +695,10 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
     let mut capital = Decimal::ZERO;
-    for ((acct, cp), amount) in cx.balances_of(&e.id) {
-        if cx.is_equity(acct) && !reserves.contains(&acct) && !amount.is_zero() {
-            lines.push(line(acct, &e.id, cp.as_ref(), -*amount));
-            capital += -*amount;
+    for (acct, cp, amount) in at_acquisition_balances(cx, &e.id) {
+        if !reserves.contains(&&acct) && !amount.is_zero() {
+            lines.push(line(&acct, &e.id, cp.as_ref(), -amount));
+            capital += -amount;
         }
     }
     let fva_hist: Decimal = fva.iter().map(|x| x.2).sum();
@@ -608,6 +706,37 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     for (acct, _, _, now) in fva {
         lines.push(line(acct, &e.id, None, *now));
     }
+}
+
+/// The subsidiary's equity balances other than its results that the entry takes as
+/// equity at acquisition (account, counterparty, balance, a credit negative): each at its
+/// balance, except a named reserve (an equity account the chart's `reserve` column
+/// names, other than the translation reserve) whose balance at acquisition a prior
+/// year-end close brought forward. Such a reserve has since taken the subsidiary's OCI
+/// closed into it year by year (`years.rs`), which is post-acquisition: the group's,
+/// shared with the NCI (IFRS 10.B94, IAS 1.106(d)), not equity acquired. Without a
+/// prior year in the folder the reserve's balance is taken as it was at acquisition,
+/// as for share capital.
+fn at_acquisition_balances(cx: &Context, e: &EntityId) -> Vec<(GroupAccount, Option<EntityId>, Decimal)> {
+    let carried = &cx.brought_forward.reserves_at_acquisition;
+    let mut out: Vec<(GroupAccount, Option<EntityId>, Decimal)> = cx
+        .balances_of(e)
+        .filter(|((acct, _), _)| cx.is_equity(acct))
+        .map(|((acct, cp), amount)| {
+            let at_acquisition = match cp {
+                None => carried.get(&(e.clone(), acct.clone())).copied().unwrap_or(*amount),
+                Some(_) => *amount,
+            };
+            (acct.clone(), cp.clone(), at_acquisition)
+        })
+        .collect();
+    // A reserve brought forward that the subsidiary no longer shows a balance on.
+    for ((_, acct), amount) in carried.iter().filter(|((owned, _), _)| owned == e) {
+        if !out.iter().any(|(a, cp, _)| a == acct && cp.is_none()) {
+            out.push((acct.clone(), None, *amount));
+        }
+    }
+    out
 }
 
 /// Goodwill impairment to date (IAS 36.124: never reversed), at the rate goodwill is
@@ -654,9 +783,9 @@ fn exchange_difference_lines(
     // subsidiary's other net assets are (`nci.rs`).
     let fva_fx_year: Decimal = fva
         .iter()
-        .map(|(_, fc, hist, now)| match opening_period {
-            Some(p0) => *now - sub.to_pres(*fc, p0),
-            None => *now - *hist,
+        .map(|(_, fc, _, now)| match opening_period {
+            Some(p0) => *now - sub.to_pres(sub.at_opening(*fc), p0),
+            None => *now - sub.at_acquisition(*fc),
         })
         .sum();
     if !fva_fx_year.is_zero() {
@@ -773,6 +902,42 @@ mod tests {
         assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
     }
 
+    /// A named reserve (3400, the revaluation surplus an OCI account accumulates into)
+    /// holds USD-translated EUR 150 in S's books: 100 at acquisition, as the prior year
+    /// end's investment entry eliminated it (brought forward), and 50 of OCI since,
+    /// closed into it by S's books. Only the 100 is equity at acquisition (IFRS 3.32,
+    /// IFRS 10.B94): of the net assets 500, capital 300 + reserve 100 leave 100 from
+    /// retained earnings. Without the brought-forward amount (the folder's first year)
+    /// the reserve's whole balance is taken as at acquisition: 150, and 50 from
+    /// retained earnings.
+    #[test]
+    fn a_named_reserve_is_eliminated_at_its_balance_at_acquisition() {
+        let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let mut surplus = w.chart[0].clone();
+        surplus.account = acct("3400");
+        surplus.statement = Statement::BalanceSheet;
+        surplus.class = AccountClass::Equity;
+        w.chart.push(surplus);
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-300"), ("S", "3400", None, "-150")]);
+        let cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let equity_lines = |cx: &Context| {
+            let mut j = Journal::default();
+            let records = Records::default();
+            let a = [acquisition("1000", "1000", "500")];
+            post(&mut j, cx, &a, &investments(cx), &Default::default(), &records, &mut Vec::new());
+            lines(&j.entries[0]).into_iter().filter(|l| l.0.starts_with('3') && l.0 != "3900").collect::<Vec<_>>()
+        };
+        let s = |a: &str, x: &str| (a.to_string(), "S".to_string(), x.to_string());
+        assert_eq!(equity_lines(&cx), [s("3000", "300"), s("3400", "150"), s("3200", "50")]);
+        let carried = BroughtForward {
+            reserves_at_acquisition: BTreeMap::from([((id("S"), acct("3400")), d("-100"))]),
+            ..BroughtForward::default()
+        };
+        let cx = Context { brought_forward: &carried, ..cx };
+        assert_eq!(equity_lines(&cx), [s("3000", "300"), s("3400", "100"), s("3200", "100")]);
+    }
+
     /// Consideration 700 + NCI 200 - net assets 1,000 = -100: a bargain purchase
     /// (IFRS 3.34). In the acquisition year its gain needs an account: without one a
     /// blocking finding, and the warning that the goodwill is negative (IFRS 3.36).
@@ -842,7 +1007,11 @@ mod tests {
         let mut rates = super::super::fair_value::ExpenseRates::default();
         let invest = investments(&cx);
         let close = |rates: &super::super::fair_value::ExpenseRates| {
-            let records = Records { uplifts: &[], impairments: super::super::impairment::dated(&cx, &rows, rates) };
+            let records = Records {
+                uplifts: &[],
+                impairments: super::super::impairment::dated(&cx, &rows, rates),
+                units: BTreeMap::new(),
+            };
             let mut j = Journal::default();
             let mut found = Vec::new();
             let nci = post(&mut j, &cx, std::slice::from_ref(&a), &invest, &Default::default(), &records, &mut found);
@@ -917,7 +1086,7 @@ mod tests {
             expense: acct("8000"),
         };
         let all = super::super::fair_value::all_uplifts(std::slice::from_ref(&a), &[plant], Some(&tax));
-        let records = Records { uplifts: &all, impairments: BTreeMap::new() };
+        let records = Records { uplifts: &all, impairments: BTreeMap::new(), units: BTreeMap::new() };
         let mut j = Journal::default();
         let mut found = Vec::new();
         let nci = post(&mut j, &cx, &[a], &investments(&cx), &Default::default(), &records, &mut found);
@@ -936,5 +1105,52 @@ mod tests {
         .collect();
         assert_eq!(lines(&j.entries[0]), want);
         assert_eq!(nci.fair_value_now.get(&id("S")), Some(&d("75")));
+    }
+
+    /// The same acquisition of S, hyperinflationary, with the NCI at its fair value USD
+    /// 300 (full goodwill, IFRS 3.19), restated from the acquisition month's index 100
+    /// to 150 now (IAS 29.24-25; 120 at the opening). Restated: consideration 1,500, net
+    /// assets 1,500, NCI 450, goodwill 1,500 + 450 - 1,500 = 450; the NCI's part of
+    /// goodwill 450 - 20% x 1,500 = 150. At 3 USD per EUR now (2 at the opening), all at
+    /// the closing rate (IAS 21.42(a)): equity at acquisition 500, goodwill 150, NCI 150.
+    /// The year's exchange difference on goodwill: 150 less the opening's 450 x 120/150 =
+    /// 360 at 2 = 180: a loss of 30 (9000 +30); the NCI's part 50 - 120 / 2 = -10. The
+    /// residual of the entry before it, -500 + 600 - 100 + 150 - 150 = 0, so the reserve
+    /// takes -30. Lines: 1200 P -500, 3000 S +600, 3200 S -100, 1100 S +150, 3900 S -150,
+    /// 9000 S +30, 3300 S -30. Worked by hand.
+    #[test]
+    fn a_hyperinflationary_subsidiary_is_eliminated_on_its_restated_acquisition() {
+        let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
+        let bal =
+            balances(&[("P", "1200", Some("S"), "500"), ("S", "3000", None, "-600"), ("S", "3200", None, "-300")]);
+        let mut cx = w.context(p("2026-06"), p("2026-01"), bal);
+        let usd = Currency::parse("USD").unwrap_or_else(|| panic!("USD"));
+        cx.closing.insert((usd, p("2026-06")), Rate { value: d("3"), quote: Quote::UnitsPerPresentation });
+        let invest = investments(&cx);
+        let unit = AcquisitionUnit { then: d("100"), now: d("150"), opening: Some(d("120")) };
+        let records = Records { units: BTreeMap::from([(id("S"), unit)]), ..Records::default() };
+        let a = Acquisition {
+            nci_measurement: NciMeasurement::FairValue,
+            nci_fair_value: Some(d("300")),
+            ..acquisition("1000", "1000", "500")
+        };
+        let mut j = Journal::default();
+        let mut found = Vec::new();
+        let nci = post(&mut j, &cx, &[a], &invest, &Default::default(), &records, &mut found);
+        assert!(found.is_empty(), "{found:?}");
+        assert_eq!(
+            lines(&j.entries[0]),
+            [
+                ("1200".into(), "P".into(), "-500".into()),
+                ("3000".into(), "S".into(), "600".into()),
+                ("3200".into(), "S".into(), "-100".into()),
+                ("1100".into(), "S".into(), "150".into()),
+                ("3900".into(), "S".into(), "-150".into()),
+                ("9000".into(), "S".into(), "30".into()),
+                ("3300".into(), "S".into(), "-30".into())
+            ]
+        );
+        assert_eq!(nci.pre_acquisition.get(&id("S")), Some(&d("500")));
+        assert_eq!(nci.nci_goodwill_oci.get(&id("S")), Some(&d("-10")));
     }
 }

@@ -14,7 +14,9 @@
 //!   control, exchange differences on goodwill), so that the owners' share of its
 //!   earlier results stays in retained earnings (IFRS 10.B99);
 //! - replaces the holder's remaining investment by the fair value of the interest
-//!   retained (IFRS 10.25(b), B98(b)(iii));
+//!   retained (IFRS 10.25(b), B98(b)(iii)); an associate retained is then
+//!   equity-accounted from the month of the date (`equity_method.rs`, from the
+//!   associate's acquisitions.csv row, whose cost is that fair value);
 //! - recognises the gain or loss: proceeds + fair value retained + NCI derecognised -
 //!   net assets and goodwill derecognised (B98), in place of the holder's own gain
 //!   (proceeds less the investment's carrying amount sold, in its books);

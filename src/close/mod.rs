@@ -102,14 +102,15 @@ pub struct OperationReserveRow {
 fn fair_value_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
     let statement_of = |a: &GroupAccount| cx.chart.get(a).map(|d| d.statement);
-    let hyper = |e: &EntityId| ds.entity(e).and_then(|x| x.hyperinflationary_from).is_some_and(|p| p <= cx.period);
-    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of, &hyper)
+    fair_value::findings(&ds.uplifts, &ds.acquisitions, &method_of, &statement_of)
 }
 
 /// The findings of the equity method for the close's structure.
 fn equity_method_findings(ds: &Dataset, cx: &context::Context) -> Vec<Finding> {
     let method_of = |e: &EntityId| cx.structure.entities().iter().find(|x| &x.id == e).map(|x| x.method);
-    equity_method::findings(ds, &method_of, cx.period)
+    let mut out = equity_method::findings(ds, &method_of, cx.period);
+    out.extend(equity_method::long_term_findings(ds, &method_of));
+    out
 }
 
 /// The findings of `goodwill_impairments.csv` for the close.
@@ -144,6 +145,9 @@ pub struct Close {
     pub disposals: Vec<loss_of_control::Disposal>,
     /// Changes in stake with control kept in the fiscal year to the period.
     pub stake_changes: Vec<change_in_stake::StakeChange>,
+    /// The NCI at acquisition of each subsidiary the investment rule eliminated, credit
+    /// positive (`investment::ForNci::nci_at_acquisition`).
+    pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
 }
 
 /// The close at the last month end before an ownership change (the month rule of
@@ -185,7 +189,8 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         s,
         pre_acquisition::months_needed(&cx).into_iter().chain(net_investment::months_needed(&cx, &ds.net_investments)),
     )?;
-    pre_acquisition::post(&mut j, &cx, &before);
+    let units = crate::restate::acquisition_units(ds, period, fiscal_start);
+    pre_acquisition::post(&mut j, &cx, &pre_acquisition::restated(&cx, t, &units, &before)?);
     intercompany::post(&mut j, &cx);
     dividends::post(&mut j, &cx);
     let operations = crate::translate::reserves_by_operation(ds, t, &s.immediate_parents())?;
@@ -199,19 +204,29 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let rates = fair_value::ExpenseRates::of(ds);
     let uplifts = fair_value::all_uplifts(&ds.acquisitions, &ds.uplifts, tax.as_ref());
     let records =
-        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates) };
+        investment::Records { uplifts: &uplifts, impairments: impairment::dated(&cx, &ds.impairments, &rates), units };
     let for_nci = investment::post(&mut j, &cx, &ds.acquisitions, &invest, &months, &records, &mut findings);
     findings.extend(fair_value_findings(ds, &cx));
     findings.extend(impairment_findings(ds, &cx));
     findings.extend(fair_value::deferred_tax_findings(ds, cx.period));
-    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, &rates);
+    fair_value::post(&mut j, &cx, &ds.acquisitions, &uplifts, (&rates, &records.units));
     let steps =
         crate::ownership::step_acquisitions(ds, crate::validate::Scope::new(period, ds.settings.fiscal_year_start));
-    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest);
+    let associates = associates_before(ds, t, &steps, period, fiscal_start)?;
+    step_acquisition::post(&mut j, &cx, &ds.acquisitions, &steps, &invest, &associates);
+    for sale in associates_sold(ds, t, period, fiscal_start)? {
+        equity_method::post_disposal(&mut j, &cx, &sale, &mut findings);
+    }
     let disposals: Vec<loss_of_control::Disposal> =
         sold.iter().filter_map(|x| loss_of_control::post(&mut j, &cx, x, &mut findings)).collect();
     let investees = equity_method::investees(ds, t, &cx, &ds.acquisitions)?;
-    let inputs = equity_method::Inputs { uplifts: &uplifts, impairments: &records.impairments, rates: &rates };
+    let long_term = equity_method::long_term_interests(ds, t, &cx)?;
+    let inputs = equity_method::Inputs {
+        uplifts: &uplifts,
+        impairments: &records.impairments,
+        rates: &rates,
+        long_term: &long_term,
+    };
     equity_method::post(&mut j, &cx, &ds.acquisitions, &investees, &inputs, &mut findings);
     findings.extend(equity_method_findings(ds, &cx));
     topside::post(&mut j, &cx, &ds.group_adjustments);
@@ -237,7 +252,19 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
 
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
-    Ok(Close { period, contributions, journal: j.entries, group, nci, reserves, findings, disposals, stake_changes })
+    let nci_at_acquisition = for_nci.nci_at_acquisition;
+    Ok(Close {
+        period,
+        contributions,
+        journal: j.entries,
+        group,
+        nci,
+        reserves,
+        findings,
+        disposals,
+        stake_changes,
+        nci_at_acquisition,
+    })
 }
 
 /// The subsidiaries sold in the fiscal year to `period` (none for the close of the
@@ -255,6 +282,44 @@ fn sold_in_year<'a>(
     crate::ownership::losses_of_control(ds, scope)
         .into_iter()
         .map(|c| loss_of_control::at_last_month(ds, t, c))
+        .collect()
+}
+
+/// The step acquisitions of the fiscal year to `period` from an associate or joint
+/// venture, each with the equity method at the month end before control.
+fn associates_before<'a>(
+    ds: &Dataset,
+    t: &Translated,
+    steps: &[&'a OwnershipChange],
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    steps
+        .iter()
+        .filter(|c| c.date >= fiscal_start.first_day())
+        .filter(|c| crate::ownership::classify(ds, c).method_before == Method::Equity)
+        .map(|c| step_acquisition::associate_before(ds, t, c))
+        .collect()
+}
+
+/// The associates sold in the fiscal year to `period` (significant influence ended, IAS
+/// 28.22), each with the equity method at the last month end before the sale.
+fn associates_sold<'a>(
+    ds: &'a Dataset,
+    t: &Translated,
+    period: Period,
+    fiscal_start: Period,
+) -> PolarsResult<Vec<step_acquisition::AssociateBefore<'a>>> {
+    if period < t.fiscal_start {
+        return Ok(Vec::new());
+    }
+    let scope = crate::validate::Scope { period, fiscal_start };
+    crate::ownership::associate_sales(ds, scope)
+        .into_iter()
+        .map(|c| step_acquisition::associate_before(ds, t, c))
         .collect()
 }
 

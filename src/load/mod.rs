@@ -11,6 +11,7 @@ mod documents;
 mod fair_values;
 mod impairments;
 mod ledger;
+mod long_term;
 pub mod machine;
 mod ownership;
 pub mod plans;
@@ -145,6 +146,9 @@ pub struct Dataset {
     /// Per-account segment refinements (optional `segment_accounts.csv`).
     pub segment_accounts: Vec<SegmentAccount>,
     pub net_investments: Vec<NetInvestment>,
+    /// Long-term interests in equity-accounted investees (optional
+    /// `long_term_interests.csv`, IAS 28.38), in the order they absorb losses.
+    pub long_term_interests: Vec<LongTermInterest>,
     /// Shares bought and sold (optional `ownership_changes.csv`).
     pub ownership_changes: Vec<OwnershipChange>,
     /// Top-side entries (optional `group_adjustments.csv`), checked and posted by
@@ -258,6 +262,12 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
     let tax_rates = fair_values::load_tax_rates(root, &ent_dir.join(TAX_RATES_FILE), &mut f, &mut inputs);
     let segment_accounts = load_segment_accounts(root, &ent_dir.join("segment_accounts.csv"), &mut f, &mut inputs);
     let net_investments = load_net_investments(root, &ent_dir.join("net_investment.csv"), &mut f, &mut inputs);
+    let long_term_interests = long_term::load_long_term_interests(
+        root,
+        &ent_dir.join(long_term::LONG_TERM_INTERESTS_FILE),
+        &mut f,
+        &mut inputs,
+    );
     let ownership_changes =
         ownership::load_ownership_changes(root, &ent_dir.join(ownership::OWNERSHIP_CHANGES_FILE), &mut f, &mut inputs);
     let group_adjustments = adjustments::load_group_adjustments(
@@ -297,6 +307,7 @@ pub fn load(root: &Path) -> (Option<Dataset>, Findings) {
             tax_rates,
             segment_accounts,
             net_investments,
+            long_term_interests,
             ownership_changes,
             group_adjustments,
             cash_flow_lines,
@@ -517,6 +528,7 @@ pub const ENTITY_FILES: &[&str] = &[
     crate::intercompany::ACCEPTED_FILE,
     ownership::OWNERSHIP_CHANGES_FILE,
     adjustments::GROUP_ADJUSTMENTS_FILE,
+    long_term::LONG_TERM_INTERESTS_FILE,
 ];
 
 /// The files tessera reads under `rates/`.

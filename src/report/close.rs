@@ -645,11 +645,24 @@ fn translated_frame(df: &DataFrame, t: &Tables<'_>) -> PolarsResult<DataFrame> {
         .collect()
 }
 
+/// Writes the translated lines once, in `format`: Parquet keeps the decimals, CSV shows
+/// each amount at its currency's minor unit (as [`write_money_frame`]).
+fn write_translated(
+    dir: &Path,
+    name: &str,
+    df: DataFrame,
+    format: crate::cli::TableFormat,
+    t: &Tables<'_>,
+) -> Result<(), crate::Error> {
+    let parquet = format == crate::cli::TableFormat::Parquet;
+    write_money_frame(dir, name, df, &Tables { parquet, ..*t }, !parquet)
+}
+
 /// Writes a frame holding amounts: the Parquet twin (when asked) keeps the decimals;
 /// the CSV shows each amount at its currency's minor unit: local amounts at the local
 /// currency's (JPY 0, BHD 3), transaction amounts at the transaction currency's and
-/// the rest at the presentation currency's.
-fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> Result<(), crate::Error> {
+/// the rest at the presentation currency's. `csv` false writes the Parquet alone.
+fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>, csv: bool) -> Result<(), crate::Error> {
     let helpers = ["minor_local", "minor_txn"];
     let has = |c: &str| df.get_column_names().iter().any(|n| n.as_str() == c);
     let keep: Vec<Expr> =
@@ -657,6 +670,9 @@ fn write_money_frame(dir: &Path, name: &str, df: DataFrame, t: &Tables<'_>) -> R
     if t.parquet {
         let mut typed = df.clone().lazy().select(keep.clone()).collect()?;
         write_file(&dir.join(format!("{name}.parquet")), &frame_bytes(&mut typed, true)?)?;
+    }
+    if !csv {
+        return Ok(());
     }
     let minors: Vec<u32> = (0..=4).collect();
     let mut exprs = Vec::new();
@@ -723,7 +739,9 @@ pub struct Tables<'a> {
     /// The presentation currency's minor unit.
     pub minor: u32,
     pub contributions: &'a DataFrame,
-    pub translated: &'a DataFrame,
+    /// The translated lines and the one format to write them in, when asked (at a
+    /// large group they are the bulk of a close's output: one row per grain and month).
+    pub translated: Option<(&'a DataFrame, crate::cli::TableFormat)>,
     pub explanations: &'a [crate::translate::Explanation],
     pub parquet: bool,
 }
@@ -761,8 +779,10 @@ pub fn write_outputs(dir: &Path, r: &CloseReport<'_>, tables: &Tables<'_>) -> Re
     let name = |n: &str| if r.proof.status == "draft" { format!("draft-{n}") } else { n.to_string() };
     write_frame(dir, &name("group_trial_balance"), tb, parquet)?;
     write_frame(dir, &name("eliminations"), journal_frame(r.eliminations, tables.names)?, parquet)?;
-    write_money_frame(dir, &name("contributions"), contributions_frame(contributions, tables)?, tables)?;
-    write_money_frame(dir, &name("translated"), translated_frame(translated, tables)?, tables)?;
+    write_money_frame(dir, &name("contributions"), contributions_frame(contributions, tables)?, tables, true)?;
+    if let Some((lines, format)) = translated {
+        write_translated(dir, &name("translated"), translated_frame(lines, tables)?, format, tables)?;
+    }
     write_statements(dir, &name("statements.csv"), r)?;
     if let Some(c) = &r.statements.comparison {
         super::compare::write_files(dir, c, &name)?;

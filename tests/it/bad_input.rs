@@ -808,8 +808,25 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
-            name: "an acquired hyperinflationary entity",
+            name: "an acquired hyperinflationary entity without the index of its acquisition month",
             mutate: |f| hyperinflationary_mx(f, None),
+            rule: Some("PriceIndexMissing"),
+            code: 1,
+        },
+        Case {
+            name: "a hyperinflationary entity acquired in a year whose start was not yet hyperinflationary",
+            mutate: |f| {
+                f.replace(
+                    "entities/entities.csv",
+                    "BH,BHD,Middle East,Sensors,\n",
+                    "BH,BHD,Middle East,Sensors,2026-02\n",
+                );
+                // Every index the restatement needs is there (the acquisition month
+                // 2026-03 included): only hyperinflation beginning in the year of the
+                // acquisition, after its start, blocks.
+                let rows: String = (1..=12).map(|m| format!("BHD,2026-{m:02},100\n")).collect();
+                f.write("rates/price_index.csv", &format!("currency,period,index\nBHD,2025-12,100\n{rows}"));
+            },
             rule: Some("RestatementUnsupported"),
             code: 1,
         },

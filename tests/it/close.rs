@@ -713,3 +713,55 @@ fn a_top_side_entry_counts_in_its_month_and_its_scopes() {
     assert_eq!((op(&b) - op(&a), nci_profit(&b) - nci_profit(&a)), (d("85000"), d("21250")));
     assert_eq!((op(&g), nci_profit(&g)), (op(&b), nci_profit(&b)));
 }
+
+/// A long-term interest (IAS 28.38) on an account that is not an asset cannot be part of
+/// the net investment: a blocking finding on its row of `long_term_interests.csv`,
+/// which `check` lists too.
+#[test]
+fn a_long_term_interest_on_an_equity_account_is_a_finding() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/associate-losses-long-term-loan");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.replace("entities/long_term_interests.csv", "P,L,1650,", "P,L,3000,");
+    let out = f.path().join("out");
+    let close = ["close", "--period", "2026-01", "--out", out.to_str().unwrap()];
+    for args in [&close[..], &["check", "--period", "2026-01"]] {
+        let command = args[0];
+        let (code, v) = run_json(f.path(), args);
+        assert_eq!(code, 1, "{command}: {v:#}");
+        let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "ValueInvalid");
+        let found = found.unwrap_or_else(|| panic!("{command}: no ValueInvalid: {v:#}"));
+        assert_eq!(found["file"], "entities/long_term_interests.csv", "{found:#}");
+        assert_eq!(found["line"], 2, "{found:#}");
+        assert!(found["message"].as_str().unwrap().contains("not an asset account"), "{found:#}");
+    }
+}
+
+/// A joint operation (IFRS 11.20) held on an investment account: the close takes the
+/// group's share of its lines but does not eliminate the investment against that share
+/// of its equity, so the close blocks rather than count both (checked in `check` too).
+#[test]
+fn an_investment_in_a_joint_operation_blocks() {
+    let f = Folder::empty();
+    let src = repo().join("tests/cases/goodwill-share-of-net-assets");
+    for sub in ["entities", "rates"] {
+        copy_tree(&src.join(sub), &f.path().join(sub));
+    }
+    f.write(
+        "entities/holdings.csv",
+        "owner,owned,capital_share,voting_share,valid_from,arrangement\nP,S,0.5,0.5,2020-01-01,joint_operation\n",
+    );
+    let out = f.path().join("out");
+    let close = ["close", "--period", "2026-01", "--out", out.to_str().unwrap()];
+    for args in [&close[..], &["check", "--period", "2026-01"]] {
+        let (code, v) = run_json(f.path(), args);
+        assert_eq!(code, 1, "{}: {v:#}", args[0]);
+        let found = v["findings"].as_array().unwrap().iter().find(|x| x["rule"] == "ValueInvalid");
+        let found = found.unwrap_or_else(|| panic!("{}: no ValueInvalid: {v:#}", args[0]));
+        assert_eq!(found["severity"], "blocking", "{found:#}");
+        assert_eq!(found["entity"], "S", "{found:#}");
+        assert!(found["message"].as_str().unwrap().contains("joint operation"), "{found:#}");
+    }
+}

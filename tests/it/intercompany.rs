@@ -451,6 +451,72 @@ fn ias_21_45_sterling_loan_to_a_canadian_subsidiary() {
     assert_eq!(dec(&liability["balance_local"]), d("-640000.000"));
 }
 
+/// Intercompany balances with a hyperinflationary entity (IAS 29.12: monetary items are
+/// not restated), on the case `hyperinflationary-subsidiary-acquired-ias29` (S in ARS,
+/// restated, index 110 at January's end and 120 at February's; EUR 0.08 and 0.05 per
+/// ARS). S sells to P on credit for ARS 330 in January; P books its payable at EUR 26.40
+/// (330 x 0.08) and retranslates it in February to 16.50 (330 x 0.05, IAS 21.23(a)).
+/// S's receivable, monetary, stays ARS 330 after restatement: 330 x 0.05 = 16.50, and
+/// the pair matches in ARS and in EUR. Worked by hand from IAS 29.12 and IAS 21.23, 21.42.
+/// Flagged non-monetary (an advance for goods, say), S's side is restated from January's
+/// unit, 330 x 120/110 = 360, x 0.05 = 18.00: the sides agree in ARS and differ by the
+/// restatement, 1.50, which matching classifies as `fx` and the close posts to 6950; the
+/// finding `IntercompanyItemRestated` says so.
+#[test]
+fn intercompany_balances_with_a_restated_entity() {
+    let f = Folder::case("hyperinflationary-subsidiary-acquired-ias29");
+    let head = "period,account,amount,counterparty,txn_currency,txn_amount\n";
+    f.write(
+        "entities/S/tb-2026-01.movements.csv",
+        &format!("{head}2026-01,1550,330,P,ARS,330\n2026-01,4000,-330,,,\n"),
+    );
+    f.write(
+        "entities/P/tb-2026-01.movements.csv",
+        &format!("{head}2026-01,5000,26.40,,,\n2026-01,2550,-26.40,S,ARS,-330\n"),
+    );
+    f.write(
+        "entities/P/tb-2026-02.movements.csv",
+        &format!("{head}2026-02,2550,9.90,S,ARS,0\n2026-02,5000,-9.90,,,\n"),
+    );
+    for e in ["P", "S"] {
+        f.append(&format!("entities/{e}/mapping.csv"), "1550,,1550");
+        f.append(&format!("entities/{e}/mapping.csv"), "2550,,2550");
+    }
+    let (code, r) = run_json(f.path(), &["match", "--period", "2026-02"]);
+    assert_eq!(code, 0, "{r:#}");
+    assert_eq!(r["proof"]["tied"], true, "{:#}", r["proof"]);
+    let p = pair(&r, "P", "S", "trade");
+    classified(p, "matched", None);
+    let s_side = if p["entity"] == "S" { &p["amount_entity"] } else { &p["amount_counterparty"] };
+    assert_eq!(dec(s_side), d("16.50"));
+    assert_eq!(dec(&p["difference"]), d("0.00"));
+    let (code, r) = run_json(f.path(), &["check", "--period", "2026-02"]);
+    assert_eq!(code, 0, "{r:#}");
+    let rules: Vec<&str> = r["findings"].as_array().unwrap().iter().filter_map(|x| x["rule"].as_str()).collect();
+    assert!(!rules.contains(&"IntercompanyItemRestated"), "{rules:?}");
+
+    f.replace(
+        "entities/accounts.csv",
+        "1550,Receivables from group entities,balance_sheet,asset,closing,trade,,true",
+        "1550,Receivables from group entities,balance_sheet,asset,closing,trade,,false",
+    );
+    let (code, r) = run_json(f.path(), &["match", "--period", "2026-02"]);
+    assert_eq!(code, 0, "{r:#}");
+    let p = pair(&r, "P", "S", "trade");
+    classified(p, "explained", Some("fx"));
+    assert_eq!(dec(&p["difference_txn"]), d("0.00"));
+    let s_side = if p["entity"] == "S" { &p["amount_entity"] } else { &p["amount_counterparty"] };
+    assert_eq!(dec(s_side), d("18.00"));
+    assert_eq!(dec(&p["difference"]).abs(), d("1.50"));
+    assert_eq!(p["posted_to"], "6950");
+    let (code, r) = run_json(f.path(), &["check", "--period", "2026-02"]);
+    assert_eq!(code, 0, "a warning: {r:#}");
+    let found: Vec<&Value> =
+        r["findings"].as_array().unwrap().iter().filter(|x| x["rule"] == "IntercompanyItemRestated").collect();
+    assert_eq!(found.len(), 1, "{:#}", r["findings"]);
+    assert_eq!((found[0]["entity"].as_str(), found[0]["account"].as_str()), (Some("S"), Some("1550")));
+}
+
 // ---- property test ------------------------------------------------------------------
 
 /// What is injected into one subsidiary's pair with the parent.

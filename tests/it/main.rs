@@ -10,7 +10,8 @@
 //! - `cash_flows`: the statement of cash flows (IAS 7): an acquisition net of cash acquired
 //!   (IAS 7 illustrative example A), a foreign subsidiary's exchange effect, the demo tied
 //!   in every month and view, the findings of cash_flow_lines.csv, a property test;
-//! - `close_oracle`: a property test of the close against a naive consolidation;
+//! - `close_oracle`: property tests of the close against a naive consolidation: a month,
+//!   and a quarter with subsidiaries acquired, sold and changing stake during it;
 //! - `compare`: `close --compare`: the walk adds up (demo, hand example, random groups),
 //!   the currency effect, a plan's findings;
 //! - `golden`: every output of the demo's main commands against the committed copies under

@@ -433,7 +433,8 @@ fn a_close_writes_its_files_workbook_and_report() {
     let f = Folder::demo();
     let data = f.path().to_str().unwrap();
     // --out is taken relative to the data folder.
-    let (code, close) = run_json(f.path(), &["close", "--period", "2026-12", "--out", "pack"]);
+    let (code, close) =
+        run_json(f.path(), &["close", "--period", "2026-12", "--out", "pack", "--translated-lines", "csv"]);
     assert_eq!(code, 0, "{close:#}");
     // The close's folder below the period's (its layout may add scope and view).
     let dir: PathBuf = find_file(&f.path().join("pack/2026-12"), "close.xlsx")
@@ -480,11 +481,31 @@ fn a_close_writes_its_files_workbook_and_report() {
     }
     assert!(rows > 40, "{rows} statement lines");
 
-    // Parquet when asked.
+    // Parquet when asked; the translated lines once, in the one format asked, and not
+    // at all unless asked.
     let (code, _) =
         run(&["close", "--period", "2026-12", "--out", "pq", "--parquet", "--data", data, "--format", "json"]);
     assert_eq!(code, 0);
-    assert!(find_file(&f.path().join("pq/2026-12"), "translated.parquet").is_some());
+    let pq = find_file(&f.path().join("pq/2026-12"), "contributions.parquet").expect("Parquet twins when asked");
+    let pq = pq.parent().expect("a folder");
+    assert!(!pq.join("translated.parquet").exists() && !pq.join("translated.csv").exists());
+    let (code, _) = run(&[
+        "close",
+        "--period",
+        "2026-12",
+        "--out",
+        "pq-lines",
+        "--translated-lines",
+        "parquet",
+        "--data",
+        data,
+        "--format",
+        "json",
+    ]);
+    assert_eq!(code, 0);
+    let lines = find_file(&f.path().join("pq-lines/2026-12"), "translated.parquet").expect("translated.parquet");
+    assert!(!lines.with_file_name("translated.csv").exists(), "the translated lines in one format");
+    assert!(!lines.with_file_name("contributions.parquet").exists(), "no Parquet twins unless asked");
 
     // The workbook, read back by openpyxl, figure by figure.
     let (code, matching) = run_json(f.path(), &["match", "--period", "2026-12"]);

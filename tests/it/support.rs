@@ -55,6 +55,15 @@ impl Folder {
         f
     }
 
+    /// A copy of the inputs of the case folder `tests/cases/<name>`.
+    pub fn case(name: &str) -> Self {
+        let f = Self::empty();
+        for sub in ["entities", "rates"] {
+            copy_dir(&repo().join("tests/cases").join(name).join(sub), &f.path().join(sub));
+        }
+        f
+    }
+
     pub fn path(&self) -> &Path {
         self.dir.path()
     }

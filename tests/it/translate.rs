@@ -311,7 +311,8 @@ fn hyperinflation_beginning_in_the_year_releases_the_earlier_translation() {
     // The audit trail (translated.csv): land restated by 121/110 in February, the
     // restatement beside the balance; the gain on the net monetary position all of it.
     let out = tempfile::tempdir().expect("temp dir");
-    let (code, _) = run_json(&dir, &["close", "--period", "2026-02", "--out", out.path().to_str().expect("utf-8")]);
+    let out_dir = out.path().to_str().expect("utf-8");
+    let (code, _) = run_json(&dir, &["close", "--period", "2026-02", "--out", out_dir, "--translated-lines", "csv"]);
     assert_eq!(code, 0);
     let csv = std::fs::read_to_string(out.path().join("2026-02/group/ytd/translated.csv")).expect("translated.csv");
     assert!(csv.starts_with("entity,group_account,account_name,counterparty,txn_currency,period,basis,amount_local,balance_local,restatement_local,"), "{csv}");
