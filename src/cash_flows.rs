@@ -173,6 +173,10 @@ const DISPOSALS_LABEL: &str = "Disposal of subsidiaries net of cash disposed of"
 /// The gain or loss on disposal, taken out of profit before tax (non-cash).
 pub const GAIN_ON_DISPOSAL: &str = "gain_on_disposal";
 const GAIN_ON_DISPOSAL_LABEL: &str = "Gain or loss on disposal of subsidiaries";
+/// The remeasurement of an interest held before control (IFRS 3.42): in profit before
+/// tax, non-cash, taken out here; the acquisition line keeps what was paid.
+pub const REMEASUREMENT: &str = "remeasurement_gain";
+const REMEASUREMENT_LABEL: &str = "Gain or loss on remeasuring an interest held before control";
 const ACQUISITIONS_LABEL: &str = "Acquisition of subsidiaries net of cash acquired";
 
 /// One line of the statement, cash in positive.
@@ -273,6 +277,10 @@ enum Treatment {
     NciTransaction,
     /// The entries about a subsidiary sold in the view (IAS 7.39-42).
     Disposal,
+    /// The remeasurement of an interest held before control of a subsidiary acquired in
+    /// the view (IFRS 3.42): its gain is in profit before tax and taken out as non-cash;
+    /// with the acquisition entry it nets to nothing on the acquisition line.
+    StepGain,
 }
 
 /// The statement of cash flows between `opening` (the close at the end of the month
@@ -578,6 +586,7 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
             push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
             push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
             push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+            push(Section::Operating, REMEASUREMENT, REMEASUREMENT_LABEL, &mut order);
             push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
         }
     }
@@ -586,6 +595,7 @@ fn line_order(lines: &[LineDef]) -> Vec<(Section, String, String)> {
     push(Section::Operating, FAIR_VALUE_DEPRECIATION, FAIR_VALUE_DEPRECIATION_LABEL, &mut order);
     push(Section::Operating, SHARE_OF_ASSOCIATES, "Share of result of equity-accounted investees", &mut order);
     push(Section::Operating, GAIN_ON_DISPOSAL, GAIN_ON_DISPOSAL_LABEL, &mut order);
+    push(Section::Operating, REMEASUREMENT, REMEASUREMENT_LABEL, &mut order);
     push(Section::Operating, ASSOCIATE_DIVIDEND_INCOME, ASSOCIATE_DIVIDEND_INCOME_LABEL, &mut order);
     push(Section::Investing, ACQUISITIONS, ACQUISITIONS_LABEL, &mut order);
     push(Section::Investing, DISPOSALS, DISPOSALS_LABEL, &mut order);
@@ -604,6 +614,7 @@ fn sections(lines: &[LineDef], on_line: &BTreeMap<String, Decimal>, minor: u32) 
         FAIR_VALUE_DEPRECIATION,
         SHARE_OF_ASSOCIATES,
         GAIN_ON_DISPOSAL,
+        REMEASUREMENT,
         ASSOCIATE_DIVIDEND_INCOME,
         ACQUISITIONS,
         DISPOSALS,
@@ -915,7 +926,7 @@ fn journal_lines(
     problems: &mut Vec<String>,
 ) -> Vec<(Option<&'static str>, EntityId, GroupAccount, Decimal)> {
     let mut out = Vec::new();
-    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired, stakes, sold) {
+    for ((treatment, e, a), x) in journal_movements(opening, closing, acquired, stakes, sold, chart) {
         let pl = chart.get(&a).is_some_and(|d| d.statement == Statement::ProfitOrLoss);
         let cash = class.get(&a).is_some_and(|d| d.section == Section::Cash);
         let own = match treatment {
@@ -925,6 +936,12 @@ fn journal_lines(
             Treatment::Disposal if cash => Some(CASH_DISPOSED),
             Treatment::Disposal => Some(DISPOSALS),
             Treatment::Acquisition => Some(ACQUISITIONS),
+            Treatment::StepGain if pl => {
+                out.push((Some(REMEASUREMENT), e.clone(), a.clone(), -x));
+                out.push((Some(ACQUISITIONS), e.clone(), a.clone(), x));
+                Some(PROFIT_BEFORE_TAX)
+            }
+            Treatment::StepGain => Some(ACQUISITIONS),
             // The profit or loss part stays in profit before tax; the rest of the entry,
             // which is its non-cash other side, is added back on a line of its own.
             Treatment::Goodwill | Treatment::EquityMethod | Treatment::FairValue | Treatment::NciTransaction if pl => {
@@ -951,20 +968,17 @@ fn journal_movements(
     acquired: &BTreeSet<EntityId>,
     stakes: &BTreeMap<EntityId, Decimal>,
     sold: &BTreeMap<EntityId, Disposal>,
+    chart: &BTreeMap<&GroupAccount, &AccountDef>,
 ) -> BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> {
+    let flow = |a: &GroupAccount| chart.get(a).is_some_and(|d| d.statement != Statement::BalanceSheet);
     let mut out: BTreeMap<(Treatment, EntityId, GroupAccount), Decimal> = BTreeMap::new();
     for (c, sign) in [(closing, Decimal::ONE), (opening, Decimal::NEGATIVE_ONE)] {
         for entry in &c.journal {
             let new_subsidiary = entry.entities.iter().any(|e| acquired.contains(e));
             let stake_changed = entry.entities.iter().any(|e| stakes.contains_key(e));
             let treatment = match entry.rule {
-                // A step acquisition's remeasurement gain is not cash: with the
-                // acquisition it nets to nothing on the acquisition line.
-                EliminationRule::InvestmentAndGoodwill
-                | EliminationRule::PreAcquisitionResults
-                | EliminationRule::StepAcquisition
-                    if new_subsidiary =>
-                {
+                EliminationRule::StepAcquisition if new_subsidiary => Treatment::StepGain,
+                EliminationRule::InvestmentAndGoodwill | EliminationRule::PreAcquisitionResults if new_subsidiary => {
                     Treatment::Acquisition
                 }
                 // The change moves the investment, the NCI at acquisition and the
@@ -979,11 +993,23 @@ fn journal_movements(
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
                 _ => Treatment::ByAccount,
             };
+            // A pair of balances with a subsidiary sold in the view, eliminated before the
+            // sale and not after (`loss_of_control::pairs`): its lines and difference
+            // move by account, as they did in the months before, so that the months add
+            // up to the year (the subsidiary's side of it leaves in the sale's entry).
+            let balances_with_sold = entry.rule == EliminationRule::Intercompany
+                && entry.entities.iter().any(|e| sold.contains_key(e))
+                && entry.lines.iter().all(|l| l.counterparty.is_none() || !flow(&l.account));
             for l in &entry.lines {
                 // A line about a subsidiary sold in the view (its own, or its holder's
-                // naming it) is part of the disposal, whatever the entry.
-                let about_sold =
-                    sold.contains_key(&l.entity) || l.counterparty.as_ref().is_some_and(|c| sold.contains_key(c));
+                // naming it) is part of the disposal, whatever the entry; but for its
+                // pairs of balances (above) and its intragroup dividends of the months
+                // consolidated, which stay eliminated by account like any other (the
+                // payer's retained earnings, where its own movement is, and the
+                // receiver's income).
+                let about_sold = entry.rule != EliminationRule::IntragroupDividend
+                    && !balances_with_sold
+                    && (sold.contains_key(&l.entity) || l.counterparty.as_ref().is_some_and(|c| sold.contains_key(c)));
                 let treatment = if about_sold { Treatment::Disposal } else { treatment };
                 *out.entry((treatment, l.entity.clone(), l.account.clone())).or_default() += sign * l.amount;
             }

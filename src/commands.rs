@@ -179,7 +179,11 @@ pub fn translate(
     {
         return Err(Error::Usage(format!("entity {e} is not in entities.csv")));
     }
-    let translated = crate::translate::translate(&ds, &mapped, scope.fiscal_start, scope.period)?;
+    // The report reads only the translation: the mapped lines go once it has its
+    // movement frame.
+    let movements = mapped.movements(scope.fiscal_start, scope.period)?;
+    drop(mapped);
+    let translated = crate::translate::translate_movements(&ds, movements, scope.fiscal_start, scope.period)?;
     let checks = crate::translate::prove(&translated)?;
     let reserves = crate::translate::reserves_by_operation(&ds, &translated, &structure.immediate_parents())?;
     let text = report::translation::render(
@@ -326,6 +330,8 @@ pub fn rates(data: &Path, args: RatesArgs, format: Format, out: &mut dyn Write) 
 
 /// Everything a close computes, for the close and trace commands.
 pub struct ClosedPeriod {
+    /// What was loaded and validated; its mapped lines are empty unless the command
+    /// asked to keep them ([`CloseRun::keep_mapped`]).
     pub checked: Checked,
     pub translated: crate::translate::Translated,
     /// The sub-group's structure at the period end; `None` for the group, whose
@@ -346,6 +352,19 @@ pub struct ClosedPeriod {
     /// The intercompany matching the close's gate ran on (what `match` reports and the
     /// close posts), shown again in the workbook and the page.
     pub matching: crate::intercompany::Matching,
+    /// The close of the opening balances, once computed (see `opening_balances`).
+    opening: std::sync::OnceLock<crate::close::Close>,
+}
+
+/// How a command runs its close.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct CloseRun {
+    /// A draft: run despite blocking findings (see [`run_close`]).
+    pub draft: bool,
+    /// Keep the mapped lines (`checked.mapped.lines`) after translation, for a command
+    /// that reads them later (`trace`, a comparison); otherwise they are let go before
+    /// translating, as the largest frame then alive that nothing after needs.
+    pub keep_mapped: bool,
 }
 
 /// [`run_close`] for a command: when findings stop the close they are written to `out`
@@ -355,11 +374,11 @@ fn run_close_or_stop(
     period: Option<Period>,
     view: crate::cli::View,
     entity: Option<crate::model::EntityId>,
-    draft: bool,
+    run: CloseRun,
     format: Format,
     out: &mut dyn Write,
 ) -> Result<Result<ClosedPeriod, i32>, Error> {
-    Ok(match run_close(data, period, view, entity, draft)? {
+    Ok(match run_close(data, period, view, entity, run)? {
         Ok(c) => Ok(c),
         Err(findings) => {
             let code = stop_on_findings(&findings, out, None, format)?.unwrap_or_else(|| exit_code(&findings));
@@ -375,12 +394,17 @@ impl ClosedPeriod {
     }
 
     /// The close of the opening balances (the month before the fiscal year), for a view
-    /// from the fiscal year's start; computed on demand because only the statement of
-    /// changes in equity needs it.
-    pub fn opening_balances(&self) -> Result<crate::close::Close, Error> {
+    /// from the fiscal year's start: computed on demand (only the statement of changes
+    /// in equity, the cash flows and the comparatives' proof need it), and once per
+    /// command, as all three start from the same close.
+    pub fn opening_balances(&self) -> Result<&crate::close::Close, Error> {
+        if let Some(c) = self.opening.get() {
+            return Ok(c);
+        }
         let ds = &self.checked.ds;
         let p0 = self.checked.scope.fiscal_start.prev();
-        Ok(crate::close::close_at(ds, &self.translated, &structure_at(ds, &self.root, p0), p0)?)
+        let close = crate::close::close_at(ds, &self.translated, &structure_at(ds, &self.root, p0), p0)?;
+        Ok(self.opening.get_or_init(|| close))
     }
 }
 
@@ -404,8 +428,9 @@ pub fn run_close(
     period: Option<Period>,
     view: crate::cli::View,
     entity: Option<crate::model::EntityId>,
-    draft: bool,
+    run: CloseRun,
 ) -> Result<Result<ClosedPeriod, Findings>, Error> {
+    let draft = run.draft;
     let (loaded, findings) = load_checked(data, period)?;
     if findings.has_unreadable() || (findings.has_blocking() && !draft) {
         return Ok(Err(findings));
@@ -419,17 +444,13 @@ pub fn run_close(
         checked.ds.opening = only_used(&checked.ds.opening, &deliveries)?;
         set_aside = deliveries.set_aside;
     }
-    let ds = &checked.ds;
-    let scope = checked.scope;
-    let root = entity.unwrap_or_else(|| ds.settings.parent.clone());
-    if ds.entity(&root).is_none() {
+    let root = entity.unwrap_or_else(|| checked.ds.settings.parent.clone());
+    if checked.ds.entity(&root).is_none() {
         return Err(Error::Usage(format!("entity {root} is not in entities.csv")));
     }
-    let translated = crate::translate::translate(ds, &checked.mapped, scope.fiscal_start, scope.period)?;
-    let mut checks = {
-        let _span = tracing::info_span!("prove_inputs").entered();
-        prove_inputs(ds, &checked.mapped)?
-    };
+    let (mut checks, translated) = prove_and_translate(&mut checked, run.keep_mapped)?;
+    let ds = &checked.ds;
+    let scope = checked.scope;
     checks.extend(crate::translate::prove(&translated)?);
     let structure_at = |p: Period| structure_at(ds, &root, p);
     // The group's structure at the period is validation's; a sub-group has its own.
@@ -476,7 +497,29 @@ pub fn run_close(
         draft,
         set_aside,
         matching,
+        opening: std::sync::OnceLock::new(),
     }))
+}
+
+/// The inputs' proof, then the translation. Translation needs only the movement frame,
+/// so unless `keep_mapped` the mapped lines (a copy of every ledger row with its chart
+/// columns, the largest frame then alive) are let go before it runs: they are emptied,
+/// their columns kept.
+fn prove_and_translate(
+    checked: &mut Checked,
+    keep_mapped: bool,
+) -> Result<(Vec<crate::proof::Check>, crate::translate::Translated), Error> {
+    let scope = checked.scope;
+    let checks = {
+        let _span = tracing::info_span!("prove_inputs").entered();
+        prove_inputs(&checked.ds, &checked.mapped)?
+    };
+    let movements = checked.mapped.movements(scope.fiscal_start, scope.period)?;
+    if !keep_mapped {
+        checked.mapped.lines = checked.mapped.lines.clear();
+    }
+    let translated = crate::translate::translate_movements(&checked.ds, movements, scope.fiscal_start, scope.period)?;
+    Ok((checks, translated))
 }
 
 /// The entities a close consolidates line by line (in full or proportionately).
@@ -568,7 +611,8 @@ pub struct CloseRequest<'a> {
 pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     use std::collections::BTreeMap;
     let CloseRequest { period, view, entity, draft, out_dir, parquet, translated_lines, compare } = ask;
-    let c = match run_close_or_stop(data, period, view, entity, draft, format, out)? {
+    let run = CloseRun { draft, keep_mapped: compare.is_some() };
+    let c = match run_close_or_stop(data, period, view, entity, run, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -596,13 +640,9 @@ pub fn close(data: &Path, ask: CloseRequest<'_>, format: Format, out: &mut dyn W
     // The statement of changes in equity (IAS 1.106): from the opening close of the
     // view to its closing one, with its own proof.
     let view_start = c.base.as_ref().map(|b| b.period.next()).unwrap_or(scope.fiscal_start);
-    let computed;
     let opening = match &c.base {
         Some(b) => b,
-        None => {
-            computed = c.opening_balances()?;
-            &computed
-        }
+        None => c.opening_balances()?,
     };
     let (equity_changes, equity_check) = crate::equity::changes_in_equity(
         ds,
@@ -725,7 +765,7 @@ fn comparatives(
     };
     let ob = c.opening_balances()?;
     let ds = &c.checked.ds;
-    checks.push(crate::years::opening_is_prior_closing(prior_end, &ob, &ds.accounts, &ds.settings.accounts));
+    checks.push(crate::years::opening_is_prior_closing(prior_end, ob, &ds.accounts, &ds.settings.accounts));
     // The comparatives are only as good as the prior year's close: a blocking finding of
     // its rules (an acquisition missing, say) fails the proof rather than passing unseen.
     let blocking: Vec<String> = prior
@@ -938,7 +978,8 @@ pub struct SegmentsRequest<'a> {
 
 pub fn segments(data: &Path, ask: SegmentsRequest<'_>, format: Format, out: &mut dyn Write) -> Result<i32, Error> {
     let SegmentsRequest { period, view, by, out_dir, compare } = ask;
-    let c = match run_close_or_stop(data, period, view, None, false, format, out)? {
+    let run = CloseRun { draft: false, keep_mapped: compare.is_some() };
+    let c = match run_close_or_stop(data, period, view, None, run, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -1077,7 +1118,8 @@ pub fn trace(
     format: Format,
     out: &mut dyn Write,
 ) -> Result<i32, Error> {
-    let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, false, format, out)? {
+    let run = CloseRun { draft: false, keep_mapped: true };
+    let c = match run_close_or_stop(data, period, crate::cli::View::Ytd, entity, run, format, out)? {
         Ok(c) => c,
         Err(code) => return Ok(code),
     };
@@ -1177,7 +1219,12 @@ pub fn match_intercompany(data: &Path, ask: &MatchRequest, format: Format, out: 
     }
     let deliveries = Deliveries::assess(&ds, &findings, scope)?;
     let used = deliveries.restrict(&mapped)?;
-    let translated = crate::translate::translate(&ds, &used, scope.fiscal_start, scope.period)?;
+    // Matching reads only the translation: neither mapping is needed once it has its
+    // movement frame.
+    drop(mapped);
+    let movements = used.movements(scope.fiscal_start, scope.period)?;
+    drop(used);
+    let translated = crate::translate::translate_movements(&ds, movements, scope.fiscal_start, scope.period)?;
     let mut options = Options::from_settings(&ds.settings.intercompany);
     if let Some(x) = ask.tolerance_absolute {
         options.tolerance_absolute = x;

@@ -240,7 +240,10 @@ impl Deliveries {
         let pres = ds.settings.presentation_currency;
         let mut out = Deliveries::default();
         let empty = BTreeSet::new();
-        for e in &ds.entities {
+        // A subsidiary sold in the year is neither used nor awaited: its figures to the
+        // sale are in the close (`loss_of_control`), and it is a third party after.
+        let sold = sold_in_year(ds, scope);
+        for e in ds.entities.iter().filter(|e| !sold.contains(e.id.as_str())) {
             let have = months_of.get(e.id.as_str()).unwrap_or(&empty);
             let missing: Vec<Period> = scope.months().into_iter().filter(|p| !have.contains(p)).collect();
             let absence = if !ds.delivered_entities.contains(&e.id) {
@@ -663,7 +666,21 @@ fn dec(v: &[Option<Decimal>], i: usize) -> Decimal {
     v[i].unwrap_or_default()
 }
 
+/// The subsidiaries sold in the fiscal year to the period end.
+fn sold_in_year(ds: &Dataset, scope: Scope) -> BTreeSet<String> {
+    crate::ownership::losses_of_control(ds, scope).into_iter().map(|c| c.owned.to_string()).collect()
+}
+
+/// Whether a translated line is of, or names, a subsidiary sold in the year.
+fn names_sold(ds: &Dataset, scope: Scope) -> Expr {
+    sold_in_year(ds, scope).into_iter().fold(lit(false), |acc, x| {
+        acc.or(col("entity").eq(lit(x.clone())).or(col("counterparty").eq(lit(x)).fill_null(lit(false))))
+    })
+}
+
 /// Side aggregates of the period: one row per entity, counterparty, kind and measure.
+/// Lines naming a subsidiary sold in the year are left out: after the sale it is a
+/// third party (IFRS 10.B98), and its pairs to the sale are the close's business.
 fn side_frame(ds: &Dataset, translated: &Translated, scope: Scope) -> PolarsResult<DataFrame> {
     let p = period_index(scope.period);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
@@ -679,6 +696,7 @@ fn side_frame(ds: &Dataset, translated: &Translated, scope: Scope) -> PolarsResu
         .lines
         .clone()
         .lazy()
+        .filter(names_sold(ds, scope).not())
         .filter(col("period_index").lt_eq(lit(p)))
         .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Inner))
         .sort(
@@ -754,6 +772,7 @@ fn declared_frame(
                 .lines
                 .clone()
                 .lazy()
+                .filter(names_sold(ds, scope).not())
                 .filter(col("period_index").gt_eq(lit(p0)).and(col("period_index").lt_eq(lit(p))))
                 .join(
                     chart.select([col("group_account")]),
@@ -1376,14 +1395,16 @@ fn prove(
     not_matched: &[NotMatched],
 ) -> PolarsResult<Vec<Check>> {
     let ic_accounts = chart_frame(ds)?.lazy().filter(col("ic_kind").is_not_null()).select([col("group_account")]);
-    let ledger = translated
+    let of_period = translated
         .lines
         .clone()
         .lazy()
         .filter(col("period_index").eq(lit(period_index(scope.period))))
-        .join(ic_accounts, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Semi))
-        .select([col("balance_presentation").sum().alias("total"), len().alias("lines")])
-        .collect()?;
+        .join(ic_accounts, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Semi));
+    let ledger =
+        of_period.clone().select([col("balance_presentation").sum().alias("total"), len().alias("lines")]).collect()?;
+    let sold = of_period.filter(names_sold(ds, scope)).select([col("balance_presentation").sum()]).collect()?;
+    let sold = column_decimals(sold.column("balance_presentation")?)?.first().copied().flatten().unwrap_or_default();
     let ledger_total = column_decimals(ledger.column("total")?)?.first().copied().flatten().unwrap_or_default();
     let ledger_lines = ledger.column("lines")?.cast(&DataType::UInt64)?.u64()?.get(0).unwrap_or(0);
     let sum_side = |f: fn(&Pair) -> Option<&Side>| -> Decimal {
@@ -1392,12 +1413,12 @@ fn prove(
     let entities = sum_side(|p| p.entity_side.as_ref());
     let counterparties = sum_side(|p| p.counterparty_side.as_ref());
     let others: Decimal = not_matched.iter().map(|x| x.amount).sum();
-    let total = entities + counterparties + others;
+    let total = entities + counterparties + others + sold;
     Ok(vec![Check::new(
         "intercompany_pairs_reconcile_to_ledger",
         total == ledger_total,
         format!(
-            "{} pairs: entity sides {entities} + counterparty sides {counterparties} + kinds without a counterpart account {others} = {total}; intercompany lines of the trial balances ({ledger_lines} grain rows) = {ledger_total}",
+            "{} pairs: entity sides {entities} + counterparty sides {counterparties} + kinds without a counterpart account {others} + lines of or naming a subsidiary sold in the year {sold} = {total}; intercompany lines of the trial balances ({ledger_lines} grain rows) = {ledger_total}",
             pairs.len()
         ),
     )])

@@ -123,16 +123,18 @@ pub fn map_accounts(ds: &Dataset, fiscal_start: Period) -> PolarsResult<Mapped> 
         .drop(Selector::ByName { names: ["amount_presentation".into()].into(), strict: true })
         .with_column(lit(opening_index).alias("period_index"));
     let all = concat([ledger, opening], UnionArgs::default())?;
-    let joined = all.join(
-        single,
-        [col("entity"), col("account")],
-        [col("entity"), col("account")],
-        JoinArgs::new(JoinType::Left),
-    );
-    let unmapped = joined.clone().filter(col("group_account").is_null()).collect()?;
+    // The join is collected once and split in two: two lazy plans from it would each
+    // run it.
+    let joined = all
+        .join(single, [col("entity"), col("account")], [col("entity"), col("account")], JoinArgs::new(JoinType::Left))
+        .collect()?;
+    let no_mapping = joined.column("group_account")?.is_null();
+    let unmapped = joined.filter(&no_mapping)?;
     let chart = chart_frame(ds)?.lazy();
-    let lines = joined
-        .filter(col("group_account").is_not_null())
+    // Filtering copies every row: none is made when every row is mapped.
+    let mapped = if no_mapping.any() { joined.filter(&!&no_mapping)? } else { joined };
+    let lines = mapped
+        .lazy()
         .join(chart, [col("group_account")], [col("group_account")], JoinArgs::new(JoinType::Left))
         .collect()?;
     Ok(Mapped::new(lines, unmapped, mapped_twice))

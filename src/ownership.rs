@@ -506,12 +506,13 @@ pub fn last_controlled_month(date: NaiveDate) -> Period {
 
 /// A loss of control is expressed when the subsidiary was consolidated in full, held by
 /// the row's holder alone (in the presentation currency, without NCI of its own), holds
-/// no entity itself, has no intercompany line, no net investment item and no inventory
-/// count inside the group, was acquired with NCI at its share of net assets and no fair
-/// value adjustment, keeps at most an investment or an associate meeting
-/// [`retained_associate_needs`] (not a joint operation), delivered every month it is
-/// consolidated for, and was not acquired in the fiscal year of the sale where the group
-/// has a statement of cash flows.
+/// no entity itself, has no net investment item and no inventory count inside the
+/// group (its intercompany balances and transactions are, `loss_of_control::pairs`),
+/// has an acquisition (NCI at fair value and fair value adjustments included, but for
+/// the latter with a statement of cash flows: [`sale_acquisition_obstacles`]), keeps at
+/// most an investment or an associate meeting [`retained_associate_needs`] (not a
+/// joint operation), delivered every month it is consolidated for, and was not acquired
+/// in the fiscal year of the sale where the group has a statement of cash flows.
 fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(String) -> Finding) -> Vec<Finding> {
     let c = x.change;
     let before_day = c.date.pred_opt().unwrap_or(c.date);
@@ -543,17 +544,11 @@ fn loss_of_control_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     if ds.holdings.iter().any(|h| h.owner == c.owned && h.is_valid_on(before_day) && !h.capital_share.is_zero()) {
         why.push(format!("{} holds shares of other entities (a sub-group disposal)", c.owned));
     }
-    why.extend(acquisition_obstacles(ds, c, before_day));
+    why.extend(sale_acquisition_obstacles(ds, c, before_day));
     if ds.net_investments.iter().any(|n| n.entity == c.owned || n.counterparty == c.owned)
         || ds.inventory_profits.iter().any(|n| n.seller == c.owned || n.buyer == c.owned)
     {
         why.push("net_investment.csv or inventory_profit.csv names it".into());
-    }
-    if has_counterparty_lines(ds, &c.owned) || is_named_by_others(ds, &c.owned) {
-        why.push(format!(
-            "its trial balances name counterparties, or others name it beyond their investment: intercompany items of {} are not eliminated up to the date yet",
-            c.owned
-        ));
     }
     if uses_other_reserves(ds, &c.owned) {
         why.push(
@@ -644,7 +639,29 @@ fn change_in_stake_needs(ds: &Dataset, x: &Classified, unsupported: &dyn Fn(Stri
     out
 }
 
-/// What of the subsidiary's acquisition a sale or a change in stake does not handle yet.
+/// What of the subsidiary's acquisition a sale does not handle yet. Its NCI at fair
+/// value is handled: the goodwill the investment entry recognised is all of it, the
+/// NCI's part included, and leaves whole; the NCI leaves at its carrying amount (IFRS
+/// 10.B98(a)). Its fair value adjustments are too: their carrying amount at the last
+/// month end (less their deferred tax) leaves with the net assets (B98(a)(i)), and
+/// their depreciation of the year to then stays in profit or loss; but not where the
+/// group has a statement of cash flows, whose disposal line does not yet take out the
+/// depreciation carried with the sale.
+fn sale_acquisition_obstacles(ds: &Dataset, c: &OwnershipChange, before_day: NaiveDate) -> Vec<String> {
+    let mut why = Vec::new();
+    match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date <= before_day) {
+        None => why.push("acquisitions.csv has no acquisition of it before the date".into()),
+        Some(a) => {
+            let uplifted = !a.fair_value_adjustment.is_zero() || ds.uplifts.iter().any(|u| u.owned == c.owned);
+            if uplifted && ds.cash_flow_lines.is_some() {
+                why.push("its acquisition has a fair value adjustment and the group has a statement of cash flows, whose disposal line does not take out the adjustment's depreciation carried with the sale yet".into());
+            }
+        }
+    }
+    why
+}
+
+/// What of the subsidiary's acquisition a change in stake does not handle yet.
 fn acquisition_obstacles(ds: &Dataset, c: &OwnershipChange, before_day: NaiveDate) -> Vec<String> {
     let mut why = Vec::new();
     match ds.acquisitions.iter().rfind(|a| a.owned == c.owned && a.date <= before_day) {

@@ -409,6 +409,16 @@ fn unallocated_rule(rule: EliminationRule) -> Option<&'static str> {
     }
 }
 
+/// The column of a line of a `loss_of_control` entry on the subsidiary sold: its
+/// segment's, as its contribution is. Its contribution (carried to its last month end)
+/// still holds its balances and the entry takes them out, so its segment holds none of
+/// them at the period end; the entry's other lines (the holder's gain and investment)
+/// stay unallocated. `None` for every other line.
+fn disposal_column(e: &Entry, l: &crate::close::EntryLine, m: &Membership) -> Option<Column> {
+    (e.rule == EliminationRule::LossOfControl && e.entities.get(1) == Some(&l.entity))
+        .then(|| m.column(m.of(&l.entity, &l.account)))
+}
+
 /// The column of an entry, or `None` when its entities fall in different segments.
 fn entry_column(e: &Entry, m: &Membership) -> Option<Column> {
     if let Some(id) = unallocated_rule(e.rule) {
@@ -458,7 +468,7 @@ pub fn attribute(
     for entry in journal {
         let col = entry_column(entry, m);
         for l in &entry.lines {
-            if let Some(c) = adjustment_column(entry, l, m) {
+            if let Some(c) = adjustment_column(entry, l, m).or_else(|| disposal_column(entry, l, m)) {
                 add(&mut out.columns, c, &l.account, l.amount);
                 *out.countries.entry(country_of(&l.entity)).or_default().entry(l.account.clone()).or_default() +=
                     l.amount;

@@ -187,9 +187,20 @@ fn translate_rows(lf: LazyFrame, minor: usize, mode: RoundingMode) -> LazyFrame 
 /// translation (rounded once), the balances in the presentation currency, and the
 /// translation difference of each entity and month with its explanation.
 pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<Translated> {
+    translate_movements(ds, mapped.movements(fiscal_start, last)?, fiscal_start, last)
+}
+
+/// [`translate`] from the movement frame itself (`Mapped::movements` of the same months),
+/// so that a caller may let the mapped lines go before translating.
+pub fn translate_movements(
+    ds: &Dataset,
+    movements: DataFrame,
+    fiscal_start: Period,
+    last: Period,
+) -> PolarsResult<Translated> {
     let _span = tracing::info_span!("translate", period = %last).entered();
     let minor = ds.settings.presentation_currency.minor_unit() as usize;
-    let g = grid(ds, mapped, fiscal_start, last)?;
+    let g = grid(ds, movements, fiscal_start, last)?;
     let g = choose_rates(ds, g, period_index(fiscal_start.prev()));
     let g = translate_rows(g, minor, ds.settings.policies.rounding);
     let lines = presentation_balances(g, minor)?.collect()?;
@@ -207,14 +218,14 @@ pub fn translate(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Peri
 
 /// Every grain (entity, account, counterparty, transaction currency) by every month of
 /// the year, with its movement, local balance, basis, entity, rates and opening amount.
-fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
+fn grid(ds: &Dataset, movements: DataFrame, fiscal_start: Period, last: Period) -> PolarsResult<LazyFrame> {
     let p0 = period_index(fiscal_start.prev());
     let pn = period_index(last);
     let grain: Vec<Expr> = GRAIN.iter().map(|c| col(*c)).collect();
     let mut keys = grain.clone();
     keys.push(col("period_index"));
     // IAS 21.42(a): a hyperinflationary entity is restated (IAS 29) before translation.
-    let mov = crate::restate::restate(ds, mapped.movements(fiscal_start, last)?, fiscal_start, last)?.lazy();
+    let mov = crate::restate::restate(ds, movements, fiscal_start, last)?.lazy();
     let periods = DataFrame::new(
         (pn - p0 + 1) as usize,
         vec![Column::new("period_index".into(), (p0..=pn).collect::<Vec<i32>>())],
@@ -227,10 +238,6 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         .unique(None, UniqueKeepStrategy::Any)
         .sort(GRAIN.to_vec(), SortMultipleOptions::default().with_nulls_last(true))
         .with_row_index("gid", None);
-    // The grid is in (gid, period) order by construction (a cross join keeps its left
-    // side's order, each grain with every month), and every join below keeps the
-    // grid's order, so the running sums need no sort of the whole grid.
-    let grid = grains.cross_join(periods.lazy(), None);
     let chart = crate::map_accounts::chart_frame(ds)?.lazy().select([col("group_account"), col("basis")]);
     let zero = decimal_lit(Decimal::ZERO, AMOUNT_SCALE);
     let left = |nulls_equal: bool| {
@@ -239,36 +246,49 @@ fn grid(ds: &Dataset, mapped: &Mapped, fiscal_start: Period, last: Period) -> Po
         a.maintain_order = MaintainOrderJoin::Left;
         a
     };
-
-    Ok(grid
-        .join(mov, keys.clone(), keys.clone(), left(true))
-        .with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")])
+    // What belongs to a grain whatever the month (its account's basis, its entity's
+    // currency, its opening in the presentation currency) is joined once per grain,
+    // before the grain meets its months.
+    let grains = grains
         .join(chart, [col("group_account")], [col("group_account")], left(false))
         .join(entity_frame(ds)?.lazy(), [col("entity")], [col("entity")], left(false))
-        .join(
-            rate_frame(ds)?.lazy(),
-            [col("currency"), col("period_index")],
-            [col("currency"), col("period_index")],
-            left(false),
-        )
-        .join(
+        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), left(true));
+    // The grid is in (gid, period) order by construction (a cross join keeps its left
+    // side's order, each grain with every month), and every join keeps its left side's
+    // order, so the running sums need no sort of the whole grid.
+    let grid = grains.cross_join(periods.lazy(), None);
+    let grid = grid.join(mov, keys.clone(), keys.clone(), left(true)).join(
+        rate_frame(ds)?.lazy(),
+        [col("currency"), col("period_index")],
+        [col("currency"), col("period_index")],
+        left(false),
+    );
+    // Most groups have few historical rates or none: without any, no join.
+    let grid = if ds.historical_rates.is_empty() {
+        grid.with_columns([
+            lit(NULL).cast(DataType::Decimal(38, RATE_SCALE)).alias("rate_historical"),
+            lit(NULL).cast(DataType::String).alias("quote_historical"),
+        ])
+    } else {
+        grid.join(
             historical_frame(ds)?.lazy(),
             [col("entity"), col("group_account"), col("period_index")],
             [col("entity"), col("group_account"), col("period_index")],
             left(false),
         )
-        .join(opening_presentation(ds)?, grain.clone(), grain.clone(), left(true))
-        .with_columns([
-            col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
-            // The part of the local balance that is IAS 29 restatement, for the audit trail
-            // (cumulated only when some entity is restated: a zero column otherwise).
-            if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
-                col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
-            } else {
-                zero.clone()
-            }
-            .alias("restatement_local"),
-        ]))
+    };
+
+    Ok(grid.with_columns([col("amount").fill_null(zero.clone()).alias("amount_local")]).with_columns([
+        col("amount_local").cum_sum(false).over([col("gid")])?.alias("balance_local"),
+        // The part of the local balance that is IAS 29 restatement, for the audit trail
+        // (cumulated only when some entity is restated: a zero column otherwise).
+        if ds.entities.iter().any(|e| crate::restate::months(e, fiscal_start, last).is_some()) {
+            col("restatement").fill_null(zero.clone()).cum_sum(false).over([col("gid")])?
+        } else {
+            zero.clone()
+        }
+        .alias("restatement_local"),
+    ]))
 }
 
 /// Which amount of each row is translated at which rate: the rate kind (unit,

@@ -95,11 +95,11 @@ for h in holdings:
         na = -na + UPLIFT[2]
         rate = D(rates[("2026-03", ccy)]["closing"])
         na_pres = q(na / rate, "EUR")
-        cost_eur = D("3600000.00")
+        cost_eur = D("3600000.00")  # paid 2.7m + the interest held before at 0.9m (IFRS 3.32)
         consideration = q(cost_eur * rate, ccy)
         date = "2026-04-01"
         measurement, nci_fv = "fair_value", q(na * D("0.40") * D("1.05"), ccy)
-        note = "acquired during the year: 60% for EUR 3.6m; NCI at fair value"
+        note = "control in stages: 45% bought for EUR 2.7m + the 15% held since 2023 at its fair value EUR 0.9m; NCI at fair value"
     elif owned == "WSL-PL":
         # Bought on 2021-09-01 (invented) when it had accumulated losses of PLN 800,000:
         # net assets acquired PLN 11,200,000 (capital 12,000,000 less the losses), at

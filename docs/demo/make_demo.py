@@ -253,6 +253,7 @@ GROUP_ACCOUNTS = [
     ("7300", "Foreign exchange gains", "profit_or_loss", "income", "average", "", ""),
     ("7350", "Foreign exchange losses", "profit_or_loss", "expense", "average", "", ""),
     ("7400", "Dividend income from group entities", "profit_or_loss", "income", "average", "dividend", ""),
+    ("7500", "Gains and losses on changes in ownership", "profit_or_loss", "income", "average", "", ""),
     ("8000", "Income tax expense", "profit_or_loss", "expense", "average", "", ""),
     ("9000", "Exchange differences on translating foreign operations", "oci", "income", "average", "", ""),
     ("9100", "Gains on property revaluation", "oci", "income", "average", "", ""),
@@ -347,16 +348,25 @@ ENTITIES = [
 CCY = {e[0]: e[3] for e in ENTITIES}
 ENTITY_INDEX = {e[0]: i for i, e in enumerate(ENTITIES)}
 
+# The sale of NRD-SE (docs/demo.md, "The sale of NRD-SE"): ALD-NL sells all of it on
+# 2026-10-01 for EUR cash received that day. NRD-SE is consolidated to 2026-09-30 and
+# delivers nothing after; ALD-NL stops charging it fees after September.
+NRD_SALE = dict(entity="NRD-SE", date="2026-10-01", period="2026-10", last="2026-09",
+                proceeds=D("8000000.00"), gain_account="7500")
+NRD_SALE_VALID_TO = "2026-09-30"
+
 HOLDINGS = [
-    # owner, owned, capital_share, voting_share, valid_from
+    # owner, owned, capital_share, voting_share, valid_from[, valid_to]
     ("ALD-NL", "ALD-UK", "1.00", "1.00", "2012-03-01"),
     ("ALD-NL", "ALD-US", "0.80", "0.80", "2015-01-01"),
     ("ALD-US", "BRW-US", "0.75", "0.75", "2016-07-01"),
     ("BRW-US", "BRW-MX", "0.70", "0.70", "2019-02-01"),
     ("ALD-NL", "KIS-JP", "0.10", "0.10", "2018-10-01"),
     ("ALD-US", "KIS-JP", "0.70", "0.70", "2018-10-01"),
+    # Control in stages (docs/demo.md): 15% held since 2023, 45% more bought on 2026-04-01.
+    ("ALD-NL", "GLF-BH", "0.15", "0.15", "2023-07-01", "2026-03-31"),
     ("ALD-NL", "GLF-BH", "0.60", "0.60", "2026-04-01"),
-    ("ALD-NL", "NRD-SE", "1.00", "1.00", "2014-05-01"),
+    ("ALD-NL", "NRD-SE", "1.00", "1.00", "2014-05-01", NRD_SALE_VALID_TO),
     ("ALD-NL", "HEL-CH", "0.30", "0.30", "2019-07-01"),
     ("ALD-UK", "WSL-PL", "1.00", "1.00", "2021-09-01"),
 ]
@@ -401,6 +411,7 @@ CHARTS: dict[str, dict[str, tuple[str, str, str]]] = {
         "fx_gain": ("920000", "Koersresultaten positief", "7300"),
         "fx_loss": ("921000", "Koersresultaten negatief", "7350"),
         "div_income": ("930000", "Dividend uit deelnemingen", "7400"),
+        "gain_disposal": ("940000", "Boekresultaat verkoop deelnemingen", "7500"),
         "tax": ("960000", "Vennootschapsbelasting", "8000"),
     },
     "ALD-UK": {  # four digits, numbers that collide with group numbers on purpose
@@ -825,7 +836,9 @@ LOAN_EUR = D("20000000.00")  # ALD-NL to ALD-US, EUR, 4.00% a year, interest pai
 LOAN_RATE = D("0.04")
 LOAN_REPAYMENT = ("2026-06", D("2000000.00"))  # repaid on 2026-06-30
 ACQ_LOAN = ("2026-04", D("3000000.00"), D("0.045"))  # ALD-NL bank loan to fund GLF-BH
-GLF_CONSIDERATION = D("3600000.00")  # paid by ALD-NL on 2026-04-01 for 60%
+GLF_CONSIDERATION = D("2700000.00")  # paid by ALD-NL on 2026-04-01 for 45% more (control)
+GLF_HELD_COST = D("600000.00")  # ALD-NL's 15% bought in 2023, an investment at cost
+GLF_HELD_FAIR_VALUE = D("900000.00")  # the 15% at 2026-04-01: 15/60 of the price paid
 
 # Investments at cost in the investor's books (investor currency). The founded or
 # capitalised subsidiaries carry exactly their share of share capital and premium at the
@@ -845,6 +858,7 @@ def investments() -> list[tuple[str, str, str, Decimal]]:
         ("ALD-NL", "KIS-JP", "invest_sub", D("2350000.00")),
         ("ALD-NL", "NRD-SE", "invest_sub", sc_sp("NRD-SE")),
         ("ALD-NL", "HEL-CH", "invest_assoc", D("3100000.00")),
+        ("ALD-NL", "GLF-BH", "invest_sub", GLF_HELD_COST),
         # WSL-PL's capital at the 2021 rate of 0.8580 GBP per EUR.
         ("ALD-UK", "WSL-PL", "invest_sub", q(sc_sp("WSL-PL") * D("0.8580"), "GBP")),
         ("ALD-US", "BRW-US", "invest_sub", D("26000000.00")),
@@ -857,14 +871,14 @@ class Invoice:
     """One intercompany invoice (or an aggregate of one month's invoices of one flow)."""
 
     def __init__(self, seller, buyer, kind, ccy, amount, period, *, buyer_amount=None,
-                 buyer_period="same", buyer_rate=None, ref=""):
+                 buyer_period="same", buyer_rate=None, ref="", unpaid=False):
         self.seller, self.buyer, self.kind, self.ccy = seller, buyer, kind, ccy
         self.amount = q(amount, ccy)
         self.buyer_amount = self.amount if buyer_amount is None else q(buyer_amount, ccy)
         self.seller_period = period
         self.buyer_period = period if buyer_period == "same" else buyer_period
         # Paid in the month after the buyer booked it (30 days), if inside the demo year.
-        self.pay_period = next_period(self.buyer_period) if self.buyer_period else None
+        self.pay_period = next_period(self.buyer_period) if self.buyer_period and not unpaid else None
         self.buyer_rate = buyer_rate  # functional units per unit of ccy, when overridden
         self.ref = ref
 
@@ -878,10 +892,28 @@ DELIBERATE = dict(
                     amount=D("38500.00"), ref="BRW-INV-26-06-0412 dated 2026-06-29 booked by BRW-MX 2026-07-02"),
     dispute=dict(seller="KIS-JP", buyer="BRW-US", period="2026-12", amount=D("212400.00"),
                  buyer_amount=D("208900.00"), ref="KIS-26-1207 price dispute"),
-    fee_small=dict(buyer="NRD-SE", period="2026-12", buyer_amount=D("16490.40")),
+    # NRD-SE's last month in the group; the invoice stays unpaid (the buyer disputes the
+    # recharge after the sale): a receivable from a third party from 2026-10-01.
+    fee_small=dict(buyer="NRD-SE", period="2026-09", buyer_amount=D("16490.40")),
     fx_fee=dict(buyer="ALD-UK", period="2026-12", buyer_rate=D("0.8400")),
     fx_loan=dict(entity="ALD-US", period="2026-08", rate_period="2026-07"),
 )
+
+
+def in_bhd(eur: Decimal) -> Decimal:
+    """A euro amount of GLF-BH's acquisition in BHD at the 2026-03 closing rate, as
+    acquisitions.csv has it."""
+    x = eur * rate("BHD", "2026-03", "closing")
+    assert x == q(x, "BHD"), x
+    return x
+
+
+def nrd_sale_consideration() -> Decimal:
+    """The proceeds of NRD-SE in its own currency (ownership_changes.csv), at the closing
+    rate of its last month end consolidated, which tessera translates back exactly."""
+    x = NRD_SALE["proceeds"] * rate("SEK", NRD_SALE["last"], "closing")
+    assert x == q(x, "SEK"), x
+    return x
 
 
 def build_invoices() -> list[Invoice]:
@@ -898,9 +930,12 @@ def build_invoices() -> list[Invoice]:
         for buyer, fee in MGMT_FEES_EUR.items():
             if buyer == "GLF-BH" and period < GLF_JOINS:
                 continue
+            if buyer == NRD_SALE["entity"] and period > NRD_SALE["last"]:
+                continue
             kw = {}
             if period == DELIBERATE["fee_small"]["period"] and buyer == DELIBERATE["fee_small"]["buyer"]:
                 kw["buyer_amount"] = DELIBERATE["fee_small"]["buyer_amount"]
+                kw["unpaid"] = True
             if period == DELIBERATE["fx_fee"]["period"] and buyer == DELIBERATE["fx_fee"]["buyer"]:
                 kw["buyer_rate"] = DELIBERATE["fx_fee"]["buyer_rate"]
             inv.append(Invoice("ALD-NL", buyer, "fees", "EUR", fee, period, **kw))
@@ -1184,7 +1219,12 @@ def simulate():
         if period == ACQ_LOAN[0]:
             L["ALD-NL"].post([("cash", ACQ_LOAN[1]), ("bank_loan", -ACQ_LOAN[1])], "acquisition loan drawn")
             L["ALD-NL"].post([("invest_sub", GLF_CONSIDERATION, "GLF-BH"), ("cash", -GLF_CONSIDERATION)],
-                             "acquisition of 60% of GLF-BH")
+                             "acquisition of 45% more of GLF-BH: control")
+        if period == NRD_SALE["period"]:
+            cost = L["ALD-NL"].balance("invest_sub", NRD_SALE["entity"])[0]
+            gain = NRD_SALE["proceeds"] - cost
+            L["ALD-NL"].post([("cash", NRD_SALE["proceeds"]), ("invest_sub", -cost, NRD_SALE["entity"]),
+                              ("gain_disposal", -gain)], "sale of NRD-SE")
         if period >= ACQ_LOAN[0]:
             i = q(ACQ_LOAN[1] * ACQ_LOAN[2] / 12, "EUR")
             L["ALD-NL"].post([("int_exp_bank", i), ("cash", -i)], "acquisition loan interest")
@@ -1249,7 +1289,8 @@ def simulate():
             if not rate_:
                 continue
             pbt = -sum(led.pl_month.values(), D(0))
-            exempt = -led.pl_month.get("7400", D(0))  # participation exemption on dividends
+            # participation exemption on dividends and on the gain on a subsidiary sold
+            exempt = -led.pl_month.get("7400", D(0)) - led.pl_month.get("7500", D(0))
             t = q((pbt - exempt) * rate_, CCY[e])
             led.post([("tax", t), ("tax_payable", -t)], "income tax accrual")
 
@@ -1559,7 +1600,17 @@ def main(argv=None):
     w.csv("entities/holdings.csv",
           ["owner", "owned", "capital_share", "voting_share", "valid_from", "valid_to",
            "arrangement", "method_override", "override_reason"],
-          [list(h) + ["", "", "", ""] for h in HOLDINGS])
+          [list(h[:5]) + [h[5] if len(h) > 5 else "", "", "", ""] for h in HOLDINGS])
+    w.csv("entities/ownership_changes.csv",
+          ["date", "holder", "owned", "share", "consideration", "fair_value_held", "costs", "gain_account",
+           "note"],
+          [["2026-04-01", "ALD-NL", "GLF-BH", "0.45", fmt(in_bhd(GLF_CONSIDERATION), "BHD"),
+            fmt(in_bhd(GLF_HELD_FAIR_VALUE), "BHD"), "", NRD_SALE["gain_account"],
+            f"45% more for EUR {GLF_CONSIDERATION}: control; the 15% held since 2023 worth EUR {GLF_HELD_FAIR_VALUE}"
+            " (BHD at the 2026-03 closing rate)"],
+           [NRD_SALE["date"], "ALD-NL", NRD_SALE["entity"], "-1.00", fmt(nrd_sale_consideration(), "SEK"), "", "",
+            NRD_SALE["gain_account"],
+            f"all of NRD-SE sold for EUR {NRD_SALE['proceeds']} received on the day (SEK at the 2026-09 closing rate)"]])
     w.csv("entities/accounts.csv",
           ["account", "name", "statement", "class", "basis", "ic_kind", "non_current", "reserve"],
           [list(a) + [RESERVES.get(a[0], "")] for a in GROUP_ACCOUNTS])
@@ -1600,6 +1651,8 @@ def main(argv=None):
                   tb_rows(e, snapshots[e][OPENING_PERIOD], with_presentation=True))
         seen: set = set(snapshots[e][OPENING_PERIOD])
         for period in PERIODS:
+            if e == NRD_SALE["entity"] and period > NRD_SALE["last"]:
+                break  # sold: no deliveries after the last month end consolidated
             if e in BALANCES_DELIVERY:
                 snap = snapshots[e][period]
                 seen |= set(snap)

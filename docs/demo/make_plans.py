@@ -9,7 +9,9 @@ its local accounts and currency, and the plan's rates. Every figure is invented:
   in (BRW-MX 4% below: it beat its budget), costs of sales, staff and other operating
   expenses 3% above, tax 5% above; intercompany lines (with a counterparty), interest and
   depreciation as they came in; exchange gains and losses and dividends not budgeted.
-  GLF-BH, acquired in April, is not in the budget (a scope difference). The budget rates
+  GLF-BH, acquired in April, is not in the budget (a scope difference). NRD-SE, sold on
+  2026-10-01, is: the budget expected its October to December like its September (its
+  last month delivered), and ALD-NL's fees from it likewise. The budget rates
   are the closing rates of 2025-12 for every month, closing and average (a fixed budget
   rate; common practice).
 - The forecast made after June (forecast-q3): January to June as delivered, at the actual
@@ -37,8 +39,9 @@ NOT_BUDGETED_ENTITIES = {"GLF-BH"}
 FACTORS = {"4000": D("1.06"), "5000": D("1.03"), "6000": D("1.03"), "6200": D("1.03"),
            "8000": D("1.05")}
 ENTITY_REVENUE = {"BRW-MX": D("0.96")}
-# Not planned: exchange differences, dividends, intercompany differences.
-NOT_PLANNED = {"7300", "7350", "7400", "6950"}
+# Not planned: exchange differences, dividends, intercompany differences, gains on
+# disposal of subsidiaries.
+NOT_PLANNED = {"7300", "7350", "7400", "6950", "7500"}
 
 
 def read(path):
@@ -60,6 +63,8 @@ def pl_movements(root, entity, pl_accounts):
     for p in PERIODS:
         mov = os.path.join(ent, f"tb-{p}.movements.csv")
         bal = os.path.join(ent, f"tb-{p}.balances.csv")
+        if not os.path.exists(mov) and not os.path.exists(bal):
+            break  # sold: nothing delivered after its last month consolidated
         month = defaultdict(Decimal)
         if os.path.exists(mov):
             for r in read(mov):
@@ -103,8 +108,21 @@ def main(argv=None):
     currencies = sorted({r["currency"] for r in rates})
     written = []
     header = ["period", "account", "amount", "counterparty"]
+    # Entities sold in the year (every holding of them ends, the last in the year): the
+    # last month they deliver.
+    ends = defaultdict(list)
+    for h in read(os.path.join(root, "entities", "holdings.csv")):
+        ends[h["owned"]].append(h["valid_to"])
+    sold = {o: max(v)[:7] for o, v in ends.items() if all(v) and max(v)[:7] in PERIODS}
     for e, ccy in sorted(entities.items()):
         mapping, moves = pl_movements(root, e, pl_accounts)
+        # The plans were made before the sale: a sold entity's months after its last one,
+        # and the other entities' lines naming it, are planned like that last month.
+        for s, last in sold.items():
+            for (p, loc, cp), v in sorted(moves.items()):
+                if p == last and (e == s or cp == s):
+                    for later in PERIODS[PERIODS.index(last) + 1:]:
+                        moves[(later, loc, cp)] = moves.get((later, loc, cp), D(0)) + v
         budget, forecast = [], []
         for (p, loc, cp), v in sorted(moves.items()):
             grp = mapping[loc]

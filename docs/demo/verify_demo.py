@@ -37,8 +37,8 @@ EXPECTED_TXN = {
     ("2026-12", ("ALD-UK", "BRW-US"), "sales", "pl", "USD"): D("96800.00"),
     ("2026-12", ("BRW-US", "KIS-JP"), "trade", "bs", "USD"): D("3500.00"),
     ("2026-12", ("BRW-US", "KIS-JP"), "sales", "pl", "USD"): D("3500.00"),
-    ("2026-12", ("ALD-NL", "NRD-SE"), "trade", "bs", "EUR"): D("9.60"),
-    ("2026-12", ("ALD-NL", "NRD-SE"), "fees", "pl", "EUR"): D("9.60"),
+    ("2026-09", ("ALD-NL", "NRD-SE"), "trade", "bs", "EUR"): D("9.60"),
+    ("2026-09", ("ALD-NL", "NRD-SE"), "fees", "pl", "EUR"): D("9.60"),
 }
 # Agreeing in the transaction currency, differing once translated (FX differences).
 EXPECTED_FX_ONLY = {
@@ -175,7 +175,8 @@ def main(argv=None) -> int:
                 if a not in accounts or not pred(accounts[a]):
                     fail(f"layout {st}/{r['line']}: {a} is not an account of this statement")
                 count[a] = count.get(a, 0) + 1
-            for t in r["total_of"].split():
+            # A ratio line (`A / B`, docs/formats.md) names two earlier lines.
+            for t in r["total_of"].replace(" / ", " ").split():
                 if t.lstrip("-") not in ids[: ids.index(r["line"])]:
                     fail(f"layout {st}/{r['line']}: total of unknown or later line {t}")
         for a, r in accounts.items():
@@ -214,6 +215,24 @@ def main(argv=None) -> int:
 
     # ---- entity files ----------------------------------------------------------------------
     owned_by = {(h["owner"], h["owned"]) for h in holdings}
+    # An entity sold in the year (its holding ends in it, ownership_changes.csv says so)
+    # delivers to the month end its holding ends in, and nothing after; from then its
+    # pairs with the group are with a third party and are not compared.
+    changes = read_csv(os.path.join(ent_dir, "ownership_changes.csv"))
+    last_month: dict[str, str] = {}
+    for h in holdings:
+        if h["valid_to"] and h["valid_to"][:7] in PERIODS:
+            y, m, d = (int(x) for x in h["valid_to"].split("-"))
+            nxt = f"{y}-{m + 1:02d}-01" if d == calendar.monthrange(y, m)[1] and m < 12 else None
+            if not any(c["owned"] == h["owned"] and c["holder"] == h["owner"] and c["date"] == nxt for c in changes):
+                fail(f"holding {h['owner']}->{h['owned']} ends on {h['valid_to']} without a row in ownership_changes.csv")
+    for owned in {h["owned"] for h in holdings}:
+        ends = [h["valid_to"] for h in holdings if h["owned"] == owned]
+        if all(ends) and max(ends)[:7] in PERIODS:
+            last_month[owned] = max(ends)[:7]  # sold: every holding of it ends in the year
+
+    def periods_of(e: str) -> list[str]:
+        return [p for p in PERIODS if p <= last_month.get(e, PERIODS[-1])]
     # pos[entity][period][(group account, cp, ccy_of_compare)] = [functional, txn]
     bal: dict[str, dict[str, dict]] = {}   # cumulative BS / YTD P&L, functional + txn
     mov: dict[str, dict[str, dict]] = {}
@@ -296,6 +315,10 @@ def main(argv=None) -> int:
         delivered = set()
         for p in PERIODS:
             fname = [f for f in files if f.startswith(f"tb-{p}.")]
+            if p not in periods_of(e):
+                if fname:
+                    fail(f"{e}: delivers {p}, after it left the group")
+                continue
             if len(fname) != 1:
                 fail(f"{e}: {len(fname)} deliveries for {p}")
                 continue
@@ -372,7 +395,8 @@ def main(argv=None) -> int:
     table = []
     for p in [OPENING] + PERIODS:
         sides: dict = {}  # (pair, kind, side) -> {entity: {ccy: txn}, entity+'_eur': eur}
-        for e in entities:
+        in_group = [e for e in entities if p == OPENING or p in periods_of(e)]
+        for e in in_group:
             eur = translate(e, p)
             for k, v in bal[e][p].items():
                 loc, cp, tccy = k
@@ -383,6 +407,8 @@ def main(argv=None) -> int:
                 side = "bs" if accounts[g]["statement"] == "balance_sheet" else "pl"
                 if ic == "dividend" and side == "pl":
                     continue  # compared below against the payer's declared dividend
+                if cp not in in_group:
+                    continue  # sold: a third party from the month after its last
                 pair = tuple(sorted((e, cp)))
                 s = sides.setdefault((pair, ic, side), {})
                 cur = tccy or ccy_of[e]
@@ -395,6 +421,8 @@ def main(argv=None) -> int:
                 g = gmap[e][k[0]]
                 if accounts[g]["ic_kind"] == "dividend" and accounts[g]["statement"] != "balance_sheet":
                     payer = k[1]
+                    if payer not in in_group:
+                        continue
                     declared = D(0)
                     for q_ in PERIODS[: PERIODS.index(p) + 1] if p != OPENING else []:
                         for k2, v2 in mov[payer][q_].items():
@@ -474,9 +502,10 @@ def main(argv=None) -> int:
         print("entity   ccy  revenue_ytd_local  profit_ytd_local  revenue_EUR   profit_EUR   total_assets_local")
         for e in entities:
             ccy = ccy_of[e]
-            eur = translate(e, "2026-12")
+            end = periods_of(e)[-1]
+            eur = translate(e, end)
             rev = profit = rev_e = prof_e = ta = D(0)
-            for k, v in bal[e]["2026-12"].items():
+            for k, v in bal[e][end].items():
                 g = gmap[e][k[0]]
                 st = accounts[g]["statement"]
                 if st == "profit_or_loss":

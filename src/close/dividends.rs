@@ -7,9 +7,11 @@
 use super::context::Context;
 use super::journal::{EliminationRule, Journal, line};
 
-/// Posts one entry per dividend line in profit or loss with a consolidated payer.
+/// Posts one entry per dividend line in profit or loss with a consolidated payer and
+/// receiver (a subsidiary sold in the year brings its dividends to the sale in its
+/// `loss_of_control` entry).
 pub fn post(j: &mut Journal, cx: &Context) {
-    for (receiver, accts) in &cx.balances {
+    for (receiver, accts) in cx.balances.iter().filter(|(r, _)| cx.consolidated.contains(*r)) {
         for ((acct, payer), amount) in accts {
             let Some(payer) = payer else { continue };
             if cx.kind_of(acct) != Some("dividend") || !cx.is_flow(acct) || !cx.consolidated.contains(payer) {

@@ -19,11 +19,15 @@ use super::journal::{EliminationRule, EntryLine, Journal, line};
 use crate::model::EntityId;
 use crate::money;
 
-/// Whether a line on `acct` with counterparty `cp` belongs to this rule.
-fn is_pair_line(cx: &Context, acct: &crate::model::GroupAccount, cp: &EntityId) -> Option<String> {
+/// Whether a line of `ent` on `acct` with counterparty `cp` belongs to this rule. Both
+/// must be consolidated: a subsidiary sold in the year contributes its figures to its
+/// last month end, and its pairs of those months are in its `loss_of_control` entry;
+/// after the month of the sale they are balances and transactions with a third party
+/// (IFRS 10.B98), not eliminated.
+fn is_pair_line(cx: &Context, ent: &EntityId, acct: &crate::model::GroupAccount, cp: &EntityId) -> Option<String> {
     let kind = cx.kind_of(acct)?;
     let own_rule = kind == "investment" || (kind == "dividend" && cx.is_flow(acct));
-    (cx.consolidated.contains(cp) && !own_rule).then(|| kind.to_string())
+    (cx.consolidated.contains(cp) && cx.consolidated.contains(ent) && !own_rule).then(|| kind.to_string())
 }
 
 /// Posts one entry per pair of entities and kind.
@@ -32,7 +36,7 @@ pub fn post(j: &mut Journal, cx: &Context) {
     for (ent, accts) in &cx.balances {
         for ((acct, cp), amount) in accts {
             let Some(cp) = cp else { continue };
-            let Some(kind) = is_pair_line(cx, acct, cp) else { continue };
+            let Some(kind) = is_pair_line(cx, ent, acct, cp) else { continue };
             let (a, b) = if ent < cp { (ent.clone(), cp.clone()) } else { (cp.clone(), ent.clone()) };
             pairs.entry((a, b, kind)).or_default().push(line(acct, ent, Some(cp), -*amount));
         }
@@ -109,5 +113,17 @@ mod tests {
         let mut j = Journal::default();
         post(&mut j, &cx);
         assert!(j.entries.is_empty());
+    }
+    /// A subsidiary sold in the year (S, outside the structure at the period end) still
+    /// contributes its balances to the sale; neither its lines naming P nor P's naming
+    /// it are paired after the sale (IFRS 10.B98): they are with a third party.
+    #[test]
+    fn a_subsidiary_sold_is_no_longer_paired() {
+        let w = World::new(&["P", "S"], &[], p("2026-12"));
+        let bal = balances(&[("P", "1650", Some("S"), "100"), ("S", "2450", Some("P"), "-100")]);
+        let cx = w.context(p("2026-12"), p("2026-01"), bal);
+        let mut j = Journal::default();
+        post(&mut j, &cx);
+        assert!(j.entries.is_empty(), "{:?}", j.entries);
     }
 }

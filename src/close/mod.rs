@@ -174,8 +174,8 @@ pub fn close_before_change(
 /// The close at `period` on year-to-date balances: the chain of the module header.
 pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period) -> PolarsResult<Close> {
     let fiscal_start = year_start(ds, t, period);
-    let sold = sold_in_year(ds, t, period, fiscal_start)?;
-    let stakes = stakes_changed_in_year(ds, t, period, fiscal_start)?;
+    let sold = sold_in_year(ds, t, s, period, fiscal_start)?;
+    let stakes = stakes_changed_in_year(ds, t, s, period, fiscal_start)?;
     let contributions = with_sold(aggregate(ds, t, s, period)?, &sold)?;
     let balances = aggregate::balances(&contributions)?;
     let cx = context::Context::new(ds, t, s, period, fiscal_start, balances);
@@ -272,11 +272,19 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     })
 }
 
+/// Whether the holder of a change is in the view of `s` (its root or an entity it
+/// controls): a sub-group's close has only the changes made within it.
+fn in_view(s: &GroupStructure, c: &OwnershipChange) -> bool {
+    s.parent() == &c.holder || s.entity(&c.holder).is_some_and(|x| x.controlled)
+}
+
 /// The subsidiaries sold in the fiscal year to `period` (none for the close of the
-/// opening balances), each as the close at its last month end consolidated shows it.
+/// opening balances) by a holder in the view, each as the close at its last month end
+/// consolidated shows it.
 fn sold_in_year<'a>(
     ds: &'a Dataset,
     t: &Translated,
+    s: &GroupStructure,
     period: Period,
     fiscal_start: Period,
 ) -> PolarsResult<Vec<loss_of_control::AtLastMonth<'a>>> {
@@ -286,6 +294,7 @@ fn sold_in_year<'a>(
     let scope = crate::validate::Scope { period, fiscal_start };
     crate::ownership::losses_of_control(ds, scope)
         .into_iter()
+        .filter(|c| in_view(s, c))
         .map(|c| loss_of_control::at_last_month(ds, t, c))
         .collect()
 }
@@ -333,6 +342,7 @@ fn associates_sold<'a>(
 fn stakes_changed_in_year<'a>(
     ds: &'a Dataset,
     t: &Translated,
+    s: &GroupStructure,
     period: Period,
     fiscal_start: Period,
 ) -> PolarsResult<Vec<change_in_stake::Before<'a>>> {
@@ -340,7 +350,11 @@ fn stakes_changed_in_year<'a>(
         return Ok(Vec::new());
     }
     let scope = crate::validate::Scope { period, fiscal_start };
-    crate::ownership::changes_in_stake(ds, scope).into_iter().map(|c| change_in_stake::before(ds, t, c)).collect()
+    crate::ownership::changes_in_stake(ds, scope)
+        .into_iter()
+        .filter(|c| in_view(s, c))
+        .map(|c| change_in_stake::before(ds, t, c))
+        .collect()
 }
 
 /// The contribution frame with the sold subsidiaries' contributions at their last month

@@ -176,7 +176,7 @@ pub fn with_rates(ds: &Dataset, rates: &[MonthlyRate]) -> Dataset {
 /// `tessera check`).
 pub fn check_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<Vec<Finding>> {
     let mut f = plan_findings(a, plan)?;
-    let mapped = crate::map_accounts::map_accounts(&plan_dataset(a.ds, plan)?, a.fiscal_start)?;
+    let mapped = crate::map_accounts::map_accounts(&plan_dataset(a.ds, plan, a.fiscal_start)?, a.fiscal_start)?;
     f.extend(unmapped_findings(&mapped.unmapped)?);
     Ok(f)
 }
@@ -186,7 +186,7 @@ pub fn check_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<Vec<Finding
 pub fn compare_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<(Option<Compared>, Vec<Finding>)> {
     let _span = tracing::info_span!("compare", plan = %plan.name).entered();
     let mut f = plan_findings(a, plan)?;
-    let pds = plan_dataset(a.ds, plan)?;
+    let pds = plan_dataset(a.ds, plan, a.fiscal_start)?;
     let mapped = crate::map_accounts::map_accounts(&pds, a.fiscal_start)?;
     f.extend(unmapped_findings(&mapped.unmapped)?);
     if f.iter().any(|x| x.severity >= Severity::Blocking) {
@@ -194,7 +194,9 @@ pub fn compare_plan(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<(Option<C
     }
     let close_of = |ds: &Dataset, m: &crate::map_accounts::Mapped| -> PolarsResult<(Close, Option<Close>)> {
         let t = crate::translate::translate(ds, m, a.fiscal_start, a.period)?;
-        let c = crate::close::close_at(ds, &t, a.structure, a.period)?;
+        // The plan's own structure: the actual one but for a subsidiary sold in the year,
+        // which the plan keeps (`keep_sold`).
+        let c = crate::close::close_at(ds, &t, &structure_at(ds, a.structure, a.period), a.period)?;
         let b = match a.base_period {
             Some(p) => Some(crate::close::close_at(ds, &t, &structure_at(ds, a.structure, p), p)?),
             None => None,
@@ -231,9 +233,11 @@ fn structure_at(ds: &Dataset, s: &GroupStructure, p: Period) -> GroupStructure {
 }
 
 /// The plan as a data folder: the actual one with the plan's movements (and their
-/// balancing lines) for the trial balances and the plan's rates (see the module header).
-pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
+/// balancing lines) for the trial balances and the plan's rates (see the module header),
+/// and the subsidiaries the actuals sell in the fiscal year from `fiscal_start` kept.
+pub fn plan_dataset(ds: &Dataset, plan: &PlanInput, fiscal_start: Period) -> PolarsResult<Dataset> {
     let mut out = with_rates(ds, &plan.rates);
+    keep_sold(&mut out, plan, fiscal_start);
     let balancing = balancing_rows(&plan.ledger)?;
     out.ledger = concat([plan.ledger.clone().lazy(), balancing.lazy()], UnionArgs::default())?.collect()?;
     let planned: Vec<String> = plan.entities.iter().map(|e| e.to_string()).collect();
@@ -271,6 +275,49 @@ pub fn plan_dataset(ds: &Dataset, plan: &PlanInput) -> PolarsResult<Dataset> {
     out.accepted_differences.clear();
     out.group_adjustments = Default::default();
     Ok(out)
+}
+
+/// A plan made before a sale of a subsidiary it plans keeps the subsidiary for the whole
+/// year, so the plan's close does not sell it (it would derecognise the planned net
+/// assets with no proceeds): the holder's holding runs on as it was the day before the
+/// sale, a holding from the date is left out, and so is the sale's row. The comparison
+/// then shows the sale as a scope effect (`comparison`). Control obtained in stages is
+/// left out of the plan's close as well (below).
+fn keep_sold(out: &mut Dataset, plan: &PlanInput, fiscal_start: Period) {
+    let year_first = fiscal_start.first_day();
+    let sold: Vec<OwnershipChange> = out
+        .ownership_changes
+        .iter()
+        .filter(|c| c.date >= year_first && plan.entities.contains(&c.owned))
+        .filter(|c| crate::ownership::classify(out, c).kind == crate::ownership::ChangeKind::LossOfControl)
+        .cloned()
+        .collect();
+    for c in &sold {
+        let before = c.date.pred_opt().unwrap_or(c.date);
+        let of = |h: &Holding| h.owner == c.holder && h.owned == c.owned;
+        out.holdings.retain(|h| !(of(h) && h.valid_from == c.date));
+        for h in out.holdings.iter_mut().filter(|h| of(h) && h.valid_to == Some(before)) {
+            h.valid_to = None;
+        }
+    }
+    out.ownership_changes.retain(|c| !sold.contains(c));
+    // A plan holds income and expense only, not the holder's purchase: the
+    // remeasurement of an interest held before control (IFRS 3.42) would be measured
+    // against an investment the plan never paid for. It is a fact of the actuals, and the
+    // walk shows it as the step `step_acquisition`.
+    let steps: Vec<OwnershipChange> = out
+        .ownership_changes
+        .iter()
+        .filter(|c| crate::ownership::classify(out, c).kind == crate::ownership::ChangeKind::StepAcquisition)
+        .cloned()
+        .collect();
+    out.ownership_changes.retain(|c| !steps.contains(c));
+}
+
+/// The subsidiaries the actuals sell in the fiscal year to the period.
+fn sold_in_year(a: &Actuals<'_>) -> BTreeSet<EntityId> {
+    let scope = crate::validate::Scope { period: a.period, fiscal_start: a.fiscal_start };
+    crate::ownership::losses_of_control(a.ds, scope).into_iter().map(|c| c.owned.clone()).collect()
 }
 
 /// One row per entity and month of a plan: minus the sum of its rows, on
@@ -376,14 +423,17 @@ fn plan_findings(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<Vec<Finding>
 }
 
 /// A planned entity the close neither consolidates nor equity-accounts at the period
-/// end: its plan is left out (the comparison is on the actual structure).
+/// end, and does not sell in the year: its plan is left out (the comparison is on the
+/// actual structure).
 fn scope_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
+    let sold = sold_in_year(a);
     let in_scope: BTreeSet<&EntityId> = a
         .structure
         .entities()
         .iter()
         .filter(|e| matches!(e.method, Method::Full | Method::Proportionate | Method::Equity))
         .map(|e| &e.id)
+        .chain(sold.iter())
         .collect();
     plan.entities
         .iter()
@@ -407,12 +457,15 @@ fn scope_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
 fn rate_findings(a: &Actuals<'_>, plan: &PlanInput) -> Vec<Finding> {
     let given: BTreeSet<(Period, Currency)> = plan.rates.iter().map(|r| (r.period, r.currency)).collect();
     let presentation = a.ds.settings.presentation_currency;
+    let sold = sold_in_year(a);
     let currencies: BTreeMap<Currency, &EntityId> = a
         .structure
         .entities()
         .iter()
         .filter(|e| matches!(e.method, Method::Full | Method::Proportionate | Method::Equity))
-        .filter_map(|e| a.ds.entity(&e.id).map(|x| (x.currency, &e.id)))
+        .map(|e| &e.id)
+        .chain(sold.iter())
+        .filter_map(|e| a.ds.entity(e).map(|x| (x.currency, e)))
         .filter(|(c, _)| *c != presentation)
         .collect();
     let mut f = Vec::new();
@@ -507,7 +560,12 @@ pub fn comparison(
     let parts_a = walk::Parts::of(actual.0, actual.1)?;
     let parts_c = walk::Parts::of(&c.close, c.base.as_ref())?;
     let parts_r = walk::Parts::of(&c.at_rates, c.at_rates_base.as_ref())?;
-    let sides = walk::Sides { actual: &parts_a, at_rates: &parts_r, comparison: &parts_c, planned: &c.planned };
+    // A subsidiary sold in the year is consolidated to its sale and compared whole
+    // (the months it was consolidated and those after) as a scope effect: the
+    // comparison has it for the whole year.
+    let sold: BTreeSet<&EntityId> = actual.0.disposals.iter().map(|d| &d.entity).collect();
+    let planned: BTreeSet<EntityId> = c.planned.iter().filter(|e| !sold.contains(e)).cloned().collect();
+    let sides = walk::Sides { actual: &parts_a, at_rates: &parts_r, comparison: &parts_c, planned: &planned };
     let seg = segment_of(ds);
     let measures = walk::walk_measures(statements, ds.settings.segments.as_ref(), &ds.accounts);
     let walks = measures.iter().map(|m| walk::walk(m, &sides, &seg)).collect();

@@ -55,7 +55,6 @@ pub fn opening_year(name: &str) -> Option<crate::model::Period> {
 }
 
 pub(super) const NUMBER: &str = r"^-?[0-9]+(\.[0-9]+)?$";
-const PERIOD: &str = r"^[0-9]{4}-(0[1-9]|1[0-2])$";
 
 pub(super) fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> PolarsResult<DataFrame> {
     // Each table gets its entity, kind, file and line numbers as plain columns and is
@@ -80,7 +79,8 @@ pub(super) fn stack(tables: Vec<(String, String, TextTable)>, cols: &[&str]) -> 
         }
     }
     if let Some(mut df) = stacked {
-        df.rechunk_mut_par();
+        // Column by column, so that only one column is held twice at a time.
+        df.rechunk_mut();
         return Ok(df);
     }
     {
@@ -141,22 +141,113 @@ fn u32_at(df: &DataFrame, c: &str, i: usize) -> Option<u32> {
     df.column(c).ok()?.u32().ok()?.get(i)
 }
 
-/// Each entity's minor unit and currency code, to join to its rows.
-fn entity_minor_units(currencies: &BTreeMap<EntityId, Currency>) -> PolarsResult<DataFrame> {
-    let ids: Vec<String> = currencies.keys().map(|e| e.to_string()).collect();
-    let minors: Vec<u32> = currencies.values().map(|c| c.minor_unit()).collect();
-    let codes: Vec<String> = currencies.values().map(|c| c.code().to_string()).collect();
-    DataFrame::new(
-        ids.len(),
-        vec![
-            Column::new("entity".into(), ids),
-            Column::new("amount_minor".into(), minors),
-            Column::new("currency".into(), codes),
-        ],
-    )
+/// The shape of an amount's text when it is a plain decimal (`-1234.56`): its integer
+/// digits, leading zeros aside (at least one), and its decimals up to the last that is
+/// not zero; `None` when it is not a plain decimal (`^-?[0-9]+(\.[0-9]+)?$`).
+pub(super) fn amount_shape(text: &str) -> Option<(usize, usize)> {
+    let body = text.as_bytes();
+    let body = body.strip_prefix(b"-").unwrap_or(body);
+    let (int, frac) = match body.iter().position(|c| *c == b'.') {
+        Some(k) => (&body[..k], Some(&body[k + 1..])),
+        None => (body, None),
+    };
+    let digits = |d: &[u8]| !d.is_empty() && d.iter().all(u8::is_ascii_digit);
+    if !digits(int) || frac.is_some_and(|f| !digits(f)) {
+        return None;
+    }
+    let int_digits = int.iter().position(|c| *c != b'0').map_or(1, |k| int.len() - k);
+    let frac_digits = frac.and_then(|f| f.iter().rposition(|c| *c != b'0')).map_or(0, |k| k + 1);
+    Some((int_digits, frac_digits))
 }
 
-/// The names of the flag columns `parse_rows` sets, extra amounts' included.
+/// The flags of one amount cell: malformed, too large, more decimals than `minor`. An
+/// empty cell has none (a missing amount is flagged apart).
+fn amount_cell(text: Option<&str>, minor: u32) -> [bool; 3] {
+    let Some(t) = text else { return [false; 3] };
+    match amount_shape(t) {
+        None => [true, false, false],
+        Some((int, frac)) => [false, int > AMOUNT_MAX_INTEGER_DIGITS, frac > minor as usize],
+    }
+}
+
+/// Whether `p` is a month `YYYY-MM` (`^[0-9]{4}-(0[1-9]|1[0-2])$`).
+fn is_month(p: &str) -> bool {
+    let b = p.as_bytes();
+    b.len() == 7
+        && b[..4].iter().all(u8::is_ascii_digit)
+        && b[4] == b'-'
+        && matches!((b[5], b[6]), (b'0', b'1'..=b'9') | (b'1', b'0'..=b'2'))
+}
+
+/// The minor unit of each row's entity (`None` for an entity with no currency), found
+/// once per run of rows of one entity, as the rows of a file come together.
+fn entity_minors<'a>(
+    entity: &'a StringChunked,
+    currencies: &BTreeMap<EntityId, Currency>,
+) -> impl Iterator<Item = Option<(u32, &'static str)>> + 'a {
+    let known: std::collections::HashMap<String, (u32, &'static str)> =
+        currencies.iter().map(|(e, c)| (e.to_string(), (c.minor_unit(), c.code()))).collect();
+    let mut last: Option<(&'a str, Option<(u32, &'static str)>)> = None;
+    entity.iter().map(move |e| {
+        let e = e?;
+        match last {
+            Some((l, m)) if l == e => m,
+            _ => {
+                let m = known.get(e).copied();
+                last = Some((e, m));
+                m
+            }
+        }
+    })
+}
+
+/// The minor unit of a transaction currency code, when ISO 4217 defines one.
+fn code_minor(code: &str) -> Option<u32> {
+    Currency::parse(code).and_then(|c| c.minor_unit_checked())
+}
+
+/// Every row's flags (named by `flag_names`), each amount column read once.
+fn row_flags(
+    raw: &DataFrame,
+    has_period: bool,
+    extra_amounts: &[&str],
+    currencies: &BTreeMap<EntityId, Currency>,
+) -> PolarsResult<Vec<Column>> {
+    let text = |c: &str| -> PolarsResult<&StringChunked> { raw.column(c)?.str() };
+    let n = raw.height();
+    let mut out: Vec<(String, Vec<bool>)> = flag_names(extra_amounts).into_iter().map(|x| (x, Vec::new())).collect();
+    let push3 = |out: &mut Vec<(String, Vec<bool>)>, at: usize, v: [bool; 3], k: usize| {
+        for (j, b) in v.into_iter().take(k).enumerate() {
+            out[at + j].1.push(b);
+        }
+    };
+    // The surplus test falls back to 3 decimals where the minor unit is unknown (the
+    // entity's or the code's own finding says why).
+    for (m, a) in entity_minors(text("entity")?, currencies).zip(text("amount")?.iter()) {
+        push3(&mut out, 0, amount_cell(a, m.map_or(3, |x| x.0)), 3);
+    }
+    let mut codes: std::collections::HashMap<&str, Option<u32>> = std::collections::HashMap::new();
+    for (c, a) in text("txn_currency")?.iter().zip(text("txn_amount")?.iter()) {
+        let minor = c.and_then(|c| *codes.entry(c).or_insert_with(|| code_minor(c)));
+        push3(&mut out, 3, amount_cell(a, minor.unwrap_or(3)), 3);
+        out[9].1.push(c.is_none() != a.is_none());
+        out[10].1.push(c.is_some() && minor.is_none());
+    }
+    out[6].1 = text("amount")?.iter().map(|a| a.is_none()).collect();
+    out[7].1 = text("account")?.iter().map(|a| a.is_none()).collect();
+    out[8].1 =
+        if has_period { text("period")?.iter().map(|p| !p.is_some_and(is_month)).collect() } else { vec![false; n] };
+    // The presentation amount's minor unit is checked by validate, which knows the
+    // presentation currency; here only its form.
+    for (k, extra) in extra_amounts.iter().enumerate() {
+        for a in text(extra)?.iter() {
+            push3(&mut out, 11 + 2 * k, amount_cell(a, u32::MAX), 2);
+        }
+    }
+    Ok(out.into_iter().map(|(name, v)| BooleanChunked::from_slice(name.into(), &v).into_column()).collect())
+}
+
+/// The names of the flag columns `row_flags` sets, extra amounts' included.
 fn flag_names(extra_amounts: &[&str]) -> Vec<String> {
     let mut v = vec![
         "amount_malformed",
@@ -181,6 +272,38 @@ fn flag_names(extra_amounts: &[&str]) -> Vec<String> {
     v
 }
 
+/// Whether any of the flag columns `names` is set, row by row.
+fn any_of(flags: &[Column], names: &[&str]) -> PolarsResult<BooleanChunked> {
+    let n = flags.first().map_or(0, |c| c.len());
+    let mut acc = BooleanChunked::full("any".into(), false, n);
+    for c in flags.iter().filter(|c| names.contains(&c.name().as_str())) {
+        acc = &acc | c.bool()?;
+    }
+    Ok(acc)
+}
+
+/// The flagged rows with their flags and, for the findings' wording, each row's
+/// currency and the minor units the amounts were held to.
+fn flagged_rows(
+    raw: &DataFrame,
+    flags: &[Column],
+    flagged: &BooleanChunked,
+    currencies: &BTreeMap<EntityId, Currency>,
+) -> PolarsResult<DataFrame> {
+    let mut bad = raw.filter(flagged)?;
+    for c in flags {
+        bad.with_column(c.filter(flagged)?)?;
+    }
+    let ent: Vec<Option<(u32, &str)>> = entity_minors(bad.column("entity")?.str()?, currencies).collect();
+    let txn: Vec<Option<u32>> = bad.column("txn_currency")?.str()?.iter().map(|c| c.and_then(code_minor)).collect();
+    let currency: Vec<Option<&str>> = ent.iter().map(|m| m.map(|x| x.1)).collect();
+    let minor: Vec<Option<u32>> = ent.iter().map(|m| m.map(|x| x.0)).collect();
+    bad.with_column(Column::new("currency".into(), currency))?;
+    bad.with_column(Column::new("amount_minor".into(), minor))?;
+    bad.with_column(Column::new("txn_amount_minor".into(), txn))?;
+    Ok(bad)
+}
+
 /// Parses stacked ledger-like rows: returns the sound rows with exact decimals.
 fn parse_rows(
     raw: DataFrame,
@@ -189,87 +312,65 @@ fn parse_rows(
     currencies: &BTreeMap<EntityId, Currency>,
     f: &mut Vec<Finding>,
 ) -> PolarsResult<DataFrame> {
-    let ent_minor = entity_minor_units(currencies)?;
-    let unique_codes = raw.column("txn_currency")?.str()?.unique()?;
-    let txn_codes: Vec<String> = unique_codes.iter().flatten().map(|s| s.trim().to_string()).collect();
-    let txn_minor = minor_units("txn_currency", txn_codes);
-    let mut lf = raw
-        .lazy()
-        .with_columns([
-            col("txn_currency").str().strip_chars(lit(NULL)),
-            col("counterparty").str().strip_chars(lit(NULL)),
-        ])
-        .join(ent_minor.lazy(), [col("entity")], [col("entity")], JoinArgs::new(JoinType::Left))
-        .join(txn_minor.lazy(), [col("txn_currency")], [col("txn_currency")], JoinArgs::new(JoinType::Left))
-        .with_column(col("txn_currency_minor").alias("txn_amount_minor"));
-    let mut flags: Vec<Expr> = Vec::new();
-    flags.extend(amount_flags("amount", "amount_minor"));
-    flags.extend(amount_flags("txn_amount", "txn_amount_minor"));
-    // The presentation amount's minor unit is checked by validate, which knows the
-    // presentation currency; here only its form.
-    for extra in extra_amounts {
-        let [m, t, _] = amount_flags(extra, "amount_minor");
-        flags.push(m);
-        flags.push(t);
+    let flags = row_flags(&raw, has_period, extra_amounts, currencies)?;
+    let names = flag_names(extra_amounts);
+    let flagged = any_of(&flags, &names.iter().map(String::as_str).collect::<Vec<_>>())?;
+    if flagged.any() {
+        report_rows(&flagged_rows(&raw, &flags, &flagged, currencies)?, f);
     }
-    flags.push(col("amount").is_null().alias("amount_missing"));
-    flags.push(col("account").is_null().alias("account_missing"));
-    if has_period {
-        flags.push(
-            col("period")
-                .is_null()
-                .or(col("period").str().contains(lit(PERIOD), true).not())
-                .fill_null(lit(true))
-                .alias("period_bad"),
-        );
-    } else {
-        flags.push(lit(false).alias("period_bad"));
-    }
-    flags.push(col("txn_currency").is_null().neq(col("txn_amount").is_null()).alias("txn_incomplete"));
-    flags.push(col("txn_currency").is_not_null().and(col("txn_currency_minor").is_null()).alias("txn_unknown"));
-    lf = lf.with_columns(flags);
-    let flag_names = flag_names(extra_amounts);
-    let any_flag = flag_names.iter().fold(lit(false), |acc, n| acc.or(col(n.as_str())));
-    let df = lf.with_column(any_flag.alias("flagged")).collect()?;
-    let bad = df.clone().lazy().filter(col("flagged")).collect()?;
-    report_rows(&bad, f);
     // Rows whose own amount, account and period are sound stay; transaction-currency
     // detail that is unsound is cleared (the row's finding says so).
     let fatal =
         ["amount_malformed", "amount_too_large", "amount_surplus", "amount_missing", "account_missing", "period_bad"];
-    let keep = fatal.iter().fold(lit(true), |acc, n| acc.and(col(*n).not()));
-    let txn_bad =
-        ["txn_amount_malformed", "txn_amount_too_large", "txn_amount_surplus", "txn_incomplete", "txn_unknown"]
-            .iter()
-            .fold(lit(false), |acc, n| acc.or(col(*n)));
+    let keep = !&any_of(&flags, &fatal)?;
+    let txn_bad = any_of(
+        &flags,
+        &["txn_amount_malformed", "txn_amount_too_large", "txn_amount_surplus", "txn_incomplete", "txn_unknown"],
+    )?;
+    let mut df = raw;
+    let any_txn_bad = txn_bad.any();
+    df.with_column(txn_bad.with_name("txn_bad".into()).into_column())?;
+    for extra in extra_amounts {
+        let bad = any_of(&flags, &[format!("{extra}_malformed").as_str(), format!("{extra}_too_large").as_str()])?;
+        df.with_column(bad.with_name(format!("{extra}_bad").into()).into_column())?;
+    }
+    // Every copy of the frame is a copy of every row: none is made when nothing changes.
+    if !keep.all() {
+        df = df.filter(&keep)?;
+    }
+    // The cells are trimmed already (`table::read`), so the text columns are taken as
+    // they are.
+    let (txn_currency, txn_amount) = if any_txn_bad {
+        (
+            when(col("txn_bad")).then(lit(NULL).cast(DataType::String)).otherwise(col("txn_currency")),
+            when(col("txn_bad"))
+                .then(lit(NULL).cast(amount_dtype()))
+                .otherwise(col("txn_amount").strict_cast(amount_dtype())),
+        )
+    } else {
+        (col("txn_currency"), col("txn_amount").strict_cast(amount_dtype()))
+    };
     let mut out_cols: Vec<Expr> = vec![
         col("entity"),
         col("kind"),
         if has_period { col("period") } else { lit(NULL).cast(DataType::String).alias("period") },
-        col("account").str().strip_chars(lit(NULL)),
+        col("account"),
         col("amount").strict_cast(amount_dtype()),
         col("counterparty"),
-        when(txn_bad.clone())
-            .then(lit(NULL).cast(DataType::String))
-            .otherwise(col("txn_currency"))
-            .alias("txn_currency"),
-        when(txn_bad)
-            .then(lit(NULL).cast(amount_dtype()))
-            .otherwise(col("txn_amount").strict_cast(amount_dtype()))
-            .alias("txn_amount"),
+        txn_currency.alias("txn_currency"),
+        txn_amount.alias("txn_amount"),
         col("file"),
         col("line"),
     ];
     for extra in extra_amounts {
-        let bad = col(format!("{extra}_malformed").as_str()).or(col(format!("{extra}_too_large").as_str()));
         out_cols.push(
-            when(bad)
+            when(col(format!("{extra}_bad").as_str()))
                 .then(lit(NULL).cast(amount_dtype()))
                 .otherwise(col(*extra).strict_cast(amount_dtype()))
                 .alias(*extra),
         );
     }
-    df.lazy().filter(keep).select(out_cols).collect()
+    df.lazy().select(out_cols).collect()
 }
 
 fn report_rows(bad: &DataFrame, f: &mut Vec<Finding>) {
@@ -471,6 +572,97 @@ pub fn build_mappings(tables: Vec<(EntityId, TextTable)>, f: &mut Vec<Finding>) 
         Err(e) => {
             frame_error(f, "the account mappings", e);
             DataFrame::default()
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Cells that probe the edges of a plain decimal: signs, dots, zeros, digits that are
+    /// not ASCII, the 15-digit limit and decimals beyond a minor unit.
+    const CELLS: &[&str] = &[
+        "0",
+        "-0",
+        "000",
+        "12",
+        "-0012.50",
+        "1.",
+        ".5",
+        "-.5",
+        "+5",
+        "-",
+        "--1",
+        "5-",
+        "1e5",
+        "1,000.00",
+        "1.2.3",
+        "1.000",
+        "1.005",
+        "1.0050",
+        "0.1234",
+        "12.34567",
+        "999999999999999",
+        "1000000000000000",
+        "-123456789012345.999",
+        "0001234567890123456",
+        "000000000000000000001",
+        "1234567890123456.00",
+        "\u{0661}\u{0662}",
+        "1 2",
+        "12\n",
+    ];
+
+    /// The one-pass reading of an amount agrees, cell by cell and for every minor unit,
+    /// with the three patterns it replaced (which still check document amounts).
+    #[test]
+    fn amount_cells_agree_with_the_patterns() {
+        for minor in [0u32, 2, 3] {
+            let df = DataFrame::new(
+                CELLS.len() + 1,
+                vec![
+                    Column::new("a".into(), CELLS.iter().map(|c| Some(*c)).chain([None]).collect::<Vec<_>>()),
+                    Column::new("m".into(), vec![minor; CELLS.len() + 1]),
+                ],
+            );
+            let df = df.and_then(|d| d.lazy().select(amount_flags("a", "m")).collect()).expect("frame");
+            let cells = CELLS.iter().map(|c| Some(*c)).chain([None]);
+            for (i, cell) in cells.enumerate() {
+                let by_pattern = ["a_malformed", "a_too_large", "a_surplus"].map(|c| bool_at(&df, c, i));
+                assert_eq!(amount_cell(cell, minor), by_pattern, "cell {cell:?}, minor unit {minor}");
+            }
+        }
+    }
+
+    /// The month test agrees with the pattern `YYYY-MM` it replaced.
+    #[test]
+    fn months_agree_with_the_pattern() {
+        let cells = [
+            "2026-01",
+            "2026-12",
+            "2026-13",
+            "2026-00",
+            "2026-1",
+            "202601",
+            "2026/01",
+            "12026-01",
+            "2026-01-01",
+            "0000-10",
+            "2026-10 ",
+            "\u{0662}026-01",
+            "2026-\u{0661}0",
+            "",
+        ];
+        let df = DataFrame::new(cells.len(), vec![Column::new("p".into(), cells.to_vec())])
+            .and_then(|d| {
+                d.lazy()
+                    .select([col("p").str().contains(lit(r"^[0-9]{4}-(0[1-9]|1[0-2])$"), true).alias("ok")])
+                    .collect()
+            })
+            .expect("frame");
+        for (i, p) in cells.iter().enumerate() {
+            assert_eq!(is_month(p), bool_at(&df, "ok", i), "period {p:?}");
         }
     }
 }

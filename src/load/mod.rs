@@ -690,9 +690,15 @@ fn prefetch(jobs: Vec<(PathBuf, String, &'static Spec<'static>)>) -> std::collec
                     loop {
                         let k = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
                         let Some((path, display, spec)) = jobs.get(k) else { break };
-                        let sha256 = std::fs::read(path).ok().map(|b| sha256_hex(&b));
+                        // One read serves both the hash and the table.
                         let mut findings = Vec::new();
-                        let table = table::read(path, display, spec, &mut findings);
+                        let (sha256, table) = match std::fs::read(path) {
+                            Ok(bytes) => (
+                                Some(sha256_hex(&bytes)),
+                                table::read_bytes(path, &bytes, display, spec, &mut findings),
+                            ),
+                            Err(_) => (None, table::read(path, display, spec, &mut findings)),
+                        };
                         done.push((path.clone(), Fetched { sha256, table, findings }));
                     }
                     done
@@ -772,8 +778,14 @@ fn open_table(
         );
         return None;
     }
-    hash_into(root, path, inputs);
-    table::read(path, &rel(root, path), spec, f)
+    let display = rel(root, path);
+    match std::fs::read(path) {
+        Ok(bytes) => {
+            inputs.push(InputFile { file: display.clone(), sha256: sha256_hex(&bytes) });
+            table::read_bytes(path, &bytes, &display, spec, f)
+        }
+        Err(_) => table::read(path, &display, spec, f),
+    }
 }
 
 /// A required text cell, or a `ValueMissing` finding.

@@ -57,9 +57,39 @@ impl TextTable {
 /// A missing required column is reported and the table is not returned; unknown
 /// columns are reported as warnings and kept out.
 pub fn read(path: &Path, file: &str, spec: &Spec<'_>, findings: &mut Vec<Finding>) -> Option<TextTable> {
-    let is_parquet = path.extension().is_some_and(|e| e == "parquet");
-    let (mut df, lines) = if is_parquet {
-        match read_parquet_text(path) {
+    match std::fs::read(path) {
+        Ok(bytes) => read_bytes(path, &bytes, file, spec, findings),
+        Err(e) => {
+            let finding = if is_parquet(path) {
+                Finding::new(
+                    Rule::FileUnreadable,
+                    format!("cannot read the table: {e}"),
+                    "check that the file is Parquet and not truncated",
+                )
+            } else {
+                Finding::new(Rule::FileUnreadable, format!("cannot read the file: {e}"), "check the file")
+            };
+            findings.push(finding.in_file(file));
+            None
+        }
+    }
+}
+
+fn is_parquet(path: &Path) -> bool {
+    path.extension().is_some_and(|e| e == "parquet")
+}
+
+/// [`read`] from the file's `bytes`, already read (so that the caller can hash the same
+/// bytes rather than read the file twice); `path` says by its extension what they are.
+pub fn read_bytes(
+    path: &Path,
+    bytes: &[u8],
+    file: &str,
+    spec: &Spec<'_>,
+    findings: &mut Vec<Finding>,
+) -> Option<TextTable> {
+    let (mut df, lines) = if is_parquet(path) {
+        match read_parquet_text(bytes) {
             Ok(df) => {
                 let n = df.height() as u64;
                 (df, (1..=n).collect())
@@ -77,17 +107,7 @@ pub fn read(path: &Path, file: &str, spec: &Spec<'_>, findings: &mut Vec<Finding
             }
         }
     } else {
-        let bytes = match std::fs::read(path) {
-            Ok(b) => b,
-            Err(e) => {
-                findings.push(
-                    Finding::new(Rule::FileUnreadable, format!("cannot read the file: {e}"), "check the file")
-                        .in_file(file),
-                );
-                return None;
-            }
-        };
-        read_csv_text(&bytes, file, findings)?
+        read_csv_text(bytes, file, findings)?
     };
     let names: Vec<String> = df.get_column_names().iter().map(|s| s.to_string()).collect();
     let mut ok = true;
@@ -154,8 +174,10 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
     let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(bytes);
     let mut header: Option<Vec<String>> = None;
-    let mut columns: Vec<Vec<Option<String>>> = Vec::new();
-    let mut lines: Vec<u64> = Vec::new();
+    // Cells go straight into the columns' buffers: no text is allocated per cell.
+    let rows = bytes.iter().filter(|b| **b == b'\n').count();
+    let mut columns: Vec<StringChunkedBuilder> = Vec::new();
+    let mut lines: Vec<u64> = Vec::with_capacity(rows);
     let mut record = csv::ByteRecord::new();
     loop {
         let line = reader.position().line();
@@ -184,19 +206,23 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
             if !check_header(&fields, line, file, findings) {
                 return None;
             }
-            columns = vec![Vec::new(); fields.len()];
-            header = Some(fields);
+            columns = fields.iter().map(|n| StringChunkedBuilder::new((*n).into(), rows)).collect();
+            header = Some(fields.iter().map(|n| n.to_string()).collect());
             continue;
         };
         if !check_row_shape(&fields, names.len(), line, file, findings) {
             continue;
         }
         for (c, v) in columns.iter_mut().zip(fields) {
-            c.push((!v.is_empty()).then_some(v));
+            if v.is_empty() {
+                c.append_null();
+            } else {
+                c.append_value(v);
+            }
         }
         lines.push(line);
     }
-    let Some(names) = header else {
+    if header.is_none() {
         findings.push(
             Finding::new(
                 Rule::FileUnreadable,
@@ -206,9 +232,9 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
             .in_file(file),
         );
         return None;
-    };
+    }
     let n = lines.len();
-    let cols: Vec<Column> = names.iter().zip(columns).map(|(name, values)| Column::new(name.into(), values)).collect();
+    let cols: Vec<Column> = columns.into_iter().map(|b| b.finish().into_column()).collect();
     match DataFrame::new(n, cols) {
         Ok(df) => Some((df, lines)),
         Err(e) => {
@@ -220,11 +246,16 @@ pub fn read_csv_text(bytes: &[u8], file: &str, findings: &mut Vec<Finding>) -> O
 
 /// Decodes one CSV record's fields as trimmed UTF-8 text; a field that is not UTF-8 is
 /// a finding on its line and `None`, as the whole file then cannot be trusted.
-fn decode_fields(record: &csv::ByteRecord, line: u64, file: &str, findings: &mut Vec<Finding>) -> Option<Vec<String>> {
-    let mut fields: Vec<String> = Vec::with_capacity(record.len());
+fn decode_fields<'r>(
+    record: &'r csv::ByteRecord,
+    line: u64,
+    file: &str,
+    findings: &mut Vec<Finding>,
+) -> Option<Vec<&'r str>> {
+    let mut fields: Vec<&str> = Vec::with_capacity(record.len());
     for raw in record.iter() {
         match std::str::from_utf8(raw) {
-            Ok(s) => fields.push(s.trim().to_string()),
+            Ok(s) => fields.push(s.trim()),
             Err(e) => {
                 let bad = raw.get(e.valid_up_to()).copied().unwrap_or(0);
                 findings.push(
@@ -248,7 +279,7 @@ fn decode_fields(record: &csv::ByteRecord, line: u64, file: &str, findings: &mut
 
 /// Checks the header row names every column once, with a finding on its line for each
 /// column unnamed or named twice; `false` when the file cannot be read by its header.
-fn check_header(fields: &[String], line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
+fn check_header(fields: &[&str], line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
     let mut seen: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
     let mut ok = true;
     for (i, n) in fields.iter().enumerate() {
@@ -263,7 +294,7 @@ fn check_header(fields: &[String], line: u64, file: &str, findings: &mut Vec<Fin
                 .in_file(file)
                 .line(line),
             );
-        } else if let Some(first) = seen.insert(n.as_str(), i) {
+        } else if let Some(first) = seen.insert(n, i) {
             ok = false;
             findings.push(
                 Finding::new(
@@ -281,7 +312,7 @@ fn check_header(fields: &[String], line: u64, file: &str, findings: &mut Vec<Fin
 
 /// Checks a data row is neither a comment line nor of a width other than the header's
 /// (`width`), with a finding on its line when it is; `false` leaves the row out.
-fn check_row_shape(fields: &[String], width: usize, line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
+fn check_row_shape(fields: &[&str], width: usize, line: u64, file: &str, findings: &mut Vec<Finding>) -> bool {
     if fields.first().is_some_and(|f| f.starts_with('#')) {
         findings.push(
             Finding::new(
@@ -309,17 +340,18 @@ fn check_row_shape(fields: &[String], width: usize, line: u64, file: &str, findi
     true
 }
 
-fn read_parquet_text(path: &Path) -> PolarsResult<DataFrame> {
-    let file = std::fs::File::open(path)?;
-    let df = ParquetReader::new(file).finish()?;
-    // Trimmed, and an empty text null, as in CSV.
-    let cols: Vec<Expr> = df
-        .get_column_names()
+fn read_parquet_text(bytes: &[u8]) -> PolarsResult<DataFrame> {
+    let df = ParquetReader::new(std::io::Cursor::new(bytes)).finish()?;
+    // Trimmed, and an empty text null, as in CSV; column by column rather than through a
+    // query plan, which costs more than the work on a file of a few hundred rows.
+    let cols = df
+        .columns()
         .iter()
-        .map(|n| {
-            let t = col(n.as_str()).strict_cast(DataType::String).str().strip_chars(lit(NULL));
-            when(t.clone().eq(lit(""))).then(lit(NULL).cast(DataType::String)).otherwise(t).alias(n.as_str())
+        .map(|c| {
+            let text = c.as_materialized_series().strict_cast(&DataType::String)?;
+            let trimmed = text.str()?.iter().map(|v| v.map(str::trim).filter(|t| !t.is_empty()));
+            Ok(StringChunked::from_iter_options(c.name().clone(), trimmed).into_column())
         })
-        .collect();
-    df.lazy().select(cols).collect()
+        .collect::<PolarsResult<Vec<Column>>>()?;
+    DataFrame::new(df.height(), cols)
 }

@@ -151,7 +151,7 @@ fn cases() -> Vec<Case> {
         Case {
             name: "a short row in holdings.csv",
             mutate: |f| {
-                f.replace("entities/holdings.csv", "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,,,,", "ALD-NL,NRD-SE,1.00")
+                f.replace("entities/holdings.csv", "ALD-NL,HEL-CH,0.30,0.30,2019-07-01,,,,", "ALD-NL,HEL-CH,0.30")
             },
             rule: Some("RowMalformed"),
             code: 1,
@@ -370,8 +370,8 @@ fn cases() -> Vec<Case> {
             mutate: |f| {
                 f.replace(
                     "entities/holdings.csv",
-                    "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,",
-                    "ALD-NL,NRD-SE,1.00,1.00,2014-05-01,2013-01-01",
+                    "ALD-UK,WSL-PL,1.00,1.00,2021-09-01,",
+                    "ALD-UK,WSL-PL,1.00,1.00,2021-09-01,2013-01-01",
                 )
             },
             rule: Some("HoldingInvalid"),

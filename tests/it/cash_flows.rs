@@ -379,7 +379,7 @@ fn demo_ties_for_every_month_and_view() {
 }
 
 /// The demo's acquisition and NCI dividend, on their lines (the demo's own figures, see
-/// docs/demo.md): EUR 3,600,000.00 paid for GLF-BH less the cash it held at 2026-03-31,
+/// docs/demo.md): EUR 2,700,000.00 paid for GLF-BH less the cash it held at 2026-03-31,
 /// which is its translated cash at March's closing rate; ALD-US's USD 300,000 to its
 /// outside shareholders, paid in October, at October's average.
 #[test]
@@ -389,8 +389,15 @@ fn demo_acquisition_and_nci_dividend() {
     let cf = &v["statements"]["cash_flows"];
     let acq = &cf["acquisitions"][0];
     assert_eq!(acq["entity"], "GLF-BH");
-    assert_eq!(acq["consideration"], "3600000.00", "paid in cash on 2026-04-01 (docs/demo.md)");
-    assert_eq!(lines(&v)["acquisition_of_subsidiaries"], dec(&acq["cash_acquired"]) - d("3600000.00"));
+    // Control in stages: the 45% bought is paid in cash, the 15% held since 2023 is not
+    // (its remeasurement is no cash flow, IAS 7.39-40).
+    assert_eq!(acq["consideration"], "2700000.00", "paid in cash on 2026-04-01 (docs/demo.md)");
+    assert_eq!(lines(&v)["acquisition_of_subsidiaries"], dec(&acq["cash_acquired"]) - d("2700000.00"));
+    // The remeasurement of the 15% held, 900,000 - 600,000, is in profit before tax
+    // (which equals that of profit or loss) and taken out as non-cash (IFRS 3.42).
+    assert_eq!(lines(&v)["remeasurement_gain"], d("-300000.00"));
+    let pbt = v["statements"]["profit_or_loss"]["lines"].as_array().unwrap().iter().find(|l| l["line"] == "PBT");
+    assert_eq!(lines(&v)["profit_before_tax"], dec(&pbt.unwrap()["amount"]));
     let v = close(f.path(), "2026-10", "month", &[]);
     let rates = std::fs::read_to_string(crate::support::repo().join("rates/monthly.csv")).expect("rates");
     let average = rates

@@ -76,13 +76,18 @@ fn walk_adds_up_on_the_demo_budget_and_forecast() {
     }
 }
 
+/// GLF-BH, acquired in April, is not budgeted; NRD-SE, sold on 2026-10-01, is budgeted
+/// for the whole year: both are scope steps of the walk, and NRD-SE's plan is used, not
+/// left out.
 #[test]
-fn demo_budget_leaves_out_the_entity_acquired_in_the_year() {
+fn demo_budget_scope_the_entity_acquired_and_the_entity_sold_in_the_year() {
     let f = Folder::demo();
     let (_, v) = close_json(&f, "2026-12", "budget");
     let w = walks(&v);
     let scope: Vec<&String> = w["REV"].1.iter().filter(|s| s.0 == "scope").map(|s| &s.1).collect();
-    assert_eq!(scope, vec!["GLF-BH"]);
+    assert_eq!(scope, vec!["GLF-BH", "NRD-SE"]);
+    let warned = v["findings"].as_array().map(|a| a.iter().any(|x| x["entity"] == "NRD-SE")).unwrap_or(false);
+    assert!(!warned, "NRD-SE's plan is used, not left out: {:#}", v["findings"]);
 }
 
 #[test]
