@@ -443,19 +443,13 @@ fn join(ids: &BTreeSet<EntityId>) -> String {
 /// The rows the close posts as sales of an associate ending significant influence, in
 /// the fiscal year of `scope` up to its period.
 pub fn associate_sales(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
-    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
-    ds.ownership_changes
-        .iter()
-        .filter(|c| c.date >= year_first && c.date <= period_last && c.share.is_sign_negative())
-        .filter(|c| {
-            let x = classify(ds, c);
-            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
-            x.kind == ChangeKind::NotControlled
-                && is_associate_sale(&x)
-                && associate_sale_needs(ds, &x, true, &blocks).is_empty()
-                && agreement(ds, c).is_empty()
-        })
-        .collect()
+    posted(ds, scope, Dated::InTheYear, |c, x, blocks| {
+        c.share.is_sign_negative()
+            && x.kind == ChangeKind::NotControlled
+            && is_associate_sale(x)
+            && associate_sale_needs(ds, x, true, blocks).is_empty()
+            && agreement(ds, c).is_empty()
+    })
 }
 
 /// What a loss of control with an associate (or joint venture) retained needs: the
@@ -923,56 +917,63 @@ fn missing_rows(ds: &Dataset, year_first: NaiveDate, period_last: NaiveDate) -> 
     out
 }
 
+/// Which rows of `ownership_changes.csv` a selection of [`posted`] looks at: those dated
+/// up to the period of the scope, or only those of its fiscal year.
+enum Dated {
+    ToThePeriod,
+    InTheYear,
+}
+
+/// The rows dated as `dated` says that `posts` accepts, given the row, its
+/// classification and a maker of findings (which only count here: the close's findings
+/// come from [`findings`], and a draft posts nothing for a row that blocks).
+fn posted(
+    ds: &Dataset,
+    scope: Scope,
+    dated: Dated,
+    posts: impl Fn(&OwnershipChange, &Classified, &dyn Fn(String) -> Finding) -> bool,
+) -> Vec<&OwnershipChange> {
+    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
+    let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
+    ds.ownership_changes
+        .iter()
+        .filter(|c| c.date <= period_last && (matches!(dated, Dated::ToThePeriod) || c.date >= year_first))
+        .filter(|c| posts(c, &classify(ds, c), &blocks))
+        .collect()
+}
+
 /// The rows the close posts as step acquisitions: control obtained in stages up to the
 /// period of `scope`, each meeting what [`step_acquisition_needs`] asks (the others
 /// block the close, and a draft posts nothing for them).
 pub fn step_acquisitions(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
-    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
-    ds.ownership_changes
-        .iter()
-        .filter(|c| c.date <= period_last && c.share.is_sign_positive())
-        .filter(|c| {
-            let x = classify(ds, c);
-            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
-            x.kind == ChangeKind::StepAcquisition
-                && step_acquisition_needs(ds, &x, c.date >= year_first, &blocks).is_empty()
-                && agreement(ds, c).is_empty()
-        })
-        .collect()
+    let year_first = scope.fiscal_start.first_day();
+    posted(ds, scope, Dated::ToThePeriod, |c, x, blocks| {
+        c.share.is_sign_positive()
+            && x.kind == ChangeKind::StepAcquisition
+            && step_acquisition_needs(ds, x, c.date >= year_first, blocks).is_empty()
+            && agreement(ds, c).is_empty()
+    })
 }
 
 /// The rows the close posts as losses of control: control lost in the fiscal year of
 /// `scope` up to its period, each meeting what `loss_of_control_needs` asks.
 pub fn losses_of_control(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
-    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
-    ds.ownership_changes
-        .iter()
-        .filter(|c| c.date >= year_first && c.date <= period_last && c.share.is_sign_negative())
-        .filter(|c| {
-            let x = classify(ds, c);
-            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
-            x.kind == ChangeKind::LossOfControl
-                && loss_of_control_needs(ds, &x, &blocks).is_empty()
-                && agreement(ds, c).is_empty()
-        })
-        .collect()
+    posted(ds, scope, Dated::InTheYear, |c, x, blocks| {
+        c.share.is_sign_negative()
+            && x.kind == ChangeKind::LossOfControl
+            && loss_of_control_needs(ds, x, blocks).is_empty()
+            && agreement(ds, c).is_empty()
+    })
 }
 
 /// The rows the close posts as changes in stake with control kept, in the fiscal year
 /// of `scope` up to its period.
 pub fn changes_in_stake(ds: &Dataset, scope: Scope) -> Vec<&OwnershipChange> {
-    let (year_first, period_last) = (scope.fiscal_start.first_day(), scope.period.last_day());
-    ds.ownership_changes
-        .iter()
-        .filter(|c| c.date >= year_first && c.date <= period_last)
-        .filter(|c| {
-            let x = classify(ds, c);
-            let blocks = |why: String| Finding::new(Rule::OwnershipChangeUnsupported, why, String::new());
-            x.kind == ChangeKind::ChangeInStake
-                && change_in_stake_needs(ds, &x, &blocks).is_empty()
-                && agreement(ds, c).is_empty()
-        })
-        .collect()
+    posted(ds, scope, Dated::InTheYear, |c, x, blocks| {
+        x.kind == ChangeKind::ChangeInStake
+            && change_in_stake_needs(ds, x, blocks).is_empty()
+            && agreement(ds, c).is_empty()
+    })
 }
 
 /// Whether the subsidiary sold in `c` was acquired in the fiscal year of the sale: the
