@@ -163,6 +163,8 @@ pub const ASSOCIATE_DIVIDENDS: &str = "dividends_from_associates";
 const ASSOCIATE_DIVIDENDS_LABEL: &str = "Dividends received from associates and joint ventures";
 /// Not a line: the journal's movement on the cash of a subsidiary sold.
 const CASH_DISPOSED: &str = "cash_disposed";
+/// The lines of the NCI entry (`Treatment::NciShare`), put on the NCI account's line.
+const NCI_ENTRY: &str = "nci_entry";
 /// Changes in ownership interests in subsidiaries that do not result in a loss of control
 /// (IAS 7.42A), in financing.
 pub const NCI_TRANSACTIONS: &str = "transactions_with_nci";
@@ -275,6 +277,11 @@ enum Treatment {
     FairValueTax,
     /// The entries a change in stake in the view moves (IAS 7.42A).
     NciTransaction,
+    /// The NCI entry: the NCI's share of a subsidiary's post-acquisition equity moved
+    /// from the owners' components (retained earnings, the translation reserve and the
+    /// reserves the chart names) to the NCI. Non-cash: all of it on the NCI's line,
+    /// where it nets with the NCI's own movement, not its reserve part on exchange.
+    NciShare,
     /// The entries about a subsidiary sold in the view (IAS 7.39-42).
     Disposal,
     /// The remeasurement of an interest held before control of a subsidiary acquired in
@@ -345,6 +352,8 @@ pub fn cash_flows(
         match own {
             // The cash of a subsidiary sold, derecognised: part of the change in cash.
             Some(CASH_DISPOSED) => *cash_disposed.entry(e).or_default() -= x,
+            Some(NCI_ENTRY) if nci_line.is_some() => add(nci_line.as_deref().unwrap_or(NCI_ENTRY), x),
+            Some(NCI_ENTRY) => route(&chart, &class, None, root, &e, &a, x, &mut add, &mut unclassified),
             Some(line) => add(line, x),
             None => route(&chart, &class, nci_line.as_deref(), root, &e, &a, x, &mut add, &mut unclassified),
         }
@@ -951,6 +960,7 @@ fn journal_lines(
             Treatment::FairValue | Treatment::FairValueTax => Some(FAIR_VALUE_DEPRECIATION),
             Treatment::EquityMethod => Some(SHARE_OF_ASSOCIATES),
             Treatment::NciTransaction => Some(NCI_TRANSACTIONS),
+            Treatment::NciShare => Some(NCI_ENTRY),
             Treatment::ByAccount => None,
         };
         if own.is_none() && cash {
@@ -991,6 +1001,7 @@ fn journal_movements(
                 EliminationRule::FairValueDepreciation => Treatment::FairValue,
                 EliminationRule::FairValueDeferredTax => Treatment::FairValueTax,
                 EliminationRule::EquityMethod => Treatment::EquityMethod,
+                EliminationRule::NonControllingInterest => Treatment::NciShare,
                 _ => Treatment::ByAccount,
             };
             // A pair of balances with a subsidiary sold in the view, eliminated before the

@@ -9,10 +9,10 @@
 //! closes, and split into rows by their source:
 //!
 //! - profit and OCI of the view, each reserve's OCI in its column, the NCI's share of
-//!   each moved to the NCI column (the close takes the NCI's share of a reserve the
-//!   chart names from that reserve, and of every other post-acquisition movement
-//!   through retained earnings, so the rest of the NCI's share of OCI leaves the
-//!   retained earnings column);
+//!   each moved to the NCI column (the close takes the NCI's share of the exchange
+//!   differences from the translation reserve, IAS 21.41, of a reserve the chart names
+//!   from that reserve, and of every other post-acquisition movement from retained
+//!   earnings);
 //! - dividends: the direct movements of retained earnings in the books of the entities
 //!   consolidated at both dates, less the intragroup dividends eliminated against them
 //!   (IFRS 10.B86), the NCI's share of a subsidiary's dividend in the NCI column; not
@@ -34,6 +34,8 @@ use std::collections::{BTreeMap, BTreeSet};
 use polars::prelude::*;
 use rust_decimal::Decimal;
 
+use crate::close::change_in_stake::StakeChange;
+use crate::close::loss_of_control::Disposal;
 use crate::close::view::{Attribution, Chart, balance_sheet_amounts};
 use crate::close::{Close, EliminationRule};
 use crate::model::*;
@@ -257,15 +259,24 @@ pub fn changes_in_equity(
         named_oci += -*x;
     }
     add(&mut oci, tr, view.oci - named_oci);
-    // The NCI's share of OCI leaves retained earnings, through which the close takes
-    // it, but for the reserves the chart names: the NCI entry takes its share from
-    // each of those directly (close/nci.rs).
+    // The NCI's share of OCI leaves each reserve: the NCI entry takes its share from
+    // the translation reserve and each reserve the chart names directly (close/nci.rs),
+    // which the movement of its lines on them measures (a subsidiary sold carries its
+    // NCI line on the translation reserve into the disposal entry, which leaves with
+    // the NCI: IAS 21.48B); the rest of the NCI's share of OCI leaves retained earnings.
     let mut nci_from_reserves = Decimal::ZERO;
     let named: BTreeSet<&GroupAccount> =
-        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).filter(|r| **r != roles.translation_reserve).collect();
+        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).chain([&roles.translation_reserve]).collect();
+    let sold_reserve_nci: Decimal = new_disposals(opening, closing).map(|d| d.reserve_nci).sum();
+    // The NCI rule takes the NCI's share at the period-end share: a change in stake's
+    // reattribution is in the movement of its line, and on the change's own row.
+    let reattributed: Decimal = new_stake_changes(opening, closing).map(|d| d.reserve_reattributed).sum();
     for reserve in named {
-        let x = journal_sum(closing, reserve, Some(EliminationRule::NonControllingInterest), None)
+        let mut x = journal_sum(closing, reserve, Some(EliminationRule::NonControllingInterest), None)
             - journal_sum(opening, reserve, Some(EliminationRule::NonControllingInterest), None);
+        if *reserve == roles.translation_reserve {
+            x += sold_reserve_nci + reattributed;
+        }
         add(&mut oci, find(reserve).or(tr), -x);
         nci_from_reserves += x;
     }
@@ -282,8 +293,8 @@ pub fn changes_in_equity(
     for e in after.difference(&before) {
         add(&mut acquisitions, nci, closing.nci_at_acquisition.get(e).copied().unwrap_or_default());
     }
-    let disposals = disposals_row(opening, closing, n, (re, tr, nci));
-    let with_nci = transactions_with_nci_row(opening, closing, n, (re, nci));
+    let disposals = disposals_row(opening, closing, n, nci);
+    let with_nci = transactions_with_nci_row(opening, closing, n, (re, tr, nci));
     let other: Vec<Decimal> = (0..n)
         .map(|i| movement[i] - profit[i] - oci[i] - dividends[i] - acquisitions[i] - disposals[i] - with_nci[i])
         .collect();
@@ -321,36 +332,47 @@ pub fn changes_in_equity(
     Ok((EquityChanges { columns, rows }, check))
 }
 
-/// Subsidiaries sold between the two closes (IFRS 10.25, IAS 21.48B): the NCI
-/// derecognised, and the NCI's share of the translation reserve leaving the reserve,
-/// which the close carries gross, for retained earnings, where the NCI's share of the
-/// subsidiary's post-acquisition equity had been taken from. The owners' share of the
-/// reserve is reclassified through OCI and profit, in those rows.
-fn disposals_row(opening: &Close, closing: &Close, n: usize, (re, tr, nci): Columns) -> Vec<Decimal> {
-    let mut row = vec![Decimal::ZERO; n];
+/// Subsidiaries sold between the two closes (IFRS 10.25, IAS 21.48B).
+fn new_disposals<'c>(opening: &'c Close, closing: &'c Close) -> impl Iterator<Item = &'c Disposal> {
     let earlier: BTreeSet<(&EntityId, chrono::NaiveDate)> =
         opening.disposals.iter().map(|d| (&d.entity, d.date)).collect();
-    for d in closing.disposals.iter().filter(|d| !earlier.contains(&(&d.entity, d.date))) {
-        for (at, x) in [(nci, -d.nci_derecognised), (tr, -d.reserve_nci), (re, d.reserve_nci)] {
-            if let Some(i) = at {
-                row[i] += x;
-            }
+    closing.disposals.iter().filter(move |d| !earlier.contains(&(&d.entity, d.date)))
+}
+
+/// The NCI derecognised with the subsidiaries sold between the two closes (IFRS 10.25,
+/// B98(a)(ii)). Its share of the translation reserve had been taken out of the reserve
+/// (IAS 21.41) and leaves with it (IAS 21.48B); the owners' share of the reserve is
+/// reclassified through OCI and profit, in those rows.
+fn disposals_row(opening: &Close, closing: &Close, n: usize, nci: Option<usize>) -> Vec<Decimal> {
+    let mut row = vec![Decimal::ZERO; n];
+    for d in new_disposals(opening, closing) {
+        if let Some(i) = nci {
+            row[i] -= d.nci_derecognised;
         }
     }
     row
 }
 
+/// Changes in stake with control kept between the two closes (IFRS 10.23, B96).
+fn new_stake_changes<'c>(opening: &'c Close, closing: &'c Close) -> impl Iterator<Item = &'c StakeChange> {
+    closing.stake_changes.iter().filter(|d| !opening.stake_changes.contains(d))
+}
+
 /// Changes in stake with control kept between the two closes (IFRS 10.23, B96): the
-/// NCI's carrying amount transferred, and the owners' side, the consideration less it.
+/// NCI's carrying amount transferred, and the owners' side, the consideration less it:
+/// in the translation reserve the NCI's share of its exchange differences reattributed
+/// (IAS 21.48C), the rest in retained earnings.
 fn transactions_with_nci_row(
     opening: &Close,
     closing: &Close,
     n: usize,
-    (re, nci): (Option<usize>, Option<usize>),
+    (re, tr, nci): (Option<usize>, Option<usize>, Option<usize>),
 ) -> Vec<Decimal> {
     let mut row = vec![Decimal::ZERO; n];
-    for d in closing.stake_changes.iter().filter(|d| !opening.stake_changes.contains(d)) {
-        for (at, x) in [(nci, -d.nci_transferred), (re, d.cash + d.nci_transferred)] {
+    for d in new_stake_changes(opening, closing) {
+        let owners = d.cash + d.nci_transferred;
+        let reserve = if tr.is_some() { d.reserve_reattributed } else { Decimal::ZERO };
+        for (at, x) in [(nci, -d.nci_transferred), (re, owners - reserve), (tr, reserve)] {
             if let Some(i) = at {
                 row[i] += x;
             }
@@ -358,9 +380,6 @@ fn transactions_with_nci_row(
     }
     row
 }
-
-/// The positions of the retained earnings, translation reserve and NCI columns.
-type Columns = (Option<usize>, Option<usize>, Option<usize>);
 
 /// The movement of each component on the second path, credit positive: contributions
 /// and journal lines of the two closes, and the result of the view counted in retained

@@ -951,6 +951,7 @@ mod tests {
             disposals: Vec::new(),
             stake_changes: Vec::new(),
             nci_at_acquisition: BTreeMap::new(),
+            differences: BTreeMap::new(),
         }
     }
 

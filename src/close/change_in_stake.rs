@@ -28,10 +28,12 @@
 //! the NCI's shares add up over the changes to what the period-end share needs.
 //!
 //! A foreign subsidiary's translation reserve is reattributed between the owners and
-//! the NCI, never reclassified to profit or loss (IAS 21.48C): the close carries the
-//! reserve gross and the NCI rule takes the NCI's share of it at the period-end share,
-//! so after the change the owners' share is the new one, and a later disposal
-//! reclassifies that share (IAS 21.48).
+//! the NCI, never reclassified to profit or loss (IAS 21.48C): the NCI rule takes the
+//! NCI's share of the subsidiary's exchange differences out of the reserve at the
+//! period-end share (IAS 21.41), so after the change the owners' share is the new one,
+//! and a later disposal reclassifies that share (IAS 21.48); the share that changed
+//! hands is `StakeChange::reserve_reattributed`, on the change's row of the changes in
+//! equity.
 //!
 //! Which changes reach here (a holder in the presentation currency, one holder,
 //! partial goodwill, no intercompany items) is decided by `ownership`; the rest is
@@ -63,6 +65,8 @@ pub struct Before<'a> {
     pub oci: Decimal,
     /// The holder's investment in it then.
     pub investment: Decimal,
+    /// Its post-acquisition exchange differences then, debit positive (`nci.rs`).
+    pub differences: Decimal,
 }
 
 /// What a change in stake did, for the statement of changes in equity.
@@ -74,6 +78,10 @@ pub struct StakeChange {
     pub nci_transferred: Decimal,
     /// The consideration: paid negative, received positive.
     pub cash: Decimal,
+    /// The owners' gain in the translation reserve from the NCI's share of the
+    /// subsidiary's exchange differences that changed hands (IAS 21.48C), credit
+    /// positive: part of `cash + nci_transferred`, in the reserve's column.
+    pub reserve_reattributed: Decimal,
 }
 
 /// Runs the close at the last month end before the change, on the structure of that day.
@@ -93,6 +101,7 @@ pub fn before<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChange) -> 
         profit: Decimal::ZERO,
         oci: Decimal::ZERO,
         investment: Decimal::ZERO,
+        differences: then.differences.get(e).copied().unwrap_or_default(),
     };
     let mut add = |a: &GroupAccount, v: Decimal| match statement(a) {
         Some((Statement::ProfitOrLoss, _)) => b.profit -= v,
@@ -213,7 +222,11 @@ pub fn post(
             equity: Decimal::ZERO,
         }),
     }
-    Some(StakeChange { entity: e.clone(), date: c.date, nci_transferred, cash })
+    // The NCI's share of the exchange differences to then that changed hands: the NCI
+    // rule takes the NCI's share at the period-end share, so the owners' reserve gains
+    // what the NCI gave up (IAS 21.48C), a credit for a gain.
+    let reserve_reattributed = cx.round(-b.differences * (b.nci_share - nci_after));
+    Some(StakeChange { entity: e.clone(), date: c.date, nci_transferred, cash, reserve_reattributed })
 }
 
 /// Goodwill in the subsidiary's currency with the NCI at acquisition at its share
@@ -323,6 +336,7 @@ mod tests {
             profit: d("100"),
             oci: Decimal::ZERO,
             investment: d("400"),
+            differences: Decimal::ZERO,
         };
         let mut nci =
             vec![NciRow { entity: id("S"), nci_share: d("0.1"), profit: d("20"), oci: Decimal::ZERO, equity: d("80") }];

@@ -76,6 +76,15 @@ pub struct ForNci {
     /// the same entry carries (the NCI's part of full goodwill's exchange difference and
     /// impairment, which are its OCI and profit).
     pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
+    /// What the entry posts to the translation reserve (debit positive) that is the
+    /// subsidiary's own and so shared with the NCI (IAS 21.41): its reserve at
+    /// acquisition removed as equity acquired, and the exchange differences to date on
+    /// the fair value adjustments (`nci.rs` adds its books and later rules' lines).
+    pub reserve_shared: BTreeMap<EntityId, Decimal>,
+    /// Under full goodwill, the NCI's exchange difference to date on its part of
+    /// goodwill (credit positive), which the entry takes from retained earnings and the
+    /// NCI rule moves to the translation reserve, where the difference is.
+    pub nci_goodwill_fx: BTreeMap<EntityId, Decimal>,
 }
 
 /// The investment lines of the balances: accounts of kind `investment` naming the
@@ -621,7 +630,7 @@ fn post_one(j: &mut Journal, sub: &Acquired, invest: &Investments, months: &Inve
     let fva = sub.fair_values();
     let mut lines = Vec::new();
     let (investment_total, holders_fx_year) = investment_lines(sub, invest, months, &mut lines);
-    equity_acquired_lines(sub, &fva, &mut lines);
+    equity_acquired_lines(sub, &fva, &mut lines, nci);
     if !fva.is_empty() {
         nci.fair_value_now.insert(e.id.clone(), fva.iter().map(|x| x.3).sum());
     }
@@ -695,7 +704,7 @@ fn investment_lines(
 /// of the net assets acquired from its retained earnings. The books hold the net assets
 /// acquired less the fair value adjustments: only that part of the retained earnings is
 /// pre-acquisition in the books, and each adjustment itself is added to its account.
-fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<EntryLine>) {
+fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<EntryLine>, nci: &mut ForNci) {
     let (cx, e) = (sub.cx, sub.e);
     let roles = cx.roles;
     let reserves = [&roles.retained_earnings, &roles.translation_reserve, &roles.non_controlling_interest];
@@ -722,6 +731,7 @@ fn equity_acquired_lines(sub: &Acquired, fva: &[FairValueLine], lines: &mut Vec<
     // starts at control (IAS 21.48).
     let reserve = translation_reserve_at_acquisition(sub);
     if !reserve.is_zero() {
+        *nci.reserve_shared.entry(e.id.clone()).or_default() -= reserve;
         lines.push(line(&roles.translation_reserve, &e.id, None, -reserve));
         capital += -reserve;
     }
@@ -891,6 +901,15 @@ fn exchange_difference_lines(
     if !fva_fx_year.is_zero() {
         nci.fair_value_oci.insert(e.id.clone(), fva_fx_year);
     }
+    // The adjustments at the closing rate against their historical amount: the
+    // exchange difference to date in the reserve, a credit for a gain. A restated
+    // subsidiary's adjustments are carried at the restated amount at the closing rate,
+    // as its goodwill (`goodwill_fx`): its difference in the reserve is the year's.
+    let fva_fx_to_date: Decimal =
+        if sub.unit.is_some() { fva_fx_year } else { fva.iter().map(|(_, _, hist, now)| *now - *hist).sum() };
+    if !fva_fx_to_date.is_zero() {
+        *nci.reserve_shared.entry(e.id.clone()).or_default() -= fva_fx_to_date;
+    }
     let goodwill_fx_year = goodwill_fx_year + fva_fx_year;
     // A fall in goodwill's value in the presentation currency is a loss (a debit).
     lines.push(line(&roles.translation_difference, &e.id, None, -goodwill_fx_year));
@@ -930,6 +949,7 @@ fn full_goodwill_lines(sub: &Acquired, impairment_year_pres: Decimal, lines: &mu
     lines.push(line(&roles.non_controlling_interest, &e.id, None, nci_impairment - fx_to_date));
     lines.push(line(&roles.retained_earnings, &e.id, None, fx_to_date - nci_impairment));
     nci.nci_goodwill_oci.insert(e.id.clone(), fx_year);
+    nci.nci_goodwill_fx.insert(e.id.clone(), fx_to_date);
 }
 
 #[cfg(test)]

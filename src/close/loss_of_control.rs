@@ -243,21 +243,29 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
         .filter(|((a, cp), _)| cp.as_ref() == Some(e) && Some(a) == investment_account.as_ref())
         .map(|(_, v)| *v)
         .sum();
-    // The gross reserve of the operation in this close's lines: its own (brought
-    // forward and of the year to the date) and the exchange differences of the lines
-    // carried (goodwill, IAS 21.47). The NCI's share of its own reserve leaves with the
-    // NCI (IAS 21.48B); the rest is the owners' and is reclassified (IAS 21.48).
+    // The reserve of the operation in this close's lines: its own (brought forward and
+    // of the year to the date), the exchange differences of the lines carried
+    // (goodwill, IAS 21.47) and, among them, the NCI's share the NCI rule took out of
+    // the reserve (IAS 21.41). What is left is the owners' and is reclassified (IAS
+    // 21.48); the NCI's share leaves with the NCI (IAS 21.48B).
     let reserve_accounts = [&cx.roles.translation_reserve, &cx.roles.translation_difference];
-    let gross =
+    let recycled =
         -(sold.balances.iter().filter(|((a, _), _)| reserve_accounts.contains(&a)).map(|(_, v)| *v).sum::<Decimal>()
             + k.carried
                 .iter()
                 .filter(|l| &l.entity == e && reserve_accounts.contains(&&l.account))
                 .map(|l| l.amount)
                 .sum::<Decimal>());
-    let nci_share = sold.nci.as_ref().map(|n| n.nci_share).unwrap_or_default();
-    let reserve_nci = cx.round(sold.reserve * nci_share);
-    let recycled = gross - reserve_nci;
+    let reserve_nci: Decimal = sold
+        .lines
+        .iter()
+        .filter(|(rule, l)| {
+            *rule == EliminationRule::NonControllingInterest
+                && &l.entity == e
+                && l.account == cx.roles.translation_reserve
+        })
+        .map(|(_, l)| l.amount)
+        .sum();
     let adjustment = fair_value + k.nci - k.net_assets - k.goodwill - k.adjustments + k.investment - investment_now;
     let mut lines: Vec<EntryLine> = Vec::new();
     for ((a, cp), v) in &sold.balances {
@@ -268,8 +276,6 @@ pub fn post(j: &mut Journal, cx: &Context, sold: &AtLastMonth, found: &mut Vec<F
     lines.extend(k.carried.iter().cloned());
     lines.push(line(&cx.roles.translation_difference, e, None, recycled));
     lines.push(line(gain_account, holder, Some(e), -recycled));
-    lines.push(line(&cx.roles.translation_reserve, e, None, reserve_nci));
-    lines.push(line(&cx.roles.retained_earnings, e, None, -reserve_nci));
     if let Some(acct) = &investment_account {
         lines.push(line(acct, holder, Some(e), fair_value - investment_now));
     }
@@ -439,9 +445,10 @@ mod tests {
         assert_eq!(nci_row(&sold).map(|r| (r.profit, r.equity)), Some((d("20"), Decimal::ZERO)));
     }
 
-    /// A reserve of the operation: its own 60 (a gain) with an NCI of 20%: the owners'
-    /// 48 is reclassified through OCI to profit or loss (IAS 21.48), the NCI's 12 moves
-    /// from the reserve to retained earnings with the NCI (IAS 21.48B).
+    /// A reserve of the operation: its own 60 (a gain) with an NCI of 20%, whose 12 the
+    /// NCI rule of the close at March took out of the reserve (IAS 21.41): the owners'
+    /// 48 left in it is reclassified through OCI to profit or loss (IAS 21.48), the
+    /// NCI's 12 leaves with the NCI, not reclassified (IAS 21.48B).
     #[test]
     fn the_owners_share_of_the_reserve_is_reclassified_the_ncis_is_not() {
         let w = World::new(&["P", "S"], &[], p("2026-04"));
@@ -473,7 +480,10 @@ mod tests {
             last_month: p("2026-03"),
             contributions: DataFrame::empty(),
             balances: own.get(&id("S")).cloned().unwrap_or_default(),
-            lines: Vec::new(),
+            lines: vec![
+                (EliminationRule::NonControllingInterest, line(&acct("3900"), &id("S"), None, d("-12"))),
+                (EliminationRule::NonControllingInterest, line(&acct("3300"), &id("S"), None, d("12"))),
+            ],
             pairs: Vec::new(),
             dividends: Vec::new(),
             reserve: d("60"),
@@ -483,7 +493,7 @@ mod tests {
         let disposal = post(&mut j, &cx, &sold, &mut Vec::new()).unwrap_or_else(|| panic!("no disposal"));
         assert_eq!((disposal.reserve_recycled, disposal.reserve_nci), (d("48"), d("12")));
         let l = lines(&j.entries[0]);
-        for want in [("9000", "S", "48"), ("7300", "P", "-48"), ("3300", "S", "12"), ("3200", "S", "-12")] {
+        for want in [("9000", "S", "48"), ("7300", "P", "-48"), ("3300", "S", "12")] {
             assert!(l.contains(&(want.0.into(), want.1.into(), want.2.into())), "{want:?} not in {l:?}");
         }
     }

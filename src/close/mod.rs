@@ -148,6 +148,9 @@ pub struct Close {
     /// The NCI at acquisition of each subsidiary the investment rule eliminated, credit
     /// positive (`investment::ForNci::nci_at_acquisition`).
     pub nci_at_acquisition: BTreeMap<EntityId, Decimal>,
+    /// Each subsidiary's post-acquisition exchange differences that its NCI shares,
+    /// debit positive (`nci::differences`): what a change in stake reattributes.
+    pub differences: BTreeMap<EntityId, Decimal>,
 }
 
 /// The close at the last month end before an ownership change (the month rule of
@@ -237,7 +240,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     topside::post(&mut j, &cx, &ds.group_adjustments);
     drop(eliminate_span);
 
-    let mut nci = nci::post(&mut j, &cx, &for_nci);
+    let (mut nci, differences) = nci::post(&mut j, &cx, &for_nci);
     nci.extend(sold.iter().filter_map(loss_of_control::nci_row));
     let stake_changes: Vec<change_in_stake::StakeChange> = stakes
         .iter()
@@ -269,6 +272,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         disposals,
         stake_changes,
         nci_at_acquisition,
+        differences,
     })
 }
 

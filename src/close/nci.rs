@@ -1,8 +1,9 @@
 //! Rule `non_controlling_interest`: the effective outside share of each subsidiary's
 //! post-acquisition equity (IFRS 10.22, B94), profit, OCI and translation difference
 //! included (IAS 21.41), multi-tier through effective interests, posted against each
-//! reserve the chart names for its part (`reserve` of accounts.csv, IAS 1.106(a)) and
-//! retained earnings for the rest (the translation reserve's part included). Also the NCI rows: the
+//! reserve the chart names for its part (`reserve` of accounts.csv, IAS 1.106(a)), the
+//! translation reserve for its share of the subsidiary's exchange differences (IAS
+//! 21.41) and retained earnings for the rest. Also the NCI rows: the
 //! NCI's share of the subsidiary's profit and OCI of the year and its NCI in equity.
 //!
 //! It reads the journal posted so far: each subsidiary's own lines of the earlier rules
@@ -25,8 +26,10 @@ use crate::structure::EntityStructure;
 /// The journal's lines by the entity they correct, with their rule.
 type LinesOf<'j> = BTreeMap<&'j EntityId, Vec<(EliminationRule, &'j EntryLine)>>;
 
-/// Posts one entry per subsidiary with an NCI and returns its NCI row.
-pub fn post(j: &mut Journal, cx: &Context, measured: &ForNci) -> Vec<NciRow> {
+/// Posts one entry per subsidiary with an NCI and returns its NCI row, with the
+/// exchange differences of every subsidiary that the NCI shares ([`differences`]),
+/// what a change in stake reattributes (IAS 21.48C).
+pub fn post(j: &mut Journal, cx: &Context, measured: &ForNci) -> (Vec<NciRow>, BTreeMap<EntityId, Decimal>) {
     let journal_so_far = j.entries.clone();
     // Each subsidiary's NCI reads only its own lines.
     let mut lines_of: LinesOf = BTreeMap::new();
@@ -37,11 +40,16 @@ pub fn post(j: &mut Journal, cx: &Context, measured: &ForNci) -> Vec<NciRow> {
     }
     let no_lines = Vec::new();
     let mut rows = Vec::new();
-    for e in cx.of_method(Method::Full).filter(|e| !e.nci.is_zero()) {
+    let mut all = BTreeMap::new();
+    for e in cx.of_method(Method::Full).filter(|e| &e.id != cx.structure.parent()) {
         let own = lines_of.get(&e.id).unwrap_or(&no_lines);
-        rows.push(post_one(j, cx, measured, e, own));
+        let diff = differences(cx, measured, e, own);
+        if !e.nci.is_zero() {
+            rows.push(post_one(j, cx, measured, e, own, diff));
+        }
+        all.insert(e.id.clone(), diff);
     }
-    rows
+    (rows, all)
 }
 
 /// The sum of a subsidiary's own journal lines of `rules` on accounts that pass `keep`.
@@ -59,6 +67,7 @@ fn post_one(
     m: &ForNci,
     e: &EntityStructure,
     own: &[(EliminationRule, &EntryLine)],
+    differences: Decimal,
 ) -> NciRow {
     let roles = cx.roles;
     let of = |x: &BTreeMap<EntityId, Decimal>| x.get(&e.id).copied().unwrap_or_default();
@@ -118,9 +127,16 @@ fn post_one(
     };
     let profit = -result_of(Statement::ProfitOrLoss);
     let oci = -result_of(Statement::Oci) + of(&m.fair_value_oci) - holder_fx;
-    // The NCI's share leaves each reserve the chart names for its part, the rest
-    // leaves retained earnings (which include the translation reserve's part).
-    let from_reserves = reserve_shares(cx, e, own);
+    // The NCI's share leaves each reserve the chart names for its part and the
+    // translation reserve for its share of the exchange differences (IAS 21.41), the
+    // rest leaves retained earnings.
+    let mut from_reserves = reserve_shares(cx, e, own);
+    // The NCI's difference on its part of full goodwill, which the investment entry
+    // takes from retained earnings, leaves the reserve too, where the difference is.
+    let translation = cx.round(-differences * e.nci) + of(&m.nci_goodwill_fx);
+    if !translation.is_zero() {
+        from_reserves.push((roles.translation_reserve.clone(), translation));
+    }
     let from_retained = nci_post - from_reserves.iter().map(|(_, x)| *x).sum::<Decimal>();
     let mut lines = vec![
         line(&roles.non_controlling_interest, &e.id, None, -nci_post),
@@ -149,6 +165,42 @@ fn post_one(
         oci: cx.round(oci * e.nci) + of(&m.nci_goodwill_oci),
         equity: nci_acq + nci_post,
     }
+}
+
+/// The rules whose lines on a subsidiary are its own figures in the group, shared with
+/// its NCI: results before control moved out, unrealised profit, the net investment
+/// difference, top-side lines naming it and the fair value adjustments' depreciation.
+const SHARED_RULES: [EliminationRule; 6] = [
+    EliminationRule::PreAcquisitionResults,
+    EliminationRule::UnrealisedProfit,
+    EliminationRule::NetInvestmentFx,
+    EliminationRule::GroupAdjustment,
+    EliminationRule::FairValueDepreciation,
+    EliminationRule::FairValueDeferredTax,
+];
+
+/// The subsidiary's post-acquisition exchange differences, debit positive, whose NCI
+/// share leaves the translation reserve (IAS 21.41: the differences attributable to
+/// the NCI are part of the NCI; IAS 1.106(a)). They are those of the translation
+/// reserve and the OCI accounts that accumulate into it: in its books, less its reserve
+/// at acquisition, plus the exchange differences on its fair value adjustments
+/// (`ForNci::reserve_shared`) and on the lines of the rules that are its own figures
+/// ([`SHARED_RULES`]); not a holder's difference on its investments in subsidiaries,
+/// which the investment rule eliminates (as for the post-acquisition equity).
+fn differences(cx: &Context, m: &ForNci, e: &EntityStructure, own: &[(EliminationRule, &EntryLine)]) -> Decimal {
+    let of = |x: &BTreeMap<EntityId, Decimal>| x.get(&e.id).copied().unwrap_or_default();
+    let tr = &cx.roles.translation_reserve;
+    let into = |a: &GroupAccount| {
+        a == tr
+            || cx
+                .chart
+                .get(a)
+                .is_some_and(|d| d.statement == Statement::Oci && d.reserve.as_ref().is_none_or(|r| r == tr))
+    };
+    let books: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| into(a)).map(|(_, v)| *v).sum();
+    let journal = own_sum(own, &SHARED_RULES, &|l| into(&l.account));
+    let holder_fx = of(&m.investment_fx) + cx.brought_forward.investment_fx.get(&e.id).copied().unwrap_or_default();
+    books + journal + of(&m.reserve_shared) + holder_fx
 }
 
 /// The NCI's share of the subsidiary's post-acquisition amount in each reserve the
@@ -186,8 +238,10 @@ mod tests {
     /// revenue 300, cost of sales 200 (profit 100), OCI gain 50: equity 850 in all,
     /// credits. The equity at acquisition was 500, so post-acquisition equity is 350.
     /// S sold goods to P with 25 of profit still unrealised (upstream): 325 is left,
-    /// and the NCI's share is 20% x 325 = 65 (3900 -65, 3200 +65). NCI row: profit
-    /// 20% x (100 - 25) = 15, OCI 20% x 50 = 10, equity 100 at acquisition + 65 = 165.
+    /// and the NCI's share is 20% x 325 = 65 (3900 -65): 20% x 50 = 10 of it leaves the
+    /// translation reserve (IAS 21.41: the OCI gain is a translation difference), 55
+    /// retained earnings. NCI row: profit 20% x (100 - 25) = 15, OCI 20% x 50 = 10,
+    /// equity 100 at acquisition + 65 = 165.
     #[test]
     fn the_effective_outside_share_of_post_acquisition_equity() {
         let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
@@ -216,10 +270,17 @@ mod tests {
             vec![line(&acct("1500"), &pp, Some(&s), d("-25")), line(&acct("5000"), &s, Some(&pp), d("25"))],
         );
         let measured = ForNci { pre_acquisition: BTreeMap::from([(s.clone(), d("500"))]), ..ForNci::default() };
-        let rows = post(&mut j, &cx, &measured);
+        let (rows, _) = post(&mut j, &cx, &measured);
         let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
         assert_eq!(entry.rule, EliminationRule::NonControllingInterest);
-        assert_eq!(lines(entry), [("3900".into(), "S".into(), "-65".into()), ("3200".into(), "S".into(), "65".into())]);
+        assert_eq!(
+            lines(entry),
+            [
+                ("3900".into(), "S".into(), "-65".into()),
+                ("3200".into(), "S".into(), "55".into()),
+                ("3300".into(), "S".into(), "10".into())
+            ]
+        );
         let r = &rows[0];
         assert_eq!((r.nci_share, r.profit, r.oci, r.equity), (d("0.2"), d("15"), d("10"), d("165")));
     }
@@ -227,8 +288,10 @@ mod tests {
     /// The same S with a plant fair value adjustment of EUR 600 at the closing rate
     /// (measured by the investment rule) and its depreciation entry: 24 off the plant,
     /// an expense of 23 and an exchange loss of 1 in OCI. Post-acquisition equity
-    /// 850 + 600 - 24 - 500 = 926, the NCI's 20% = 185.20. NCI row: profit 20% x
-    /// (100 - 23) = 15.40, OCI 20% x (50 - 1) = 9.80 (IAS 21.41).
+    /// 850 + 600 - 24 - 500 = 926, the NCI's 20% = 185.20, of which 20% x (50 - 1) =
+    /// 9.80 leaves the translation reserve (the adjustment is measured at the closing
+    /// rate with no difference to date here). NCI row: profit 20% x (100 - 23) = 15.40,
+    /// OCI 9.80 (IAS 21.41).
     #[test]
     fn the_nci_bears_its_share_of_the_fair_value_depreciation() {
         let w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
@@ -258,11 +321,15 @@ mod tests {
             fair_value_now: BTreeMap::from([(s.clone(), d("600"))]),
             ..ForNci::default()
         };
-        let rows = post(&mut j, &cx, &measured);
+        let (rows, _) = post(&mut j, &cx, &measured);
         let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
         assert_eq!(
             lines(entry),
-            [("3900".into(), "S".into(), "-185.2".into()), ("3200".into(), "S".into(), "185.2".into())]
+            [
+                ("3900".into(), "S".into(), "-185.2".into()),
+                ("3200".into(), "S".into(), "175.4".into()),
+                ("3300".into(), "S".into(), "9.8".into())
+            ]
         );
         let r = &rows[0];
         assert_eq!((r.profit, r.oci, r.equity), (d("15.4"), d("9.8"), d("185.2")));
@@ -272,7 +339,7 @@ mod tests {
     /// revaluation surplus 3400, besides the translation difference 50 on 9000 (to the
     /// translation reserve). Equity 600 + 100 + 100 + 50 + 40 = 890 less 500 at
     /// acquisition: 390, NCI 20% = 78. Of it, 20% x 40 = 8 leaves the revaluation
-    /// surplus and 70 retained earnings (which carry the translation reserve's part).
+    /// surplus, 20% x 50 = 10 the translation reserve and 60 retained earnings.
     #[test]
     fn the_nci_share_of_a_named_reserve_leaves_that_reserve() {
         let mut w = World::new(&["P", "S"], &[holding("P", "S", "0.8", "2020-01-01")], p("2026-06"));
@@ -293,14 +360,15 @@ mod tests {
         let cx = w.context(p("2026-06"), p("2026-01"), bal);
         let mut j = Journal::default();
         let measured = ForNci { pre_acquisition: BTreeMap::from([(id("S"), d("500"))]), ..ForNci::default() };
-        let rows = post(&mut j, &cx, &measured);
+        let (rows, _) = post(&mut j, &cx, &measured);
         let entry = j.entries.last().unwrap_or_else(|| panic!("no entry"));
         assert_eq!(
             lines(entry),
             [
                 ("3900".into(), "S".into(), "-78".into()),
-                ("3200".into(), "S".into(), "70".into()),
-                ("3400".into(), "S".into(), "8".into())
+                ("3200".into(), "S".into(), "60".into()),
+                ("3400".into(), "S".into(), "8".into()),
+                ("3300".into(), "S".into(), "10".into())
             ]
         );
         assert_eq!(rows[0].oci, d("18"));

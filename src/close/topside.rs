@@ -526,7 +526,7 @@ mod tests {
             let mut j = Journal::default();
             post(&mut j, &cx, &adj);
             let measured = ForNci { pre_acquisition: BTreeMap::from([(id("S"), d("500"))]), ..ForNci::default() };
-            let rows = super::super::nci::post(&mut j, &cx, &measured);
+            let (rows, _) = super::super::nci::post(&mut j, &cx, &measured);
             (rows[0].equity, rows[0].profit)
         };
         assert_eq!(nci_of(Some("S")), (d("60"), d("10")));

@@ -4,7 +4,8 @@
 //! rust_decimal loops from the rules (IAS 21.39 translation, IFRS 10.B86 eliminations,
 //! IFRS 3.32 goodwill on either NCI basis, IAS 21.47 goodwill at the closing rate with
 //! the NCI's part of full goodwill and of its exchange difference, NCI as the effective
-//! outside share of post-acquisition equity, profit and OCI; the exchange difference of
+//! outside share of post-acquisition equity, profit and OCI, its share of the exchange
+//! differences taken out of the translation reserve (IAS 21.41); the exchange difference of
 //! the year on a USD holder's investment reversed from OCI, not from the reserve); it
 //! shares no code with the engine. Group trial balance, NCI and the NCI's profit and OCI
 //! must agree to the cent.
@@ -798,8 +799,10 @@ fn held(w: &Work, c: usize, want: &mut Expected) {
     // The exchange difference on the NCI's part of goodwill is the NCI's (IAS 21.41).
     let nci_goodwill_fx = e.at(premium, r1) - at_acquisition(premium);
     let nci_goodwill_fx_year = e.at(premium, r1) - e.at(premium, r0);
+    // The NCI's exchange differences are attributed to it (IAS 21.41): they leave the
+    // translation reserve, where the group's differences are, not retained earnings.
     want.add("3900", -nci_goodwill_fx);
-    want.add("3200", nci_goodwill_fx);
+    want.add("3300", nci_goodwill_fx);
     want.nci += nci_goodwill_fx;
     let mut entry = vec![
         ("1400", -investment),
@@ -818,8 +821,18 @@ fn held(w: &Work, c: usize, want: &mut Expected) {
     let share_nci = Decimal::ONE - w.eff[c];
     let post = w.equity_post[c] - capital_presentation;
     let nci_post = round2(post * share_nci);
+    // Of it, the NCI's share of the subsidiary's exchange differences (its reserve
+    // brought forward and the year's, less a USD holder's difference on its own
+    // investments, which is not the group's) leaves the translation reserve (IAS 21.41).
+    let own_investments: Decimal =
+        g.ents.iter().enumerate().skip(1).filter(|(_, x)| x.parent == c).map(|(i, _)| w.investment_fx[i]).sum();
+    let differences = -(w.translated[c].get(&("3300".to_string(), None)).copied().unwrap_or_default()
+        + w.translated[c].get(&("8100".to_string(), None)).copied().unwrap_or_default())
+        - own_investments;
+    let nci_differences = round2(differences * share_nci);
     want.add("3900", -nci_post);
-    want.add("3200", nci_post);
+    want.add("3300", nci_differences);
+    want.add("3200", nci_post - nci_differences);
     want.nci += nci_acquisition + nci_post;
     if !share_nci.is_zero() {
         want.profit_nci += round2(w.profit[c] * share_nci);
