@@ -56,7 +56,10 @@ impl Mapped {
         {
             return Ok(df.clone());
         }
-        let df = movements(&self.lines, fiscal_start, last)?.collect()?;
+        let df = {
+            let _span = tracing::debug_span!("movements").entered();
+            movements(&self.lines, fiscal_start, last)?.collect()?
+        };
         let _ = self.movement_cache.set((fiscal_start, last, df.clone()));
         Ok(df)
     }
@@ -230,7 +233,12 @@ pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> Pola
     let base =
         mapped.clone().lazy().filter(col("period_index").gt_eq(lit(first)).and(col("period_index").lt_eq(lit(last))));
     let next = next_balances(base.clone())?;
-    let delivered = base.group_by(keys.clone()).agg([col("amount").sum(), col("txn_amount").sum()]);
+    let mut columns = keys.clone();
+    columns.extend([col("amount"), col("txn_amount")]);
+    let delivered = base.select(columns.clone());
+    // Each delivered row counts again, negated, in the next balance month after it. The
+    // rows are summed once, with those negations: summing the delivered rows per grain
+    // first would be a second group-by over every row for the same sums.
     let superseded = delivered
         .clone()
         .join(
@@ -244,7 +252,7 @@ pub fn movements(mapped: &DataFrame, fiscal_start: Period, last: Period) -> Pola
             (lit(0).strict_cast(crate::money::amount_dtype()) - col("amount")).alias("amount"),
             (lit(0).strict_cast(crate::money::amount_dtype()) - col("txn_amount")).alias("txn_amount"),
         ])
-        .drop(Selector::ByName { names: ["next_index".into()].into(), strict: true });
+        .select(columns);
     // In no particular order: every user joins or sorts it.
     Ok(concat([delivered, superseded], UnionArgs::default())?
         .group_by(keys)
