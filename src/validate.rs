@@ -56,8 +56,10 @@ pub fn validate(ds: &Dataset, mapped: &Mapped, scope: Scope, findings: &mut Find
     let structure = check_holdings(ds, scope, &mut f);
     check_dates(ds, &structure, scope, &mut f);
     check_mappings(ds, mapped, &mut f)?;
-    check_periods(ds, mapped, &structure, scope, &mut f)?;
-    check_balanced(mapped, scope, &mut f)?;
+    let deliveries = delivery_summary(mapped)?;
+    check_periods(ds, &deliveries, &structure, scope, &mut f)?;
+    check_balanced(&deliveries, scope, &mut f)?;
+    drop(deliveries);
     check_duplicates(mapped, &mut f)?;
     check_counterparties(ds, mapped, &mut f)?;
     check_opening(ds, &mut f)?;
@@ -351,34 +353,72 @@ fn check_mappings(ds: &Dataset, mapped: &Mapped, f: &mut Vec<Finding>) -> Polars
     Ok(())
 }
 
+/// One row per delivered file and month: `entity`, `kind`, `period_index`, `file`, the
+/// sums `debits`, `credits` and `total` of its amounts, its first `line` and `mapped`,
+/// its number of mapped rows. Built in one pass over the mapped and unmapped rows (every
+/// ledger and opening row) for the checks that are about whole deliveries, which would
+/// otherwise each group every row again.
+fn delivery_summary(mapped: &Mapped) -> PolarsResult<DataFrame> {
+    // Balance is checked on the delivered amounts, mapped or not: unmapped rows still
+    // belong to the delivery.
+    let cols = |m: bool| {
+        [
+            col("entity"),
+            col("kind"),
+            col("period_index"),
+            col("file"),
+            col("amount"),
+            col("line"),
+            lit(i64::from(m)).alias("mapped"),
+        ]
+    };
+    let all = concat(
+        [mapped.lines.clone().lazy().select(cols(true)), mapped.unmapped.clone().lazy().select(cols(false))],
+        UnionArgs::default(),
+    )?;
+    let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
+    all.group_by([col("entity"), col("kind"), col("period_index"), col("file")])
+        .agg([
+            col("amount").filter(col("amount").gt(zero.clone())).sum().alias("debits"),
+            col("amount").filter(col("amount").lt(zero)).sum().alias("credits"),
+            col("amount").sum().alias("total"),
+            col("line").min(),
+            col("mapped").sum(),
+        ])
+        .collect()
+}
+
 fn check_periods(
     ds: &Dataset,
-    mapped: &Mapped,
+    deliveries: &DataFrame,
     structure: &crate::structure::GroupStructure,
     scope: Scope,
     f: &mut Vec<Finding>,
 ) -> PolarsResult<()> {
-    check_months_outside_year(ds, scope, f)?;
-    check_duplicate_deliveries(mapped, f)?;
-    check_missing_deliveries(ds, mapped, structure, scope, f)
+    check_months_outside_year(deliveries, scope, f)?;
+    // The month's deliveries as the close reads them: files with a mapped row.
+    let months = deliveries.clone().lazy().filter(col("kind").neq(lit("opening")).and(col("mapped").gt(lit(0i64))));
+    check_duplicate_deliveries(months.clone(), f)?;
+    check_missing_deliveries(ds, months, structure, scope, f)
 }
 
 /// Finds ledger periods outside the fiscal year being closed, one finding per file and period.
-fn check_months_outside_year(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
+fn check_months_outside_year(deliveries: &DataFrame, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let start = period_index(scope.fiscal_start);
     let end = period_index(scope.fiscal_start.plus_months(11));
-    let outside = ds
-        .ledger
+    // A file holds one entity's rows; its period is checked YYYY-MM when loaded, so the
+    // period index orders and tells periods apart as the text does.
+    let outside = deliveries
         .clone()
         .lazy()
-        .with_column(crate::map_accounts::period_index_expr("period").alias("period_index"))
+        .filter(col("kind").neq(lit("opening")))
         .filter(col("period_index").lt(lit(start)).or(col("period_index").gt(lit(end))))
-        .group_by([col("file"), col("period")])
-        .agg([col("line").min(), col("entity").first(), col("line").count().alias("rows")])
-        .sort(["file", "period"], SortMultipleOptions::default())
+        .group_by([col("file"), col("period_index")])
+        .agg([col("line").min(), col("entity").first()])
+        .sort(["file", "period_index"], SortMultipleOptions::default())
         .collect()?;
     for i in 0..outside.height() {
-        let p = s(&outside, "period", i).unwrap_or_default();
+        let p = period_of_index(idx(&outside, "period_index", i).unwrap_or(0));
         f.push(
             Finding::new(
                 Rule::PeriodOutsideYear,
@@ -398,15 +438,11 @@ fn check_months_outside_year(ds: &Dataset, scope: Scope, f: &mut Vec<Finding>) -
 }
 
 /// Finds an entity's month delivered in more than one file.
-fn check_duplicate_deliveries(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
+fn check_duplicate_deliveries(months: LazyFrame, f: &mut Vec<Finding>) -> PolarsResult<()> {
     // Each entity and period comes from one file, and of one kind.
-    let deliveries = mapped
-        .lines
-        .clone()
-        .lazy()
-        .filter(col("kind").neq(lit("opening")))
+    let deliveries = months
         .group_by([col("entity"), col("period_index")])
-        .agg([col("file").unique().sort(Default::default()).alias("files"), col("kind").n_unique().alias("kinds")])
+        .agg([col("file").unique().sort(Default::default()).alias("files")])
         .filter(col("files").list().len().gt(lit(1)))
         .sort(["entity", "period_index"], SortMultipleOptions::default())
         .collect()?;
@@ -432,18 +468,14 @@ fn check_duplicate_deliveries(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsRe
 /// Finds the months and entities not delivered, blocking where the close needs them.
 fn check_missing_deliveries(
     ds: &Dataset,
-    mapped: &Mapped,
+    months: LazyFrame,
     structure: &crate::structure::GroupStructure,
     scope: Scope,
     f: &mut Vec<Finding>,
 ) -> PolarsResult<()> {
     // Who has not delivered which month yet.
     let have: BTreeSet<(String, i32)> = {
-        let d = mapped
-            .lines
-            .clone()
-            .lazy()
-            .filter(col("kind").neq(lit("opening")))
+        let d = months
             .select([col("entity"), col("period_index")])
             .unique(None, UniqueKeepStrategy::Any)
             .collect()?;
@@ -535,36 +567,11 @@ fn method_words(structure: &crate::structure::GroupStructure, e: &EntityId) -> &
     }
 }
 
-fn check_balanced(mapped: &Mapped, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
-    // Balance is checked on the delivered amounts, mapped or not: unmapped rows still
-    // belong to the delivery.
-    let all = concat(
-        [
-            mapped.lines.clone().lazy().select([
-                col("entity"),
-                col("kind"),
-                col("period_index"),
-                col("file"),
-                col("amount"),
-            ]),
-            mapped.unmapped.clone().lazy().select([
-                col("entity"),
-                col("kind"),
-                col("period_index"),
-                col("file"),
-                col("amount"),
-            ]),
-        ],
-        UnionArgs::default(),
-    )?;
+fn check_balanced(deliveries: &DataFrame, scope: Scope, f: &mut Vec<Finding>) -> PolarsResult<()> {
     let zero = crate::money::decimal_lit(Decimal::ZERO, crate::money::AMOUNT_SCALE);
-    let sums = all
-        .group_by([col("entity"), col("kind"), col("period_index"), col("file")])
-        .agg([
-            col("amount").filter(col("amount").gt(zero.clone())).sum().alias("debits"),
-            col("amount").filter(col("amount").lt(zero.clone())).sum().alias("credits"),
-            col("amount").sum().alias("total"),
-        ])
+    let sums = deliveries
+        .clone()
+        .lazy()
         .filter(col("total").neq(zero))
         .sort(["entity", "period_index", "file"], SortMultipleOptions::default())
         .collect()?;
