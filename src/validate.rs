@@ -624,11 +624,17 @@ fn check_duplicates(mapped: &Mapped, f: &mut Vec<Finding>) -> PolarsResult<()> {
         .group_by(keys())
         .agg([col("line").count().alias("n")])
         .filter(col("n").gt(lit(1u32)))
-        .select(keys());
+        .select(keys())
+        .collect()?;
+    // With no key repeated (a clean delivery) there is nothing to list: joining every
+    // row to the empty set of keys would still encode every row's keys once more.
+    if repeated.height() == 0 {
+        return Ok(());
+    }
     let mut semi = JoinArgs::new(JoinType::Semi);
     semi.nulls_equal = true;
     let dups = all
-        .join(repeated, keys(), keys(), semi)
+        .join(repeated.lazy(), keys(), keys(), semi)
         .group_by(keys())
         .agg([col("line").sort(Default::default()).alias("lines"), col("file").first(), col("line").count().alias("n")])
         .filter(col("n").gt(lit(1u32)))
