@@ -114,6 +114,12 @@ fn plan_findings(c: &Checked) -> Result<Vec<crate::findings::Finding>, Error> {
     let mut f = Vec::new();
     for name in crate::load::plans::plan_names(&c.ds.root, &mut f) {
         let Some(plan) = crate::load::plans::load_plan(&c.ds, &name, &mut f) else { continue };
+        // A plan with no month in the fiscal year checked is another year's plan (last
+        // year's budget kept in the folder): not this year's to check. `close --compare`
+        // with it names every month outside the year.
+        if !crate::compare::plans_the_year(&plan, c.scope.fiscal_start)? {
+            continue;
+        }
         let a = crate::compare::Actuals {
             ds: &c.ds,
             mapped: &c.mapped,

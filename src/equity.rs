@@ -240,7 +240,6 @@ pub fn changes_in_equity(
     let movement = movements(components, &equity_accounts, (opening, closing), (&c_open, &c_close), &chart, roles);
 
     let mut profit = vec![Decimal::ZERO; n];
-    let mut oci = vec![Decimal::ZERO; n];
     let mut acquisitions = vec![Decimal::ZERO; n];
     let add = |row: &mut Vec<Decimal>, at: Option<usize>, x: Decimal| {
         if let Some(i) = at {
@@ -249,39 +248,7 @@ pub fn changes_in_equity(
     };
     add(&mut profit, re, view.profit - view.profit_nci);
     add(&mut profit, nci, view.profit_nci);
-    // Each reserve's OCI of the view in its own column (IAS 1.106(d)); the rest of the
-    // view's OCI, as its statement shows it, in the translation reserve's.
-    let mut named_oci = Decimal::ZERO;
-    for (reserve, x) in
-        oci_of_view(&chart, roles, (opening, closing)).iter().filter(|(r, _)| **r != roles.translation_reserve)
-    {
-        add(&mut oci, find(reserve).or(tr), -*x);
-        named_oci += -*x;
-    }
-    add(&mut oci, tr, view.oci - named_oci);
-    // The NCI's share of OCI leaves each reserve: the NCI entry takes its share from
-    // the translation reserve and each reserve the chart names directly (close/nci.rs),
-    // which the movement of its lines on them measures (a subsidiary sold carries its
-    // NCI line on the translation reserve into the disposal entry, which leaves with
-    // the NCI: IAS 21.48B); the rest of the NCI's share of OCI leaves retained earnings.
-    let mut nci_from_reserves = Decimal::ZERO;
-    let named: BTreeSet<&GroupAccount> =
-        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).chain([&roles.translation_reserve]).collect();
-    let sold_reserve_nci: Decimal = new_disposals(opening, closing).map(|d| d.reserve_nci).sum();
-    // The NCI rule takes the NCI's share at the period-end share: a change in stake's
-    // reattribution is in the movement of its line, and on the change's own row.
-    let reattributed: Decimal = new_stake_changes(opening, closing).map(|d| d.reserve_reattributed).sum();
-    for reserve in named {
-        let mut x = journal_sum(closing, reserve, Some(EliminationRule::NonControllingInterest), None)
-            - journal_sum(opening, reserve, Some(EliminationRule::NonControllingInterest), None);
-        if *reserve == roles.translation_reserve {
-            x += sold_reserve_nci + reattributed;
-        }
-        add(&mut oci, find(reserve).or(tr), -x);
-        nci_from_reserves += x;
-    }
-    add(&mut oci, re, -view.oci_nci + nci_from_reserves);
-    add(&mut oci, nci, view.oci_nci);
+    let oci = oci_row(ds, &chart, components, (opening, closing), view);
 
     let before = contributing(opening)?;
     let after = contributing(closing)?;
@@ -330,6 +297,60 @@ pub fn changes_in_equity(
     }
     let check = prove(components, &equity_accounts, &open, &movement, &close);
     Ok((EquityChanges { columns, rows }, check))
+}
+
+/// The OCI row: each reserve's OCI of the view in its own column (IAS 1.106(d)), the
+/// rest of the view's OCI, as its statement shows it, in the translation reserve's; the
+/// NCI's share of it in the NCI column.
+fn oci_row(
+    ds: &crate::load::Dataset,
+    chart: &Chart,
+    components: &[Component],
+    (opening, closing): (&Close, &Close),
+    view: &Attribution,
+) -> Vec<Decimal> {
+    let roles = &ds.settings.accounts;
+    let find = |acct: &GroupAccount| components.iter().position(|c| c.accounts.contains(acct));
+    let (re, tr, nci) =
+        (find(&roles.retained_earnings), find(&roles.translation_reserve), find(&roles.non_controlling_interest));
+    let mut oci = vec![Decimal::ZERO; components.len()];
+    let mut add = |at: Option<usize>, x: Decimal| {
+        if let Some(i) = at {
+            oci[i] += x;
+        }
+    };
+    let mut named_oci = Decimal::ZERO;
+    for (reserve, x) in
+        oci_of_view(chart, roles, (opening, closing)).iter().filter(|(r, _)| **r != roles.translation_reserve)
+    {
+        add(find(reserve).or(tr), -*x);
+        named_oci += -*x;
+    }
+    add(tr, view.oci - named_oci);
+    // The NCI's share of OCI leaves each reserve: the NCI entry takes its share from
+    // the translation reserve and each reserve the chart names directly (close/nci.rs),
+    // which the movement of its lines on them measures (a subsidiary sold carries its
+    // NCI line on the translation reserve into the disposal entry, which leaves with
+    // the NCI: IAS 21.48B); the rest of the NCI's share of OCI leaves retained earnings.
+    let mut nci_from_reserves = Decimal::ZERO;
+    let named: BTreeSet<&GroupAccount> =
+        ds.accounts.iter().filter_map(|a| a.reserve.as_ref()).chain([&roles.translation_reserve]).collect();
+    let sold_reserve_nci: Decimal = new_disposals(opening, closing).map(|d| d.reserve_nci).sum();
+    // The NCI rule takes the NCI's share at the period-end share: a change in stake's
+    // reattribution is in the movement of its line, and on the change's own row.
+    let reattributed: Decimal = new_stake_changes(opening, closing).map(|d| d.reserve_reattributed).sum();
+    for reserve in named {
+        let mut x = journal_sum(closing, reserve, Some(EliminationRule::NonControllingInterest), None)
+            - journal_sum(opening, reserve, Some(EliminationRule::NonControllingInterest), None);
+        if *reserve == roles.translation_reserve {
+            x += sold_reserve_nci + reattributed;
+        }
+        add(find(reserve).or(tr), -x);
+        nci_from_reserves += x;
+    }
+    add(re, -view.oci_nci + nci_from_reserves);
+    add(nci, view.oci_nci);
+    oci
 }
 
 /// Subsidiaries sold between the two closes (IFRS 10.25, IAS 21.48B).

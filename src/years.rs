@@ -91,8 +91,21 @@ pub fn year_dataset(full: &Dataset, start: Period, findings: &mut Vec<Finding>) 
     for r in &full.group_adjustments.lines {
         entry_year.entry(r.entry.clone()).or_insert_with(|| r.period.fiscal_year_start(fys));
     }
+    // Those of an earlier year the folder holds are carried: that year's close posted
+    // them, and what they left in the balance sheet stays (topside.rs).
+    let year_of = |r: &crate::model::GroupAdjustment| entry_year.get(&r.entry).copied().unwrap_or(start);
+    ds.group_adjustments.carried = full
+        .group_adjustments
+        .lines
+        .iter()
+        .filter(|r| {
+            let y = year_of(r);
+            y < start && years.contains(&y) && !full.group_adjustments.incomplete.contains(&r.entry)
+        })
+        .cloned()
+        .collect();
     ds.group_adjustments.lines.retain(|r| {
-        let y = entry_year.get(&r.entry).copied().unwrap_or(start);
+        let y = year_of(r);
         y == start || !years.contains(&y)
     });
     // An entity whose first year is later has not delivered for this one.
@@ -510,6 +523,20 @@ fn brought_forward(
             };
             // Both entries debit a credit balance to take it out of the group's.
             *at_acquisition.entry((l.entity.clone(), reserve.clone())).or_default() -= l.amount;
+        }
+    }
+    // A subsidiary the year end's investment entries eliminated had, at acquisition,
+    // nothing in a named reserve the entries did not take: zero, known, so that a later
+    // year does not take the OCI since closed into that reserve for equity acquired.
+    let subsidiaries: BTreeSet<&EntityId> = close
+        .journal
+        .iter()
+        .filter(|e| e.rule == crate::close::EliminationRule::InvestmentAndGoodwill)
+        .flat_map(|e| e.lines.iter().filter(|l| l.counterparty.is_none()).map(|l| &l.entity))
+        .collect();
+    for e in subsidiaries {
+        for r in &named {
+            at_acquisition.entry((e.clone(), (*r).clone())).or_default();
         }
     }
     out.reserves_at_acquisition.extend(at_acquisition);

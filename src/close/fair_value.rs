@@ -267,6 +267,41 @@ impl ExpenseRates {
         }
         first.through(&cx.period).into_iter().map(|m| Self::at(cx, &self.average, fc, to(m) - to(m.prev()), m)).sum()
     }
+
+    /// The depreciation of `u` of the fiscal years before the one starting after `p0`,
+    /// in the presentation currency as each year's close expensed it (each month at its
+    /// average, or each year at its year-to-date average, under the income translation
+    /// policy): what those years closed into retained earnings. `None` when a rate of
+    /// those months is not in the rates table (a folder that does not hold them).
+    fn earlier_years(&self, cx: &Context, fc: Currency, u: &Uplift, acquired: Period, p0: Period) -> Option<Decimal> {
+        let minor = fc.minor_unit();
+        let to = |m: Period| depreciated_to(u, acquired, m, minor, cx.mode);
+        if acquired > p0 {
+            return Some(Decimal::ZERO);
+        }
+        let known = |rates: &BTreeMap<(Currency, Period), Rate>, m: Period| {
+            fc == cx.presentation || rates.contains_key(&(fc, m))
+        };
+        if self.policy == Some(IncomeTranslation::YearToDate) {
+            // Year by year, each ending 12 months apart before the fiscal year.
+            let mut total = Decimal::ZERO;
+            let mut end = p0;
+            while end >= acquired {
+                let start = end.plus_months(-11).max(acquired);
+                if !known(&self.average_ytd, end) {
+                    return None;
+                }
+                total += Self::at(cx, &self.average_ytd, fc, to(end) - to(start.prev()), end);
+                end = end.plus_months(-12);
+            }
+            return Some(total);
+        }
+        let months = acquired.through(&p0);
+        if !months.iter().all(|m| known(&self.average, *m)) {
+            return None;
+        }
+        Some(months.into_iter().map(|m| Self::at(cx, &self.average, fc, to(m) - to(m.prev()), m)).sum())
+    }
 }
 
 /// What the adjustments of `fair_value_adjustments.csv` lack or say that the close
@@ -408,13 +443,22 @@ fn post_one(
     let now = closing(now_fc, cx.period);
     // The opening close (before the translated year) has no year of its own: all of
     // the depreciation to date is earlier years'.
-    let (opening, expense) = if cx.period < cx.translated_from {
-        (now, Decimal::ZERO)
+    let (opening, expense, earlier) = if cx.period < cx.translated_from {
+        (now, Decimal::ZERO, rates.earlier_years(cx, fc, u, acquired, cx.period))
     } else {
         let p0 = cx.fiscal_start.prev();
         let first = if acquired > cx.fiscal_start { acquired } else { cx.fiscal_start };
         let expense = if first > cx.period { Decimal::ZERO } else { rates.expense_of_year(cx, fc, u, acquired, first) };
-        (closing(to(p0), p0), expense)
+        (closing(to(p0), p0), expense, rates.earlier_years(cx, fc, u, acquired, p0))
+    };
+    // The earlier years' depreciation at the opening: in retained earnings as those
+    // years expensed it, the rest (its retranslation since) in the translation reserve
+    // where those years' OCI closed it (IAS 21.39-41), so that the opening is the prior
+    // year's closing. Without the earlier months' rates, all of it at the opening's
+    // closing rate in retained earnings.
+    let (retained, reserve) = match earlier {
+        Some(h) => (h, opening - h),
+        None => (opening, Decimal::ZERO),
     };
     // Depreciation reduces the asset: a credit, and the exchange difference balances
     // the entry (a weaker currency shrinks the credit: a gain in OCI).
@@ -437,12 +481,16 @@ fn post_one(
             money::format_amount(u.amount, minor),
             money::format_amount(now_fc, minor)
         ),
-        vec![
+        [
             line(&u.account, &e.id, None, -now),
-            line(&cx.roles.retained_earnings, &e.id, None, opening),
+            line(&cx.roles.retained_earnings, &e.id, None, retained),
+            line(&cx.roles.translation_reserve, &e.id, None, reserve),
             line(expense_account, &e.id, None, expense),
             line(&cx.roles.translation_difference, &e.id, None, fx),
-        ],
+        ]
+        .into_iter()
+        .filter(|l| !(l.amount.is_zero() && l.account == cx.roles.translation_reserve))
+        .collect(),
     );
 }
 

@@ -344,6 +344,56 @@ pub fn post(j: &mut Journal, cx: &Context, adj: &GroupAdjustments) {
             lines,
         );
     }
+    post_carried(j, cx, adj, &in_close);
+}
+
+/// Posts the entries of earlier fiscal years the folder holds (`GroupAdjustments::
+/// carried`) by what they left in the balance sheet: their year closed their profit or
+/// loss into retained earnings and their OCI into its reserve (the chart's `reserve`,
+/// else the translation reserve), and their balance-sheet lines stay, so that the
+/// opening is the prior year's closing. Posted in every close of the year, the opening
+/// close included; an entry that does not balance (its year's close blocked it) is
+/// left out.
+fn post_carried(j: &mut Journal, cx: &Context, adj: &GroupAdjustments, in_close: &BTreeSet<EntityId>) {
+    let file = GroupAdjustments { lines: adj.carried.clone(), ..GroupAdjustments::default() };
+    for e in entries(&file) {
+        let first = e.first();
+        if !in_close.contains(&first.scope) || !e.total().is_zero() || !consistency(&e).is_empty() {
+            continue;
+        }
+        let closed_into = |a: &GroupAccount| -> GroupAccount {
+            match cx.chart.get(a).map(|d| (d.statement, d.reserve.as_ref())) {
+                Some((Statement::ProfitOrLoss, _)) => cx.roles.retained_earnings.clone(),
+                Some((Statement::Oci, reserve)) => reserve.unwrap_or(&cx.roles.translation_reserve).clone(),
+                _ => a.clone(),
+            }
+        };
+        let mut named: Vec<EntityId> = Vec::new();
+        for x in e.rows.iter().filter_map(|r| r.entity.as_ref()) {
+            if !named.contains(x) {
+                named.push(x.clone());
+            }
+        }
+        let lines: Vec<EntryLine> = e
+            .rows
+            .iter()
+            .map(|r| {
+                let mut x = r.amount;
+                x.rescale(cx.minor);
+                line(&closed_into(&r.account), r.entity.as_ref().unwrap_or(&first.scope), r.counterparty.as_ref(), x)
+            })
+            .collect();
+        j.post(
+            EliminationRule::GroupAdjustment,
+            first.scope.clone(),
+            named,
+            format!(
+                "top-side {} booked {} in {}, carried from its year (its profit or loss in retained earnings, its OCI in its reserve): {}; prepared by {}",
+                e.id, first.period, first.scope, first.reason, first.prepared_by
+            ),
+            lines,
+        );
+    }
 }
 
 #[cfg(test)]
@@ -383,7 +433,7 @@ mod tests {
                 r
             })
             .collect();
-        GroupAdjustments { lines, incomplete: BTreeSet::new() }
+        GroupAdjustments { lines, incomplete: BTreeSet::new(), carried: Vec::new() }
     }
 
     /// P 80% of S, S 60% of T (a sub-group below S), all consolidated in full.

@@ -115,15 +115,23 @@ pub fn post(
         }
         let change = urp_now - urp_open_now;
         let fx = urp_open_now - urp_open_then;
+        let earlier = earlier_years(cx, items, (seller, buyer), share, bc);
+        let carried: Decimal = earlier.iter().map(|(then, now)| now - then).sum();
         let mut lines = vec![
             line(inventory, buyer, Some(seller), -urp_now),
-            line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then),
+            line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then - carried),
+            line(&cx.roles.translation_reserve, seller, Some(buyer), carried),
             line(cogs, seller, Some(buyer), change),
             line(&cx.roles.translation_difference, seller, Some(buyer), fx),
         ];
         if let Some((tax, t)) = tax.and_then(|x| Some((x, x.rate(buyer)?))) {
-            lines.extend(deferred_tax_lines(cx, tax, t, (seller, buyer), (urp_now, urp_open_then, urp_open_now)));
+            let carried_tax: Decimal = earlier.iter().map(|(then, now)| cx.round(*now * t) - cx.round(*then * t)).sum();
+            let mut tax_lines = deferred_tax_lines(cx, tax, t, (seller, buyer), (urp_now, urp_open_then, urp_open_now));
+            tax_lines[1].amount += carried_tax;
+            tax_lines.push(line(&cx.roles.translation_reserve, seller, Some(buyer), -carried_tax));
+            lines.extend(tax_lines);
         }
+        lines.retain(|l| !(l.amount.is_zero() && l.account == cx.roles.translation_reserve));
         j.post(
             EliminationRule::UnrealisedProfit,
             cx.lcp(seller, buyer),
@@ -137,6 +145,40 @@ pub fn post(
             lines,
         );
     }
+}
+
+/// The elimination at the opening as the earlier fiscal years' closes left it: each
+/// year's exchange difference on its own opening count (the count before it, at the
+/// closing rates of the year's start and end: `(then, now)` per year) went to OCI and
+/// so to the translation reserve, the rest is in retained earnings. Walks back year by
+/// year while there is a count before the year and its rates; a year without them ends
+/// the walk (its difference, and the earlier ones', stay in retained earnings, as a
+/// folder that does not hold them cannot tell).
+fn earlier_years(
+    cx: &Context,
+    items: &[InventoryProfit],
+    (seller, buyer): (&EntityId, &EntityId),
+    share: Decimal,
+    bc: crate::model::Currency,
+) -> Vec<(Decimal, Decimal)> {
+    let mut out = Vec::new();
+    let mut year_start = cx.fiscal_start.plus_months(-12);
+    loop {
+        let before = items
+            .iter()
+            .filter(|x| &x.seller == seller && &x.buyer == buyer && x.period < year_start)
+            .max_by_key(|x| x.period);
+        let Some(count) = before else { break };
+        let fc = count.inventory_amount * count.margin_rate * share;
+        let (Some(then), Some(now)) =
+            (cx.at_closing(bc, fc, year_start.prev()), cx.at_closing(bc, fc, year_start.plus_months(11)))
+        else {
+            break;
+        };
+        out.push((then, now));
+        year_start = year_start.plus_months(-12);
+    }
+    out
 }
 
 /// The deferred tax asset on an elimination of unrealised profit: rate `t` times each

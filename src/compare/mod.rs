@@ -378,6 +378,22 @@ fn on_row(rule: Rule, row: &RowAt, message: String, action: &str) -> Finding {
     x
 }
 
+/// Whether `plan` has a row in the fiscal year starting `fiscal_start` (or no rows at
+/// all, whose emptiness its own checks name).
+pub fn plans_the_year(plan: &PlanInput, fiscal_start: Period) -> PolarsResult<bool> {
+    if plan.ledger.height() == 0 {
+        return Ok(true);
+    }
+    let (first, last) = (fiscal_start.to_string(), fiscal_start.plus_months(11).to_string());
+    let inside = plan
+        .ledger
+        .clone()
+        .lazy()
+        .filter(col("period").gt_eq(lit(first)).and(col("period").lt_eq(lit(last))))
+        .collect()?;
+    Ok(inside.height() > 0)
+}
+
 /// The checks of a plan's rows beside the close: months outside the fiscal year, rows
 /// given twice, counterparties, entities outside the scope and missing plan rates.
 fn plan_findings(a: &Actuals<'_>, plan: &PlanInput) -> PolarsResult<Vec<Finding>> {

@@ -20,6 +20,10 @@ pub const GROUP_ADJUSTMENTS_FILE: &str = "group_adjustments.csv";
 pub struct GroupAdjustments {
     pub lines: Vec<GroupAdjustment>,
     pub incomplete: BTreeSet<String>,
+    /// The rows of entries of earlier fiscal years the folder holds (`years.rs`): their
+    /// year closed them, so a later year carries what they left in the balance sheet
+    /// (`close::topside::post_carried`).
+    pub carried: Vec<GroupAdjustment>,
 }
 
 pub(super) fn load_group_adjustments(

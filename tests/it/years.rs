@@ -274,3 +274,117 @@ fn the_reserve_from_before_control_stays_eliminated_in_the_next_year() {
     let s = rows.iter().find(|r| r["operation"] == "S").expect("S");
     assert_eq!(s["brought_forward"].as_str(), Some("-890.00"), "{s}");
 }
+
+/// Rows of a CSV file as maps of column to value.
+fn csv_rows(path: &std::path::Path) -> Vec<BTreeMap<String, String>> {
+    let mut r = csv::Reader::from_path(path).expect("csv");
+    let head: Vec<String> = r.headers().expect("header").iter().map(String::from).collect();
+    r.records().map(|x| head.iter().cloned().zip(x.expect("record").iter().map(String::from)).collect()).collect()
+}
+
+/// The demo carried into January 2027 (deliveries with no movement; KIS-JP's balances of
+/// December with the year's result closed into its retained earnings; the rates of
+/// December; the December timing differences accepted again): the 2026 year end is the
+/// 2027 opening. Three carries had failed it: BRW-US's revaluation surplus (its OCI of
+/// 2026, closed into the reserve) was taken for equity at acquisition, the November
+/// top-side provision vanished, and the exchange difference of 2026 on the unrealised
+/// profit at the 2025 year end moved from the translation reserve to retained earnings.
+/// The 2026 plans kept in the folder are not checked against 2027. What is left is the
+/// associate's cent: HEL-CH's share of its equity to date rounded
+/// once against the sum of the 2026 close's rounded shares (a known limitation).
+#[test]
+fn the_demo_year_end_is_the_next_years_opening() {
+    let f = Folder::demo();
+    let rates = f.read("rates/monthly.csv");
+    for l in rates.lines().filter(|l| l.starts_with("2026-12,")) {
+        f.append("rates/monthly.csv", &l.replacen("2026-12", "2027-01", 1));
+    }
+    let statement: BTreeMap<String, String> = csv_rows(&f.path().join("entities/accounts.csv"))
+        .into_iter()
+        .map(|r| (r["account"].clone(), r["statement"].clone()))
+        .collect();
+    for d in std::fs::read_dir(f.path().join("entities")).expect("entities") {
+        let d = d.expect("entry").path();
+        let e = d.file_name().and_then(|x| x.to_str()).expect("name").to_string();
+        let mapping: BTreeMap<String, String> = match d.join("mapping.csv").is_file() {
+            true => csv_rows(&d.join("mapping.csv"))
+                .into_iter()
+                .map(|r| (r["local_account"].clone(), r["group_account"].clone()))
+                .collect(),
+            false => continue,
+        };
+        if e == "NRD-SE" {
+            continue; // sold in 2026
+        }
+        let movements = d.join("tb-2026-12.movements.csv");
+        if movements.is_file() {
+            let head =
+                f.read(&format!("entities/{e}/tb-2026-12.movements.csv")).lines().next().expect("header").to_string();
+            let first = mapping.keys().next().expect("a mapped account").clone();
+            let row: Vec<&str> = head
+                .split(',')
+                .map(|c| match c {
+                    "period" => "2027-01",
+                    "account" => first.as_str(),
+                    "amount" => "0",
+                    _ => "",
+                })
+                .collect();
+            f.write(&format!("entities/{e}/tb-2027-01.movements.csv"), &format!("{head}\n{}\n", row.join(",")));
+            continue;
+        }
+        // Balances: the year's result closed into the first local account mapped to
+        // retained earnings.
+        let rows = csv_rows(&d.join("tb-2026-12.balances.csv"));
+        let head: Vec<String> = f
+            .read(&format!("entities/{e}/tb-2026-12.balances.csv"))
+            .lines()
+            .next()
+            .expect("header")
+            .split(',')
+            .map(String::from)
+            .collect();
+        let flow = |a: &str| mapping.get(a).and_then(|g| statement.get(g)).is_some_and(|s| s != "balance_sheet");
+        let result: rust_decimal::Decimal = rows
+            .iter()
+            .filter(|r| flow(&r["account"]))
+            .map(|r| r["amount"].parse::<rust_decimal::Decimal>().expect("amount"))
+            .sum();
+        let retained = mapping.iter().find(|(_, g)| *g == "3200").map(|(l, _)| l.clone()).expect("retained earnings");
+        let mut text = head.join(",") + "\n";
+        for r in rows.iter().filter(|r| !flow(&r["account"])) {
+            let mut r = r.clone();
+            r.insert("period".into(), "2027-01".into());
+            if r["account"] == retained {
+                let x: rust_decimal::Decimal = r["amount"].parse().expect("amount");
+                r.insert("amount".into(), (x + result).to_string());
+            }
+            text += &(head.iter().map(|c| r[c].as_str()).collect::<Vec<_>>().join(",") + "\n");
+        }
+        f.write(&format!("entities/{e}/tb-2027-01.balances.csv"), &text);
+    }
+    // The December differences of these pairs are still open in January (accepted).
+    f.append("entities/accepted_differences.csv", "ALD-UK,BRW-US,trade,2027-01,87720.89,still in transit,test");
+    f.append("entities/accepted_differences.csv", "BRW-US,KIS-JP,trade,2027-01,3171.73,still in dispute,test");
+    let out = f.path().join("out");
+    let (code, v) = run_json(f.path(), &["close", "--period", "2027-01", "--out", out.to_str().unwrap()]);
+    assert!(code == 0 || code == 1, "{:#}", v["findings"]);
+    assert!(findings_of(&v, "OpeningNotDerivable").is_empty(), "{:#}", v["findings"]);
+    // The 2026 budget and forecast kept in the folder are not 2027's plans: `check`
+    // does not hold their months against 2027.
+    let (_, checked) = run_json(f.path(), &["check", "--period", "2027-01"]);
+    assert!(findings_of(&checked, "PeriodOutsideYear").is_empty(), "{:#}", checked["findings"]);
+    let c = check(&v, "opening_is_prior_year_closing");
+    let detail = c["detail"].as_str().expect("detail");
+    if c["ok"] != true {
+        for part in detail.split("; ") {
+            let (account, rest) = part.split_once(':').expect("account: ...");
+            let difference: rust_decimal::Decimal =
+                rest.rsplit(' ').next().and_then(|x| x.parse().ok()).expect("difference");
+            assert!(
+                (account == "1300" || account == "3200") && difference.abs() <= rust_decimal::Decimal::new(1, 2),
+                "{detail}"
+            );
+        }
+    }
+}
