@@ -475,10 +475,7 @@ fn check_missing_deliveries(
 ) -> PolarsResult<()> {
     // Who has not delivered which month yet.
     let have: BTreeSet<(String, i32)> = {
-        let d = months
-            .select([col("entity"), col("period_index")])
-            .unique(None, UniqueKeepStrategy::Any)
-            .collect()?;
+        let d = months.select([col("entity"), col("period_index")]).unique(None, UniqueKeepStrategy::Any).collect()?;
         (0..d.height()).filter_map(|i| Some((s(&d, "entity", i)?, idx(&d, "period_index", i)?))).collect()
     };
     // The close is complete only with every month of every entity it consolidates or
