@@ -636,6 +636,12 @@ pub struct BroughtForward {
     /// books carry it on in their reserve year after year, so the investment entry of
     /// every later year eliminates it again.
     pub translation_reserve_at_acquisition: std::collections::BTreeMap<EntityId, Decimal>,
+    /// Per holder and investee: the holder's share of the investee's equity since
+    /// acquisition at the prior year end (earlier years', the year's profit and OCI, less
+    /// the dividends received; before the floor of IAS 28.38-39), as that close rounded
+    /// it: the earlier years' share of the next year, so that its opening is the year
+    /// end to the cent.
+    pub equity_method_share: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
 }
 
 /// A change in a holder's share of an entity on one date, from

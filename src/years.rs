@@ -540,6 +540,7 @@ fn brought_forward(
         }
     }
     out.reserves_at_acquisition.extend(at_acquisition);
+    out.equity_method_share = close.equity_shares.clone();
     out.translation_reserve_at_acquisition.extend(translation_reserves_at_acquisition(prior, &close, prior_end)?);
     for e in &close.journal {
         for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
@@ -979,6 +980,7 @@ mod tests {
             stake_changes: Vec::new(),
             nci_at_acquisition: BTreeMap::new(),
             differences: BTreeMap::new(),
+            equity_shares: BTreeMap::new(),
         }
     }
 

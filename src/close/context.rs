@@ -147,6 +147,7 @@ pub mod fixture {
         operation_reserves: BTreeMap::new(),
         reserves_at_acquisition: BTreeMap::new(),
         translation_reserve_at_acquisition: BTreeMap::new(),
+        equity_method_share: BTreeMap::new(),
     };
 
     pub fn d(s: &str) -> Decimal {

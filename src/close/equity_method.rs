@@ -326,12 +326,20 @@ fn post_share(
     let (sp, so, spr) = (r(profit - up.expense), r(oci_year + up.fx), r(prior + up.prior));
     let bargain = bargain_purchase(cx, fc, a, share, inputs.uplifts);
     let (sp, spr) = if let Start::InYear(_) = start_of(cx, a) { (sp + bargain, spr) } else { (sp, spr + bargain) };
+    let holder = holder_of(cx, e);
+    // Held at the opening of a year whose prior year end the folder holds: the earlier
+    // years' share as that close rounded it (its parts, each rounded), not the share of
+    // the carried equity rounded once, so that the opening is that year end to the cent.
+    let spr = match (start_of(cx, a), cx.brought_forward.equity_method_share.get(&(holder.clone(), e.id.clone()))) {
+        (Start::BeforeYear, Some(carried)) => *carried,
+        _ => spr,
+    };
     let dividends = dividends_received(cx, &e.id);
     let div: Decimal = dividends.iter().map(|d| d.2).sum();
+    j.equity_shares.insert((holder.clone(), e.id.clone()), spr + sp + so - div);
     let interests = inputs.long_term.get(&e.id).map(Vec::as_slice).unwrap_or_default();
     let c = cap_losses_at(net_investment_floors(cost, interests), spr, sp, so, div);
     let (to_investment, to_interests) = split_over_interests(cost, c.prior + c.profit + so - div, interests);
-    let holder = holder_of(cx, e);
     // The share of OCI of the earlier years the folder holds stays in the translation
     // reserve where the year-end close put it (IAS 28.10), not in retained earnings.
     let oci_before =

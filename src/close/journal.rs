@@ -115,6 +115,10 @@ impl Entry {
 #[derive(Debug, Default)]
 pub struct Journal {
     pub entries: Vec<Entry>,
+    /// What the equity method measured per holder and investee: the share since
+    /// acquisition to the period end (`equity_method::post_share`), which the next
+    /// year brings forward (`BroughtForward::equity_method_share`).
+    pub equity_shares: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
 }
 
 impl Journal {

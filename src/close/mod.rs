@@ -151,6 +151,9 @@ pub struct Close {
     /// Each subsidiary's post-acquisition exchange differences that its NCI shares,
     /// debit positive (`nci::differences`): what a change in stake reattributes.
     pub differences: BTreeMap<EntityId, Decimal>,
+    /// The equity method's share since acquisition per holder and investee
+    /// (`Journal::equity_shares`).
+    pub equity_shares: BTreeMap<(EntityId, EntityId), Decimal>,
 }
 
 /// The close at the last month end before an ownership change (the month rule of
@@ -261,6 +264,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
     let _span = tracing::info_span!("roll_up", period = %period).entered();
     let group = roll_up(&contributions, &j.entries)?;
     let nci_at_acquisition = for_nci.nci_at_acquisition;
+    let equity_shares = std::mem::take(&mut j.equity_shares);
     Ok(Close {
         period,
         contributions,
@@ -273,6 +277,7 @@ pub fn close_at(ds: &Dataset, t: &Translated, s: &GroupStructure, period: Period
         stake_changes,
         nci_at_acquisition,
         differences,
+        equity_shares,
     })
 }
 
