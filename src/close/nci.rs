@@ -112,18 +112,11 @@ fn post_one(
     // subsidiary's result as the group sees it also moves by its unrealised profit, the
     // net investment difference moved to OCI and the top-side lines that name it. The
     // depreciation of the fair value adjustments is the subsidiary's expense in the
-    // group, and its exchange difference the subsidiary's OCI: the NCI shares both.
-    let not_the_groups = [
-        EliminationRule::PreAcquisitionResults,
-        EliminationRule::UnrealisedProfit,
-        EliminationRule::NetInvestmentFx,
-        EliminationRule::GroupAdjustment,
-        EliminationRule::FairValueDepreciation,
-        EliminationRule::FairValueDeferredTax,
-    ];
+    // group, and its exchange difference the subsidiary's OCI: the NCI shares both
+    // ([`SHARED_RULES`]).
     let result_of = |st: Statement| -> Decimal {
         let view: Decimal = cx.balances_of(&e.id).filter(|((a, _), _)| cx.in_statement(a, st)).map(|(_, v)| *v).sum();
-        view + own_sum(own, &not_the_groups, &|l| cx.in_statement(&l.account, st))
+        view + own_sum(own, &SHARED_RULES, &|l| cx.in_statement(&l.account, st))
     };
     let profit = -result_of(Statement::ProfitOrLoss);
     let oci = -result_of(Statement::Oci) + of(&m.fair_value_oci) - holder_fx;

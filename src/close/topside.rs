@@ -307,12 +307,7 @@ pub fn post(j: &mut Journal, cx: &Context, adj: &GroupAdjustments) {
         if check(&e, &fr).iter().any(|f| f.severity >= Severity::Blocking) {
             continue;
         }
-        let mut named: Vec<EntityId> = Vec::new();
-        for x in e.rows.iter().filter_map(|r| r.entity.as_ref()) {
-            if !named.contains(x) {
-                named.push(x.clone());
-            }
-        }
+        let named = named_entities(&e);
         // At the minor unit, like every other entry's amounts (the check refused more
         // decimals, so this only adds zeros).
         let at_minor = |x: Decimal| {
@@ -347,6 +342,17 @@ pub fn post(j: &mut Journal, cx: &Context, adj: &GroupAdjustments) {
     post_carried(j, cx, adj, &in_close);
 }
 
+/// The entities an entry's lines name, once each, in file order.
+fn named_entities(e: &TopsideEntry) -> Vec<EntityId> {
+    let mut named: Vec<EntityId> = Vec::new();
+    for x in e.rows.iter().filter_map(|r| r.entity.as_ref()) {
+        if !named.contains(x) {
+            named.push(x.clone());
+        }
+    }
+    named
+}
+
 /// Posts the entries of earlier fiscal years the folder holds (`GroupAdjustments::
 /// carried`) by what they left in the balance sheet: their year closed their profit or
 /// loss into retained earnings and their OCI into its reserve (the chart's `reserve`,
@@ -368,12 +374,7 @@ fn post_carried(j: &mut Journal, cx: &Context, adj: &GroupAdjustments, in_close:
                 _ => a.clone(),
             }
         };
-        let mut named: Vec<EntityId> = Vec::new();
-        for x in e.rows.iter().filter_map(|r| r.entity.as_ref()) {
-            if !named.contains(x) {
-                named.push(x.clone());
-            }
-        }
+        let named = named_entities(&e);
         let lines: Vec<EntryLine> = e
             .rows
             .iter()
