@@ -61,8 +61,6 @@ pub struct AtLastMonth<'a> {
     /// That close's intragroup dividends it paid or received, whole: posted again as
     /// they were (the months consolidated stay eliminated), beside the entry of the sale.
     pub dividends: Vec<Entry>,
-    /// Its translation reserve then (IFRIC 16.17), before the NCI's share.
-    pub reserve: Decimal,
     /// Its NCI share then, and the NCI's share of its profit and OCI of the year.
     pub nci: Option<NciRow>,
 }
@@ -106,9 +104,8 @@ pub fn at_last_month<'a>(ds: &Dataset, t: &Translated, change: &'a OwnershipChan
         .filter(|(_, l)| &l.entity == e || l.counterparty.as_ref() == Some(e))
         .map(|(r, l)| (r, l.clone()))
         .collect();
-    let reserve = then.reserves.iter().filter(|r| &r.operation == e).map(|r| r.reserve).sum();
     let nci = then.nci.iter().find(|r| &r.entity == e).cloned();
-    Ok(AtLastMonth { change, last_month, contributions, balances, lines, pairs, dividends, reserve, nci })
+    Ok(AtLastMonth { change, last_month, contributions, balances, lines, pairs, dividends, nci })
 }
 
 /// The group's carrying amounts at the last month end, in the presentation currency.
@@ -417,7 +414,6 @@ mod tests {
             ],
             pairs: Vec::new(),
             dividends: Vec::new(),
-            reserve: Decimal::ZERO,
             nci: Some(NciRow {
                 entity: id("S"),
                 nci_share: d("0.2"),
@@ -486,7 +482,6 @@ mod tests {
             ],
             pairs: Vec::new(),
             dividends: Vec::new(),
-            reserve: d("60"),
             nci: Some(NciRow { entity: id("S"), nci_share: d("0.2"), profit: d("24"), oci: d("36"), equity: d("180") }),
         };
         let mut j = Journal::default();
@@ -558,7 +553,6 @@ mod tests {
                     vec![l("4100", "S", Some("P"), "40"), l("5100", "P", Some("S"), "-38"), l("6950", "P", None, "-2")],
                 ),
             ],
-            reserve: Decimal::ZERO,
             nci: None,
         };
         let mut j = Journal::default();
@@ -654,7 +648,6 @@ mod tests {
             ],
             pairs: Vec::new(),
             dividends: Vec::new(),
-            reserve: Decimal::ZERO,
             nci: None,
         };
         let mut j = Journal::default();

@@ -307,50 +307,48 @@ pub fn post(j: &mut Journal, cx: &Context, adj: &GroupAdjustments) {
         if check(&e, &fr).iter().any(|f| f.severity >= Severity::Blocking) {
             continue;
         }
-        let named = named_entities(&e);
-        // At the minor unit, like every other entry's amounts (the check refused more
-        // decimals, so this only adds zeros).
-        let at_minor = |x: Decimal| {
-            let mut x = x;
-            x.rescale(cx.minor);
-            x
-        };
-        let lines: Vec<EntryLine> = e
-            .rows
-            .iter()
-            .map(|r| {
-                let entity = r.entity.as_ref().unwrap_or(&first.scope);
-                line(&r.account, entity, r.counterparty.as_ref(), at_minor(r.amount))
-            })
-            .collect();
-        j.post(
-            EliminationRule::GroupAdjustment,
-            first.scope.clone(),
-            named,
-            format!(
-                "top-side {} booked {} in {}: {}; prepared by {} ({})",
-                e.id,
-                first.period,
-                first.scope,
-                first.reason,
-                first.prepared_by,
-                e.lines_text()
-            ),
-            lines,
+        let description = format!(
+            "top-side {} booked {} in {}: {}; prepared by {} ({})",
+            e.id,
+            first.period,
+            first.scope,
+            first.reason,
+            first.prepared_by,
+            e.lines_text()
         );
+        post_entry(j, cx, &e, &|a| a.clone(), description);
     }
     post_carried(j, cx, adj, &in_close);
 }
 
-/// The entities an entry's lines name, once each, in file order.
-fn named_entities(e: &TopsideEntry) -> Vec<EntityId> {
+/// Posts `e` as a `group_adjustment` entry at its scope, each line on the account
+/// `account_of` gives for the row's, naming the entities its lines name. Each line's
+/// entity is the one it names, else the scope; its amount at the minor unit, like every
+/// other entry's amounts (the check refused more decimals, so this only adds zeros).
+fn post_entry(
+    j: &mut Journal,
+    cx: &Context,
+    e: &TopsideEntry,
+    account_of: &dyn Fn(&GroupAccount) -> GroupAccount,
+    description: String,
+) {
+    let first = e.first();
     let mut named: Vec<EntityId> = Vec::new();
     for x in e.rows.iter().filter_map(|r| r.entity.as_ref()) {
         if !named.contains(x) {
             named.push(x.clone());
         }
     }
-    named
+    let lines: Vec<EntryLine> = e
+        .rows
+        .iter()
+        .map(|r| {
+            let mut x = r.amount;
+            x.rescale(cx.minor);
+            line(&account_of(&r.account), r.entity.as_ref().unwrap_or(&first.scope), r.counterparty.as_ref(), x)
+        })
+        .collect();
+    j.post(EliminationRule::GroupAdjustment, first.scope.clone(), named, description, lines);
 }
 
 /// Posts the entries of earlier fiscal years the folder holds (`GroupAdjustments::
@@ -374,26 +372,11 @@ fn post_carried(j: &mut Journal, cx: &Context, adj: &GroupAdjustments, in_close:
                 _ => a.clone(),
             }
         };
-        let named = named_entities(&e);
-        let lines: Vec<EntryLine> = e
-            .rows
-            .iter()
-            .map(|r| {
-                let mut x = r.amount;
-                x.rescale(cx.minor);
-                line(&closed_into(&r.account), r.entity.as_ref().unwrap_or(&first.scope), r.counterparty.as_ref(), x)
-            })
-            .collect();
-        j.post(
-            EliminationRule::GroupAdjustment,
-            first.scope.clone(),
-            named,
-            format!(
-                "top-side {} booked {} in {}, carried from its year (its profit or loss in retained earnings, its OCI in its reserve): {}; prepared by {}",
-                e.id, first.period, first.scope, first.reason, first.prepared_by
-            ),
-            lines,
+        let description = format!(
+            "top-side {} booked {} in {}, carried from its year (its profit or loss in retained earnings, its OCI in its reserve): {}; prepared by {}",
+            e.id, first.period, first.scope, first.reason, first.prepared_by
         );
+        post_entry(j, cx, &e, &closed_into, description);
     }
 }
 

@@ -126,10 +126,8 @@ pub fn post(
         ];
         if let Some((tax, t)) = tax.and_then(|x| Some((x, x.rate(buyer)?))) {
             let carried_tax: Decimal = earlier.iter().map(|(then, now)| cx.round(*now * t) - cx.round(*then * t)).sum();
-            let mut tax_lines = deferred_tax_lines(cx, tax, t, (seller, buyer), (urp_now, urp_open_then, urp_open_now));
-            tax_lines[1].amount += carried_tax;
-            tax_lines.push(line(&cx.roles.translation_reserve, seller, Some(buyer), -carried_tax));
-            lines.extend(tax_lines);
+            let amounts = (urp_now, urp_open_then, urp_open_now);
+            lines.extend(deferred_tax_lines(cx, tax, t, (seller, buyer), amounts, carried_tax));
         }
         lines.retain(|l| !(l.amount.is_zero() && l.account == cx.roles.translation_reserve));
         j.post(
@@ -185,18 +183,21 @@ fn earlier_years(
 /// part, in the buyer's books' currency as translated, mirrored on the seller's side
 /// (retained earnings for the opening, tax income of the year for the change, OCI for
 /// the exchange difference on the opening part), so that the NCI of an upstream seller
-/// shares the profit net of tax.
+/// shares the profit net of tax. `carried` is the tax on the earlier years' exchange
+/// differences ([`earlier_years`]): in the translation reserve, not retained earnings.
 fn deferred_tax_lines(
     cx: &Context,
     tax: &DeferredTax,
     t: Decimal,
     (seller, buyer): (&EntityId, &EntityId),
     (now, open_then, open_now): (Decimal, Decimal, Decimal),
+    carried: Decimal,
 ) -> Vec<EntryLine> {
     let (now, open_then, open_now) = (cx.round(now * t), cx.round(open_then * t), cx.round(open_now * t));
     vec![
         line(&tax.account, buyer, Some(seller), now),
-        line(&cx.roles.retained_earnings, seller, Some(buyer), -open_then),
+        line(&cx.roles.retained_earnings, seller, Some(buyer), -open_then + carried),
+        line(&cx.roles.translation_reserve, seller, Some(buyer), -carried),
         line(&tax.expense, seller, Some(buyer), -(now - open_now)),
         line(&cx.roles.translation_difference, seller, Some(buyer), -(open_now - open_then)),
     ]
