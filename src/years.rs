@@ -540,22 +540,19 @@ fn brought_forward(
         }
     }
     out.reserves_at_acquisition.extend(at_acquisition);
-    out.equity_method_share = close.equity_shares.clone();
+    out.equity_method_share = close.equity_shares.iter().map(|(k, v)| (k.clone(), v.to_date)).collect();
+    // Each holder's share of its associates' OCI of the year (IAS 28.10), the share's
+    // own: an exchange difference on unrealised profit with the associate is carried by
+    // its own entry.
+    for (k, v) in &close.equity_shares {
+        *out.equity_method_oci.entry(k.clone()).or_default() += v.oci_of_year;
+    }
     out.translation_reserve_at_acquisition.extend(translation_reserves_at_acquisition(prior, &close, prior_end)?);
-    for e in &close.journal {
-        for l in e.lines.iter().filter(|l| l.account == roles.translation_difference) {
-            let Some(cp) = &l.counterparty else { continue };
-            match e.rule {
-                // The holder's line of the investment entry reverses the year's exchange
-                // difference on its investment in `cp` (investment.rs).
-                crate::close::EliminationRule::InvestmentAndGoodwill => {
-                    *out.investment_fx.entry(l.entity.clone()).or_default() += l.amount;
-                }
-                crate::close::EliminationRule::EquityMethod => {
-                    *out.equity_method_oci.entry((l.entity.clone(), cp.clone())).or_default() -= l.amount;
-                }
-                _ => {}
-            }
+    // The holder's line of the investment entry reverses the year's exchange difference
+    // on its investment in the counterparty (investment.rs).
+    for e in close.journal.iter().filter(|e| e.rule == crate::close::EliminationRule::InvestmentAndGoodwill) {
+        for l in e.lines.iter().filter(|l| l.account == roles.translation_difference && l.counterparty.is_some()) {
+            *out.investment_fx.entry(l.entity.clone()).or_default() += l.amount;
         }
     }
     Ok(out)

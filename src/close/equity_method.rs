@@ -44,7 +44,7 @@ use super::aggregate::aggregate_one;
 use super::context::Context;
 use super::fair_value::{ExpenseRates, depreciated_to};
 use super::impairment::Dated;
-use super::journal::{EliminationRule, EntryLine, Journal, line};
+use super::journal::{EliminationRule, EntryLine, EquityShare, Journal, line};
 use crate::findings::{Finding, Rule, Severity};
 use crate::load::Dataset;
 use crate::model::*;
@@ -336,7 +336,8 @@ fn post_share(
     };
     let dividends = dividends_received(cx, &e.id);
     let div: Decimal = dividends.iter().map(|d| d.2).sum();
-    j.equity_shares.insert((holder.clone(), e.id.clone()), spr + sp + so - div);
+    j.equity_shares
+        .insert((holder.clone(), e.id.clone()), EquityShare { to_date: spr + sp + so - div, oci_of_year: so });
     let interests = inputs.long_term.get(&e.id).map(Vec::as_slice).unwrap_or_default();
     let c = cap_losses_at(net_investment_floors(cost, interests), spr, sp, so, div);
     let (to_investment, to_interests) = split_over_interests(cost, c.prior + c.profit + so - div, interests);
@@ -708,33 +709,35 @@ pub enum Direction {
 /// The entry lines that eliminate the investor's share of unrealised profit on goods
 /// between consolidated entity `group` and investee `investee` (held by `holder`):
 /// `now` the share at the period's closing rate, `open_then` and `open_now` the share
-/// counted at the opening at the opening and the period's closing rates. Downstream the
-/// seller's cost of sales bears it and the investment holds it (the goods are inside
-/// the investee); upstream the group's inventory is reduced and the share of result
-/// bears it. The opening part is in retained earnings, its exchange difference in OCI.
+/// counted at the opening at the opening and the period's closing rates, `carried` the
+/// earlier years' exchange differences on it (`unrealised_profit::earlier_years`).
+/// Downstream the seller's cost of sales bears it and the investment holds it (the goods
+/// are inside the investee); upstream the group's inventory is reduced and the share of
+/// result bears it. The opening part is in retained earnings but for the earlier years'
+/// exchange differences, which stay in the translation reserve (IAS 21.41); this year's
+/// is in OCI.
 pub fn unrealised_lines(
     cx: &Context,
     dir: Direction,
     (group, investee, holder): (&EntityId, &EntityId, &EntityId),
-    (now, open_then, open_now): (Decimal, Decimal, Decimal),
+    (now, open_then, open_now, carried): (Decimal, Decimal, Decimal, Decimal),
 ) -> Option<Vec<EntryLine>> {
     let roles = cx.roles;
     let (inventory, cogs) = (roles.inventory.as_ref()?, roles.cost_of_sales.as_ref()?);
     let (change, fx) = (now - open_now, open_now - open_then);
-    Some(match dir {
-        Direction::Downstream => vec![
-            line(&roles.equity_investments, holder, Some(investee), -now),
-            line(&roles.retained_earnings, group, Some(investee), open_then),
-            line(cogs, group, Some(investee), change),
-            line(&roles.translation_difference, group, Some(investee), fx),
-        ],
-        Direction::Upstream => vec![
-            line(inventory, group, Some(investee), -now),
-            line(&roles.retained_earnings, holder, Some(investee), open_then),
-            line(&roles.equity_result, holder, Some(investee), change),
-            line(&roles.translation_difference, holder, Some(investee), fx),
-        ],
-    })
+    // Who bears the elimination, which asset holds the goods and whose, and the line of
+    // the year's change.
+    let (bearer, (asset, of), result) = match dir {
+        Direction::Downstream => (group, (&roles.equity_investments, holder), cogs),
+        Direction::Upstream => (holder, (inventory, group), &roles.equity_result),
+    };
+    Some(vec![
+        line(asset, of, Some(investee), -now),
+        line(&roles.retained_earnings, bearer, Some(investee), open_then - carried),
+        line(&roles.translation_reserve, bearer, Some(investee), carried),
+        line(result, bearer, Some(investee), change),
+        line(&roles.translation_difference, bearer, Some(investee), fx),
+    ])
 }
 
 /// The investee of an `inventory_profit.csv` pair and the direction, when one side is
@@ -761,7 +764,7 @@ pub fn post_unrealised(
     cx: &Context,
     (e, dir): (&EntityStructure, Direction),
     group: &EntityId,
-    amounts: (Decimal, Decimal, Decimal),
+    amounts: (Decimal, Decimal, Decimal, Decimal),
     text: String,
 ) {
     let holder = holder_of(cx, e);
@@ -1315,15 +1318,16 @@ mod tests {
         assert!(found[0].message.contains("185.00 exceed its carrying amount 120.00"), "{}", found[0].message);
     }
 
-    /// P's share of unrealised profit now 30, at the opening 20 (24 at today's rate).
-    /// Downstream (P sold to A): the investment -30, P's retained earnings +20, cost of
-    /// sales +6, OCI +4. Upstream (A sold to P): P's inventory -30, the share of result
-    /// bears the change.
+    /// P's share of unrealised profit now 30, at the opening 20 (24 at today's rate), of
+    /// which 3 earlier years' exchange differences. Downstream (P sold to A): the
+    /// investment -30, P's retained earnings +17 and translation reserve +3, cost of sales
+    /// +6, OCI +4. Upstream (A sold to P): P's inventory -30, the share of result bears
+    /// the change.
     #[test]
     fn unrealised_profit_with_an_investee_both_ways() {
         let w = world();
         let cx = w.context(p("2026-06"), p("2026-01"), Default::default());
-        let amounts = (d("30"), d("20"), d("24"));
+        let amounts = (d("30"), d("20"), d("24"), d("3"));
         let who = (&id("P"), &id("A"), &id("P"));
         let got = |dir| {
             unrealised_lines(&cx, dir, who, amounts)
@@ -1334,8 +1338,13 @@ mod tests {
         };
         let s = |a: &str, x: &str| (a.to_string(), x.to_string());
         // The lines before the journal drops those of no amount.
-        assert_eq!(got(Direction::Downstream), [s("1300", "-30"), s("3200", "20"), s("5000", "6"), s("9000", "4")]);
-        assert_eq!(got(Direction::Upstream), [s("1500", "-30"), s("3200", "20"), s("4900", "6"), s("9000", "4")]);
+        let tr = cx.roles.translation_reserve.to_string();
+        let got_down = got(Direction::Downstream);
+        assert_eq!(got_down, [s("1300", "-30"), s("3200", "17"), s(&tr, "3"), s("5000", "6"), s("9000", "4")]);
+        assert_eq!(
+            got(Direction::Upstream),
+            [s("1500", "-30"), s("3200", "17"), s(&tr, "3"), s("4900", "6"), s("9000", "4")]
+        );
         assert_eq!(investee_pair(&cx, &id("P"), &id("A")).map(|x| x.1), Some(Direction::Downstream));
         assert_eq!(investee_pair(&cx, &id("A"), &id("P")).map(|x| x.1), Some(Direction::Upstream));
         assert!(investee_pair(&cx, &id("A"), &id("A")).is_none());

@@ -115,10 +115,23 @@ impl Entry {
 #[derive(Debug, Default)]
 pub struct Journal {
     pub entries: Vec<Entry>,
-    /// What the equity method measured per holder and investee: the share since
-    /// acquisition to the period end (`equity_method::post_share`), which the next
-    /// year brings forward (`BroughtForward::equity_method_share`).
-    pub equity_shares: std::collections::BTreeMap<(EntityId, EntityId), Decimal>,
+    /// What the equity method measured per holder and investee
+    /// (`equity_method::post_share`), which the next year brings forward.
+    pub equity_shares: std::collections::BTreeMap<(EntityId, EntityId), EquityShare>,
+}
+
+/// The equity method's measure of one holder's interest in one investee at the period
+/// end, as the close rounded it: what a later year's opening carries.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub struct EquityShare {
+    /// The share since acquisition to the period end, less dividends received
+    /// (`BroughtForward::equity_method_share`).
+    pub to_date: Decimal,
+    /// The share of the investee's OCI of the fiscal year, which the year end closes
+    /// into the translation reserve (`BroughtForward::equity_method_oci`). Only the share's
+    /// own: the exchange difference on unrealised profit with the investee is carried by
+    /// its own entry (`unrealised_profit::earlier_years`).
+    pub oci_of_year: Decimal,
 }
 
 impl Journal {

@@ -65,7 +65,7 @@ use crate::translate::Translated;
 
 pub use aggregate::{aggregate, year_start};
 pub use investment::findings as acquisition_findings;
-pub use journal::{EliminationRule, Entry, EntryLine, Journal};
+pub use journal::{EliminationRule, Entry, EntryLine, EquityShare, Journal};
 pub use prove::prove;
 pub use roll_up::roll_up;
 
@@ -151,9 +151,8 @@ pub struct Close {
     /// Each subsidiary's post-acquisition exchange differences that its NCI shares,
     /// debit positive (`nci::differences`): what a change in stake reattributes.
     pub differences: BTreeMap<EntityId, Decimal>,
-    /// The equity method's share since acquisition per holder and investee
-    /// (`Journal::equity_shares`).
-    pub equity_shares: BTreeMap<(EntityId, EntityId), Decimal>,
+    /// The equity method's measure per holder and investee (`Journal::equity_shares`).
+    pub equity_shares: BTreeMap<(EntityId, EntityId), EquityShare>,
 }
 
 /// The close at the last month end before an ownership change (the month rule of

@@ -100,6 +100,10 @@ pub fn post(
         ) else {
             continue;
         };
+        // The opening as the earlier years' closes left it: their exchange differences
+        // on it in the translation reserve (IAS 21.41), the rest in retained earnings.
+        let earlier = earlier_years(cx, items, (seller, buyer), share, bc);
+        let carried: Decimal = earlier.iter().map(|(then, now)| now - then).sum();
         if let Some(pair) = investee {
             let group = if pair.1 == equity_method::Direction::Downstream { seller } else { buyer };
             let text = format!(
@@ -110,13 +114,11 @@ pub fn post(
                 share.normalize(),
                 money::format_amount(urp_now, cx.minor)
             );
-            equity_method::post_unrealised(j, cx, pair, group, (urp_now, urp_open_then, urp_open_now), text);
+            equity_method::post_unrealised(j, cx, pair, group, (urp_now, urp_open_then, urp_open_now, carried), text);
             continue;
         }
         let change = urp_now - urp_open_now;
         let fx = urp_open_now - urp_open_then;
-        let earlier = earlier_years(cx, items, (seller, buyer), share, bc);
-        let carried: Decimal = earlier.iter().map(|(then, now)| now - then).sum();
         let mut lines = vec![
             line(inventory, buyer, Some(seller), -urp_now),
             line(&cx.roles.retained_earnings, seller, Some(buyer), urp_open_then - carried),
