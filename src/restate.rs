@@ -348,7 +348,8 @@ fn rows_frame(rows: &[Row]) -> PolarsResult<DataFrame> {
 /// The findings of the IAS 29 inputs for a close of `fiscal_start..=last`: the net
 /// monetary position account, a missing index of a month the restatement needs, an
 /// unclassified asset or liability of a hyperinflationary entity, what the close cannot
-/// restate of an acquired one ([`acquisition_findings`]; all blocking), and the indices
+/// restate of an acquired one ([`acquisition_findings`]), a restated entity in a group
+/// with a statement of cash flows (all blocking), and the indices
 /// of a currency no hyperinflationary entity uses (a warning). `method_of` is the
 /// structure's consolidation method at `last`.
 pub fn findings(
@@ -401,6 +402,23 @@ pub fn findings(
                         e.currency.code()
                     ),
                     "present the group in a currency that is not hyperinflationary, or restate outside tessera",
+                )
+                .at(&e.source)
+                .entity(&e.id),
+            );
+        }
+        // The statement of cash flows takes a restated entity's movements as flows: the
+        // restatement of its non-monetary items (IAS 29.15-19) and its net monetary
+        // position would show as cash flows of the lines they restate.
+        if ds.cash_flow_lines.is_some() {
+            out.push(
+                Finding::new(
+                    Rule::RestatementUnsupported,
+                    format!(
+                        "{} is restated for hyperinflation in the year and the group has a statement of cash flows, which does not yet take the restatement of non-monetary items and the net monetary position out of the cash flows (IAS 7 with IAS 29.33)",
+                        e.id
+                    ),
+                    "close without entities/cash_flow_lines.csv (the other statements are unaffected), or without the entity, until the statement of cash flows supports a hyperinflationary entity",
                 )
                 .at(&e.source)
                 .entity(&e.id),

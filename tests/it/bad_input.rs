@@ -831,6 +831,16 @@ fn cases() -> Vec<Case> {
             code: 1,
         },
         Case {
+            name: "a hyperinflationary entity in a group with a statement of cash flows",
+            mutate: |f| {
+                // Every index, the monetary classes and the account for the net monetary
+                // position are there: only the statement of cash flows blocks.
+                hyperinflationary_mx(f, None);
+            },
+            rule: Some("RestatementUnsupported"),
+            code: 1,
+        },
+        Case {
             name: "a hyperinflationary entity in the presentation currency",
             mutate: |f| {
                 f.replace("entities/entities.csv", "NL,EUR,Europe,Corporate,\n", "NL,EUR,Europe,Corporate,2026-01\n")

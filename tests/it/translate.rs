@@ -285,6 +285,25 @@ fn hyperinflationary_entity_at_closing_rate_throughout() {
     assert_eq!(dec(&m["rounding"]), "0.00");
     assert_eq!(dec(&m["total"]), "-20.00");
     assert_eq!(dec(&m["on_profit"]), "0.00");
+    // The statement of cash flows would take the restatement of the equity (1,000 ->
+    // 1,250) and the net monetary position as flows: with one, the close blocks, and
+    // says so, rather than present them (IAS 29.33 with IAS 7).
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 0, "{v:#}");
+    f.write(
+        "entities/cash_flow_lines.csv",
+        "account,section,line,label,against,note
+4000,operating,profit_before_tax,Profit before tax,,
+",
+    );
+    let (code, v) = run_json(f.path(), &["check", "--period", "2026-01"]);
+    assert_eq!(code, 1, "{v:#}");
+    let said = v["findings"].as_array().unwrap().iter().any(|x| {
+        x["rule"] == "RestatementUnsupported"
+            && x["entity"] == "S"
+            && x["message"].as_str().unwrap().contains("statement of cash flows")
+    });
+    assert!(said, "{:#}", v["findings"]);
 }
 
 /// The explanation of a hyperinflationary entity's translation difference, on the case
